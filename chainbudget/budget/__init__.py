@@ -1,0 +1,78 @@
+"""The budget of a chain: plain numbers computed from a validated chain, no formatting.
+
+`compute` runs the analysis once and gathers every figure the views and the findings read,
+so a number shown in the table, the JSON and a plot comes from one field here.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from chainbudget.budget.analysis import Analysis, analyse
+from chainbudget.budget.levels import NodeLevels, VolumeClip, node_levels, volume_clip_rotation
+from chainbudget.budget.staging import (
+    Boost,
+    FloatingInput,
+    StageHeadroom,
+    SupplyRange,
+    floating_inputs,
+    post_volume_headroom,
+    supply_ranges,
+    tone_boosts,
+)
+from chainbudget.chainfile import Chain
+
+
+@dataclass(frozen=True)
+class Budget:
+    """Every figure of one chain (SI units; dB where the name says so)."""
+
+    title: str
+    file: str
+    reference_hz: float
+    band_hz: tuple[float, float]
+    ambient_degc: float
+    source_level_vrms: float
+    source_max_level_vrms: float
+    nodes: tuple[NodeLevels, ...]
+    first_clip: str | None
+    output_stage: str | None
+    volume_clip: VolumeClip | None
+    post_volume: tuple[StageHeadroom, ...]
+    boosts: tuple[Boost, ...]
+    supply_ranges: tuple[SupplyRange, ...]
+    floating: tuple[FloatingInput, ...]
+    has_mains: bool
+
+
+def compute(chain: Chain) -> Budget:
+    """Work out the whole budget of a chain."""
+    analysis = analyse(chain)
+    return budget_from(analysis)
+
+
+def budget_from(analysis: Analysis) -> Budget:
+    """The budget of an already solved chain."""
+    chain = analysis.chain
+    nodes = node_levels(analysis)
+    limited = [k for k, n in enumerate(nodes) if n.headroom_db is not None]
+    first_clip = min(limited, key=lambda k: nodes[k].headroom_db or 0.0) if limited else None
+    output_index = limited[-1] if limited else None
+    return Budget(
+        title=chain.settings.title,
+        file=chain.file,
+        reference_hz=chain.settings.reference,
+        band_hz=chain.settings.band,
+        ambient_degc=chain.settings.ambient,
+        source_level_vrms=chain.source.level,
+        source_max_level_vrms=chain.source.max_level,
+        nodes=tuple(nodes),
+        first_clip=None if first_clip is None else nodes[first_clip].stage,
+        output_stage=None if output_index is None else nodes[output_index].stage,
+        volume_clip=None if output_index is None else volume_clip_rotation(analysis, output_index),
+        post_volume=tuple(post_volume_headroom(analysis)),
+        boosts=tuple(tone_boosts(analysis, nodes)),
+        supply_ranges=tuple(supply_ranges(analysis)),
+        floating=tuple(floating_inputs(analysis)),
+        has_mains=any(s.kind == "rectified" for s in chain.supplies),
+    )

@@ -1,0 +1,131 @@
+"""The numeric state every budget reads: frequency grid, control axes and the cascades.
+
+`analyse` solves the chain three ways: with every control as set (the nominal figures),
+with every swept control on its own axis (the worst-case search), and with the volume pot
+on a fine axis at the reference frequency (the rotation at which the output clips).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass
+
+import numpy as np
+from numpy.typing import NDArray
+from scipy.constants import zero_Celsius
+
+from chainbudget.cascade import Cascade, cascade, solve_stage
+from chainbudget.chainfile import Chain
+from chainbudget.spectrum import log_frequency_grid
+from chainbudget.stages import KINDS
+from chainbudget.stages.base import Control, Environment
+from chainbudget.supplies.tree import stage_rails, supply_voltages
+
+# Rotations tried for each swept pot in the worst-case search (and the setting itself).
+SWEEP_POINTS = 11
+# Rotations tried for the volume pot when finding where the output starts to clip.
+VOLUME_POINTS = 401
+
+
+@dataclass(frozen=True)
+class SweptControl:
+    """A control on the worst-case grid: its stage, its axis and its rotations."""
+
+    stage_index: int
+    control: Control
+    axis: int
+    rotations: NDArray[np.float64]
+
+
+@dataclass(frozen=True)
+class Analysis:
+    """Everything solved for one chain; index 0 of the frequency axis is the reference."""
+
+    chain: Chain
+    frequency: NDArray[np.float64]
+    envs: tuple[Environment, ...]
+    nominal: Cascade
+    swept: Cascade
+    swept_controls: tuple[SweptControl, ...]
+    volume_index: int | None
+    volume_rotations: NDArray[np.float64]
+    volume_sweep: Cascade | None
+
+    @property
+    def band_slice(self) -> slice:
+        """The band grid within the frequency axis (index 0 is the reference)."""
+        return slice(1, None)
+
+    @property
+    def temperature_k(self) -> float:
+        return self.chain.settings.ambient + zero_Celsius
+
+
+def frequency_axis(chain: Chain) -> NDArray[np.float64]:
+    """The reference frequency followed by the log-spaced band grid, Hz."""
+    s = chain.settings
+    grid = log_frequency_grid(s.band[0], s.band[1], s.points_per_decade)
+    return np.concatenate(([s.reference], grid))
+
+
+def environments(chain: Chain, corner: str = "nominal") -> tuple[Environment, ...]:
+    """Each stage's environment: temperature, parts and rails at a supply corner."""
+    voltages = supply_voltages(chain)
+    temperature = chain.settings.ambient + zero_Celsius
+    return tuple(
+        Environment(
+            temperature, chain.opamps, chain.transistors, stage_rails(stage, voltages, corner)
+        )
+        for stage in chain.stages
+    )
+
+
+def _positions_as_set(chain: Chain) -> list[dict[str, float]]:
+    return [{c.key: c.position for c in KINDS[st.kind].controls(st)} for st in chain.stages]
+
+
+def solve_chain(
+    chain: Chain,
+    envs: tuple[Environment, ...],
+    frequency: NDArray[np.float64],
+    positions: list[Mapping[str, object]],
+) -> Cascade:
+    """Solve every stage and cascade them between the source and the load."""
+    solutions = [
+        solve_stage(stage, env, frequency, pos)  # type: ignore[arg-type]
+        for stage, env, pos in zip(chain.stages, envs, positions, strict=True)
+    ]
+    return cascade(solutions, chain.source.impedance, chain.load.impedance)
+
+
+def analyse(chain: Chain, corner: str = "nominal") -> Analysis:
+    """Solve the chain nominally, over the worst-case control grid and the volume axis."""
+    frequency = frequency_axis(chain)
+    envs = environments(chain, corner)
+    as_set = _positions_as_set(chain)
+    nominal = solve_chain(chain, envs, frequency, list(as_set))
+
+    swept: list[SweptControl] = []
+    for k, stage in enumerate(chain.stages):
+        for control in KINDS[stage.kind].controls(stage):
+            if control.sweep:
+                rotations = np.unique(np.r_[np.linspace(0.0, 1.0, SWEEP_POINTS), control.position])
+                swept.append(SweptControl(k, control, len(swept), rotations))
+    n_axes = len(swept)
+    grid_positions: list[dict[str, object]] = [dict(p) for p in as_set]
+    for sc in swept:
+        shape = [1] * (n_axes + 1)
+        shape[sc.axis] = sc.rotations.size
+        grid_positions[sc.stage_index][sc.control.key] = sc.rotations.reshape(shape)
+    worst = solve_chain(chain, envs, frequency, grid_positions) if swept else nominal
+
+    volume_index = next((k for k, st in enumerate(chain.stages) if st.kind == "volume"), None)
+    rotations = np.linspace(0.0, 1.0, VOLUME_POINTS)
+    volume_sweep = None
+    if volume_index is not None:
+        fine: list[dict[str, object]] = [dict(p) for p in as_set]
+        fine[volume_index]["position"] = rotations[:, None]
+        volume_sweep = solve_chain(chain, envs, frequency[:1], fine)
+    return Analysis(
+        chain, frequency, envs, nominal, worst, tuple(swept), volume_index, rotations, volume_sweep
+    )

@@ -1,0 +1,174 @@
+"""Gain staging and headroom at every node, nominally and in the worst case.
+
+Notes
+-----
+Each stage declares swing limits as a peak bound on a linear probe of its network (output
+voltage within the rails, op-amp output current, slew-limited voltage SR/(2 pi f), a
+follower's emitter current, ...). With the probe q per volt of source voltage, the source
+peak at which limit l is reached is L_l/|q_l|; the node's clip level is the tightest of
+these carried to the node, and its headroom at ``max_level`` is
+min_l(L_l/|q_l|) / (sqrt(2) V_max), in dB.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from numpy.typing import NDArray
+
+from chainbudget.budget.analysis import Analysis
+from chainbudget.cascade import Cascade
+
+SQRT2 = float(np.sqrt(2.0))
+
+
+@dataclass(frozen=True)
+class WorstCase:
+    """Where the worst-case headroom of a node occurs."""
+
+    headroom_db: float
+    frequency_hz: float
+    controls: dict[str, float]
+    limited_by: str
+
+
+@dataclass(frozen=True)
+class NodeLevels:
+    """Level figures of one stage's output node (nominal controls, reference frequency)."""
+
+    stage: str
+    kind: str
+    gain_db: float
+    total_gain_db: float
+    level_vrms: float
+    max_level_vrms: float
+    clip_vpk: float | None
+    headroom_db: float | None
+    nominal_headroom_db: float | None
+    limited_by: str | None
+    limit_what: str | None
+    worst: WorstCase | None
+    zout_ohm: float
+    zload_ohm: float
+
+
+def db(ratio: NDArray[np.float64] | float) -> NDArray[np.float64]:
+    """20 log10 of an amplitude ratio, -inf for zero without a warning."""
+    with np.errstate(divide="ignore"):
+        return np.asarray(20.0 * np.log10(np.abs(ratio)), dtype=float)
+
+
+def clip_source_peak(cas: Cascade, k: int) -> tuple[NDArray[np.float64], NDArray[np.intp]] | None:
+    """Source open-circuit peak voltage at which stage k reaches its tightest limit.
+
+    Returns the peak (shape ``batch + (F,)``) and the index of the binding limit, or None
+    for a stage that declares no limit.
+    """
+    limits = cas.stages[k].built.limits
+    if not limits:
+        return None
+    with np.errstate(divide="ignore"):
+        peaks = [np.asarray(lim.peak) / np.abs(cas.probe(k, lim.probe)) for lim in limits]
+    stacked = np.stack(np.broadcast_arrays(*peaks))
+    return stacked.min(axis=0), stacked.argmin(axis=0)
+
+
+def set_point_index(analysis: Analysis, overrides: dict[str, float] | None = None) -> tuple:
+    """Index into the swept grid with every control as set (or as ``overrides`` says)."""
+    overrides = overrides or {}
+    index: list[int | slice] = []
+    for sc in analysis.swept_controls:
+        wanted = overrides.get(sc.control.label, sc.control.position)
+        index.append(int(np.argmin(np.abs(sc.rotations - wanted))))
+    return (*index, slice(None))
+
+
+def node_levels(analysis: Analysis) -> list[NodeLevels]:
+    """Per-stage gain, level, clip level and headroom (nominal and worst case)."""
+    chain = analysis.chain
+    nominal, swept = analysis.nominal, analysis.swept
+    max_peak = SQRT2 * chain.source.max_level
+    found: list[NodeLevels] = []
+    for k, sol in enumerate(nominal.stages):
+        v_out = nominal.v_out[k][..., 0]
+        gain = v_out / nominal.v_in[k][..., 0]
+        clip = clip_source_peak(nominal, k)
+        clip_vpk = headroom = nominal_headroom = None
+        limited_by = limit_what = None
+        worst = None
+        if clip is not None:
+            peak, which = clip[0][..., 0], int(clip[1][..., 0])
+            limit = sol.built.limits[which]
+            clip_vpk = float(peak * abs(v_out))
+            headroom = float(db(peak / max_peak))
+            nominal_headroom = float(db(peak / (SQRT2 * chain.source.level)))
+            limited_by, limit_what = limit.name, limit.what
+            worst = _worst_case(analysis, swept, k)
+        found.append(
+            NodeLevels(
+                stage=sol.stage.name,
+                kind=sol.stage.kind,
+                gain_db=float(db(gain)),
+                total_gain_db=float(db(v_out)),
+                level_vrms=float(chain.source.level * abs(v_out)),
+                max_level_vrms=float(chain.source.max_level * abs(v_out)),
+                clip_vpk=clip_vpk,
+                headroom_db=headroom,
+                nominal_headroom_db=nominal_headroom,
+                limited_by=limited_by,
+                limit_what=limit_what,
+                worst=worst,
+                zout_ohm=float(abs(nominal.output_impedance[k][..., 0])),
+                zload_ohm=float(abs(1.0 / nominal.load_admittance[k][..., 0])),
+            )
+        )
+    return found
+
+
+def _worst_case(analysis: Analysis, swept: Cascade, k: int) -> WorstCase:
+    clip = clip_source_peak(swept, k)
+    assert clip is not None
+    peak, which = clip
+    flat = int(np.argmin(peak))
+    where = np.unravel_index(flat, peak.shape)
+    controls = {
+        sc.control.label: float(sc.rotations[where[sc.axis]])
+        if peak.shape[sc.axis] > 1
+        else sc.control.position
+        for sc in analysis.swept_controls
+    }
+    limit = swept.stages[k].built.limits[int(which[where])]
+    return WorstCase(
+        headroom_db=float(db(peak[where] / (SQRT2 * analysis.chain.source.max_level))),
+        frequency_hz=float(analysis.frequency[where[-1]]),
+        controls=controls,
+        limited_by=limit.name,
+    )
+
+
+@dataclass(frozen=True)
+class VolumeClip:
+    """Rotation of the volume pot at which the nominal level first clips the output stage."""
+
+    stage: str
+    output_stage: str
+    rotation: float | None
+
+
+def volume_clip_rotation(analysis: Analysis, output_index: int) -> VolumeClip | None:
+    """Smallest volume rotation at which the nominal level reaches the output's clip level.
+
+    ``rotation`` is None when even full rotation leaves the output short of clipping.
+    """
+    if analysis.volume_sweep is None or analysis.volume_index is None:
+        return None
+    if output_index < analysis.volume_index:
+        return None
+    clip = clip_source_peak(analysis.volume_sweep, output_index)
+    assert clip is not None
+    peak = clip[0][..., 0]
+    clipping = peak < SQRT2 * analysis.chain.source.level
+    rotation = float(analysis.volume_rotations[np.argmax(clipping)]) if clipping.any() else None
+    stages = analysis.chain.stages
+    return VolumeClip(stages[analysis.volume_index].name, stages[output_index].name, rotation)

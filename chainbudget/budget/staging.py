@@ -1,0 +1,132 @@
+"""Gain-staging checks that compare nodes: clip order behind the volume, tone boost against
+the headroom before it, op-amp supply range and DC paths of op-amp inputs."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from chainbudget.budget.analysis import Analysis
+from chainbudget.budget.levels import SQRT2, NodeLevels, clip_source_peak, db, set_point_index
+from chainbudget.stages import KINDS
+from chainbudget.stages.base import opamp_part
+
+
+@dataclass(frozen=True)
+class StageHeadroom:
+    """A stage's least headroom over the band at max level, in one control setting, dB."""
+
+    stage: str
+    headroom_db: float
+    frequency_hz: float
+
+
+@dataclass(frozen=True)
+class Boost:
+    """A tone stage's greatest gain over the band at full boost, against the headroom of the
+    node before it (dB)."""
+
+    stage: str
+    boost_db: float
+    frequency_hz: float
+    upstream_stage: str
+    upstream_headroom_db: float
+
+
+@dataclass(frozen=True)
+class SupplyRange:
+    """An op-amp stage's total supply against its part's rated range, V."""
+
+    stage: str
+    opamp: str
+    total_v: float
+    min_v: float | None
+    max_v: float | None
+
+
+@dataclass(frozen=True)
+class FloatingInput:
+    """An op-amp input with no DC path to a defined potential."""
+
+    stage: str
+    pin: str
+
+
+def post_volume_headroom(analysis: Analysis) -> list[StageHeadroom]:
+    """Least headroom over the band of every limited stage behind the volume control, with the
+    volume fully up and the other controls as set (the order in which they clip as the
+    volume rises)."""
+    if analysis.volume_index is None:
+        return []
+    volume = analysis.chain.stages[analysis.volume_index]
+    index = set_point_index(analysis, {f"{volume.name}.position": 1.0})
+    found = []
+    for k in range(analysis.volume_index + 1, len(analysis.chain.stages)):
+        clip = clip_source_peak(analysis.swept, k)
+        if clip is None:
+            continue
+        peak = np.broadcast_to(clip[0], analysis.swept.v_out[k].shape)[index]
+        at = int(np.argmin(peak))
+        found.append(
+            StageHeadroom(
+                analysis.chain.stages[k].name,
+                float(db(peak[at] / (SQRT2 * analysis.chain.source.max_level))),
+                float(analysis.frequency[at]),
+            )
+        )
+    return found
+
+
+def tone_boosts(analysis: Analysis, nodes: list[NodeLevels]) -> list[Boost]:
+    """For each stage with tone controls: its gain at full boost against upstream headroom."""
+    found = []
+    swept = analysis.swept
+    for k, stage in enumerate(analysis.chain.stages):
+        controls = [c for c in KINDS[stage.kind].controls(stage) if c.sweep]
+        if not controls or stage.kind == "volume":
+            continue
+        upstream = next(
+            (nodes[j] for j in range(k - 1, -1, -1) if nodes[j].headroom_db is not None), None
+        )
+        if upstream is None or upstream.headroom_db is None:
+            continue
+        index = set_point_index(analysis, {c.label: 1.0 for c in controls})
+        gain = np.abs(swept.v_out[k] / swept.v_in[k])
+        gain = np.broadcast_to(gain, np.broadcast_shapes(gain.shape, swept.v_out[k].shape))[index]
+        at = int(np.argmax(gain))
+        found.append(
+            Boost(
+                stage.name,
+                float(db(gain[at])),
+                float(analysis.frequency[at]),
+                upstream.stage,
+                upstream.headroom_db,
+            )
+        )
+    return found
+
+
+def supply_ranges(analysis: Analysis) -> list[SupplyRange]:
+    """Total supply of every op-amp stage and its part's rated range."""
+    found = []
+    for stage, env in zip(analysis.chain.stages, analysis.envs, strict=True):
+        if KINDS[stage.kind].uses_opamp and env.rails is not None:
+            part = opamp_part(stage, env)
+            found.append(
+                SupplyRange(
+                    stage.name, part.name, env.rails.total, part.min_supply, part.max_supply
+                )
+            )
+    return found
+
+
+def floating_inputs(analysis: Analysis) -> list[FloatingInput]:
+    """Op-amp inputs with no DC path, following DC definition from the source onwards."""
+    found = []
+    defined = True  # the source is resistive: it gives the first input a DC path
+    for stage in analysis.chain.stages:
+        kind = KINDS[stage.kind]
+        found += [FloatingInput(stage.name, pin) for pin in kind.floating_inputs(stage, defined)]
+        defined = kind.output_defined(stage)
+    return found

@@ -1,0 +1,173 @@
+"""Field schemas: how each key of a chain file is read, checked, documented and written back.
+
+A `Field` pairs a TOML key with a `FieldKind` (the reader into SI floats, the writer back to
+TOML text and the unit shown in the docs). Stage, supply and part modules declare their
+fields here once; the loader, `chainbudget blocks` and the TOML writer all read the same
+declaration.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass
+from typing import Any
+
+from chainbudget import units
+from chainbudget.units import UnitParseError
+
+
+class _Required:
+    def __repr__(self) -> str:
+        return "REQUIRED"
+
+
+REQUIRED: Any = _Required()
+
+
+@dataclass(frozen=True)
+class FieldKind:
+    """How a value of one kind is read from TOML and written back.
+
+    Parameters
+    ----------
+    unit : str
+        What the docs show as the unit or form ("ohm", "level", "0..1", ...).
+    read : callable
+        TOML value -> Python value (SI float, str, bool); raises UnitParseError.
+    write : callable
+        Python value -> TOML value that `read` turns back into an equal value.
+    """
+
+    unit: str
+    read: Callable[[object], Any]
+    write: Callable[[Any], Any]
+
+
+@dataclass(frozen=True)
+class Field:
+    """One key of a table: its kind, its meaning and its default (REQUIRED when none)."""
+
+    key: str
+    kind: FieldKind
+    meaning: str
+    default: Any = REQUIRED
+
+    @property
+    def required(self) -> bool:
+        return self.default is REQUIRED
+
+
+def _positive(read: Callable[[object], float], what: str) -> Callable[[object], float]:
+    def checked(value: object) -> float:
+        number = read(value)
+        if not number > 0.0:
+            raise UnitParseError(value, f"{what} above zero")
+        return number
+
+    return checked
+
+
+def _non_negative(read: Callable[[object], float], what: str) -> Callable[[object], float]:
+    def checked(value: object) -> float:
+        number = read(value)
+        if number < 0.0:
+            raise UnitParseError(value, f"{what} of zero or more")
+        return number
+
+    return checked
+
+
+def _quantity(dimension: units.Dimension) -> Callable[[object], float]:
+    return lambda value: units.parse_quantity(value, dimension)
+
+
+def _with_unit(unit: str) -> Callable[[float], str]:
+    return lambda number: f"{number!r} {unit}"
+
+
+def _read_position(value: object) -> float:
+    number = units.parse_quantity(value, units.DIMENSIONLESS)
+    if not 0.0 <= number <= 1.0:
+        raise UnitParseError(value, "a pot position from 0 to 1")
+    return number
+
+
+def _read_taper(value: object) -> str | float:
+    if value in ("linear", "log"):
+        return str(value)
+    if isinstance(value, int | float) and not isinstance(value, bool) and 0.0 < value < 1.0:
+        return float(value)
+    raise UnitParseError(value, '"linear", "log" or the fraction at mid rotation (0 to 1)')
+
+
+def _read_bool(value: object) -> bool:
+    if isinstance(value, bool):
+        return value
+    raise UnitParseError(value, "true or false")
+
+
+def _read_name(value: object) -> str:
+    if isinstance(value, str) and value.strip():
+        return value
+    raise UnitParseError(value, "a name in quotes")
+
+
+def _read_integer(value: object) -> int:
+    if isinstance(value, int) and not isinstance(value, bool) and value > 0:
+        return value
+    raise UnitParseError(value, "a whole number above zero")
+
+
+def choice(*options: str) -> FieldKind:
+    """A field that takes one of a fixed set of words."""
+
+    def read(value: object) -> str:
+        if isinstance(value, str) and value in options:
+            return value
+        listed = ", ".join(f'"{option}"' for option in options)
+        raise UnitParseError(value, f"one of {listed}")
+
+    return FieldKind(" | ".join(options), read, str)
+
+
+RESISTANCE = FieldKind("ohm", _positive(_quantity(units.OHM), "a resistance"), _with_unit("ohm"))
+RESISTANCE_OR_ZERO = FieldKind(
+    "ohm", _non_negative(_quantity(units.OHM), "a resistance"), _with_unit("ohm")
+)
+CAPACITANCE = FieldKind(
+    "F", _positive(_quantity(units.FARAD), "a capacitance"), _with_unit("farad")
+)
+FREQUENCY = FieldKind("Hz", _positive(_quantity(units.HERTZ), "a frequency"), _with_unit("Hz"))
+VOLTAGE = FieldKind("V", _quantity(units.VOLT), _with_unit("V"))
+POSITIVE_VOLTAGE = FieldKind("V", _positive(_quantity(units.VOLT), "a voltage"), _with_unit("V"))
+VOLTAGE_OR_ZERO = FieldKind("V", _non_negative(_quantity(units.VOLT), "a voltage"), _with_unit("V"))
+CURRENT = FieldKind("A", _non_negative(_quantity(units.AMPERE), "a current"), _with_unit("A"))
+POSITIVE_CURRENT = FieldKind("A", _positive(_quantity(units.AMPERE), "a current"), _with_unit("A"))
+SLEW_RATE = FieldKind("V/s", _positive(_quantity(units.SLEW), "a slew rate"), _with_unit("V/s"))
+NOISE_VOLTAGE = FieldKind(
+    "V/rtHz",
+    _non_negative(_quantity(units.NOISE_VOLTAGE), "a noise density"),
+    _with_unit("V/rtHz"),
+)
+NOISE_CURRENT = FieldKind(
+    "A/rtHz",
+    _non_negative(_quantity(units.NOISE_CURRENT), "a noise density"),
+    _with_unit("A/rtHz"),
+)
+THERMAL_RESISTANCE = FieldKind(
+    "K/W",
+    _non_negative(_quantity(units.THERMAL_RESISTANCE), "a thermal resistance"),
+    _with_unit("K/W"),
+)
+CHARGE = FieldKind("Ah", _positive(_quantity(units.CHARGE), "a capacity"), _with_unit("Ah"))
+TEMPERATURE = FieldKind("degC", units.parse_temperature, _with_unit("degC"))
+LEVEL = FieldKind("level (Vrms, Vpk, Vpp, dBV, dBu)", units.parse_level, _with_unit("Vrms"))
+GAIN = FieldKind("dB or ratio", units.parse_gain, float)
+DECIBELS = FieldKind("dB", units.parse_db, _with_unit("dB"))
+FRACTION = FieldKind("fraction or %", _non_negative(units.parse_fraction, "a fraction"), float)
+RATIO = FieldKind("number", _positive(units.parse_fraction, "a number"), float)
+POSITION = FieldKind("0..1", _read_position, float)
+TAPER = FieldKind('"linear" | "log" | fraction at mid', _read_taper, lambda v: v)
+FLAG = FieldKind("true | false", _read_bool, bool)
+NAME = FieldKind("name", _read_name, str)
+COUNT = FieldKind("whole number", _read_integer, int)

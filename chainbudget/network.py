@@ -1,0 +1,423 @@
+"""A small linear-network solver: modified nodal analysis vectorised over frequency.
+
+A `Netlist` is built for one frequency vector. Element values may carry leading batch axes
+(pot positions of swept controls, later Monte Carlo trials) and always broadcast against a
+trailing frequency axis, so the stamped matrix has shape ``batch + (F, N, N)`` and is solved
+with one batched ``np.linalg.solve``.
+
+Notes
+-----
+Modified nodal analysis: Ho, Ruehli & Brennan, "The modified nodal approach to network
+analysis", IEEE Trans. Circuits and Systems CAS-22 (1975) 504-509. Node voltages and the
+currents of voltage-defined branches are the unknowns; an admittance y between nodes a, b
+stamps +y at (a,a), (b,b) and -y at (a,b), (b,a); a voltage-controlled voltage source adds
+one row and one column.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+from scipy.constants import k as BOLTZMANN
+
+GROUND = "0"
+# Each pot end carries this fraction of the track as a series resistance so the matrix never
+# goes singular at the stops (chain-format contract, "Stage topologies").
+POT_END_FRACTION = 1e-6
+# A leak of 1 Tohm from every node to ground gives a floating node (an op-amp input behind a
+# capacitor, say) a defined solution without disturbing any real impedance level.
+GMIN = 1e-12
+
+Complex = NDArray[np.complex128]
+
+
+@dataclass(frozen=True)
+class Ref:
+    """An unknown of the MNA system: a node voltage or a branch current, by name.
+
+    Names are resolved to indices only when the matrix is assembled, so a netlist may grow
+    after a reference was taken.
+    """
+
+    what: str  # "node" or "branch"
+    name: str
+
+
+def node_ref(name: str) -> Ref:
+    return Ref("node", name)
+
+
+def branch_ref(label: str) -> Ref:
+    return Ref("branch", label)
+
+
+@dataclass(frozen=True)
+class NoiseSource:
+    """One uncorrelated noise generator inside a netlist.
+
+    Attributes
+    ----------
+    label : str
+        Unique name, e.g. ``"pre.feedback"``.
+    stage, part, kind : str
+        Where it sits and what it is (``"thermal"``, ``"e_n"``, ``"i_n"``, ``"shot"``).
+    psd : ndarray
+        One-sided power spectral density on the netlist's frequency axis, V^2/Hz for a
+        voltage generator or A^2/Hz for a current generator; shape ``(F,)``.
+    rhs : tuple of (Ref, ndarray)
+        Where a unit generator enters the right-hand side of the MNA system (the KCL row of
+        a node or the equation of a branch), with its coefficient.
+    """
+
+    label: str
+    stage: str
+    part: str
+    kind: str
+    psd: NDArray[np.float64]
+    rhs: tuple[tuple[Ref, Complex], ...]
+
+
+@dataclass
+class _Stamp:
+    rows: tuple[int, ...]
+    cols: tuple[int, ...]
+    signs: tuple[float, ...]
+    value: Complex
+
+
+@dataclass
+class Netlist:
+    """A linear network on a fixed frequency vector, built element by element.
+
+    Parameters
+    ----------
+    frequency : array_like
+        Frequencies, Hz, shape ``(F,)``.
+    """
+
+    frequency: NDArray[np.float64]
+    nodes: dict[str, int] = field(default_factory=dict)
+    branches: dict[str, int] = field(default_factory=dict)
+    noise: list[NoiseSource] = field(default_factory=list)
+    _stamps: list[_Stamp] = field(default_factory=list)
+    _branch_stamps: list[tuple[str, list[tuple[str, float]], list[tuple[str, Complex]]]] = field(
+        default_factory=list
+    )
+
+    def __post_init__(self) -> None:
+        self.frequency = np.asarray(self.frequency, dtype=float)
+
+    @property
+    def s(self) -> Complex:
+        """Complex frequency j*2*pi*f, shape ``(F,)``."""
+        return 2j * np.pi * self.frequency
+
+    # --- topology -------------------------------------------------------------------
+    def node(self, name: str) -> int:
+        """Index of a node, created on first use; ground is -1."""
+        if name == GROUND:
+            return -1
+        return self.nodes.setdefault(name, len(self.nodes))
+
+    @property
+    def size(self) -> int:
+        return len(self.nodes) + len(self.branches)
+
+    def index(self, ref: Ref) -> int:
+        """Position of an unknown in the assembled system (-1 for ground)."""
+        if ref.what == "node":
+            return -1 if ref.name == GROUND else self.nodes[ref.name]
+        return len(self.nodes) + self.branches[ref.name]
+
+    # --- elements -------------------------------------------------------------------
+    def admittance(self, a: str, b: str, y: ArrayLike) -> None:
+        """An admittance ``y`` (S, broadcastable to ``batch + (F,)``) between nodes a, b."""
+        i, j = self.node(a), self.node(b)
+        self._stamps.append(
+            _Stamp((i, j, i, j), (i, j, j, i), (1.0, 1.0, -1.0, -1.0), np.asarray(y, complex))
+        )
+
+    def resistor(
+        self,
+        a: str,
+        b: str,
+        resistance: ArrayLike,
+        *,
+        label: str,
+        stage: str = "",
+        temperature_k: float | None = None,
+    ) -> None:
+        """A resistor; with ``temperature_k`` it also carries its thermal noise 4kT/R.
+
+        Notes
+        -----
+        Johnson-Nyquist noise as a parallel current generator of density 4kT/R (A^2/Hz):
+        Johnson, Phys. Rev. 32, 97 (1928); Nyquist, Phys. Rev. 32, 110 (1928).
+        """
+        r = np.asarray(resistance, dtype=float)
+        self.admittance(a, b, 1.0 / r)
+        if temperature_k is not None:
+            psd = 4.0 * BOLTZMANN * temperature_k / r
+            self.current_noise(a, b, psd, label, stage, label, "thermal")
+
+    def capacitor(self, a: str, b: str, capacitance: ArrayLike) -> None:
+        """A capacitor, admittance s*C."""
+        self.admittance(a, b, self.s * np.asarray(capacitance, dtype=float))
+
+    def pot(
+        self,
+        upper: str,
+        lower: str,
+        wiper: str,
+        track: float,
+        fraction: ArrayLike,
+        *,
+        label: str,
+        stage: str = "",
+        temperature_k: float | None = None,
+        end_resistance: float = 0.0,
+    ) -> None:
+        """A potentiometer: ``fraction*track`` from wiper to lower end, the rest to upper.
+
+        ``fraction`` is the wiper-to-lower resistance fraction after the taper (0..1); each
+        half carries ``POT_END_FRACTION*track`` plus ``end_resistance`` in series.
+        """
+        x = np.asarray(fraction, dtype=float)
+        end = POT_END_FRACTION * track + end_resistance
+        self.resistor(
+            wiper,
+            lower,
+            x * track + end,
+            label=f"{label}.lower",
+            stage=stage,
+            temperature_k=temperature_k,
+        )
+        self.resistor(
+            upper,
+            wiper,
+            (1.0 - x) * track + end,
+            label=f"{label}.upper",
+            stage=stage,
+            temperature_k=temperature_k,
+        )
+
+    def vcvs(self, plus: str, minus: str, out: str, gain: ArrayLike, *, label: str) -> Ref:
+        """A voltage-controlled voltage source ``v(out) = gain * (v(plus) - v(minus))``.
+
+        Returns the reference of its branch: its equation is where a noise voltage at the
+        control input enters (multiplied by ``gain``), its current (flowing from ``out``
+        into the source, the negative of what it delivers) the unknown.
+        """
+        self._new_branch(label)
+        g = np.asarray(gain, dtype=complex)
+        for name in (plus, minus, out):
+            self.node(name)
+        self._branch_stamps.append((label, [(out, 1.0)], [(plus, -g), (minus, g)]))
+        return branch_ref(label)
+
+    def voltage_source(self, plus: str, minus: str, *, label: str) -> Ref:
+        """An independent voltage source (value set on the right-hand side)."""
+        self._new_branch(label)
+        self.node(plus)
+        self.node(minus)
+        self._branch_stamps.append((label, [(plus, 1.0), (minus, -1.0)], []))
+        return branch_ref(label)
+
+    def _new_branch(self, label: str) -> None:
+        if label in self.branches:
+            raise ValueError(f"branch {label!r} is already in the netlist")
+        self.branches[label] = len(self.branches)
+
+    def opamp(
+        self,
+        plus: str,
+        minus: str,
+        out: str,
+        *,
+        open_loop_gain: float,
+        gbw: float,
+        output_resistance: float,
+        label: str,
+    ) -> Ref:
+        """An op-amp: single-pole open-loop gain behind an output resistance.
+
+        Returns its branch reference (see `vcvs`); its input voltage noise enters there.
+
+        Notes
+        -----
+        A(s) = A0 / (1 + s/w_p) with w_p = 2 pi GBW / A0, so |A| falls through 1 near GBW
+        (the dominant-pole model: Franco, Design with Operational Amplifiers and Analog
+        Integrated Circuits, 4th ed., sec. 6.1). The output is an ideal source A(s)(v+ - v-)
+        in series with the open-loop output resistance R_o. The branch current of the source
+        (named ``label``) is minus the op-amp's output current.
+        """
+        gain = self.open_loop_gain(open_loop_gain, gbw)
+        internal = out if output_resistance <= 0.0 else f"{label}.internal"
+        branch = self.vcvs(plus, minus, internal, gain, label=label)
+        if output_resistance > 0.0:
+            self.resistor(internal, out, output_resistance, label=f"{label}.ro")
+        return branch
+
+    def open_loop_gain(self, a0: float, gbw: float) -> Complex:
+        """A(s) = A0 / (1 + s A0 / (2 pi GBW)) on this netlist's frequency axis."""
+        return a0 / (1.0 + self.s * a0 / (2.0 * np.pi * gbw))
+
+    # --- noise generators -------------------------------------------------------------
+    def current_noise(
+        self,
+        a: str,
+        b: str,
+        psd: ArrayLike,
+        label: str,
+        stage: str,
+        part: str,
+        kind: str,
+    ) -> None:
+        """A noise current generator (A^2/Hz) between nodes a and b."""
+        rhs = tuple(
+            (node_ref(name), np.asarray(sign, complex))
+            for name, sign in ((a, 1.0), (b, -1.0))
+            if name != GROUND
+        )
+        self.noise.append(NoiseSource(label, stage, part, kind, self._density(psd), rhs))
+
+    def voltage_noise_at(
+        self,
+        branch: Ref,
+        coefficient: ArrayLike,
+        psd: ArrayLike,
+        label: str,
+        stage: str,
+        part: str,
+        kind: str,
+    ) -> None:
+        """A noise voltage entering the equation of ``branch`` with ``coefficient`` (V^2/Hz)."""
+        rhs = ((branch, np.asarray(coefficient, complex)),)
+        self.noise.append(NoiseSource(label, stage, part, kind, self._density(psd), rhs))
+
+    def _density(self, psd: ArrayLike) -> NDArray[np.float64]:
+        density = np.asarray(psd, float)
+        return np.broadcast_to(density, np.broadcast_shapes(density.shape, self.frequency.shape))
+
+    # --- assembly and solution ------------------------------------------------------
+    def matrix(self) -> Complex:
+        """The stamped MNA matrix, shape ``batch + (F, N, N)``."""
+        f_shape = self.frequency.shape
+        values = [st.value for st in self._stamps]
+        values += [c for _, _, coefficients in self._branch_stamps for _, c in coefficients]
+        shape = np.broadcast_shapes(f_shape, *(np.shape(v) for v in values))
+        n = self.size
+        m = np.zeros((*shape, n, n), dtype=complex)
+        diagonal = np.arange(len(self.nodes))
+        m[..., diagonal, diagonal] += GMIN
+        for st in self._stamps:
+            for r, c, sign in zip(st.rows, st.cols, st.signs, strict=True):
+                if r >= 0 and c >= 0:
+                    m[..., r, c] += sign * st.value
+        for label, controls, coefficients in self._branch_stamps:
+            k = self.index(branch_ref(label))
+            for name, sign in controls:
+                if name != GROUND:
+                    m[..., self.nodes[name], k] += sign
+                    m[..., k, self.nodes[name]] += sign
+            for name, coefficient in coefficients:
+                if name != GROUND:
+                    m[..., k, self.nodes[name]] += coefficient
+        return m
+
+    def solve(self, rhs: ArrayLike) -> Complex:
+        """Solve the network for right-hand sides ``rhs`` of shape ``(..., N, K)``."""
+        m = self.matrix()
+        b = np.asarray(rhs, dtype=complex)
+        b = np.broadcast_to(b, (*m.shape[:-2], *b.shape[-2:]))
+        return np.linalg.solve(m, b)
+
+    def adjoint_transfer(self, output_node: str) -> tuple[Complex, list[Complex]]:
+        """Transfer from every noise generator to the voltage at ``output_node``.
+
+        Returns the adjoint vector and, per generator in ``self.noise``, its complex
+        transfer (V/V or V/A) with shape ``batch + (F,)``.
+
+        Notes
+        -----
+        The adjoint (transpose) method: with M x = b, the output v_o = e_o^T x =
+        (M^-T e_o)^T b, so one solve of M^T z = e_o per frequency gives z, and the transfer
+        of any generator entering as b is z^T b (Director & Rohrer, "The generalized adjoint
+        network and network sensitivities", IEEE Trans. Circuit Theory CT-16 (1969) 318).
+        """
+        m = self.matrix()
+        e = np.zeros(m.shape[:-1], dtype=complex)
+        e[..., self.nodes[output_node]] = 1.0
+        z = np.linalg.solve(np.swapaxes(m, -1, -2), e[..., None])[..., 0]
+        transfers = [
+            sum(
+                (z[..., self.index(ref)] * coefficient for ref, coefficient in source.rhs),
+                np.zeros(z.shape[:-1], complex),
+            )
+            for source in self.noise
+        ]
+        return z, transfers
+
+
+@dataclass(frozen=True)
+class TwoPort:
+    """Chain (ABCD) parameters of a two-port, plus linear probes of internal quantities.
+
+    ``[V1, I1] = [[a, b], [c, d]] @ [V2, I2_out]`` with ``I2_out`` the current leaving port 2
+    into the load. Each probe is a pair ``(g1, g2)``: the quantity equals ``g1*V1 + g2*V2``.
+    All arrays have shape ``batch + (F,)``.
+    """
+
+    a: Complex
+    b: Complex
+    c: Complex
+    d: Complex
+    probes: dict[str, tuple[Complex, Complex]]
+
+    def voltage_ratio(self, load_admittance: ArrayLike) -> Complex:
+        """V2/V1 with a load admittance at port 2: 1 / (A + B*Y_L)."""
+        return 1.0 / (self.a + self.b * np.asarray(load_admittance))
+
+    def input_admittance(self, load_admittance: ArrayLike) -> Complex:
+        """Y_in = (C + D*Y_L) / (A + B*Y_L)."""
+        y = np.asarray(load_admittance)
+        return (self.c + self.d * y) / (self.a + self.b * y)
+
+    def output_impedance(self, source_impedance: ArrayLike) -> Complex:
+        """Z_out = (D*Z_S + B) / (C*Z_S + A)."""
+        z = np.asarray(source_impedance)
+        return (self.d * z + self.b) / (self.c * z + self.a)
+
+
+def two_port(net: Netlist, port_in: str, port_out: str, probes: Mapping[str, Ref]) -> TwoPort:
+    """Chain parameters of ``net`` between ``port_in``/ground and ``port_out``/ground.
+
+    Both ports are driven by voltage sources; the two solutions give the short-circuit
+    admittance parameters, converted to chain parameters. ``probes`` maps names to unknowns
+    (node voltages or branch currents) to report as linear functions of V1, V2. The
+    netlist gains the two port sources.
+
+    Notes
+    -----
+    Y to ABCD (with I2 into port 2): A = -y22/y21, B = -1/y21, C = -det(Y)/y21,
+    D = -y11/y21 (Pozar, Microwave Engineering, 4th ed., Table 4.2).
+    """
+    k1 = net.index(net.voltage_source(port_in, GROUND, label="port.in"))
+    k2 = net.index(net.voltage_source(port_out, GROUND, label="port.out"))
+    rhs = np.zeros((net.size, 2))
+    rhs[k1, 0] = 1.0
+    rhs[k2, 1] = 1.0
+    x = net.solve(rhs)
+    # The branch current of a source flows from its + terminal through the source, i.e.
+    # out of the network node; the current into the network is its negative.
+    y11, y12 = -x[..., k1, 0], -x[..., k1, 1]
+    y21, y22 = -x[..., k2, 0], -x[..., k2, 1]
+    det = y11 * y22 - y12 * y21
+    found = {}
+    for name, ref in probes.items():
+        index = net.index(ref)
+        found[name] = (x[..., index, 0], x[..., index, 1])
+    return TwoPort(a=-y22 / y21, b=-1.0 / y21, c=-det / y21, d=-y11 / y21, probes=found)

@@ -1,0 +1,207 @@
+"""Op-amp and transistor part models, and the generic classes shipped with the tool.
+
+The shipped classes carry representative typical values for a family of devices. None is a
+brand or a part number; a designer who knows the device they will fit should describe it in
+the chain file's ``[opamp.NAME]`` or ``[transistor.NAME]`` table.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from chainbudget import fields as f
+
+OPAMP_FIELDS: tuple[f.Field, ...] = (
+    f.Field("gbw", f.FREQUENCY, "gain-bandwidth product"),
+    f.Field("slew_rate", f.SLEW_RATE, "output slew rate"),
+    f.Field("noise_voltage", f.NOISE_VOLTAGE, "input voltage noise density (white)", 0.0),
+    f.Field("noise_current", f.NOISE_CURRENT, "input current noise density, each input", 0.0),
+    f.Field("noise_corner", f.FREQUENCY, "1/f corner of the voltage noise", None),
+    f.Field("open_loop_gain", f.GAIN, "DC open-loop voltage gain", 10.0**5),
+    f.Field("output_resistance", f.RESISTANCE_OR_ZERO, "open-loop output resistance", 50.0),
+    f.Field("swing_margin", f.VOLTAGE_OR_ZERO, "how close the output swings to a rail", 1.5),
+    f.Field("output_current", f.POSITIVE_CURRENT, "usable peak output current", 0.02),
+    f.Field("supply_current", f.CURRENT, "quiescent current per section", 0.002),
+    f.Field("min_supply", f.POSITIVE_VOLTAGE, "least total supply, rail to rail", None),
+    f.Field("max_supply", f.POSITIVE_VOLTAGE, "greatest total supply, rail to rail", None),
+    f.Field("description", f.NAME, "what the class stands for", ""),
+)
+
+TRANSISTOR_FIELDS: tuple[f.Field, ...] = (
+    f.Field("polarity", f.choice("npn", "pnp"), "device polarity"),
+    f.Field("beta", f.RATIO, "current gain h_FE at the working current"),
+    f.Field("vbe", f.POSITIVE_VOLTAGE, "base-emitter voltage in conduction", 0.65),
+    f.Field("vce_sat", f.VOLTAGE_OR_ZERO, "collector-emitter saturation voltage", 0.2),
+    f.Field("base_resistance", f.RESISTANCE_OR_ZERO, "base spreading resistance rbb'", 100.0),
+    f.Field("description", f.NAME, "what the class stands for", ""),
+)
+
+
+@dataclass(frozen=True, kw_only=True)
+class OpAmp:
+    """An op-amp section (SI units: Hz, V/s, V/rtHz, A/rtHz, ohm, V, A)."""
+
+    name: str
+    gbw: float
+    slew_rate: float
+    noise_voltage: float = 0.0
+    noise_current: float = 0.0
+    noise_corner: float | None = None
+    open_loop_gain: float = 10.0**5
+    output_resistance: float = 50.0
+    swing_margin: float = 1.5
+    output_current: float = 0.02
+    supply_current: float = 0.002
+    min_supply: float | None = None
+    max_supply: float | None = None
+    description: str = ""
+
+
+@dataclass(frozen=True, kw_only=True)
+class Transistor:
+    """A bipolar transistor (SI units: V, ohm)."""
+
+    name: str
+    polarity: str
+    beta: float
+    vbe: float = 0.65
+    vce_sat: float = 0.2
+    base_resistance: float = 100.0
+    description: str = ""
+
+
+_GENERIC = "Generic class with representative typical values, not any real part."
+
+# Representative values for each family, set from general experience of the families
+# (common practice, no source); they are demonstration defaults, not a datasheet.
+GENERIC_OPAMPS: dict[str, OpAmp] = {
+    op.name: op
+    for op in (
+        OpAmp(
+            name="jfet_input",
+            gbw=3e6,
+            slew_rate=10e6,
+            noise_voltage=18e-9,
+            noise_current=0.01e-12,
+            noise_corner=100.0,
+            open_loop_gain=10.0 ** (100 / 20),
+            output_resistance=100.0,
+            swing_margin=1.5,
+            output_current=0.02,
+            supply_current=0.0015,
+            min_supply=10.0,
+            max_supply=36.0,
+            description="JFET-input general-purpose op-amp. " + _GENERIC,
+        ),
+        OpAmp(
+            name="low_noise_bipolar",
+            gbw=10e6,
+            slew_rate=7e6,
+            noise_voltage=4.5e-9,
+            noise_current=0.7e-12,
+            noise_corner=10.0,
+            open_loop_gain=10.0 ** (100 / 20),
+            output_resistance=50.0,
+            swing_margin=1.5,
+            output_current=0.025,
+            supply_current=0.005,
+            min_supply=10.0,
+            max_supply=36.0,
+            description="Low-noise bipolar audio op-amp. " + _GENERIC,
+        ),
+        OpAmp(
+            name="legacy_bipolar",
+            gbw=1e6,
+            slew_rate=0.5e6,
+            noise_voltage=20e-9,
+            noise_current=0.5e-12,
+            noise_corner=200.0,
+            open_loop_gain=10.0 ** (100 / 20),
+            output_resistance=75.0,
+            swing_margin=2.0,
+            output_current=0.02,
+            supply_current=0.0017,
+            min_supply=10.0,
+            max_supply=36.0,
+            description="Early general-purpose bipolar op-amp. " + _GENERIC,
+        ),
+        OpAmp(
+            name="cmos_rail_to_rail",
+            gbw=1e6,
+            slew_rate=0.6e6,
+            noise_voltage=30e-9,
+            noise_current=0.001e-12,
+            noise_corner=300.0,
+            open_loop_gain=10.0 ** (100 / 20),
+            output_resistance=200.0,
+            swing_margin=0.1,
+            output_current=0.01,
+            supply_current=0.0001,
+            min_supply=2.7,
+            max_supply=6.0,
+            description="Low-voltage CMOS rail-to-rail op-amp. " + _GENERIC,
+        ),
+    )
+}
+
+GENERIC_TRANSISTORS: dict[str, Transistor] = {
+    t.name: t
+    for t in (
+        Transistor(
+            name="small_npn",
+            polarity="npn",
+            beta=200.0,
+            vbe=0.65,
+            vce_sat=0.2,
+            base_resistance=100.0,
+            description="Small-signal NPN. " + _GENERIC,
+        ),
+        Transistor(
+            name="small_pnp",
+            polarity="pnp",
+            beta=200.0,
+            vbe=0.65,
+            vce_sat=0.2,
+            base_resistance=100.0,
+            description="Small-signal PNP. " + _GENERIC,
+        ),
+        Transistor(
+            name="driver_npn",
+            polarity="npn",
+            beta=100.0,
+            vbe=0.7,
+            vce_sat=0.3,
+            base_resistance=50.0,
+            description="Medium-power driver NPN. " + _GENERIC,
+        ),
+        Transistor(
+            name="driver_pnp",
+            polarity="pnp",
+            beta=100.0,
+            vbe=0.7,
+            vce_sat=0.3,
+            base_resistance=50.0,
+            description="Medium-power driver PNP. " + _GENERIC,
+        ),
+        Transistor(
+            name="power_npn",
+            polarity="npn",
+            beta=50.0,
+            vbe=0.8,
+            vce_sat=1.0,
+            base_resistance=10.0,
+            description="Power NPN for output stages. " + _GENERIC,
+        ),
+        Transistor(
+            name="power_pnp",
+            polarity="pnp",
+            beta=50.0,
+            vbe=0.8,
+            vce_sat=1.0,
+            base_resistance=10.0,
+            description="Power PNP for output stages. " + _GENERIC,
+        ),
+    )
+}
+
+DEFAULT_OPAMP = "jfet_input"

@@ -1,0 +1,273 @@
+"""What every stage kind provides, and the pieces several kinds share.
+
+A stage kind is one module under ``chainbudget/stages/`` holding a `StageKind` subclass:
+its fields (read by the loader and listed by ``chainbudget blocks``), the controls it
+exposes, and ``build``, which stamps its network into a `Netlist` between two nodes and
+declares its swing limits as `Limit` objects on linear probes of that network.
+"""
+
+from __future__ import annotations
+
+from abc import ABC, abstractmethod
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from typing import Any, ClassVar
+
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+
+from chainbudget import fields as f
+from chainbudget.network import GROUND, Netlist, Ref, branch_ref, node_ref
+from chainbudget.parts import OpAmp, Transistor
+
+
+@dataclass(frozen=True)
+class Stage:
+    """One validated ``[[stage]]`` table: SI values, defaults filled in.
+
+    ``index`` is 1-based, as the table path in messages shows it.
+    """
+
+    index: int
+    name: str
+    kind: str
+    values: Mapping[str, Any]
+
+    def number(self, key: str) -> float:
+        return float(self.values[key])
+
+    def optional(self, key: str) -> float | None:
+        value = self.values.get(key)
+        return None if value is None else float(value)
+
+    @property
+    def path(self) -> str:
+        return f'stage[{self.index}] "{self.name}"'
+
+
+@dataclass(frozen=True)
+class Rails:
+    """The supply voltages a stage runs from, V (negative rail below ground when split)."""
+
+    positive: float
+    negative: float
+    bias: float
+
+    @property
+    def total(self) -> float:
+        return self.positive - self.negative
+
+    @property
+    def up(self) -> float:
+        """Room from the bias point to the positive rail."""
+        return self.positive - self.bias
+
+    @property
+    def down(self) -> float:
+        """Room from the bias point to the negative rail."""
+        return self.bias - self.negative
+
+
+@dataclass(frozen=True)
+class Environment:
+    """What a stage needs from the rest of the chain to build its network."""
+
+    temperature_k: float
+    opamps: Mapping[str, OpAmp]
+    transistors: Mapping[str, Transistor]
+    rails: Rails | None
+
+
+@dataclass(frozen=True)
+class Control:
+    """A pot a designer turns: its field, its setting and whether the search sweeps it."""
+
+    key: str
+    label: str
+    position: float
+    taper: str | float
+    sweep: bool
+
+
+@dataclass(frozen=True)
+class Limit:
+    """A swing limit: the peak of a linear probe may not exceed ``peak``.
+
+    ``peak`` is a float or an array on the frequency axis (the slew-rate limit).
+    """
+
+    name: str
+    probe: str
+    peak: float | NDArray[np.float64]
+    what: str
+
+
+@dataclass
+class Built:
+    """What ``build`` stamped: probes (name -> MNA unknown), limits and op-amps used."""
+
+    probes: dict[str, Ref] = field(default_factory=dict)
+    limits: list[Limit] = field(default_factory=list)
+    opamps: list[tuple[str, OpAmp]] = field(default_factory=list)
+    output_probe: str = ""
+
+
+class StageKind(ABC):
+    """A stage kind: its fields, its controls and its network."""
+
+    kind: ClassVar[str]
+    summary: ClassVar[str]
+    fields: ClassVar[tuple[f.Field, ...]]
+    uses_rails: ClassVar[bool] = True
+    uses_opamp: ClassVar[bool] = False
+
+    def controls(self, stage: Stage) -> list[Control]:
+        """The pots of this stage (none by default)."""
+        return []
+
+    @abstractmethod
+    def build(
+        self,
+        net: Netlist,
+        stage: Stage,
+        env: Environment,
+        node_in: str,
+        node_out: str,
+        positions: Mapping[str, ArrayLike],
+    ) -> Built:
+        """Stamp the stage between ``node_in`` and ``node_out``; ``positions`` are taper-free
+        rotations keyed by control key, broadcastable to ``batch + (F,)``."""
+
+    def missing(self, values: Mapping[str, Any]) -> list[str]:
+        """Keys that the other values make required (e.g. ``input`` for an inverting stage)."""
+        return []
+
+    def floating_inputs(self, stage: Stage, input_defined: bool) -> list[str]:
+        """Op-amp inputs of this stage with no DC path to a defined potential."""
+        return []
+
+    def output_defined(self, stage: Stage) -> bool:
+        """Whether the stage's output node has a DC path to a defined potential."""
+        return True
+
+    def supply_current(self, stage: Stage, env: Environment) -> float:
+        """Quiescent current drawn from the positive rail, A."""
+        return 0.0
+
+
+# --- pieces shared by several kinds --------------------------------------------------------
+
+RAIL_FIELDS: tuple[f.Field, ...] = (
+    f.Field("positive", f.NAME, "supply feeding the positive rail (default: the only one)", None),
+    f.Field("negative", f.NAME, 'supply of the negative rail, or "ground"', "ground"),
+    f.Field(
+        "bias", f.VOLTAGE, "signal bias point (default: mid-rail single supply, 0 V split)", None
+    ),
+)
+OPAMP_FIELD = f.Field(
+    "opamp", f.NAME, "op-amp part (a generic class or an [opamp.NAME])", "jfet_input"
+)
+SWEEP_FIELD = f.Field("sweep", f.FLAG, "sweep the pot(s) in the worst-case search", True)
+END_RESISTANCE_FIELD = f.Field(
+    "end_resistance", f.RESISTANCE_OR_ZERO, "a real pot's resistance at each end stop", 0.0
+)
+
+
+def taper_fraction(rotation: ArrayLike, taper: str | float) -> NDArray[np.float64]:
+    """Wiper-to-lower resistance fraction of a pot at ``rotation`` (0..1).
+
+    Notes
+    -----
+    ``linear``: x. ``log``: (10^(2x) - 1)/99, the idealised audio taper of the chain-format
+    contract (9.1 % at mid rotation, the nominal "10 % at mid" of the trade; real audio pots
+    are two-slope approximations of it). A number m in (0, 1) is the fraction at mid
+    rotation for the exponential law (b^x - 1)/(b - 1) with b = (1/m - 1)^2, which passes
+    through m at x = 0.5 and equals the ``log`` law for m = 1/11.
+    """
+    x = np.asarray(rotation, dtype=float)
+    if taper == "linear":
+        return x
+    if taper == "log":
+        return (10.0 ** (2.0 * x) - 1.0) / 99.0
+    mid = float(taper)
+    base = (1.0 / mid - 1.0) ** 2
+    if abs(base - 1.0) < 1e-12:
+        return x
+    return (base**x - 1.0) / (base - 1.0)
+
+
+def opamp_part(stage: Stage, env: Environment) -> OpAmp:
+    return env.opamps[str(stage.values["opamp"])]
+
+
+def stamp_opamp(
+    net: Netlist,
+    stage: Stage,
+    env: Environment,
+    plus: str,
+    minus: str,
+    out: str,
+    built: Built,
+) -> None:
+    """Stamp the stage's op-amp with its noise and declare its three swing limits.
+
+    Notes
+    -----
+    Limits on the output (the tightest sets the clip level):
+    rails: the output swings to within ``swing_margin`` of either rail around the bias
+    point (peak = min(V+ - Vb, Vb - V-) - margin); current: the peak output current
+    (into the load and the feedback network) may not exceed ``output_current``; slew: a
+    sine of peak Vp at f needs 2 pi f Vp <= SR, so Vp <= SR / (2 pi f) (full-power bandwidth,
+    Franco, Design with Operational Amplifiers, 4th ed., sec. 6.4).
+    Noise: e_n(f)^2 = e_n^2 (1 + f_c/f) at the non-inverting input, i_n at each input.
+    """
+    part = opamp_part(stage, env)
+    label = f"{stage.name}.opamp"
+    branch = net.opamp(
+        plus,
+        minus,
+        out,
+        open_loop_gain=part.open_loop_gain,
+        gbw=part.gbw,
+        output_resistance=part.output_resistance,
+        label=label,
+    )
+    gain = net.open_loop_gain(part.open_loop_gain, part.gbw)
+    corner = 0.0 if part.noise_corner is None else part.noise_corner
+    en2 = part.noise_voltage**2 * (1.0 + corner / net.frequency)
+    net.voltage_noise_at(branch, gain, en2, f"{label}.e_n", stage.name, "opamp", "e_n")
+    for pin, node in (("+", plus), ("-", minus)):
+        if node != GROUND:
+            net.current_noise(
+                node, GROUND, part.noise_current**2, f"{label}.i_n{pin}", stage.name, "opamp", "i_n"
+            )
+    built.opamps.append((label, part))
+    built.probes["out"] = node_ref(out)
+    built.probes[f"{label}.current"] = branch_ref(label)
+    built.output_probe = "out"
+    rails = env.rails
+    assert rails is not None, "op-amp stages always have rails (the loader sees to it)"
+    built.limits += [
+        Limit(
+            "rails",
+            "out",
+            max(min(rails.up, rails.down) - part.swing_margin, 0.0),
+            f"output swing within {part.swing_margin:g} V of the rails",
+        ),
+        Limit(
+            "current",
+            f"{label}.current",
+            part.output_current,
+            f"op-amp output current {part.output_current * 1e3:g} mA peak",
+        ),
+        Limit(
+            "slew",
+            "out",
+            part.slew_rate / (2.0 * np.pi * net.frequency),
+            f"slew rate {part.slew_rate / 1e6:g} V/us",
+        ),
+    ]
+
+
+def opamp_supply_current(stage: Stage, env: Environment) -> float:
+    return opamp_part(stage, env).supply_current

@@ -1,0 +1,76 @@
+"""``block``: a measured or datasheet black box."""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+
+from numpy.typing import ArrayLike
+
+from chainbudget import fields as f
+from chainbudget.network import GROUND, Netlist, node_ref
+from chainbudget.stages.base import RAIL_FIELDS, Built, Environment, Limit, Stage, StageKind
+
+
+class Block(StageKind):
+    """Black box: input impedance to ground; open-circuit gain G behind Z_out.
+
+    Notes
+    -----
+    The Thevenin model of an amplifier (Sedra & Smith, Microelectronic Circuits, 7th ed.,
+    sec. 1.5): v_out,oc = G v_in, in series with Z_out; Z_in loads the stage before. Its
+    ``noise`` is an input-referred voltage density that stands for all its noise; its
+    impedances are noiseless. ``max_output`` is the peak voltage at its output terminals.
+    """
+
+    kind = "block"
+    summary = "measured or datasheet black box (gain, impedances, noise, limit)"
+    uses_rails = False
+    fields = (
+        f.Field("gain", f.GAIN, "unloaded voltage gain, dB or ratio (negative ratio inverts)"),
+        f.Field("input_impedance", f.RESISTANCE, "input impedance (resistive)"),
+        f.Field("output_impedance", f.RESISTANCE_OR_ZERO, "output impedance (resistive)"),
+        f.Field("noise", f.NOISE_VOLTAGE, "input-referred noise density", 0.0),
+        f.Field("max_output", f.POSITIVE_VOLTAGE, "peak output voltage at its terminals", None),
+        f.Field("supply_current", f.CURRENT, "current drawn from its positive rail", 0.0),
+        *RAIL_FIELDS,
+    )
+
+    def build(
+        self,
+        net: Netlist,
+        stage: Stage,
+        env: Environment,
+        node_in: str,
+        node_out: str,
+        positions: Mapping[str, ArrayLike],
+    ) -> Built:
+        name = stage.name
+        net.resistor(
+            node_in, GROUND, stage.number("input_impedance"), label=f"{name}.input_impedance"
+        )
+        z_out = stage.number("output_impedance")
+        source = node_out if z_out <= 0.0 else f"{name}.source"
+        branch = net.vcvs(node_in, GROUND, source, stage.number("gain"), label=f"{name}.gain")
+        if z_out > 0.0:
+            net.resistor(source, node_out, z_out, label=f"{name}.output_impedance")
+        noise = stage.number("noise")
+        if noise > 0.0:
+            net.voltage_noise_at(
+                branch,
+                stage.number("gain"),
+                noise**2,
+                f"{name}.noise",
+                name,
+                "block",
+                "input-referred",
+            )
+        built = Built(probes={"out": node_ref(node_out)}, output_probe="out")
+        max_output = stage.optional("max_output")
+        if max_output is not None:
+            built.limits.append(
+                Limit("max_output", "out", max_output, f"rated output {max_output:g} V peak")
+            )
+        return built
+
+    def supply_current(self, stage: Stage, env: Environment) -> float:
+        return stage.number("supply_current")

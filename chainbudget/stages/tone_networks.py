@@ -1,0 +1,172 @@
+"""The bass and treble networks of the feedback tone stages, shared by three kinds.
+
+Notes
+-----
+The negative-feedback tone control: P. J. Baxandall, "Negative-feedback tone control",
+Wireless World, October 1952. The pot and capacitors sit in the input and feedback legs of
+an inverting op-amp; the stage's gain is -Z_feedback/Z_input of the networks as seen from the
+summing node, so a linear pot at mid rotation gives a flat -1 and rotations x and 1 - x give
+reciprocal responses.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+
+from numpy.typing import ArrayLike
+
+from chainbudget import fields as f
+from chainbudget.network import Netlist
+from chainbudget.stages.base import END_RESISTANCE_FIELD, Control, Stage, taper_fraction
+
+
+def bass_fields(prefix: str) -> tuple[f.Field, ...]:
+    """Fields of a bass network, keys prefixed with ``prefix`` (``""`` or ``"bass_"``)."""
+    return (
+        f.Field(f"{prefix}outer", f.RESISTANCE, "each of the two equal fixed resistors"),
+        f.Field(f"{prefix}pot", f.RESISTANCE, "bass pot track resistance"),
+        f.Field(
+            f"{prefix}position", f.POSITION, "rotation: 0 full cut, 0.5 flat, 1 full boost", 0.5
+        ),
+        f.Field(f"{prefix}taper", f.TAPER, "pot taper", "linear"),
+        f.Field(f"{prefix}cap", f.CAPACITANCE, "capacitor across each pot half (or the pot)"),
+        f.Field(
+            f"{prefix}cap_layout",
+            f.choice("split", "across"),
+            '"split": one cap across each pot half; "across": one cap across the pot',
+            "split",
+        ),
+    )
+
+
+def treble_fields(prefix: str, with_outer: bool) -> tuple[f.Field, ...]:
+    """Fields of a treble network; the stand-alone stage also has its own flat path."""
+    outer = (
+        (f.Field(f"{prefix}outer", f.RESISTANCE, "each of the two flat-path resistors"),)
+        if with_outer
+        else ()
+    )
+    return (
+        *outer,
+        f.Field(f"{prefix}pot", f.RESISTANCE, "treble pot track resistance"),
+        f.Field(
+            f"{prefix}position", f.POSITION, "rotation: 0 full cut, 0.5 flat, 1 full boost", 0.5
+        ),
+        f.Field(f"{prefix}taper", f.TAPER, "pot taper", "linear"),
+        f.Field(f"{prefix}cap", f.CAPACITANCE, "capacitor at each end of the treble pot"),
+        f.Field(f"{prefix}wiper", f.RESISTANCE_OR_ZERO, "resistor from wiper to summing node", 0.0),
+        f.Field(
+            f"{prefix}bias_resistor",
+            f.RESISTANCE,
+            "summing node to bias (only where caps isolate the op-amp input)",
+            None,
+        ),
+    )
+
+
+def pot_control(stage: Stage, prefix: str) -> Control:
+    return Control(
+        key=f"{prefix}position",
+        label=f"{stage.name}.{prefix}position",
+        position=stage.number(f"{prefix}position"),
+        taper=stage.values[f"{prefix}taper"],
+        sweep=bool(stage.values["sweep"]),
+    )
+
+
+def stamp_bass(
+    net: Netlist,
+    stage: Stage,
+    prefix: str,
+    node_in: str,
+    summing: str,
+    node_out: str,
+    positions: Mapping[str, ArrayLike],
+    temperature_k: float,
+) -> None:
+    """``outer`` in->A, pot A(upper)-B(lower) with wiper at the summing node, caps across
+    the halves (or the pot), ``outer`` B->out."""
+    name, v = stage.name, stage.values
+    a, b = f"{name}.{prefix}A", f"{name}.{prefix}B"
+    outer, pot, cap = (stage.number(prefix + k) for k in ("outer", "pot", "cap"))
+    fraction = taper_fraction(positions[f"{prefix}position"], v[f"{prefix}taper"])
+    net.resistor(
+        node_in, a, outer, label=f"{name}.{prefix}outer_in", stage=name, temperature_k=temperature_k
+    )
+    net.pot(
+        a,
+        b,
+        summing,
+        pot,
+        fraction,
+        label=f"{name}.{prefix}pot",
+        stage=name,
+        temperature_k=temperature_k,
+        end_resistance=stage.number("end_resistance"),
+    )
+    if v[f"{prefix}cap_layout"] == "split":
+        net.capacitor(a, summing, cap)
+        net.capacitor(summing, b, cap)
+    else:
+        net.capacitor(a, b, cap)
+    net.resistor(
+        b,
+        node_out,
+        outer,
+        label=f"{name}.{prefix}outer_out",
+        stage=name,
+        temperature_k=temperature_k,
+    )
+
+
+def stamp_treble(
+    net: Netlist,
+    stage: Stage,
+    prefix: str,
+    node_in: str,
+    summing: str,
+    node_out: str,
+    positions: Mapping[str, ArrayLike],
+    temperature_k: float,
+) -> None:
+    """``cap`` in->upper end, ``cap`` lower end->out, wiper to the summing node through
+    ``wiper``; optional ``bias_resistor`` from the summing node to AC ground."""
+    name, v = stage.name, stage.values
+    upper, lower, wiper = (f"{name}.{prefix}{n}" for n in ("T_upper", "T_lower", "T_wiper"))
+    pot, cap = stage.number(f"{prefix}pot"), stage.number(f"{prefix}cap")
+    fraction = taper_fraction(positions[f"{prefix}position"], v[f"{prefix}taper"])
+    net.capacitor(node_in, upper, cap)
+    net.capacitor(lower, node_out, cap)
+    net.pot(
+        upper,
+        lower,
+        wiper,
+        pot,
+        fraction,
+        label=f"{name}.{prefix}pot",
+        stage=name,
+        temperature_k=temperature_k,
+        end_resistance=stage.number("end_resistance"),
+    )
+    # The wiper resistor always carries the pot's tiny end value so the node stays defined.
+    net.resistor(
+        wiper,
+        summing,
+        stage.number(f"{prefix}wiper") + 1e-6 * pot,
+        label=f"{name}.{prefix}wiper",
+        stage=name,
+        temperature_k=temperature_k,
+    )
+    bias_resistor = stage.optional(f"{prefix}bias_resistor")
+    if bias_resistor is not None:
+        net.resistor(
+            summing,
+            "0",
+            bias_resistor,
+            label=f"{name}.{prefix}bias_resistor",
+            stage=name,
+            temperature_k=temperature_k,
+        )
+
+
+TONE_COMMON = (END_RESISTANCE_FIELD,)

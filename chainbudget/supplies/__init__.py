@@ -1,0 +1,8 @@
+"""Supply kinds: one module each; this registry maps the contract's kind names to them."""
+
+from __future__ import annotations
+
+from chainbudget.supplies.base import SupplyKind
+from chainbudget.supplies.dc import DcSupply
+
+KINDS: dict[str, SupplyKind] = {kind.kind: kind for kind in (DcSupply(),)}
