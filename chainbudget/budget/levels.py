@@ -132,11 +132,14 @@ def _worst_case(analysis: Analysis, swept: Cascade, k: int) -> WorstCase:
     peak, which = clip
     flat = int(np.argmin(peak))
     where = np.unravel_index(flat, peak.shape)
+    # Controls after this node matter only through loading; the search covers them, the
+    # report names the settings of this stage and the ones before it.
     controls = {
         sc.control.label: float(sc.rotations[where[sc.axis]])
         if peak.shape[sc.axis] > 1
         else sc.control.position
         for sc in analysis.swept_controls
+        if sc.stage_index <= k
     }
     limit = swept.stages[k].built.limits[int(which[where])]
     return WorstCase(

@@ -1,0 +1,5 @@
+"""``python -m chainbudget``."""
+
+from chainbudget.cli import main
+
+main()

@@ -1,0 +1,121 @@
+"""The ``chainbudget`` command: thin; it parses arguments, calls the budget, picks a view."""
+
+from __future__ import annotations
+
+import json
+import sys
+from pathlib import Path
+from typing import Annotated
+
+import tomli_w
+import typer
+from rich import box
+from rich.console import Console
+from rich.table import Table
+
+from chainbudget.blocks import catalogue, default_text
+from chainbudget.budget import compute
+from chainbudget.chainfile import ChainError, load_chain, suggest
+from chainbudget.findings import findings
+from chainbudget.report.json_view import budget_json, without_nulls
+from chainbudget.report.table_view import render
+
+app = typer.Typer(
+    add_completion=False,
+    no_args_is_help=True,
+    help="Gain, headroom, noise, drive and supply budgets of small audio amplifier chains.",
+)
+
+EXIT_OK, EXIT_ERRORS, EXIT_BAD_INPUT = 0, 1, 2
+STARTER = Path(__file__).parent / "templates" / "starter.toml"
+
+
+def _console() -> Console:
+    """A console that is plain (no colour, fixed width) when not writing to a terminal."""
+    tty = sys.stdout.isatty()
+    return Console(no_color=not tty, width=None if tty else 160, soft_wrap=not tty,
+                   highlight=False)
+
+
+def _fail(message: str) -> typer.Exit:
+    typer.echo(f"chainbudget: {message}", err=True)
+    return typer.Exit(EXIT_BAD_INPUT)
+
+
+@app.command()
+def check(
+    file: Annotated[Path, typer.Argument(help="chain file (TOML)")],
+    output_format: Annotated[str, typer.Option("--format", "-f",
+                                               help="table, json or toml")] = "table",
+    strict: Annotated[bool, typer.Option(help="exit 1 on warnings too")] = False,
+) -> None:
+    """Work out the budget of a chain and report it with its findings."""
+    if output_format not in ("table", "json", "toml"):
+        raise _fail(f'--format: got "{output_format}", expected table, json or toml'
+                    + suggest(output_format, ("table", "json", "toml")))
+    try:
+        chain = load_chain(file)
+    except ChainError as exc:
+        raise _fail(str(exc)) from None
+    budget = compute(chain)
+    found = findings(budget)
+    if output_format == "table":
+        render(budget, found, _console())
+    else:
+        data = budget_json(budget, found)
+        if output_format == "json":
+            typer.echo(json.dumps(data, indent=2))
+        else:
+            typer.echo(tomli_w.dumps(without_nulls(data)))
+    errors = any(fi.severity == "error" for fi in found)
+    warnings = any(fi.severity == "warning" for fi in found)
+    raise typer.Exit(EXIT_ERRORS if errors or (strict and warnings) else EXIT_OK)
+
+
+@app.command()
+def blocks(
+    kind: Annotated[str | None, typer.Argument(help="a stage or supply kind, or a table")] = None,
+) -> None:
+    """List the kinds of stage and supply and the fields of each."""
+    entries = catalogue()
+    console = _console()
+    if kind is None:
+        table = Table(box=box.SIMPLE_HEAD, title="Kinds and tables (chainbudget blocks KIND "
+                      "for the fields)", title_justify="left")
+        for header in ("name", "where", "what"):
+            table.add_column(header)
+        for e in entries.values():
+            table.add_row(e.name, e.table, e.summary)
+        console.print(table)
+        return
+    if kind not in entries:
+        raise _fail(f'unknown kind "{kind}"' + suggest(kind, entries) + "; known: "
+                    + ", ".join(entries))
+    e = entries[kind]
+    table = Table(box=box.SIMPLE_HEAD, title=f"{e.name}  {e.table}: {e.summary}",
+                  title_justify="left")
+    for header in ("field", "unit", "default", "meaning"):
+        table.add_column(header)
+    for fld in e.fields:
+        table.add_row(fld.key, fld.kind.unit, default_text(fld), fld.meaning)
+    console.print(table)
+
+
+@app.command()
+def new(
+    file: Annotated[Path, typer.Argument(help="where to write the starter chain")],
+    force: Annotated[bool, typer.Option(help="overwrite an existing file")] = False,
+) -> None:
+    """Write a commented starter chain file."""
+    if file.exists() and not force:
+        raise _fail(f"{file}: already exists; pass --force to overwrite it")
+    try:
+        file.write_text(STARTER.read_text(encoding="utf-8"), encoding="utf-8")
+    except OSError as exc:
+        raise _fail(f"{file}: cannot write ({exc.strerror})") from None
+    typer.echo(f"wrote {file}; next: chainbudget check {file}")
+
+
+def main() -> None:
+    """Entry point of the console script."""
+    app()

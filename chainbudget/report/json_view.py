@@ -1,0 +1,95 @@
+"""The budget as one JSON-ready object (the contract's keys; SI units, dB where named)."""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable
+from typing import Any
+
+from chainbudget.budget import Budget
+from chainbudget.budget.levels import NodeLevels
+from chainbudget.findings import Finding
+from chainbudget.report.cautions import cautions
+
+
+def number(value: float | None) -> float | None:
+    """A float for JSON: None for a missing or non-finite figure."""
+    if value is None or not math.isfinite(value):
+        return None
+    return float(value)
+
+
+def _node(node: NodeLevels) -> dict[str, Any]:
+    worst = node.worst
+    return {
+        "stage": node.stage,
+        "kind": node.kind,
+        "gain_db": number(node.gain_db),
+        "total_gain_db": number(node.total_gain_db),
+        "level_vrms": number(node.level_vrms),
+        "max_level_vrms": number(node.max_level_vrms),
+        "clip_vpk": number(node.clip_vpk),
+        "limited_by": node.limited_by,
+        "headroom_db": number(node.headroom_db),
+        "nominal_headroom_db": number(node.nominal_headroom_db),
+        "worst_headroom_db": None if worst is None else number(worst.headroom_db),
+        "worst_at": None if worst is None else {
+            "frequency_hz": worst.frequency_hz,
+            "controls": dict(worst.controls),
+            "limited_by": worst.limited_by,
+        },
+        "zout_ohm": number(node.zout_ohm),
+        "zload_ohm": number(node.zload_ohm),
+    }
+
+
+# Areas of the budget add their parts here: NODE_PARTS entries give extra keys for node k,
+# TOP_PARTS entries extra top-level keys.
+NODE_PARTS: list[Callable[[Budget, int], dict[str, Any]]] = []
+TOP_PARTS: list[Callable[[Budget], dict[str, Any]]] = []
+
+
+def finding_json(finding: Finding) -> dict[str, Any]:
+    return {
+        "severity": finding.severity,
+        "code": finding.code,
+        "stage": finding.stage,
+        "message": finding.message,
+        "figures": {key: number(value) for key, value in finding.figures.items()},
+    }
+
+
+def budget_json(budget: Budget, found: list[Finding]) -> dict[str, Any]:
+    """The whole report as plain data."""
+    nodes = []
+    for k, node in enumerate(budget.nodes):
+        entry = _node(node)
+        for part in NODE_PARTS:
+            entry.update(part(budget, k))
+        nodes.append(entry)
+    data: dict[str, Any] = {
+        "title": budget.title,
+        "file": budget.file,
+        "reference_hz": budget.reference_hz,
+        "band_hz": list(budget.band_hz),
+        "ambient_degc": budget.ambient_degc,
+        "source": {"level_vrms": budget.source_level_vrms,
+                   "max_level_vrms": budget.source_max_level_vrms},
+        "nodes": nodes,
+        "first_clip": budget.first_clip,
+        "output_stage": budget.output_stage,
+    }
+    for part in TOP_PARTS:
+        data.update(part(budget))
+    data["findings"] = [finding_json(fi) for fi in found]
+    data["cautions"] = cautions(budget)
+    return data
+
+
+def without_nulls(value: Any) -> Any:
+    """The same data with every None dropped (TOML has no null)."""
+    if isinstance(value, dict):
+        return {k: without_nulls(v) for k, v in value.items() if v is not None}
+    if isinstance(value, list):
+        return [without_nulls(v) for v in value if v is not None]
+    return value

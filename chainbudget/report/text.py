@@ -1,0 +1,27 @@
+"""Number formatting for the terminal views (engineering prefixes, dB, dashes for none)."""
+
+from __future__ import annotations
+
+import math
+
+_PREFIXES = ((1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""), (1e-3, "m"), (1e-6, "u"),
+             (1e-9, "n"), (1e-12, "p"))
+DASH = "-"
+
+
+def eng(value: float | None, unit: str, digits: int = 3) -> str:
+    """``4700.0, "ohm"`` -> ``"4.7 kohm"``; None or non-finite -> a dash."""
+    if value is None or not math.isfinite(value):
+        return DASH
+    if value == 0.0:
+        return f"0 {unit}"
+    magnitude = abs(value)
+    scale, prefix = next(((s, p) for s, p in _PREFIXES if magnitude >= s * 0.9995), (1e-12, "p"))
+    return f"{value / scale:.{digits}g} {prefix}{unit}"
+
+
+def decibels(value: float | None, signed: bool = True) -> str:
+    """A dB figure to one decimal, or a dash."""
+    if value is None or not math.isfinite(value):
+        return DASH
+    return f"{value:+.1f}" if signed else f"{value:.1f}"
