@@ -17,6 +17,7 @@ import pint
 # The audio dBu reference: 1 mW into 600 ohm, sqrt(0.6) V rms (common practice, no source).
 DBU_REFERENCE_VRMS = math.sqrt(0.6)
 DBV_REFERENCE_VRMS = 1.0
+ABSOLUTE_ZERO_KELVIN_IN_DEGC = 273.15  # 0 K = -273.15 degC (SI Brochure, 9th ed., sec. 2.3.1)
 
 
 class UnitParseError(ValueError):
@@ -75,8 +76,10 @@ def _letter_code(text: str, dimension: Dimension) -> float | None:
     whole, letter, fraction = match.groups()
     if letter not in table or (not whole and not fraction):
         return None
-    if "." in whole and fraction:
-        return None
+    if "." in whole:
+        if fraction:  # "4.7k7" is no code
+            return None
+        return float(whole) * table[letter]  # "4.7k": the letter as a plain multiplier
     number = float(f"{whole or '0'}.{fraction or '0'}")
     return number * table[letter]
 
@@ -132,10 +135,12 @@ def parse_quantity(value: object, dimension: Dimension) -> float:
     reg = registry()
     try:
         quantity = reg.Quantity(number, unit)
-        result = quantity.to(dimension.si_unit).magnitude
-    except (pint.errors.PintError, AttributeError, TypeError, ValueError, SyntaxError):
+        result = float(quantity.to(dimension.si_unit).magnitude)
+    except Exception:  # pint's unit parser raises many types (tokenize errors, asserts...)
         raise UnitParseError(value, expected) from None
-    return float(result)
+    if not math.isfinite(result):
+        raise UnitParseError(value, expected + " (a finite number)")
+    return result
 
 
 def parse_temperature(value: object) -> float:
@@ -149,9 +154,23 @@ def parse_temperature(value: object) -> float:
     reg = registry()
     try:
         quantity = reg.Quantity(float(match.group(1)), match.group(2))
-        return float(quantity.to("degC").magnitude)
-    except (pint.errors.PintError, AttributeError, TypeError, ValueError, SyntaxError):
+        celsius = float(quantity.to("degC").magnitude)
+    except Exception:  # pint's unit parser raises many types (tokenize errors, asserts...)
         raise UnitParseError(value, expected) from None
+    if not math.isfinite(celsius) or celsius < -ABSOLUTE_ZERO_KELVIN_IN_DEGC:
+        raise UnitParseError(value, expected + " (above absolute zero)")
+    return celsius
+
+
+def _finite_ratio(decibels: float, value: object, expected: str) -> float:
+    """10^(dB/20), refusing figures too large for a float (``"1e6 dB"``)."""
+    try:
+        ratio = 10.0 ** (decibels / 20.0)
+    except OverflowError:
+        ratio = math.inf
+    if not math.isfinite(ratio):
+        raise UnitParseError(value, expected + " (a finite figure)")
+    return ratio
 
 
 _DB_RE = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*dB\s*$")
@@ -168,16 +187,17 @@ def parse_db(value: object) -> float:
 
 def parse_gain(value: object) -> float:
     """Read a voltage gain given in dB (``"26 dB"``) or as a plain ratio (``20``); a ratio."""
-    if isinstance(value, int | float) and not isinstance(value, bool):
+    expected = 'a voltage gain such as "26 dB" or a plain ratio such as 20'
+    if isinstance(value, int | float) and not isinstance(value, bool) and math.isfinite(value):
         return float(value)
     if isinstance(value, str):
         match = _DB_RE.match(value)
         if match:
-            return 10.0 ** (float(match.group(1)) / 20.0)
+            return _finite_ratio(float(match.group(1)), value, expected)
         bare = _NUMBER_RE.match(value)
-        if bare and not bare.group(2):
+        if bare and not bare.group(2) and math.isfinite(float(bare.group(1))):
             return float(bare.group(1))
-    raise UnitParseError(value, 'a voltage gain such as "26 dB" or a plain ratio such as 20')
+    raise UnitParseError(value, expected)
 
 
 def parse_fraction(value: object) -> float:
@@ -213,10 +233,12 @@ def parse_level(value: object) -> float:
         raise UnitParseError(value, expected)
     number, decibel, prefix, form = match.groups()
     if decibel == "dBu":
-        return DBU_REFERENCE_VRMS * 10.0 ** (float(number) / 20.0)
+        return DBU_REFERENCE_VRMS * _finite_ratio(float(number), value, expected)
     if decibel == "dBV":
-        return DBV_REFERENCE_VRMS * 10.0 ** (float(number) / 20.0)
+        return DBV_REFERENCE_VRMS * _finite_ratio(float(number), value, expected)
     level = float(number) * _LEVEL_PREFIX[prefix] * _LEVEL_FORM[form]
+    if not math.isfinite(level):
+        raise UnitParseError(value, expected + " (a finite level)")
     if level <= 0.0:
         raise UnitParseError(value, expected + " (a level above zero)")
     return level

@@ -1,0 +1,193 @@
+"""The real command, driven through typer's CliRunner and as a subprocess."""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+import tomllib
+from pathlib import Path
+
+import pytest
+from typer.testing import CliRunner
+
+from chainbudget.cli import app
+
+ROOT = Path(__file__).resolve().parents[1]
+CHAINS = sorted((ROOT / "chains").glob("*.toml"))
+runner = CliRunner()
+
+# The keys the chain-format contract makes required in `check --format json`.
+TOP_KEYS = {"title", "reference_hz", "band_hz", "nodes", "findings"}
+NODE_KEYS = {"stage", "kind", "gain_db", "total_gain_db", "level_vrms", "clip_vpk",
+             "headroom_db", "worst_headroom_db", "worst_at", "zout_ohm", "zload_ohm"}
+
+
+def test_there_are_at_least_three_example_chains() -> None:
+    assert len(CHAINS) >= 3
+
+
+@pytest.mark.parametrize("chain", CHAINS, ids=lambda p: p.stem)
+def test_every_example_checks_as_a_table(chain: Path) -> None:
+    result = runner.invoke(app, ["check", str(chain)])
+    assert result.exit_code in (0, 1), result.output
+    assert "Signal path" in result.output
+    assert "Traceback" not in result.output
+
+
+@pytest.mark.parametrize("chain", CHAINS, ids=lambda p: p.stem)
+def test_every_example_prints_the_contract_json_keys(chain: Path) -> None:
+    result = runner.invoke(app, ["check", str(chain), "--format", "json"])
+    data = json.loads(result.stdout)
+    assert TOP_KEYS <= data.keys()
+    assert len(data["nodes"]) >= 1
+    for node in data["nodes"]:
+        assert NODE_KEYS <= node.keys()
+    # Exit status follows the findings (contract: 1 with at least one error).
+    has_error = any(f["severity"] == "error" for f in data["findings"])
+    assert result.exit_code == (1 if has_error else 0)
+
+
+@pytest.mark.parametrize("chain", CHAINS, ids=lambda p: p.stem)
+def test_every_example_prints_valid_toml(chain: Path) -> None:
+    result = runner.invoke(app, ["check", str(chain), "--format", "toml"])
+    data = tomllib.loads(result.stdout)
+    assert data["title"]
+
+
+def test_strict_turns_warnings_into_exit_one() -> None:
+    chain = ROOT / "chains" / "tape_replay_module.toml"
+    plain = runner.invoke(app, ["check", str(chain), "--format", "json"])
+    findings = json.loads(plain.stdout)["findings"]
+    assert not any(f["severity"] == "error" for f in findings)
+    assert any(f["severity"] == "warning" for f in findings)
+    assert plain.exit_code == 0
+    assert runner.invoke(app, ["check", str(chain), "--strict"]).exit_code == 1
+
+
+def test_the_floating_input_example_is_an_error() -> None:
+    chain = ROOT / "chains" / "violin_piezo_preamp.toml"
+    result = runner.invoke(app, ["check", str(chain), "--format", "json"])
+    codes = {(f["severity"], f["code"], f["stage"]) for f in json.loads(result.stdout)["findings"]}
+    assert ("error", "no-dc-path", "buffer") in codes
+    assert result.exit_code == 1
+
+
+GOOD = """
+[chain]
+title = "t"
+[source]
+level = "-10 dBV"
+impedance = "1 kohm"
+[load]
+impedance = "10 kohm"
+[[supply]]
+name = "rail"
+kind = "dc"
+voltage = "24 V"
+[[stage]]
+name = "pre"
+kind = "opamp_gain"
+topology = "non-inverting"
+feedback = "10k"
+ground_leg = "1k"
+[[stage]]
+name = "bass"
+kind = "tone_bass"
+outer = "10k"
+pot = "100k"
+cap = "47n"
+"""
+
+BAD_CASES = {
+    "wrong dimension": ('cap = "47n"', 'cap = "10 V"', 'stage[2] "bass".cap'),
+    "bare number": ('outer = "10k"', "outer = 10000", 'stage[2] "bass".outer'),
+    "negative resistance": ('feedback = "10k"', 'feedback = "-10 kohm"',
+                            'stage[1] "pre".feedback'),
+    "zero resistance": ('feedback = "10k"', 'feedback = "0 ohm"', 'stage[1] "pre".feedback'),
+    "position out of range": ('cap = "47n"', 'cap = "47n"\nposition = 1.5',
+                              'stage[2] "bass".position'),
+    "unknown field": ('cap = "47n"', 'cap = "47n"\ncapp = "1n"', 'stage[2] "bass".capp'),
+    "unknown kind": ('kind = "tone_bass"', 'kind = "tone_bas"', 'stage[2] "bass".kind'),
+    "missing field": ('pot = "100k"\n', "", 'stage[2] "bass".pot'),
+    "undefined rail": ('ground_leg = "1k"', 'ground_leg = "1k"\npositive = "rial"',
+                       'stage[1] "pre".positive'),
+    "undefined part": ('ground_leg = "1k"', 'ground_leg = "1k"\nopamp = "nosuch"',
+                       'stage[1] "pre".opamp'),
+    "bad level": ('level = "-10 dBV"', 'level = "loud"', "source.level"),
+    "bad temperature": ('title = "t"', 'title = "t"\nambient = "hot"', "chain.ambient"),
+}
+
+
+@pytest.mark.parametrize("case", sorted(BAD_CASES))
+def test_every_error_class_is_one_line_with_its_path_and_exit_two(
+    case: str, tmp_path: Path
+) -> None:
+    old, new, path = BAD_CASES[case]
+    assert old in GOOD
+    file = tmp_path / "bad.toml"
+    file.write_text(GOOD.replace(old, new, 1), encoding="utf-8")
+    result = runner.invoke(app, ["check", str(file)])
+    assert result.exit_code == 2
+    message = result.stderr.strip()
+    assert "\n" not in message
+    assert str(file) in message and path in message
+    assert "Traceback" not in result.output
+
+
+def test_the_good_fixture_is_good(tmp_path: Path) -> None:
+    file = tmp_path / "good.toml"
+    file.write_text(GOOD, encoding="utf-8")
+    assert runner.invoke(app, ["check", str(file)]).exit_code in (0, 1)
+
+
+def test_did_you_mean_for_a_mistyped_kind(tmp_path: Path) -> None:
+    file = tmp_path / "bad.toml"
+    file.write_text(GOOD.replace('kind = "tone_bass"', 'kind = "tone_bas"'), encoding="utf-8")
+    assert 'did you mean "tone_bass"' in runner.invoke(app, ["check", str(file)]).stderr
+
+
+def test_missing_file_and_bad_toml_exit_two(tmp_path: Path) -> None:
+    assert runner.invoke(app, ["check", str(tmp_path / "none.toml")]).exit_code == 2
+    file = tmp_path / "broken.toml"
+    file.write_text("[chain\n", encoding="utf-8")
+    result = runner.invoke(app, ["check", str(file)])
+    assert result.exit_code == 2 and "not valid TOML" in result.stderr
+
+
+def test_unknown_format_is_a_usage_error() -> None:
+    result = runner.invoke(app, ["check", str(CHAINS[0]), "--format", "xml"])
+    assert result.exit_code == 2
+
+
+def test_new_writes_a_starter_that_checks_and_refuses_to_overwrite(tmp_path: Path) -> None:
+    file = tmp_path / "mine.toml"
+    assert runner.invoke(app, ["new", str(file)]).exit_code == 0
+    first = file.read_text(encoding="utf-8")
+    assert runner.invoke(app, ["check", str(file)]).exit_code in (0, 1)
+    file.write_text("# my own work\n", encoding="utf-8")
+    refused = runner.invoke(app, ["new", str(file)])
+    assert refused.exit_code == 2
+    assert file.read_text(encoding="utf-8") == "# my own work\n"
+    assert runner.invoke(app, ["new", str(file), "--force"]).exit_code == 0
+    assert file.read_text(encoding="utf-8") == first
+
+
+def test_blocks_lists_every_kind_and_the_fields_of_one() -> None:
+    listing = runner.invoke(app, ["blocks"])
+    assert listing.exit_code == 0
+    for kind in ("opamp_gain", "tone_bass", "tone_treble", "tone_two_band", "volume", "block",
+                 "dc"):
+        assert kind in listing.output
+    one = runner.invoke(app, ["blocks", "tone_two_band"])
+    assert one.exit_code == 0 and "treble_cap" in one.output and "bass_outer" in one.output
+    assert runner.invoke(app, ["blocks", "tone_bas"]).exit_code == 2
+
+
+def test_python_dash_m_runs_and_pipes_plain_text() -> None:
+    done = subprocess.run(
+        [sys.executable, "-m", "chainbudget", "check", str(CHAINS[0])],
+        capture_output=True, text=True, check=False,
+    )
+    assert done.returncode in (0, 1)
+    assert "\x1b[" not in done.stdout  # no colour codes when not a terminal
