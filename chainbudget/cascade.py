@@ -75,7 +75,7 @@ def cascade(
     """Join solved stages between a source impedance and a load impedance (ohm)."""
     n = len(solutions)
     loads: list[Complex] = [np.asarray(0j)] * n
-    y: Complex = 1.0 / np.asarray(load_impedance, dtype=complex)
+    y: Complex = np.asarray(1.0 / np.asarray(load_impedance, dtype=complex), dtype=complex)
     for k in range(n - 1, -1, -1):
         loads[k] = y
         y = solutions[k].two_port.input_admittance(y)

@@ -18,6 +18,7 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -31,7 +32,7 @@ POT_END_FRACTION = 1e-6
 # capacitor, say) a defined solution without disturbing any real impedance level.
 GMIN = 1e-12
 
-Complex = NDArray[np.complex128]
+Complex = NDArray[np.complexfloating[Any, Any]]
 
 
 @dataclass(frozen=True)

@@ -32,7 +32,7 @@ class UnitParseError(ValueError):
 @lru_cache(maxsize=1)
 def registry() -> pint.UnitRegistry:
     """Return the project's single pint registry (created once, cached)."""
-    reg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
+    reg: pint.UnitRegistry = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
     return reg
 
 

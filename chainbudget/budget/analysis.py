@@ -7,7 +7,7 @@ on a fine axis at the reference frequency (the rotation at which the output clip
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -88,7 +88,7 @@ def solve_chain(
     chain: Chain,
     envs: tuple[Environment, ...],
     frequency: NDArray[np.float64],
-    positions: list[Mapping[str, object]],
+    positions: Sequence[Mapping[str, object]],
 ) -> Cascade:
     """Solve every stage and cascade them between the source and the load."""
     solutions = [

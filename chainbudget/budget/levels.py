@@ -15,7 +15,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from numpy.typing import NDArray
+from numpy.typing import ArrayLike, NDArray
 
 from chainbudget.budget.analysis import Analysis
 from chainbudget.cascade import Cascade
@@ -53,7 +53,7 @@ class NodeLevels:
     zload_ohm: float
 
 
-def db(ratio: NDArray[np.float64] | float) -> NDArray[np.float64]:
+def db(ratio: ArrayLike) -> NDArray[np.float64]:
     """20 log10 of an amplitude ratio, -inf for zero without a warning."""
     with np.errstate(divide="ignore"):
         return np.asarray(20.0 * np.log10(np.abs(ratio)), dtype=float)

@@ -79,8 +79,8 @@ def budget_json(budget: Budget, found: list[Finding]) -> dict[str, Any]:
         "first_clip": budget.first_clip,
         "output_stage": budget.output_stage,
     }
-    for part in TOP_PARTS:
-        data.update(part(budget))
+    for top_part in TOP_PARTS:
+        data.update(top_part(budget))
     data["findings"] = [finding_json(fi) for fi in found]
     data["cautions"] = cautions(budget)
     return data
