@@ -44,8 +44,8 @@ class ChainFileError(ValueError, ChainError):
 
 
 SETTINGS_FIELDS = (
-    f.Field("title", f.NAME, "what the chain is", ""),
-    f.Field("band", f.NAME, "[low, high]: noise and worst-case band", None),
+    f.Field("title", f.NAME, "what the chain is (default: the file name)", None),
+    f.Field("band", f.BAND, "noise integration and worst-case search band", (20.0, 20000.0)),
     f.Field("reference", f.FREQUENCY, "frequency of the nominal figures", 1000.0),
     f.Field("ambient", f.TEMPERATURE, "ambient temperature (noise, heat)", 25.0),
     f.Field("points_per_decade", f.COUNT, "frequency grid density", 40),
@@ -59,7 +59,6 @@ LOAD_FIELDS = (
     f.Field("impedance", f.RESISTANCE, "nominal load (loudspeaker) impedance"),
     f.Field("sensitivity", f.DECIBELS, "SPL at 1 m for 1 W (enables SPL figures)", None),
 )
-DEFAULT_BAND = (20.0, 20000.0)
 TOP_TABLES = ("chain", "source", "load", "opamp", "transistor", "supply", "stage")
 
 
@@ -187,6 +186,12 @@ class _Reader:
         return name, kind
 
 
+def _missing(schema: Iterable[f.Field], key: str, tail: str = "") -> str:
+    """The message for a conditionally required field: what it is and its unit."""
+    field = next(field for field in schema if field.key == key)
+    return f"missing required field{tail} ({field.meaning}, {field.kind.unit})"
+
+
 def _parts(
     reader: _Reader,
     data: Mapping[str, Any],
@@ -204,27 +209,8 @@ def _parts(
 
 def _settings(reader: _Reader, data: Mapping[str, Any], default_title: str) -> Settings:
     body = reader.table(data.get("chain", {}), "chain")
-    schema = [field for field in SETTINGS_FIELDS if field.key != "band"]
-    values = reader.read(body, schema, "chain", skip=("band",))
-    band = DEFAULT_BAND
-    if "band" in body:
-        raw = body["band"]
-        if not (isinstance(raw, list) and len(raw) == 2):
-            raise reader.error("chain.band", f'got {raw!r}, expected ["20 Hz", "20 kHz"]')
-        try:
-            lo, hi = (f.FREQUENCY.read(item) for item in raw)
-        except UnitParseError as exc:
-            raise reader.error("chain.band", str(exc)) from None
-        if not lo < hi:
-            raise reader.error("chain.band", f"got {raw!r}, expected the low edge first")
-        band = (lo, hi)
-    return Settings(
-        title=values["title"] or default_title,
-        band=band,
-        reference=values["reference"],
-        ambient=values["ambient"],
-        points_per_decade=values["points_per_decade"],
-    )
+    values = reader.read(body, SETTINGS_FIELDS, "chain")
+    return Settings(**{**values, "title": values["title"] or default_title})
 
 
 def _supplies(reader: _Reader, data: Mapping[str, Any]) -> tuple[Supply, ...]:
@@ -238,7 +224,7 @@ def _supplies(reader: _Reader, data: Mapping[str, Any]) -> tuple[Supply, ...]:
             schema = (f.Field("from", f.NAME, "the supply this one is fed from"), *schema)
         values = reader.read(item, schema, path, skip=("name", "kind"))
         for key in spec.missing(values):
-            raise reader.error(f"{path}.{key}", "missing required field")
+            raise reader.error(f"{path}.{key}", _missing(schema, key))
         if name == GROUND_SUPPLY or any(s.name == name for s in found):
             raise reader.error(f"{path}.name", f'"{name}" is already defined')
         found.append(Supply(index, name, kind, values))
@@ -279,7 +265,7 @@ def _stages(
         spec = STAGE_KINDS[kind]
         values = reader.read(item, spec.fields, path, skip=("name", "kind"))
         for key in spec.missing(values):
-            raise reader.error(f"{path}.{key}", "missing required field for this topology")
+            raise reader.error(f"{path}.{key}", _missing(spec.fields, key, " for this topology"))
         if any(s.name == name for s in found):
             raise reader.error(f"{path}.name", f'"{name}" names an earlier stage too')
         if "opamp" in values and values["opamp"] not in opamps:
@@ -290,10 +276,9 @@ def _stages(
         if "positive" in values:
             if values["positive"] is None and spec.uses_rails:
                 if len(supplies) != 1:
+                    why = "more than one supply; name the rail" if supplies else "no [[supply]]"
                     raise reader.error(
-                        f"{path}.positive",
-                        "missing required field (the "
-                        "chain has more than one supply; name the rail)",
+                        f"{path}.positive", f"missing required field (the chain has {why})"
                     )
                 values["positive"] = supplies[0].name
             for rail in ("positive", "negative"):
@@ -398,7 +383,7 @@ def chain_to_dict(chain: Chain) -> dict[str, Any]:
     data: dict[str, Any] = {
         "chain": {
             "title": s.title,
-            "band": [f.FREQUENCY.write(s.band[0]), f.FREQUENCY.write(s.band[1])],
+            "band": f.BAND.write(s.band),
             "reference": f.FREQUENCY.write(s.reference),
             "ambient": f.TEMPERATURE.write(s.ambient),
             "points_per_decade": s.points_per_decade,

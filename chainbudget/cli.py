@@ -11,6 +11,7 @@ import tomli_w
 import typer
 from rich import box
 from rich.console import Console
+from rich.markup import escape
 from rich.table import Table
 
 from chainbudget.blocks import catalogue, default_text
@@ -85,19 +86,20 @@ def blocks(
         for header in ("name", "where", "what"):
             table.add_column(header)
         for e in entries.values():
-            table.add_row(e.name, e.table, e.summary)
+            table.add_row(escape(e.name), escape(e.table), escape(e.summary))
         console.print(table)
         return
     if kind not in entries:
         raise _fail(f'unknown kind "{kind}"' + suggest(kind, entries) + "; known: "
                     + ", ".join(entries))
     e = entries[kind]
-    table = Table(box=box.SIMPLE_HEAD, title=f"{e.name}  {e.table}: {e.summary}",
+    table = Table(box=box.SIMPLE_HEAD, title=escape(f"{e.name}  {e.table}: {e.summary}"),
                   title_justify="left")
     for header in ("field", "unit", "default", "meaning"):
         table.add_column(header)
     for fld in e.fields:
-        table.add_row(fld.key, fld.kind.unit, default_text(fld), fld.meaning)
+        table.add_row(*(escape(text) for text in (fld.key, fld.kind.unit, default_text(fld),
+                                                  fld.meaning)))
     console.print(table)
 
 

@@ -118,6 +118,16 @@ def _read_integer(value: object) -> int:
     raise UnitParseError(value, "a whole number above zero")
 
 
+def _read_band(value: object) -> tuple[float, float]:
+    expected = 'two frequencies, low first, such as ["20 Hz", "20 kHz"]'
+    if not (isinstance(value, list) and len(value) == 2):
+        raise UnitParseError(value, expected)
+    lo, hi = (units.parse_quantity(item, units.HERTZ) for item in value)
+    if not 0.0 < lo < hi:
+        raise UnitParseError(value, expected)
+    return lo, hi
+
+
 def choice(*options: str) -> FieldKind:
     """A field that takes one of a fixed set of words."""
 
@@ -171,3 +181,4 @@ TAPER = FieldKind('"linear" | "log" | fraction at mid', _read_taper, lambda v: v
 FLAG = FieldKind("true | false", _read_bool, bool)
 NAME = FieldKind("name", _read_name, str)
 COUNT = FieldKind("whole number", _read_integer, int)
+BAND = FieldKind("[low, high] Hz", _read_band, lambda band: [f"{band[0]!r} Hz", f"{band[1]!r} Hz"])

@@ -116,9 +116,11 @@ def parse_quantity(value: object, dimension: Dimension) -> float:
     if isinstance(value, bool):
         raise UnitParseError(value, expected)
     if isinstance(value, int | float):
-        if dimension is DIMENSIONLESS:
-            return float(value)
-        raise UnitParseError(value, expected + " (a bare number has no unit)")
+        if dimension is not DIMENSIONLESS:
+            raise UnitParseError(value, expected + " (a bare number has no unit)")
+        if not math.isfinite(value):  # TOML has nan and inf literals
+            raise UnitParseError(value, expected + " (a finite number)")
+        return float(value)
     if not isinstance(value, str):
         raise UnitParseError(value, expected)
     coded = _letter_code(value, dimension)
