@@ -253,6 +253,7 @@ def _stages(
     data: Mapping[str, Any],
     supplies: tuple[Supply, ...],
     opamps: Mapping[str, OpAmp],
+    transistors: Mapping[str, Transistor],
 ) -> tuple[Stage, ...]:
     found: list[Stage] = []
     rail_names = [s.name for s in supplies]
@@ -273,6 +274,8 @@ def _stages(
                 f"{path}.opamp",
                 f'no op-amp named "{values["opamp"]}"' + suggest(values["opamp"], opamps),
             )
+        for key, message in spec.part_problems(values, transistors):
+            raise reader.error(f"{path}.{key}", message)
         if "positive" in values:
             if values["positive"] is None and spec.uses_rails:
                 if len(supplies) != 1:
@@ -319,7 +322,7 @@ def parse_chain(data: Mapping[str, Any], file: str) -> Chain:
         reader, data, "transistor", TRANSISTOR_FIELDS, Transistor, GENERIC_TRANSISTORS
     )
     supplies = _supplies(reader, data)
-    stages = _stages(reader, data, supplies, opamps)
+    stages = _stages(reader, data, supplies, opamps, transistors)
     return Chain(
         file=file,
         settings=settings,
@@ -358,10 +361,12 @@ def load_chain(path: str | Path) -> Chain:
 
 
 def _written(values: Mapping[str, Any], schema: Iterable[f.Field]) -> dict[str, Any]:
+    # None (an unset option) and "" (an empty description) are left out: reading the
+    # table back fills in the same default, whereas an empty name would not read at all.
     return {
         field.key: field.kind.write(values[field.key])
         for field in schema
-        if values.get(field.key) is not None
+        if values.get(field.key) is not None and values.get(field.key) != ""
     }
 
 

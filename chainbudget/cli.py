@@ -18,6 +18,7 @@ from chainbudget.blocks import catalogue, default_text
 from chainbudget.budget import compute
 from chainbudget.chainfile import ChainError, load_chain, suggest
 from chainbudget.findings import findings
+from chainbudget.report import noise as noise_view
 from chainbudget.report.json_view import budget_json, without_nulls
 from chainbudget.report.table_view import render
 
@@ -49,6 +50,8 @@ def check(
     output_format: Annotated[str, typer.Option("--format", "-f",
                                                help="table, json or toml")] = "table",
     strict: Annotated[bool, typer.Option(help="exit 1 on warnings too")] = False,
+    noise_detail: Annotated[bool, typer.Option(
+        "--noise-detail", help="also list the noise contributors at a few frequencies")] = False,
 ) -> None:
     """Work out the budget of a chain and report it with its findings."""
     if output_format not in ("table", "json", "toml"):
@@ -61,7 +64,11 @@ def check(
     budget = compute(chain)
     found = findings(budget)
     if output_format == "table":
-        render(budget, found, _console())
+        console = _console()
+        render(budget, found, console)
+        if noise_detail:
+            for table in noise_view.detail_tables(budget):
+                console.print(table)
     else:
         data = budget_json(budget, found)
         if output_format == "json":

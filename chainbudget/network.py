@@ -28,9 +28,18 @@ GROUND = "0"
 # Each pot end carries this fraction of the track as a series resistance so the matrix never
 # goes singular at the stops (chain-format contract, "Stage topologies").
 POT_END_FRACTION = 1e-6
-# A leak of 1 Tohm from every node to ground gives a floating node (an op-amp input behind a
-# capacitor, say) a defined solution without disturbing any real impedance level.
-GMIN = 1e-12
+# A leak of 1000 Tohm from every node to ground gives a floating node (an op-amp input behind
+# a capacitor, say) a defined solution without disturbing any real impedance level. Kept this
+# small because each stage's netlist leaks its own port nodes, so the cascade counts the leak
+# twice at every node between stages (1e-12 S there moved a 3 kohm node by 2e-9).
+GMIN = 1e-15
+# An ideal (zero-ohm) source output gets this much series resistance: a voltage source
+# straight onto a two-port's output port meets the port's own test source there, and the
+# short-circuit parameters `two_port` solves for would not exist (a singular matrix). Much
+# smaller values make probes such as an op-amp's output current (g1 V1 + g2 V2 with g2 ~
+# loop gain / R_o) cancel badly; 1 mohm keeps them to ~1e-5 and shifts a gain into 8 ohm
+# by 1e-4 (0.001 dB).
+SOURCE_FLOOR_OHM = 1e-3
 
 Complex = NDArray[np.complexfloating[Any, Any]]
 
@@ -253,13 +262,13 @@ class Netlist:
         (the dominant-pole model: Franco, Design with Operational Amplifiers and Analog
         Integrated Circuits, 4th ed., sec. 6.1). The output is an ideal source A(s)(v+ - v-)
         in series with the open-loop output resistance R_o. The branch current of the source
-        (named ``label``) is minus the op-amp's output current.
+        (named ``label``) is minus the op-amp's output current. R_o = 0 is stamped as
+        ``SOURCE_FLOOR_OHM``.
         """
         gain = self.open_loop_gain(open_loop_gain, gbw)
-        internal = out if output_resistance <= 0.0 else f"{label}.internal"
+        internal = f"{label}.internal"
         branch = self.vcvs(plus, minus, internal, gain, label=label)
-        if output_resistance > 0.0:
-            self.resistor(internal, out, output_resistance, label=f"{label}.ro")
+        self.resistor(internal, out, max(output_resistance, SOURCE_FLOOR_OHM), label=f"{label}.ro")
         return branch
 
     def open_loop_gain(self, a0: float, gbw: float) -> Complex:

@@ -8,8 +8,10 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from chainbudget.budget.analysis import Analysis, analyse
+from chainbudget.budget.analysis import Analysis
 from chainbudget.budget.levels import NodeLevels, VolumeClip, node_levels, volume_clip_rotation
+from chainbudget.budget.noise import NoiseBudget, noise_budget
+from chainbudget.budget.power import DriveBudget, OutputFigures, drive_budget, output_figures
 from chainbudget.budget.staging import (
     Boost,
     FloatingInput,
@@ -19,6 +21,12 @@ from chainbudget.budget.staging import (
     post_volume_headroom,
     supply_ranges,
     tone_boosts,
+)
+from chainbudget.budget.supplies import (
+    SupplyFigures,
+    high_line_supply_ranges,
+    loaded_analysis,
+    supply_figures,
 )
 from chainbudget.chainfile import Chain
 
@@ -43,11 +51,20 @@ class Budget:
     supply_ranges: tuple[SupplyRange, ...]
     floating: tuple[FloatingInput, ...]
     has_mains: bool
+    noise: NoiseBudget | None = None
+    supplies: tuple[SupplyFigures, ...] = ()
+    high_line_supply_ranges: tuple[SupplyRange, ...] = ()
+    output: OutputFigures | None = None
+    drive: DriveBudget | None = None
 
 
 def compute(chain: Chain) -> Budget:
-    """Work out the whole budget of a chain."""
-    analysis = analyse(chain)
+    """Work out the whole budget of a chain.
+
+    Stages are analysed on their rails at low line (low battery) under the loaded power
+    tree (`chainbudget.budget.supplies.loaded_analysis`): the swing limits a build must meet.
+    """
+    analysis = loaded_analysis(chain, corner="low")
     return budget_from(analysis)
 
 
@@ -75,4 +92,9 @@ def budget_from(analysis: Analysis) -> Budget:
         supply_ranges=tuple(supply_ranges(analysis)),
         floating=tuple(floating_inputs(analysis)),
         has_mains=any(s.kind == "rectified" for s in chain.supplies),
+        noise=noise_budget(analysis),
+        supplies=supply_figures(analysis),
+        high_line_supply_ranges=high_line_supply_ranges(analysis),
+        output=output_figures(analysis),
+        drive=drive_budget(analysis),
     )

@@ -74,7 +74,11 @@ def environments(chain: Chain, corner: str = "nominal") -> tuple[Environment, ..
     temperature = chain.settings.ambient + zero_Celsius
     return tuple(
         Environment(
-            temperature, chain.opamps, chain.transistors, stage_rails(stage, voltages, corner)
+            temperature,
+            chain.opamps,
+            chain.transistors,
+            stage_rails(stage, voltages, corner),
+            chain.load.impedance,
         )
         for stage in chain.stages
     )

@@ -2,11 +2,17 @@
 
 Notes
 -----
-A stage's quiescent current flows rail to rail. The signal current it sources into its
-load and feedback network comes from the positive rail on positive half-cycles and from
-the negative rail (or ground, single supply) on negative ones; for a sine of peak I_pk the
-average from each rail is I_pk/pi (the mean of a half-wave rectified sine, any circuits
-text, e.g. Boylestad & Nashelsky, Electronic Devices and Circuit Theory, class B section).
+A stage's quiescent current flows rail to rail: an op-amp's supply current per section, a
+follower's bias current, a push-pull stage's quiescent current. The signal current a
+class-B source (an op-amp output, a push-pull pair) sends into its load comes from the
+positive rail on positive half-cycles and from the negative rail (or ground, single supply)
+on negative ones; for a sine of peak I_pk the average from each rail is I_pk/pi, the mean of
+a half-wave rectified sine (Boylestad & Nashelsky, Electronic Devices and Circuit Theory,
+class B section: I_dc = (2/pi) I_pk for both halves together, from memory). For a push-pull
+stage into Z_L that is V_pk/(pi |Z_L|) from each rail, 2 V_pk/(pi |Z_L|) from the two
+together; a single-supply stage with an output capacitor draws V_pk/(pi |Z_L|) from its
+one supply (the capacitor feeds the other half-cycle). A class-A follower's signal current
+averages to zero over a cycle: it draws its bias current at every level short of clipping.
 """
 
 from __future__ import annotations
@@ -17,12 +23,18 @@ import numpy as np
 
 from chainbudget.budget.analysis import Analysis
 from chainbudget.budget.levels import SQRT2, clip_source_peak
+from chainbudget.cascade import StageSolution
 from chainbudget.stages import KINDS
+from chainbudget.stages.push_pull import OUTPUT_CURRENT
 
 
 @dataclass(frozen=True)
 class StageCurrents:
-    """Average current a stage draws from each of its rails, A."""
+    """Average current a stage draws from EACH of its rails, A.
+
+    ``idle_a`` with no signal; ``nominal_a`` at the nominal source level; ``clip_a`` with a
+    sine at the stage's own clip level (controls as set, reference frequency).
+    """
 
     stage: str
     positive: str | None
@@ -32,27 +44,37 @@ class StageCurrents:
     clip_a: float
 
 
+def class_b_probes(solution: StageSolution) -> list[str]:
+    """Probes of the currents a stage sources in half-sine pulses from each rail."""
+    probes = [f"{label}.current" for label, _part in solution.built.opamps]
+    if OUTPUT_CURRENT in solution.built.probes:
+        probes.append(OUTPUT_CURRENT)
+    return probes
+
+
 def stage_currents(analysis: Analysis) -> list[StageCurrents]:
-    """Average rail current of every stage at idle, nominal level and its own clip level."""
+    """Average current from each rail of every stage at idle, nominal level and its own clip
+    level (see the module notes for the model of each kind)."""
     nominal = analysis.nominal
     found = []
     for k, (sol, env) in enumerate(zip(nominal.stages, analysis.envs, strict=True)):
         stage = sol.stage
-        kind = KINDS[stage.kind]
-        idle = kind.supply_current(stage, env)
-        signal_nominal = signal_clip = 0.0
+        idle = KINDS[stage.kind].supply_current(stage, env)
         clip = clip_source_peak(nominal, k)
-        for label, _part in sol.built.opamps:
-            per_volt = float(np.abs(nominal.probe(k, f"{label}.current")[..., 0]))
-            signal_nominal += per_volt * SQRT2 * analysis.chain.source.level / np.pi
-            if clip is not None:
-                signal_clip += per_volt * float(clip[0][..., 0]) / np.pi
-        found.append(StageCurrents(
-            stage=stage.name,
-            positive=stage.values.get("positive"),
-            negative=stage.values.get("negative"),
-            idle_a=idle,
-            nominal_a=idle + signal_nominal,
-            clip_a=idle + signal_clip,
-        ))
+        per_volt = sum(
+            (float(np.abs(nominal.probe(k, probe)[..., 0])) for probe in class_b_probes(sol)),
+            0.0,
+        )
+        signal_nominal = per_volt * SQRT2 * analysis.chain.source.level / np.pi
+        signal_clip = 0.0 if clip is None else per_volt * float(clip[0][..., 0]) / np.pi
+        found.append(
+            StageCurrents(
+                stage=stage.name,
+                positive=stage.values.get("positive"),
+                negative=stage.values.get("negative"),
+                idle_a=idle,
+                nominal_a=idle + signal_nominal,
+                clip_a=idle + signal_clip,
+            )
+        )
     return found

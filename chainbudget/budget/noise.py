@@ -76,12 +76,15 @@ SOURCE_STAGE = "source"
 class NoiseOrigin:
     """Where a noise generator sits: its netlist label, stage, part and kind.
 
-    ``kind`` is ``"thermal"``, ``"e_n"``, ``"i_n"`` or ``"input-referred"`` (a block);
-    ``part`` is the label without the stage prefix (``"feedback"``, ``"opamp.i_n+"``).
+    ``stage_index`` is the stage's 0-based position in the chain, -1 for the source (whose
+    ``stage`` is ``"source"``); ``kind`` is ``"thermal"``, ``"e_n"``, ``"i_n"`` or
+    ``"input-referred"`` (a block); ``part`` is the label without the stage prefix
+    (``"feedback"``, ``"opamp.i_n+"``).
     """
 
     label: str
     stage: str
+    stage_index: int
     part: str
     kind: str
 
@@ -141,6 +144,7 @@ def _floored(z: Complex) -> Complex:
 
 def stage_noise_transfers(
     stage: Stage,
+    stage_index: int,
     env: Environment,
     frequency: NDArray[np.float64],
     positions: dict[str, float],
@@ -181,6 +185,7 @@ def stage_noise_transfers(
         NoiseOrigin(
             src.label,
             src.stage or stage.name,
+            stage_index,
             src.label.removeprefix(prefix),
             src.kind,
         )
@@ -243,23 +248,20 @@ def noise_spectra(
     backward = []  # V_in,m / V_out,m with the input terminated in Z_S,m
     for m, sol in enumerate(nominal.stages):
         tp, z = sol.two_port, _floored(nominal.source_impedance[m])
-        backward.append(
-            np.broadcast_to(z * (tp.a * tp.d - tp.b * tp.c) / (tp.b + z * tp.d), shape)
-        )
+        backward.append(np.broadcast_to(z * (tp.a * tp.d - tp.b * tp.c) / (tp.b + z * tp.d), shape))
     signal = np.stack([np.abs(np.broadcast_to(v, shape)) for v in nominal.v_out])
 
     origins: list[NoiseOrigin] = []
     blocks: list[NDArray[np.float64]] = []
     r_source = float(np.real(chain.source.impedance))
     if r_source > 0.0:
-        origins.append(NoiseOrigin("source.impedance", SOURCE_STAGE, "impedance", "thermal"))
+        origins.append(NoiseOrigin("source.impedance", SOURCE_STAGE, -1, "impedance", "thermal"))
         psd = 4.0 * BOLTZMANN * temperature_k * r_source
         blocks.append((psd * signal**2)[None])
-    for k, (stage, env, pos) in enumerate(
-        zip(stages, envs, positions_as_set(stages), strict=True)
-    ):
+    for k, (stage, env, pos) in enumerate(zip(stages, envs, positions_as_set(stages), strict=True)):
         found, psd, to_out, to_in = stage_noise_transfers(
             stage,
+            k,
             env,
             frequency,
             pos,
@@ -293,7 +295,8 @@ class NodeNoise:
 
     ``snr_db`` is the nominal level at the reference over the unweighted noise;
     ``density_v_rthz`` the noise density at the reference frequency; ``set_by`` the
-    stage (or ``"source"``) giving the largest share of the unweighted noise power here.
+    stage (or ``"source"``) giving the largest share of the unweighted noise power here,
+    ``set_by_index`` its position (-1: the source).
     """
 
     stage: str
@@ -304,6 +307,7 @@ class NodeNoise:
     snr_db: float | None
     snr_a_db: float | None
     set_by: str
+    set_by_index: int
 
 
 @dataclass(frozen=True)
@@ -312,6 +316,7 @@ class Contributor:
 
     label: str
     stage: str
+    stage_index: int
     part: str
     kind: str
     noise_vrms: float
@@ -321,9 +326,11 @@ class Contributor:
 
 @dataclass(frozen=True)
 class StageShare:
-    """A stage's (or the source's) share of the output noise power, unweighted and A."""
+    """A stage's (or the source's, index -1) share of the output noise power, unweighted and
+    A-weighted."""
 
     stage: str
+    stage_index: int
     share: float
     share_a: float
 
@@ -434,15 +441,13 @@ def _node_figures(spectra: NoiseSpectra, chain: Chain) -> list[NodeNoise]:
     a = spectra.integrate(psd, a_weighting)
     itu = spectra.integrate(psd, itu468_weighting)
     per_source = spectra.integrate(spectra.contribution, unweighted)  # (S, K)
-    stage_names = [SOURCE_STAGE, *(st.name for st in chain.stages)]
+    names = {-1: SOURCE_STAGE, **{k: st.name for k, st in enumerate(chain.stages)}}
+    owner = np.array([o.stage_index for o in spectra.origins], dtype=int)
     nodes = []
     for k, stage in enumerate(chain.stages):
         level = chain.source.level * float(spectra.signal[k, 0])
-        by_stage = {
-            name: float(sum(p for o, p in zip(spectra.origins, per_source[:, k], strict=True)
-                            if o.stage == name))
-            for name in stage_names
-        }
+        by_stage = {i: float(per_source[owner == i, k].sum()) for i in names}
+        set_by = max(by_stage, key=lambda i: by_stage[i])
         nodes.append(
             NodeNoise(
                 stage=stage.name,
@@ -452,7 +457,8 @@ def _node_figures(spectra: NoiseSpectra, chain: Chain) -> list[NodeNoise]:
                 density_v_rthz=float(np.sqrt(psd[k, 0])),
                 snr_db=_db20(level / math.sqrt(flat[k])) if flat[k] > 0 else None,
                 snr_a_db=_db20(level / math.sqrt(a[k])) if a[k] > 0 else None,
-                set_by=max(by_stage, key=lambda name: by_stage[name]),
+                set_by=names[set_by],
+                set_by_index=set_by,
             )
         )
     return nodes
@@ -466,20 +472,25 @@ def _contributors(spectra: NoiseSpectra) -> tuple[list[Contributor], list[StageS
     ranked = sorted(range(len(spectra.origins)), key=lambda s: -flat[s])
     contributors = [
         Contributor(
-            o.label, o.stage, o.part, o.kind, float(np.sqrt(flat[s])), float(share[s]),
-            float(share_a[s])
+            o.label,
+            o.stage,
+            o.stage_index,
+            o.part,
+            o.kind,
+            float(np.sqrt(flat[s])),
+            float(share[s]),
+            float(share_a[s]),
         )
         for s in ranked
         for o in (spectra.origins[s],)
     ]
-    names = list(dict.fromkeys(o.stage for o in spectra.origins))
+    owners = {o.stage_index: o.stage for o in spectra.origins}
+    owner = np.array([o.stage_index for o in spectra.origins], dtype=int)
     stage_shares = [
         StageShare(
-            name,
-            float(sum(share[s] for s, o in enumerate(spectra.origins) if o.stage == name)),
-            float(sum(share_a[s] for s, o in enumerate(spectra.origins) if o.stage == name)),
+            name, index, float(share[owner == index].sum()), float(share_a[owner == index].sum())
         )
-        for name in names
+        for index, name in sorted(owners.items())
     ]
     return contributors, stage_shares
 
@@ -495,7 +506,11 @@ def _spot(spectra: NoiseSpectra, index: int) -> SpotNoise:
         input_density_v_rthz=math.sqrt(total) / gain if gain > 0.0 else None,
         contributors=tuple(
             SpotContributor(
-                o.label, o.stage, o.part, o.kind, float(np.sqrt(out[s])),
+                o.label,
+                o.stage,
+                o.part,
+                o.kind,
+                float(np.sqrt(out[s])),
                 float(out[s] / total) if total > 0.0 else 0.0,
             )
             for s in ranked
@@ -552,7 +567,7 @@ def placement_costs(analysis: Analysis, spectra: NoiseSpectra) -> list[Placement
         order = [*range(v), *range(v + 1, main + 1), v, *range(main + 1, len(stages))]
         moved = replace(chain, stages=tuple(stages[k] for k in order))
         envs = tuple(analysis.envs[k] for k in order)
-        cas = solve_chain(moved, envs, analysis.frequency, positions_as_set(moved.stages))  # type: ignore[arg-type]
+        cas = solve_chain(moved, envs, analysis.frequency, positions_as_set(moved.stages))
         moved_spectra = noise_spectra(
             moved, envs, analysis.frequency, cas, analysis.temperature_k, analysis.band_slice
         )
@@ -561,7 +576,12 @@ def placement_costs(analysis: Analysis, spectra: NoiseSpectra) -> list[Placement
             continue
         found.append(
             PlacementCost(
-                stage.name, stage.kind, stages[main].name, gains[main], snr, moved_snr,
+                stage.name,
+                stage.kind,
+                stages[main].name,
+                gains[main],
+                snr,
+                moved_snr,
                 moved_snr - snr,
             )
         )
@@ -604,7 +624,7 @@ def noise_budget(analysis: Analysis) -> NoiseBudget:
     input_noise_a = _finite(math.sqrt(input_a_sq)) if input_noise is not None else None
 
     noise_figure = None
-    if spectra.origins and spectra.origins[0].stage == SOURCE_STAGE:
+    if spectra.origins and spectra.origins[0].stage_index == -1:
         source_psd = float(spectra.contribution[0, -1, 0])
         if source_psd > 0.0:
             noise_figure = 10.0 * math.log10(float(out_psd[0]) / source_psd)
@@ -637,8 +657,6 @@ def noise_budget(analysis: Analysis) -> NoiseBudget:
         hiss_spl_a_db=spl(output.noise_a_vrms),
         contributors=tuple(contributors),
         stage_shares=tuple(stage_shares),
-        spectrum=tuple(
-            _spot(spectra, i) for i in detail_indices(spectra.frequency, spectra.band)
-        ),
+        spectrum=tuple(_spot(spectra, i) for i in detail_indices(spectra.frequency, spectra.band)),
         placement=tuple(placement_costs(analysis, spectra)),
     )

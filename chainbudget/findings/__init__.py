@@ -9,10 +9,15 @@ from __future__ import annotations
 from collections.abc import Callable
 
 from chainbudget.budget import Budget
-from chainbudget.findings import levels
+from chainbudget.findings import levels, noise, power, supplies
 from chainbudget.findings.base import SEVERITIES, Finding
 
-RULES: list[Callable[[Budget], list[Finding]]] = [levels.rules]
+RULES: list[Callable[[Budget], list[Finding]]] = [
+    levels.rules,
+    noise.rules,
+    supplies.rules,
+    power.rules,
+]
 
 
 def findings(budget: Budget) -> list[Finding]:

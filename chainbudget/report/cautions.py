@@ -5,6 +5,7 @@ from __future__ import annotations
 from collections.abc import Callable
 
 from chainbudget.budget import Budget
+from chainbudget.report import power
 
 MAINS_CAUTION = (
     "Mains: this chain has a transformer-fed supply. Mains wiring, fusing, earthing and "
@@ -18,7 +19,7 @@ def _mains(budget: Budget) -> list[str]:
 
 
 # Each area adds a function here that returns the cautions its figures call for.
-CAUTIONS: list[Callable[[Budget], list[str]]] = [_mains]
+CAUTIONS: list[Callable[[Budget], list[str]]] = [_mains, power.cautions]
 
 
 def cautions(budget: Budget) -> list[str]:

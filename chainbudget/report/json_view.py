@@ -9,6 +9,7 @@ from typing import Any
 from chainbudget.budget import Budget
 from chainbudget.budget.levels import NodeLevels
 from chainbudget.findings import Finding
+from chainbudget.report import noise, power, supplies
 from chainbudget.report.cautions import cautions
 
 
@@ -45,8 +46,12 @@ def _node(node: NodeLevels) -> dict[str, Any]:
 
 # Areas of the budget add their parts here: NODE_PARTS entries give extra keys for node k,
 # TOP_PARTS entries extra top-level keys.
-NODE_PARTS: list[Callable[[Budget, int], dict[str, Any]]] = []
-TOP_PARTS: list[Callable[[Budget], dict[str, Any]]] = []
+NODE_PARTS: list[Callable[[Budget, int], dict[str, Any]]] = [noise.node_json, power.node_json]
+TOP_PARTS: list[Callable[[Budget], dict[str, Any]]] = [
+    noise.json_part,
+    supplies.json_part,
+    power.json_part,
+]
 
 
 def finding_json(finding: Finding) -> dict[str, Any]:

@@ -10,14 +10,15 @@ from rich.table import Table
 
 from chainbudget.budget import Budget
 from chainbudget.findings import Finding
+from chainbudget.report import noise, power, supplies
 from chainbudget.report.cautions import cautions
 from chainbudget.report.text import DASH, decibels, eng
 from chainbudget.units import vrms_to_dbu
 
 # Areas of the budget add columns to the node table (NODE_COLUMNS: header, justify and a
 # cell function of (budget, k)) and tables of their own (TABLES).
-NODE_COLUMNS: list[tuple[str, str, Callable[[Budget, int], str]]] = []
-TABLES: list[Callable[[Budget], list[Table]]] = []
+NODE_COLUMNS: list[tuple[str, str, Callable[[Budget, int], str]]] = [*noise.NODE_COLUMNS]
+TABLES: list[Callable[[Budget], list[Table]]] = [noise.tables, supplies.tables, power.tables]
 
 _SEVERITY_MARK = {"error": "ERROR", "warning": "warn ", "note": "note "}
 

@@ -76,6 +76,8 @@ class Environment:
     opamps: Mapping[str, OpAmp]
     transistors: Mapping[str, Transistor]
     rails: Rails | None
+    # The chain's load, ohm: what an output stage works its conduction current out from.
+    load_impedance: float | None = None
 
 
 @dataclass(frozen=True)
@@ -153,6 +155,20 @@ class StageKind(ABC):
     def supply_current(self, stage: Stage, env: Environment) -> float:
         """Quiescent current drawn from the positive rail, A."""
         return 0.0
+
+    def bias_point(self, stage: Stage) -> float | None:
+        """The signal bias point the stage sets, V (None: mid-rail single supply, 0 V split).
+
+        A kind whose ``bias`` field means something else (a follower's bias circuit) names
+        its bias point in another field.
+        """
+        return stage.optional("bias")
+
+    def part_problems(
+        self, values: Mapping[str, Any], transistors: Mapping[str, Transistor]
+    ) -> list[tuple[str, str]]:
+        """(key, message) for each transistor reference the loader must reject."""
+        return []
 
 
 # --- pieces shared by several kinds --------------------------------------------------------

@@ -7,7 +7,7 @@ from collections.abc import Mapping
 from numpy.typing import ArrayLike
 
 from chainbudget import fields as f
-from chainbudget.network import GROUND, Netlist, node_ref
+from chainbudget.network import GROUND, SOURCE_FLOOR_OHM, Netlist, node_ref
 from chainbudget.stages.base import RAIL_FIELDS, Built, Environment, Limit, Stage, StageKind
 
 
@@ -48,11 +48,11 @@ class Block(StageKind):
         net.resistor(
             node_in, GROUND, stage.number("input_impedance"), label=f"{name}.input_impedance"
         )
-        z_out = stage.number("output_impedance")
-        source = node_out if z_out <= 0.0 else f"{name}.source"
+        # A zero output impedance is stamped as a tiny one (see SOURCE_FLOOR_OHM).
+        z_out = max(stage.number("output_impedance"), SOURCE_FLOOR_OHM)
+        source = f"{name}.source"
         branch = net.vcvs(node_in, GROUND, source, stage.number("gain"), label=f"{name}.gain")
-        if z_out > 0.0:
-            net.resistor(source, node_out, z_out, label=f"{name}.output_impedance")
+        net.resistor(source, node_out, z_out, label=f"{name}.output_impedance")
         noise = stage.number("noise")
         if noise > 0.0:
             net.voltage_noise_at(

@@ -4,5 +4,7 @@ from __future__ import annotations
 
 from chainbudget.supplies.base import SupplyKind
 from chainbudget.supplies.dc import DcSupply
+from chainbudget.supplies.rectified import Rectified
+from chainbudget.supplies.regulator import Regulator
 
-KINDS: dict[str, SupplyKind] = {kind.kind: kind for kind in (DcSupply(),)}
+KINDS: dict[str, SupplyKind] = {kind.kind: kind for kind in (DcSupply(), Rectified(), Regulator())}

@@ -1,30 +1,103 @@
-"""The power tree: every supply's output voltage at low line, nominal and high line."""
+"""The power tree: loads summed up the tree, voltages solved down it, each stage's rails.
+
+Supplies name their parent in ``from``; the loader has ruled out unknown parents and
+cycles. Loads flow up (a regulator draws its load, divider, bleeder and own current from its
+parent); voltages flow down (a regulator's input is its parent's output).
+"""
 
 from __future__ import annotations
 
+from collections.abc import Mapping
+from dataclasses import replace
+
 from chainbudget.chainfile import Chain
+from chainbudget.stages import KINDS as STAGE_KINDS
 from chainbudget.stages.base import Rails, Stage
 from chainbudget.supplies import KINDS
-from chainbudget.supplies.base import GROUND_SUPPLY, Corners
+from chainbudget.supplies.base import GROUND_SUPPLY, Corners, Supply
+from chainbudget.supplies.state import (
+    NO_LOAD,
+    LoadModel,
+    SupplyLoad,
+    SupplyState,
+    carried_load,
+    dc_state,
+    state_from_corners,
+    with_load,
+)
 
 
-def supply_voltages(chain: Chain) -> dict[str, Corners]:
-    """Output voltage magnitude of every supply at the three line corners, V.
-
-    Parents are solved before children (the loader has ruled out cycles).
-    """
-    found: dict[str, Corners] = {}
+def parents_first(chain: Chain) -> list[Supply]:
+    """The supplies ordered so that every parent comes before its children."""
+    ordered: list[Supply] = []
+    done: set[str] = set()
     pending = list(chain.supplies)
     while pending:
         for supply in list(pending):
-            parent = supply.parent
-            if parent is None or parent in found:
-                corners = KINDS[supply.kind].output(
-                    supply, None if parent is None else found[parent]
-                )
-                found[supply.name] = corners
+            if supply.parent is None or supply.parent in done:
+                ordered.append(supply)
+                done.add(supply.name)
                 pending.remove(supply)
+    return ordered
+
+
+def supply_state(supply: Supply, parent: SupplyState | None, load: SupplyLoad) -> SupplyState:
+    """One supply's output state given its parent's state and its external load."""
+    kind = KINDS[supply.kind]
+    if isinstance(kind, LoadModel):
+        return kind.state(supply, parent, load)
+    if supply.kind == "dc":
+        return dc_state(supply, load)
+    return state_from_corners(kind.output(supply, None if parent is None else parent.corners))
+
+
+def input_load(supply: Supply, load: SupplyLoad) -> SupplyLoad:
+    """Current a supply draws from its parent given its external load (a root: none)."""
+    kind = KINDS[supply.kind]
+    return kind.input_load(supply, load) if isinstance(kind, LoadModel) else NO_LOAD
+
+
+def external_loads(chain: Chain, stage_loads: Mapping[str, SupplyLoad]) -> dict[str, SupplyLoad]:
+    """Load on every supply's output: its stages plus what its child supplies draw.
+
+    ``stage_loads`` maps a supply name to the current its stages draw from it directly.
+    """
+    order = parents_first(chain)
+    loads = {s.name: stage_loads.get(s.name, NO_LOAD) for s in order}
+    for supply in reversed(order):  # children before parents
+        if supply.parent is not None:
+            loads[supply.parent] = loads[supply.parent] + input_load(supply, loads[supply.name])
+    return loads
+
+
+def supply_states(
+    chain: Chain, loads: Mapping[str, SupplyLoad] | None = None
+) -> dict[str, SupplyState]:
+    """Output state of every supply under ``loads`` (default: the loads the chain carries,
+    none unless it came through `with_loads`)."""
+    found: dict[str, SupplyState] = {}
+    for supply in parents_first(chain):
+        load = carried_load(supply) if loads is None else loads.get(supply.name, NO_LOAD)
+        parent = None if supply.parent is None else found[supply.parent]
+        found[supply.name] = supply_state(supply, parent, load)
     return found
+
+
+def supply_voltages(chain: Chain) -> dict[str, Corners]:
+    """Output voltage magnitude of every supply at the three corners, V.
+
+    ``low``: low line (low battery), heaviest load, ripple trough; ``nominal``: nominal line
+    and load, mean; ``high``: high line, no load. Under the loads the chain carries (see
+    `with_loads`); an unloaded chain gives the no-load voltages.
+    """
+    return {name: state.corners for name, state in supply_states(chain).items()}
+
+
+def with_loads(chain: Chain, loads: Mapping[str, SupplyLoad]) -> Chain:
+    """The same chain with each supply carrying its solved external load, so that the rails
+    every stage is analysed with are those of the loaded tree."""
+    supplies = tuple(with_load(s, loads.get(s.name, NO_LOAD)) for s in chain.supplies)
+    return replace(chain, supplies=supplies)
 
 
 def stage_rails(stage: Stage, voltages: dict[str, Corners], corner: str) -> Rails | None:
@@ -43,7 +116,7 @@ def stage_rails(stage: Stage, voltages: dict[str, Corners], corner: str) -> Rail
 
     positive = level(positive_name)
     negative = -level(negative_name)
-    bias = stage.optional("bias")
+    bias = STAGE_KINDS[stage.kind].bias_point(stage)
     if bias is None:
         bias = (positive + negative) / 2.0 if negative_name == GROUND_SUPPLY else 0.0
     return Rails(positive=positive, negative=negative, bias=bias)

@@ -1,0 +1,225 @@
+"""Findings about the supplies: regulation, minimum load, heat, input limits, run time."""
+
+from __future__ import annotations
+
+from chainbudget.budget import Budget
+from chainbudget.budget.supplies import SupplyFigures
+from chainbudget.findings.base import Finding
+
+# A capacitor-input rectifier draws its charge in short peaks, so the transformer's rms
+# current is well above the dc load: about 1.8x for a bridge (common practice, no source;
+# from memory). A dc load above rated/1.8 overheats the winding though the dc figure fits.
+RMS_PER_DC_AMP = 1.8
+# Ripple at which the constant-current ripple figure stops being a close estimate (it
+# overstates the ripple more and more as the trough falls towards zero): a fifth of the
+# peak (our threshold; the approximation needs V_pp << V_pk).
+LARGE_RIPPLE_FRACTION = 0.2
+
+
+def _ma(current_a: float) -> str:
+    return f"{current_a * 1e3:.3g} mA"
+
+
+def _regulator(s: SupplyFigures, ambient_degc: float) -> list[Finding]:
+    found: list[Finding] = []
+    if s.in_regulation is False and s.dropout_margin_v is not None:
+        d = s.dropout_suggestion
+        ways = ""
+        if d is not None and d.secondary_needed_vrms is not None:
+            ways = f': a secondary of at least {d.secondary_needed_vrms:.3g} V rms on "{d.parent}"'
+            if d.reservoir_needed_f is not None:
+                ways += f", or a reservoir of at least {d.reservoir_needed_f * 1e6:.3g} uF"
+        found.append(
+            Finding(
+                "error",
+                "regulator-dropout",
+                None,
+                f'regulator "{s.name}" drops out of regulation on the ripple troughs at low '
+                f"line and heaviest load: its input falls to {s.input_min_v:.3g} V, "
+                f"{-s.dropout_margin_v:.2g} V short of the {s.vout_v:.3g} V output plus "
+                f"{s.dropout_v:.3g} V dropout; raise the input to at least "
+                f"{(d.input_needed_v if d else 0.0):.3g} V{ways}, or use a lower-dropout type",
+                {
+                    "input_min_v": s.input_min_v or 0.0,
+                    "dropout_margin_v": s.dropout_margin_v,
+                    **({"input_needed_v": d.input_needed_v} if d else {}),
+                },
+            )
+        )
+    if s.min_load_margin_a is not None and s.min_load_a is not None:
+        b = s.bleeder_suggestion
+        if b is not None:
+            found.append(
+                Finding(
+                    "warning",
+                    "regulator-min-load",
+                    None,
+                    f'regulator "{s.name}" delivers only {_ma(s.idle_load_a)} at idle (divider '
+                    f"{_ma(s.divider_a or 0.0)} included) against its minimum load of "
+                    f"{_ma(s.min_load_a)}: below it the output can drift up out of "
+                    f'regulation; add a bleeder = "{b.resistance_ohm:g} ohm" ({b.series}) '
+                    f"across the output: it draws {_ma(b.current_a)} and dissipates "
+                    f"{b.power_w * 1e3:.3g} mW (use a part rated for twice that)",
+                    {
+                        "idle_load_a": s.idle_load_a,
+                        "min_load_a": s.min_load_a,
+                        "min_load_margin_a": s.min_load_margin_a,
+                        "bleeder_ohm": b.resistance_ohm,
+                        "bleeder_w": b.power_w,
+                    },
+                )
+            )
+    if s.junction_degc is not None and s.max_junction_degc is not None:
+        if s.junction_degc > s.max_junction_degc:
+            fix = "a heatsink"
+            if s.heatsink_allowed_k_per_w is not None and s.heatsink_allowed_k_per_w > 0.0:
+                fix = f"a heatsink (with interface) of at most {s.heatsink_allowed_k_per_w:.3g} K/W"
+            elif s.theta_allowed_k_per_w is not None:
+                fix = (
+                    f"a heatsink bringing junction-to-ambient to at most "
+                    f"{s.theta_allowed_k_per_w:.3g} K/W"
+                )
+            found.append(
+                Finding(
+                    "error",
+                    "regulator-junction",
+                    None,
+                    f'regulator "{s.name}" dissipates {s.dissipation_w or 0.0:.3g} W at high line '
+                    f"and heaviest load: its junction reaches {s.junction_degc:.0f} degC at "
+                    f"{ambient_degc:g} degC ambient, over its {s.max_junction_degc:.0f} degC "
+                    f"maximum; fit {fix}, or lower its input voltage",
+                    {
+                        "dissipation_w": s.dissipation_w or 0.0,
+                        "junction_degc": s.junction_degc,
+                        "max_junction_degc": s.max_junction_degc,
+                    },
+                )
+            )
+    elif s.theta_k_per_w is None and (s.dissipation_w or 0.0) > 0.0:
+        found.append(
+            Finding(
+                "note",
+                "regulator-no-thermal",
+                None,
+                f'regulator "{s.name}" dissipates {s.dissipation_w or 0.0:.3g} W at high line and '
+                "heaviest load; give theta_ja (or theta_jc and heatsink) to check its junction",
+                {"dissipation_w": s.dissipation_w or 0.0},
+            )
+        )
+    if s.max_input_v is not None and s.input_max_v is not None and s.input_max_v > s.max_input_v:
+        found.append(
+            Finding(
+                "error",
+                "regulator-max-input",
+                None,
+                f'regulator "{s.name}" sees {s.input_max_v:.3g} V at its input at high line and '
+                f"no load, over its {s.max_input_v:.3g} V maximum; lower the input (a smaller "
+                "secondary) or use a higher-voltage type",
+                {"input_max_v": s.input_max_v, "max_input_v": s.max_input_v},
+            )
+        )
+    dv = s.divider_suggestion
+    error = 0.0 if dv is None else (s.vout_v - dv.target_v) / dv.target_v
+    if dv is not None and abs(dv.error_fraction) < abs(error):  # only a better pair is news
+        found.append(
+            Finding(
+                "note",
+                "regulator-divider",
+                None,
+                f'regulator "{s.name}": the divider sets {s.vout_v:.4g} V against the '
+                f"{dv.target_v:.4g} V target ({error:+.2%}); the best {dv.series} pair with no "
+                f'larger a lower resistor is upper = "{dv.upper_ohm:g} ohm", '
+                f'lower = "{dv.lower_ohm:g} ohm", giving {dv.vout_v:.4g} V '
+                f"({dv.error_fraction:+.2%})",
+                {
+                    "target_v": dv.target_v,
+                    "upper_ohm": dv.upper_ohm,
+                    "lower_ohm": dv.lower_ohm,
+                    "vout_v": dv.vout_v,
+                    "error_fraction": dv.error_fraction,
+                },
+            )
+        )
+    return found
+
+
+def _rectified(s: SupplyFigures) -> list[Finding]:
+    found: list[Finding] = []
+    fraction = s.transformer_load_fraction
+    if fraction is not None and fraction * RMS_PER_DC_AMP > 1.0:
+        found.append(
+            Finding(
+                "warning",
+                "transformer-rating",
+                None,
+                f'supply "{s.name}" draws {s.max_load_a:.3g} A dc at heaviest load, '
+                f"{fraction:.0%} of the transformer's rated current; a capacitor-input "
+                f"rectifier's rms winding current is about {RMS_PER_DC_AMP:g}x its dc load, so "
+                f"choose a transformer rated for at least {s.max_load_a * RMS_PER_DC_AMP:.3g} A",
+                {"load_fraction": fraction},
+            )
+        )
+    peak = s.output_min_v + (s.ripple_vpp or 0.0)
+    if s.ripple_vpp is not None and peak > 0.0 and s.ripple_vpp > LARGE_RIPPLE_FRACTION * peak:
+        found.append(
+            Finding(
+                "warning",
+                "large-ripple",
+                None,
+                f'supply "{s.name}" ripples {s.ripple_vpp:.3g} V p-p at heaviest load, over '
+                f"{LARGE_RIPPLE_FRACTION:.0%} of its peak: the trough figure is rough (the "
+                "constant-current estimate overstates the ripple); fit a larger reservoir",
+                {"ripple_vpp": s.ripple_vpp},
+            )
+        )
+    return found
+
+
+def _battery(s: SupplyFigures) -> list[Finding]:
+    if s.capacity_ah is None:
+        return []
+    idle, nominal = s.runtime_idle_h, s.runtime_nominal_h
+    if idle is None or nominal is None:
+        return []
+    return [
+        Finding(
+            "note",
+            "battery-runtime",
+            None,
+            f'battery "{s.name}" ({s.capacity_ah:g} Ah) lasts about {idle:.3g} h at idle and '
+            f"{nominal:.3g} h at the nominal level ({_ma(s.idle_load_a)} and "
+            f"{_ma(s.nominal_load_a)}); ideal figures: high drain and cold shorten them",
+            {"runtime_idle_h": idle, "runtime_nominal_h": nominal},
+        )
+    ]
+
+
+def rules(budget: Budget) -> list[Finding]:
+    """Regulation, minimum load, junction, input limits, transformer rating, run time, and
+    the op-amps' maximum supply at high line."""
+    found: list[Finding] = []
+    for s in budget.supplies:
+        if s.kind == "regulator":
+            found += _regulator(s, budget.ambient_degc)
+        elif s.kind == "rectified":
+            found += _rectified(s)
+        elif s.kind == "dc":
+            found += _battery(s)
+    low_line = {r.stage: r for r in budget.supply_ranges}
+    for r in budget.high_line_supply_ranges:
+        already = low_line.get(r.stage)
+        if already is not None and already.max_v is not None and already.total_v > already.max_v:
+            continue  # over its maximum even at low line: the level rules report it
+        if r.max_v is not None and r.total_v > r.max_v:
+            found.append(
+                Finding(
+                    "error",
+                    "opamp-supply-high",
+                    r.stage,
+                    f'op-amp "{r.opamp}" runs from {r.total_v:.3g} V in total at high line (no '
+                    f"load), above its maximum of {r.max_v:.3g} V; lower the supply or choose "
+                    "a higher-voltage op-amp",
+                    {"total_v": r.total_v, "max_v": r.max_v},
+                )
+            )
+    return found

@@ -1,0 +1,297 @@
+"""``follower``: an emitter-follower buffer, biased by an emitter resistor or a current sink."""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass
+from typing import Any
+
+from numpy.typing import ArrayLike
+
+from chainbudget import fields as f
+from chainbudget.network import GROUND, Netlist, node_ref
+from chainbudget.parts import Transistor
+from chainbudget.stages.base import RAIL_FIELDS, Built, Environment, Limit, Stage, StageKind
+from chainbudget.stages.hybrid_pi import (
+    SmallSignal,
+    small_signal,
+    stamp_transistor,
+    transistor_problems,
+)
+
+# The follower's own `bias` names its bias circuit, so its rail fields leave out the bias
+# point voltage; `base_bias` takes that role.
+_RAILS = tuple(field for field in RAIL_FIELDS if field.key != "bias")
+
+#: Name of the limit on the emitter current (the follower cuts off on the bias side).
+CUT_OFF = "cut-off"
+
+
+@dataclass(frozen=True)
+class FollowerBias:
+    """DC operating point of a follower (V, A) and its swing room from there.
+
+    Attributes
+    ----------
+    polarity : float
+        +1 for an NPN follower (collector to the positive rail, bias to the negative),
+        -1 for a PNP one (mirrored).
+    base_drive_v : float
+        Quiescent voltage the base is driven or biased from (before the base resistors).
+    emitter_v : float
+        Quiescent emitter voltage.
+    i_e : float
+        Quiescent emitter current (the bias current), A; 0 when cut off.
+    collector_room_v : float
+        Swing available towards the collector rail before saturation, V.
+    bias_room_v : float
+        Swing available towards the bias rail (a current sink's compliance taken off), V.
+    small_signal : SmallSignal
+        Hybrid-pi parameters at this bias.
+    """
+
+    polarity: float
+    base_drive_v: float
+    emitter_v: float
+    i_e: float
+    collector_room_v: float
+    bias_room_v: float
+    small_signal: SmallSignal
+
+    @property
+    def cut_off(self) -> bool:
+        return self.i_e <= 0.0 or self.collector_room_v <= 0.0 or self.bias_room_v <= 0.0
+
+
+def follower_bias(stage: Stage, env: Environment) -> FollowerBias:
+    """The follower's DC operating point from its rails, base bias and bias circuit.
+
+    Notes
+    -----
+    NPN, resistor bias (Horowitz & Hill, The Art of Electronics, 3rd ed., sec. 2.2.5, from
+    memory): the base sits at V_B0 less the drop of its base current I_B = I_E/(beta + 1)
+    through the DC resistance R_dc in the base lead, so V_E = V_B0 - V_BE - I_B R_dc and
+    I_E = (V_E - V-)/R_E, i.e. I_E = (V_B0 - V_BE - V-)/(R_E + R_dc/(beta + 1)). With a
+    current sink I_E is its current. Room before saturation V+ - V_CE(sat) - V_E; room
+    towards the bias rail V_E - V- (less the sink's compliance). A PNP follower is the
+    mirror image (collector to V-, bias to V+). R_dc is the base resistor, plus the bias
+    resistor when an input capacitor blocks the DC path from the stage before; the stage
+    before is taken as a stiff DC source at ``base_bias``. The DC current of the next
+    stage's input is left out (it is AC-coupled or a base current, a few percent of I_E).
+    """
+    rails = env.rails
+    assert rails is not None, "a follower always has rails (the loader sees to it)"
+    part = transistor_part(stage, env)
+    sign = 1.0 if part.polarity == "npn" else -1.0
+    collector_rail, bias_rail = (
+        (rails.positive, rails.negative) if sign > 0 else (rails.negative, rails.positive)
+    )
+    base_drive = rails.bias
+    r_dc = stage.number("base_resistor")
+    if stage.values.get("input_cap") is not None and stage.values.get("bias_resistor"):
+        r_dc += stage.number("bias_resistor")
+    beta = part.beta
+    if stage.values["bias"] == "resistor":
+        r_e = stage.number("emitter_resistor")
+        i_e = (sign * (base_drive - bias_rail) - part.vbe) / (r_e + r_dc / (beta + 1.0))
+        i_e = max(i_e, 0.0)
+        compliance = 0.0
+    else:
+        i_e = stage.number("current")
+        compliance = stage.number("compliance")
+    emitter = base_drive - sign * (part.vbe + i_e / (beta + 1.0) * r_dc)
+    return FollowerBias(
+        polarity=sign,
+        base_drive_v=base_drive,
+        emitter_v=emitter,
+        i_e=i_e,
+        collector_room_v=sign * (collector_rail - emitter) - part.vce_sat,
+        bias_room_v=sign * (emitter - bias_rail) - compliance,
+        small_signal=small_signal(part, i_e, env.temperature_k),
+    )
+
+
+def transistor_part(stage: Stage, env: Environment) -> Transistor:
+    return env.transistors[str(stage.values["transistor"])]
+
+
+class Follower(StageKind):
+    """Emitter follower: hybrid-pi transistor at its DC bias, collector at a rail.
+
+    Notes
+    -----
+    Node by node: ``in`` (through ``input_cap`` with ``bias_resistor`` from its far side to
+    the base bias point, AC ground) through ``base_resistor`` to the base; the emitter to
+    the bias rail through ``emitter_resistor`` (or an ideal current sink, open to AC); the
+    emitter is ``out``, or feeds ``out`` through ``output_cap``. With the hybrid-pi model
+    the network gives (Horowitz & Hill, The Art of Electronics, 3rd ed., sec. 2.2.3 and
+    2.3.2, from memory) Z_in = r_bb' + (beta + 1)(r_e + R_E || Z_L) at the base,
+    Z_out = r_e + (Z_s + r_bb')/(beta + 1) looking into the emitter (in parallel with R_E)
+    and the gain (R_E || Z_L)/(r_e + R_E || Z_L), with the real source and load.
+
+    Limits, on linear probes of the same network: towards the collector rail the emitter
+    may swing V+ - V_CE(sat) - V_E; towards the bias rail the transistor cuts off when the
+    AC part of its emitter current reaches the bias current I_E, which with a resistor
+    gives I_E (R_E || Z_L) and with a current sink I_bias |Z_L| (Horowitz & Hill sec.
+    2.2.3-2.2.5); a current sink also stops at its compliance, V_E - V- - V_comp.
+    """
+
+    kind = "follower"
+    summary = "emitter-follower buffer, resistor or current-sink bias"
+    fields = (
+        f.Field(
+            "transistor",
+            f.NAME,
+            "transistor part (a generic class or a [transistor.NAME])",
+            "small_npn",
+        ),
+        f.Field(
+            "bias",
+            f.choice("resistor", "current"),
+            'emitter bias: "resistor" (emitter_resistor) or "current" (a current sink)',
+            "resistor",
+        ),
+        f.Field("emitter_resistor", f.RESISTANCE, "resistor bias: emitter to the bias rail", None),
+        f.Field("current", f.POSITIVE_CURRENT, "current bias: the sink's current", None),
+        f.Field(
+            "compliance",
+            f.VOLTAGE_OR_ZERO,
+            "current bias: least voltage the sink needs across it",
+            0.0,
+        ),
+        f.Field(
+            "base_resistor",
+            f.RESISTANCE_OR_ZERO,
+            "series resistor in the base lead (base stopper)",
+            0.0,
+        ),
+        f.Field("input_cap", f.CAPACITANCE, "series input coupling capacitor", None),
+        f.Field(
+            "bias_resistor",
+            f.RESISTANCE,
+            "with input_cap: from the base side of the cap to the base bias point",
+            None,
+        ),
+        f.Field("output_cap", f.CAPACITANCE, "series output coupling capacitor", None),
+        f.Field(
+            "base_bias",
+            f.VOLTAGE,
+            "quiescent voltage the base is driven from (default: mid-rail single "
+            "supply, 0 V split)",
+            None,
+        ),
+        *_RAILS,
+    )
+
+    def bias_point(self, stage: Stage) -> float | None:
+        return stage.optional("base_bias")
+
+    def build(
+        self,
+        net: Netlist,
+        stage: Stage,
+        env: Environment,
+        node_in: str,
+        node_out: str,
+        positions: Mapping[str, ArrayLike],
+    ) -> Built:
+        name, t = stage.name, env.temperature_k
+        bias = follower_bias(stage, env)
+        base = node_in
+        input_cap = stage.optional("input_cap")
+        if input_cap is not None:
+            base = f"{name}.coupled"
+            net.capacitor(node_in, base, input_cap)
+        bias_resistor = stage.optional("bias_resistor")
+        if bias_resistor is not None:
+            net.resistor(
+                base,
+                GROUND,
+                bias_resistor,
+                label=f"{name}.bias_resistor",
+                stage=name,
+                temperature_k=t,
+            )
+        base_resistor = stage.number("base_resistor")
+        if base_resistor > 0.0:
+            net.resistor(
+                base,
+                f"{name}.base",
+                base_resistor,
+                label=f"{name}.base_resistor",
+                stage=name,
+                temperature_k=t,
+            )
+            base = f"{name}.base"
+        output_cap = stage.optional("output_cap")
+        emitter = node_out if output_cap is None else f"{name}.emitter"
+        current = stamp_transistor(
+            net, base, emitter, bias.small_signal, label=f"{name}.q", stage=name, temperature_k=t
+        )
+        if stage.values["bias"] == "resistor":
+            net.resistor(
+                emitter,
+                GROUND,
+                stage.number("emitter_resistor"),
+                label=f"{name}.emitter_resistor",
+                stage=name,
+                temperature_k=t,
+            )
+        if output_cap is not None:
+            net.capacitor(emitter, node_out, output_cap)
+        part = transistor_part(stage, env)
+        rail = "positive" if bias.polarity > 0 else "negative"
+        cut = 0.0 if bias.cut_off else bias.i_e
+        if stage.values["bias"] == "resistor":
+            cut_what = (
+                f"bias current {bias.i_e * 1e3:.3g} mA: cuts off when R_E and the load "
+                "take it all, I_E (R_E || Z_L)"
+            )
+        else:
+            cut_what = (
+                f"sink current {bias.i_e * 1e3:.3g} mA: cuts off when the load takes "
+                "it all, I_bias |Z_L|"
+            )
+        limits = [
+            Limit(
+                "saturation",
+                "emitter",
+                0.0 if bias.cut_off else bias.collector_room_v,
+                f"emitter within V_CE(sat) {part.vce_sat:g} V of the {rail} rail",
+            ),
+            Limit(CUT_OFF, "emitter_current", cut, cut_what),
+        ]
+        if stage.values["bias"] == "current":
+            limits.append(
+                Limit(
+                    "compliance", "emitter", max(bias.bias_room_v, 0.0), "current sink's compliance"
+                )
+            )
+        return Built(
+            probes={
+                "out": node_ref(node_out),
+                "emitter": node_ref(emitter),
+                "emitter_current": current,
+            },
+            limits=limits,
+            output_probe="out",
+        )
+
+    def missing(self, values: Mapping[str, Any]) -> list[str]:
+        wanted = ["emitter_resistor" if values.get("bias") == "resistor" else "current"]
+        if values.get("input_cap") is not None:
+            wanted.append("bias_resistor")
+        return [key for key in wanted if values.get(key) is None]
+
+    def output_defined(self, stage: Stage) -> bool:
+        return stage.values.get("output_cap") is None
+
+    def supply_current(self, stage: Stage, env: Environment) -> float:
+        """The bias current, which flows from rail to rail through the transistor."""
+        return follower_bias(stage, env).i_e
+
+    def part_problems(
+        self, values: Mapping[str, Any], transistors: Mapping[str, Transistor]
+    ) -> list[tuple[str, str]]:
+        """An unknown transistor."""
+        return transistor_problems(values, (("transistor", None),), transistors)

@@ -1,0 +1,168 @@
+"""``rectified``: mains transformer, rectifier and reservoir capacitor (an unregulated rail).
+
+Safety: this supply starts at the mains. Its figures are a paper budget, not a safety
+assessment; mains wiring, fusing, earthing and insulation follow local electrical codes and
+licensed practice.
+"""
+
+from __future__ import annotations
+
+from chainbudget import fields as f
+from chainbudget.supplies.base import Corners, Supply, SupplyKind
+from chainbudget.supplies.state import NO_LOAD, LoadModel, SupplyLoad, SupplyState
+from chainbudget.supplymath import mains_factors, rectified_peak, ripple_vpp
+from chainbudget.units import UnitParseError, parse_fraction
+
+# Rectifier drop at the peak of the charging current when the file gives none: about 0.9 V
+# per silicon diode at the few-amp peaks of a capacitor-input rectifier, two in a bridge's
+# conduction path, one in a half-wave rectifier (common practice, no source).
+DIODE_DROP_V = 0.9
+SQRT2 = 2.0**0.5
+
+
+def _read_tolerance(value: object) -> float:
+    number = parse_fraction(value)
+    if not 0.0 <= number < 1.0:
+        raise UnitParseError(
+            value, 'a mains tolerance from 0 up to (not including) 100 %, e.g. "10 %"'
+        )
+    return number
+
+
+TOLERANCE = f.FieldKind("fraction or %", _read_tolerance, float)
+
+
+class Rectified(SupplyKind, LoadModel):
+    """Capacitor-input rectifier from a mains transformer.
+
+    Notes
+    -----
+    Peak on the reservoir: V_pk = sqrt(2) V_sec k (1 + r (1 - x)) - V_drop, k the line factor
+    (1 - t, 1, 1 + t for a tolerance t), r the transformer regulation, x the load fraction
+    I / I_rated (x = 1 under any load when no ``rated_current`` is given, 0 unloaded), see
+    :func:`chainbudget.supplymath.rectified_peak`. Ripple V_pp = I / (2 f C) full-wave,
+    I / (f C) half-wave: the capacitor discharging at constant current for the whole
+    recharge interval, which overstates the true ripple (the conservative side), see
+    :func:`chainbudget.supplymath.ripple_vpp` (Horowitz & Hill, The Art of Electronics,
+    3rd ed., sec. 9.5, from memory).
+
+    The output state: trough = V_pk(low line, heaviest load) - V_pp(heaviest load), the
+    instantaneous minimum; crest = V_pk(high line, no load); every mean voltage is
+    V_pk - V_pp / 2 (the mid-point of a sawtooth ripple). A stage fed from this rail sees the
+    trough at the ``low`` corner, the nominal mean at ``nominal``, the crest at ``high``.
+    """
+
+    kind = "rectified"
+    summary = "mains transformer, rectifier and reservoir capacitor (unregulated)"
+    fields = (
+        f.Field("secondary", f.POSITIVE_VOLTAGE, "secondary, V rms at nominal mains, rated load"),
+        f.Field("mains_tolerance", TOLERANCE, "mains tolerance either way (low/high line)", 0.1),
+        f.Field("line_frequency", f.FREQUENCY, "mains frequency (50 Hz: the larger ripple)", 50.0),
+        f.Field(
+            "bridge_drop",
+            f.VOLTAGE_OR_ZERO,
+            "rectifier drop at peak current (default 1.8 V bridge, 0.9 V half-wave)",
+            None,
+        ),
+        f.Field("reservoir", f.CAPACITANCE, "reservoir capacitor"),
+        f.Field("regulation", f.FRACTION, "transformer no-load rise over rated-load voltage", 0.0),
+        f.Field(
+            "rated_current", f.POSITIVE_CURRENT, "transformer rated current (load fraction)", None
+        ),
+        f.Field("half_wave", f.FLAG, "half-wave rectifier (one recharge per mains cycle)", False),
+    )
+
+    # --- the model's pieces, also used by the suggestions --------------------------------
+
+    def drop(self, supply: Supply) -> float:
+        """Rectifier drop, V (the file's, else the default for the rectifier form)."""
+        given = supply.optional("bridge_drop")
+        if given is not None:
+            return given
+        return DIODE_DROP_V if supply.values["half_wave"] else 2.0 * DIODE_DROP_V
+
+    def load_fraction(self, supply: Supply, current_a: float) -> float:
+        """Load as a fraction of the transformer's rating (1 under load when none is given)."""
+        rated = supply.optional("rated_current")
+        if rated is not None:
+            return current_a / rated
+        return 1.0 if current_a > 0.0 else 0.0
+
+    def peak(self, supply: Supply, line_factor: float, current_a: float) -> float:
+        """Reservoir peak at a line factor and mean load current, V."""
+        return float(
+            rectified_peak(
+                supply.number("secondary"),
+                line_factor,
+                self.drop(supply),
+                supply.number("regulation"),
+                self.load_fraction(supply, current_a),
+            )
+        )
+
+    def ripple(self, supply: Supply, current_a: float) -> float:
+        """Ripple at a mean load current, V peak-to-peak."""
+        return float(
+            ripple_vpp(
+                current_a,
+                supply.number("line_frequency"),
+                supply.number("reservoir"),
+                half_wave=bool(supply.values["half_wave"]),
+            )
+        )
+
+    def line_factors(self, supply: Supply) -> tuple[float, float, float]:
+        return mains_factors(supply.number("mains_tolerance"))
+
+    # --- SupplyKind / LoadModel -----------------------------------------------------------
+
+    def state(self, supply: Supply, parent: SupplyState | None, load: SupplyLoad) -> SupplyState:
+        low, nominal, high = self.line_factors(supply)
+        heavy, idle = load.heaviest_a, load.idle_a
+
+        def mean(line: float, current: float) -> float:
+            return max(self.peak(supply, line, current) - self.ripple(supply, current) / 2.0, 0.0)
+
+        return SupplyState(
+            trough_v=max(self.peak(supply, low, heavy) - self.ripple(supply, heavy), 0.0),
+            nominal_v=mean(nominal, load.nominal_a),
+            crest_v=max(self.peak(supply, high, 0.0), 0.0),
+            high_heavy_v=mean(high, heavy),
+            high_idle_v=mean(high, idle),
+            ripple_vpp=self.ripple(supply, heavy),
+        )
+
+    def output(self, supply: Supply, parent: Corners | None) -> Corners:
+        return self.state(supply, None, NO_LOAD).corners
+
+    # --- what it would take to raise the trough --------------------------------------------
+
+    def secondary_for_trough(self, supply: Supply, trough_v: float, heaviest_a: float) -> float:
+        """Secondary (V rms, nominal mains, rated load) whose low-line trough is ``trough_v``.
+
+        Notes
+        -----
+        The trough is linear in V_sec: sqrt(2) V_sec k_low (1 + r (1 - x)) - V_drop - V_pp;
+        solved for V_sec with the same load (same x and V_pp).
+        """
+        low = self.line_factors(supply)[0]
+        rise = 1.0 + supply.number("regulation") * (1.0 - self.load_fraction(supply, heaviest_a))
+        needed = trough_v + self.drop(supply) + self.ripple(supply, heaviest_a)
+        return needed / (SQRT2 * low * rise)
+
+    def reservoir_for_trough(
+        self, supply: Supply, trough_v: float, heaviest_a: float
+    ) -> float | None:
+        """Reservoir (F) whose ripple keeps the low-line trough at ``trough_v``, or None when
+        even no ripple would not (the peak itself is too low).
+
+        Notes
+        -----
+        V_pp allowed = V_pk(low line) - trough; C = I / (n f V_pp), n = 2 full-wave, 1
+        half-wave (the ripple formula solved for C).
+        """
+        allowed = self.peak(supply, self.line_factors(supply)[0], heaviest_a) - trough_v
+        if allowed <= 0.0:
+            return None
+        pulses = 1.0 if supply.values["half_wave"] else 2.0
+        return heaviest_a / (pulses * supply.number("line_frequency") * allowed)

@@ -1,0 +1,176 @@
+"""``regulator``: a linear series regulator, fixed or set by a two-resistor divider."""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from typing import Any
+
+from chainbudget import fields as f
+from chainbudget.supplies.base import Corners, Supply, SupplyKind
+from chainbudget.supplies.state import (
+    NO_LOAD,
+    LoadModel,
+    SupplyLoad,
+    SupplyState,
+    state_from_corners,
+)
+from chainbudget.supplymath import adjustable_output, divider_current, ripple_after_regulator
+
+# A classic three-terminal linear regulator needs about 2 V from input to output (common
+# practice, no source); a maximum junction of 125 degC is the usual rating of such parts
+# (common practice, no source). Both are only defaults: give the part's own figures.
+DEFAULT_DROPOUT_V = 2.0
+DEFAULT_MAX_JUNCTION_DEGC = 125.0
+SERIES = ("E6", "E12", "E24", "E48", "E96")
+
+
+class Regulator(SupplyKind, LoadModel):
+    """Linear series regulator fed from another supply.
+
+    Notes
+    -----
+    Output: ``output`` (fixed), or V_out = V_ref (1 + upper/lower) + I_adj upper (adjustable;
+    ``lower`` is the resistor across the reference, output pin to adjust pin, ``upper`` the
+    one from the adjust pin to ground; :func:`chainbudget.supplymath.adjustable_output`,
+    Horowitz & Hill, The Art of Electronics, 3rd ed., ch. 9, from memory). With a divider,
+    a given ``output`` is the target the divider is meant to set.
+
+    Current: the output pin delivers the external load plus the divider current
+    V_ref/lower plus any ``bleeder`` (V_out/bleeder); the regulator takes that plus its own
+    ``quiescent`` current (default: the adjust current of an adjustable type, 0 for a fixed
+    one) from its input.
+
+    In regulation (input trough >= V_out + dropout) the output is V_out at every corner; out
+    of regulation it follows its input less the dropout. Output ripple: input ripple times
+    10^(-rejection/20) (:func:`chainbudget.supplymath.ripple_after_regulator`); out of
+    regulation the output also dips with the input's troughs, by V_out - (trough - dropout).
+    """
+
+    kind = "regulator"
+    summary = "linear series regulator, fixed or adjustable (divider)"
+    needs_parent = True
+    fields = (
+        f.Field("output", f.POSITIVE_VOLTAGE, "fixed output (with a divider: the target)", None),
+        f.Field("reference", f.POSITIVE_VOLTAGE, "adjustable: output-to-adjust reference", None),
+        f.Field("adjust_current", f.CURRENT, "adjustable: current out of the adjust pin", 0.0),
+        f.Field("upper", f.RESISTANCE, "adjustable: adjust pin to ground", None),
+        f.Field("lower", f.RESISTANCE, "adjustable: output to adjust pin (across reference)", None),
+        f.Field("divider_series", f.choice(*SERIES), "E series for a suggested divider", "E96"),
+        f.Field("dropout", f.VOLTAGE_OR_ZERO, "least input-output difference", DEFAULT_DROPOUT_V),
+        f.Field("min_load", f.CURRENT, "least output current to regulate (divider counts)", 0.0),
+        f.Field(
+            "quiescent",
+            f.CURRENT,
+            "input current not delivered to the output (default: adjust_current, or 0)",
+            None,
+        ),
+        f.Field("ripple_rejection", f.DECIBELS, "ripple rejection at twice the mains", None),
+        f.Field("theta_ja", f.THERMAL_RESISTANCE, "junction to ambient, free air", None),
+        f.Field("theta_jc", f.THERMAL_RESISTANCE, "junction to case (with heatsink)", None),
+        f.Field("heatsink", f.THERMAL_RESISTANCE, "case to ambient: interface + sink", None),
+        f.Field(
+            "max_junction",
+            f.TEMPERATURE,
+            "greatest junction temperature",
+            DEFAULT_MAX_JUNCTION_DEGC,
+        ),
+        f.Field("max_input", f.POSITIVE_VOLTAGE, "greatest input voltage", None),
+        f.Field("bleeder", f.RESISTANCE, "resistor across the output (minimum load)", None),
+    )
+
+    def missing(self, values: Mapping[str, Any]) -> list[str]:
+        found: list[str] = []
+        divider = [key for key in ("reference", "upper", "lower") if values.get(key) is not None]
+        if divider:
+            found += [key for key in ("reference", "upper", "lower") if values.get(key) is None]
+        elif values.get("output") is None:
+            found.append("output")
+        if values.get("theta_jc") is not None and values.get("heatsink") is None:
+            found.append("heatsink")
+        if values.get("heatsink") is not None and values.get("theta_jc") is None:
+            found.append("theta_jc")
+        return found
+
+    # --- the model's pieces ------------------------------------------------------------
+
+    def adjustable(self, supply: Supply) -> bool:
+        return supply.values.get("reference") is not None
+
+    def set_output(self, supply: Supply) -> float:
+        """Output voltage in regulation, V."""
+        if self.adjustable(supply):
+            return float(
+                adjustable_output(
+                    supply.number("reference"),
+                    supply.number("adjust_current"),
+                    supply.number("upper"),
+                    supply.number("lower"),
+                )
+            )
+        return supply.number("output")
+
+    def target(self, supply: Supply) -> float | None:
+        """The output an adjustable regulator's divider is meant to set, V, if given."""
+        return supply.optional("output") if self.adjustable(supply) else None
+
+    def divider_current(self, supply: Supply) -> float:
+        """Current the divider takes from the output, V_ref / lower, A (0 when fixed)."""
+        if not self.adjustable(supply):
+            return 0.0
+        return float(divider_current(supply.number("reference"), supply.number("lower")))
+
+    def bleeder_current(self, supply: Supply) -> float:
+        """Current in the bleeder resistor at the set output, A (0 without one)."""
+        bleeder = supply.optional("bleeder")
+        return 0.0 if bleeder is None else self.set_output(supply) / bleeder
+
+    def own_current(self, supply: Supply) -> float:
+        """Current taken from the input and not delivered to the output, A."""
+        quiescent = supply.optional("quiescent")
+        if quiescent is not None:
+            return quiescent
+        return supply.number("adjust_current") if self.adjustable(supply) else 0.0
+
+    def delivered(self, supply: Supply, load: SupplyLoad) -> SupplyLoad:
+        """Output-pin current: the external load plus divider and bleeder, A."""
+        return load.plus(self.divider_current(supply) + self.bleeder_current(supply))
+
+    def theta(self, supply: Supply) -> float | None:
+        """Junction-to-ambient thermal resistance, K/W: theta_jc + heatsink when mounted on
+        one, else theta_ja; None when neither is given."""
+        theta_jc = supply.optional("theta_jc")
+        if theta_jc is not None:
+            return theta_jc + supply.number("heatsink")
+        return supply.optional("theta_ja")
+
+    # --- SupplyKind / LoadModel -----------------------------------------------------------
+
+    def input_load(self, supply: Supply, load: SupplyLoad) -> SupplyLoad:
+        return self.delivered(supply, load).plus(self.own_current(supply))
+
+    def state(self, supply: Supply, parent: SupplyState | None, load: SupplyLoad) -> SupplyState:
+        assert parent is not None, "a regulator always has a parent (the loader sees to it)"
+        vout = self.set_output(supply)
+        dropout = supply.number("dropout")
+
+        def follow(vin: float) -> float:
+            return max(min(vout, vin - dropout), 0.0)
+
+        trough = follow(parent.trough_v)
+        rejection = supply.optional("ripple_rejection")
+        ripple: float | None = None
+        if rejection is not None and parent.ripple_vpp is not None:
+            ripple = float(ripple_after_regulator(parent.ripple_vpp, rejection))
+            ripple += vout - trough  # zero in regulation
+        return SupplyState(
+            trough_v=trough,
+            nominal_v=follow(parent.nominal_v),
+            crest_v=follow(parent.crest_v),
+            high_heavy_v=follow(parent.high_heavy_v),
+            high_idle_v=follow(parent.high_idle_v),
+            ripple_vpp=ripple,
+        )
+
+    def output(self, supply: Supply, parent: Corners | None) -> Corners:
+        assert parent is not None, "a regulator always has a parent (the loader sees to it)"
+        return self.state(supply, state_from_corners(parent), NO_LOAD).corners

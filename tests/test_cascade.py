@@ -1,0 +1,154 @@
+"""Tests for chainbudget.cascade: cascaded two-ports against one whole-chain network.
+
+Reference: the cascade joins per-stage chain (ABCD) parameters with exact loading both ways
+(Pozar, Microwave Engineering, 4th ed., sec. 4.4, quoted from memory); the check is that it
+agrees with a direct modified-nodal solve of the whole chain as one network (Ho, Ruehli &
+Brennan, IEEE Trans. CAS-22 (1975) 504), which needs no two-port algebra at all.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+
+import numpy as np
+import pytest
+from numpy.typing import ArrayLike
+from stagekit import environment, make_stage, near_ideal_opamp, positions_as_set
+
+from chainbudget.cascade import cascade, solve_stage, whole_chain_network
+from chainbudget.network import SOURCE_FLOOR_OHM, branch_ref, node_ref
+
+FREQUENCY = np.logspace(1, 5, 17)  # 10 Hz .. 100 kHz
+SOURCE_OHM, LOAD_OHM = 1e3, 600.0
+
+# A realistic op-amp, so every stage has a finite output impedance and loads matter.
+PART = near_ideal_opamp("typical", open_loop_gain=1e5, gbw=10e6, output_resistance=50.0)
+ENV = environment(PART)
+
+STAGES = (
+    make_stage(
+        "opamp_gain",
+        "pre",
+        1,
+        topology="non-inverting",
+        feedback=22e3,
+        ground_leg=2.2e3,
+        input_cap=1e-6,
+        bias_resistor=100e3,
+        opamp="typical",
+    ),
+    make_stage(
+        "opamp_gain",
+        "inv",
+        2,
+        topology="inverting",
+        feedback=10e3,
+        input=4.7e3,
+        feedback_cap=100e-12,
+        opamp="typical",
+    ),
+    make_stage(
+        "tone_two_band",
+        "tone",
+        3,
+        bass_outer=10e3,
+        bass_pot=100e3,
+        bass_cap=22e-9,
+        treble_pot=100e3,
+        treble_cap=2.2e-9,
+        treble_wiper=4.7e3,
+        bass_position=0.8,
+        treble_position=0.3,
+        opamp="typical",
+    ),
+    make_stage("volume", "vol", 4, pot=10e3, position=0.7, series=1e3),
+    make_stage("block", "out", 5, gain=10.0, input_impedance=10e3, output_impedance=100.0),
+)
+
+
+def _compare(positions: list[Mapping[str, ArrayLike]]) -> tuple[int, ...]:
+    """Solve the chain both ways; assert node voltages agree; return the batch shape."""
+    envs = [ENV] * len(STAGES)
+    solutions = [
+        solve_stage(stage, env, FREQUENCY, pos)
+        for stage, env, pos in zip(STAGES, envs, positions, strict=True)
+    ]
+    chain = cascade(solutions, SOURCE_OHM, LOAD_OHM)
+    net, outs = whole_chain_network(STAGES, envs, FREQUENCY, positions, SOURCE_OHM, LOAD_OHM)
+    rhs = np.zeros((net.size, 1))
+    rhs[net.index(branch_ref("source")), 0] = 1.0
+    x = net.solve(rhs)[..., 0]
+
+    def node(name: str) -> np.ndarray:
+        return x[..., net.index(node_ref(name))]
+
+    np.testing.assert_allclose(chain.v_in[0], node("n0"), rtol=1e-9)
+    for k, out in enumerate(outs):
+        np.testing.assert_allclose(chain.v_out[k], node(out), rtol=1e-9, err_msg=f"stage {k}")
+        if k + 1 < len(outs):
+            np.testing.assert_allclose(chain.v_in[k + 1], chain.v_out[k], rtol=1e-12)
+    # The op-amp output current probes of the cascade are the currents of the whole network
+    # (looser: a probe is g1 V1 + g2 V2 with g2 ~ loop gain / R_o, which cancels).
+    for k, stage in enumerate(STAGES):
+        label = f"{stage.name}.opamp"
+        if f"{label}.current" in solutions[k].built.probes:
+            direct = x[..., net.index(branch_ref(label))]
+            np.testing.assert_allclose(
+                chain.probe(k, f"{label}.current"), direct, rtol=1e-6, err_msg=label
+            )
+    return chain.v_out[-1].shape
+
+
+def test_cascade_matches_the_whole_chain_with_controls_as_set() -> None:
+    """Controls as set: every node voltage per source volt agrees with the whole-chain
+    network within rtol 1e-9 over 10 Hz..100 kHz."""
+    shape = _compare([positions_as_set(stage) for stage in STAGES])
+    assert shape == (FREQUENCY.size,)
+
+
+@pytest.mark.parametrize(
+    ("bass", "treble", "volume"),
+    [(0.0, 1.0, 0.05), (1.0, 0.0, 1.0), (0.5, 0.5, 0.5), (0.93, 0.12, 0.0)],
+)
+def test_cascade_matches_the_whole_chain_at_other_settings(
+    bass: float, treble: float, volume: float
+) -> None:
+    """Stops and odd settings of every pot (volume at 0 is silent but must still agree):
+    rtol 1e-9 against the whole-chain network."""
+    positions = [positions_as_set(stage) for stage in STAGES]
+    positions[2] = {"bass_position": bass, "treble_position": treble}
+    positions[3] = {"position": volume}
+    _compare(positions)
+
+
+def test_cascade_matches_the_whole_chain_on_batch_control_axes() -> None:
+    """Three controls on three batch axes (bass 3 x treble 4 x volume 5) broadcast with the
+    frequency axis in both solvers; every one of the 60 settings agrees within rtol 1e-9."""
+    positions = [positions_as_set(stage) for stage in STAGES]
+    positions[2] = {
+        "bass_position": np.array([0.0, 0.4, 1.0]).reshape(3, 1, 1, 1),
+        "treble_position": np.array([0.0, 0.3, 0.7, 1.0]).reshape(1, 4, 1, 1),
+    }
+    positions[3] = {"position": np.linspace(0.2, 1.0, 5).reshape(1, 1, 5, 1)}
+    assert _compare(positions) == (3, 4, 5, FREQUENCY.size)
+
+
+def test_cascade_loading_is_exact_for_a_resistive_pair() -> None:
+    """Two blocks: source 1k into block A (Zin 10k, gain 2, Zout 1k) into block B (Zin 1k,
+    gain 1, Zout 0) into a 1k load. By hand (Thevenin, Horowitz & Hill 3rd ed. sec. 1.2.5):
+    v_in,A = 10/11, v_out,A = 2 (10/11)(1/2) = 10/11, and B's output is its open-circuit
+    voltage into 1k through the solver's 1 mohm floor for a zero output impedance; the
+    impedances A sees are 1k (source) and 1k (B's input); rtol 1e-9."""
+    a = make_stage("block", "a", 1, gain=2.0, input_impedance=10e3, output_impedance=1e3)
+    b = make_stage("block", "b", 2, gain=1.0, input_impedance=1e3, output_impedance=0.0)
+    f = np.array([1e3])
+    env = environment()
+    chain = cascade([solve_stage(st, env, f, {}) for st in (a, b)], 1e3, 1e3)
+    np.testing.assert_allclose(chain.v_in[0], 10.0 / 11.0, rtol=1e-9)
+    np.testing.assert_allclose(chain.v_out[0], 10.0 / 11.0, rtol=1e-9)
+    floor = 1e3 / (1e3 + SOURCE_FLOOR_OHM)
+    np.testing.assert_allclose(chain.v_out[1], 10.0 / 11.0 * floor, rtol=1e-9)
+    np.testing.assert_allclose(chain.source_impedance[0], 1e3, rtol=1e-9)
+    np.testing.assert_allclose(1.0 / chain.load_admittance[0], 1e3, rtol=1e-9)
+    np.testing.assert_allclose(chain.output_impedance[0], 1e3, rtol=1e-9)
+    np.testing.assert_allclose(1.0 / chain.input_admittance, 10e3, rtol=1e-9)

@@ -1,0 +1,300 @@
+"""Tests for chainbudget.chainfile: validation errors of the contract, and writing back.
+
+Reference: the chain-format contract (/work/shared/design/chain-format.md, "Values"): every
+bad input is one line naming the file, the table path (``stage[2] "bass".feedback``), what
+was given and what was expected. The writer is checked by reading its output back with
+tomllib after tomli-w (the two reference TOML libraries of the stack).
+"""
+
+from __future__ import annotations
+
+import math
+import tomllib
+from dataclasses import replace
+from pathlib import Path
+
+import pytest
+import tomli_w
+from hypothesis import given
+from hypothesis import strategies as st
+
+from chainbudget import fields as f
+from chainbudget.chainfile import (
+    ChainError,
+    ChainFileError,
+    chain_to_dict,
+    load_chain,
+    parse_chain,
+)
+
+DATA = Path(__file__).resolve().parent / "data"
+FIXTURE = DATA / "every_kind.toml"
+EXAMPLES = sorted((Path(__file__).resolve().parents[1] / "chains").glob("*.toml"))
+
+
+def _error(tmp_path: Path, old: str, new: str) -> ChainFileError:
+    """Load the fixture with ``old`` replaced by ``new``; return the error it raises."""
+    text = FIXTURE.read_text(encoding="utf-8")
+    assert text.count(old) == 1, f"fixture no longer holds {old!r} once"
+    path = tmp_path / "broken.toml"
+    path.write_text(text.replace(old, new), encoding="utf-8")
+    with pytest.raises(ChainFileError) as info:
+        load_chain(path)
+    error = info.value
+    message = str(error)
+    assert "\n" not in message, "the contract wants one line"
+    assert message.startswith(f"{path}: "), "the message names the file first"
+    assert isinstance(error, ValueError) and isinstance(error, ChainError)
+    return error
+
+
+def test_the_fixture_loads() -> None:
+    """The fixture is valid: seven stages of every core kind, values read into SI."""
+    chain = load_chain(FIXTURE)
+    assert [s.kind for s in chain.stages] == [
+        "opamp_gain",
+        "opamp_gain",
+        "tone_bass",
+        "tone_treble",
+        "tone_two_band",
+        "volume",
+        "block",
+    ]
+    pre = chain.stages[0]
+    assert pre.values["feedback"] == pytest.approx(22e3, rel=1e-12)
+    assert pre.values["ground_leg"] == pytest.approx(2.2e3, rel=1e-12)
+    assert chain.source.impedance == pytest.approx(2.2e3, rel=1e-12)
+    # +4 dBu = 1.2277 V rms (common practice); ambient stays in degC.
+    assert chain.source.max_level == pytest.approx(1.2276530, rel=1e-6)
+    assert chain.settings.ambient == pytest.approx(30.0, abs=1e-12)
+    assert chain.opamps["quiet"].noise_current == pytest.approx(0.7e-12, rel=1e-12)
+    # A stage that names no op-amp gets the default generic class.
+    assert chain.stages[1].values["opamp"] == "jfet_input"
+
+
+# --- every error class of the contract -----------------------------------------------------
+
+
+def test_wrong_dimension(tmp_path: Path) -> None:
+    """``feedback = "10 V"``: a voltage where a resistance is expected."""
+    error = _error(tmp_path, 'feedback = "10 kohm"', 'feedback = "10 V"')
+    assert error.path == 'stage[2] "gain".feedback'
+    assert "got '10 V', expected a resistance" in str(error)
+
+
+def test_bare_number_where_a_unit_is_required(tmp_path: Path) -> None:
+    """``feedback = 10000``: a number with no unit."""
+    error = _error(tmp_path, 'feedback = "10 kohm"', "feedback = 10000")
+    assert error.path == 'stage[2] "gain".feedback'
+    assert "got 10000, expected a resistance" in str(error)
+    assert "no unit" in str(error)
+
+
+@pytest.mark.parametrize("value", ['"-10 kohm"', '"0 ohm"', '"0R"'])
+def test_negative_or_zero_resistance(tmp_path: Path, value: str) -> None:
+    """A resistance must be above zero."""
+    error = _error(tmp_path, 'feedback = "10 kohm"', f"feedback = {value}")
+    assert error.path == 'stage[2] "gain".feedback'
+    assert f"got {value.strip(chr(34))!r}" in str(error)
+    assert "a resistance above zero" in str(error)
+
+
+@pytest.mark.parametrize("value", ["1.5", "-0.1"])
+def test_pot_position_outside_zero_to_one(tmp_path: Path, value: str) -> None:
+    """A pot position runs from 0 to 1."""
+    error = _error(tmp_path, "position = 0.7\n", f"position = {value}\n")
+    assert error.path == 'stage[3] "bass".position'
+    assert f"got {value}, expected a pot position from 0 to 1" in str(error)
+
+
+def test_unknown_field_with_a_suggestion(tmp_path: Path) -> None:
+    """A mistyped key is named, with the nearest known key."""
+    error = _error(tmp_path, 'feedback_cap = "100p"', 'feedbak_cap = "100p"')
+    assert error.path == 'stage[2] "gain".feedbak_cap'
+    assert 'unknown field (did you mean "feedback_cap"?)' in str(error)
+
+
+def test_unknown_kind_with_a_suggestion(tmp_path: Path) -> None:
+    """A mistyped kind is named, with the nearest kind and the list of kinds."""
+    error = _error(tmp_path, 'kind = "tone_bass"', 'kind = "tone_bas"')
+    assert error.path == 'stage[3] "bass".kind'
+    message = str(error)
+    assert 'unknown kind "tone_bas" (did you mean "tone_bass"?)' in message
+    assert "known: " in message and "volume" in message
+
+
+def test_unknown_table_with_a_suggestion(tmp_path: Path) -> None:
+    """A mistyped top-level table is named too."""
+    error = _error(tmp_path, "[source]", "[sorce]")
+    assert error.path == "sorce"
+    assert 'did you mean "source"?' in str(error)
+
+
+def test_missing_required_field(tmp_path: Path) -> None:
+    """A required field left out: named, with what it holds and its unit."""
+    error = _error(tmp_path, 'pot = "10k"\n', "")
+    assert error.path == 'stage[6] "vol".pot'
+    assert "missing required field (track resistance, ohm)" in str(error)
+
+
+def test_missing_field_the_topology_requires(tmp_path: Path) -> None:
+    """``ground_leg`` is required only for the non-inverting form; the message says what it
+    is and its unit."""
+    error = _error(tmp_path, 'ground_leg = "2k2"\n', "")
+    assert error.path == 'stage[1] "pre".ground_leg'
+    assert "missing required field for this topology" in str(error)
+    assert "ohm" in str(error)
+
+
+def test_missing_required_table(tmp_path: Path) -> None:
+    """No ``[load]`` table."""
+    error = _error(tmp_path, '[load]\nimpedance = "8 ohm"\nsensitivity = "87 dB"\n', "")
+    assert error.path == "load"
+    assert "missing required table [load]" in str(error)
+
+
+@pytest.mark.parametrize("rail", ["positive", "negative"])
+def test_reference_to_an_undefined_rail(tmp_path: Path, rail: str) -> None:
+    """A rail must name a ``[[supply]]`` (or ``ground``)."""
+    old = 'feedback_cap = "100p"\npositive = "plus"\nnegative = "minus"'
+    new = old.replace(f'{rail} = "plus"', f'{rail} = "plsu"').replace(
+        f'{rail} = "minus"', f'{rail} = "minsu"'
+    )
+    error = _error(tmp_path, old, new)
+    assert error.path == f'stage[2] "gain".{rail}'
+    assert 'no supply named "' in str(error)
+    assert "did you mean" in str(error)
+
+
+def test_reference_to_an_undefined_opamp(tmp_path: Path) -> None:
+    """An ``opamp`` must name a generic class or an ``[opamp.NAME]`` table."""
+    error = _error(
+        tmp_path,
+        'bias_resistor = "100k"\nopamp = "quiet"',
+        'bias_resistor = "100k"\nopamp = "quite"',
+    )
+    assert error.path == 'stage[1] "pre".opamp'
+    assert 'no op-amp named "quite" (did you mean "quiet"?)' in str(error)
+
+
+def test_op_amp_stage_in_a_chain_without_supplies(tmp_path: Path) -> None:
+    """With no ``[[supply]]`` an op-amp stage cannot find its rail; the message says so
+    (it once claimed there was more than one supply)."""
+    text = FIXTURE.read_text(encoding="utf-8")
+    head = text[: text.index("[[supply]]")]
+    body = (
+        '[[stage]]\nname = "g"\nkind = "opamp_gain"\ntopology = "inverting"\n'
+        'feedback = "10k"\ninput = "10k"\n'
+    )
+    path = tmp_path / "nosupply.toml"
+    path.write_text(head + body, encoding="utf-8")
+    with pytest.raises(ChainFileError, match=r"no \[\[supply\]\]") as info:
+        load_chain(path)
+    assert info.value.path == 'stage[1] "g".positive'
+
+
+def test_bad_toml(tmp_path: Path) -> None:
+    """A file that is not TOML: one line with tomllib's position of the fault."""
+    error = _error(tmp_path, '[[stage]]\nname = "amp"', '[[stage]\nname = "amp"')
+    assert error.path == ""
+    assert "not valid TOML" in str(error)
+    assert "line" in str(error)
+
+
+def test_missing_file(tmp_path: Path) -> None:
+    """A path that does not exist."""
+    path = tmp_path / "absent.toml"
+    with pytest.raises(ChainFileError, match="cannot read the file") as info:
+        load_chain(path)
+    assert str(info.value).startswith(f"{path}: ")
+    assert "\n" not in str(info.value)
+
+
+def test_decimal_letter_code_in_a_file(tmp_path: Path) -> None:
+    """Regression: ``"4.7k"`` once escaped as a bare ValueError (a traceback) instead of
+    reading as 4.7 kohm."""
+    text = FIXTURE.read_text(encoding="utf-8").replace('input = "4k7"', 'input = "4.7k"')
+    path = tmp_path / "decimal.toml"
+    path.write_text(text, encoding="utf-8")
+    assert load_chain(path).stages[1].values["input"] == pytest.approx(4.7e3, rel=1e-12)
+
+
+@pytest.mark.parametrize(
+    ("old", "new", "path"),
+    [
+        ('gain = "26 dB"', 'gain = "1e6 dB"', 'stage[7] "amp".gain'),
+        ('ambient = "30 degC"', 'ambient = "-300 degC"', "chain.ambient"),
+        ("taper = 0.15", "taper = nan", 'stage[6] "vol".taper'),
+        (
+            'output_impedance = "0.05 ohm"',
+            'output_impedance = "1 (ohm"',
+            'stage[7] "amp".output_impedance',
+        ),
+    ],
+)
+def test_values_that_once_escaped_as_tracebacks(
+    tmp_path: Path, old: str, new: str, path: str
+) -> None:
+    """Regression: overflowing dB figures, temperatures below 0 K, TOML's nan and unit text
+    that trips pint's own parser are each one line, not a traceback."""
+    assert _error(tmp_path, old, new).path == path
+
+
+# --- writing back --------------------------------------------------------------------------
+
+
+def _round_trip(chain_path: Path) -> None:
+    chain = load_chain(chain_path)
+    text = tomli_w.dumps(chain_to_dict(chain))
+    again = parse_chain(tomllib.loads(text), "written.toml")
+    assert again.same_model(chain)
+
+
+def test_fixture_round_trips_through_tomli_w() -> None:
+    """chain_to_dict + tomli_w.dumps reloads to an equal model (including a user op-amp
+    table without a description, which once wrote ``description = ""`` that did not
+    read back)."""
+    _round_trip(FIXTURE)
+
+
+@pytest.mark.parametrize("example", EXAMPLES, ids=lambda p: p.stem)
+def test_example_chains_round_trip_through_tomli_w(example: Path) -> None:
+    """Every shipped example writes back to an equal model."""
+    _round_trip(example)
+
+
+def test_same_model_sees_a_changed_value() -> None:
+    """Guard for the round-trip checks: a model with one value changed is not the same."""
+    chain = load_chain(FIXTURE)
+    stage = chain.stages[1]
+    changed = replace(stage, values={**stage.values, "feedback": 10001.0})
+    other = replace(chain, stages=(chain.stages[0], changed, *chain.stages[2:]))
+    assert not other.same_model(chain)
+    assert replace(chain, file="elsewhere.toml").same_model(chain)
+
+
+_FINITE = {"allow_nan": False, "allow_infinity": False}
+
+
+@given(st.floats(min_value=1e-6, max_value=1e12, **_FINITE))
+def test_resistance_writes_back_exactly(value: float) -> None:
+    """Property: RESISTANCE.read(RESISTANCE.write(x)) == x bit for bit (repr keeps every
+    digit; pint's ohm-to-ohm conversion is exact)."""
+    assert f.RESISTANCE.read(f.RESISTANCE.write(value)) == value
+
+
+@given(
+    st.sampled_from(
+        [f.CAPACITANCE, f.FREQUENCY, f.SLEW_RATE, f.NOISE_VOLTAGE, f.NOISE_CURRENT, f.LEVEL]
+    ),
+    st.floats(min_value=1e-15, max_value=1e9, **_FINITE),
+)
+def test_positive_quantities_write_back_exactly(kind: f.FieldKind, value: float) -> None:
+    """Property: every positive quantity kind reads back what it wrote, bit for bit."""
+    assert kind.read(kind.write(value)) == value
+
+
+@given(st.floats(min_value=-273.15, max_value=1000.0, **_FINITE))
+def test_temperature_writes_back_exactly(value: float) -> None:
+    """Property: degC (an offset unit) reads back what it wrote."""
+    assert math.isclose(f.TEMPERATURE.read(f.TEMPERATURE.write(value)), value, rel_tol=0.0)

@@ -1,0 +1,367 @@
+"""The supply kinds through a chain file: rectified, regulator and dc figures as the budget
+reports them, against the textbook values the formula tests (tests/test_supplymath.py,
+tests/test_eseries.py) pin, and the loader's checks of their fields.
+
+Loads are `block` stages with a fixed ``supply_current``: a constant current at idle, at the
+nominal level and at clipping alike, so every load below is exact.
+"""
+
+from __future__ import annotations
+
+import math
+import tomllib
+
+import numpy as np
+import pytest
+
+from chainbudget.budget import Budget, compute
+from chainbudget.budget.supplies import SupplyFigures
+from chainbudget.chainfile import ChainFileError, parse_chain
+from chainbudget.eseries import values_between
+from chainbudget.findings import findings
+from chainbudget.supplymath import trough_and_crest
+
+ROOT2 = math.sqrt(2.0)
+
+HEAD = """
+[chain]
+title = "supply test"
+ambient = "{ambient}"
+[source]
+level = "100 mV"
+impedance = "1 kohm"
+[load]
+impedance = "10 kohm"
+"""
+
+
+def load_block(name: str, rail: str, current: str) -> str:
+    """A black-box stage that draws a constant ``current`` from ``rail``."""
+    return f"""
+[[stage]]
+name = "{name}"
+kind = "block"
+gain = 1
+input_impedance = "10 kohm"
+output_impedance = "100 ohm"
+supply_current = "{current}"
+positive = "{rail}"
+"""
+
+
+def budget_of(text: str, ambient: str = "25 degC") -> Budget:
+    return compute(parse_chain(tomllib.loads(HEAD.format(ambient=ambient) + text), "t.toml"))
+
+
+def supply(budget: Budget, name: str) -> SupplyFigures:
+    return next(s for s in budget.supplies if s.name == name)
+
+
+def codes(budget: Budget) -> set[str]:
+    return {f.code for f in findings(budget)}
+
+
+RAW_18V = """
+[[supply]]
+name = "raw"
+kind = "rectified"
+secondary = "18 V"
+mains_tolerance = "10 %"
+line_frequency = "50 Hz"
+bridge_drop = "1.4 V"
+reservoir = "4700 uF"
+"""
+
+
+def test_rectified_trough_crest_and_ripple_through_a_chain() -> None:
+    """18 V rms, +/-10 %, 1.4 V bridge drop, 4700 uF, 50 Hz, 1 A: trough 19.38 V, crest
+    26.60 V, ripple 2.128 V p-p (Horowitz & Hill 3rd ed. sec. 9.5, from memory; the same
+    values as tests/test_supplymath.py), abs 5e-3 / 5e-4 V; and equal to
+    supplymath.trough_and_crest to rtol 1e-12.
+    """
+    s = supply(budget_of(RAW_18V + load_block("amp", "raw", "1 A")), "raw")
+    assert s.kind == "rectified"
+    assert s.max_load_a == pytest.approx(1.0, rel=1e-12)
+    assert s.output_min_v == pytest.approx(19.38, abs=5e-3)
+    assert s.output_max_v == pytest.approx(26.60, abs=5e-3)
+    assert s.ripple_vpp == pytest.approx(2.128, abs=5e-4)
+    ref = trough_and_crest(18.0, 0.10, 1.4, 50.0, 4700e-6, 1.0)
+    assert s.output_min_v == pytest.approx(float(ref.trough_v), rel=1e-12)
+    assert s.output_max_v == pytest.approx(float(ref.crest_v), rel=1e-12)
+
+
+def test_rectified_nominal_is_the_mean_of_the_sawtooth() -> None:
+    """Nominal line and load: V_pk - V_pp/2 (the mean of a sawtooth ripple; our documented
+    model), 18 V rms, 1.4 V, 1 A, 4700 uF: 24.06 - 1.064 = 23.0 V; rtol 1e-12."""
+    s = supply(budget_of(RAW_18V + load_block("amp", "raw", "1 A")), "raw")
+    ripple = 1.0 / (2 * 50.0 * 4700e-6)
+    assert s.vout_v == pytest.approx(ROOT2 * 18.0 - 1.4 - ripple / 2, rel=1e-12)
+
+
+def test_rectified_transformer_regulation_at_light_load() -> None:
+    """10 % regulation, 2 A rated, 1 A drawn: the trough at half load (1.05 x), the crest
+    unloaded (1.1 x), as tests/test_supplymath.py (linear regulation model); rtol 1e-12."""
+    text = RAW_18V + 'regulation = "10 %"\nrated_current = "2 A"\n'
+    s = supply(budget_of(text + load_block("amp", "raw", "1 A")), "raw")
+    ripple = 1.0 / (2 * 50.0 * 4700e-6)
+    assert s.output_min_v == pytest.approx(ROOT2 * 18 * 0.9 * 1.05 - 1.4 - ripple, rel=1e-12)
+    assert s.output_max_v == pytest.approx(ROOT2 * 18 * 1.1 * 1.1 - 1.4, rel=1e-12)
+    assert s.transformer_load_fraction == pytest.approx(0.5, rel=1e-12)
+
+
+def test_half_wave_doubles_the_ripple_and_drops_one_diode() -> None:
+    """Half-wave: I/(fC) = 4.255 V p-p at 1 A, 4700 uF, 50 Hz (Horowitz & Hill 3rd ed.
+    sec. 9.5.2, from memory), abs 5e-4 V; default drop one diode, 0.9 V (common practice),
+    so the crest is sqrt(2) 18 x 1.1 - 0.9; rtol 1e-12."""
+    text = RAW_18V.replace('bridge_drop = "1.4 V"\n', "") + "half_wave = true\n"
+    s = supply(budget_of(text + load_block("amp", "raw", "1 A")), "raw")
+    assert s.ripple_vpp == pytest.approx(4.255, abs=5e-4)
+    assert s.output_max_v == pytest.approx(ROOT2 * 18 * 1.1 - 0.9, rel=1e-12)
+
+
+def test_default_bridge_drop_is_two_diodes() -> None:
+    """No bridge_drop: 2 x 0.9 V (common practice, no source); rtol 1e-12."""
+    text = RAW_18V.replace('bridge_drop = "1.4 V"\n', "")
+    s = supply(budget_of(text + load_block("amp", "raw", "1 A")), "raw")
+    assert s.output_max_v == pytest.approx(ROOT2 * 18 * 1.1 - 1.8, rel=1e-12)
+
+
+ADJUSTABLE = """
+[[supply]]
+name = "pre"
+kind = "regulator"
+from = "raw"
+reference = "1.25 V"
+adjust_current = "50 uA"
+upper = "2.4 kohm"
+lower = "240 ohm"
+ripple_rejection = "60 dB"
+"""
+
+
+def test_adjustable_regulator_output_divider_and_ripple() -> None:
+    """Vref 1.25 V, Iadj 50 uA, 2.4 kohm to ground, 240 ohm across the reference:
+    13.87 V, divider 5.2 mA (equation Horowitz & Hill 3rd ed. ch. 9, from memory; values as
+    tests/test_supplymath.py), abs 5e-3 V / 0.05 mA. Output ripple = input ripple x
+    10^(-60/20) (IEC 60027-3 field-quantity dB), rtol 1e-12.
+    """
+    b = budget_of(RAW_18V + ADJUSTABLE + load_block("amp", "pre", "20 mA"))
+    pre, raw = supply(b, "pre"), supply(b, "raw")
+    assert pre.vout_v == pytest.approx(13.87, abs=5e-3)
+    assert pre.divider_a == pytest.approx(5.2e-3, abs=0.05e-3)
+    assert pre.in_regulation is True
+    assert pre.output_min_v == pre.output_max_v == pre.vout_v
+    assert pre.ripple_vpp == pytest.approx(raw.ripple_vpp * 1e-3, rel=1e-12)
+    # what it delivers and draws: load + divider; + the adjust current (Kirchhoff)
+    assert pre.idle_load_a == pytest.approx(20e-3 + 1.25 / 240, rel=1e-12)
+    assert pre.input_idle_a == pytest.approx(20e-3 + 1.25 / 240 + 50e-6, rel=1e-12)
+    assert raw.idle_load_a == pytest.approx(pre.input_idle_a, rel=1e-12)
+
+
+def test_an_opamp_stage_on_the_regulator_swings_within_its_output() -> None:
+    """The op-amp's rails are the regulator's 13.87 V output: clip level = 13.87/2 - 1.5 V
+    (mid-rail bias, the generic jfet_input's 1.5 V swing margin); the equation of
+    tests/test_supplymath.py, rtol 1e-9.
+    """
+    stage = """
+[[stage]]
+name = "pre"
+kind = "opamp_gain"
+topology = "non-inverting"
+feedback = "10k"
+ground_leg = "10k"
+opamp = "jfet_input"
+positive = "pre"
+"""
+    b = budget_of(RAW_18V + ADJUSTABLE + stage)
+    vout = 1.25 * (1 + 2400 / 240) + 50e-6 * 2400
+    assert b.nodes[0].limited_by == "rails"
+    assert b.nodes[0].clip_vpk == pytest.approx(vout / 2 - 1.5, rel=1e-9)
+
+
+JUNCTION = """
+[[supply]]
+name = "bench"
+kind = "dc"
+voltage = "12 V"
+[[supply]]
+name = "five"
+kind = "regulator"
+from = "bench"
+output = "5 V"
+"""
+
+
+def test_regulator_junction_at_200_degc_is_an_error() -> None:
+    """12 V -> 5 V at 0.5 A: 3.5 W; 50 K/W from 25 degC: T_j = 200 degC (thermal Ohm's law,
+    Horowitz & Hill 3rd ed. sec. 9.4, from memory), abs 1e-9 degC; over 125 degC: an error.
+    """
+    b = budget_of(JUNCTION + 'theta_ja = "50 K/W"\n' + load_block("load", "five", "0.5 A"))
+    five = supply(b, "five")
+    assert five.dissipation_w == pytest.approx(3.5, abs=1e-12)
+    assert five.junction_degc == pytest.approx(200.0, abs=1e-9)
+    assert "regulator-junction" in codes(b)
+
+
+def test_heatsink_path_and_the_largest_heatsink_that_would_do() -> None:
+    """theta_jc + heatsink in series (thermal Ohm's law, same source): 3.5 W x (2 + 10) K/W
+    + 25 degC = 67 degC; with 5 + 40 K/W, 182.5 degC, and the largest sink that keeps
+    125 degC is (125 - 25)/3.5 - 5 = 23.57 K/W; rtol 1e-12."""
+    b = budget_of(
+        JUNCTION + 'theta_jc = "2 K/W"\nheatsink = "10 K/W"\n' + load_block("l", "five", "0.5 A")
+    )
+    assert supply(b, "five").junction_degc == pytest.approx(67.0, rel=1e-12)
+    assert "regulator-junction" not in codes(b)
+    b = budget_of(
+        JUNCTION + 'theta_jc = "5 K/W"\nheatsink = "40 K/W"\n' + load_block("l", "five", "0.5 A")
+    )
+    five = supply(b, "five")
+    assert five.junction_degc == pytest.approx(182.5, rel=1e-12)
+    assert five.heatsink_allowed_k_per_w == pytest.approx(100 / 3.5 - 5, rel=1e-12)
+    assert "regulator-junction" in codes(b)
+
+
+def test_quiescent_current_heats_across_the_whole_input() -> None:
+    """Power balance: 5 mA ground current at 12 V adds 60 mW to 3.5 W, abs 1e-12 W; the
+    input draws load + quiescent (Kirchhoff)."""
+    b = budget_of(JUNCTION + 'quiescent = "5 mA"\n' + load_block("l", "five", "0.5 A"))
+    five = supply(b, "five")
+    assert five.dissipation_w == pytest.approx(3.56, abs=1e-12)
+    assert supply(b, "bench").idle_load_a == pytest.approx(0.505, rel=1e-12)
+
+
+BATTERY = """
+[[supply]]
+name = "pack"
+kind = "dc"
+voltage = "12 V"
+min_voltage = "10.5 V"
+max_voltage = "13.8 V"
+resistance = "0.1 ohm"
+capacity = "7 Ah"
+"""
+
+
+def test_dc_sag_under_load_and_the_battery_run_time() -> None:
+    """Thevenin source: 10.5 V low end, 0.1 ohm, 0.5 A -> 10.45 V at the terminals (Ohm's
+    law); nominal 12 - 0.05 = 11.95 V; high end taken unloaded, 13.8 V. Run time 7 Ah /
+    0.5 A = 14 h (definition of the ampere-hour). rtol 1e-12."""
+    b = budget_of(BATTERY + load_block("l", "pack", "0.5 A"))
+    pack = supply(b, "pack")
+    assert pack.output_min_v == pytest.approx(10.45, rel=1e-12)
+    assert pack.vout_v == pytest.approx(11.95, rel=1e-12)
+    assert pack.output_max_v == pytest.approx(13.8, rel=1e-12)
+    assert pack.sag_v == pytest.approx(0.05, rel=1e-12)
+    assert pack.runtime_idle_h == pytest.approx(14.0, rel=1e-12)
+    assert pack.runtime_nominal_h == pytest.approx(14.0, rel=1e-12)
+    runtime = next(f for f in findings(b) if f.code == "battery-runtime")
+    assert runtime.severity == "note" and "14 h" in runtime.message
+
+
+DROPOUT = """
+[[supply]]
+name = "raw"
+kind = "rectified"
+secondary = "{secondary}"
+bridge_drop = "1.8 V"
+reservoir = "{reservoir}"
+[[supply]]
+name = "reg"
+kind = "regulator"
+from = "raw"
+output = "15 V"
+dropout = "2 V"
+"""
+
+
+def dropout_chain(secondary: str = "15 V", reservoir: str = "1000 uF") -> str:
+    return DROPOUT.format(secondary=secondary, reservoir=reservoir) + load_block(
+        "l", "reg", "0.2 A"
+    )
+
+
+def test_dropout_at_low_line_is_an_error_with_the_input_needed() -> None:
+    """15 V rms, +/-10 % (default), 1.8 V, 1000 uF, 0.2 A: trough sqrt(2) 15 x 0.9 - 1.8 -
+    0.2/(2 x 50 x 1e-3) = 15.29 V, under 15 + 2 V (Horowitz & Hill 3rd ed. sec. 9.5, from
+    memory); rtol 1e-12. The suggestion asks for 17 V at the trough."""
+    b = budget_of(dropout_chain())
+    reg = supply(b, "reg")
+    trough = ROOT2 * 15 * 0.9 - 1.8 - 0.2 / (2 * 50 * 1e-3)
+    assert reg.input_min_v == pytest.approx(trough, rel=1e-12)
+    assert reg.dropout_margin_v == pytest.approx(trough - 17.0, rel=1e-12)
+    assert reg.in_regulation is False
+    assert reg.dropout_suggestion is not None
+    assert reg.dropout_suggestion.input_needed_v == pytest.approx(17.0, rel=1e-12)
+    assert "regulator-dropout" in codes(b)
+    assert any(f.severity == "error" for f in findings(b))
+
+
+def test_the_suggested_secondary_or_reservoir_brings_the_trough_to_the_need() -> None:
+    """Round trip through the file: with the suggested secondary, or the suggested
+    reservoir, the trough equals V_out + dropout (abs 1e-9 V); 0.1 % more and the dropout
+    error is gone."""
+    reg = supply(budget_of(dropout_chain()), "reg")
+    d = reg.dropout_suggestion
+    assert d is not None and d.secondary_needed_vrms is not None
+    assert d.reservoir_needed_f is not None
+    exact = supply(budget_of(dropout_chain(secondary=f"{d.secondary_needed_vrms!r} V")), "reg")
+    assert exact.dropout_margin_v == pytest.approx(0.0, abs=1e-9)
+    more = budget_of(dropout_chain(secondary=f"{d.secondary_needed_vrms * 1.001!r} V"))
+    assert "regulator-dropout" not in codes(more)
+    # a bigger reservoir alone: the peak at low line is 17.29 V, above 17 V, so it can
+    bigger = supply(budget_of(dropout_chain(reservoir=f"{d.reservoir_needed_f!r} F")), "reg")
+    assert bigger.dropout_margin_v == pytest.approx(0.0, abs=1e-9)
+
+
+def test_input_over_its_maximum_at_high_line_no_load() -> None:
+    """Crest sqrt(2) 30 x 1.1 - 1.8 = 44.87 V over a 40 V maximum input: an error; the
+    crest is unloaded (no ripple), rtol 1e-12."""
+    text = DROPOUT.format(secondary="30 V", reservoir="1000 uF") + 'max_input = "40 V"\n'
+    b = budget_of(text + load_block("l", "reg", "0.2 A"))
+    reg = supply(b, "reg")
+    assert reg.input_max_v == pytest.approx(ROOT2 * 30 * 1.1 - 1.8, rel=1e-12)
+    assert "regulator-max-input" in codes(b)
+
+
+def test_dissipation_at_high_line_uses_the_mean_input() -> None:
+    """(V_in - V_out) I with V_in the high-line mean at full load, V_pk - V_pp/2
+    (regulator power balance, Horowitz & Hill 3rd ed. ch. 9, from memory); rtol 1e-12."""
+    b = budget_of(dropout_chain(secondary="20 V"))
+    ripple = 0.2 / (2 * 50 * 1e-3)
+    vin = ROOT2 * 20 * 1.1 - 1.8 - ripple / 2
+    assert supply(b, "reg").dissipation_w == pytest.approx((vin - 15.0) * 0.2, rel=1e-12)
+
+
+def test_a_divider_target_gets_the_best_e96_pair() -> None:
+    """Target 12 V with 2.2 kohm / 240 ohm (12.82 V): the best E96 pair with lower at most
+    240 ohm, checked by brute force over E96 (IEC 60063) here, and the equation of
+    tests/test_supplymath.py for its output; rtol 1e-12."""
+    text = RAW_18V + ADJUSTABLE.replace("2.4 kohm", "2.2 kohm") + 'output = "12 V"\n'
+    b = budget_of(text + load_block("l", "pre", "10 mA"))
+    d = supply(b, "pre").divider_suggestion
+    assert d is not None and d.series == "E96"
+    lowers = values_between("E96", 100.0, 240.0)
+    uppers = values_between("E96", 10.0, 1e6)
+    vout = 1.25 * (1 + uppers[:, None] / lowers[None, :]) + 50e-6 * uppers[:, None]
+    assert abs(d.vout_v - 12.0) == pytest.approx(float(np.abs(vout - 12.0).min()), abs=1e-12)
+    assert d.vout_v == pytest.approx(1.25 * (1 + d.upper_ohm / d.lower_ohm) + 50e-6 * d.upper_ohm)
+    assert "regulator-divider" in codes(b)
+
+
+@pytest.mark.parametrize(
+    ("text", "path"),
+    [
+        (RAW_18V + ADJUSTABLE.replace('lower = "240 ohm"\n', ""), 'supply[2] "pre".lower'),
+        (RAW_18V + ADJUSTABLE.replace('reference = "1.25 V"\n', ""), 'supply[2] "pre".reference'),
+        (RAW_18V + ADJUSTABLE + 'theta_jc = "3 K/W"\n', 'supply[2] "pre".heatsink'),
+        (RAW_18V + ADJUSTABLE.replace('from = "raw"\n', ""), 'supply[2] "pre".from'),
+        (RAW_18V.replace('"10 %"', '"150 %"'), 'supply[1] "raw".mains_tolerance'),
+        (RAW_18V.replace('reservoir = "4700 uF"\n', ""), 'supply[1] "raw".reservoir'),
+        (RAW_18V + ADJUSTABLE.replace('from = "raw"', 'from = "rawr"'), 'supply[2] "pre".from'),
+    ],
+)
+def test_supply_field_errors_name_the_table_path(text: str, path: str) -> None:
+    with pytest.raises(ChainFileError) as caught:
+        budget_of(text + load_block("l", "raw", "1 A"))
+    assert path in str(caught.value)
+    assert "\n" not in str(caught.value)
