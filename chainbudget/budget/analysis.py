@@ -19,6 +19,7 @@ from chainbudget.chainfile import Chain
 from chainbudget.spectrum import log_frequency_grid
 from chainbudget.stages import KINDS
 from chainbudget.stages.base import Control, Environment
+from chainbudget.supplies.base import Corners
 from chainbudget.supplies.tree import stage_rails, supply_voltages
 
 # Rotations tried for each swept pot in the worst-case search (and the setting itself).
@@ -43,6 +44,7 @@ class Analysis:
 
     chain: Chain
     frequency: NDArray[np.float64]
+    voltages: dict[str, Corners]
     envs: tuple[Environment, ...]
     nominal: Cascade
     swept: Cascade
@@ -68,9 +70,13 @@ def frequency_axis(chain: Chain) -> NDArray[np.float64]:
     return np.concatenate(([s.reference], grid))
 
 
-def environments(chain: Chain, corner: str = "nominal") -> tuple[Environment, ...]:
-    """Each stage's environment: temperature, parts and rails at a supply corner."""
-    voltages = supply_voltages(chain)
+def environments(
+    chain: Chain, corner: str = "nominal", voltages: Mapping[str, Corners] | None = None
+) -> tuple[Environment, ...]:
+    """Each stage's environment: temperature, parts and rails at a supply corner (of the
+    unloaded tree unless ``voltages`` are given)."""
+    if voltages is None:
+        voltages = supply_voltages(chain)
     temperature = chain.settings.ambient + zero_Celsius
     return tuple(
         Environment(
@@ -102,10 +108,18 @@ def solve_chain(
     return cascade(solutions, chain.source.impedance, chain.load.impedance)
 
 
-def analyse(chain: Chain, corner: str = "nominal") -> Analysis:
-    """Solve the chain nominally, over the worst-case control grid and the volume axis."""
+def analyse(
+    chain: Chain, corner: str = "nominal", voltages: Mapping[str, Corners] | None = None
+) -> Analysis:
+    """Solve the chain nominally, over the worst-case control grid and the volume axis.
+
+    The stages' rails are the supplies' ``voltages`` at ``corner``; by default the
+    unloaded power tree's (`chainbudget.budget.supplies.loaded_analysis` passes the loaded
+    tree's).
+    """
     frequency = frequency_axis(chain)
-    envs = environments(chain, corner)
+    voltages = dict(supply_voltages(chain) if voltages is None else voltages)
+    envs = environments(chain, corner, voltages)
     as_set = _positions_as_set(chain)
     nominal = solve_chain(chain, envs, frequency, list(as_set))
 
@@ -131,5 +145,6 @@ def analyse(chain: Chain, corner: str = "nominal") -> Analysis:
         fine[volume_index]["position"] = rotations[:, None]
         volume_sweep = solve_chain(chain, envs, frequency[:1], fine)
     return Analysis(
-        chain, frequency, envs, nominal, worst, tuple(swept), volume_index, rotations, volume_sweep
+        chain, frequency, voltages, envs, nominal, worst, tuple(swept), volume_index, rotations,
+        volume_sweep,
     )

@@ -293,7 +293,7 @@ def push_pull_dissipation(analysis: Analysis, k: int, nominal_vpk: float) -> Dis
     """
     chain = analysis.chain
     stage = chain.stages[k]
-    env = environments(chain, "high")[k]
+    env = environments(chain, "high", analysis.voltages)[k]
     upper, lower = halves(stage, env)
     i_q = stage.number("quiescent")
     phase = stage.number("load_phase")
@@ -387,9 +387,27 @@ def push_pull_dissipation(analysis: Analysis, k: int, nominal_vpk: float) -> Dis
     )
 
 
+def _voltage_clip_source_peak(cas: Cascade, k: int) -> NDArray[np.float64]:
+    """Source peak at which stage k reaches its tightest limit other than a current limit,
+    on the cascade's full shape (inf where it has none)."""
+    shape = np.shape(cas.v_out[k])
+    peak = np.full(shape, np.inf)
+    with np.errstate(divide="ignore"):
+        for limit in cas.stages[k].built.limits:
+            if limit.name not in CURRENT_LIMITS:
+                bound = np.asarray(limit.peak) / np.abs(cas.probe(k, limit.probe))
+                peak = np.minimum(peak, np.broadcast_to(bound, shape))
+    return peak
+
+
 def opamp_drives(analysis: Analysis) -> list[OpAmpDrive]:
-    """Peak output current of every op-amp at ``max_level``: at the reference frequency
-    with the controls as set, and the largest over the band and every swept control."""
+    """Peak output current of every op-amp at ``max_level``.
+
+    ``peak_a``: at the reference frequency with the controls as set. ``worst_a``: the
+    largest over the band and every swept control of the current at ``max_level`` or at the
+    stage's voltage clip level (rails, slew), whichever is lower, i.e. the most the op-amp
+    is asked to deliver before something else stops the signal.
+    """
     chain = analysis.chain
     max_peak = SQRT2 * chain.source.max_level
     found = []
@@ -397,8 +415,10 @@ def opamp_drives(analysis: Analysis) -> list[OpAmpDrive]:
         for label, part in sol.built.opamps:
             probe = f"{label}.current"
             per_volt = _at_reference(analysis.nominal.probe(k, probe))
-            swept = np.abs(analysis.swept.probe(k, probe))
-            band = swept[..., analysis.band_slice]
+            swept = analysis.swept
+            level = np.minimum(max_peak, _voltage_clip_source_peak(swept, k))
+            asked = np.abs(np.broadcast_to(swept.probe(k, probe), level.shape)) * level
+            band = asked[..., analysis.band_slice]
             at = np.unravel_index(int(np.argmax(band)), band.shape)
             v_out = _at_reference(analysis.nominal.v_out[k])
             found.append(
@@ -407,7 +427,7 @@ def opamp_drives(analysis: Analysis) -> list[OpAmpDrive]:
                     opamp=opamp_part(sol.stage, analysis.envs[k]).name,
                     load_ohm=v_out / per_volt if per_volt > 0.0 else float("inf"),
                     peak_a=per_volt * max_peak,
-                    worst_a=max(float(band[at]), per_volt) * max_peak,
+                    worst_a=float(band[at]),
                     worst_hz=float(analysis.frequency[analysis.band_slice][at[-1]]),
                     limit_a=part.output_current,
                 )

@@ -23,6 +23,7 @@ under those loads until the rails agree to `RAIL_TOLERANCE_V`.
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass
 
 from chainbudget.budget.analysis import Analysis, analyse
@@ -33,7 +34,7 @@ from chainbudget.eseries import best_divider
 from chainbudget.stages import KINDS as STAGE_KINDS
 from chainbudget.stages.base import opamp_part
 from chainbudget.supplies import KINDS
-from chainbudget.supplies.base import GROUND_SUPPLY, Supply
+from chainbudget.supplies.base import GROUND_SUPPLY, Corners, Supply
 from chainbudget.supplies.rectified import Rectified
 from chainbudget.supplies.regulator import Regulator
 from chainbudget.supplies.state import NO_LOAD, SupplyLoad, SupplyState
@@ -43,7 +44,6 @@ from chainbudget.supplies.tree import (
     stage_rails,
     supply_states,
     supply_voltages,
-    with_loads,
 )
 from chainbudget.supplymath import battery_runtime_h, bleeder_suggestion, regulator_dissipation
 from chainbudget.thermal import junction_temperature, largest_sink_theta
@@ -168,9 +168,12 @@ def stage_loads(analysis: Analysis) -> dict[str, SupplyLoad]:
     return loads
 
 
-def _rails_agree(a: Chain, b: Chain, corner: str) -> bool:
-    va, vb = supply_voltages(a), supply_voltages(b)
-    for stage in a.stages:
+def _rails_agree(
+    chain: Chain, va: Mapping[str, Corners], vb: Mapping[str, Corners], corner: str
+) -> bool:
+    for stage in chain.stages:
+        if not STAGE_KINDS[stage.kind].uses_rails:
+            continue  # e.g. a block: it draws from its rail but its model ignores the voltage
         ra, rb = stage_rails(stage, va, corner), stage_rails(stage, vb, corner)
         if ra is None or rb is None:
             continue
@@ -190,11 +193,10 @@ def loaded_analysis(chain: Chain, corner: str = "low") -> Analysis:
     """
     analysis = analyse(chain, corner)
     for _ in range(MAX_PASSES):
-        current = analysis.chain
-        loaded = with_loads(current, external_loads(current, stage_loads(analysis)))
-        if _rails_agree(current, loaded, corner):
+        loaded = supply_voltages(chain, external_loads(chain, stage_loads(analysis)))
+        if _rails_agree(chain, analysis.voltages, loaded, corner):
             break
-        analysis = analyse(loaded, corner)
+        analysis = analyse(chain, corner, loaded)
     return analysis
 
 
@@ -278,7 +280,7 @@ def _regulator_figures(
             )
     # divider for a target output
     target = kind.target(supply)
-    reference = supply.optional("reference")
+    reference = kind.reference(supply)
     if target is not None and reference is not None and target > reference:
         series = str(supply.values["divider_series"])
         # No larger a lower resistor than the file's: the divider current, which counts
@@ -366,7 +368,7 @@ def high_line_supply_ranges(analysis: Analysis) -> tuple[SupplyRange, ...]:
     these are the other end, for the maximum-supply check.
     """
     chain = analysis.chain
-    voltages = supply_voltages(chain)  # the crest: no load, whatever the chain carries
+    voltages = supply_voltages(chain)  # the crest: no load
     found = []
     for stage, env in zip(chain.stages, analysis.envs, strict=True):
         rails = stage_rails(stage, voltages, "high")

@@ -21,6 +21,10 @@ def _ma(current: float | None) -> str:
     return "?" if current is None else f"{current * 1e3:.3g} mA"
 
 
+def _ohm(value: float) -> str:
+    return f"{value / 1e3:.3g} kohm" if value >= 1e3 else f"{value:.3g} ohm"
+
+
 def _w(power: float | None) -> str:
     return "?" if power is None else f"{power:.3g} W"
 
@@ -103,7 +107,7 @@ def _drive(budget: Budget, drive: DriveBudget) -> list[Finding]:
                     f"at max_level the op-amp ({op.opamp}) must deliver {_ma(op.worst_a)} peak "
                     f"at {op.worst_hz:.0f} Hz (worst over the band and the controls), over its "
                     f"{_ma(op.limit_a)}; it clips on current there: raise the impedance it "
-                    f"drives ({op.load_ohm:.3g} ohm at the reference, its feedback network "
+                    f"drives ({_ohm(op.load_ohm)} at the reference, its feedback network "
                     "included) or buffer it",
                     {**figures, "frequency_hz": op.worst_hz},
                 )
@@ -116,7 +120,7 @@ def _drive(budget: Budget, drive: DriveBudget) -> list[Finding]:
                     op.stage,
                     f"at max_level the op-amp ({op.opamp}) delivers up to {_ma(op.worst_a)} "
                     f"peak (at {op.worst_hz:.0f} Hz) of its {_ma(op.limit_a)}: less than 6 dB "
-                    f"in hand; raise the impedance it drives ({op.load_ohm:.3g} ohm at the "
+                    f"in hand; raise the impedance it drives ({_ohm(op.load_ohm)} at the "
                     "reference, feedback network included)",
                     figures,
                 )

@@ -14,6 +14,9 @@ RMS_PER_DC_AMP = 1.8
 # overstates the ripple more and more as the trough falls towards zero): a fifth of the
 # peak (our threshold; the approximation needs V_pp << V_pk).
 LARGE_RIPPLE_FRACTION = 0.2
+# A dropout margin under this is in regulation on paper only: the part's dropout, the
+# mains and the diodes all spread (our design allowance, not from a source).
+THIN_DROPOUT_MARGIN_V = 0.5
 
 
 def _ma(current_a: float) -> str:
@@ -44,6 +47,19 @@ def _regulator(s: SupplyFigures, ambient_degc: float) -> list[Finding]:
                     "dropout_margin_v": s.dropout_margin_v,
                     **({"input_needed_v": d.input_needed_v} if d else {}),
                 },
+            )
+        )
+    elif s.dropout_margin_v is not None and s.dropout_margin_v < THIN_DROPOUT_MARGIN_V:
+        found.append(
+            Finding(
+                "warning",
+                "regulator-dropout-margin",
+                None,
+                f'regulator "{s.name}" stays in regulation at low line and heaviest load with '
+                f"only {s.dropout_margin_v:.2g} V to spare (input trough {s.input_min_v:.3g} V); "
+                f"allow at least {THIN_DROPOUT_MARGIN_V:g} V: raise the input by "
+                f"{THIN_DROPOUT_MARGIN_V - s.dropout_margin_v:.2g} V or use a lower-dropout type",
+                {"dropout_margin_v": s.dropout_margin_v},
             )
         )
     if s.min_load_margin_a is not None and s.min_load_a is not None:

@@ -224,6 +224,8 @@ def currents_table(budget: Budget) -> Table | None:
         return None
     table = _table("Stage currents from each rail (mean)", "stage", "idle", "nominal", "clip")
     for c in drive.currents:
+        if c.positive is None:  # a passive stage draws nothing
+            continue
         table.add_row(c.stage, eng(c.idle_a, "A"), eng(c.nominal_a, "A"), eng(c.clip_a, "A"))
     return table
 

@@ -195,10 +195,12 @@ def _checks(s: SupplyFigures) -> list[tuple[str, str, str]]:
             )
         if s.divider_suggestion is not None:
             d = s.divider_suggestion
+            error = (s.vout_v - d.target_v) / d.target_v
             rows.append(
                 (
-                    f"best {d.series} divider for {eng(d.target_v, 'V')}",
-                    f"upper {eng(d.upper_ohm, 'ohm')}, lower {eng(d.lower_ohm, 'ohm')}: "
+                    f"divider against the {eng(d.target_v, 'V', 4)} target",
+                    f"{eng(s.vout_v, 'V', 4)} ({error:+.2%}); best {d.series}: upper "
+                    f"{eng(d.upper_ohm, 'ohm')}, lower {eng(d.lower_ohm, 'ohm')}, "
                     f"{eng(d.vout_v, 'V', 4)} ({d.error_fraction:+.2%})",
                     DASH,
                 )

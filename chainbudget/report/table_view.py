@@ -23,32 +23,75 @@ TABLES: list[Callable[[Budget], list[Table]]] = [noise.tables, supplies.tables, 
 _SEVERITY_MARK = {"error": "ERROR", "warning": "warn ", "note": "note "}
 
 
+def _control_text(stage: str, label: str, rotation: float) -> str:
+    """``tone.bass_position`` -> ``bass=1`` on its own stage's row, ``tone.bass=1`` elsewhere;
+    a stage's single ``position`` -> ``position=1`` on its row, ``volume=1`` elsewhere."""
+    owner, key = label.split(".", 1)
+    key = key.removesuffix("position").rstrip("_")
+    if owner == stage:
+        return f"{key or 'position'}={rotation:g}"
+    return f"{owner}.{key}={rotation:g}" if key else f"{owner}={rotation:g}"
+
+
 def node_table(budget: Budget) -> Table:
-    """One row per node: gain, level, clip level, headroom nominal and worst, impedances."""
-    table = Table(title="Signal path (max_level headroom; worst over band and controls)",
-                  box=box.SIMPLE_HEAD, title_justify="left")
-    for header, justify in (("stage", "left"), ("kind", "left"), ("gain dB", "right"),
-                            ("total dB", "right"), ("level", "right"), ("level dBu", "right"),
-                            ("clip pk", "right"), ("headroom dB", "right"),
-                            ("worst dB", "right"), ("worst at", "left"), ("Zout", "right"),
-                            ("drives", "right")):
-        table.add_column(header, justify=justify)  # type: ignore[arg-type]
-    for header, justify, _cell in NODE_COLUMNS:
-        table.add_column(header, justify=justify)  # type: ignore[arg-type]
-    for k, n in enumerate(budget.nodes):
+    """One row per node: gain, level, clip level, headroom nominal and worst."""
+    table = Table(
+        title="Signal path (headroom of max_level; worst over band and controls)",
+        box=box.SIMPLE_HEAD,
+        title_justify="left",
+    )
+    for header, justify in (
+        ("stage", "left"),
+        ("kind", "left"),
+        ("gain dB", "right"),
+        ("total dB", "right"),
+        ("level", "right"),
+        ("dBu", "right"),
+        ("clip pk", "right"),
+        ("limit", "left"),
+        ("headroom", "right"),
+        ("worst", "right"),
+        ("worst at", "left"),
+    ):
+        table.add_column(header, justify=justify, no_wrap=True)  # type: ignore[arg-type]
+    for n in budget.nodes:
         worst = n.worst
         worst_at = DASH
         if worst is not None:
-            turned = ", ".join(f"{key.split('.', 1)[1]}={v:g}" if key.startswith(n.stage + ".")
-                               else f"{key}={v:g}" for key, v in worst.controls.items())
+            turned = " ".join(_control_text(n.stage, key, v) for key, v in worst.controls.items())
             worst_at = f"{eng(worst.frequency_hz, 'Hz')} {turned}".strip()
         table.add_row(
-            n.stage, n.kind, decibels(n.gain_db), decibels(n.total_gain_db),
-            eng(n.level_vrms, "V"), decibels(vrms_to_dbu(n.level_vrms)) if n.level_vrms > 0
-            else DASH,
-            eng(n.clip_vpk, "V"), decibels(n.headroom_db),
-            decibels(None if worst is None else worst.headroom_db), worst_at,
-            eng(n.zout_ohm, "ohm"), eng(n.zload_ohm, "ohm"),
+            n.stage,
+            n.kind,
+            decibels(n.gain_db),
+            decibels(n.total_gain_db),
+            eng(n.level_vrms, "V"),
+            decibels(vrms_to_dbu(n.level_vrms)) if n.level_vrms > 0 else DASH,
+            eng(n.clip_vpk, "V"),
+            n.limited_by or DASH,
+            decibels(n.headroom_db),
+            decibels(None if worst is None else worst.headroom_db),
+            worst_at,
+        )
+    return table
+
+
+def loading_table(budget: Budget) -> Table:
+    """One row per node: output impedance, what it drives, and each area's node columns."""
+    table = Table(
+        title="Nodes: impedances and noise (controls as set)",
+        box=box.SIMPLE_HEAD,
+        title_justify="left",
+    )
+    for header, justify in (("stage", "left"), ("Zout", "right"), ("drives", "right")):
+        table.add_column(header, justify=justify, no_wrap=True)  # type: ignore[arg-type]
+    for header, justify, _cell in NODE_COLUMNS:
+        table.add_column(header, justify=justify, no_wrap=True)  # type: ignore[arg-type]
+    for k, n in enumerate(budget.nodes):
+        table.add_row(
+            n.stage,
+            eng(n.zout_ohm, "ohm"),
+            eng(n.zload_ohm, "ohm"),
             *(cell(budget, k) for _h, _j, cell in NODE_COLUMNS),
         )
     return table
@@ -61,10 +104,13 @@ def render(budget: Budget, found: list[Finding], console: Console) -> None:
         f"reference {eng(budget.reference_hz, 'Hz')}, band {eng(budget.band_hz[0], 'Hz')} to "
         f"{eng(budget.band_hz[1], 'Hz')}, ambient {budget.ambient_degc:g} degC; source "
         f"{eng(budget.source_level_vrms, 'Vrms')} nominal, "
-        f"{eng(budget.source_max_level_vrms, 'Vrms')} max", highlight=False)
+        f"{eng(budget.source_max_level_vrms, 'Vrms')} max",
+        highlight=False,
+    )
     console.print(node_table(budget))
     if budget.first_clip is not None:
         console.print(f"First to clip at max_level: {budget.first_clip}", highlight=False)
+    console.print(loading_table(budget))
     for tables in TABLES:
         for table in tables(budget):
             console.print(table)
@@ -73,8 +119,11 @@ def render(budget: Budget, found: list[Finding], console: Console) -> None:
         console.print("[bold]Findings[/bold]")
         for fi in found:
             where = f" [{fi.stage}]" if fi.stage else ""
-            console.print(f"  {_SEVERITY_MARK[fi.severity]} {fi.code}{where}: {fi.message}",
-                          highlight=False, markup=False)
+            console.print(
+                f"  {_SEVERITY_MARK[fi.severity]} {fi.code}{where}: {fi.message}",
+                highlight=False,
+                markup=False,
+            )
     else:
         console.print("Findings: none")
     for text in cautions(budget):

@@ -120,23 +120,45 @@ def modelled_half(stage: Stage, env: Environment) -> Half:
 
 @dataclass(frozen=True)
 class PushPullModel:
-    """Small-signal parameters of the modelled half (output device at the quiescent current,
-    driver at the output device's base current)."""
+    """Hybrid-pi parameters of the modelled half: in conduction (output device at
+    ``conduction_a``, driver at its base current) and at idle (I_q, for the shot noise)."""
 
     half: Half
+    conduction_a: float
     output: SmallSignal
     driver: SmallSignal | None
+    idle_output: SmallSignal
+    idle_driver: SmallSignal | None
+
+
+def conduction_current(stage: Stage, env: Environment) -> float:
+    """Emitter current of the conducting half at which its small-signal model is taken, A.
+
+    Notes
+    -----
+    The peak current at the stage's own clip level into the chain's load,
+    I_pk = V_swing/(R_E + R_L) (from the swing equation of `halves`), and never below the
+    quiescent current; I_q alone when the load is not known.
+    """
+    i_q = stage.number("quiescent")
+    if env.load_impedance is None:
+        return i_q
+    swing = min(half.swing_v for half in halves(stage, env))
+    return max(i_q, swing / (stage.number("emitter_resistors") + env.load_impedance))
 
 
 def push_pull_model(stage: Stage, env: Environment) -> PushPullModel:
-    """Hybrid-pi parameters of the modelled half at the stage's quiescent current."""
+    """Hybrid-pi parameters of the modelled half, in conduction and at idle."""
     half = modelled_half(stage, env)
-    i_q = stage.number("quiescent")
-    output = small_signal(half.output, i_q, env.temperature_k)
-    driver = None
+    t = env.temperature_k
+    conduction = conduction_current(stage, env)
+    output = small_signal(half.output, conduction, t)
+    idle_output = small_signal(half.output, stage.number("quiescent"), t)
+    driver = idle_driver = None
     if half.driver is not None:
-        driver = small_signal(half.driver, output.i_b, env.temperature_k)
-    return PushPullModel(half, output, driver)
+        driver = small_signal(half.driver, output.i_b, t)
+        idle_driver = small_signal(half.driver, idle_output.i_b, t)
+    return PushPullModel(half, conduction, output, driver, idle_output, idle_driver)
 
 
 class PushPull(StageKind):
@@ -144,21 +166,25 @@ class PushPull(StageKind):
 
     Notes
     -----
-    Small signal: one half in conduction, the hybrid-pi output device at the quiescent
-    current I_q behind its emitter resistor R_E (and the output capacitor, if any) into
-    ``out``; a Darlington driver is a second hybrid-pi transistor whose emitter drives the
-    output device's base, biased at its base current. The bias spreader between the drive
-    and the two bases is a DC voltage, a short to the signal. The network then gives
+    Small signal: one half in conduction, the hybrid-pi output device at its conduction
+    current (`conduction_current`) behind its emitter resistor R_E (and the output
+    capacitor, if any) into ``out``; a Darlington driver is a second hybrid-pi transistor
+    whose emitter drives the output device's base, biased at its base current. The bias
+    spreader between the drive and the two bases is a DC voltage, a short to the signal.
+    The network then gives
     (Horowitz & Hill, The Art of Electronics, 3rd ed., sec. 2.4.1-2.4.2, from memory)
     Z_in = r_bb' + (beta + 1)(r_e + R_E + Z_L) per half in conduction, times a further
     (beta_d + 1) for a Darlington, which is the textbook (beta + 1)(R_E + Z_L) as r_e and
     r_bb' go to zero; Z_out = R_E + r_e + (Z_s + r_bb')/(beta + 1); the peak base current
     the stage before must deliver is the stage's input current, I_pk/beta at the load.
 
-    r_e is taken at the quiescent current, its largest value in conduction: the gain and
-    output impedance are the conservative ends of their range (r_e falls as the current
-    rises; at idle both halves conduct and halve Z_out). The half modelled is the one of
-    lower current gain, which the stage before finds harder to drive.
+    r_e = V_T/I is taken at the peak current of the stage's own clip level into the load
+    (a few hundredths of an ohm), where the swing and drive figures are decided: the gain
+    and output impedance of a half in full conduction. Near idle (the crossover region,
+    signal currents under about 2 I_q) both halves conduct at I_q and the small-signal
+    output impedance is (R_E + r_e(I_q))/2 instead; the shot noise, a figure of the idle
+    stage, is taken at I_q. The half modelled is the one of lower current gain, which the
+    stage before finds harder to drive.
     """
 
     kind = "push_pull"
@@ -225,13 +251,21 @@ class PushPull(StageKind):
                 label=f"{name}.driver",
                 stage=name,
                 temperature_k=t,
+                noise_bias=model.idle_driver,
             )
         r_emitter = stage.number("emitter_resistors")
         output_cap = stage.optional("output_cap")
         after_resistor = node_out if output_cap is None else f"{name}.after_re"
         emitter = after_resistor if r_emitter <= 0.0 else f"{name}.emitter"
         current = stamp_transistor(
-            net, base, emitter, model.output, label=f"{name}.output", stage=name, temperature_k=t
+            net,
+            base,
+            emitter,
+            model.output,
+            label=f"{name}.output",
+            stage=name,
+            temperature_k=t,
+            noise_bias=model.idle_output,
         )
         if r_emitter > 0.0:
             net.resistor(

@@ -11,7 +11,7 @@ from chainbudget import fields as f
 from chainbudget.supplies.base import Corners, Supply, SupplyKind
 from chainbudget.supplies.state import NO_LOAD, LoadModel, SupplyLoad, SupplyState
 from chainbudget.supplymath import mains_factors, rectified_peak, ripple_vpp
-from chainbudget.units import UnitParseError, parse_fraction
+from chainbudget.units import UnitParseError, parse_fraction, parse_level
 
 # Rectifier drop at the peak of the charging current when the file gives none: about 0.9 V
 # per silicon diode at the few-amp peaks of a capacitor-input rectifier, two in a bridge's
@@ -30,6 +30,8 @@ def _read_tolerance(value: object) -> float:
 
 
 TOLERANCE = f.FieldKind("fraction or %", _read_tolerance, float)
+# The secondary is an rms voltage: "15 V" and "15 Vrms" are the same, "21.2 Vpk" too.
+SECONDARY = f.FieldKind("V rms", parse_level, lambda v: f"{v!r} Vrms")
 
 
 class Rectified(SupplyKind, LoadModel):
@@ -55,7 +57,7 @@ class Rectified(SupplyKind, LoadModel):
     kind = "rectified"
     summary = "mains transformer, rectifier and reservoir capacitor (unregulated)"
     fields = (
-        f.Field("secondary", f.POSITIVE_VOLTAGE, "secondary, V rms at nominal mains, rated load"),
+        f.Field("secondary", SECONDARY, "secondary, V rms at nominal mains, rated load"),
         f.Field("mains_tolerance", TOLERANCE, "mains tolerance either way (low/high line)", 0.1),
         f.Field("line_frequency", f.FREQUENCY, "mains frequency (50 Hz: the larger ripple)", 50.0),
         f.Field(

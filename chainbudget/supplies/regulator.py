@@ -15,6 +15,7 @@ from chainbudget.supplies.state import (
     state_from_corners,
 )
 from chainbudget.supplymath import adjustable_output, divider_current, ripple_after_regulator
+from chainbudget.units import UnitParseError
 
 # A classic three-terminal linear regulator needs about 2 V from input to output (common
 # practice, no source); a maximum junction of 125 degC is the usual rating of such parts
@@ -22,6 +23,18 @@ from chainbudget.supplymath import adjustable_output, divider_current, ripple_af
 DEFAULT_DROPOUT_V = 2.0
 DEFAULT_MAX_JUNCTION_DEGC = 125.0
 SERIES = ("E6", "E12", "E24", "E48", "E96")
+
+
+def _read_nonzero_voltage(value: object) -> float:
+    number = f.VOLTAGE.read(value)
+    if number == 0.0:
+        raise UnitParseError(value, "a voltage other than zero")
+    return number
+
+
+# Output and reference of a negative regulator may be written negative ("-15 V"); the
+# model works in magnitudes, like a dc supply named as a negative rail.
+NONZERO_VOLTAGE = f.FieldKind("V", _read_nonzero_voltage, f.VOLTAGE.write)
 
 
 class Regulator(SupplyKind, LoadModel):
@@ -50,8 +63,8 @@ class Regulator(SupplyKind, LoadModel):
     summary = "linear series regulator, fixed or adjustable (divider)"
     needs_parent = True
     fields = (
-        f.Field("output", f.POSITIVE_VOLTAGE, "fixed output (with a divider: the target)", None),
-        f.Field("reference", f.POSITIVE_VOLTAGE, "adjustable: output-to-adjust reference", None),
+        f.Field("output", NONZERO_VOLTAGE, "fixed output (with a divider: the target)", None),
+        f.Field("reference", NONZERO_VOLTAGE, "adjustable: output-to-adjust reference", None),
         f.Field("adjust_current", f.CURRENT, "adjustable: current out of the adjust pin", 0.0),
         f.Field("upper", f.RESISTANCE, "adjustable: adjust pin to ground", None),
         f.Field("lower", f.RESISTANCE, "adjustable: output to adjust pin (across reference)", None),
@@ -101,23 +114,29 @@ class Regulator(SupplyKind, LoadModel):
         if self.adjustable(supply):
             return float(
                 adjustable_output(
-                    supply.number("reference"),
+                    abs(supply.number("reference")),
                     supply.number("adjust_current"),
                     supply.number("upper"),
                     supply.number("lower"),
                 )
             )
-        return supply.number("output")
+        return abs(supply.number("output"))
+
+    def reference(self, supply: Supply) -> float | None:
+        """Reference voltage magnitude of an adjustable regulator, V (None when fixed)."""
+        reference = supply.optional("reference")
+        return None if reference is None else abs(reference)
 
     def target(self, supply: Supply) -> float | None:
         """The output an adjustable regulator's divider is meant to set, V, if given."""
-        return supply.optional("output") if self.adjustable(supply) else None
+        target = supply.optional("output")
+        return abs(target) if target is not None and self.adjustable(supply) else None
 
     def divider_current(self, supply: Supply) -> float:
         """Current the divider takes from the output, V_ref / lower, A (0 when fixed)."""
         if not self.adjustable(supply):
             return 0.0
-        return float(divider_current(supply.number("reference"), supply.number("lower")))
+        return float(divider_current(abs(supply.number("reference")), supply.number("lower")))
 
     def bleeder_current(self, supply: Supply) -> float:
         """Current in the bleeder resistor at the set output, A (0 without one)."""

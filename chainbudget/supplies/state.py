@@ -1,9 +1,8 @@
 """What a supply's output does under load: the loads the power tree puts on it and its state.
 
 A supply kind that models load (sag, ripple, transformer regulation, dropout) turns the
-load on its output into a `SupplyState`. `LoadedSupply` carries a solved load inside the
-chain, so that the rails every stage sees (``supplies.tree.supply_voltages``) are those of
-the loaded tree; without it a supply is taken unloaded.
+load on its output into a `SupplyState`; ``supplies.tree.supply_voltages`` gives the rails
+of the tree under a set of loads.
 """
 
 from __future__ import annotations
@@ -75,13 +74,6 @@ class SupplyState:
         return Corners(low=self.trough_v, nominal=self.nominal_v, high=self.crest_v)
 
 
-@dataclass(frozen=True)
-class LoadedSupply(Supply):
-    """A supply together with the load the power tree found on its output."""
-
-    load: SupplyLoad = NO_LOAD
-
-
 class LoadModel(ABC):
     """A supply kind whose output depends on its load (mixed into a `SupplyKind`)."""
 
@@ -104,16 +96,6 @@ def state_from_corners(corners: Corners) -> SupplyState:
         high_idle_v=corners.high,
         ripple_vpp=0.0,
     )
-
-
-def with_load(supply: Supply, load: SupplyLoad) -> LoadedSupply:
-    """``supply`` carrying ``load`` (replacing any load it carried)."""
-    return LoadedSupply(supply.index, supply.name, supply.kind, supply.values, load)
-
-
-def carried_load(supply: Supply) -> SupplyLoad:
-    """The load a supply carries, or no load."""
-    return supply.load if isinstance(supply, LoadedSupply) else NO_LOAD
 
 
 def dc_state(supply: Supply, load: SupplyLoad) -> SupplyState:

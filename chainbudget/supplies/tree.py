@@ -8,7 +8,6 @@ parent); voltages flow down (a regulator's input is its parent's output).
 from __future__ import annotations
 
 from collections.abc import Mapping
-from dataclasses import replace
 
 from chainbudget.chainfile import Chain
 from chainbudget.stages import KINDS as STAGE_KINDS
@@ -20,10 +19,8 @@ from chainbudget.supplies.state import (
     LoadModel,
     SupplyLoad,
     SupplyState,
-    carried_load,
     dc_state,
     state_from_corners,
-    with_load,
 )
 
 
@@ -73,34 +70,28 @@ def external_loads(chain: Chain, stage_loads: Mapping[str, SupplyLoad]) -> dict[
 def supply_states(
     chain: Chain, loads: Mapping[str, SupplyLoad] | None = None
 ) -> dict[str, SupplyState]:
-    """Output state of every supply under ``loads`` (default: the loads the chain carries,
-    none unless it came through `with_loads`)."""
+    """Output state of every supply under ``loads`` (default: no load)."""
+    loads = loads or {}
     found: dict[str, SupplyState] = {}
     for supply in parents_first(chain):
-        load = carried_load(supply) if loads is None else loads.get(supply.name, NO_LOAD)
+        load = loads.get(supply.name, NO_LOAD)
         parent = None if supply.parent is None else found[supply.parent]
         found[supply.name] = supply_state(supply, parent, load)
     return found
 
 
-def supply_voltages(chain: Chain) -> dict[str, Corners]:
-    """Output voltage magnitude of every supply at the three corners, V.
+def supply_voltages(
+    chain: Chain, loads: Mapping[str, SupplyLoad] | None = None
+) -> dict[str, Corners]:
+    """Output voltage magnitude of every supply at the three corners under ``loads``, V.
 
     ``low``: low line (low battery), heaviest load, ripple trough; ``nominal``: nominal line
-    and load, mean; ``high``: high line, no load. Under the loads the chain carries (see
-    `with_loads`); an unloaded chain gives the no-load voltages.
+    and load, mean; ``high``: high line, no load. Without loads: the no-load voltages.
     """
-    return {name: state.corners for name, state in supply_states(chain).items()}
+    return {name: state.corners for name, state in supply_states(chain, loads).items()}
 
 
-def with_loads(chain: Chain, loads: Mapping[str, SupplyLoad]) -> Chain:
-    """The same chain with each supply carrying its solved external load, so that the rails
-    every stage is analysed with are those of the loaded tree."""
-    supplies = tuple(with_load(s, loads.get(s.name, NO_LOAD)) for s in chain.supplies)
-    return replace(chain, supplies=supplies)
-
-
-def stage_rails(stage: Stage, voltages: dict[str, Corners], corner: str) -> Rails | None:
+def stage_rails(stage: Stage, voltages: Mapping[str, Corners], corner: str) -> Rails | None:
     """The rails of a stage at one corner (``"low"``, ``"nominal"`` or ``"high"``).
 
     A supply named as the negative rail sits below ground. The bias point is the stage's
