@@ -28,13 +28,15 @@ def catalogue() -> dict[str, Entry]:
         Entry("source", "[source]", "what feeds the first stage", SOURCE_FIELDS),
         Entry("load", "[load]", "the loudspeaker (or line load) at the end", LOAD_FIELDS),
         Entry("opamp", "[opamp.NAME]", "an op-amp part", OPAMP_FIELDS),
-        Entry("transistor", "[transistor.NAME]", "a bipolar transistor part",
-              TRANSISTOR_FIELDS),
+        Entry("transistor", "[transistor.NAME]", "a bipolar transistor part", TRANSISTOR_FIELDS),
     ]
     entries += [Entry(k.kind, "[[stage]]", k.summary, k.fields) for k in STAGE_KINDS.values()]
     for k in SUPPLY_KINDS.values():
-        head = (f.Field("from", f.NAME, "the supply this one is fed from"),) if (
-            k.needs_parent) else ()
+        head = (
+            (f.Field("from", f.NAME, "the supply this one is fed from"),)
+            if (k.needs_parent)
+            else ()
+        )
         entries.append(Entry(k.kind, "[[supply]]", k.summary, (*head, *k.fields)))
     return {e.name: e for e in entries}
 
@@ -56,10 +58,18 @@ def markdown(entries: dict[str, Entry]) -> str:
     """The catalogue as Markdown tables (the field reference of docs/format.md)."""
     lines: list[str] = []
     for e in entries.values():
-        lines += [f"### `{e.name}` ({e.table})", "", e.summary[0].upper() + e.summary[1:] + ".",
-                  "", "| field | unit or form | default | meaning |", "| --- | --- | --- | --- |"]
-        lines += [f"| `{fld.key}` | {fld.kind.unit} | {default_text(fld)} | {fld.meaning} |"
-                  for fld in e.fields]
+        lines += [
+            f"### `{e.name}` ({e.table})",
+            "",
+            e.summary[0].upper() + e.summary[1:] + ".",
+            "",
+            "| field | unit or form | default | meaning |",
+            "| --- | --- | --- | --- |",
+        ]
+        lines += [
+            f"| `{fld.key}` | {fld.kind.unit} | {default_text(fld)} | {fld.meaning} |"
+            for fld in e.fields
+        ]
         lines.append("")
     return "\n".join(lines)
 

@@ -35,8 +35,7 @@ STARTER = Path(__file__).parent / "templates" / "starter.toml"
 def _console() -> Console:
     """A console that is plain (no colour, fixed width) when not writing to a terminal."""
     tty = sys.stdout.isatty()
-    return Console(no_color=not tty, width=None if tty else 160, soft_wrap=not tty,
-                   highlight=False)
+    return Console(no_color=not tty, width=None if tty else 160, soft_wrap=not tty, highlight=False)
 
 
 def _fail(message: str) -> typer.Exit:
@@ -47,16 +46,23 @@ def _fail(message: str) -> typer.Exit:
 @app.command()
 def check(
     file: Annotated[Path, typer.Argument(help="chain file (TOML)")],
-    output_format: Annotated[str, typer.Option("--format", "-f",
-                                               help="table, json or toml")] = "table",
+    output_format: Annotated[
+        str, typer.Option("--format", "-f", help="table, json or toml")
+    ] = "table",
     strict: Annotated[bool, typer.Option(help="exit 1 on warnings too")] = False,
-    noise_detail: Annotated[bool, typer.Option(
-        "--noise-detail", help="also list the noise contributors at a few frequencies")] = False,
+    noise_detail: Annotated[
+        bool,
+        typer.Option(
+            "--noise-detail", help="also list the noise contributors at a few frequencies"
+        ),
+    ] = False,
 ) -> None:
     """Work out the budget of a chain and report it with its findings."""
     if output_format not in ("table", "json", "toml"):
-        raise _fail(f'--format: got "{output_format}", expected table, json or toml'
-                    + suggest(output_format, ("table", "json", "toml")))
+        raise _fail(
+            f'--format: got "{output_format}", expected table, json or toml'
+            + suggest(output_format, ("table", "json", "toml"))
+        )
     try:
         chain = load_chain(file)
     except ChainError as exc:
@@ -88,8 +94,11 @@ def blocks(
     entries = catalogue()
     console = _console()
     if kind is None:
-        table = Table(box=box.SIMPLE_HEAD, title="Kinds and tables (chainbudget blocks KIND "
-                      "for the fields)", title_justify="left")
+        table = Table(
+            box=box.SIMPLE_HEAD,
+            title="Kinds and tables (chainbudget blocks KIND for the fields)",
+            title_justify="left",
+        )
         for header in ("name", "where", "what"):
             table.add_column(header)
         for e in entries.values():
@@ -97,16 +106,19 @@ def blocks(
         console.print(table)
         return
     if kind not in entries:
-        raise _fail(f'unknown kind "{kind}"' + suggest(kind, entries) + "; known: "
-                    + ", ".join(entries))
+        raise _fail(
+            f'unknown kind "{kind}"' + suggest(kind, entries) + "; known: " + ", ".join(entries)
+        )
     e = entries[kind]
-    table = Table(box=box.SIMPLE_HEAD, title=escape(f"{e.name}  {e.table}: {e.summary}"),
-                  title_justify="left")
+    table = Table(
+        box=box.SIMPLE_HEAD, title=escape(f"{e.name}  {e.table}: {e.summary}"), title_justify="left"
+    )
     for header in ("field", "unit", "default", "meaning"):
         table.add_column(header)
     for fld in e.fields:
-        table.add_row(*(escape(text) for text in (fld.key, fld.kind.unit, default_text(fld),
-                                                  fld.meaning)))
+        table.add_row(
+            *(escape(text) for text in (fld.key, fld.kind.unit, default_text(fld), fld.meaning))
+        )
     console.print(table)
 
 

@@ -19,8 +19,19 @@ runner = CliRunner()
 
 # The keys the chain-format contract makes required in `check --format json`.
 TOP_KEYS = {"title", "reference_hz", "band_hz", "nodes", "findings"}
-NODE_KEYS = {"stage", "kind", "gain_db", "total_gain_db", "level_vrms", "clip_vpk",
-             "headroom_db", "worst_headroom_db", "worst_at", "zout_ohm", "zload_ohm"}
+NODE_KEYS = {
+    "stage",
+    "kind",
+    "gain_db",
+    "total_gain_db",
+    "level_vrms",
+    "clip_vpk",
+    "headroom_db",
+    "worst_headroom_db",
+    "worst_at",
+    "zout_ohm",
+    "zload_ohm",
+}
 
 
 def test_there_are_at_least_three_example_chains() -> None:
@@ -102,18 +113,26 @@ cap = "47n"
 BAD_CASES = {
     "wrong dimension": ('cap = "47n"', 'cap = "10 V"', 'stage[2] "bass".cap'),
     "bare number": ('outer = "10k"', "outer = 10000", 'stage[2] "bass".outer'),
-    "negative resistance": ('feedback = "10k"', 'feedback = "-10 kohm"',
-                            'stage[1] "pre".feedback'),
+    "negative resistance": ('feedback = "10k"', 'feedback = "-10 kohm"', 'stage[1] "pre".feedback'),
     "zero resistance": ('feedback = "10k"', 'feedback = "0 ohm"', 'stage[1] "pre".feedback'),
-    "position out of range": ('cap = "47n"', 'cap = "47n"\nposition = 1.5',
-                              'stage[2] "bass".position'),
+    "position out of range": (
+        'cap = "47n"',
+        'cap = "47n"\nposition = 1.5',
+        'stage[2] "bass".position',
+    ),
     "unknown field": ('cap = "47n"', 'cap = "47n"\ncapp = "1n"', 'stage[2] "bass".capp'),
     "unknown kind": ('kind = "tone_bass"', 'kind = "tone_bas"', 'stage[2] "bass".kind'),
     "missing field": ('pot = "100k"\n', "", 'stage[2] "bass".pot'),
-    "undefined rail": ('ground_leg = "1k"', 'ground_leg = "1k"\npositive = "rial"',
-                       'stage[1] "pre".positive'),
-    "undefined part": ('ground_leg = "1k"', 'ground_leg = "1k"\nopamp = "nosuch"',
-                       'stage[1] "pre".opamp'),
+    "undefined rail": (
+        'ground_leg = "1k"',
+        'ground_leg = "1k"\npositive = "rial"',
+        'stage[1] "pre".positive',
+    ),
+    "undefined part": (
+        'ground_leg = "1k"',
+        'ground_leg = "1k"\nopamp = "nosuch"',
+        'stage[1] "pre".opamp',
+    ),
     "bad level": ('level = "-10 dBV"', 'level = "loud"', "source.level"),
     "bad temperature": ('title = "t"', 'title = "t"\nambient = "hot"', "chain.ambient"),
 }
@@ -176,8 +195,15 @@ def test_new_writes_a_starter_that_checks_and_refuses_to_overwrite(tmp_path: Pat
 def test_blocks_lists_every_kind_and_the_fields_of_one() -> None:
     listing = runner.invoke(app, ["blocks"])
     assert listing.exit_code == 0
-    for kind in ("opamp_gain", "tone_bass", "tone_treble", "tone_two_band", "volume", "block",
-                 "dc"):
+    for kind in (
+        "opamp_gain",
+        "tone_bass",
+        "tone_treble",
+        "tone_two_band",
+        "volume",
+        "block",
+        "dc",
+    ):
         assert kind in listing.output
     one = runner.invoke(app, ["blocks", "tone_two_band"])
     assert one.exit_code == 0 and "treble_cap" in one.output and "bass_outer" in one.output
@@ -187,7 +213,9 @@ def test_blocks_lists_every_kind_and_the_fields_of_one() -> None:
 def test_python_dash_m_runs_and_pipes_plain_text() -> None:
     done = subprocess.run(
         [sys.executable, "-m", "chainbudget", "check", str(CHAINS[0])],
-        capture_output=True, text=True, check=False,
+        capture_output=True,
+        text=True,
+        check=False,
     )
     assert done.returncode in (0, 1)
     assert "\x1b[" not in done.stdout  # no colour codes when not a terminal

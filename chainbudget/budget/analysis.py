@@ -145,6 +145,14 @@ def analyse(
         fine[volume_index]["position"] = rotations[:, None]
         volume_sweep = solve_chain(chain, envs, frequency[:1], fine)
     return Analysis(
-        chain, frequency, voltages, envs, nominal, worst, tuple(swept), volume_index, rotations,
+        chain,
+        frequency,
+        voltages,
+        envs,
+        nominal,
+        worst,
+        tuple(swept),
+        volume_index,
+        rotations,
         volume_sweep,
     )

@@ -25,47 +25,76 @@ def rules(budget: Budget) -> list[Finding]:
         figures = {"headroom_db": node.headroom_db, "clip_vpk": node.clip_vpk or 0.0}
         limit = _limit_text(node.limit_what)
         if node.nominal_headroom_db < 0.0:
-            found.append(Finding(
-                "error", "clip-nominal", node.stage,
-                f"clips at the nominal level: {node.level_vrms * 2**0.5:.3g} V peak against a "
-                f"clip level of {node.clip_vpk:.3g} V{limit}, {-node.nominal_headroom_db:.1f} dB "
-                "over; lower this stage's gain or the gain before it, or raise its rails",
-                {**figures, "nominal_headroom_db": node.nominal_headroom_db}))
+            found.append(
+                Finding(
+                    "error",
+                    "clip-nominal",
+                    node.stage,
+                    f"clips at the nominal level: {node.level_vrms * 2**0.5:.3g} V peak against a "
+                    f"clip level of {node.clip_vpk:.3g} V{limit}, {-node.nominal_headroom_db:.1f} dB "
+                    "over; lower this stage's gain or the gain before it, or raise its rails",
+                    {**figures, "nominal_headroom_db": node.nominal_headroom_db},
+                )
+            )
         elif node.headroom_db < 0.0:
-            found.append(Finding(
-                "error", "clip-max", node.stage,
-                f"clips at max_level with the controls as set: "
-                f"{node.max_level_vrms * 2**0.5:.3g} V peak against {node.clip_vpk:.3g} V{limit}, "
-                f"{-node.headroom_db:.1f} dB over; take {-node.headroom_db:.1f} dB of gain out of "
-                "this stage or those before it, or raise its swing limit", figures))
+            found.append(
+                Finding(
+                    "error",
+                    "clip-max",
+                    node.stage,
+                    f"clips at max_level with the controls as set: "
+                    f"{node.max_level_vrms * 2**0.5:.3g} V peak against {node.clip_vpk:.3g} V{limit}, "
+                    f"{-node.headroom_db:.1f} dB over; take {-node.headroom_db:.1f} dB of gain out of "
+                    "this stage or those before it, or raise its swing limit",
+                    figures,
+                )
+            )
         elif node.headroom_db < THIN_HEADROOM_DB:
-            found.append(Finding(
-                "warning", "thin-headroom", node.stage,
-                f"only {node.headroom_db:.1f} dB of headroom at max_level{limit}; "
-                f"{THIN_HEADROOM_DB:g} dB is the usual margin: trim "
-                f"{THIN_HEADROOM_DB - node.headroom_db:.1f} dB of gain ahead of it", figures))
+            found.append(
+                Finding(
+                    "warning",
+                    "thin-headroom",
+                    node.stage,
+                    f"only {node.headroom_db:.1f} dB of headroom at max_level{limit}; "
+                    f"{THIN_HEADROOM_DB:g} dB is the usual margin: trim "
+                    f"{THIN_HEADROOM_DB - node.headroom_db:.1f} dB of gain ahead of it",
+                    figures,
+                )
+            )
         ahead_of_volume = volume_at is None or k < volume_at
         worst = node.worst
         if ahead_of_volume and worst is not None and worst.headroom_db < 0.0 <= node.headroom_db:
             settings = ", ".join(f"{key} = {value:g}" for key, value in worst.controls.items())
-            tail = "turning the volume down cannot save it" if volume_at is not None else (
-                "no volume control follows to save it")
-            found.append(Finding(
-                "warning", "clip-worst-case", node.stage,
-                f"clips at max_level by {-worst.headroom_db:.1f} dB at "
-                f"{worst.frequency_hz:.0f} Hz with {settings or 'the controls as set'} "
-                f"(limited by {worst.limited_by}); {tail}: reduce the gain before it or the "
-                "tone boost range", {"worst_headroom_db": worst.headroom_db,
-                                     "frequency_hz": worst.frequency_hz}))
+            tail = (
+                "turning the volume down cannot save it"
+                if volume_at is not None
+                else ("no volume control follows to save it")
+            )
+            found.append(
+                Finding(
+                    "warning",
+                    "clip-worst-case",
+                    node.stage,
+                    f"clips at max_level by {-worst.headroom_db:.1f} dB at "
+                    f"{worst.frequency_hz:.0f} Hz with {settings or 'the controls as set'} "
+                    f"(limited by {worst.limited_by}); {tail}: reduce the gain before it or the "
+                    "tone boost range",
+                    {"worst_headroom_db": worst.headroom_db, "frequency_hz": worst.frequency_hz},
+                )
+            )
     found += _clip_order(budget)
     found += _volume_rotation(budget)
     found += _boosts(budget)
     found += _supply_ranges(budget)
     found += [
-        Finding("error", "no-dc-path", f.stage,
-                f"the op-amp's {f.pin} has no DC path to a defined potential: its bias current "
-                "has nowhere to come from and the output drifts to a rail; add a bias "
-                "resistor to the bias point (common practice)")
+        Finding(
+            "error",
+            "no-dc-path",
+            f.stage,
+            f"the op-amp's {f.pin} has no DC path to a defined potential: its bias current "
+            "has nowhere to come from and the output drifts to a rail; add a bias "
+            "resistor to the bias point (common practice)",
+        )
         for f in budget.floating
     ]
     return found
@@ -81,11 +110,17 @@ def _clip_order(budget: Budget) -> list[Finding]:
     for other in budget.post_volume:
         margin = output.headroom_db - other.headroom_db
         if other.stage != output.stage and margin > 0.0:
-            found.append(Finding(
-                "warning", "clip-order", other.stage,
-                f"as the volume rises this stage clips {margin:.1f} dB before the output stage "
-                f'"{output.stage}" (at {other.frequency_hz:.0f} Hz); move gain from before it '
-                "to after it, or give it more swing", {"margin_db": margin}))
+            found.append(
+                Finding(
+                    "warning",
+                    "clip-order",
+                    other.stage,
+                    f"as the volume rises this stage clips {margin:.1f} dB before the output stage "
+                    f'"{output.stage}" (at {other.frequency_hz:.0f} Hz); move gain from before it '
+                    "to after it, or give it more swing",
+                    {"margin_db": margin},
+                )
+            )
     return found
 
 
@@ -94,25 +129,39 @@ def _volume_rotation(budget: Budget) -> list[Finding]:
     if vc is None:
         return []
     if vc.rotation is None:
-        return [Finding(
-            "note", "volume-never-clips", vc.stage,
-            f'even at full rotation the nominal level does not reach the clip level of '
-            f'"{vc.output_stage}": the chain has gain to spare only at max_level; add gain if '
-            "full output is wanted from nominal programme")]
-    return [Finding(
-        "note", "volume-clip-rotation", vc.stage,
-        f'the nominal level drives "{vc.output_stage}" to clipping from rotation '
-        f"{vc.rotation:.2f} of the volume control upwards", {"rotation": vc.rotation})]
+        return [
+            Finding(
+                "note",
+                "volume-never-clips",
+                vc.stage,
+                f"even at full rotation the nominal level does not reach the clip level of "
+                f'"{vc.output_stage}": the chain has gain to spare only at max_level; add gain if '
+                "full output is wanted from nominal programme",
+            )
+        ]
+    return [
+        Finding(
+            "note",
+            "volume-clip-rotation",
+            vc.stage,
+            f'the nominal level drives "{vc.output_stage}" to clipping from rotation '
+            f"{vc.rotation:.2f} of the volume control upwards",
+            {"rotation": vc.rotation},
+        )
+    ]
 
 
 def _boosts(budget: Budget) -> list[Finding]:
     return [
         Finding(
-            "warning", "boost-over-headroom", b.stage,
+            "warning",
+            "boost-over-headroom",
+            b.stage,
             f"full boost raises the gain to {b.boost_db:+.1f} dB at {b.frequency_hz:.0f} Hz, more "
             f'than the {b.upstream_headroom_db:.1f} dB of headroom at "{b.upstream_stage}": '
             "at max_level a full-boost setting clips; reduce the boost range or the gain ahead",
-            {"boost_db": b.boost_db, "upstream_headroom_db": b.upstream_headroom_db})
+            {"boost_db": b.boost_db, "upstream_headroom_db": b.upstream_headroom_db},
+        )
         for b in budget.boosts
         if b.boost_db > b.upstream_headroom_db
     ]
@@ -122,15 +171,25 @@ def _supply_ranges(budget: Budget) -> list[Finding]:
     found = []
     for r in budget.supply_ranges:
         if r.min_v is not None and r.total_v < r.min_v:
-            found.append(Finding(
-                "error", "opamp-supply-low", r.stage,
-                f'op-amp "{r.opamp}" runs from {r.total_v:.3g} V in total, below its minimum of '
-                f"{r.min_v:.3g} V; raise the supply or choose a low-voltage op-amp",
-                {"total_v": r.total_v, "min_v": r.min_v}))
+            found.append(
+                Finding(
+                    "error",
+                    "opamp-supply-low",
+                    r.stage,
+                    f'op-amp "{r.opamp}" runs from {r.total_v:.3g} V in total, below its minimum of '
+                    f"{r.min_v:.3g} V; raise the supply or choose a low-voltage op-amp",
+                    {"total_v": r.total_v, "min_v": r.min_v},
+                )
+            )
         if r.max_v is not None and r.total_v > r.max_v:
-            found.append(Finding(
-                "error", "opamp-supply-high", r.stage,
-                f'op-amp "{r.opamp}" runs from {r.total_v:.3g} V in total, above its maximum of '
-                f"{r.max_v:.3g} V; lower the supply or choose a higher-voltage op-amp",
-                {"total_v": r.total_v, "max_v": r.max_v}))
+            found.append(
+                Finding(
+                    "error",
+                    "opamp-supply-high",
+                    r.stage,
+                    f'op-amp "{r.opamp}" runs from {r.total_v:.3g} V in total, above its maximum of '
+                    f"{r.max_v:.3g} V; lower the supply or choose a higher-voltage op-amp",
+                    {"total_v": r.total_v, "max_v": r.max_v},
+                )
+            )
     return found

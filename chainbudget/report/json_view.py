@@ -34,7 +34,9 @@ def _node(node: NodeLevels) -> dict[str, Any]:
         "headroom_db": number(node.headroom_db),
         "nominal_headroom_db": number(node.nominal_headroom_db),
         "worst_headroom_db": None if worst is None else number(worst.headroom_db),
-        "worst_at": None if worst is None else {
+        "worst_at": None
+        if worst is None
+        else {
             "frequency_hz": worst.frequency_hz,
             "controls": dict(worst.controls),
             "limited_by": worst.limited_by,
@@ -78,8 +80,10 @@ def budget_json(budget: Budget, found: list[Finding]) -> dict[str, Any]:
         "reference_hz": budget.reference_hz,
         "band_hz": list(budget.band_hz),
         "ambient_degc": budget.ambient_degc,
-        "source": {"level_vrms": budget.source_level_vrms,
-                   "max_level_vrms": budget.source_max_level_vrms},
+        "source": {
+            "level_vrms": budget.source_level_vrms,
+            "max_level_vrms": budget.source_max_level_vrms,
+        },
         "nodes": nodes,
         "first_clip": budget.first_clip,
         "output_stage": budget.output_stage,

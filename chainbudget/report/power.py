@@ -74,7 +74,7 @@ def node_json(budget: Budget, k: int) -> dict[str, Any]:
     stage = budget.nodes[k].stage
     part: dict[str, Any] = {}
     currents = next((c for c in drive.currents if c.stage == stage), None)
-    if currents is not None:
+    if currents is not None and currents.positive is not None:
         part["rail_current_a"] = {
             "idle": currents.idle_a,
             "nominal": currents.nominal_a,
@@ -258,9 +258,10 @@ def cautions(budget: Budget) -> list[str]:
             "it cannot be touched or covered, keep air flowing, and check the temperature on "
             "the bench before closing the box."
         )
-    if out is not None and out.max_spl_db is not None and out.max_spl_db >= LOUD_SPL_DB:
+    spl = None if out is None else out.max_spl_db
+    if spl is not None and math.isfinite(spl) and spl >= LOUD_SPL_DB:
         found.append(
-            f"Loudness: this amplifier can reach about {out.max_spl_db:.0f} dB SPL at 1 m. "
+            f"Loudness: this amplifier can reach about {spl:.0f} dB SPL at 1 m. "
             f"Sustained listening above about {LOUD_SPL_DB:g} dB(A) damages hearing; keep "
             "listening levels well below the maximum, and follow local rules on noise at "
             "work and in public places."

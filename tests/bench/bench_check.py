@@ -29,13 +29,25 @@ def main() -> None:
             start = time.perf_counter()
             findings(compute(load_chain(chain_file)))
             times.append(time.perf_counter() - start)
-        print(f"{chain_file.name:36s} median {statistics.median(times) * 1e3:8.1f} ms   "
-              f"best {min(times) * 1e3:8.1f} ms")
+        print(
+            f"{chain_file.name:36s} median {statistics.median(times) * 1e3:8.1f} ms   "
+            f"best {min(times) * 1e3:8.1f} ms"
+        )
     start = time.perf_counter()
-    subprocess.run([sys.executable, "-m", "chainbudget", "check",
-                    str(ROOT / "chains" / "desk_speaker_preamp.toml")],
-                   capture_output=True, check=False)
-    print(f"{'command, desk_speaker_preamp (cold)':36s} {(time.perf_counter() - start) * 1e3:8.1f} ms")
+    subprocess.run(
+        [
+            sys.executable,
+            "-m",
+            "chainbudget",
+            "check",
+            str(ROOT / "chains" / "desk_speaker_preamp.toml"),
+        ],
+        capture_output=True,
+        check=False,
+    )
+    print(
+        f"{'command, desk_speaker_preamp (cold)':36s} {(time.perf_counter() - start) * 1e3:8.1f} ms"
+    )
 
 
 if __name__ == "__main__":
