@@ -24,7 +24,6 @@ from chainbudget.budget.staging import (
 )
 from chainbudget.budget.supplies import (
     SupplyFigures,
-    high_line_supply_ranges,
     loaded_analysis,
     supply_figures,
 )
@@ -53,7 +52,6 @@ class Budget:
     has_mains: bool
     noise: NoiseBudget | None = None
     supplies: tuple[SupplyFigures, ...] = ()
-    high_line_supply_ranges: tuple[SupplyRange, ...] = ()
     output: OutputFigures | None = None
     drive: DriveBudget | None = None
 
@@ -94,7 +92,6 @@ def budget_from(analysis: Analysis) -> Budget:
         has_mains=any(s.kind == "rectified" for s in chain.supplies),
         noise=noise_budget(analysis),
         supplies=supply_figures(analysis),
-        high_line_supply_ranges=high_line_supply_ranges(analysis),
         output=output_figures(analysis),
         drive=drive_budget(analysis),
     )

@@ -11,6 +11,7 @@ from chainbudget.budget.analysis import Analysis
 from chainbudget.budget.levels import SQRT2, NodeLevels, clip_source_peak, db, set_point_index
 from chainbudget.stages import KINDS
 from chainbudget.stages.base import opamp_part
+from chainbudget.supplies.tree import stage_rails, supply_voltages
 
 
 @dataclass(frozen=True)
@@ -36,11 +37,16 @@ class Boost:
 
 @dataclass(frozen=True)
 class SupplyRange:
-    """An op-amp stage's total supply against its part's rated range, V."""
+    """An op-amp stage's total supply, rail to rail, against its part's rated range, V.
+
+    ``low_total_v`` is at the analysed (low-line, loaded) rails, ``high_total_v`` at high
+    line with no load: the two ends the minimum and the maximum are checked against.
+    """
 
     stage: str
     opamp: str
-    total_v: float
+    low_total_v: float
+    high_total_v: float
     min_v: float | None
     max_v: float | None
 
@@ -108,14 +114,21 @@ def tone_boosts(analysis: Analysis, nodes: list[NodeLevels]) -> list[Boost]:
 
 
 def supply_ranges(analysis: Analysis) -> list[SupplyRange]:
-    """Total supply of every op-amp stage and its part's rated range."""
+    """Total supply of every op-amp stage at both ends, and its part's rated range."""
+    crest = supply_voltages(analysis.chain)  # high line, no load
     found = []
     for stage, env in zip(analysis.chain.stages, analysis.envs, strict=True):
-        if KINDS[stage.kind].uses_opamp and env.rails is not None:
+        high = stage_rails(stage, crest, "high")
+        if KINDS[stage.kind].uses_opamp and env.rails is not None and high is not None:
             part = opamp_part(stage, env)
             found.append(
                 SupplyRange(
-                    stage.name, part.name, env.rails.total, part.min_supply, part.max_supply
+                    stage.name,
+                    part.name,
+                    env.rails.total,
+                    high.total,
+                    part.min_supply,
+                    part.max_supply,
                 )
             )
     return found

@@ -28,11 +28,9 @@ from dataclasses import dataclass
 
 from chainbudget.budget.analysis import Analysis, analyse
 from chainbudget.budget.currents import stage_currents
-from chainbudget.budget.staging import SupplyRange
 from chainbudget.chainfile import Chain
 from chainbudget.eseries import best_divider
 from chainbudget.stages import KINDS as STAGE_KINDS
-from chainbudget.stages.base import opamp_part
 from chainbudget.supplies import KINDS
 from chainbudget.supplies.base import GROUND_SUPPLY, Corners, Supply
 from chainbudget.supplies.rectified import Rectified
@@ -358,23 +356,4 @@ def supply_figures(analysis: Analysis) -> tuple[SupplyFigures, ...]:
                 **extra,  # type: ignore[arg-type]
             )
         )
-    return tuple(found)
-
-
-def high_line_supply_ranges(analysis: Analysis) -> tuple[SupplyRange, ...]:
-    """Total supply of every op-amp stage at high line (no load), against its rated range.
-
-    The low-line totals are the analysed rails (`chainbudget.budget.staging.supply_ranges`);
-    these are the other end, for the maximum-supply check.
-    """
-    chain = analysis.chain
-    voltages = supply_voltages(chain)  # the crest: no load
-    found = []
-    for stage, env in zip(chain.stages, analysis.envs, strict=True):
-        rails = stage_rails(stage, voltages, "high")
-        if STAGE_KINDS[stage.kind].uses_opamp and rails is not None:
-            part = opamp_part(stage, env)
-            found.append(
-                SupplyRange(stage.name, part.name, rails.total, part.min_supply, part.max_supply)
-            )
     return tuple(found)

@@ -30,9 +30,10 @@ def rules(budget: Budget) -> list[Finding]:
                     "error",
                     "clip-nominal",
                     node.stage,
-                    f"clips at the nominal level: {node.level_vrms * 2**0.5:.3g} V peak against a "
-                    f"clip level of {node.clip_vpk:.3g} V{limit}, {-node.nominal_headroom_db:.1f} dB "
-                    "over; lower this stage's gain or the gain before it, or raise its rails",
+                    f"clips at the nominal level: {node.level_vrms * 2**0.5:.3g} V peak against "
+                    f"a clip level of {node.clip_vpk:.3g} V{limit}, "
+                    f"{-node.nominal_headroom_db:.1f} dB over; lower this stage's gain or the "
+                    "gain before it, or raise its rails",
                     {**figures, "nominal_headroom_db": node.nominal_headroom_db},
                 )
             )
@@ -42,10 +43,10 @@ def rules(budget: Budget) -> list[Finding]:
                     "error",
                     "clip-max",
                     node.stage,
-                    f"clips at max_level with the controls as set: "
-                    f"{node.max_level_vrms * 2**0.5:.3g} V peak against {node.clip_vpk:.3g} V{limit}, "
-                    f"{-node.headroom_db:.1f} dB over; take {-node.headroom_db:.1f} dB of gain out of "
-                    "this stage or those before it, or raise its swing limit",
+                    "clips at max_level with the controls as set: "
+                    f"{node.max_level_vrms * 2**0.5:.3g} V peak against {node.clip_vpk:.3g} V"
+                    f"{limit}, {-node.headroom_db:.1f} dB over; take {-node.headroom_db:.1f} dB "
+                    "of gain out of this stage or those before it, or raise its swing limit",
                     figures,
                 )
             )
@@ -170,26 +171,29 @@ def _boosts(budget: Budget) -> list[Finding]:
 def _supply_ranges(budget: Budget) -> list[Finding]:
     found = []
     for r in budget.supply_ranges:
-        if r.min_v is not None and r.total_v < r.min_v:
+        figures = {"low_total_v": r.low_total_v, "high_total_v": r.high_total_v}
+        if r.min_v is not None and r.low_total_v < r.min_v:
             found.append(
                 Finding(
                     "error",
                     "opamp-supply-low",
                     r.stage,
-                    f'op-amp "{r.opamp}" runs from {r.total_v:.3g} V in total, below its minimum of '
-                    f"{r.min_v:.3g} V; raise the supply or choose a low-voltage op-amp",
-                    {"total_v": r.total_v, "min_v": r.min_v},
+                    f'op-amp "{r.opamp}" runs from {r.low_total_v:.3g} V in total at low line, '
+                    f"below its minimum of {r.min_v:.3g} V; raise the supply or choose a low-voltage "
+                    "op-amp",
+                    {**figures, "min_v": r.min_v},
                 )
             )
-        if r.max_v is not None and r.total_v > r.max_v:
+        if r.max_v is not None and r.high_total_v > r.max_v:
             found.append(
                 Finding(
                     "error",
                     "opamp-supply-high",
                     r.stage,
-                    f'op-amp "{r.opamp}" runs from {r.total_v:.3g} V in total, above its maximum of '
-                    f"{r.max_v:.3g} V; lower the supply or choose a higher-voltage op-amp",
-                    {"total_v": r.total_v, "max_v": r.max_v},
+                    f'op-amp "{r.opamp}" runs from {r.high_total_v:.3g} V in total at high line '
+                    f"(no load), above its maximum of {r.max_v:.3g} V; lower the supply or choose a "
+                    "higher-voltage op-amp",
+                    {**figures, "max_v": r.max_v},
                 )
             )
     return found

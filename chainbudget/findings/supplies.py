@@ -211,8 +211,7 @@ def _battery(s: SupplyFigures) -> list[Finding]:
 
 
 def rules(budget: Budget) -> list[Finding]:
-    """Regulation, minimum load, junction, input limits, transformer rating, run time, and
-    the op-amps' maximum supply at high line."""
+    """Regulation, minimum load, junction, input limits, transformer rating, run time."""
     found: list[Finding] = []
     for s in budget.supplies:
         if s.kind == "regulator":
@@ -221,21 +220,4 @@ def rules(budget: Budget) -> list[Finding]:
             found += _rectified(s)
         elif s.kind == "dc":
             found += _battery(s)
-    low_line = {r.stage: r for r in budget.supply_ranges}
-    for r in budget.high_line_supply_ranges:
-        already = low_line.get(r.stage)
-        if already is not None and already.max_v is not None and already.total_v > already.max_v:
-            continue  # over its maximum even at low line: the level rules report it
-        if r.max_v is not None and r.total_v > r.max_v:
-            found.append(
-                Finding(
-                    "error",
-                    "opamp-supply-high",
-                    r.stage,
-                    f'op-amp "{r.opamp}" runs from {r.total_v:.3g} V in total at high line (no '
-                    f"load), above its maximum of {r.max_v:.3g} V; lower the supply or choose "
-                    "a higher-voltage op-amp",
-                    {"total_v": r.total_v, "max_v": r.max_v},
-                )
-            )
     return found
