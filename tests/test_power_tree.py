@@ -313,7 +313,9 @@ reservoir = "1000 uF"
     over = budget_of(rail.format(v="26 V") + opamp_stage("pre", "raw"))
     high = [f for f in findings(over) if f.code == "opamp-supply-high"]
     assert len(high) == 1 and high[0].severity == "error"
-    assert high[0].figures["high_total_v"] == pytest.approx(math.sqrt(2) * 26 * 1.1 - 1.8, rel=1e-12)
+    assert high[0].figures["high_total_v"] == pytest.approx(
+        math.sqrt(2) * 26 * 1.1 - 1.8, rel=1e-12
+    )
 
 
 def test_every_chain_with_a_rectified_supply_carries_the_mains_caution() -> None:

@@ -179,8 +179,8 @@ def _supply_ranges(budget: Budget) -> list[Finding]:
                     "opamp-supply-low",
                     r.stage,
                     f'op-amp "{r.opamp}" runs from {r.low_total_v:.3g} V in total at low line, '
-                    f"below its minimum of {r.min_v:.3g} V; raise the supply or choose a low-voltage "
-                    "op-amp",
+                    f"below its minimum of {r.min_v:.3g} V; raise the supply or choose a "
+                    "low-voltage op-amp",
                     {**figures, "min_v": r.min_v},
                 )
             )
@@ -191,8 +191,8 @@ def _supply_ranges(budget: Budget) -> list[Finding]:
                     "opamp-supply-high",
                     r.stage,
                     f'op-amp "{r.opamp}" runs from {r.high_total_v:.3g} V in total at high line '
-                    f"(no load), above its maximum of {r.max_v:.3g} V; lower the supply or choose a "
-                    "higher-voltage op-amp",
+                    f"(no load), above its maximum of {r.max_v:.3g} V; lower the supply or "
+                    "choose a higher-voltage op-amp",
                     {**figures, "max_v": r.max_v},
                 )
             )
