@@ -5,6 +5,7 @@ from __future__ import annotations
 import math
 
 _PREFIXES = (
+    (1e12, "T"),
     (1e9, "G"),
     (1e6, "M"),
     (1e3, "k"),
@@ -24,6 +25,8 @@ def eng(value: float | None, unit: str, digits: int = 3) -> str:
     if value == 0.0:
         return f"0 {unit}"
     magnitude = abs(value)
+    if magnitude >= 1e13:  # an open circuit in all but name (a node left to the 1e-15 S leak)
+        return f"> 10 T{unit}"
     scale, prefix = next(((s, p) for s, p in _PREFIXES if magnitude >= s * 0.9995), (1e-12, "p"))
     return f"{value / scale:.{digits}g} {prefix}{unit}"
 

@@ -153,8 +153,8 @@ class StageKind(ABC):
         return True
 
     def supply_current(self, stage: Stage, env: Environment) -> float:
-        """Quiescent current drawn from the positive rail, A."""
-        return 0.0
+        """Quiescent current flowing rail to rail, A (an op-amp stage: its section's)."""
+        return opamp_part(stage, env).supply_current if self.uses_opamp else 0.0
 
     def bias_point(self, stage: Stage) -> float | None:
         """The signal bias point the stage sets, V (None: mid-rail single supply, 0 V split).
@@ -283,7 +283,3 @@ def stamp_opamp(
             f"slew rate {part.slew_rate / 1e6:g} V/us",
         ),
     ]
-
-
-def opamp_supply_current(stage: Stage, env: Environment) -> float:
-    return opamp_part(stage, env).supply_current

@@ -15,7 +15,6 @@ from chainbudget.stages.base import (
     Environment,
     Stage,
     StageKind,
-    opamp_supply_current,
     stamp_opamp,
 )
 
@@ -131,6 +130,3 @@ class OpAmpGain(StageKind):
         if stage.values["input_cap"] is not None or not input_defined:
             return ["+ input"]
         return []
-
-    def supply_current(self, stage: Stage, env: Environment) -> float:
-        return opamp_supply_current(stage, env)

@@ -6,23 +6,12 @@ from collections.abc import Mapping
 
 from numpy.typing import ArrayLike
 
-from chainbudget.network import GROUND, Netlist
-from chainbudget.stages.base import (
-    OPAMP_FIELD,
-    RAIL_FIELDS,
-    SWEEP_FIELD,
-    Built,
-    Control,
-    Environment,
-    Stage,
-    StageKind,
-    opamp_supply_current,
-    stamp_opamp,
-)
-from chainbudget.stages.tone_networks import TONE_COMMON, bass_fields, pot_control, stamp_bass
+from chainbudget.network import Netlist
+from chainbudget.stages.base import Stage
+from chainbudget.stages.tone_networks import TONE_COMMON, FeedbackTone, bass_fields, stamp_bass
 
 
-class ToneBass(StageKind):
+class ToneBass(FeedbackTone):
     """Bass shelving stage.
 
     Notes
@@ -34,26 +23,17 @@ class ToneBass(StageKind):
 
     kind = "tone_bass"
     summary = "feedback bass shelving stage (inverting op-amp, pot and caps in the legs)"
-    uses_opamp = True
-    fields = (*bass_fields(""), *TONE_COMMON, SWEEP_FIELD, OPAMP_FIELD, *RAIL_FIELDS)
+    fields = (*bass_fields(""), *TONE_COMMON)
+    pots = ("",)
 
-    def controls(self, stage: Stage) -> list[Control]:
-        return [pot_control(stage, "")]
-
-    def build(
+    def stamp_networks(
         self,
         net: Netlist,
         stage: Stage,
-        env: Environment,
         node_in: str,
+        summing: str,
         node_out: str,
         positions: Mapping[str, ArrayLike],
-    ) -> Built:
-        built = Built()
-        summing = f"{stage.name}.sum"
-        stamp_bass(net, stage, "", node_in, summing, node_out, positions, env.temperature_k)
-        stamp_opamp(net, stage, env, GROUND, summing, node_out, built)
-        return built
-
-    def supply_current(self, stage: Stage, env: Environment) -> float:
-        return opamp_supply_current(stage, env)
+        temperature_k: float,
+    ) -> None:
+        stamp_bass(net, stage, "", node_in, summing, node_out, positions, temperature_k)

@@ -11,13 +11,27 @@ reciprocal responses.
 
 from __future__ import annotations
 
+from abc import abstractmethod
 from collections.abc import Mapping
+from typing import ClassVar
 
 from numpy.typing import ArrayLike
 
 from chainbudget import fields as f
-from chainbudget.network import Netlist
-from chainbudget.stages.base import END_RESISTANCE_FIELD, Control, Stage, taper_fraction
+from chainbudget.network import GROUND, Netlist
+from chainbudget.stages.base import (
+    END_RESISTANCE_FIELD,
+    OPAMP_FIELD,
+    RAIL_FIELDS,
+    SWEEP_FIELD,
+    Built,
+    Control,
+    Environment,
+    Stage,
+    StageKind,
+    stamp_opamp,
+    taper_fraction,
+)
 
 
 def bass_fields(prefix: str) -> tuple[f.Field, ...]:
@@ -169,4 +183,46 @@ def stamp_treble(
         )
 
 
-TONE_COMMON = (END_RESISTANCE_FIELD,)
+TONE_COMMON = (END_RESISTANCE_FIELD, SWEEP_FIELD, OPAMP_FIELD, *RAIL_FIELDS)
+
+
+class FeedbackTone(StageKind):
+    """A feedback tone stage: networks around an inverting op-amp's summing node.
+
+    A kind lists the key prefixes of its pots in ``pots`` and stamps its networks in
+    ``stamp_networks``; the op-amp, its + input at the bias point, is common.
+    """
+
+    uses_opamp = True
+    pots: ClassVar[tuple[str, ...]]
+
+    def controls(self, stage: Stage) -> list[Control]:
+        return [pot_control(stage, prefix) for prefix in self.pots]
+
+    @abstractmethod
+    def stamp_networks(
+        self,
+        net: Netlist,
+        stage: Stage,
+        node_in: str,
+        summing: str,
+        node_out: str,
+        positions: Mapping[str, ArrayLike],
+        temperature_k: float,
+    ) -> None:
+        """Stamp the tone networks between the input, the summing node and the output."""
+
+    def build(
+        self,
+        net: Netlist,
+        stage: Stage,
+        env: Environment,
+        node_in: str,
+        node_out: str,
+        positions: Mapping[str, ArrayLike],
+    ) -> Built:
+        built = Built()
+        summing = f"{stage.name}.sum"
+        self.stamp_networks(net, stage, node_in, summing, node_out, positions, env.temperature_k)
+        stamp_opamp(net, stage, env, GROUND, summing, node_out, built)
+        return built

@@ -6,28 +6,17 @@ from collections.abc import Mapping
 
 from numpy.typing import ArrayLike
 
-from chainbudget.network import GROUND, Netlist
-from chainbudget.stages.base import (
-    OPAMP_FIELD,
-    RAIL_FIELDS,
-    SWEEP_FIELD,
-    Built,
-    Control,
-    Environment,
-    Stage,
-    StageKind,
-    opamp_supply_current,
-    stamp_opamp,
-)
+from chainbudget.network import Netlist
+from chainbudget.stages.base import Stage
 from chainbudget.stages.tone_networks import (
     TONE_COMMON,
-    pot_control,
+    FeedbackTone,
     stamp_treble,
     treble_fields,
 )
 
 
-class ToneTreble(StageKind):
+class ToneTreble(FeedbackTone):
     """Treble shelving stage.
 
     Notes
@@ -40,38 +29,22 @@ class ToneTreble(StageKind):
 
     kind = "tone_treble"
     summary = "feedback treble shelving stage (inverting op-amp, pot fed through caps)"
-    uses_opamp = True
-    fields = (
-        *treble_fields("", with_outer=True),
-        *TONE_COMMON,
-        SWEEP_FIELD,
-        OPAMP_FIELD,
-        *RAIL_FIELDS,
-    )
+    fields = (*treble_fields("", with_outer=True), *TONE_COMMON)
+    pots = ("",)
 
-    def controls(self, stage: Stage) -> list[Control]:
-        return [pot_control(stage, "")]
-
-    def build(
+    def stamp_networks(
         self,
         net: Netlist,
         stage: Stage,
-        env: Environment,
         node_in: str,
+        summing: str,
         node_out: str,
         positions: Mapping[str, ArrayLike],
-    ) -> Built:
-        built = Built()
-        name, t = stage.name, env.temperature_k
-        summing = f"{name}.sum"
-        outer = stage.number("outer")
-        net.resistor(node_in, summing, outer, label=f"{name}.outer_in", stage=name, temperature_k=t)
-        net.resistor(
-            summing, node_out, outer, label=f"{name}.outer_out", stage=name, temperature_k=t
-        )
-        stamp_treble(net, stage, "", node_in, summing, node_out, positions, t)
-        stamp_opamp(net, stage, env, GROUND, summing, node_out, built)
-        return built
-
-    def supply_current(self, stage: Stage, env: Environment) -> float:
-        return opamp_supply_current(stage, env)
+        temperature_k: float,
+    ) -> None:
+        name, outer = stage.name, stage.number("outer")
+        for a, b, leg in ((node_in, summing, "outer_in"), (summing, node_out, "outer_out")):
+            net.resistor(
+                a, b, outer, label=f"{name}.{leg}", stage=name, temperature_k=temperature_k
+            )
+        stamp_treble(net, stage, "", node_in, summing, node_out, positions, temperature_k)

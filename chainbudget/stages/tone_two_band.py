@@ -6,30 +6,19 @@ from collections.abc import Mapping
 
 from numpy.typing import ArrayLike
 
-from chainbudget.network import GROUND, Netlist
-from chainbudget.stages.base import (
-    OPAMP_FIELD,
-    RAIL_FIELDS,
-    SWEEP_FIELD,
-    Built,
-    Control,
-    Environment,
-    Stage,
-    StageKind,
-    opamp_supply_current,
-    stamp_opamp,
-)
+from chainbudget.network import Netlist
+from chainbudget.stages.base import Stage
 from chainbudget.stages.tone_networks import (
     TONE_COMMON,
+    FeedbackTone,
     bass_fields,
-    pot_control,
     stamp_bass,
     stamp_treble,
     treble_fields,
 )
 
 
-class ToneTwoBand(StageKind):
+class ToneTwoBand(FeedbackTone):
     """Two-band feedback tone stage.
 
     Notes
@@ -41,34 +30,18 @@ class ToneTwoBand(StageKind):
 
     kind = "tone_two_band"
     summary = "bass and treble feedback tone controls around one op-amp"
-    uses_opamp = True
-    fields = (
-        *bass_fields("bass_"),
-        *treble_fields("treble_", with_outer=False),
-        *TONE_COMMON,
-        SWEEP_FIELD,
-        OPAMP_FIELD,
-        *RAIL_FIELDS,
-    )
+    fields = (*bass_fields("bass_"), *treble_fields("treble_", with_outer=False), *TONE_COMMON)
+    pots = ("bass_", "treble_")
 
-    def controls(self, stage: Stage) -> list[Control]:
-        return [pot_control(stage, "bass_"), pot_control(stage, "treble_")]
-
-    def build(
+    def stamp_networks(
         self,
         net: Netlist,
         stage: Stage,
-        env: Environment,
         node_in: str,
+        summing: str,
         node_out: str,
         positions: Mapping[str, ArrayLike],
-    ) -> Built:
-        built = Built()
-        summing, t = f"{stage.name}.sum", env.temperature_k
-        stamp_bass(net, stage, "bass_", node_in, summing, node_out, positions, t)
-        stamp_treble(net, stage, "treble_", node_in, summing, node_out, positions, t)
-        stamp_opamp(net, stage, env, GROUND, summing, node_out, built)
-        return built
-
-    def supply_current(self, stage: Stage, env: Environment) -> float:
-        return opamp_supply_current(stage, env)
+        temperature_k: float,
+    ) -> None:
+        stamp_bass(net, stage, "bass_", node_in, summing, node_out, positions, temperature_k)
+        stamp_treble(net, stage, "treble_", node_in, summing, node_out, positions, temperature_k)
