@@ -32,10 +32,16 @@ from chainbudget.chainfile import Chain
 from chainbudget.eseries import best_divider
 from chainbudget.stages import KINDS as STAGE_KINDS
 from chainbudget.supplies import KINDS
-from chainbudget.supplies.base import GROUND_SUPPLY, Corners, Supply
+from chainbudget.supplies.base import (
+    GROUND_SUPPLY,
+    NO_LOAD,
+    Corners,
+    Supply,
+    SupplyLoad,
+    SupplyState,
+)
 from chainbudget.supplies.rectified import Rectified
 from chainbudget.supplies.regulator import Regulator
-from chainbudget.supplies.state import NO_LOAD, SupplyLoad, SupplyState
 from chainbudget.supplies.tree import (
     external_loads,
     input_load,

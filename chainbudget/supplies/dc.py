@@ -3,7 +3,8 @@
 from __future__ import annotations
 
 from chainbudget import fields as f
-from chainbudget.supplies.base import Corners, Supply, SupplyKind
+from chainbudget.supplies.base import Supply, SupplyKind, SupplyLoad, SupplyState
+from chainbudget.supplymath import sag
 
 
 class DcSupply(SupplyKind):
@@ -27,11 +28,32 @@ class DcSupply(SupplyKind):
         f.Field("capacity", f.CHARGE, "battery capacity, for run time", None),
     )
 
-    def output(self, supply: Supply, parent: Corners | None) -> Corners:
+    def state(self, supply: Supply, parent: SupplyState | None, load: SupplyLoad) -> SupplyState:
+        """Output of a battery or bench supply under load.
+
+        Notes
+        -----
+        A Thevenin source, emf E in series with its internal resistance R, gives E - R I at
+        the terminals (:func:`chainbudget.supplymath.sag`; Horowitz & Hill, The Art of
+        Electronics, 3rd ed., ch. 1, from memory). The low end (``min_voltage``) sags under
+        the heaviest load, the nominal voltage under the nominal load; the high end
+        (``max_voltage``) is taken unloaded. No ripple.
+        """
         nominal = abs(supply.number("voltage"))
-        low, high = supply.optional("min_voltage"), supply.optional("max_voltage")
-        return Corners(
-            low=nominal if low is None else abs(low),
-            nominal=nominal,
-            high=nominal if high is None else abs(high),
+        low = supply.optional("min_voltage")
+        high = supply.optional("max_voltage")
+        low_v = nominal if low is None else abs(low)
+        high_v = nominal if high is None else abs(high)
+        r = supply.number("resistance")
+
+        def terminal(emf: float, current: float) -> float:
+            return max(float(sag(emf, r, current)), 0.0)
+
+        return SupplyState(
+            trough_v=terminal(low_v, load.heaviest_a),
+            nominal_v=terminal(nominal, load.nominal_a),
+            crest_v=high_v,
+            high_heavy_v=terminal(high_v, load.heaviest_a),
+            high_idle_v=terminal(high_v, load.idle_a),
+            ripple_vpp=0.0,
         )

@@ -8,8 +8,7 @@ licensed practice.
 from __future__ import annotations
 
 from chainbudget import fields as f
-from chainbudget.supplies.base import Corners, Supply, SupplyKind
-from chainbudget.supplies.state import NO_LOAD, LoadModel, SupplyLoad, SupplyState
+from chainbudget.supplies.base import Supply, SupplyKind, SupplyLoad, SupplyState
 from chainbudget.supplymath import mains_factors, rectified_peak, ripple_vpp
 from chainbudget.units import UnitParseError, parse_fraction, parse_level
 
@@ -34,7 +33,7 @@ TOLERANCE = f.FieldKind("fraction or %", _read_tolerance, float)
 SECONDARY = f.FieldKind("V rms", parse_level, lambda v: f"{v!r} Vrms")
 
 
-class Rectified(SupplyKind, LoadModel):
+class Rectified(SupplyKind):
     """Capacitor-input rectifier from a mains transformer.
 
     Notes
@@ -116,7 +115,7 @@ class Rectified(SupplyKind, LoadModel):
     def line_factors(self, supply: Supply) -> tuple[float, float, float]:
         return mains_factors(supply.number("mains_tolerance"))
 
-    # --- SupplyKind / LoadModel -----------------------------------------------------------
+    # --- SupplyKind -----------------------------------------------------------------------
 
     def state(self, supply: Supply, parent: SupplyState | None, load: SupplyLoad) -> SupplyState:
         low, nominal, high = self.line_factors(supply)
@@ -133,9 +132,6 @@ class Rectified(SupplyKind, LoadModel):
             high_idle_v=mean(high, idle),
             ripple_vpp=self.ripple(supply, heavy),
         )
-
-    def output(self, supply: Supply, parent: Corners | None) -> Corners:
-        return self.state(supply, None, NO_LOAD).corners
 
     # --- what it would take to raise the trough --------------------------------------------
 

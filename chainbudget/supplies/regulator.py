@@ -6,14 +6,7 @@ from collections.abc import Mapping
 from typing import Any
 
 from chainbudget import fields as f
-from chainbudget.supplies.base import Corners, Supply, SupplyKind
-from chainbudget.supplies.state import (
-    NO_LOAD,
-    LoadModel,
-    SupplyLoad,
-    SupplyState,
-    state_from_corners,
-)
+from chainbudget.supplies.base import Supply, SupplyKind, SupplyLoad, SupplyState
 from chainbudget.supplymath import adjustable_output, divider_current, ripple_after_regulator
 from chainbudget.units import UnitParseError
 
@@ -37,7 +30,7 @@ def _read_nonzero_voltage(value: object) -> float:
 NONZERO_VOLTAGE = f.FieldKind("V", _read_nonzero_voltage, f.VOLTAGE.write)
 
 
-class Regulator(SupplyKind, LoadModel):
+class Regulator(SupplyKind):
     """Linear series regulator fed from another supply.
 
     Notes
@@ -162,7 +155,7 @@ class Regulator(SupplyKind, LoadModel):
             return theta_jc + supply.number("heatsink")
         return supply.optional("theta_ja")
 
-    # --- SupplyKind / LoadModel -----------------------------------------------------------
+    # --- SupplyKind -----------------------------------------------------------------------
 
     def input_load(self, supply: Supply, load: SupplyLoad) -> SupplyLoad:
         return self.delivered(supply, load).plus(self.own_current(supply))
@@ -189,7 +182,3 @@ class Regulator(SupplyKind, LoadModel):
             high_idle_v=follow(parent.high_idle_v),
             ripple_vpp=ripple,
         )
-
-    def output(self, supply: Supply, parent: Corners | None) -> Corners:
-        assert parent is not None, "a regulator always has a parent (the loader sees to it)"
-        return self.state(supply, state_from_corners(parent), NO_LOAD).corners

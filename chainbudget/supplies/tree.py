@@ -13,14 +13,13 @@ from chainbudget.chainfile import Chain
 from chainbudget.stages import KINDS as STAGE_KINDS
 from chainbudget.stages.base import Rails, Stage
 from chainbudget.supplies import KINDS
-from chainbudget.supplies.base import GROUND_SUPPLY, Corners, Supply
-from chainbudget.supplies.state import (
+from chainbudget.supplies.base import (
+    GROUND_SUPPLY,
     NO_LOAD,
-    LoadModel,
+    Corners,
+    Supply,
     SupplyLoad,
     SupplyState,
-    dc_state,
-    state_from_corners,
 )
 
 
@@ -40,18 +39,12 @@ def parents_first(chain: Chain) -> list[Supply]:
 
 def supply_state(supply: Supply, parent: SupplyState | None, load: SupplyLoad) -> SupplyState:
     """One supply's output state given its parent's state and its external load."""
-    kind = KINDS[supply.kind]
-    if isinstance(kind, LoadModel):
-        return kind.state(supply, parent, load)
-    if supply.kind == "dc":
-        return dc_state(supply, load)
-    return state_from_corners(kind.output(supply, None if parent is None else parent.corners))
+    return KINDS[supply.kind].state(supply, parent, load)
 
 
 def input_load(supply: Supply, load: SupplyLoad) -> SupplyLoad:
     """Current a supply draws from its parent given its external load (a root: none)."""
-    kind = KINDS[supply.kind]
-    return kind.input_load(supply, load) if isinstance(kind, LoadModel) else NO_LOAD
+    return KINDS[supply.kind].input_load(supply, load)
 
 
 def external_loads(chain: Chain, stage_loads: Mapping[str, SupplyLoad]) -> dict[str, SupplyLoad]:
