@@ -57,15 +57,20 @@ def stage_currents(analysis: Analysis) -> list[StageCurrents]:
     level (see the module notes for the model of each kind)."""
     nominal = analysis.nominal
     found = []
+    # A stage that clips limits the signal every later stage sees: the nominal source peak
+    # that reaches stage k is capped by the clip levels of stage k and those before it.
+    reaching = SQRT2 * analysis.chain.source.level
     for k, (sol, env) in enumerate(zip(nominal.stages, analysis.envs, strict=True)):
         stage = sol.stage
         idle = KINDS[stage.kind].supply_current(stage, env)
         clip = clip_source_peak(nominal, k)
+        if clip is not None:
+            reaching = min(reaching, float(clip[0][..., 0]))
         per_volt = sum(
             (float(np.abs(nominal.probe(k, probe)[..., 0])) for probe in class_b_probes(sol)),
             0.0,
         )
-        signal_nominal = per_volt * SQRT2 * analysis.chain.source.level / np.pi
+        signal_nominal = per_volt * reaching / np.pi
         signal_clip = 0.0 if clip is None else per_volt * float(clip[0][..., 0]) / np.pi
         found.append(
             StageCurrents(
