@@ -437,3 +437,17 @@ def test_supply_kinds_round_trip_through_toml(name: str) -> None:
     chain = load_chain(ROOT / "chains" / f"{name}.toml")
     again = parse_chain(tomllib.loads(tomli_w.dumps(chain_to_dict(chain))), "again.toml")
     assert again.same_model(chain)
+
+
+def test_missing_transformer_regulation_is_noted_and_giving_it_clears_the_note() -> None:
+    """With no `regulation` the crest is the rated-load voltage; small transformers rise
+    10-25 % off load (common practice, no source), so the report says the crest checks are
+    optimistic; with `regulation` given the crest rises by that fraction at no load."""
+    without = budget_of(RAW_18V + load_block("amp", "raw", "1 A"))
+    assert "transformer-regulation-unknown" in codes(without)
+    given = RAW_18V + 'regulation = "15 %"\nrated_current = "2 A"\n'
+    with_regulation = budget_of(given + load_block("amp", "raw", "1 A"))
+    assert "transformer-regulation-unknown" not in codes(with_regulation)
+    # The no-load crest rises by the full 15 % of the peak (sqrt(2) 18 V at high line).
+    rise = supply(with_regulation, "raw").output_max_v - supply(without, "raw").output_max_v
+    assert rise == pytest.approx(0.15 * ROOT2 * 18.0 * 1.1, rel=1e-9)

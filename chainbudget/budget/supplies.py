@@ -151,6 +151,7 @@ class SupplyFigures:
     dropout_suggestion: DropoutSuggestion | None = None
     # rectified
     transformer_load_fraction: float | None = None
+    transformer_regulation: float | None = None
     # dc
     sag_v: float | None = None
     capacity_ah: float | None = None
@@ -329,6 +330,7 @@ def supply_figures(analysis: Analysis) -> tuple[SupplyFigures, ...]:
                 )
             )
         elif isinstance(kind, Rectified):
+            extra["transformer_regulation"] = supply.number("regulation")
             rated = supply.optional("rated_current")
             if rated is not None:
                 extra["transformer_load_fraction"] = load.heaviest_a / rated

@@ -159,8 +159,25 @@ def _regulator(s: SupplyFigures, ambient_degc: float) -> list[Finding]:
     return found
 
 
+# Off-load rise of small mains transformers (common practice, no source).
+TYPICAL_REGULATION = (0.10, 0.25)
+
+
 def _rectified(s: SupplyFigures) -> list[Finding]:
     found: list[Finding] = []
+    if s.transformer_regulation == 0.0:
+        found.append(
+            Finding(
+                "note",
+                "transformer-regulation-unknown",
+                None,
+                f'supply "{s.name}" has no transformer regulation: its no-load crest is taken at '
+                "the rated-load secondary voltage, while small transformers rise some "
+                f"{TYPICAL_REGULATION[0]:.0%} to {TYPICAL_REGULATION[1]:.0%} off load (common "
+                "practice, no source); give `regulation` so the crest checks (regulator "
+                "max_input, op-amp max_supply) see the real figure",
+            )
+        )
     fraction = s.transformer_load_fraction
     if fraction is not None and fraction * RMS_PER_DC_AMP > 1.0:
         found.append(
