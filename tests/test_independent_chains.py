@@ -390,7 +390,19 @@ def test_line_chain_worst_headroom_with_the_volume_full_up(tmp_path: Path) -> No
     assert_db(post["worst_headroom_db"], worst2, LEVEL_DB_TOL, "post worst_headroom_db")
     assert post["worst_at"]["controls"]["vol.position"] == pytest.approx(rotations[r_at, 0])
     assert rotations[r_at, 0] == 1.0
-    assert post["worst_at"]["frequency_hz"] == pytest.approx(f[0, f_at], rel=1e-6)
+    # The response is flat across the band, so the minimum is a plateau: the tool reports the
+    # point of it nearest the settings as set (reference frequency first) among points within
+    # 0.01 dB of the minimum. The hand headroom there must be that close to the minimum.
+    f_rep = np.array([[post["worst_at"]["frequency_hz"]]])
+    h_rep = line_chain_hand(f_rep, np.array([[post["worst_at"]["controls"]["vol.position"]]]))
+    with np.errstate(divide="ignore"):
+        at_reported = float(
+            db20(
+                opamp_clip(f_rep, 15.0, LINE_AMP, h_rep["v2"] / h_rep["i2"])
+                / (v_max_pk * h_rep["v2"])
+            )[0, 0]
+        )
+    assert at_reported - worst2 <= 0.01 + 1e-4
     assert_db(
         node(data, "pre")["worst_headroom_db"],
         float(np.min(head1)),

@@ -50,6 +50,7 @@ class Budget:
     supply_ranges: tuple[SupplyRange, ...]
     floating: tuple[FloatingInput, ...]
     has_mains: bool
+    sweep_points: int
     noise: NoiseBudget | None = None
     supplies: tuple[SupplyFigures, ...] = ()
     output: OutputFigures | None = None
@@ -90,6 +91,7 @@ def budget_from(analysis: Analysis) -> Budget:
         supply_ranges=tuple(supply_ranges(analysis)),
         floating=tuple(floating_inputs(analysis)),
         has_mains=any(s.kind == "rectified" for s in chain.supplies),
+        sweep_points=analysis.sweep_points,
         noise=noise_budget(analysis),
         supplies=supply_figures(analysis),
         output=output_figures(analysis),

@@ -24,6 +24,10 @@ from chainbudget.supplies.tree import stage_rails, supply_voltages
 
 # Rotations tried for each swept pot in the worst-case search (and the setting itself).
 SWEEP_POINTS = 11
+# The search solves every combination of swept rotations at once; past this many
+# combinations each pot gets fewer rotations (never fewer than 0, 0.5 and 1) so that memory
+# stays within a few hundred MB (docs/performance.md).
+MAX_COMBINATIONS = 30_000
 # Rotations tried for the volume pot when finding where the output starts to clip.
 VOLUME_POINTS = 401
 
@@ -49,6 +53,7 @@ class Analysis:
     nominal: Cascade
     swept: Cascade
     swept_controls: tuple[SweptControl, ...]
+    sweep_points: int
     volume_index: int | None
     volume_rotations: NDArray[np.float64]
     volume_sweep: Cascade | None
@@ -108,6 +113,15 @@ def solve_chain(
     return cascade(solutions, chain.source.impedance, chain.load.impedance)
 
 
+def sweep_points(n_pots: int) -> int:
+    """Rotations per pot so that the grid of all swept pots stays within MAX_COMBINATIONS
+    (counting the setting and mid rotation each pot adds); at least 3 (0, 0.5, 1)."""
+    points = SWEEP_POINTS
+    while points > 3 and (points + 2) ** n_pots > MAX_COMBINATIONS:
+        points -= 1
+    return points
+
+
 def analyse(
     chain: Chain, corner: str = "nominal", voltages: Mapping[str, Corners] | None = None
 ) -> Analysis:
@@ -123,12 +137,19 @@ def analyse(
     as_set = _positions_as_set(chain)
     nominal = solve_chain(chain, envs, frequency, list(as_set))
 
-    swept: list[SweptControl] = []
-    for k, stage in enumerate(chain.stages):
-        for control in KINDS[stage.kind].controls(stage):
-            if control.sweep:
-                rotations = np.unique(np.r_[np.linspace(0.0, 1.0, SWEEP_POINTS), control.position])
-                swept.append(SweptControl(k, control, len(swept), rotations))
+    swept_pots = [
+        (k, control)
+        for k, stage in enumerate(chain.stages)
+        for control in KINDS[stage.kind].controls(stage)
+        if control.sweep
+    ]
+    points = sweep_points(len(swept_pots))
+    swept = [
+        SweptControl(
+            k, control, axis, np.unique(np.r_[np.linspace(0.0, 1.0, points), 0.5, control.position])
+        )
+        for axis, (k, control) in enumerate(swept_pots)
+    ]
     n_axes = len(swept)
     grid_positions: list[dict[str, object]] = [dict(p) for p in as_set]
     for sc in swept:
@@ -152,6 +173,7 @@ def analyse(
         nominal,
         worst,
         tuple(swept),
+        points,
         volume_index,
         rotations,
         volume_sweep,

@@ -130,8 +130,7 @@ def _worst_case(analysis: Analysis, swept: Cascade, k: int) -> WorstCase:
     clip = clip_source_peak(swept, k)
     assert clip is not None
     peak, which = clip
-    flat = int(np.argmin(peak))
-    where = np.unravel_index(flat, peak.shape)
+    where = _least_surprising_minimum(analysis, peak)
     # Controls after this node matter only through loading; the search covers them, the
     # report names the settings of this stage and the ones before it.
     controls = {
@@ -148,6 +147,27 @@ def _worst_case(analysis: Analysis, swept: Cascade, k: int) -> WorstCase:
         controls=controls,
         limited_by=limit.name,
     )
+
+
+# Worst cases within this much of the minimum are taken as ties (dB).
+TIE_DB = 0.01
+
+
+def _least_surprising_minimum(analysis: Analysis, peak: NDArray[np.float64]) -> tuple[np.intp, ...]:
+    """Index of the minimum of ``peak``, preferring among near-ties (within TIE_DB) the
+    reference frequency and the settings as set, so that a flat stage reports where the
+    designer is, not an arbitrary point of a plateau."""
+    tied = peak <= peak.min() * 10.0 ** (TIE_DB / 20.0)
+    distance = np.zeros(peak.shape)
+    for sc in analysis.swept_controls:
+        shape = [1] * peak.ndim
+        shape[sc.axis] = peak.shape[sc.axis]
+        if peak.shape[sc.axis] > 1:
+            distance = distance + np.abs(sc.rotations - sc.control.position).reshape(shape)
+    off_reference = np.ones(peak.shape[-1])
+    off_reference[0] = 0.0
+    distance = distance + off_reference
+    return np.unravel_index(int(np.argmin(np.where(tied, distance, np.inf))), peak.shape)
 
 
 @dataclass(frozen=True)

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from chainbudget.budget import Budget
+from chainbudget.budget.analysis import SWEEP_POINTS
 from chainbudget.findings.base import Finding
 
 # Headroom at max level below this is a thin margin (chain-format contract: "headroom under
@@ -83,6 +84,18 @@ def rules(budget: Budget) -> list[Finding]:
                     {"worst_headroom_db": worst.headroom_db, "frequency_hz": worst.frequency_hz},
                 )
             )
+    if budget.sweep_points < SWEEP_POINTS:
+        found.append(
+            Finding(
+                "note",
+                "coarse-search",
+                None,
+                f"with this many swept pots the worst-case search tries {budget.sweep_points} "
+                "rotations of each (plus its setting and mid rotation) instead of "
+                f"{SWEEP_POINTS}; set `sweep = false` on trimmers to search the others finer",
+                {"rotations": float(budget.sweep_points)},
+            )
+        )
     found += _clip_order(budget)
     found += _volume_rotation(budget)
     found += _boosts(budget)

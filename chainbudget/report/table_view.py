@@ -34,35 +34,29 @@ def _control_text(stage: str, label: str, rotation: float) -> str:
 
 
 def node_table(budget: Budget) -> Table:
-    """One row per node: gain, level, clip level, headroom nominal and worst."""
+    """One row per node: gain, level, clip level and what sets it, headroom nominal and worst."""
     table = Table(
-        title="Signal path (headroom of max_level; worst over band and controls)",
+        title="Signal path (headroom of max_level: at the reference as set; worst over band and "
+        "controls)",
         box=box.SIMPLE_HEAD,
         title_justify="left",
     )
     for header, justify in (
         ("stage", "left"),
-        ("kind", "left"),
         ("gain dB", "right"),
         ("total dB", "right"),
-        ("level", "right"),
+        ("level rms", "right"),
         ("dBu", "right"),
         ("clip pk", "right"),
         ("limit", "left"),
-        ("headroom", "right"),
-        ("worst", "right"),
-        ("worst at", "left"),
+        ("headroom dB", "right"),
+        ("worst dB", "right"),
     ):
-        table.add_column(header, justify=justify, no_wrap=True)  # type: ignore[arg-type]
+        # Figures never shrink below their header on a narrow terminal.
+        table.add_column(header, justify=justify, no_wrap=True, min_width=len(header))  # type: ignore[arg-type]
     for n in budget.nodes:
-        worst = n.worst
-        worst_at = DASH
-        if worst is not None:
-            turned = " ".join(_control_text(n.stage, key, v) for key, v in worst.controls.items())
-            worst_at = f"{eng(worst.frequency_hz, 'Hz')} {turned}".strip()
         table.add_row(
             n.stage,
-            n.kind,
             decibels(n.gain_db),
             decibels(n.total_gain_db),
             eng(n.level_vrms, "V"),
@@ -70,10 +64,25 @@ def node_table(budget: Budget) -> Table:
             eng(n.clip_vpk, "V"),
             n.limited_by or DASH,
             decibels(n.headroom_db),
-            decibels(None if worst is None else worst.headroom_db),
-            worst_at,
+            decibels(None if n.worst is None else n.worst.headroom_db),
         )
     return table
+
+
+def worst_case_lines(budget: Budget) -> list[str]:
+    """Where each node's worst case occurs: frequency, settings and the limit that binds."""
+    lines = []
+    for n in budget.nodes:
+        w = n.worst
+        if w is None:
+            continue
+        turned = " ".join(_control_text(n.stage, key, v) for key, v in w.controls.items())
+        where = f"{eng(w.frequency_hz, 'Hz')}" + (f", {turned}" if turned else "")
+        lines.append(
+            f"  {n.stage} ({n.kind}): {decibels(w.headroom_db)} dB at {where}; "
+            f"limited by {w.limited_by}"
+        )
+    return lines
 
 
 def loading_table(budget: Budget) -> Table:
@@ -108,6 +117,11 @@ def render(budget: Budget, found: list[Finding], console: Console) -> None:
         highlight=False,
     )
     console.print(node_table(budget))
+    lines = worst_case_lines(budget)
+    if lines:
+        console.print("Worst cases:", highlight=False)
+        for line in lines:
+            console.print(line, highlight=False, markup=False)
     if budget.first_clip is not None:
         console.print(f"First to clip at max_level: {budget.first_clip}", highlight=False)
     console.print(loading_table(budget))

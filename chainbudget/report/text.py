@@ -35,4 +35,6 @@ def decibels(value: float | None, signed: bool = True) -> str:
     """A dB figure to one decimal, or a dash."""
     if value is None or not math.isfinite(value):
         return DASH
-    return f"{value:+.1f}" if signed else f"{value:.1f}"
+    if abs(value) < 0.05:
+        value = 0.0  # no "-0.0" for a flat stage
+    return f"{value:+.1f}" if signed and value != 0.0 else f"{value:.1f}"
