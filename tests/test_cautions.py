@@ -1,0 +1,63 @@
+"""The report's safety cautions: mains, hot parts, loudness."""
+
+from __future__ import annotations
+
+import tomllib
+
+from chainbudget.budget import compute
+from chainbudget.chainfile import parse_chain
+from chainbudget.report.cautions import HOT_PART_W, cautions
+
+BASE = """
+[source]
+level = "-10 dBV"
+impedance = "1k"
+[load]
+impedance = "8 ohm"
+[[supply]]
+name = "raw"
+kind = "rectified"
+secondary = "18 V"
+reservoir = "4700u"
+regulation = "10 %"
+[[supply]]
+name = "reg"
+kind = "regulator"
+from = "raw"
+output = "12 V"
+theta_ja = "50 K/W"
+[[stage]]
+name = "amp"
+kind = "block"
+gain = "20 dB"
+input_impedance = "10k"
+output_impedance = "0.1 ohm"
+max_output = "{max_output}"
+supply_current = "{current}"
+positive = "reg"
+"""
+
+
+def texts(max_output: str, current: str) -> list[str]:
+    data = tomllib.loads(BASE.format(max_output=max_output, current=current))
+    return cautions(compute(parse_chain(data, "t.toml")))
+
+
+def test_a_mains_chain_always_carries_the_mains_caution() -> None:
+    assert any(t.startswith("Mains:") for t in texts("1 V", "10 mA"))
+
+
+def test_a_regulator_dissipating_watts_carries_a_hot_parts_caution() -> None:
+    """0.4 A through a 12 V regulator from a ~22 V reservoir is several watts (P = (V_in -
+    V_out) I, any linear-regulator text); 10 mA is a fraction of a watt."""
+    hot = [t for t in texts("1 V", "0.4 A") if t.startswith('Hot parts: regulator "reg"')]
+    assert len(hot) == 1
+    cool = [t for t in texts("1 V", "10 mA") if t.startswith('Hot parts: regulator "reg"')]
+    assert cool == []
+
+
+def test_a_power_block_driving_the_speaker_carries_a_hot_parts_caution() -> None:
+    """10 V peak into 8 ohm is 6.25 W (P = V_pk^2 / 2R); 1 V peak is 62.5 mW."""
+    assert HOT_PART_W < 6.25
+    assert any(t.startswith('Hot parts: "amp"') for t in texts("10 V", "10 mA"))
+    assert not any(t.startswith('Hot parts: "amp"') for t in texts("1 V", "10 mA"))
