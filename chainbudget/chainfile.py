@@ -225,6 +225,8 @@ def _supplies(reader: _Reader, data: Mapping[str, Any]) -> tuple[Supply, ...]:
         values = reader.read(item, schema, path, skip=("name", "kind"))
         for key in spec.missing(values):
             raise reader.error(f"{path}.{key}", _missing(schema, key))
+        for key, message in spec.problems(values):
+            raise reader.error(f"{path}.{key}", message)
         if name == GROUND_SUPPLY or any(s.name == name for s in found):
             raise reader.error(f"{path}.name", f'"{name}" is already defined')
         found.append(Supply(index, name, kind, values))
@@ -277,7 +279,7 @@ def _stages(
         for key, message in spec.part_problems(values, transistors):
             raise reader.error(f"{path}.{key}", message)
         if "positive" in values:
-            if values["positive"] is None and spec.uses_rails:
+            if values["positive"] is None and spec.needs_rail(values):
                 if len(supplies) != 1:
                     why = "more than one supply; name the rail" if supplies else "no [[supply]]"
                     raise reader.error(

@@ -173,6 +173,16 @@ CHARGE = FieldKind("Ah", _positive(_quantity(units.CHARGE), "a capacity"), _with
 TEMPERATURE = FieldKind("degC", units.parse_temperature, _with_unit("degC"))
 LEVEL = FieldKind("level (Vrms, Vpk, Vpp, dBV, dBu)", units.parse_level, _with_unit("Vrms"))
 GAIN = FieldKind("dB or ratio", units.parse_gain, float)
+
+
+def _read_nonzero_gain(value: object) -> float:
+    gain = units.parse_gain(value)
+    if gain == 0.0:
+        raise UnitParseError(value, 'a voltage gain other than zero, such as "26 dB" or 20')
+    return gain
+
+
+NONZERO_GAIN = FieldKind("dB or ratio", _read_nonzero_gain, float)
 DECIBELS = FieldKind("dB", units.parse_db, _with_unit("dB"))
 FRACTION = FieldKind("fraction or %", _non_negative(units.parse_fraction, "a fraction"), float)
 RATIO = FieldKind("number", _positive(units.parse_fraction, "a number"), float)

@@ -298,3 +298,33 @@ def test_positive_quantities_write_back_exactly(kind: f.FieldKind, value: float)
 def test_temperature_writes_back_exactly(value: float) -> None:
     """Property: degC (an offset unit) reads back what it wrote."""
     assert math.isclose(f.TEMPERATURE.read(f.TEMPERATURE.write(value)), value, rel_tol=0.0)
+
+
+def test_a_block_with_zero_gain_is_refused(tmp_path: Path) -> None:
+    """A gain of zero would make every later node silent and every ratio undefined."""
+    error = _error(tmp_path, 'gain = "26 dB"', "gain = 0")
+    assert error.path.endswith(".gain") and "other than zero" in error.message
+
+
+def test_a_block_drawing_current_must_land_on_a_rail(tmp_path: Path) -> None:
+    """With two supplies, a block that draws current must say which one it draws from."""
+    error = _error(tmp_path, 'max_output = "12 V"', 'max_output = "12 V"\nsupply_current = "0.2 A"')
+    assert error.path.endswith(".positive")
+
+
+@pytest.mark.parametrize(
+    ("extra", "key"),
+    [
+        ('voltage = "15 V"\nmin_voltage = "16 V"', "min_voltage"),
+        ('voltage = "15 V"\nmax_voltage = "14 V"', "max_voltage"),
+        ('voltage = "15 V"\nmin_voltage = "-12 V"', "min_voltage"),
+        ('voltage = "0 V"', "voltage"),
+    ],
+)
+def test_dc_supply_ends_must_bracket_its_voltage(tmp_path: Path, extra: str, key: str) -> None:
+    error = _error(
+        tmp_path,
+        'name = "minus"\nkind = "dc"\nvoltage = "15 V"',
+        f'name = "minus"\nkind = "dc"\n{extra}',
+    )
+    assert error.path == f'supply[2] "minus".{key}'

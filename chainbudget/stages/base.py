@@ -164,6 +164,10 @@ class StageKind(ABC):
         """
         return stage.optional("bias")
 
+    def needs_rail(self, values: Mapping[str, Any]) -> bool:
+        """Whether the stage must name its positive rail (or take the only supply)."""
+        return self.uses_rails
+
     def part_problems(
         self, values: Mapping[str, Any], transistors: Mapping[str, Transistor]
     ) -> list[tuple[str, str]]:

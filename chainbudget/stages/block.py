@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from collections.abc import Mapping
+from typing import Any
 
 from numpy.typing import ArrayLike
 
@@ -26,7 +27,9 @@ class Block(StageKind):
     summary = "measured or datasheet black box (gain, impedances, noise, limit)"
     uses_rails = False
     fields = (
-        f.Field("gain", f.GAIN, "unloaded voltage gain, dB or ratio (negative ratio inverts)"),
+        f.Field(
+            "gain", f.NONZERO_GAIN, "unloaded voltage gain, dB or ratio (negative ratio inverts)"
+        ),
         f.Field("input_impedance", f.RESISTANCE, "input impedance (resistive)"),
         f.Field("output_impedance", f.RESISTANCE_OR_ZERO, "output impedance (resistive)"),
         f.Field("noise", f.NOISE_VOLTAGE, "input-referred noise density", 0.0),
@@ -34,6 +37,10 @@ class Block(StageKind):
         f.Field("supply_current", f.CURRENT, "current drawn from its positive rail", 0.0),
         *RAIL_FIELDS,
     )
+
+    def needs_rail(self, values: Mapping[str, Any]) -> bool:
+        """A block's model ignores its rails, but the current it draws must land on one."""
+        return bool(values.get("supply_current"))
 
     def build(
         self,

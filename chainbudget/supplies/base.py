@@ -132,3 +132,7 @@ class SupplyKind(ABC):
     def missing(self, values: Mapping[str, Any]) -> list[str]:
         """Keys that the other values make required."""
         return []
+
+    def problems(self, values: Mapping[str, Any]) -> list[tuple[str, str]]:
+        """(key, message) for values that are valid alone but not together."""
+        return []

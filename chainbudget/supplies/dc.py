@@ -2,6 +2,9 @@
 
 from __future__ import annotations
 
+from collections.abc import Mapping
+from typing import Any
+
 from chainbudget import fields as f
 from chainbudget.supplies.base import Supply, SupplyKind, SupplyLoad, SupplyState
 from chainbudget.supplymath import sag
@@ -27,6 +30,23 @@ class DcSupply(SupplyKind):
         f.Field("resistance", f.RESISTANCE_OR_ZERO, "internal resistance", 0.0),
         f.Field("capacity", f.CHARGE, "battery capacity, for run time", None),
     )
+
+    def problems(self, values: Mapping[str, Any]) -> list[tuple[str, str]]:
+        """The voltage is not zero; the low and high ends have its sign and bracket it."""
+        nominal = values["voltage"]
+        if nominal == 0.0:
+            return [("voltage", "got 0 V, expected a voltage other than zero")]
+        found = []
+        for key, low_end in (("min_voltage", True), ("max_voltage", False)):
+            end = values.get(key)
+            if end is None:
+                continue
+            if end * nominal <= 0.0:
+                found.append((key, f"got {end:g} V, expected the sign of voltage ({nominal:g} V)"))
+            elif (abs(end) > abs(nominal)) if low_end else (abs(end) < abs(nominal)):
+                side = "at most" if low_end else "at least"
+                found.append((key, f"got {end:g} V, expected {side} voltage ({nominal:g} V)"))
+        return found
 
     def state(self, supply: Supply, parent: SupplyState | None, load: SupplyLoad) -> SupplyState:
         """Output of a battery or bench supply under load.
