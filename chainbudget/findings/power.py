@@ -5,6 +5,7 @@ from __future__ import annotations
 from chainbudget.budget import Budget
 from chainbudget.budget.power import Dissipation, DriveBudget, OutputFigures
 from chainbudget.findings.base import Finding
+from chainbudget.notation import amps, ohms, watts
 
 # Drive current within this factor of the limit leaves a thin margin: 6 dB, the same
 # allowance the contract asks of voltage headroom at max level (common practice, no source).
@@ -15,18 +16,6 @@ DRIVE_MARGIN = 0.5
 JUNCTION_MARGIN_K = 25.0
 # Voltage headroom under this is thin (contract: "headroom under 6 dB at max level").
 THIN_HEADROOM_DB = 6.0
-
-
-def _ma(current: float | None) -> str:
-    return "?" if current is None else f"{current * 1e3:.3g} mA"
-
-
-def _ohm(value: float) -> str:
-    return f"{value / 1e3:.3g} kohm" if value >= 1e3 else f"{value:.3g} ohm"
-
-
-def _w(power: float | None) -> str:
-    return "?" if power is None else f"{power:.3g} W"
 
 
 def rules(budget: Budget) -> list[Finding]:
@@ -65,8 +54,8 @@ def _drive(budget: Budget, drive: DriveBudget) -> list[Finding]:
                     h.driver,
                     f'runs out of current driving the output stage "{h.stage}": at the output '
                     f"stage's clip level of {h.output_clip_vpk:.3g} V peak it would have to "
-                    f"deliver {_ma(h.needed_a)} (the output stage's base current is "
-                    f"{_ma(h.base_current_a)}, I_pk/beta) but has {_ma(h.available_a)}, so it "
+                    f"deliver {amps(h.needed_a)} (the output stage's base current is "
+                    f"{amps(h.base_current_a)}, I_pk/beta) but has {amps(h.available_a)}, so it "
                     f"clips first, at {h.driver_clip_output_vpk or 0.0:.3g} V peak at the "
                     f"output; {cure}, or use Darlington output devices",
                     {**figures, "driver_clip_output_vpk": h.driver_clip_output_vpk or 0.0},
@@ -83,9 +72,9 @@ def _drive(budget: Budget, drive: DriveBudget) -> list[Finding]:
                     "drive-margin",
                     h.driver,
                     f'drives the output stage "{h.stage}" to its clip level with '
-                    f"{_ma(h.needed_a)} of its {_ma(h.available_a)}: less than 6 dB of current "
+                    f"{amps(h.needed_a)} of its {amps(h.available_a)}: less than 6 dB of current "
                     f"in hand (the output stage's peak base current is "
-                    f"{_ma(h.base_current_a)}); {cure} for margin",
+                    f"{amps(h.base_current_a)}); {cure} for margin",
                     figures,
                 )
             )
@@ -104,10 +93,10 @@ def _drive(budget: Budget, drive: DriveBudget) -> list[Finding]:
                     "warning",
                     "opamp-current",
                     op.stage,
-                    f"at max_level the op-amp ({op.opamp}) must deliver {_ma(op.worst_a)} peak "
+                    f"at max_level the op-amp ({op.opamp}) must deliver {amps(op.worst_a)} peak "
                     f"at {op.worst_hz:.0f} Hz (worst over the band and the controls), over its "
-                    f"{_ma(op.limit_a)}; it clips on current there: raise the impedance it "
-                    f"drives ({_ohm(op.load_ohm)} at the reference, its feedback network "
+                    f"{amps(op.limit_a)}; it clips on current there: raise the impedance it "
+                    f"drives ({ohms(op.load_ohm)} at the reference, its feedback network "
                     "included) or buffer it",
                     {**figures, "frequency_hz": op.worst_hz},
                 )
@@ -118,9 +107,9 @@ def _drive(budget: Budget, drive: DriveBudget) -> list[Finding]:
                     "warning",
                     "opamp-current-margin",
                     op.stage,
-                    f"at max_level the op-amp ({op.opamp}) delivers up to {_ma(op.worst_a)} "
-                    f"peak (at {op.worst_hz:.0f} Hz) of its {_ma(op.limit_a)}: less than 6 dB "
-                    f"in hand; raise the impedance it drives ({_ohm(op.load_ohm)} at the "
+                    f"at max_level the op-amp ({op.opamp}) delivers up to {amps(op.worst_a)} "
+                    f"peak (at {op.worst_hz:.0f} Hz) of its {amps(op.limit_a)}: less than 6 dB "
+                    f"in hand; raise the impedance it drives ({ohms(op.load_ohm)} at the "
                     "reference, feedback network included)",
                     figures,
                 )
@@ -134,7 +123,7 @@ def _drive(budget: Budget, drive: DriveBudget) -> list[Finding]:
                     "follower-off",
                     fo.stage,
                     f"the follower has no working bias (emitter at {fo.emitter_v:.3g} V, "
-                    f"{_ma(fo.i_e_a)}): its base bias leaves no room to a rail; set base_bias "
+                    f"{amps(fo.i_e_a)}): its base bias leaves no room to a rail; set base_bias "
                     "between the rails with room for V_BE and the swing",
                     {"i_e_a": fo.i_e_a, "emitter_v": fo.emitter_v},
                 )
@@ -153,7 +142,7 @@ def _drive(budget: Budget, drive: DriveBudget) -> list[Finding]:
                 "warning" if thin else "note",
                 "follower-cut-off",
                 fo.stage,
-                f"clips first on the bias side: with {_ma(fo.i_e_a)} of bias current the "
+                f"clips first on the bias side: with {amps(fo.i_e_a)} of bias current the "
                 f"transistor cuts off at {fo.cut_off_vpk:.3g} V peak into its load "
                 "(I_E times the emitter resistor in parallel with the load); raise the bias "
                 "current or bias it with a current sink",
@@ -195,14 +184,14 @@ def _output(budget: Budget, out: OutputFigures) -> list[Finding]:
         if out.clip_stage != out.stage and out.output_stage_clip_power_w is not None:
             own = (
                 f'; the output stage "{out.stage}" alone could give '
-                f"{_w(out.output_stage_clip_power_w)}"
+                f"{watts(out.output_stage_clip_power_w)}"
             )
         found.append(
             Finding(
                 "note",
                 "max-output",
                 out.clip_stage,
-                f"sets the maximum output: {_w(out.clip_power_w)} into {out.load_ohm:g} ohm "
+                f"sets the maximum output: {watts(out.clip_power_w)} into {out.load_ohm:g} ohm "
                 f"({out.clip_vpk:.3g} V peak, limited by {out.clip_limit}){own}",
                 {"clip_power_w": out.clip_power_w, "clip_vpk": out.clip_vpk},
             )
@@ -219,9 +208,10 @@ def _heat(d: Dissipation) -> list[Finding]:
                 "reactive-load",
                 d.stage,
                 f"with the load's phase of {d.load_phase_deg:.0f} deg the worst dissipation "
-                f"per device is {_w(d.worst_device_w)} against {_w(d.resistive_worst_device_w)} "
-                "into a resistor of the same impedance: the devices draw the same supply "
-                "current while less of the power reaches the load",
+                f"per device is {watts(d.worst_device_w)} against "
+                f"{watts(d.resistive_worst_device_w)} into a resistor of the same "
+                "impedance: the devices draw the same supply current while less of the "
+                "power reaches the load",
                 {"device_w": d.worst_device_w, "resistive_device_w": d.resistive_worst_device_w},
             )
         )
@@ -242,7 +232,7 @@ def _thermal(d: Dissipation) -> list[Finding]:
                 "note",
                 "heat-unknown",
                 d.stage,
-                f"each output device dissipates up to {_w(d.worst_device_w)} (worst sine "
+                f"each output device dissipates up to {watts(d.worst_device_w)} (worst sine "
                 f"level, {d.worst_vpk:.3g} V peak); give theta_jc and heatsink (or theta_ja) "
                 f"to check its junction temperature{sink}",
                 figures,
@@ -264,7 +254,7 @@ def _thermal(d: Dissipation) -> list[Finding]:
                 "junction-over",
                 d.stage,
                 f"output device junction reaches {d.junction_degc:.0f} degC at the worst sine "
-                f"level ({_w(d.worst_device_w)} per device, high-line rails), over its "
+                f"level ({watts(d.worst_device_w)} per device, high-line rails), over its "
                 f"{d.max_junction_degc:g} degC maximum{sink}, or lower the rails or the "
                 "quiescent current",
                 figures,
@@ -277,7 +267,7 @@ def _thermal(d: Dissipation) -> list[Finding]:
                 "junction-near",
                 d.stage,
                 f"output device junction reaches {d.junction_degc:.0f} degC at the worst sine "
-                f"level ({_w(d.worst_device_w)} per device), within {JUNCTION_MARGIN_K:g} K "
+                f"level ({watts(d.worst_device_w)} per device), within {JUNCTION_MARGIN_K:g} K "
                 f"of its {d.max_junction_degc:g} degC maximum{sink}",
                 figures,
             )

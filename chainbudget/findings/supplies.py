@@ -5,6 +5,7 @@ from __future__ import annotations
 from chainbudget.budget import Budget
 from chainbudget.budget.supplies import SupplyFigures
 from chainbudget.findings.base import Finding
+from chainbudget.notation import amps
 
 # A capacitor-input rectifier draws its charge in short peaks, so the transformer's rms
 # current is well above the dc load: about 1.8x for a bridge (common practice, no source;
@@ -17,10 +18,6 @@ LARGE_RIPPLE_FRACTION = 0.2
 # A dropout margin under this is in regulation on paper only: the part's dropout, the
 # mains and the diodes all spread (our design allowance, not from a source).
 THIN_DROPOUT_MARGIN_V = 0.5
-
-
-def _ma(current_a: float) -> str:
-    return f"{current_a * 1e3:.3g} mA"
 
 
 def _regulator(s: SupplyFigures, ambient_degc: float) -> list[Finding]:
@@ -70,11 +67,11 @@ def _regulator(s: SupplyFigures, ambient_degc: float) -> list[Finding]:
                     "warning",
                     "regulator-min-load",
                     None,
-                    f'regulator "{s.name}" delivers only {_ma(s.idle_load_a)} at idle (divider '
-                    f"{_ma(s.divider_a or 0.0)} included) against its minimum load of "
-                    f"{_ma(s.min_load_a)}: below it the output can drift up out of "
+                    f'regulator "{s.name}" delivers only {amps(s.idle_load_a)} at idle (divider '
+                    f"{amps(s.divider_a or 0.0)} included) against its minimum load of "
+                    f"{amps(s.min_load_a)}: below it the output can drift up out of "
                     f'regulation; add a bleeder = "{b.resistance_ohm:g} ohm" ({b.series}) '
-                    f"across the output: it draws {_ma(b.current_a)} and dissipates "
+                    f"across the output: it draws {amps(b.current_a)} and dissipates "
                     f"{b.power_w * 1e3:.3g} mW (use a part rated for twice that)",
                     {
                         "idle_load_a": s.idle_load_a,
@@ -220,8 +217,8 @@ def _battery(s: SupplyFigures) -> list[Finding]:
             "battery-runtime",
             None,
             f'battery "{s.name}" ({s.capacity_ah:g} Ah) lasts about {idle:.3g} h at idle and '
-            f"{nominal:.3g} h at the nominal level ({_ma(s.idle_load_a)} and "
-            f"{_ma(s.nominal_load_a)}); ideal figures: high drain and cold shorten them",
+            f"{nominal:.3g} h at the nominal level ({amps(s.idle_load_a)} and "
+            f"{amps(s.nominal_load_a)}); ideal figures: high drain and cold shorten them",
             {"runtime_idle_h": idle, "runtime_nominal_h": nominal},
         )
     ]

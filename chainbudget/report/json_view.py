@@ -6,6 +6,8 @@ import math
 from collections.abc import Callable
 from typing import Any
 
+import numpy as np
+
 from chainbudget.budget import Budget
 from chainbudget.budget.levels import NodeLevels
 from chainbudget.findings import Finding
@@ -13,11 +15,15 @@ from chainbudget.report import noise, power, supplies
 from chainbudget.report.cautions import cautions
 
 
-def number(value: float | None) -> float | None:
-    """A float for JSON: None for a missing or non-finite figure."""
-    if value is None or not math.isfinite(value):
-        return None
-    return float(value)
+def json_ready(value: Any) -> Any:
+    """Plain JSON data: floats (numpy's too) finite or None, tuples as lists, nested alike."""
+    if isinstance(value, float | np.floating):
+        return float(value) if math.isfinite(value) else None
+    if isinstance(value, dict):
+        return {key: json_ready(item) for key, item in value.items()}
+    if isinstance(value, list | tuple):
+        return [json_ready(item) for item in value]
+    return value
 
 
 def _node(node: NodeLevels) -> dict[str, Any]:
@@ -25,15 +31,15 @@ def _node(node: NodeLevels) -> dict[str, Any]:
     return {
         "stage": node.stage,
         "kind": node.kind,
-        "gain_db": number(node.gain_db),
-        "total_gain_db": number(node.total_gain_db),
-        "level_vrms": number(node.level_vrms),
-        "max_level_vrms": number(node.max_level_vrms),
-        "clip_vpk": number(node.clip_vpk),
+        "gain_db": node.gain_db,
+        "total_gain_db": node.total_gain_db,
+        "level_vrms": node.level_vrms,
+        "max_level_vrms": node.max_level_vrms,
+        "clip_vpk": node.clip_vpk,
         "limited_by": node.limited_by,
-        "headroom_db": number(node.headroom_db),
-        "nominal_headroom_db": number(node.nominal_headroom_db),
-        "worst_headroom_db": None if worst is None else number(worst.headroom_db),
+        "headroom_db": node.headroom_db,
+        "nominal_headroom_db": node.nominal_headroom_db,
+        "worst_headroom_db": None if worst is None else worst.headroom_db,
         "worst_at": None
         if worst is None
         else {
@@ -41,8 +47,8 @@ def _node(node: NodeLevels) -> dict[str, Any]:
             "controls": dict(worst.controls),
             "limited_by": worst.limited_by,
         },
-        "zout_ohm": number(node.zout_ohm),
-        "zload_ohm": number(node.zload_ohm),
+        "zout_ohm": node.zout_ohm,
+        "zload_ohm": node.zload_ohm,
     }
 
 
@@ -62,7 +68,7 @@ def finding_json(finding: Finding) -> dict[str, Any]:
         "code": finding.code,
         "stage": finding.stage,
         "message": finding.message,
-        "figures": {key: number(value) for key, value in finding.figures.items()},
+        "figures": dict(finding.figures),
     }
 
 
@@ -92,7 +98,7 @@ def budget_json(budget: Budget, found: list[Finding]) -> dict[str, Any]:
         data.update(top_part(budget))
     data["findings"] = [finding_json(fi) for fi in found]
     data["cautions"] = cautions(budget)
-    return data
+    return json_ready(data)
 
 
 def without_nulls(value: Any) -> Any:

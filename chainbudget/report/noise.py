@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import math
 from collections.abc import Callable
 from typing import Any
 
@@ -11,11 +10,7 @@ from rich.table import Table
 
 from chainbudget.budget import Budget
 from chainbudget.budget.noise import NoiseBudget
-from chainbudget.report.text import DASH, decibels, eng
-
-
-def _number(value: float | None) -> float | None:
-    return None if value is None or not math.isfinite(value) else float(value)
+from chainbudget.notation import DASH, decibels, eng
 
 
 def _percent(share: float) -> str:
@@ -36,12 +31,12 @@ def node_json(budget: Budget, k: int) -> dict[str, Any]:
         return {}
     n = noise.nodes[k]
     return {
-        "noise_vrms": _number(n.noise_vrms),
-        "noise_a_vrms": _number(n.noise_a_vrms),
-        "noise_468_vrms": _number(n.noise_468_vrms),
-        "noise_density_v_rthz": _number(n.density_v_rthz),
-        "snr_db": _number(n.snr_db),
-        "snr_a_db": _number(n.snr_a_db),
+        "noise_vrms": n.noise_vrms,
+        "noise_a_vrms": n.noise_a_vrms,
+        "noise_468_vrms": n.noise_468_vrms,
+        "noise_density_v_rthz": n.density_v_rthz,
+        "snr_db": n.snr_db,
+        "snr_a_db": n.snr_a_db,
         "noise_set_by": n.set_by,
     }
 
@@ -52,48 +47,48 @@ def json_part(budget: Budget) -> dict[str, Any]:
     if noise is None:
         return {}
     return {
-        "input_noise_vrms": _number(noise.input_noise_vrms),
-        "input_noise_a_vrms": _number(noise.input_noise_a_vrms),
-        "ein_dbu": _number(noise.ein_dbu),
-        "ein_a_dbu": _number(noise.ein_a_dbu),
-        "noise_figure_db": _number(noise.noise_figure_db),
+        "input_noise_vrms": noise.input_noise_vrms,
+        "input_noise_a_vrms": noise.input_noise_a_vrms,
+        "ein_dbu": noise.ein_dbu,
+        "ein_a_dbu": noise.ein_a_dbu,
+        "noise_figure_db": noise.noise_figure_db,
         "noise_figure_hz": noise.noise_figure_hz,
-        "dynamic_range_db": _number(noise.dynamic_range_db),
-        "dynamic_range_a_db": _number(noise.dynamic_range_a_db),
-        "hiss_spl_db": _number(noise.hiss_spl_db),
-        "hiss_spl_a_db": _number(noise.hiss_spl_a_db),
+        "dynamic_range_db": noise.dynamic_range_db,
+        "dynamic_range_a_db": noise.dynamic_range_a_db,
+        "hiss_spl_db": noise.hiss_spl_db,
+        "hiss_spl_a_db": noise.hiss_spl_a_db,
         "noise_sources": [
             {
                 "label": c.label,
                 "stage": c.stage,
                 "part": c.part,
                 "kind": c.kind,
-                "noise_vrms": _number(c.noise_vrms),
-                "share": _number(c.share),
-                "share_a": _number(c.share_a),
+                "noise_vrms": c.noise_vrms,
+                "share": c.share,
+                "share_a": c.share_a,
             }
             for c in noise.top_contributors
         ],
         "noise": {
             "source_resistance_ohm": noise.source_resistance_ohm,
-            "output_clip_vrms": _number(noise.output_clip_vrms),
+            "output_clip_vrms": noise.output_clip_vrms,
             "stage_shares": [
-                {"stage": s.stage, "share": _number(s.share), "share_a": _number(s.share_a)}
+                {"stage": s.stage, "share": s.share, "share_a": s.share_a}
                 for s in noise.stage_shares
             ],
             "spectrum": [
                 {
                     "frequency_hz": spot.frequency_hz,
-                    "density_v_rthz": _number(spot.density_v_rthz),
-                    "input_density_v_rthz": _number(spot.input_density_v_rthz),
+                    "density_v_rthz": spot.density_v_rthz,
+                    "input_density_v_rthz": spot.input_density_v_rthz,
                     "contributors": [
                         {
                             "label": c.label,
                             "stage": c.stage,
                             "part": c.part,
                             "kind": c.kind,
-                            "density_v_rthz": _number(c.density_v_rthz),
-                            "share": _number(c.share),
+                            "density_v_rthz": c.density_v_rthz,
+                            "share": c.share,
                         }
                         for c in spot.contributors
                     ],
@@ -104,9 +99,9 @@ def json_part(budget: Budget) -> dict[str, Any]:
                 {
                     "stage": p.stage,
                     "main_stage": p.main_stage,
-                    "snr_db": _number(p.snr_db),
-                    "moved_snr_db": _number(p.moved_snr_db),
-                    "lift_db": _number(p.lift_db),
+                    "snr_db": p.snr_db,
+                    "moved_snr_db": p.moved_snr_db,
+                    "lift_db": p.lift_db,
                 }
                 for p in noise.placement
             ],

@@ -13,22 +13,11 @@ from rich.table import Table
 
 from chainbudget.budget import Budget
 from chainbudget.budget.power import Dissipation, OutputFigures
-from chainbudget.report.text import DASH, eng
+from chainbudget.notation import DASH, eng
 
 # Sustained exposure above about 85 dB(A) risks hearing damage; occupational-noise rules
 # commonly take action at 80-85 dB(A) over a working day (common practice, no source).
 LOUD_SPL_DB = 85.0
-
-
-def _clean(value: Any) -> Any:
-    """JSON-ready: non-finite floats as None, tuples as lists, nested alike."""
-    if isinstance(value, float):
-        return value if math.isfinite(value) else None
-    if isinstance(value, dict):
-        return {k: _clean(v) for k, v in value.items()}
-    if isinstance(value, list | tuple):
-        return [_clean(v) for v in value]
-    return value
 
 
 def output_json(out: OutputFigures) -> dict[str, Any]:
@@ -47,7 +36,7 @@ def output_json(out: OutputFigures) -> dict[str, Any]:
     data.update(rest)
     if d is not None:
         data["dissipation"] = asdict(d)
-    return _clean(data)
+    return data
 
 
 def json_part(budget: Budget) -> dict[str, Any]:
@@ -56,13 +45,11 @@ def json_part(budget: Budget) -> dict[str, Any]:
     if budget.output is not None:
         part["output"] = output_json(budget.output)
     if budget.drive is not None:
-        part["drive"] = _clean(
-            {
-                "opamps": [asdict(op) for op in budget.drive.opamps],
-                "handovers": [asdict(h) for h in budget.drive.handovers],
-                "followers": [asdict(fo) for fo in budget.drive.followers],
-            }
-        )
+        part["drive"] = {
+            "opamps": [asdict(op) for op in budget.drive.opamps],
+            "handovers": [asdict(h) for h in budget.drive.handovers],
+            "followers": [asdict(fo) for fo in budget.drive.followers],
+        }
     return part
 
 
@@ -92,7 +79,7 @@ def node_json(budget: Budget, k: int) -> dict[str, Any]:
         if fo.stage == stage:
             part["bias_current_a"] = fo.i_e_a
             part["cut_off_vpk"] = fo.cut_off_vpk
-    return _clean(part)
+    return part
 
 
 def _table(title: str, *columns: str) -> Table:

@@ -11,24 +11,12 @@ from rich.table import Table
 
 from chainbudget.budget import Budget
 from chainbudget.budget.supplies import SupplyFigures
-from chainbudget.report.text import DASH, eng
-
-
-def _number(value: object) -> Any:
-    """JSON-ready: floats finite or None, everything else as is."""
-    if isinstance(value, float) and not math.isfinite(value):
-        return None
-    return value
+from chainbudget.notation import DASH, amps, eng
 
 
 def supply_json(s: SupplyFigures) -> dict[str, Any]:
     """One supply: the contract's keys first, then every other figure (SI; degC)."""
-    data = {key: _number(value) for key, value in asdict(s).items()}
-    for key in ("bleeder_suggestion", "divider_suggestion", "dropout_suggestion"):
-        if data[key] is not None:
-            data[key] = {k: _number(v) for k, v in data[key].items()}
-    data["stages"] = list(s.stages)
-    data["children"] = list(s.children)
+    data = asdict(s)
     head = (
         "name",
         "kind",
@@ -130,10 +118,6 @@ def _hours(value: float | None) -> str:
     return f"{value:.3g} h"
 
 
-def _ma(current: float | None) -> str:
-    return eng(current, "A")
-
-
 def _checks(s: SupplyFigures) -> list[tuple[str, str, str]]:
     """(what, figure, limit) rows of one supply."""
     rows: list[tuple[str, str, str]] = []
@@ -157,11 +141,11 @@ def _checks(s: SupplyFigures) -> list[tuple[str, str, str]]:
         rows.append(
             (
                 "output current at idle",
-                f"{_ma(s.idle_load_a)} (divider {_ma(s.divider_a)}, bleeder {_ma(s.bleeder_a)})",
-                DASH if s.min_load_a is None else f"min {_ma(s.min_load_a)}",
+                f"{amps(s.idle_load_a)} (divider {amps(s.divider_a)}, bleeder {amps(s.bleeder_a)})",
+                DASH if s.min_load_a is None else f"min {amps(s.min_load_a)}",
             )
         )
-        rows.append(("own current from the input", _ma(s.own_current_a), DASH))
+        rows.append(("own current from the input", amps(s.own_current_a), DASH))
         rows.append(
             (
                 "dissipation, high line",

@@ -10,9 +10,9 @@ from rich.table import Table
 
 from chainbudget.budget import Budget
 from chainbudget.findings import Finding
+from chainbudget.notation import DASH, decibels, eng
 from chainbudget.report import noise, power, supplies
 from chainbudget.report.cautions import cautions
-from chainbudget.report.text import DASH, decibels, eng
 from chainbudget.units import vrms_to_dbu
 
 # Areas of the budget add columns to the node table (NODE_COLUMNS: header, justify and a

@@ -1,4 +1,4 @@
-"""Number formatting for the terminal views (engineering prefixes, dB, dashes for none)."""
+"""Engineering notation for figures in tables and messages (prefixes, dB, dashes for none)."""
 
 from __future__ import annotations
 
@@ -38,3 +38,18 @@ def decibels(value: float | None, signed: bool = True) -> str:
     if abs(value) < 0.05:
         value = 0.0  # no "-0.0" for a flat stage
     return f"{value:+.1f}" if signed and value != 0.0 else f"{value:.1f}"
+
+
+def amps(value: float | None) -> str:
+    """A current with its prefix (``"4.3 mA"``), or a dash."""
+    return eng(value, "A")
+
+
+def ohms(value: float | None) -> str:
+    """A resistance with its prefix (``"4.7 kohm"``), or a dash."""
+    return eng(value, "ohm")
+
+
+def watts(value: float | None) -> str:
+    """A power with its prefix (``"88 mW"``), or a dash."""
+    return eng(value, "W")
