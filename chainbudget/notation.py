@@ -53,3 +53,8 @@ def ohms(value: float | None) -> str:
 def watts(value: float | None) -> str:
     """A power with its prefix (``"88 mW"``), or a dash."""
     return eng(value, "W")
+
+
+def hertz(value: float | None) -> str:
+    """A frequency with its prefix (``"16 kHz"``), or a dash."""
+    return eng(value, "Hz")

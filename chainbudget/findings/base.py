@@ -9,7 +9,8 @@ SEVERITIES = ("error", "warning", "note")
 
 @dataclass(frozen=True)
 class Finding:
-    """One finding: severity, a stable code, the stage it concerns, a message and figures.
+    """One finding: severity, a stable code, the stage (or supply) it concerns, a message
+    and figures.
 
     The message states the figure, the limit and what to change.
     """
@@ -19,6 +20,7 @@ class Finding:
     stage: str | None
     message: str
     figures: dict[str, float] = field(default_factory=dict)
+    supply: str | None = None
 
     def __post_init__(self) -> None:
         if self.severity not in SEVERITIES:

@@ -5,6 +5,7 @@ from __future__ import annotations
 from chainbudget.budget import Budget
 from chainbudget.budget.analysis import SWEEP_POINTS
 from chainbudget.findings.base import Finding
+from chainbudget.notation import hertz
 
 # Headroom at max level below this is a thin margin (chain-format contract: "headroom under
 # 6 dB at max level"); 6 dB is also the trade's usual allowance for programme peaks above
@@ -78,7 +79,7 @@ def rules(budget: Budget) -> list[Finding]:
                     "clip-worst-case",
                     node.stage,
                     f"clips at max_level by {-worst.headroom_db:.1f} dB at "
-                    f"{worst.frequency_hz:.0f} Hz with {settings or 'the controls as set'} "
+                    f"{hertz(worst.frequency_hz)} with {settings or 'the controls as set'} "
                     f"(limited by {worst.limited_by}); {tail}: reduce the gain before it or the "
                     "tone boost range",
                     {"worst_headroom_db": worst.headroom_db, "frequency_hz": worst.frequency_hz},
@@ -130,7 +131,7 @@ def _clip_order(budget: Budget) -> list[Finding]:
                     "clip-order",
                     other.stage,
                     f"as the volume rises this stage clips {margin:.1f} dB before the output stage "
-                    f'"{output.stage}" (at {other.frequency_hz:.0f} Hz); move gain from before it '
+                    f'"{output.stage}" (at {hertz(other.frequency_hz)}); move gain from before it '
                     "to after it, or give it more swing",
                     {"margin_db": margin},
                 )
@@ -171,7 +172,7 @@ def _boosts(budget: Budget) -> list[Finding]:
             "warning",
             "boost-over-headroom",
             b.stage,
-            f"full boost raises the gain to {b.boost_db:+.1f} dB at {b.frequency_hz:.0f} Hz, more "
+            f"full boost raises the gain to {b.boost_db:+.1f} dB at {hertz(b.frequency_hz)}, more "
             f'than the {b.upstream_headroom_db:.1f} dB of headroom at "{b.upstream_stage}": '
             "at max_level a full-boost setting clips; reduce the boost range or the gain ahead",
             {"boost_db": b.boost_db, "upstream_headroom_db": b.upstream_headroom_db},

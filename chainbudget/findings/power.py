@@ -5,7 +5,7 @@ from __future__ import annotations
 from chainbudget.budget import Budget
 from chainbudget.budget.power import Dissipation, DriveBudget, OutputFigures
 from chainbudget.findings.base import Finding
-from chainbudget.notation import amps, ohms, watts
+from chainbudget.notation import amps, hertz, ohms, watts
 
 # Drive current within this factor of the limit leaves a thin margin: 6 dB, the same
 # allowance the contract asks of voltage headroom at max level (common practice, no source).
@@ -94,7 +94,7 @@ def _drive(budget: Budget, drive: DriveBudget) -> list[Finding]:
                     "opamp-current",
                     op.stage,
                     f"at max_level the op-amp ({op.opamp}) must deliver {amps(op.worst_a)} peak "
-                    f"at {op.worst_hz:.0f} Hz (worst over the band and the controls), over its "
+                    f"at {hertz(op.worst_hz)} (worst over the band and the controls), over its "
                     f"{amps(op.limit_a)}; it clips on current there: raise the impedance it "
                     f"drives ({ohms(op.load_ohm)} at the reference, its feedback network "
                     "included) or buffer it",
@@ -108,7 +108,7 @@ def _drive(budget: Budget, drive: DriveBudget) -> list[Finding]:
                     "opamp-current-margin",
                     op.stage,
                     f"at max_level the op-amp ({op.opamp}) delivers up to {amps(op.worst_a)} "
-                    f"peak (at {op.worst_hz:.0f} Hz) of its {amps(op.limit_a)}: less than 6 dB "
+                    f"peak (at {hertz(op.worst_hz)}) of its {amps(op.limit_a)}: less than 6 dB "
                     f"in hand; raise the impedance it drives ({ohms(op.load_ohm)} at the "
                     "reference, feedback network included)",
                     figures,

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 from chainbudget.budget import Budget
 from chainbudget.budget.supplies import SupplyFigures
 from chainbudget.findings.base import Finding
@@ -229,9 +231,10 @@ def rules(budget: Budget) -> list[Finding]:
     found: list[Finding] = []
     for s in budget.supplies:
         if s.kind == "regulator":
-            found += _regulator(s, budget.ambient_degc)
+            these = _regulator(s, budget.ambient_degc)
         elif s.kind == "rectified":
-            found += _rectified(s)
-        elif s.kind == "dc":
-            found += _battery(s)
+            these = _rectified(s)
+        else:
+            these = _battery(s)
+        found += [replace(fi, supply=s.name) for fi in these]
     return found

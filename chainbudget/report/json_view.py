@@ -67,6 +67,7 @@ def finding_json(finding: Finding) -> dict[str, Any]:
         "severity": finding.severity,
         "code": finding.code,
         "stage": finding.stage,
+        "supply": finding.supply,
         "message": finding.message,
         "figures": dict(finding.figures),
     }

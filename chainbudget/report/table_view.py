@@ -132,7 +132,8 @@ def render(budget: Budget, found: list[Finding], console: Console) -> None:
     if found:
         console.print("[bold]Findings[/bold]")
         for fi in found:
-            where = f" [{fi.stage}]" if fi.stage else ""
+            about = fi.stage or fi.supply
+            where = f" [{about}]" if about else ""
             console.print(
                 f"  {_SEVERITY_MARK[fi.severity]} {fi.code}{where}: {fi.message}",
                 highlight=False,
