@@ -171,5 +171,6 @@ def transistor_problems(
             hint = f' (did you mean "{close[0]}"?)' if close else ""
             found.append((key, f'no transistor named "{name}"{hint}'))
         elif polarity is not None and part.polarity != polarity:
-            found.append((key, f'"{name}" is {part.polarity}, expected a transistor of polarity {polarity}'))
+            wanted = f"a transistor of polarity {polarity}"
+            found.append((key, f'"{name}" is {part.polarity}, expected {wanted}'))
     return found
