@@ -17,8 +17,20 @@ ROOT = Path(__file__).resolve().parents[1]
 CHAINS = sorted((ROOT / "chains").glob("*.toml"))
 runner = CliRunner()
 
-# The keys the chain-format contract makes required in `check --format json`.
-TOP_KEYS = {"title", "reference_hz", "band_hz", "nodes", "findings"}
+# The keys the chain-format contract makes required in `check --format json`, and those
+# the noise, power-end and supply issues add to them.
+TOP_KEYS = {
+    "title",
+    "reference_hz",
+    "band_hz",
+    "nodes",
+    "input_noise_vrms",
+    "input_noise_a_vrms",
+    "output",
+    "supplies",
+    "findings",
+    "noise_sources",
+}
 NODE_KEYS = {
     "stage",
     "kind",
@@ -31,7 +43,33 @@ NODE_KEYS = {
     "worst_at",
     "zout_ohm",
     "zload_ohm",
+    "noise_vrms",
+    "noise_a_vrms",
+    "snr_db",
 }
+OUTPUT_KEYS = {
+    "clip_power_w",
+    "nominal_power_w",
+    "max_spl_db",
+    "damping_factor",
+    "device_dissipation_w",
+    "junction_degc",
+}
+SUPPLY_KEYS = {
+    "name",
+    "kind",
+    "vout_v",
+    "idle_load_a",
+    "max_load_a",
+    "dropout_margin_v",
+    "min_load_margin_a",
+    "dissipation_w",
+    "junction_degc",
+    "ripple_vpp",
+    "input_min_v",
+    "input_max_v",
+}
+FINDING_KEYS = {"severity", "code", "stage", "message"}
 
 
 def test_there_are_at_least_three_example_chains() -> None:
@@ -54,6 +92,15 @@ def test_every_example_prints_the_contract_json_keys(chain: Path) -> None:
     assert len(data["nodes"]) >= 1
     for node in data["nodes"]:
         assert NODE_KEYS <= node.keys()
+        if node["worst_at"] is not None:
+            assert {"frequency_hz", "controls"} <= node["worst_at"].keys()
+    assert OUTPUT_KEYS <= data["output"].keys()
+    assert len(data["supplies"]) >= 1
+    for supply in data["supplies"]:
+        assert SUPPLY_KEYS <= supply.keys()
+    for finding in data["findings"]:
+        assert FINDING_KEYS <= finding.keys()
+        assert finding["severity"] in ("error", "warning", "note")
     # Exit status follows the findings (contract: 1 with at least one error).
     has_error = any(f["severity"] == "error" for f in data["findings"])
     assert result.exit_code == (1 if has_error else 0)
@@ -155,9 +202,14 @@ def test_every_error_class_is_one_line_with_its_path_and_exit_two(
 
 
 def test_the_good_fixture_is_good(tmp_path: Path) -> None:
+    """The base of the error cases loads and checks: its two stages are reported, the
+    pre-amp's gain 1 + 10k/1k = 11 (20.8 dB; Horowitz & Hill 3rd ed. sec. 4.2.1)."""
     file = tmp_path / "good.toml"
     file.write_text(GOOD, encoding="utf-8")
-    assert runner.invoke(app, ["check", str(file)]).exit_code in (0, 1)
+    result = runner.invoke(app, ["check", str(file), "--format", "json"])
+    data = json.loads(result.stdout)
+    assert [n["stage"] for n in data["nodes"]] == ["pre", "bass"]
+    assert data["nodes"][0]["gain_db"] == pytest.approx(20.83, abs=0.01)
 
 
 def test_did_you_mean_for_a_mistyped_kind(tmp_path: Path) -> None:
@@ -183,7 +235,8 @@ def test_new_writes_a_starter_that_checks_and_refuses_to_overwrite(tmp_path: Pat
     file = tmp_path / "mine.toml"
     assert runner.invoke(app, ["new", str(file)]).exit_code == 0
     first = file.read_text(encoding="utf-8")
-    assert runner.invoke(app, ["check", str(file)]).exit_code in (0, 1)
+    # The starter is meant to be a working chain: no error findings (exit 0).
+    assert runner.invoke(app, ["check", str(file)]).exit_code == 0
     file.write_text("# my own work\n", encoding="utf-8")
     refused = runner.invoke(app, ["new", str(file)])
     assert refused.exit_code == 2

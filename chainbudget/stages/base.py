@@ -104,6 +104,21 @@ class Limit:
     what: str
 
 
+@dataclass(frozen=True)
+class DcWindow:
+    """Where an active stage's output is meant to sit at DC and the range it works in, V.
+
+    ``bias_v`` is the DC the stage is designed around (its swing figures assume it);
+    ``low_v``..``high_v`` is the range the output can reach; ``remedy`` says what brings
+    the DC back to ``bias_v`` when it sits elsewhere.
+    """
+
+    bias_v: float
+    low_v: float
+    high_v: float
+    remedy: str
+
+
 @dataclass
 class Built:
     """What ``build`` stamped: probes (name -> MNA unknown), limits and op-amps used."""
@@ -155,6 +170,29 @@ class StageKind(ABC):
     def supply_current(self, stage: Stage, env: Environment) -> float:
         """Quiescent current flowing rail to rail, A (an op-amp stage: its section's)."""
         return opamp_part(stage, env).supply_current if self.uses_opamp else 0.0
+
+    # --- DC operating point (chainbudget.budget.dcbias walks these along the chain) ------
+
+    def dc_output(self, stage: Stage, env: Environment, dc_in: float | None) -> float | None:
+        """DC potential the stage drives its output to, V, with its input node at ``dc_in``
+        (None: unknown). The default, None, means unknown: the check stops until a stage
+        defines its input again."""
+        return None
+
+    def dc_rest(self, stage: Stage, env: Environment) -> float | None:
+        """DC potential the stage's input node rests at when nothing drives it at DC (the
+        stage before ends in a series capacitor), V; None: it floats or is unknown."""
+        return None
+
+    def dc_window(self, stage: Stage, env: Environment) -> DcWindow | None:
+        """The DC an active output is meant to sit at and the range it can reach; None for a
+        stage with no active output of its own to check."""
+        return None
+
+    def pot_dc(self, stage: Stage, dc_in: float | None) -> float | None:
+        """DC at the upper end of a pot whose lower end returns to 0 V, V; None: no such pot
+        or unknown."""
+        return None
 
     def bias_point(self, stage: Stage) -> float | None:
         """The signal bias point the stage sets, V (None: mid-rail single supply, 0 V split).
@@ -218,6 +256,36 @@ def taper_fraction(rotation: ArrayLike, taper: str | float) -> NDArray[np.float6
 
 def opamp_part(stage: Stage, env: Environment) -> OpAmp:
     return env.opamps[str(stage.values["opamp"])]
+
+
+def opamp_dc_window(stage: Stage, env: Environment, remedy: str) -> DcWindow:
+    """An op-amp output's DC window: the bias point, and the rails less ``swing_margin``.
+
+    Notes
+    -----
+    The output reaches no closer than ``swing_margin`` to either rail (the same margin as
+    the rails limit of `stamp_opamp`), so its DC must lie in V- + margin .. V+ - margin.
+    """
+    rails = env.rails
+    assert rails is not None, "op-amp stages always have rails (the loader sees to it)"
+    margin = opamp_part(stage, env).swing_margin
+    return DcWindow(rails.bias, rails.negative + margin, rails.positive - margin, remedy)
+
+
+def inverting_dc_output(env: Environment, dc_gain: float, dc_in: float | None) -> float | None:
+    """DC output of an inverting op-amp stage whose + input sits at the bias point, V.
+
+    Notes
+    -----
+    With the capacitors open the stage is an inverting amplifier about V_b: the summing
+    node is held at V_b, so V_out = V_b + G_dc (V_b - V_in), G_dc = R_feedback/R_input of
+    the resistive DC paths (Horowitz & Hill, The Art of Electronics, 3rd ed., sec. 4.2.1,
+    with the reference moved from 0 V to V_b). Split rails: V_b = 0 and a 0 V input give 0.
+    """
+    rails = env.rails
+    if dc_in is None or rails is None:
+        return None
+    return rails.bias + dc_gain * (rails.bias - dc_in)
 
 
 def stamp_opamp(

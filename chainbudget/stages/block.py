@@ -81,3 +81,8 @@ class Block(StageKind):
 
     def supply_current(self, stage: Stage, env: Environment) -> float:
         return stage.number("supply_current")
+
+    def dc_rest(self, stage: Stage, env: Environment) -> float | None:
+        """A DC-coupled input rests at 0 V through the input impedance to ground. (Its output
+        DC is unknown: `dc_output` keeps the default None.)"""
+        return 0.0

@@ -11,7 +11,15 @@ from numpy.typing import ArrayLike
 from chainbudget import fields as f
 from chainbudget.network import GROUND, Netlist, node_ref
 from chainbudget.parts import Transistor
-from chainbudget.stages.base import RAIL_FIELDS, Built, Environment, Limit, Stage, StageKind
+from chainbudget.stages.base import (
+    RAIL_FIELDS,
+    Built,
+    DcWindow,
+    Environment,
+    Limit,
+    Stage,
+    StageKind,
+)
 from chainbudget.stages.hybrid_pi import (
     SmallSignal,
     small_signal,
@@ -63,7 +71,9 @@ class FollowerBias:
         return self.i_e <= 0.0 or self.collector_room_v <= 0.0 or self.bias_room_v <= 0.0
 
 
-def follower_bias(stage: Stage, env: Environment) -> FollowerBias:
+def follower_bias(
+    stage: Stage, env: Environment, base_drive: float | None = None
+) -> FollowerBias:
     """The follower's DC operating point from its rails, base bias and bias circuit.
 
     Notes
@@ -76,8 +86,10 @@ def follower_bias(stage: Stage, env: Environment) -> FollowerBias:
     towards the bias rail V_E - V- (less the sink's compliance). A PNP follower is the
     mirror image (collector to V-, bias to V+). R_dc is the base resistor, plus the bias
     resistor when an input capacitor blocks the DC path from the stage before; the stage
-    before is taken as a stiff DC source at ``base_bias``. The DC current of the next
-    stage's input is left out (it is AC-coupled or a base current, a few percent of I_E).
+    before is taken as a stiff DC source at ``base_bias``, or at ``base_drive`` when given
+    (the DC the stage before really sits at, for the DC operating-point check). The DC
+    current of the next stage's input is left out (it is AC-coupled or a base current, a
+    few percent of I_E).
     """
     rails = env.rails
     assert rails is not None, "a follower always has rails (the loader sees to it)"
@@ -86,7 +98,8 @@ def follower_bias(stage: Stage, env: Environment) -> FollowerBias:
     collector_rail, bias_rail = (
         (rails.positive, rails.negative) if sign > 0 else (rails.negative, rails.positive)
     )
-    base_drive = rails.bias
+    if base_drive is None:
+        base_drive = rails.bias
     r_dc = stage.number("base_resistor")
     if stage.values.get("input_cap") is not None and stage.values.get("bias_resistor"):
         r_dc += stage.number("bias_resistor")
@@ -285,6 +298,44 @@ class Follower(StageKind):
 
     def output_defined(self, stage: Stage) -> bool:
         return stage.values.get("output_cap") is None
+
+    def dc_output(self, stage: Stage, env: Environment, dc_in: float | None) -> float | None:
+        """The emitter's DC, V: the base at ``base_bias`` behind ``input_cap``, else at the
+        input's DC; V_E = V_B - V_BE - I_B R_dc for an NPN, mirrored for a PNP
+        (`follower_bias` at that base drive). Behind ``output_cap`` the output node is the
+        next stage's to define."""
+        if env.rails is None:
+            return None
+        base = env.rails.bias if stage.values.get("input_cap") is not None else dc_in
+        return None if base is None else follower_bias(stage, env, base).emitter_v
+
+    def dc_rest(self, stage: Stage, env: Environment) -> float | None:
+        """A DC-coupled base with a ``bias_resistor`` rests at ``base_bias``."""
+        v = stage.values
+        if env.rails is None or v.get("input_cap") is not None or v.get("bias_resistor") is None:
+            return None
+        return env.rails.bias
+
+    def dc_window(self, stage: Stage, env: Environment) -> DcWindow | None:
+        """Meant to sit where `follower_bias` puts it (the base at ``base_bias``); it works
+        while the emitter stays V_CE(sat) from the collector rail and, on the bias side,
+        above the rail (resistor bias: else no current flows) or the sink's compliance."""
+        rails = env.rails
+        if rails is None:
+            return None
+        part = transistor_part(stage, env)
+        compliance = stage.number("compliance") if stage.values["bias"] == "current" else 0.0
+        if part.polarity == "npn":
+            low, high = rails.negative + compliance, rails.positive - part.vce_sat
+        else:
+            low, high = rails.negative + part.vce_sat, rails.positive - compliance
+        return DcWindow(
+            follower_bias(stage, env).emitter_v,
+            low,
+            high,
+            "couple its base through input_cap with bias_resistor to base_bias, or set "
+            "base_bias to the DC of the stage before",
+        )
 
     def supply_current(self, stage: Stage, env: Environment) -> float:
         """The bias current, which flows from rail to rail through the transistor."""

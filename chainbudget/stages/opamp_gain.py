@@ -12,9 +12,12 @@ from chainbudget.stages.base import (
     OPAMP_FIELD,
     RAIL_FIELDS,
     Built,
+    DcWindow,
     Environment,
     Stage,
     StageKind,
+    inverting_dc_output,
+    opamp_dc_window,
     stamp_opamp,
 )
 
@@ -130,3 +133,58 @@ class OpAmpGain(StageKind):
         if stage.values["input_cap"] is not None or not input_defined:
             return ["+ input"]
         return []
+
+    def dc_output(self, stage: Stage, env: Environment, dc_in: float | None) -> float | None:
+        """DC at the output, V, with the input node at ``dc_in``.
+
+        Notes
+        -----
+        Capacitors open. Non-inverting: the + input sits at the bias point behind
+        ``input_cap`` (through ``bias_resistor``; None without one: it floats), else at
+        ``dc_in`` (the stage before taken as a stiff DC source). The ground leg returns to
+        0 V, so V_out = V+ (1 + R_f/R_g) (the DC gain of the non-inverting stage, Horowitz
+        & Hill, The Art of Electronics, 3rd ed., sec. 4.2.1), or V_out = V+ with
+        ``ground_cap`` in the leg (DC gain of one). Inverting: V_out = V_b behind
+        ``input_cap``, else V_b + (R_f/R_i)(V_b - V_in) (`inverting_dc_output`).
+        """
+        rails = env.rails
+        if rails is None:
+            return None
+        coupled = stage.values.get("input_cap") is not None
+        if stage.values["topology"] == "non-inverting":
+            if coupled:
+                plus = rails.bias if stage.values.get("bias_resistor") is not None else None
+            else:
+                plus = dc_in
+            if plus is None:
+                return None
+            if stage.values.get("ground_cap") is not None:
+                return plus
+            return plus * (1.0 + stage.number("feedback") / stage.number("ground_leg"))
+        if coupled:
+            return rails.bias
+        return inverting_dc_output(env, stage.number("feedback") / stage.number("input"), dc_in)
+
+    def dc_rest(self, stage: Stage, env: Environment) -> float | None:
+        """A DC-coupled input rests at the bias point through ``bias_resistor`` (non-inverting)
+        or through ``input`` to the summing node, held at the bias point (inverting)."""
+        rails = env.rails
+        if rails is None or stage.values.get("input_cap") is not None:
+            return None
+        if stage.values["topology"] == "non-inverting" and stage.values.get("bias_resistor") is None:
+            return None
+        return rails.bias
+
+    def dc_window(self, stage: Stage, env: Environment) -> DcWindow:
+        v = stage.values
+        fixes = []
+        if v.get("input_cap") is None:
+            fixes.append(
+                "add input_cap with bias_resistor to the bias point (the + input then sits there)"
+                if v["topology"] == "non-inverting"
+                else "add input_cap (the DC gain from the input is then zero)"
+            )
+        if v["topology"] == "non-inverting" and v.get("ground_cap") is None:
+            fixes.append("add ground_cap in series with ground_leg (a DC gain of one)")
+        remedy = " and ".join(fixes) or "bring the DC at its input to the bias point"
+        return opamp_dc_window(stage, env, remedy)

@@ -301,6 +301,12 @@ class PushPull(StageKind):
     def output_defined(self, stage: Stage) -> bool:
         return stage.values.get("output_cap") is None
 
+    def dc_output(self, stage: Stage, env: Environment, dc_in: float | None) -> float | None:
+        """The output's bias point, V: the stage is modelled about it (`halves` measures the
+        swing from there); behind ``output_cap`` the load returns the output node to 0 V,
+        and without one on a single supply the ``dc-on-load`` finding already says so."""
+        return None if env.rails is None else env.rails.bias
+
     def supply_current(self, stage: Stage, env: Environment) -> float:
         """The quiescent current, which flows from rail to rail through both devices."""
         return stage.number("quiescent")

@@ -8,7 +8,13 @@ from numpy.typing import ArrayLike
 
 from chainbudget.network import Netlist
 from chainbudget.stages.base import Stage
-from chainbudget.stages.tone_networks import TONE_COMMON, FeedbackTone, bass_fields, stamp_bass
+from chainbudget.stages.tone_networks import (
+    TONE_COMMON,
+    FeedbackTone,
+    bass_dc_gain,
+    bass_fields,
+    stamp_bass,
+)
 
 
 class ToneBass(FeedbackTone):
@@ -37,3 +43,7 @@ class ToneBass(FeedbackTone):
         temperature_k: float,
     ) -> None:
         stamp_bass(net, stage, "", node_in, summing, node_out, positions, temperature_k)
+
+    def dc_gain(self, stage: Stage) -> float:
+        """(R + x P)/(R + (1 - x) P): the bass network with its caps open (`bass_dc_gain`)."""
+        return bass_dc_gain(stage, "")

@@ -26,9 +26,12 @@ from chainbudget.stages.base import (
     SWEEP_FIELD,
     Built,
     Control,
+    DcWindow,
     Environment,
     Stage,
     StageKind,
+    inverting_dc_output,
+    opamp_dc_window,
     stamp_opamp,
     taper_fraction,
 )
@@ -133,6 +136,25 @@ def stamp_bass(
     )
 
 
+def bass_dc_gain(stage: Stage, prefix: str) -> float:
+    """DC gain magnitude of a bass network with its caps open, at the pot's setting.
+
+    Notes
+    -----
+    With the caps open the input leg is ``outer`` plus the pot's upper half (A to the
+    wiper at the summing node, (1 - x) P) and the feedback leg the lower half (x P) plus
+    ``outer``, x the wiper-to-lower fraction after the taper (contract node list), each
+    half with the pot's end resistance e: G_dc = (R + x P + e)/(R + (1 - x) P + e), the
+    -Z_f/Z_i of the inverting stage (Horowitz & Hill, The Art of Electronics, 3rd ed., sec.
+    4.2.1); (R + P)/R at full boost and its inverse at full cut, as the bass response's
+    low-frequency limit (Baxandall, Wireless World, Oct. 1952).
+    """
+    outer, pot = stage.number(f"{prefix}outer"), stage.number(f"{prefix}pot")
+    x = float(taper_fraction(stage.number(f"{prefix}position"), stage.values[f"{prefix}taper"]))
+    end = stage.number("end_resistance")
+    return (outer + x * pot + end) / (outer + (1.0 - x) * pot + end)
+
+
 def stamp_treble(
     net: Netlist,
     stage: Stage,
@@ -195,6 +217,28 @@ class FeedbackTone(StageKind):
 
     uses_opamp = True
     pots: ClassVar[tuple[str, ...]]
+
+    @abstractmethod
+    def dc_gain(self, stage: Stage) -> float:
+        """DC gain magnitude of the stage's networks with every capacitor open."""
+
+    def dc_output(self, stage: Stage, env: Environment, dc_in: float | None) -> float | None:
+        """V_b + G_dc (V_b - V_in): an inverting stage with its + input at the bias point
+        (`inverting_dc_output`); no input capacitor, so its input's DC always counts."""
+        return inverting_dc_output(env, self.dc_gain(stage), dc_in)
+
+    def dc_rest(self, stage: Stage, env: Environment) -> float | None:
+        """The input rests at the summing node's potential, the bias point."""
+        return None if env.rails is None else env.rails.bias
+
+    def dc_window(self, stage: Stage, env: Environment) -> DcWindow:
+        bias = "its bias point" if env.rails is None else f"{env.rails.bias:.3g} V"
+        return opamp_dc_window(
+            stage,
+            env,
+            f"drive it from a node at {bias} (e.g. a stage with input_cap and ground_cap ahead "
+            "of it): its input is DC-coupled",
+        )
 
     def controls(self, stage: Stage) -> list[Control]:
         return [pot_control(stage, prefix) for prefix in self.pots]

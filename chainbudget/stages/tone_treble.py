@@ -48,3 +48,8 @@ class ToneTreble(FeedbackTone):
                 a, b, outer, label=f"{name}.{leg}", stage=name, temperature_k=temperature_k
             )
         stamp_treble(net, stage, "", node_in, summing, node_out, positions, temperature_k)
+
+    def dc_gain(self, stage: Stage) -> float:
+        """outer/outer = 1: the pot hangs between two capacitors; a ``bias_resistor`` from
+        the summing node to the bias point carries no DC, both ends sitting there."""
+        return 1.0

@@ -11,6 +11,7 @@ from chainbudget.stages.base import Stage
 from chainbudget.stages.tone_networks import (
     TONE_COMMON,
     FeedbackTone,
+    bass_dc_gain,
     bass_fields,
     stamp_bass,
     stamp_treble,
@@ -45,3 +46,8 @@ class ToneTwoBand(FeedbackTone):
     ) -> None:
         stamp_bass(net, stage, "bass_", node_in, summing, node_out, positions, temperature_k)
         stamp_treble(net, stage, "treble_", node_in, summing, node_out, positions, temperature_k)
+
+    def dc_gain(self, stage: Stage) -> float:
+        """The bass network's (`bass_dc_gain`): the treble pot hangs between two capacitors
+        and carries no DC."""
+        return bass_dc_gain(stage, "bass_")

@@ -21,8 +21,8 @@ from chainbudget.stages.base import (
 
 
 class Volume(StageKind):
-    """Volume pot: upper end at the input (through ``series``), lower end at AC ground,
-    wiper the output (``shunt`` from wiper to ground).
+    """Volume pot: upper end at the input (through ``input_cap`` and ``series``), lower end
+    at AC ground, wiper the output (``shunt`` from wiper to ground).
 
     Notes
     -----
@@ -38,6 +38,12 @@ class Volume(StageKind):
         f.Field("pot", f.RESISTANCE, "track resistance"),
         f.Field("position", f.POSITION, "rotation: 0 silent, 1 full volume", 0.5),
         f.Field("taper", f.TAPER, "pot taper", "log"),
+        f.Field(
+            "input_cap",
+            f.CAPACITANCE,
+            "series coupling capacitor ahead of the pot (keeps DC off its track)",
+            None,
+        ),
         f.Field("series", f.RESISTANCE, "resistor from the input to the pot's upper end", None),
         f.Field("shunt", f.RESISTANCE, "resistor from the wiper to ground", None),
         END_RESISTANCE_FIELD,
@@ -66,12 +72,16 @@ class Volume(StageKind):
     ) -> Built:
         name, t = stage.name, env.temperature_k
         upper = node_in
+        input_cap = stage.optional("input_cap")
+        if input_cap is not None:
+            upper = f"{name}.coupled"
+            net.capacitor(node_in, upper, input_cap)
         series = stage.optional("series")
         if series is not None:
-            upper = f"{name}.upper"
             net.resistor(
-                node_in, upper, series, label=f"{name}.series", stage=name, temperature_k=t
+                upper, f"{name}.upper", series, label=f"{name}.series", stage=name, temperature_k=t
             )
+            upper = f"{name}.upper"
         fraction = taper_fraction(positions["position"], stage.values["taper"])
         net.pot(
             upper,
@@ -90,3 +100,40 @@ class Volume(StageKind):
                 node_out, GROUND, shunt, label=f"{name}.shunt", stage=name, temperature_k=t
             )
         return Built(probes={"out": node_ref(node_out)}, output_probe="out")
+
+    def _dc_divider(self, stage: Stage) -> tuple[float, float]:
+        """(pot top, wiper) DC per volt of DC at the input, with no input capacitor.
+
+        Notes
+        -----
+        The unloaded divider with the lower end at 0 V: lower leg x P + e (in parallel with
+        ``shunt``), upper leg (1 - x) P + e, ``series`` ahead, x the taper fraction at the
+        setting and e the end resistance (Horowitz & Hill, The Art of Electronics, 3rd ed.,
+        sec. 1.2.3). What follows is taken to draw no DC (an op-amp input, a capacitor).
+        """
+        pot, end = stage.number("pot"), stage.number("end_resistance")
+        x = float(taper_fraction(stage.number("position"), stage.values["taper"]))
+        lower, upper = x * pot + end, (1.0 - x) * pot + end
+        shunt = stage.optional("shunt")
+        if shunt is not None:
+            lower = lower * shunt / (lower + shunt)
+        series = stage.optional("series") or 0.0
+        total = series + upper + lower
+        return (upper + lower) / total, lower / total
+
+    def dc_output(self, stage: Stage, env: Environment, dc_in: float | None) -> float | None:
+        """The wiper's DC: 0 V behind ``input_cap`` (the track returns it to 0 V), else the
+        DC at the input times the unloaded divider ratio (`_dc_divider`)."""
+        if stage.values.get("input_cap") is not None:
+            return 0.0
+        return None if dc_in is None else dc_in * self._dc_divider(stage)[1]
+
+    def pot_dc(self, stage: Stage, dc_in: float | None) -> float | None:
+        """DC at the pot's upper end: 0 V behind ``input_cap``."""
+        if stage.values.get("input_cap") is not None:
+            return 0.0
+        return None if dc_in is None else dc_in * self._dc_divider(stage)[0]
+
+    def dc_rest(self, stage: Stage, env: Environment) -> float | None:
+        """A DC-coupled input rests at 0 V through the track."""
+        return None if stage.values.get("input_cap") is not None else 0.0
