@@ -2,10 +2,12 @@
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 from chainbudget import fields as f
 from chainbudget.chainfile import LOAD_FIELDS, SETTINGS_FIELDS, SOURCE_FIELDS
+from chainbudget.notation import eng
 from chainbudget.parts import OPAMP_FIELDS, TRANSISTOR_FIELDS
 from chainbudget.stages import KINDS as STAGE_KINDS
 from chainbudget.supplies import KINDS as SUPPLY_KINDS
@@ -41,17 +43,30 @@ def catalogue() -> dict[str, Entry]:
     return {e.name: e for e in entries}
 
 
+# Kinds whose defaults read best with an engineering prefix ("20 mA", "1 kHz").
+_PREFIXED = {"ohm", "F", "Hz", "V", "A", "V/s", "V/rtHz", "A/rtHz", "Ah"}
+
+
 def default_text(field: f.Field) -> str:
     """How the default shows in the catalogue."""
+    value = field.default
     if field.required:
         return "required"
-    if field.default is None:
+    if value is None:
         return "optional"
-    if isinstance(field.default, tuple):
-        return " to ".join(f"{value:g}" for value in field.default) + " Hz"
-    if isinstance(field.default, float) and field.kind.unit not in ("", "number"):
-        return f"{field.default:g} {field.kind.unit}"
-    return str(field.default)
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if isinstance(value, tuple):
+        return " to ".join(eng(v, "Hz") for v in value)
+    if field.kind is f.GAIN and isinstance(value, float):
+        return f"{20.0 * math.log10(value):.3g} dB"
+    if field.kind is f.FRACTION and isinstance(value, float):
+        return f"{100.0 * value:g} %"
+    if isinstance(value, float) and field.kind.unit in _PREFIXED:
+        return eng(value, field.kind.unit)
+    if isinstance(value, float) and field.kind.unit not in ("", "number", "0..1"):
+        return f"{value:g} {field.kind.unit}"
+    return str(value)
 
 
 def markdown(entries: dict[str, Entry]) -> str:
@@ -67,7 +82,12 @@ def markdown(entries: dict[str, Entry]) -> str:
             "| --- | --- | --- | --- |",
         ]
         lines += [
-            f"| `{fld.key}` | {fld.kind.unit} | {default_text(fld)} | {fld.meaning} |"
+            "| "
+            + " | ".join(
+                cell.replace("|", "\\|")
+                for cell in (f"`{fld.key}`", fld.kind.unit, default_text(fld), fld.meaning)
+            )
+            + " |"
             for fld in e.fields
         ]
         lines.append("")
