@@ -8,7 +8,14 @@ from dataclasses import dataclass
 from chainbudget import fields as f
 from chainbudget.chainfile import LOAD_FIELDS, SETTINGS_FIELDS, SOURCE_FIELDS
 from chainbudget.notation import eng
-from chainbudget.parts import OPAMP_FIELDS, TRANSISTOR_FIELDS
+from chainbudget.parts import (
+    GENERIC_OPAMPS,
+    GENERIC_TRANSISTORS,
+    OPAMP_FIELDS,
+    TRANSISTOR_FIELDS,
+    OpAmp,
+    Transistor,
+)
 from chainbudget.stages import KINDS as STAGE_KINDS
 from chainbudget.supplies import KINDS as SUPPLY_KINDS
 
@@ -49,24 +56,51 @@ _PREFIXED = {"ohm", "F", "Hz", "V", "A", "V/s", "V/rtHz", "A/rtHz", "Ah"}
 
 def default_text(field: f.Field) -> str:
     """How the default shows in the catalogue."""
-    value = field.default
     if field.required:
         return "required"
-    if value is None:
+    if field.default is None:
         return "optional"
+    return value_text(field, field.default)
+
+
+def value_text(field: f.Field, value: object) -> str:
+    """A field's value as a designer writes it ("20 mA", "100 dB", "10 %", "7 V/us")."""
+    if value is None:
+        return "-"
     if isinstance(value, bool):
         return "true" if value else "false"
     if isinstance(value, tuple):
         return " to ".join(eng(v, "Hz") for v in value)
-    if field.kind is f.GAIN and isinstance(value, float):
+    if not isinstance(value, float):
+        return str(value)
+    if field.kind is f.GAIN:
         return f"{20.0 * math.log10(value):.3g} dB"
-    if field.kind is f.FRACTION and isinstance(value, float):
+    if field.kind is f.FRACTION:
         return f"{100.0 * value:g} %"
-    if isinstance(value, float) and field.kind.unit in _PREFIXED:
+    if field.kind is f.SLEW_RATE:
+        return f"{value / 1e6:.3g} V/us"
+    if field.kind.unit in _PREFIXED:
         return eng(value, field.kind.unit)
-    if isinstance(value, float) and field.kind.unit not in ("", "number", "0..1"):
+    if field.kind.unit not in ("", "number", "0..1"):
         return f"{value:g} {field.kind.unit}"
-    return str(value)
+    return f"{value:g}"
+
+
+def generic_parts(table: str) -> tuple[tuple[str, ...], list[tuple[str, ...]]]:
+    """Header (``field`` and the class names) and one row per field of the shipped generic
+    classes of ``opamp`` or ``transistor``."""
+    parts: dict[str, OpAmp] | dict[str, Transistor]
+    if table == "opamp":
+        parts, schema = GENERIC_OPAMPS, OPAMP_FIELDS
+    else:
+        parts, schema = GENERIC_TRANSISTORS, TRANSISTOR_FIELDS
+    header = ("field", *parts)
+    rows = [
+        (fld.key, *(value_text(fld, getattr(part, fld.key)) for part in parts.values()))
+        for fld in schema
+        if fld.key != "description"
+    ]
+    return header, rows
 
 
 def markdown(entries: dict[str, Entry]) -> str:
@@ -91,6 +125,17 @@ def markdown(entries: dict[str, Entry]) -> str:
             for fld in e.fields
         ]
         lines.append("")
+        if e.name in ("opamp", "transistor"):
+            header, rows = generic_parts(e.name)
+            lines += [
+                f"Generic `{e.name}` classes shipped (representative typical values of a family "
+                "of devices, not any real part; name them in `opamp = ...` or `upper = ...`):",
+                "",
+                "| " + " | ".join(header) + " |",
+                "| " + " | ".join("---" for _ in header) + " |",
+                *("| " + " | ".join(row) + " |" for row in rows),
+                "",
+            ]
     return "\n".join(lines)
 
 

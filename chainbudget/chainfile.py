@@ -7,7 +7,6 @@ was expected. Nothing downstream re-validates.
 
 from __future__ import annotations
 
-import difflib
 import tomllib
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, fields, replace
@@ -15,6 +14,7 @@ from pathlib import Path
 from typing import Any
 
 from chainbudget import fields as f
+from chainbudget.fields import suggest
 from chainbudget.parts import (
     GENERIC_OPAMPS,
     GENERIC_TRANSISTORS,
@@ -109,12 +109,6 @@ class Chain:
     def same_model(self, other: Chain) -> bool:
         """Equal in everything but the file name."""
         return replace(self, file="") == replace(other, file="")
-
-
-def suggest(word: str, options: Iterable[str]) -> str:
-    """A ``(did you mean "x"?)`` tail for a mistyped key or kind, or nothing."""
-    close = difflib.get_close_matches(word, list(options), n=1, cutoff=0.6)
-    return f' (did you mean "{close[0]}"?)' if close else ""
 
 
 class _Reader:

@@ -14,9 +14,10 @@ from rich.console import Console
 from rich.markup import escape
 from rich.table import Table
 
-from chainbudget.blocks import catalogue, default_text
+from chainbudget.blocks import catalogue, default_text, generic_parts
 from chainbudget.budget import compute
-from chainbudget.chainfile import ChainError, load_chain, suggest
+from chainbudget.chainfile import ChainError, load_chain
+from chainbudget.fields import suggest
 from chainbudget.findings import findings
 from chainbudget.report import noise as noise_view
 from chainbudget.report.json_view import budget_json, without_nulls
@@ -120,6 +121,18 @@ def blocks(
             *(escape(text) for text in (fld.key, fld.kind.unit, default_text(fld), fld.meaning))
         )
     console.print(table)
+    if kind in ("opamp", "transistor"):
+        columns, cells = generic_parts(kind)
+        shipped = Table(
+            box=box.SIMPLE_HEAD,
+            title=f"Generic {kind} classes shipped (typical values of a family, not any real part)",
+            title_justify="left",
+        )
+        for column in columns:
+            shipped.add_column(escape(column))
+        for row in cells:
+            shipped.add_row(*(escape(cell) for cell in row))
+        console.print(shipped)
 
 
 @app.command()

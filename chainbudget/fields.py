@@ -8,12 +8,19 @@ declaration.
 
 from __future__ import annotations
 
-from collections.abc import Callable
+import difflib
+from collections.abc import Callable, Iterable
 from dataclasses import dataclass
 from typing import Any
 
 from chainbudget import units
 from chainbudget.units import UnitParseError
+
+
+def suggest(word: str, options: Iterable[str]) -> str:
+    """A ``(did you mean "x"?)`` tail for a mistyped key or kind, or nothing."""
+    close = difflib.get_close_matches(word, list(options), n=1, cutoff=0.6)
+    return f' (did you mean "{close[0]}"?)' if close else ""
 
 
 class _Required:

@@ -6,12 +6,12 @@ has its collector at AC ground (a rail), which is how both kinds use it.
 
 from __future__ import annotations
 
-import difflib
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any
 
 from chainbudget import outputmath as om
+from chainbudget.fields import suggest
 from chainbudget.network import GROUND, Netlist, Ref
 from chainbudget.parts import Transistor
 from chainbudget.spectrum import shot_current_psd
@@ -167,10 +167,8 @@ def transistor_problems(
             continue
         part = transistors.get(str(name))
         if part is None:
-            close = difflib.get_close_matches(str(name), list(transistors), n=1, cutoff=0.6)
-            hint = f' (did you mean "{close[0]}"?)' if close else ""
-            found.append((key, f'no transistor named "{name}"{hint}'))
+            found.append((key, f'no transistor named "{name}"' + suggest(str(name), transistors)))
         elif polarity is not None and part.polarity != polarity:
-            wanted = f"a transistor of polarity {polarity}"
-            found.append((key, f'"{name}" is {part.polarity}, expected {wanted}'))
+            expected = f"a transistor of polarity {polarity}"
+            found.append((key, f'"{name}" is {part.polarity}, expected {expected}'))
     return found
