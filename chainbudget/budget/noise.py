@@ -43,6 +43,7 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 from scipy.constants import k as BOLTZMANN
 
+from chainbudget import outputmath as om
 from chainbudget.budget.analysis import Analysis, solve_chain
 from chainbudget.budget.levels import SQRT2, clip_source_peak
 from chainbudget.cascade import Cascade
@@ -631,11 +632,11 @@ def noise_budget(analysis: Analysis) -> NoiseBudget:
 
     clip = output_clip_vrms(analysis)
     sensitivity = chain.load.sensitivity
-    power_ref = math.sqrt(1.0 * chain.load.impedance)  # V for 1 W into the nominal load
 
     def spl(noise_vrms: float) -> float | None:
-        level = _db20(noise_vrms / power_ref)
-        return None if sensitivity is None or level is None else sensitivity + level
+        if sensitivity is None or noise_vrms <= 0.0:
+            return None
+        return float(om.hiss_spl(sensitivity, noise_vrms, chain.load.impedance))
 
     def ratio_db(signal: float | None, noise: float) -> float | None:
         return None if signal is None or noise <= 0.0 else _db20(signal / noise)

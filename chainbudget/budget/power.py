@@ -309,7 +309,7 @@ def push_pull_dissipation(analysis: Analysis, k: int, nominal_vpk: float) -> Dis
     def device(vpk: NDArray[np.float64] | float, load: complex = z) -> NDArray[np.float64]:
         """Per-device dissipation, shape (2, ...) for the two halves."""
         v = np.asarray(vpk, float)
-        return np.stack([om.class_b_total_dissipation(vcc, v, load, i_q) / 2.0 for vcc in rails])
+        return np.stack([om.class_b_device_dissipation(vcc, v, load, i_q) for vcc in rails])
 
     def worst(load: complex) -> tuple[float, float]:
         candidates = np.minimum(om.class_b_worst_vpk(rails, np.angle(load)), clip)
