@@ -22,7 +22,8 @@ from typing import Any
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
-from scipy.constants import k as BOLTZMANN
+
+from chainbudget.spectrum import thermal_current_psd
 
 GROUND = "0"
 # Each pot end carries this fraction of the track as a series resistance so the matrix never
@@ -170,7 +171,7 @@ class Netlist:
         r = np.asarray(resistance, dtype=float)
         self.admittance(a, b, 1.0 / r)
         if temperature_k is not None:
-            psd = 4.0 * BOLTZMANN * temperature_k / r
+            psd = thermal_current_psd(r, temperature_k)
             self.current_noise(a, b, psd, label, stage, label, "thermal")
 
     def capacitor(self, a: str, b: str, capacitance: ArrayLike) -> None:

@@ -7,35 +7,15 @@ section numbers cited in the Notes are quoted from memory.
 from __future__ import annotations
 
 import math
-from functools import cache
-from types import ModuleType
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
+from scipy import constants
 
-# Module attributes served lazily from scipy.constants (CODATA; k and e are exact in the
-# 2019 SI). Importing scipy.constants costs ~0.15 s, so it is deferred until first use.
-_SCIPY_CONSTANT_NAMES = {
-    "boltzmann_k": "k",  # J/K
-    "elementary_charge": "e",  # C
-    "zero_celsius_k": "zero_Celsius",  # K
-}
-
-
-@cache
-def _scipy_constants() -> ModuleType:
-    from scipy import constants
-
-    return constants
-
-
-def __getattr__(name: str) -> float:
-    """Serve ``boltzmann_k``, ``elementary_charge`` and ``zero_celsius_k`` on first access."""
-    try:
-        scipy_name = _SCIPY_CONSTANT_NAMES[name]
-    except KeyError:
-        raise AttributeError(f"module {__name__!r} has no attribute {name!r}") from None
-    return float(getattr(_scipy_constants(), scipy_name))
+# CODATA values from scipy.constants (k and e are exact in the 2019 SI).
+boltzmann_k: float = float(constants.k)  # J/K
+elementary_charge: float = float(constants.e)  # C
+zero_celsius_k: float = float(constants.zero_Celsius)  # K
 
 
 def log_frequency_grid(f_lo: float, f_hi: float, points_per_decade: int) -> NDArray[np.float64]:
@@ -194,7 +174,7 @@ def thermal_voltage_psd(resistance_ohm: ArrayLike, temperature_k: ArrayLike) -> 
     Electronics, 3rd ed., sec. 8.1.1), valid while h f << k T, i.e. throughout audio.
     k is the Boltzmann constant from scipy.constants (exact in the 2019 SI).
     """
-    k = _scipy_constants().k
+    k = boltzmann_k
     return np.asarray(
         4.0 * k * np.asarray(temperature_k, dtype=np.float64) * np.asarray(resistance_ohm),
         dtype=np.float64,
@@ -221,7 +201,7 @@ def thermal_current_psd(resistance_ohm: ArrayLike, temperature_k: ArrayLike) -> 
     The Norton equivalent of :func:`thermal_voltage_psd`: S_i = S_v / R^2 = 4 k T / R
     (e.g. Horowitz & Hill, The Art of Electronics, 3rd ed., sec. 8.1.1).
     """
-    k = _scipy_constants().k
+    k = boltzmann_k
     return np.asarray(
         4.0 * k * np.asarray(temperature_k, dtype=np.float64) / np.asarray(resistance_ohm),
         dtype=np.float64,
@@ -247,7 +227,7 @@ def shot_current_psd(current_a: ArrayLike) -> NDArray[np.float64]:
     3rd ed., sec. 8.1.2), for carriers crossing a barrier independently (junction
     currents), flat through audio. q is the elementary charge from scipy.constants.
     """
-    q = _scipy_constants().e
+    q = elementary_charge
     return np.asarray(2.0 * q * np.abs(np.asarray(current_a, dtype=np.float64)), dtype=np.float64)
 
 
@@ -303,6 +283,4 @@ def celsius_to_kelvin(t_degc: ArrayLike) -> NDArray[np.float64]:
     T/K = t/degC + 273.15 (definition of the Celsius scale, SI Brochure 9th ed.);
     273.15 is scipy.constants.zero_Celsius.
     """
-    return np.asarray(
-        np.asarray(t_degc, dtype=np.float64) + _scipy_constants().zero_Celsius, dtype=np.float64
-    )
+    return np.asarray(np.asarray(t_degc, dtype=np.float64) + zero_celsius_k, dtype=np.float64)

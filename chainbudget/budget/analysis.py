@@ -12,11 +12,10 @@ from dataclasses import dataclass
 
 import numpy as np
 from numpy.typing import NDArray
-from scipy.constants import zero_Celsius
 
 from chainbudget.cascade import Cascade, cascade, solve_stage
 from chainbudget.chainfile import Chain
-from chainbudget.spectrum import log_frequency_grid
+from chainbudget.spectrum import log_frequency_grid, zero_celsius_k
 from chainbudget.stages import KINDS
 from chainbudget.stages.base import Control, Environment
 from chainbudget.supplies.base import Corners
@@ -65,7 +64,7 @@ class Analysis:
 
     @property
     def temperature_k(self) -> float:
-        return self.chain.settings.ambient + zero_Celsius
+        return self.chain.settings.ambient + zero_celsius_k
 
 
 def frequency_axis(chain: Chain) -> NDArray[np.float64]:
@@ -82,7 +81,7 @@ def environments(
     unloaded tree unless ``voltages`` are given)."""
     if voltages is None:
         voltages = supply_voltages(chain)
-    temperature = chain.settings.ambient + zero_Celsius
+    temperature = chain.settings.ambient + zero_celsius_k
     return tuple(
         Environment(
             temperature,

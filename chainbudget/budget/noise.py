@@ -41,7 +41,6 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
-from scipy.constants import k as BOLTZMANN
 
 from chainbudget import outputmath as om
 from chainbudget.budget.analysis import Analysis, solve_chain
@@ -49,7 +48,7 @@ from chainbudget.budget.levels import SQRT2, clip_source_peak
 from chainbudget.cascade import Cascade
 from chainbudget.chainfile import Chain
 from chainbudget.network import GROUND, Complex, Netlist
-from chainbudget.spectrum import integrate_psd
+from chainbudget.spectrum import integrate_psd, thermal_voltage_psd
 from chainbudget.stages import KINDS
 from chainbudget.stages.base import Environment, Stage
 from chainbudget.units import DBU_REFERENCE_VRMS
@@ -257,7 +256,7 @@ def noise_spectra(
     r_source = float(np.real(chain.source.impedance))
     if r_source > 0.0:
         origins.append(NoiseOrigin("source.impedance", SOURCE_STAGE, -1, "impedance", "thermal"))
-        psd = 4.0 * BOLTZMANN * temperature_k * r_source
+        psd = thermal_voltage_psd(r_source, temperature_k)
         blocks.append((psd * signal**2)[None])
     for k, (stage, env, pos) in enumerate(zip(stages, envs, positions_as_set(stages), strict=True)):
         found, psd, to_out, to_in = stage_noise_transfers(

@@ -19,6 +19,7 @@ from numpy.typing import ArrayLike, NDArray
 from chainbudget import fields as f
 from chainbudget.network import GROUND, Netlist, Ref, branch_ref, node_ref
 from chainbudget.parts import OpAmp, Transistor
+from chainbudget.spectrum import flicker_psd
 
 
 @dataclass(frozen=True)
@@ -322,7 +323,7 @@ def stamp_opamp(
     )
     gain = net.open_loop_gain(part.open_loop_gain, part.gbw)
     corner = 0.0 if part.noise_corner is None else part.noise_corner
-    en2 = part.noise_voltage**2 * (1.0 + corner / net.frequency)
+    en2 = flicker_psd(part.noise_voltage, corner, net.frequency)
     net.voltage_noise_at(branch, gain, en2, f"{label}.e_n", stage.name, "opamp", "e_n")
     for pin, node in (("+", plus), ("-", minus)):
         if node != GROUND:
