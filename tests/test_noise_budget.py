@@ -21,13 +21,12 @@ from scipy.constants import k as BOLTZMANN
 from typer.testing import CliRunner
 
 from chainbudget.budget import budget_from
-from chainbudget.budget.analysis import analyse
+from chainbudget.budget.analysis import analyse, positions_as_set
 from chainbudget.budget.noise import (
     SOURCE_STAGE,
     NoiseBudget,
     noise_budget,
     noise_spectra,
-    positions_as_set,
 )
 from chainbudget.cascade import whole_chain_network
 from chainbudget.chainfile import Chain, load_chain, parse_chain

@@ -17,7 +17,7 @@ from chainbudget.cascade import Cascade, cascade, solve_stage
 from chainbudget.chainfile import Chain
 from chainbudget.spectrum import log_frequency_grid, zero_celsius_k
 from chainbudget.stages import KINDS
-from chainbudget.stages.base import Control, Environment
+from chainbudget.stages.base import Control, Environment, Stage
 from chainbudget.supplies.base import Corners
 from chainbudget.supplies.tree import stage_rails, supply_voltages
 
@@ -94,8 +94,9 @@ def environments(
     )
 
 
-def _positions_as_set(chain: Chain) -> list[dict[str, float]]:
-    return [{c.key: c.position for c in KINDS[st.kind].controls(st)} for st in chain.stages]
+def positions_as_set(stages: Sequence[Stage]) -> list[dict[str, float]]:
+    """Every control of every stage at its set position."""
+    return [{c.key: c.position for c in KINDS[st.kind].controls(st)} for st in stages]
 
 
 def solve_chain(
@@ -133,7 +134,7 @@ def analyse(
     frequency = frequency_axis(chain)
     voltages = dict(supply_voltages(chain) if voltages is None else voltages)
     envs = environments(chain, corner, voltages)
-    as_set = _positions_as_set(chain)
+    as_set = positions_as_set(chain.stages)
     nominal = solve_chain(chain, envs, frequency, list(as_set))
 
     swept_pots = [

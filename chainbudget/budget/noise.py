@@ -43,7 +43,7 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from chainbudget import outputmath as om
-from chainbudget.budget.analysis import Analysis, solve_chain
+from chainbudget.budget.analysis import Analysis, positions_as_set, solve_chain
 from chainbudget.budget.levels import SQRT2, clip_source_peak
 from chainbudget.cascade import Cascade
 from chainbudget.chainfile import Chain
@@ -198,11 +198,6 @@ def stage_noise_transfers(
         np.stack([np.broadcast_to(h, shape) for h in to_out]),
         np.stack([np.broadcast_to(h, shape) for h in to_in]),
     )
-
-
-def positions_as_set(stages: Sequence[Stage]) -> list[dict[str, float]]:
-    """Every control of every stage at its set position."""
-    return [{c.key: c.position for c in KINDS[st.kind].controls(st)} for st in stages]
 
 
 def noise_spectra(
