@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 from chainbudget.budget import Budget
 from chainbudget.budget.analysis import SWEEP_POINTS
 from chainbudget.findings.base import Finding
@@ -97,9 +99,11 @@ def rules(budget: Budget) -> list[Finding]:
                 {"rotations": float(budget.sweep_points)},
             )
         )
+    found = _merge_carried(found)
     found += _clip_order(budget)
     found += _volume_rotation(budget)
-    found += _boosts(budget)
+    worst_flagged = {fi.stage for fi in found if fi.code == "clip-worst-case"}
+    found += [fi for fi in _boosts(budget) if fi.stage not in worst_flagged]
     found += _supply_ranges(budget)
     found += [
         Finding(
@@ -113,6 +117,44 @@ def rules(budget: Budget) -> list[Finding]:
         for f in budget.floating
     ]
     return found
+
+
+# Level findings of consecutive stages whose headroom agrees to this much share one cause
+# (unity-gain stages after the one that sets the level, on the same rails), dB.
+SAME_MARGIN_DB = 0.05
+_CARRIED = {
+    "clip-nominal": "headroom_db",
+    "clip-max": "headroom_db",
+    "thin-headroom": "headroom_db",
+    "clip-worst-case": "worst_headroom_db",
+}
+
+
+def _merge_carried(found: list[Finding]) -> list[Finding]:
+    """One finding per run of stages that carry the same margin: the first stage's, naming
+    the others, so the designer sees one cause rather than a list of echoes."""
+    merged: list[Finding] = []
+    followers: dict[int, list[str]] = {}
+    for fi in found:
+        last = next((j for j in range(len(merged) - 1, -1, -1) if merged[j].code == fi.code), None)
+        if (
+            fi.code in _CARRIED
+            and last is not None
+            and abs(merged[last].figures[_CARRIED[fi.code]] - fi.figures[_CARRIED[fi.code]])
+            < SAME_MARGIN_DB
+            and fi.stage is not None
+        ):
+            followers.setdefault(last, []).append(fi.stage)
+            continue
+        merged.append(fi)
+    for j, stages in followers.items():
+        names = ", ".join(f'"{name}"' for name in stages)
+        first = merged[j]
+        merged[j] = replace(
+            first,
+            message=f"{first.message} (the same margin carries to the stages after it: {names})",
+        )
+    return merged
 
 
 def _clip_order(budget: Budget) -> list[Finding]:
