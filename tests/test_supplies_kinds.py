@@ -451,3 +451,33 @@ def test_missing_transformer_regulation_is_noted_and_giving_it_clears_the_note()
     # The no-load crest rises by the full 15 % of the peak (sqrt(2) 18 V at high line).
     rise = supply(with_regulation, "raw").output_max_v - supply(without, "raw").output_max_v
     assert rise == pytest.approx(0.15 * ROOT2 * 18.0 * 1.1, rel=1e-9)
+
+
+def _regulated(load: str) -> Budget:
+    return budget_of(
+        RAW_18V
+        + 'regulation = "10 %"\n'
+        + """
+[[supply]]
+name = "reg"
+kind = "regulator"
+from = "raw"
+output = "12 V"
+theta_ja = "50 K/W"
+max_junction = "125 degC"
+"""
+        + load_block("amp", "reg", load)
+    )
+
+
+def test_a_regulator_junction_within_25_k_of_its_maximum_is_a_warning() -> None:
+    """T_j = T_a + P theta_ja (Horowitz & Hill 3rd ed. sec. 9.4): about 0.13 A dropping some
+    14 V at high line is ~1.8 W, 25 + 50 x 1.8 = ~115 degC, within 25 K (common practice)
+    of 125 degC; 20 mA is ~0.3 W, ~40 degC, far from it."""
+    near, far = _regulated("0.13 A"), _regulated("20 mA")
+    hot = supply(near, "reg").junction_degc
+    cool = supply(far, "reg").junction_degc
+    assert hot is not None and cool is not None
+    assert 100.0 < hot <= 125.0 and cool < 100.0
+    assert "regulator-junction-near" in codes(near)
+    assert "regulator-junction-near" not in codes(far)

@@ -22,6 +22,11 @@ LARGE_RIPPLE_FRACTION = 0.2
 THIN_DROPOUT_MARGIN_V = 0.5
 
 
+# A junction within this of its maximum is running close (the same margin as the output
+# devices'; common practice, no source).
+JUNCTION_MARGIN_K = 25.0
+
+
 def _regulator(s: SupplyFigures, ambient_degc: float) -> list[Finding]:
     found: list[Finding] = []
     if s.in_regulation is False and s.dropout_margin_v is not None:
@@ -108,6 +113,19 @@ def _regulator(s: SupplyFigures, ambient_degc: float) -> list[Finding]:
                         "junction_degc": s.junction_degc,
                         "max_junction_degc": s.max_junction_degc,
                     },
+                )
+            )
+        elif s.junction_degc > s.max_junction_degc - JUNCTION_MARGIN_K:
+            found.append(
+                Finding(
+                    "warning",
+                    "regulator-junction-near",
+                    None,
+                    f'regulator "{s.name}" runs its junction at {s.junction_degc:.0f} degC at high '
+                    f"line and heaviest load, within {JUNCTION_MARGIN_K:g} K of its "
+                    f"{s.max_junction_degc:.0f} degC maximum; a larger heatsink or a lower "
+                    "input voltage buys life and margin for a hot day",
+                    {"junction_degc": s.junction_degc, "max_junction_degc": s.max_junction_degc},
                 )
             )
     elif s.theta_k_per_w is None and (s.dissipation_w or 0.0) > 0.0:

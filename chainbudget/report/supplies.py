@@ -177,9 +177,9 @@ def _checks(s: SupplyFigures) -> list[tuple[str, str, str]]:
                     DASH,
                 )
             )
-        if s.divider_suggestion is not None:
-            d = s.divider_suggestion
-            error = (s.vout_v - d.target_v) / d.target_v
+        d = s.divider_suggestion
+        error = 0.0 if d is None else (s.vout_v - d.target_v) / d.target_v
+        if d is not None and abs(d.error_fraction) < abs(error):  # only a better pair
             rows.append(
                 (
                     f"divider against the {eng(d.target_v, 'V', 4)} target",

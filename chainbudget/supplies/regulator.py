@@ -70,7 +70,12 @@ class Regulator(SupplyKind):
             "input current not delivered to the output (default: adjust_current, or 0)",
             None,
         ),
-        f.Field("ripple_rejection", f.DECIBELS, "ripple rejection at twice the mains", None),
+        f.Field(
+            "ripple_rejection",
+            f.DECIBELS,
+            "ripple rejection at the ripple frequency (twice the mains from a bridge)",
+            None,
+        ),
         f.Field("theta_ja", f.THERMAL_RESISTANCE, "junction to ambient, free air", None),
         f.Field("theta_jc", f.THERMAL_RESISTANCE, "junction to case (with heatsink)", None),
         f.Field("heatsink", f.THERMAL_RESISTANCE, "case to ambient: interface + sink", None),
