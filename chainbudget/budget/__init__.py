@@ -9,6 +9,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from chainbudget.budget.analysis import Analysis
+from chainbudget.budget.dcbias import DcPoint, dc_points
 from chainbudget.budget.levels import NodeLevels, VolumeClip, node_levels, volume_clip_rotation
 from chainbudget.budget.noise import NoiseBudget, noise_budget
 from chainbudget.budget.power import DriveBudget, OutputFigures, drive_budget, output_figures
@@ -50,11 +51,13 @@ class Budget:
     supply_ranges: tuple[SupplyRange, ...]
     floating: tuple[FloatingInput, ...]
     has_mains: bool
+    volume_stage: str | None
     sweep_points: int
     noise: NoiseBudget | None = None
     supplies: tuple[SupplyFigures, ...] = ()
     output: OutputFigures | None = None
     drive: DriveBudget | None = None
+    dc_points: tuple[DcPoint, ...] = ()
 
 
 def compute(chain: Chain) -> Budget:
@@ -91,9 +94,13 @@ def budget_from(analysis: Analysis) -> Budget:
         supply_ranges=tuple(supply_ranges(analysis)),
         floating=tuple(floating_inputs(analysis)),
         has_mains=any(s.kind == "rectified" for s in chain.supplies),
+        volume_stage=None
+        if analysis.volume_index is None
+        else chain.stages[analysis.volume_index].name,
         sweep_points=analysis.sweep_points,
         noise=noise_budget(analysis),
         supplies=supply_figures(analysis),
         output=output_figures(analysis),
         drive=drive_budget(analysis),
+        dc_points=dc_points(analysis),
     )

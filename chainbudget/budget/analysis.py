@@ -113,6 +113,13 @@ def solve_chain(
     return cascade(solutions, chain.source.impedance, chain.load.impedance)
 
 
+def master_volume(chain: Chain) -> int | None:
+    """Index of the volume control the listener turns: the last ``volume`` stage (one
+    earlier in the chain is a trim or an input attenuator)."""
+    found = [k for k, st in enumerate(chain.stages) if st.kind == "volume"]
+    return found[-1] if found else None
+
+
 def sweep_points(n_pots: int) -> int:
     """Rotations per pot so that the grid of all swept pots stays within MAX_COMBINATIONS
     (counting the setting and mid rotation each pot adds); at least 3 (0, 0.5, 1)."""
@@ -158,7 +165,7 @@ def analyse(
         grid_positions[sc.stage_index][sc.control.key] = sc.rotations.reshape(shape)
     worst = solve_chain(chain, envs, frequency, grid_positions) if swept else nominal
 
-    volume_index = next((k for k, st in enumerate(chain.stages) if st.kind == "volume"), None)
+    volume_index = master_volume(chain)
     rotations = np.linspace(0.0, 1.0, VOLUME_POINTS)
     volume_sweep = None
     if volume_index is not None:

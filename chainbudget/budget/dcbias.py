@@ -22,6 +22,8 @@ SOURCE_DC_V = 0.0
 #: DC potential the load returns an undriven (capacitor-coupled) output node to, V: the
 #: load is resistive to 0 V.
 LOAD_DC_V = 0.0
+#: A DC this close to the edge of an output's range counts as at the edge (rounding only).
+EDGE_TOLERANCE_V = 1e-9
 
 
 @dataclass(frozen=True)
@@ -55,9 +57,12 @@ class DcPoint:
 
     @property
     def outside(self) -> bool:
-        """Whether the output's DC lies beyond the range it can reach."""
+        """Whether the output's DC lies at or beyond the edge of the range it can reach
+        (at the edge it is already saturated)."""
         w, v = self.window, self.output_v
-        return w is not None and v is not None and not w.low_v <= v <= w.high_v
+        if w is None or v is None:
+            return False
+        return not w.low_v + EDGE_TOLERANCE_V < v < w.high_v - EDGE_TOLERANCE_V
 
     @property
     def offset_v(self) -> float | None:

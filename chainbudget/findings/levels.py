@@ -22,7 +22,9 @@ def _limit_text(what: str | None) -> str:
 def rules(budget: Budget) -> list[Finding]:
     """Clipping, thin margins, clip order, volume rotation, supply range and DC paths."""
     found: list[Finding] = []
-    volume_at = next((k for k, n in enumerate(budget.nodes) if n.kind == "volume"), None)
+    volume_at = next(
+        (k for k, n in enumerate(budget.nodes) if n.stage == budget.volume_stage), None
+    )
     for k, node in enumerate(budget.nodes):
         if node.headroom_db is None or node.nominal_headroom_db is None:
             continue

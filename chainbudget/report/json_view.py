@@ -11,7 +11,7 @@ import numpy as np
 from chainbudget.budget import Budget
 from chainbudget.budget.levels import NodeLevels
 from chainbudget.findings import Finding
-from chainbudget.report import noise, power, supplies
+from chainbudget.report import dcbias, noise, power, supplies
 from chainbudget.report.cautions import cautions
 
 
@@ -54,7 +54,11 @@ def _node(node: NodeLevels) -> dict[str, Any]:
 
 # Areas of the budget add their parts here: NODE_PARTS entries give extra keys for node k,
 # TOP_PARTS entries extra top-level keys.
-NODE_PARTS: list[Callable[[Budget, int], dict[str, Any]]] = [noise.node_json, power.node_json]
+NODE_PARTS: list[Callable[[Budget, int], dict[str, Any]]] = [
+    noise.node_json,
+    power.node_json,
+    dcbias.node_json,
+]
 TOP_PARTS: list[Callable[[Budget], dict[str, Any]]] = [
     noise.json_part,
     supplies.json_part,

@@ -11,13 +11,16 @@ from rich.table import Table
 from chainbudget.budget import Budget
 from chainbudget.findings import Finding
 from chainbudget.notation import DASH, decibels, eng
-from chainbudget.report import noise, power, supplies
+from chainbudget.report import dcbias, noise, power, supplies
 from chainbudget.report.cautions import cautions
 from chainbudget.units import vrms_to_dbu
 
 # Areas of the budget add columns to the node table (NODE_COLUMNS: header, justify and a
 # cell function of (budget, k)) and tables of their own (TABLES).
-NODE_COLUMNS: list[tuple[str, str, Callable[[Budget, int], str]]] = [*noise.NODE_COLUMNS]
+NODE_COLUMNS: list[tuple[str, str, Callable[[Budget, int], str]]] = [
+    *noise.NODE_COLUMNS,
+    *dcbias.NODE_COLUMNS,
+]
 TABLES: list[Callable[[Budget], list[Table]]] = [noise.tables, supplies.tables, power.tables]
 
 _SEVERITY_MARK = {"error": "ERROR", "warning": "warn ", "note": "note "}
@@ -88,7 +91,7 @@ def worst_case_lines(budget: Budget) -> list[str]:
 def loading_table(budget: Budget) -> Table:
     """One row per node: output impedance, what it drives, and each area's node columns."""
     table = Table(
-        title="Nodes: impedances and noise (controls as set)",
+        title="Nodes: impedances, noise and DC (controls as set)",
         box=box.SIMPLE_HEAD,
         title_justify="left",
     )

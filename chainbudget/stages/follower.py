@@ -71,9 +71,7 @@ class FollowerBias:
         return self.i_e <= 0.0 or self.collector_room_v <= 0.0 or self.bias_room_v <= 0.0
 
 
-def follower_bias(
-    stage: Stage, env: Environment, base_drive: float | None = None
-) -> FollowerBias:
+def follower_bias(stage: Stage, env: Environment, base_drive: float | None = None) -> FollowerBias:
     """The follower's DC operating point from its rails, base bias and bias circuit.
 
     Notes

@@ -171,7 +171,10 @@ class OpAmpGain(StageKind):
         rails = env.rails
         if rails is None or stage.values.get("input_cap") is not None:
             return None
-        if stage.values["topology"] == "non-inverting" and stage.values.get("bias_resistor") is None:
+        if (
+            stage.values["topology"] == "non-inverting"
+            and stage.values.get("bias_resistor") is None
+        ):
             return None
         return rails.bias
 

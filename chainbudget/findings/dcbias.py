@@ -1,0 +1,81 @@
+"""Findings about the DC operating point: outputs off their bias point, DC on pot tracks."""
+
+from __future__ import annotations
+
+from chainbudget.budget import Budget
+from chainbudget.budget.dcbias import DcPoint
+from chainbudget.findings.base import Finding
+
+# An output sitting more than this fraction of its swing room away from its bias point has
+# lost a noticeable slice of headroom on that side (10 % of the room costs 0.9 dB); a
+# designer re-biases past that (common practice, no source).
+DC_OFFSET_FRACTION = 0.10
+# DC across a pot track above this makes it crackle as the wiper moves and the wiper passes
+# DC steps on (common practice, no source).
+POT_DC_LIMIT_V = 0.1
+
+
+def _output_text(point: DcPoint) -> str:
+    return "its output" if point.kind != "follower" else "its emitter"
+
+
+def _operating_point(point: DcPoint) -> list[Finding]:
+    w, v = point.window, point.output_v
+    if w is None or v is None:
+        return []
+    figures = {"dc_v": v, "bias_v": w.bias_v, "low_v": w.low_v, "high_v": w.high_v}
+    source = "" if point.input_v is None else f"with its input at {point.input_v:.3g} V DC, "
+    if point.outside:
+        edge = "bottom" if v < w.low_v else "top"
+        return [
+            Finding(
+                "error",
+                "dc-operating-point",
+                point.stage,
+                f"{source}{_output_text(point)} would sit at {v:.3g} V DC, outside the "
+                f"{w.low_v:.3g} to {w.high_v:.3g} V it can reach (bias point {w.bias_v:.3g} V): "
+                f"it sits at the {edge} of its range and passes no signal; {w.remedy}",
+                figures,
+            )
+        ]
+    fraction, loss, offset = point.offset_fraction, point.headroom_loss_db, point.offset_v
+    if fraction is None or loss is None or offset is None or fraction <= DC_OFFSET_FRACTION:
+        return []
+    return [
+        Finding(
+            "warning",
+            "dc-offset",
+            point.stage,
+            f"{source}{_output_text(point)} sits at {v:.3g} V DC, {offset:+.3g} V from its bias "
+            f"point {w.bias_v:.3g} V: {100.0 * fraction:.0f} % of its swing room on that side "
+            f"(more than {100.0 * DC_OFFSET_FRACTION:g} %), so it clips {loss:.1f} dB earlier "
+            f"than the headroom figures say; {w.remedy}",
+            {**figures, "offset_fraction": fraction, "headroom_loss_db": loss},
+        )
+    ]
+
+
+def _pot(point: DcPoint) -> list[Finding]:
+    top = point.pot_top_v
+    if top is None or abs(top) <= POT_DC_LIMIT_V:
+        return []
+    return [
+        Finding(
+            "warning",
+            "pot-carries-dc",
+            point.stage,
+            f"the pot's track carries {top:.3g} V DC from the stage before (more than "
+            f"{POT_DC_LIMIT_V:g} V): it crackles as the wiper moves and the wiper hands DC "
+            "steps on; add input_cap (a coupling capacitor ahead of the pot)",
+            {"pot_top_v": top},
+        )
+    ]
+
+
+def rules(budget: Budget) -> list[Finding]:
+    """DC outside an output's reach (error), far off its bias point, DC on a pot track."""
+    found: list[Finding] = []
+    for point in budget.dc_points:
+        found += _operating_point(point)
+        found += _pot(point)
+    return found
