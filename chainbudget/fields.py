@@ -9,9 +9,9 @@ declaration.
 from __future__ import annotations
 
 import difflib
-from collections.abc import Callable, Iterable
+from collections.abc import Callable, Iterable, Mapping
 from dataclasses import dataclass
-from typing import Any
+from typing import Any, ClassVar
 
 from chainbudget import units
 from chainbudget.units import UnitParseError
@@ -199,3 +199,27 @@ FLAG = FieldKind("true | false", _read_bool, bool)
 NAME = FieldKind("name", _read_name, str)
 COUNT = FieldKind("whole number", _read_integer, int)
 BAND = FieldKind("[low, high] Hz", _read_band, lambda band: [f"{band[0]!r} Hz", f"{band[1]!r} Hz"])
+
+
+@dataclass(frozen=True)
+class TableEntry:
+    """One validated entry of an array of tables (``[[stage]]``, ``[[supply]]``): its 1-based
+    ``index`` as the table path in messages shows it, name, kind and SI values with defaults
+    filled in."""
+
+    table: ClassVar[str]
+    index: int
+    name: str
+    kind: str
+    values: Mapping[str, Any]
+
+    def number(self, key: str) -> float:
+        return float(self.values[key])
+
+    def optional(self, key: str) -> float | None:
+        value = self.values.get(key)
+        return None if value is None else float(value)
+
+    @property
+    def path(self) -> str:
+        return f'{self.table}[{self.index}] "{self.name}"'

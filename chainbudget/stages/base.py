@@ -23,27 +23,10 @@ from chainbudget.spectrum import flicker_psd
 
 
 @dataclass(frozen=True)
-class Stage:
-    """One validated ``[[stage]]`` table: SI values, defaults filled in.
+class Stage(f.TableEntry):
+    """One validated ``[[stage]]`` table."""
 
-    ``index`` is 1-based, as the table path in messages shows it.
-    """
-
-    index: int
-    name: str
-    kind: str
-    values: Mapping[str, Any]
-
-    def number(self, key: str) -> float:
-        return float(self.values[key])
-
-    def optional(self, key: str) -> float | None:
-        value = self.values.get(key)
-        return None if value is None else float(value)
-
-    @property
-    def path(self) -> str:
-        return f'stage[{self.index}] "{self.name}"'
+    table = "stage"
 
 
 @dataclass(frozen=True)

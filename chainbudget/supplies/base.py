@@ -19,29 +19,15 @@ GROUND_SUPPLY = "ground"
 
 
 @dataclass(frozen=True)
-class Supply:
-    """One validated ``[[supply]]`` table (1-based ``index``), SI values."""
+class Supply(f.TableEntry):
+    """One validated ``[[supply]]`` table."""
 
-    index: int
-    name: str
-    kind: str
-    values: Mapping[str, Any]
-
-    def number(self, key: str) -> float:
-        return float(self.values[key])
-
-    def optional(self, key: str) -> float | None:
-        value = self.values.get(key)
-        return None if value is None else float(value)
+    table = "supply"
 
     @property
     def parent(self) -> str | None:
         value = self.values.get("from")
         return None if value is None else str(value)
-
-    @property
-    def path(self) -> str:
-        return f'supply[{self.index}] "{self.name}"'
 
 
 @dataclass(frozen=True)
