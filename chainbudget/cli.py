@@ -136,6 +136,32 @@ def blocks(
 
 
 @app.command()
+def plot(
+    file: Annotated[Path, typer.Argument(help="chain file (TOML)")],
+    output: Annotated[
+        Path, typer.Option("--output", "-o", help="picture to write (.png, .svg, .pdf)")
+    ],
+    force: Annotated[bool, typer.Option(help="overwrite an existing picture")] = False,
+) -> None:
+    """Draw every node's headroom across the band, as set and at the worst setting."""
+    if output.suffix.lower() not in (".png", ".svg", ".pdf"):
+        raise _fail(f'--output: got "{output}", expected a .png, .svg or .pdf file')
+    if output.exists() and not force:
+        raise _fail(f"{output}: already exists; pass --force to overwrite it")
+    try:
+        chain = load_chain(file)
+    except ChainError as exc:
+        raise _fail(str(exc)) from None
+    from chainbudget.report.plot import plot_headroom  # matplotlib only on this path
+
+    try:
+        plot_headroom(compute(chain), output)
+    except OSError as exc:
+        raise _fail(f"{output}: cannot write ({exc.strerror})") from None
+    typer.echo(f"wrote {output}")
+
+
+@app.command()
 def new(
     file: Annotated[Path, typer.Argument(help="where to write the starter chain")],
     force: Annotated[bool, typer.Option(help="overwrite an existing file")] = False,

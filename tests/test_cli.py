@@ -272,3 +272,13 @@ def test_python_dash_m_runs_and_pipes_plain_text() -> None:
     )
     assert done.returncode in (0, 1)
     assert "\x1b[" not in done.stdout  # no colour codes when not a terminal
+
+
+def test_the_check_path_does_not_load_matplotlib() -> None:
+    """matplotlib is for `plot` only; `check` must start without it (architecture guide)."""
+    code = (
+        "import sys; from chainbudget.cli import app; "
+        "assert 'matplotlib' not in sys.modules, 'matplotlib loaded'"
+    )
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=False)
+    assert done.returncode == 0, done.stderr

@@ -10,7 +10,14 @@ from dataclasses import dataclass
 
 from chainbudget.budget.analysis import Analysis
 from chainbudget.budget.dcbias import DcPoint, dc_points
-from chainbudget.budget.levels import NodeLevels, VolumeClip, node_levels, volume_clip_rotation
+from chainbudget.budget.levels import (
+    HeadroomCurves,
+    NodeLevels,
+    VolumeClip,
+    headroom_curves,
+    node_levels,
+    volume_clip_rotation,
+)
 from chainbudget.budget.noise import NoiseBudget, noise_budget
 from chainbudget.budget.power import DriveBudget, OutputFigures, drive_budget, output_figures
 from chainbudget.budget.staging import (
@@ -53,6 +60,7 @@ class Budget:
     has_mains: bool
     volume_stage: str | None
     sweep_points: int
+    curves: HeadroomCurves
     noise: NoiseBudget | None = None
     supplies: tuple[SupplyFigures, ...] = ()
     output: OutputFigures | None = None
@@ -98,6 +106,7 @@ def budget_from(analysis: Analysis) -> Budget:
         if analysis.volume_index is None
         else chain.stages[analysis.volume_index].name,
         sweep_points=analysis.sweep_points,
+        curves=headroom_curves(analysis),
         noise=noise_budget(analysis),
         supplies=supply_figures(analysis),
         output=output_figures(analysis),

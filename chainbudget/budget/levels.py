@@ -195,3 +195,42 @@ def volume_clip_rotation(analysis: Analysis, output_index: int) -> VolumeClip | 
     rotation = float(analysis.volume_rotations[np.argmax(clipping)]) if clipping.any() else None
     stages = analysis.chain.stages
     return VolumeClip(stages[analysis.volume_index].name, stages[output_index].name, rotation)
+
+
+@dataclass(frozen=True)
+class HeadroomCurve:
+    """A node's headroom of max_level across the band, dB: with the controls as set, and the
+    least over every swept control at each frequency."""
+
+    stage: str
+    as_set_db: tuple[float, ...]
+    worst_db: tuple[float, ...]
+
+
+@dataclass(frozen=True)
+class HeadroomCurves:
+    """Headroom of every limited node over the band grid (the plot's data)."""
+
+    frequency_hz: tuple[float, ...]
+    nodes: tuple[HeadroomCurve, ...]
+
+
+def headroom_curves(analysis: Analysis) -> HeadroomCurves:
+    """Headroom against frequency for every node with a limit (band grid only)."""
+    band = analysis.band_slice
+    max_peak = SQRT2 * analysis.chain.source.max_level
+    curves = []
+    for k, sol in enumerate(analysis.nominal.stages):
+        as_set = clip_source_peak(analysis.nominal, k)
+        swept = clip_source_peak(analysis.swept, k)
+        if as_set is None or swept is None:
+            continue
+        worst = swept[0].reshape(-1, swept[0].shape[-1]).min(axis=0)
+        curves.append(
+            HeadroomCurve(
+                sol.stage.name,
+                tuple(float(v) for v in db(as_set[0][..., band] / max_peak)),
+                tuple(float(v) for v in db(worst[band] / max_peak)),
+            )
+        )
+    return HeadroomCurves(tuple(float(f) for f in analysis.frequency[band]), tuple(curves))
