@@ -204,6 +204,13 @@ def _parts(
 def _settings(reader: _Reader, data: Mapping[str, Any], default_title: str) -> Settings:
     body = reader.table(data.get("chain", {}), "chain")
     values = reader.read(body, SETTINGS_FIELDS, "chain")
+    lo, hi = values["band"]
+    if not lo <= values["reference"] <= hi:
+        raise reader.error(
+            "chain.reference",
+            f"got {values['reference']:g} Hz, expected a frequency within the band "
+            f"({lo:g} to {hi:g} Hz)",
+        )
     return Settings(**{**values, "title": values["title"] or default_title})
 
 
@@ -310,6 +317,12 @@ def parse_chain(data: Mapping[str, Any], file: str) -> Chain:
     source_values = reader.read(reader.table(data["source"], "source"), SOURCE_FIELDS, "source")
     if source_values["max_level"] is None:
         source_values["max_level"] = source_values["level"]
+    if source_values["max_level"] < source_values["level"]:
+        raise reader.error(
+            "source.max_level",
+            f"got {source_values['max_level']:.4g} Vrms, expected at least the nominal level "
+            f"({source_values['level']:.4g} Vrms)",
+        )
     if "load" not in data:
         raise reader.error("load", "missing required table [load]")
     load_values = reader.read(reader.table(data["load"], "load"), LOAD_FIELDS, "load")

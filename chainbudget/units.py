@@ -187,19 +187,28 @@ def parse_db(value: object) -> float:
     raise UnitParseError(value, 'a figure in decibels such as "65 dB"')
 
 
+# No audio gain stage or open-loop gain comes near 200 dB; past it a figure is a typo and
+# would overflow the network's arithmetic.
+MAX_GAIN_RATIO = 1e10
+
+
 def parse_gain(value: object) -> float:
-    """Read a voltage gain given in dB (``"26 dB"``) or as a plain ratio (``20``); a ratio."""
-    expected = 'a voltage gain such as "26 dB" or a plain ratio such as 20'
+    """Read a voltage gain given in dB (``"26 dB"``) or as a plain ratio (``20``); a ratio
+    of magnitude at most 1e10 (200 dB)."""
+    expected = 'a voltage gain such as "26 dB" or a plain ratio such as 20, up to 200 dB'
+    gain: float | None = None
     if isinstance(value, int | float) and not isinstance(value, bool) and math.isfinite(value):
-        return float(value)
-    if isinstance(value, str):
+        gain = float(value)
+    elif isinstance(value, str):
         match = _DB_RE.match(value)
-        if match:
-            return _finite_ratio(float(match.group(1)), value, expected)
         bare = _NUMBER_RE.match(value)
-        if bare and not bare.group(2) and math.isfinite(float(bare.group(1))):
-            return float(bare.group(1))
-    raise UnitParseError(value, expected)
+        if match:
+            gain = _finite_ratio(float(match.group(1)), value, expected)
+        elif bare and not bare.group(2) and math.isfinite(float(bare.group(1))):
+            gain = float(bare.group(1))
+    if gain is None or abs(gain) > MAX_GAIN_RATIO:
+        raise UnitParseError(value, expected)
+    return gain
 
 
 def parse_fraction(value: object) -> float:

@@ -61,3 +61,28 @@ def test_a_power_block_driving_the_speaker_carries_a_hot_parts_caution() -> None
     assert HOT_PART_W < 6.25
     assert any(t.startswith('Hot parts: "amp"') for t in texts("10 V", "10 mA"))
     assert not any(t.startswith('Hot parts: "amp"') for t in texts("1 V", "10 mA"))
+
+
+def test_a_block_with_no_output_limit_still_carries_its_cautions() -> None:
+    """With no stage declaring a limit the maximum output is unknown: the report says so
+    (no infinite watts) and takes the loudness from the nominal level: 316 mV through the
+    1k/10k input divider, x 31.6, through 0.1 ohm into 8 ohm is 8.98 V rms, 10.1 W, and
+    90 dB + 10 log10(10.1) = 100 dB SPL (the definition of sensitivity)."""
+    text = """
+[source]
+level = "-10 dBV"
+impedance = "1k"
+[load]
+impedance = "8 ohm"
+sensitivity = "90 dB"
+[[stage]]
+name = "amp"
+kind = "block"
+gain = "30 dB"
+input_impedance = "10k"
+output_impedance = "0.1 ohm"
+"""
+    found = cautions(compute(parse_chain(tomllib.loads(text), "t.toml")))
+    assert not any("inf" in t for t in found)
+    assert any(t.startswith("Loudness: this amplifier can reach about 100 dB") for t in found)
+    assert any(t.startswith('Hot parts: "amp" drives the load with no output limit') for t in found)

@@ -328,3 +328,15 @@ def test_dc_supply_ends_must_bracket_its_voltage(tmp_path: Path, extra: str, key
         f'name = "minus"\nkind = "dc"\n{extra}',
     )
     assert error.path == f'supply[2] "minus".{key}'
+
+
+def test_reference_frequency_outside_the_band_is_refused(tmp_path: Path) -> None:
+    """The nominal figures are taken at the reference and the worst case over the band: a
+    reference outside the band would mix the two."""
+    error = _error(tmp_path, 'reference = "1 kHz"', 'reference = "50 kHz"')
+    assert error.path == "chain.reference"
+
+
+def test_max_level_below_the_nominal_level_is_refused(tmp_path: Path) -> None:
+    error = _error(tmp_path, 'max_level = "+4 dBu"', 'max_level = "-60 dBV"')
+    assert error.path == "source.max_level"

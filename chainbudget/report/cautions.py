@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable
 
 from chainbudget.budget import Budget
@@ -46,6 +47,12 @@ def _hot_output_block(budget: Budget) -> list[str]:
     last = budget.nodes[-1] if budget.nodes else None
     if out is None or last is None or last.kind != "block" or out.clip_power_w < HOT_PART_W:
         return []
+    if not math.isfinite(out.clip_power_w):
+        return [
+            f'Hot parts: "{last.stage}" drives the load with no output limit given, so its '
+            "heat cannot be estimated; power modules run hot enough to burn. Follow its "
+            "maker's mounting and ventilation advice and check its temperature on the bench."
+        ]
     return [
         f'Hot parts: "{last.stage}" delivers up to {out.clip_power_w:.3g} W into the load and '
         "turns a good part of that into heat; its heatsink can burn on touch. Follow its maker's "

@@ -94,16 +94,21 @@ def _degc(value: float | None) -> str:
 
 
 def _db(value: float | None) -> str:
-    return DASH if value is None else f"{value:.1f} dB"
+    if value is None:
+        return DASH
+    return f"{value:.1f} dB" if math.isfinite(value) else "no limit given"
 
 
 def output_table(out: OutputFigures) -> Table:
     table = _table(
         f"Output into {out.load_ohm:g} ohm (reference frequency; sine)", "figure", "value", "note"
     )
+    limited = math.isfinite(out.clip_power_w)
     table.add_row(
         "max output",
-        f"{eng(out.clip_power_w, 'W')} ({eng(out.clip_vpk, 'Vpk')})",
+        f"{eng(out.clip_power_w, 'W')} ({eng(out.clip_vpk, 'Vpk')})"
+        if limited
+        else "no limit given (no stage declares one)",
         f"set by {out.clip_stage}: {out.clip_limit}" if out.clip_stage else DASH,
     )
     if out.output_stage_clip_power_w is not None and out.clip_stage != out.stage:
@@ -246,6 +251,8 @@ def cautions(budget: Budget) -> list[str]:
             "the bench before closing the box."
         )
     spl = None if out is None else out.max_spl_db
+    if out is not None and spl is not None and not math.isfinite(spl):
+        spl = out.nominal_spl_db  # no stage limits the output: the nominal level is known
     if spl is not None and math.isfinite(spl) and spl >= LOUD_SPL_DB:
         found.append(
             f"Loudness: this amplifier can reach about {spl:.0f} dB SPL at 1 m. "
