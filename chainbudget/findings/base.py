@@ -6,6 +6,13 @@ from dataclasses import dataclass, field
 
 SEVERITIES = ("error", "warning", "note")
 
+# Margins shared by several rule sets. Headroom at max level under 6 dB is thin (contract:
+# "headroom under 6 dB at max level"; also the trade's usual allowance for programme peaks,
+# common practice, no source). A junction within 25 K of its maximum runs close (common
+# practice, no source).
+THIN_HEADROOM_DB = 6.0
+JUNCTION_MARGIN_K = 25.0
+
 
 @dataclass(frozen=True)
 class Finding:

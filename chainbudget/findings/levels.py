@@ -6,13 +6,8 @@ from dataclasses import replace
 
 from chainbudget.budget import Budget
 from chainbudget.budget.analysis import SWEEP_POINTS
-from chainbudget.findings.base import Finding
+from chainbudget.findings.base import THIN_HEADROOM_DB, Finding
 from chainbudget.notation import hertz
-
-# Headroom at max level below this is a thin margin (chain-format contract: "headroom under
-# 6 dB at max level"); 6 dB is also the trade's usual allowance for programme peaks above
-# the calibrated level (common practice, no source).
-THIN_HEADROOM_DB = 6.0
 
 
 def _limit_text(what: str | None) -> str:

@@ -4,18 +4,12 @@ from __future__ import annotations
 
 from chainbudget.budget import Budget
 from chainbudget.budget.power import Dissipation, DriveBudget, OutputFigures
-from chainbudget.findings.base import Finding
+from chainbudget.findings.base import JUNCTION_MARGIN_K, THIN_HEADROOM_DB, Finding
 from chainbudget.notation import amps, hertz, ohms, watts
 
 # Drive current within this factor of the limit leaves a thin margin: 6 dB, the same
 # allowance the contract asks of voltage headroom at max level (common practice, no source).
 DRIVE_MARGIN = 0.5
-# A junction within this of its maximum rating has little margin for a hot day, a dusty
-# heatsink or a part at the bad end of its spread; designers commonly keep 20-30 K
-# (common practice, no source).
-JUNCTION_MARGIN_K = 25.0
-# Voltage headroom under this is thin (contract: "headroom under 6 dB at max level").
-THIN_HEADROOM_DB = 6.0
 
 
 def rules(budget: Budget) -> list[Finding]:

@@ -6,7 +6,7 @@ from dataclasses import replace
 
 from chainbudget.budget import Budget
 from chainbudget.budget.supplies import SupplyFigures
-from chainbudget.findings.base import Finding
+from chainbudget.findings.base import JUNCTION_MARGIN_K, Finding
 from chainbudget.notation import amps
 
 # A capacitor-input rectifier draws its charge in short peaks, so the transformer's rms
@@ -20,11 +20,6 @@ LARGE_RIPPLE_FRACTION = 0.2
 # A dropout margin under this is in regulation on paper only: the part's dropout, the
 # mains and the diodes all spread (our design allowance, not from a source).
 THIN_DROPOUT_MARGIN_V = 0.5
-
-
-# A junction within this of its maximum is running close (the same margin as the output
-# devices'; common practice, no source).
-JUNCTION_MARGIN_K = 25.0
 
 
 def _regulator(s: SupplyFigures, ambient_degc: float) -> list[Finding]:

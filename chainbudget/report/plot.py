@@ -9,7 +9,7 @@ from pathlib import Path
 
 from chainbudget.budget import Budget
 from chainbudget.budget.levels import HeadroomCurves
-from chainbudget.findings.levels import THIN_HEADROOM_DB
+from chainbudget.findings.base import THIN_HEADROOM_DB
 
 
 def plot_headroom(budget: Budget, target: Path) -> None:
