@@ -34,7 +34,12 @@ class Block(StageKind):
         f.Field("output_impedance", f.RESISTANCE_OR_ZERO, "output impedance (resistive)"),
         f.Field("noise", f.NOISE_VOLTAGE, "input-referred noise density", 0.0),
         f.Field("max_output", f.POSITIVE_VOLTAGE, "peak output voltage at its terminals", None),
-        f.Field("supply_current", f.CURRENT, "current drawn from its positive rail", 0.0),
+        f.Field(
+            "supply_current",
+            f.CURRENT,
+            "current it draws (from the positive rail; from both on split rails)",
+            0.0,
+        ),
         *RAIL_FIELDS,
     )
 
