@@ -7,7 +7,7 @@ the chain file's ``[opamp.NAME]`` or ``[transistor.NAME]`` table.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 from chainbudget import fields as f
 
@@ -144,63 +144,30 @@ GENERIC_OPAMPS: dict[str, OpAmp] = {
     )
 }
 
+
+def _complementary_pair(
+    family: str, what: str, beta: float, vbe: float, vce_sat: float, base_resistance: float
+) -> tuple[Transistor, Transistor]:
+    """An NPN class and its PNP complement with the same typical figures."""
+    npn = Transistor(
+        name=f"{family}_npn",
+        polarity="npn",
+        beta=beta,
+        vbe=vbe,
+        vce_sat=vce_sat,
+        base_resistance=base_resistance,
+        description=f"{what} NPN. {_GENERIC}",
+    )
+    pnp = replace(npn, name=f"{family}_pnp", polarity="pnp", description=f"{what} PNP. {_GENERIC}")
+    return npn, pnp
+
+
 GENERIC_TRANSISTORS: dict[str, Transistor] = {
     t.name: t
     for t in (
-        Transistor(
-            name="small_npn",
-            polarity="npn",
-            beta=200.0,
-            vbe=0.65,
-            vce_sat=0.2,
-            base_resistance=100.0,
-            description="Small-signal NPN. " + _GENERIC,
-        ),
-        Transistor(
-            name="small_pnp",
-            polarity="pnp",
-            beta=200.0,
-            vbe=0.65,
-            vce_sat=0.2,
-            base_resistance=100.0,
-            description="Small-signal PNP. " + _GENERIC,
-        ),
-        Transistor(
-            name="driver_npn",
-            polarity="npn",
-            beta=100.0,
-            vbe=0.7,
-            vce_sat=0.3,
-            base_resistance=50.0,
-            description="Medium-power driver NPN. " + _GENERIC,
-        ),
-        Transistor(
-            name="driver_pnp",
-            polarity="pnp",
-            beta=100.0,
-            vbe=0.7,
-            vce_sat=0.3,
-            base_resistance=50.0,
-            description="Medium-power driver PNP. " + _GENERIC,
-        ),
-        Transistor(
-            name="power_npn",
-            polarity="npn",
-            beta=50.0,
-            vbe=0.8,
-            vce_sat=1.0,
-            base_resistance=10.0,
-            description="Power NPN for output stages. " + _GENERIC,
-        ),
-        Transistor(
-            name="power_pnp",
-            polarity="pnp",
-            beta=50.0,
-            vbe=0.8,
-            vce_sat=1.0,
-            base_resistance=10.0,
-            description="Power PNP for output stages. " + _GENERIC,
-        ),
+        *_complementary_pair("small", "Small-signal", 200.0, 0.65, 0.2, 100.0),
+        *_complementary_pair("driver", "Medium-power driver", 100.0, 0.7, 0.3, 50.0),
+        *_complementary_pair("power", "Output-stage power", 50.0, 0.8, 1.0, 10.0),
     )
 }
 

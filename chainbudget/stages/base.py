@@ -65,6 +65,26 @@ class Environment:
 
 
 @dataclass(frozen=True)
+class OwnParts:
+    """Stamps a stage's own resistors: labelled ``stage.part`` and carrying their thermal
+    noise at the stage's temperature."""
+
+    net: Netlist
+    stage: str
+    temperature_k: float
+
+    def resistor(self, part: str, a: str, b: str, resistance: ArrayLike) -> None:
+        self.net.resistor(
+            a,
+            b,
+            resistance,
+            label=f"{self.stage}.{part}",
+            stage=self.stage,
+            temperature_k=self.temperature_k,
+        )
+
+
+@dataclass(frozen=True)
 class Control:
     """A pot a designer turns: its field, its setting and whether the search sweeps it."""
 

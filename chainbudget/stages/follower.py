@@ -17,6 +17,7 @@ from chainbudget.stages.base import (
     DcWindow,
     Environment,
     Limit,
+    OwnParts,
     Stage,
     StageKind,
 )
@@ -207,6 +208,7 @@ class Follower(StageKind):
         positions: Mapping[str, ArrayLike],
     ) -> Built:
         name, t = stage.name, env.temperature_k
+        own = OwnParts(net, name, t)
         bias = follower_bias(stage, env)
         base = node_in
         input_cap = stage.optional("input_cap")
@@ -215,24 +217,10 @@ class Follower(StageKind):
             net.capacitor(node_in, base, input_cap)
         bias_resistor = stage.optional("bias_resistor")
         if bias_resistor is not None:
-            net.resistor(
-                base,
-                GROUND,
-                bias_resistor,
-                label=f"{name}.bias_resistor",
-                stage=name,
-                temperature_k=t,
-            )
+            own.resistor("bias_resistor", base, GROUND, bias_resistor)
         base_resistor = stage.number("base_resistor")
         if base_resistor > 0.0:
-            net.resistor(
-                base,
-                f"{name}.base",
-                base_resistor,
-                label=f"{name}.base_resistor",
-                stage=name,
-                temperature_k=t,
-            )
+            own.resistor("base_resistor", base, f"{name}.base", base_resistor)
             base = f"{name}.base"
         output_cap = stage.optional("output_cap")
         emitter = node_out if output_cap is None else f"{name}.emitter"
@@ -240,14 +228,7 @@ class Follower(StageKind):
             net, base, emitter, bias.small_signal, label=f"{name}.q", stage=name, temperature_k=t
         )
         if stage.values["bias"] == "resistor":
-            net.resistor(
-                emitter,
-                GROUND,
-                stage.number("emitter_resistor"),
-                label=f"{name}.emitter_resistor",
-                stage=name,
-                temperature_k=t,
-            )
+            own.resistor("emitter_resistor", emitter, GROUND, stage.number("emitter_resistor"))
         if output_cap is not None:
             net.capacitor(emitter, node_out, output_cap)
         part = transistor_part(stage, env)

@@ -14,6 +14,7 @@ from chainbudget.stages.base import (
     Built,
     DcWindow,
     Environment,
+    OwnParts,
     Stage,
     StageKind,
     inverting_dc_output,
@@ -68,6 +69,7 @@ class OpAmpGain(StageKind):
     ) -> Built:
         built = Built()
         name, t = stage.name, env.temperature_k
+        own = OwnParts(net, name, t)
         cap_in, feedback_cap = stage.optional("input_cap"), stage.optional("feedback_cap")
         summing = f"{name}.sum"
         if stage.values["topology"] == "non-inverting":
@@ -77,47 +79,19 @@ class OpAmpGain(StageKind):
                 net.capacitor(node_in, plus, cap_in)
             bias_resistor = stage.optional("bias_resistor")
             if bias_resistor is not None:
-                net.resistor(
-                    plus,
-                    GROUND,
-                    bias_resistor,
-                    label=f"{name}.bias_resistor",
-                    stage=name,
-                    temperature_k=t,
-                )
+                own.resistor("bias_resistor", plus, GROUND, bias_resistor)
             leg_top, ground_cap = GROUND, stage.optional("ground_cap")
             if ground_cap is not None:
                 leg_top = f"{name}.leg"
                 net.capacitor(leg_top, GROUND, ground_cap)
-            net.resistor(
-                summing,
-                leg_top,
-                stage.number("ground_leg"),
-                label=f"{name}.ground_leg",
-                stage=name,
-                temperature_k=t,
-            )
+            own.resistor("ground_leg", summing, leg_top, stage.number("ground_leg"))
         else:
             plus, source = GROUND, node_in
             if cap_in is not None:
                 source = f"{name}.in_cap"
                 net.capacitor(node_in, source, cap_in)
-            net.resistor(
-                source,
-                summing,
-                stage.number("input"),
-                label=f"{name}.input",
-                stage=name,
-                temperature_k=t,
-            )
-        net.resistor(
-            node_out,
-            summing,
-            stage.number("feedback"),
-            label=f"{name}.feedback",
-            stage=name,
-            temperature_k=t,
-        )
+            own.resistor("input", source, summing, stage.number("input"))
+        own.resistor("feedback", node_out, summing, stage.number("feedback"))
         if feedback_cap is not None:
             net.capacitor(node_out, summing, feedback_cap)
         stamp_opamp(net, stage, env, plus, summing, node_out, built)

@@ -14,7 +14,15 @@ from chainbudget import fields as f
 from chainbudget import units
 from chainbudget.network import Netlist, node_ref
 from chainbudget.parts import Transistor
-from chainbudget.stages.base import RAIL_FIELDS, Built, Environment, Limit, Stage, StageKind
+from chainbudget.stages.base import (
+    RAIL_FIELDS,
+    Built,
+    Environment,
+    Limit,
+    OwnParts,
+    Stage,
+    StageKind,
+)
 from chainbudget.stages.hybrid_pi import (
     SmallSignal,
     small_signal,
@@ -239,6 +247,7 @@ class PushPull(StageKind):
         positions: Mapping[str, ArrayLike],
     ) -> Built:
         name, t = stage.name, env.temperature_k
+        own = OwnParts(net, name, t)
         model = push_pull_model(stage, env)
         base = node_in
         if model.driver is not None:
@@ -268,14 +277,7 @@ class PushPull(StageKind):
             noise_bias=model.idle_output,
         )
         if r_emitter > 0.0:
-            net.resistor(
-                emitter,
-                after_resistor,
-                r_emitter,
-                label=f"{name}.emitter_resistor",
-                stage=name,
-                temperature_k=t,
-            )
+            own.resistor("emitter_resistor", emitter, after_resistor, r_emitter)
         if output_cap is not None:
             net.capacitor(after_resistor, node_out, output_cap)
         upper, lower = halves(stage, env)

@@ -28,6 +28,7 @@ from chainbudget.stages.base import (
     Control,
     DcWindow,
     Environment,
+    OwnParts,
     Stage,
     StageKind,
     inverting_dc_output,
@@ -104,12 +105,11 @@ def stamp_bass(
     """``outer`` in->A, pot A(upper)-B(lower) with wiper at the summing node, caps across
     the halves (or the pot), ``outer`` B->out."""
     name, v = stage.name, stage.values
+    own = OwnParts(net, name, temperature_k)
     a, b = f"{name}.{prefix}A", f"{name}.{prefix}B"
     outer, pot, cap = (stage.number(prefix + k) for k in ("outer", "pot", "cap"))
     fraction = taper_fraction(positions[f"{prefix}position"], v[f"{prefix}taper"])
-    net.resistor(
-        node_in, a, outer, label=f"{name}.{prefix}outer_in", stage=name, temperature_k=temperature_k
-    )
+    own.resistor(f"{prefix}outer_in", node_in, a, outer)
     net.pot(
         a,
         b,
@@ -126,14 +126,7 @@ def stamp_bass(
         net.capacitor(summing, b, cap)
     else:
         net.capacitor(a, b, cap)
-    net.resistor(
-        b,
-        node_out,
-        outer,
-        label=f"{name}.{prefix}outer_out",
-        stage=name,
-        temperature_k=temperature_k,
-    )
+    own.resistor(f"{prefix}outer_out", b, node_out, outer)
 
 
 def bass_dc_gain(stage: Stage, prefix: str) -> float:
@@ -168,6 +161,7 @@ def stamp_treble(
     """``cap`` in->upper end, ``cap`` lower end->out, wiper to the summing node through
     ``wiper``; optional ``bias_resistor`` from the summing node to AC ground."""
     name, v = stage.name, stage.values
+    own = OwnParts(net, name, temperature_k)
     upper, lower, wiper = (f"{name}.{prefix}{n}" for n in ("T_upper", "T_lower", "T_wiper"))
     pot, cap = stage.number(f"{prefix}pot"), stage.number(f"{prefix}cap")
     fraction = taper_fraction(positions[f"{prefix}position"], v[f"{prefix}taper"])
@@ -185,24 +179,10 @@ def stamp_treble(
         end_resistance=stage.number("end_resistance"),
     )
     # The wiper resistor always carries the pot's tiny end value so the node stays defined.
-    net.resistor(
-        wiper,
-        summing,
-        stage.number(f"{prefix}wiper") + 1e-6 * pot,
-        label=f"{name}.{prefix}wiper",
-        stage=name,
-        temperature_k=temperature_k,
-    )
+    own.resistor(f"{prefix}wiper", wiper, summing, stage.number(f"{prefix}wiper") + 1e-6 * pot)
     bias_resistor = stage.optional(f"{prefix}bias_resistor")
     if bias_resistor is not None:
-        net.resistor(
-            summing,
-            "0",
-            bias_resistor,
-            label=f"{name}.{prefix}bias_resistor",
-            stage=name,
-            temperature_k=temperature_k,
-        )
+        own.resistor(f"{prefix}bias_resistor", summing, "0", bias_resistor)
 
 
 TONE_COMMON = (END_RESISTANCE_FIELD, SWEEP_FIELD, OPAMP_FIELD, *RAIL_FIELDS)

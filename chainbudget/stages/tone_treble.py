@@ -7,7 +7,7 @@ from collections.abc import Mapping
 from numpy.typing import ArrayLike
 
 from chainbudget.network import Netlist
-from chainbudget.stages.base import Stage
+from chainbudget.stages.base import OwnParts, Stage
 from chainbudget.stages.tone_networks import (
     TONE_COMMON,
     FeedbackTone,
@@ -43,10 +43,9 @@ class ToneTreble(FeedbackTone):
         temperature_k: float,
     ) -> None:
         name, outer = stage.name, stage.number("outer")
+        own = OwnParts(net, name, temperature_k)
         for a, b, leg in ((node_in, summing, "outer_in"), (summing, node_out, "outer_out")):
-            net.resistor(
-                a, b, outer, label=f"{name}.{leg}", stage=name, temperature_k=temperature_k
-            )
+            own.resistor(leg, a, b, outer)
         stamp_treble(net, stage, "", node_in, summing, node_out, positions, temperature_k)
 
     def dc_gain(self, stage: Stage) -> float:

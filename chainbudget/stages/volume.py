@@ -14,6 +14,7 @@ from chainbudget.stages.base import (
     Built,
     Control,
     Environment,
+    OwnParts,
     Stage,
     StageKind,
     taper_fraction,
@@ -71,6 +72,7 @@ class Volume(StageKind):
         positions: Mapping[str, ArrayLike],
     ) -> Built:
         name, t = stage.name, env.temperature_k
+        own = OwnParts(net, name, t)
         upper = node_in
         input_cap = stage.optional("input_cap")
         if input_cap is not None:
@@ -78,9 +80,7 @@ class Volume(StageKind):
             net.capacitor(node_in, upper, input_cap)
         series = stage.optional("series")
         if series is not None:
-            net.resistor(
-                upper, f"{name}.upper", series, label=f"{name}.series", stage=name, temperature_k=t
-            )
+            own.resistor("series", upper, f"{name}.upper", series)
             upper = f"{name}.upper"
         fraction = taper_fraction(positions["position"], stage.values["taper"])
         net.pot(
@@ -96,9 +96,7 @@ class Volume(StageKind):
         )
         shunt = stage.optional("shunt")
         if shunt is not None:
-            net.resistor(
-                node_out, GROUND, shunt, label=f"{name}.shunt", stage=name, temperature_k=t
-            )
+            own.resistor("shunt", node_out, GROUND, shunt)
         return Built(probes={"out": node_ref(node_out)}, output_probe="out")
 
     def _dc_divider(self, stage: Stage) -> tuple[float, float]:
