@@ -49,6 +49,7 @@ class Budget:
     ambient_degc: float
     source_level_vrms: float
     source_max_level_vrms: float
+    load_ohm: float
     nodes: tuple[NodeLevels, ...]
     first_clip: str | None
     output_stage: str | None
@@ -93,6 +94,7 @@ def budget_from(analysis: Analysis) -> Budget:
         ambient_degc=chain.settings.ambient,
         source_level_vrms=chain.source.level,
         source_max_level_vrms=chain.source.max_level,
+        load_ohm=chain.load.impedance,
         nodes=tuple(nodes),
         first_clip=None if first_clip is None else nodes[first_clip].stage,
         output_stage=None if output_index is None else nodes[output_index].stage,

@@ -25,6 +25,7 @@ RULES: list[Callable[[Budget], list[Finding]]] = [
 # with no bias current "clips" at every level because it is off.
 SUPERSEDES: dict[str, frozenset[str]] = {
     "follower-off": frozenset({"clip-nominal", "clip-max", "thin-headroom", "clip-worst-case"}),
+    "dc-on-load": frozenset({"dc-into-load"}),
 }
 
 

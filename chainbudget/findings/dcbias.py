@@ -13,6 +13,13 @@ DC_OFFSET_FRACTION = 0.10
 # DC across a pot track above this makes it crackle as the wiper moves and the wiper passes
 # DC steps on (common practice, no source).
 POT_DC_LIMIT_V = 0.1
+# DC across a loudspeaker: past about 50 mV a designer trims it, past a volt it heats the
+# voice coil and pushes the cone off centre (common practice, no source). A load of under
+# 100 ohm is taken to be a loudspeaker; above it a line input, which should be AC-coupled.
+SPEAKER_MAX_OHM = 100.0
+SPEAKER_DC_WARN_V = 0.05
+SPEAKER_DC_ERROR_V = 1.0
+LINE_DC_NOTE_V = 0.1
 
 
 def _output_text(point: DcPoint) -> str:
@@ -78,4 +85,40 @@ def rules(budget: Budget) -> list[Finding]:
     for point in budget.dc_points:
         found += _operating_point(point)
         found += _pot(point)
+    if budget.dc_points:
+        found += _load(budget.dc_points[-1], budget.load_ohm)
     return found
+
+
+def _load(point: DcPoint, load_ohm: float) -> list[Finding]:
+    """DC the last stage puts on the load (the node is the load's own terminal)."""
+    v = point.node_v
+    if v is None:
+        return []
+    figures = {"dc_v": v, "load_ohm": load_ohm, "dc_current_a": v / load_ohm}
+    if load_ohm < SPEAKER_MAX_OHM and abs(v) >= SPEAKER_DC_WARN_V:
+        severity = "error" if abs(v) >= SPEAKER_DC_ERROR_V else "warning"
+        return [
+            Finding(
+                severity,
+                "dc-into-load",
+                point.stage,
+                f"puts {v:+.3g} V DC across the {load_ohm:g} ohm loudspeaker "
+                f"({abs(v) / load_ohm * 1e3:.3g} mA through the voice coil); bring the output to "
+                "0 V DC (re-bias the stage before it, add DC feedback) or couple the speaker "
+                "through an output capacitor",
+                figures,
+            )
+        ]
+    if load_ohm >= SPEAKER_MAX_OHM and abs(v) >= LINE_DC_NOTE_V:
+        return [
+            Finding(
+                "note",
+                "dc-into-load",
+                point.stage,
+                f"the output sits at {v:+.3g} V DC: the input it feeds must be AC-coupled, or "
+                "add a coupling capacitor at the output",
+                figures,
+            )
+        ]
+    return []

@@ -304,10 +304,15 @@ class PushPull(StageKind):
         return stage.values.get("output_cap") is None
 
     def dc_output(self, stage: Stage, env: Environment, dc_in: float | None) -> float | None:
-        """The output's bias point, V: the stage is modelled about it (`halves` measures the
-        swing from there); behind ``output_cap`` the load returns the output node to 0 V,
-        and without one on a single supply the ``dc-on-load`` finding already says so."""
-        return None if env.rails is None else env.rails.bias
+        """The output's DC, V: behind ``output_cap`` the bias point (the load returns the
+        node beyond the capacitor to 0 V); DC-coupled, the emitters follow the drive, the
+        bias spreader cancelling the V_BE drops, so the output sits at the input's DC
+        (global feedback, which would correct it, is not modelled)."""
+        if env.rails is None:
+            return None
+        if stage.values.get("output_cap") is not None or dc_in is None:
+            return env.rails.bias
+        return dc_in
 
     def supply_current(self, stage: Stage, env: Environment) -> float:
         """The quiescent current, which flows from rail to rail through both devices."""
