@@ -154,7 +154,7 @@ class HandOver:
 
 @dataclass(frozen=True)
 class FollowerFigures:
-    """A follower's bias and swing (V, A, W)."""
+    """A follower's bias and swing (V, A), and its idle dissipation at high line (W)."""
 
     stage: str
     i_e_a: float
@@ -494,10 +494,13 @@ def followers(analysis: Analysis) -> list[FollowerFigures]:
             continue
         env = analysis.envs[k]
         bias = follower_bias(stage, env)
-        rails = env.rails
+        # Heat at high line, where the collector-emitter voltage is largest.
+        hot_env = environments(analysis.chain, "high", analysis.voltages)[k]
+        hot = follower_bias(stage, hot_env)
+        rails = hot_env.rails
         assert rails is not None
-        collector = rails.positive if bias.polarity > 0 else rails.negative
-        v_ce = abs(collector - bias.emitter_v)
+        collector = rails.positive if hot.polarity > 0 else rails.negative
+        v_ce = abs(collector - hot.emitter_v)
         cut_source = _limit_source_peak(nominal, k, CUT_OFF)
         own = _source_clip(nominal, k)
         gain = _at_reference(nominal.v_out[k])
@@ -509,7 +512,7 @@ def followers(analysis: Analysis) -> list[FollowerFigures]:
                 cut_off=bias.cut_off,
                 limited_by=None if own is None else nominal.stages[k].built.limits[own[1]].name,
                 cut_off_vpk=float("inf") if cut_source is None else cut_source * gain,
-                dissipation_w=v_ce * bias.small_signal.i_c,
+                dissipation_w=v_ce * hot.small_signal.i_c,
             )
         )
     return found

@@ -10,6 +10,9 @@ from chainbudget.notation import amps, hertz, ohms, watts
 # Drive current within this factor of the limit leaves a thin margin: 6 dB, the same
 # allowance the contract asks of voltage headroom at max level (common practice, no source).
 DRIVE_MARGIN = 0.5
+# What a small-signal or driver transistor takes in free air without a heatsink (common
+# practice, no source).
+FOLLOWER_HOT_W = 0.5
 
 
 def rules(budget: Budget) -> list[Finding]:
@@ -109,6 +112,19 @@ def _drive(budget: Budget, drive: DriveBudget) -> list[Finding]:
                 )
             )
     nodes = {n.stage: n for n in budget.nodes}
+    for fo in drive.followers:
+        if fo.dissipation_w >= FOLLOWER_HOT_W:
+            found.append(
+                Finding(
+                    "warning",
+                    "follower-hot",
+                    fo.stage,
+                    f"the follower's transistor dissipates {watts(fo.dissipation_w)} at idle and "
+                    f"high line, more than the {watts(FOLLOWER_HOT_W)} a small transistor takes "
+                    "in free air; give it a heatsink, a larger device, or less bias current",
+                    {"dissipation_w": fo.dissipation_w},
+                )
+            )
     for fo in drive.followers:
         if fo.cut_off:
             found.append(

@@ -42,6 +42,19 @@ def _hot_regulators(budget: Budget) -> list[str]:
     return found
 
 
+def _hot_followers(budget: Budget) -> list[str]:
+    drive = budget.drive
+    if drive is None:
+        return []
+    return [
+        f'Hot parts: follower "{fo.stage}" dissipates {fo.dissipation_w:.3g} W at idle; its '
+        "transistor can burn on touch. Mount it where it cannot be touched and check its "
+        "temperature on the bench."
+        for fo in drive.followers
+        if fo.dissipation_w >= HOT_PART_W
+    ]
+
+
 def _hot_output_block(budget: Budget) -> list[str]:
     out = budget.output
     last = budget.nodes[-1] if budget.nodes else None
@@ -65,6 +78,7 @@ CAUTIONS: list[Callable[[Budget], list[str]]] = [
     _mains,
     power.cautions,
     _hot_regulators,
+    _hot_followers,
     _hot_output_block,
 ]
 
