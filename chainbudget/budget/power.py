@@ -489,13 +489,14 @@ def followers(analysis: Analysis) -> list[FollowerFigures]:
     """Bias, cut-off swing and dissipation of every follower."""
     nominal = analysis.nominal
     found = []
+    # Heat at high line, where the collector-emitter voltage is largest.
+    hot_envs = environments(analysis.chain, "high", analysis.voltages)
     for k, stage in enumerate(analysis.chain.stages):
         if stage.kind != "follower":
             continue
         env = analysis.envs[k]
         bias = follower_bias(stage, env)
-        # Heat at high line, where the collector-emitter voltage is largest.
-        hot_env = environments(analysis.chain, "high", analysis.voltages)[k]
+        hot_env = hot_envs[k]
         hot = follower_bias(stage, hot_env)
         rails = hot_env.rails
         assert rails is not None
