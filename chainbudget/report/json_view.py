@@ -8,9 +8,10 @@ from typing import Any
 
 import numpy as np
 
-from chainbudget.budget import Budget
+from chainbudget.budget import Budget, compute
 from chainbudget.budget.levels import NodeLevels
-from chainbudget.findings import Finding
+from chainbudget.chainfile import Chain
+from chainbudget.findings import Finding, findings
 from chainbudget.report import dcbias, noise, power, supplies
 from chainbudget.report.cautions import cautions
 
@@ -104,6 +105,12 @@ def budget_json(budget: Budget, found: list[Finding]) -> dict[str, Any]:
     data["findings"] = [finding_json(fi) for fi in found]
     data["cautions"] = cautions(budget)
     return json_ready(data)
+
+
+def report_json(chain: Chain) -> dict[str, Any]:
+    """The JSON report of a chain, as ``chainbudget check FILE --format json`` prints it."""
+    budget = compute(chain)
+    return budget_json(budget, findings(budget))
 
 
 def without_nulls(value: Any) -> Any:

@@ -1,0 +1,76 @@
+"""The figures of every example chain, held against the JSON taken before the house moved.
+
+`tests/data/before_house/*.json` is the output of ``chainbudget check FILE --format json``
+for each chain in ``chains/`` and ``tests/data/`` before the kinds took over their own
+figures. A move of code must not move a figure: every number held there must come out the
+same (rtol 1e-9, no absolute floor: noise figures are near 1e-6 V and densities far
+smaller). A key that held null may disappear (a kind's figure no longer printed for
+another kind); a key that held a figure may not. Finding codes, severities and subjects
+are held too; their wording may improve.
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+from typing import Any
+
+import pytest
+
+from chainbudget.chainfile import load_chain
+from chainbudget.report.json_view import report_json
+
+ROOT = Path(__file__).resolve().parents[1]
+HELD = ROOT / "tests" / "data" / "before_house"
+CHAINS = sorted([*(ROOT / "chains").glob("*.toml"), *(ROOT / "tests" / "data").glob("*.toml")])
+RTOL = 1e-9
+# Parts of the old JSON that are prose, not figures.
+PROSE = {"message", "cautions", "file"}
+
+
+def _compare(held: Any, now: Any, path: str, problems: list[str]) -> None:
+    if isinstance(held, dict):
+        if not isinstance(now, dict):
+            problems.append(f"{path}: was an object, now {now!r}")
+            return
+        for key, value in held.items():
+            if key in PROSE:
+                continue
+            if key not in now:
+                if value is not None:
+                    problems.append(f"{path}.{key}: held {value!r}, now missing")
+                continue
+            _compare(value, now[key], f"{path}.{key}", problems)
+    elif isinstance(held, list):
+        if not isinstance(now, list) or len(now) != len(held):
+            problems.append(f"{path}: held {len(held)} items, now {now!r:.200}")
+            return
+        for i, (a, b) in enumerate(zip(held, now, strict=True)):
+            _compare(a, b, f"{path}[{i}]", problems)
+    elif isinstance(held, bool) or held is None or isinstance(held, str):
+        if held != now:
+            problems.append(f"{path}: held {held!r}, now {now!r}")
+    elif isinstance(held, int | float):
+        if not isinstance(now, int | float) or isinstance(now, bool):
+            problems.append(f"{path}: held {held!r}, now {now!r}")
+        elif now != pytest.approx(held, rel=RTOL, abs=0.0):
+            problems.append(f"{path}: held {held!r}, now {now!r}")
+
+
+def _findings(data: dict[str, Any]) -> list[dict[str, Any]]:
+    """Findings other than cautions, in a fixed order (their order within a severity may
+    follow the chain now)."""
+    kept = [f for f in data["findings"] if f["severity"] != "caution"]
+    return sorted(
+        kept, key=lambda f: (f["severity"], f["code"], f["stage"] or "", f["supply"] or "")
+    )
+
+
+@pytest.mark.parametrize("path", CHAINS, ids=lambda p: p.stem)
+def test_every_figure_of_the_examples_is_held(path: Path) -> None:
+    held = json.loads((HELD / f"{path.stem}.json").read_text())
+    now = json.loads(json.dumps(report_json(load_chain(path))))
+    problems: list[str] = []
+    _compare({k: v for k, v in held.items() if k != "findings"}, now, "", problems)
+    _compare(_findings(held), _findings(now), "findings", problems)
+    assert not problems, "\n".join(problems[:20])
