@@ -18,7 +18,6 @@ from chainbudget.blocks import catalogue, default_text, generic_parts
 from chainbudget.budget import compute
 from chainbudget.chainfile import ChainError, load_chain
 from chainbudget.fields import suggest
-from chainbudget.findings import findings
 from chainbudget.report import noise as noise_view
 from chainbudget.report.json_view import budget_json, without_nulls
 from chainbudget.report.table_view import render
@@ -69,7 +68,7 @@ def check(
     except ChainError as exc:
         raise _fail(str(exc)) from None
     budget = compute(chain)
-    found = findings(budget)
+    found = list(budget.findings)
     if output_format == "table":
         console = _console()
         render(budget, found, console)

@@ -58,3 +58,24 @@ def watts(value: float | None) -> str:
 def hertz(value: float | None) -> str:
     """A frequency with its prefix (``"16 kHz"``), or a dash."""
     return eng(value, "Hz")
+
+
+def figure_text(value: object, unit: str) -> str:
+    """A kind's figure as a table shows it: engineering notation in its unit, whole degrees
+    Celsius, a fraction as a percentage, yes/no for a flag, a dash for none."""
+    if value is None:
+        return DASH
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    if isinstance(value, int | float):
+        number = float(value)
+        if not math.isfinite(number):
+            return DASH
+        if unit == "degC":
+            return f"{number:.0f} degC"
+        if unit == "%":
+            return f"{number:.0%}"
+        if unit in ("K/W", "h", "Ah", "deg"):
+            return f"{number:.3g} {unit}"
+        return eng(number, unit)
+    return str(value)

@@ -24,7 +24,7 @@ from chainbudget.eseries import series
 from chainbudget.findings import findings
 from chainbudget.parts import GENERIC_OPAMPS
 from chainbudget.report.cautions import MAINS_CAUTION
-from chainbudget.supplies.tree import supply_voltages
+from chainbudget.budget.rails import supply_voltages
 
 ROOT = Path(__file__).resolve().parents[1]
 runner = CliRunner()

@@ -1,25 +1,34 @@
 """The budget of a chain: plain numbers computed from a validated chain, no formatting.
 
-`compute` runs the analysis once and gathers every figure the views and the findings read,
-so a number shown in the table, the JSON and a plot comes from one field here.
+`compute` solves the chain once and gathers every figure the views read into one `Budget`:
+one `NodeBudget` per stage (levels, noise, DC, drive, rail currents and the stage kind's own
+figures), one `SupplyBudget` per supply (state, loads and the supply kind's own figures), the
+chain-wide figures, and last the findings the rules (`chainbudget.findings`) draw from those
+figures. The rules read the budget through its fields alone (they import its types for
+annotations only), so the one call here is the only arrow between the two. A number shown
+in the table, the JSON and a plot comes from one field here.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field, replace
+from html import escape
 
-from chainbudget.budget.analysis import Analysis
+from chainbudget.budget.analysis import SWEEP_POINTS, Analysis, environments
+from chainbudget.budget.currents import StageCurrents, stage_currents
 from chainbudget.budget.dcbias import DcPoint, dc_points
 from chainbudget.budget.levels import (
     HeadroomCurves,
     NodeLevels,
     VolumeClip,
+    WorstCase,
     headroom_curves,
     node_levels,
     volume_clip_rotation,
 )
-from chainbudget.budget.noise import NoiseBudget, noise_budget
-from chainbudget.budget.power import DriveBudget, OutputFigures, drive_budget, output_figures
+from chainbudget.budget.noise import NodeNoise, NoiseBudget, noise_budget
+from chainbudget.budget.power import OpAmpDrive, OutputFigures, opamp_drives, output_figures
+from chainbudget.budget.stage_view import stage_views
 from chainbudget.budget.staging import (
     Boost,
     FloatingInput,
@@ -30,17 +39,111 @@ from chainbudget.budget.staging import (
     supply_ranges,
     tone_boosts,
 )
-from chainbudget.budget.supplies import (
-    SupplyFigures,
-    loaded_analysis,
-    supply_figures,
-)
+from chainbudget.budget.supplies import loaded_analysis, supply_budgets
 from chainbudget.chainfile import Chain
+from chainbudget.finding import Finding
+from chainbudget.findings import findings as draw_findings
+from chainbudget.kindfigures import KindFigures
+from chainbudget.stages import KINDS as STAGE_KINDS
+from chainbudget.supplies import KINDS as SUPPLY_KINDS
+from chainbudget.supplies.base import SupplyBudget
+
+
+@dataclass(frozen=True)
+class NodeBudget:
+    """Every figure of one stage's output node (SI units; dB where the name says so).
+
+    ``levels``, ``noise`` and ``dc`` hold the generic figures; ``own`` the stage kind's own
+    figures (each a `chainbudget.kindfigures.KindFigures`); ``opamps`` the drive of each op-amp
+    the stage uses; ``currents`` what it draws from its rails. The properties give the
+    figures the contract's node JSON names.
+    """
+
+    index: int
+    levels: NodeLevels
+    noise: NodeNoise | None
+    dc: DcPoint | None
+    currents: StageCurrents | None
+    opamps: tuple[OpAmpDrive, ...]
+    own: tuple[KindFigures, ...]
+
+    @property
+    def stage(self) -> str:
+        return self.levels.stage
+
+    @property
+    def kind(self) -> str:
+        return self.levels.kind
+
+    @property
+    def gain_db(self) -> float:
+        return self.levels.gain_db
+
+    @property
+    def total_gain_db(self) -> float:
+        return self.levels.total_gain_db
+
+    @property
+    def level_vrms(self) -> float:
+        return self.levels.level_vrms
+
+    @property
+    def clip_vpk(self) -> float | None:
+        return self.levels.clip_vpk
+
+    @property
+    def headroom_db(self) -> float | None:
+        return self.levels.headroom_db
+
+    @property
+    def worst(self) -> WorstCase | None:
+        return self.levels.worst
+
+    @property
+    def worst_headroom_db(self) -> float | None:
+        return None if self.levels.worst is None else self.levels.worst.headroom_db
+
+    @property
+    def zout_ohm(self) -> float:
+        return self.levels.zout_ohm
+
+    @property
+    def zload_ohm(self) -> float:
+        return self.levels.zload_ohm
+
+    @property
+    def noise_vrms(self) -> float | None:
+        return None if self.noise is None else self.noise.noise_vrms
+
+    @property
+    def noise_a_vrms(self) -> float | None:
+        return None if self.noise is None else self.noise.noise_a_vrms
+
+    @property
+    def snr_db(self) -> float | None:
+        return None if self.noise is None else self.noise.snr_db
+
+    def figures(self, cls: type[KindFigures]) -> KindFigures | None:
+        """The kind's own figures of one class (e.g. a follower's), or None."""
+        return next((own for own in self.own if isinstance(own, cls)), None)
+
+    def __repr__(self) -> str:
+        def db(value: float | None) -> str:
+            return "-" if value is None else f"{value:+.1f} dB"
+
+        return (
+            f"<NodeBudget {self.stage!r} ({self.kind}): gain {db(self.gain_db)}, "
+            f"headroom {db(self.headroom_db)}, worst {db(self.worst_headroom_db)}>"
+        )
 
 
 @dataclass(frozen=True)
 class Budget:
-    """Every figure of one chain (SI units; dB where the name says so)."""
+    """Every figure of one chain (SI units; dB where the name says so), and its findings.
+
+    Look a node or a supply up by name with `node` and `supply`; ``findings`` come by
+    severity, then in chain order (stages, then supplies).
+    """
 
     title: str
     file: str
@@ -50,7 +153,8 @@ class Budget:
     source_level_vrms: float
     source_max_level_vrms: float
     load_ohm: float
-    nodes: tuple[NodeLevels, ...]
+    nodes: tuple[NodeBudget, ...]
+    supplies: tuple[SupplyBudget, ...]
     first_clip: str | None
     output_stage: str | None
     volume_clip: VolumeClip | None
@@ -61,28 +165,98 @@ class Budget:
     has_mains: bool
     volume_stage: str | None
     sweep_points: int
+    full_sweep_points: int
     curves: HeadroomCurves
     noise: NoiseBudget | None = None
-    supplies: tuple[SupplyFigures, ...] = ()
     output: OutputFigures | None = None
-    drive: DriveBudget | None = None
-    dc_points: tuple[DcPoint, ...] = ()
+    findings: tuple[Finding, ...] = field(default=(), repr=False)
+
+    def node(self, name: str) -> NodeBudget:
+        """The node of the stage called ``name``."""
+        for node in self.nodes:
+            if node.stage == name:
+                return node
+        known = ", ".join(n.stage for n in self.nodes)
+        raise KeyError(f"no stage named {name!r}; the stages are: {known}")
+
+    def supply(self, name: str) -> SupplyBudget:
+        """The supply called ``name``."""
+        for supply in self.supplies:
+            if supply.name == name:
+                return supply
+        known = ", ".join(s.name for s in self.supplies) or "none"
+        raise KeyError(f"no supply named {name!r}; the supplies are: {known}")
+
+    def __repr__(self) -> str:
+        counts: dict[str, int] = {}
+        for fi in self.findings:
+            counts[fi.severity] = counts.get(fi.severity, 0) + 1
+        told = ", ".join(f"{n} {severity}" for severity, n in counts.items()) or "no findings"
+        first = "" if self.first_clip is None else f", first to clip {self.first_clip!r}"
+        return (
+            f"<Budget {self.title!r}: {len(self.nodes)} stages, {len(self.supplies)} supplies"
+            f"{first}; {told}>"
+        )
+
+    def _repr_html_(self) -> str:
+        rows = "".join(
+            f"<tr><td>{escape(n.stage)}</td><td>{escape(n.kind)}</td>"
+            f"<td>{_cell(n.gain_db)}</td><td>{_cell(n.headroom_db)}</td>"
+            f"<td>{_cell(n.worst_headroom_db)}</td></tr>"
+            for n in self.nodes
+        )
+        found = "".join(
+            f"<li><b>{escape(fi.severity)}</b> {escape(fi.code)}: {escape(fi.message)}</li>"
+            for fi in self.findings
+        )
+        return (
+            f"<p><b>{escape(self.title)}</b></p><table><tr><th>stage</th><th>kind</th>"
+            f"<th>gain dB</th><th>headroom dB</th><th>worst dB</th></tr>{rows}</table>"
+            f"<ul>{found}</ul>"
+        )
+
+
+def _cell(value: float | None) -> str:
+    return "-" if value is None else f"{value:+.1f}"
 
 
 def compute(chain: Chain) -> Budget:
-    """Work out the whole budget of a chain.
+    """Work out the whole budget of a chain, its findings included.
 
     Stages are analysed on their rails at low line (low battery) under the loaded power
     tree (`chainbudget.budget.supplies.loaded_analysis`): the swing limits a build must meet.
     """
-    analysis = loaded_analysis(chain, corner="low")
-    return budget_from(analysis)
+    budget = budget_from(loaded_analysis(chain, corner="low"))
+    return replace(budget, findings=tuple(draw_findings(budget)))
+
+
+def _node_budgets(analysis: Analysis) -> tuple[tuple[NodeBudget, ...], NoiseBudget | None]:
+    chain = analysis.chain
+    levels = node_levels(analysis)
+    noise = noise_budget(analysis)
+    dc = dc_points(analysis)
+    currents = stage_currents(analysis)
+    drives = opamp_drives(analysis)
+    # Heat is worked out at high line, where each stage's rails are widest.
+    views = stage_views(analysis, environments(chain, "high", analysis.voltages))
+    return tuple(
+        NodeBudget(
+            index=k,
+            levels=levels[k],
+            noise=None if noise is None else noise.nodes[k],
+            dc=dc[k] if k < len(dc) else None,
+            currents=currents[k],
+            opamps=tuple(d for d in drives if d.stage == stage.name),
+            own=STAGE_KINDS[stage.kind].figures(views[k]),
+        )
+        for k, stage in enumerate(chain.stages)
+    ), noise
 
 
 def budget_from(analysis: Analysis) -> Budget:
-    """The budget of an already solved chain."""
+    """The budget of an already solved chain (findings not yet drawn)."""
     chain = analysis.chain
-    nodes = node_levels(analysis)
+    nodes, noise = _node_budgets(analysis)
     limited = [k for k, n in enumerate(nodes) if n.headroom_db is not None]
     first_clip = min(limited, key=lambda k: nodes[k].headroom_db or 0.0) if limited else None
     output_index = limited[-1] if limited else None
@@ -95,23 +269,25 @@ def budget_from(analysis: Analysis) -> Budget:
         source_level_vrms=chain.source.level,
         source_max_level_vrms=chain.source.max_level,
         load_ohm=chain.load.impedance,
-        nodes=tuple(nodes),
+        nodes=nodes,
+        supplies=supply_budgets(analysis),
         first_clip=None if first_clip is None else nodes[first_clip].stage,
         output_stage=None if output_index is None else nodes[output_index].stage,
         volume_clip=None if output_index is None else volume_clip_rotation(analysis, output_index),
         post_volume=tuple(post_volume_headroom(analysis)),
-        boosts=tuple(tone_boosts(analysis, nodes)),
+        boosts=tuple(tone_boosts(analysis, [n.levels for n in nodes])),
         supply_ranges=tuple(supply_ranges(analysis)),
         floating=tuple(floating_inputs(analysis)),
-        has_mains=any(s.kind == "rectified" for s in chain.supplies),
+        has_mains=any(SUPPLY_KINDS[s.kind].from_mains for s in chain.supplies),
         volume_stage=None
         if analysis.volume_index is None
         else chain.stages[analysis.volume_index].name,
         sweep_points=analysis.sweep_points,
+        full_sweep_points=SWEEP_POINTS,
         curves=headroom_curves(analysis),
-        noise=noise_budget(analysis),
-        supplies=supply_figures(analysis),
+        noise=noise,
         output=output_figures(analysis),
-        drive=drive_budget(analysis),
-        dc_points=dc_points(analysis),
     )
+
+
+__all__ = ["Budget", "NodeBudget", "SupplyBudget", "budget_from", "compute"]

@@ -13,13 +13,13 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
+from chainbudget.budget.rails import stage_rails, supply_voltages
 from chainbudget.cascade import Cascade, cascade, solve_stage
 from chainbudget.chainfile import Chain
 from chainbudget.spectrum import log_frequency_grid, zero_celsius_k
 from chainbudget.stages import KINDS
 from chainbudget.stages.base import Control, Environment, Stage
 from chainbudget.supplies.base import Corners
-from chainbudget.supplies.tree import stage_rails, supply_voltages
 
 # Rotations tried for each swept pot in the worst-case search (and the setting itself).
 SWEEP_POINTS = 11
@@ -114,9 +114,9 @@ def solve_chain(
 
 
 def master_volume(chain: Chain) -> int | None:
-    """Index of the volume control the listener turns: the last ``volume`` stage (one
-    earlier in the chain is a trim or an input attenuator)."""
-    found = [k for k, st in enumerate(chain.stages) if st.kind == "volume"]
+    """Index of the volume control the listener turns: the last stage whose kind sets the
+    volume (one earlier in the chain is a trim or an input attenuator)."""
+    found = [k for k, st in enumerate(chain.stages) if KINDS[st.kind].sets_volume]
     return found[-1] if found else None
 
 

@@ -23,9 +23,7 @@ import numpy as np
 
 from chainbudget.budget.analysis import Analysis
 from chainbudget.budget.levels import SQRT2, clip_source_peak
-from chainbudget.cascade import StageSolution
 from chainbudget.stages import KINDS
-from chainbudget.stages.push_pull import OUTPUT_CURRENT
 
 
 @dataclass(frozen=True)
@@ -44,14 +42,6 @@ class StageCurrents:
     clip_a: float
 
 
-def class_b_probes(solution: StageSolution) -> list[str]:
-    """Probes of the currents a stage sources in half-sine pulses from each rail."""
-    probes = [f"{label}.current" for label, _part in solution.built.opamps]
-    if OUTPUT_CURRENT in solution.built.probes:
-        probes.append(OUTPUT_CURRENT)
-    return probes
-
-
 def stage_currents(analysis: Analysis) -> list[StageCurrents]:
     """Average current from each rail of every stage at idle, nominal level and its own clip
     level (see the module notes for the model of each kind)."""
@@ -67,7 +57,7 @@ def stage_currents(analysis: Analysis) -> list[StageCurrents]:
         if clip is not None:
             reaching = min(reaching, float(clip[0][..., 0]))
         per_volt = sum(
-            (float(np.abs(nominal.probe(k, probe)[..., 0])) for probe in class_b_probes(sol)),
+            (float(np.abs(nominal.probe(k, probe)[..., 0])) for probe in sol.built.pulse_probes),
             0.0,
         )
         signal_nominal = per_volt * reaching / np.pi

@@ -45,6 +45,8 @@ class DcPoint:
         Where an active output is meant to sit and the range it can reach.
     pot_top_v : float or None
         DC at the upper end of the stage's pot (a volume control).
+    output_name : str
+        How the findings name the stage's output ("its output", "its emitter").
     """
 
     stage: str
@@ -54,6 +56,7 @@ class DcPoint:
     node_v: float | None
     window: DcWindow | None
     pot_top_v: float | None
+    output_name: str = "its output"
 
     @property
     def outside(self) -> bool:
@@ -139,7 +142,16 @@ def dc_points(analysis: Analysis) -> tuple[DcPoint, ...]:
             following = KINDS[stages[k + 1].kind] if k + 1 < len(stages) else None
             node = LOAD_DC_V if following is None else following.dc_rest(stages[k + 1], envs[k + 1])
         points.append(
-            DcPoint(stage.name, stage.kind, dc_in, output, node, window, kind.pot_dc(stage, dc_in))
+            DcPoint(
+                stage.name,
+                stage.kind,
+                dc_in,
+                output,
+                node,
+                window,
+                kind.pot_dc(stage, dc_in),
+                kind.output_name,
+            )
         )
         dc_in = node
     return tuple(points)

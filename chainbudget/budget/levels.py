@@ -29,7 +29,8 @@ class WorstCase:
 
     headroom_db: float
     frequency_hz: float
-    controls: dict[str, float]
+    #: Each control's setting there, keyed by (stage name, control key).
+    controls: dict[tuple[str, str], float]
     limited_by: str
 
 
@@ -133,8 +134,9 @@ def _worst_case(analysis: Analysis, swept: Cascade, k: int) -> WorstCase:
     where = _least_surprising_minimum(analysis, peak)
     # Controls after this node matter only through loading; the search covers them, the
     # report names the settings of this stage and the ones before it.
+    stages = analysis.chain.stages
     controls = {
-        sc.control.label: float(sc.rotations[where[sc.axis]])
+        (stages[sc.stage_index].name, sc.control.key): float(sc.rotations[where[sc.axis]])
         if peak.shape[sc.axis] > 1
         else sc.control.position
         for sc in analysis.swept_controls

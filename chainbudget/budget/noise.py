@@ -63,8 +63,6 @@ TOP_CONTRIBUTORS = 10
 DETAIL_CONTRIBUTORS = 5
 # Frequencies of the spectral detail besides the reference (nearest band grid points), Hz.
 DETAIL_FREQUENCIES_HZ = (100.0, 10_000.0)
-# Stage kinds that attenuate or shape the signal without gain of their own at flat.
-ATTENUATING_KINDS = frozenset({"volume", "tone_bass", "tone_treble", "tone_two_band"})
 # A stage with more voltage gain than this at the reference is a gain stage (a factor of 2;
 # a flat tone stage, a follower or a volume pot stays well below it). Our choice.
 MAIN_GAIN_MIN_DB = 6.0
@@ -551,7 +549,7 @@ def placement_costs(analysis: Analysis, spectra: NoiseSpectra) -> list[Placement
     snr = output_snr_db(spectra, chain.source.level)
     found: list[PlacementCost] = []
     for v, stage in enumerate(stages):
-        if stage.kind not in ATTENUATING_KINDS or snr is None:
+        if not KINDS[stage.kind].attenuates or snr is None:
             continue
         after = range(v + 1, len(stages) - 1)
         if not after:

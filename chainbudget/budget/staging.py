@@ -9,9 +9,9 @@ import numpy as np
 
 from chainbudget.budget.analysis import Analysis
 from chainbudget.budget.levels import SQRT2, NodeLevels, clip_source_peak, db, set_point_index
+from chainbudget.budget.rails import stage_rails, supply_voltages
 from chainbudget.stages import KINDS
 from chainbudget.stages.base import opamp_part
-from chainbudget.supplies.tree import stage_rails, supply_voltages
 
 
 @dataclass(frozen=True)
@@ -89,8 +89,9 @@ def tone_boosts(analysis: Analysis, nodes: list[NodeLevels]) -> list[Boost]:
     found = []
     swept = analysis.swept
     for k, stage in enumerate(analysis.chain.stages):
-        controls = [c for c in KINDS[stage.kind].controls(stage) if c.sweep]
-        if not controls or stage.kind == "volume":
+        kind = KINDS[stage.kind]
+        controls = [c for c in kind.controls(stage) if c.sweep]
+        if not controls or not kind.shapes_response:
             continue
         upstream = next(
             (nodes[j] for j in range(k - 1, -1, -1) if nodes[j].headroom_db is not None), None

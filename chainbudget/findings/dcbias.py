@@ -2,9 +2,13 @@
 
 from __future__ import annotations
 
-from chainbudget.budget import Budget
-from chainbudget.budget.dcbias import DcPoint
-from chainbudget.findings.base import Finding
+from typing import TYPE_CHECKING
+
+from chainbudget.finding import Finding
+
+if TYPE_CHECKING:
+    from chainbudget.budget import Budget
+    from chainbudget.budget.dcbias import DcPoint
 
 # An output sitting more than this fraction of its swing room away from its bias point has
 # lost a noticeable slice of headroom on that side (10 % of the room costs 0.9 dB); a
@@ -23,7 +27,7 @@ LINE_DC_NOTE_V = 0.1
 
 
 def _output_text(point: DcPoint) -> str:
-    return "its output" if point.kind != "follower" else "its emitter"
+    return point.output_name
 
 
 def _operating_point(point: DcPoint) -> list[Finding]:
@@ -82,11 +86,12 @@ def _pot(point: DcPoint) -> list[Finding]:
 def rules(budget: Budget) -> list[Finding]:
     """DC outside an output's reach (error), far off its bias point, DC on a pot track."""
     found: list[Finding] = []
-    for point in budget.dc_points:
+    points = [node.dc for node in budget.nodes if node.dc is not None]
+    for point in points:
         found += _operating_point(point)
         found += _pot(point)
-    if budget.dc_points:
-        found += _load(budget.dc_points[-1], budget.load_ohm)
+    if points:
+        found += _load(points[-1], budget.load_ohm)
     return found
 
 

@@ -3,10 +3,13 @@
 from __future__ import annotations
 
 from dataclasses import replace
+from typing import TYPE_CHECKING
 
-from chainbudget.budget import Budget
-from chainbudget.budget.analysis import SWEEP_POINTS
-from chainbudget.findings.base import THIN_HEADROOM_DB, Finding
+from chainbudget.finding import Finding
+from chainbudget.thresholds import SAME_MARGIN_DB, THIN_HEADROOM_DB
+
+if TYPE_CHECKING:
+    from chainbudget.budget import Budget
 from chainbudget.notation import hertz
 
 
@@ -20,10 +23,13 @@ def rules(budget: Budget) -> list[Finding]:
     volume_at = next(
         (k for k, n in enumerate(budget.nodes) if n.stage == budget.volume_stage), None
     )
-    for k, node in enumerate(budget.nodes):
+    for k, node in enumerate(n.levels for n in budget.nodes):
         if node.headroom_db is None or node.nominal_headroom_db is None:
             continue
-        figures = {"headroom_db": node.headroom_db, "clip_vpk": node.clip_vpk or 0.0}
+        figures: dict[str, float | None] = {
+            "headroom_db": node.headroom_db,
+            "clip_vpk": node.clip_vpk,
+        }
         limit = _limit_text(node.limit_what)
         if node.nominal_headroom_db < 0.0:
             found.append(
@@ -84,7 +90,7 @@ def rules(budget: Budget) -> list[Finding]:
                     {"worst_headroom_db": worst.headroom_db, "frequency_hz": worst.frequency_hz},
                 )
             )
-    if budget.sweep_points < SWEEP_POINTS:
+    if budget.sweep_points < budget.full_sweep_points:
         found.append(
             Finding(
                 "note",
@@ -92,7 +98,8 @@ def rules(budget: Budget) -> list[Finding]:
                 None,
                 f"with this many swept pots the worst-case search tries {budget.sweep_points} "
                 "rotations of each (plus its setting and mid rotation) instead of "
-                f"{SWEEP_POINTS}; set `sweep = false` on trimmers to search the others finer",
+                f"{budget.full_sweep_points}; set `sweep = false` on trimmers to search the "
+                "others finer",
                 {"rotations": float(budget.sweep_points)},
             )
         )
@@ -116,15 +123,19 @@ def rules(budget: Budget) -> list[Finding]:
     return found
 
 
-# Level findings of consecutive stages whose headroom agrees to this much share one cause
-# (unity-gain stages after the one that sets the level, on the same rails), dB.
-SAME_MARGIN_DB = 0.05
+# Level findings of consecutive stages whose headroom agrees to within SAME_MARGIN_DB share
+# one cause (unity-gain stages after the one that sets the level, on the same rails).
 _CARRIED = {
     "clip-nominal": "headroom_db",
     "clip-max": "headroom_db",
     "thin-headroom": "headroom_db",
     "clip-worst-case": "worst_headroom_db",
 }
+
+
+def _same_margin(a: Finding, b: Finding) -> bool:
+    here, there = a.figures[_CARRIED[a.code]], b.figures[_CARRIED[b.code]]
+    return here is not None and there is not None and abs(here - there) < SAME_MARGIN_DB
 
 
 def _merge_carried(found: list[Finding]) -> list[Finding]:
@@ -137,8 +148,7 @@ def _merge_carried(found: list[Finding]) -> list[Finding]:
         if (
             fi.code in _CARRIED
             and last is not None
-            and abs(merged[last].figures[_CARRIED[fi.code]] - fi.figures[_CARRIED[fi.code]])
-            < SAME_MARGIN_DB
+            and _same_margin(merged[last], fi)
             and fi.stage is not None
         ):
             followers.setdefault(last, []).append(fi.stage)

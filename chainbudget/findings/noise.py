@@ -2,9 +2,13 @@
 
 from __future__ import annotations
 
-from chainbudget.budget import Budget
-from chainbudget.budget.noise import NodeNoise, NoiseBudget
-from chainbudget.findings.base import Finding
+from typing import TYPE_CHECKING
+
+from chainbudget.finding import Finding
+
+if TYPE_CHECKING:
+    from chainbudget.budget import Budget
+    from chainbudget.budget.noise import NodeNoise, NoiseBudget
 
 # Hiss at the loudspeaker above this, A-weighted at 1 m, is audible in the pauses of a quiet
 # room: a quiet living room's background is about 25-30 dB(A), and broadband hiss within

@@ -11,9 +11,10 @@ from chainbudget.notation import DASH
 
 
 def _node_dc(budget: Budget, k: int) -> float | None:
-    if k >= len(budget.dc_points):
+    dc = budget.nodes[k].dc
+    if dc is None:
         return None
-    value = budget.dc_points[k].node_v
+    value = dc.node_v
     return None if value is None or not math.isfinite(value) else float(value)
 
 

@@ -11,9 +11,8 @@ import numpy as np
 from chainbudget.budget import Budget, compute
 from chainbudget.budget.levels import NodeLevels
 from chainbudget.chainfile import Chain
-from chainbudget.findings import Finding, findings
+from chainbudget.findings import Finding
 from chainbudget.report import dcbias, noise, power, supplies
-from chainbudget.report.cautions import cautions
 
 
 def json_ready(value: Any) -> Any:
@@ -28,6 +27,7 @@ def json_ready(value: Any) -> Any:
 
 
 def _node(node: NodeLevels) -> dict[str, Any]:
+    """The generic level figures of one node, controls named ``"stage.control"``."""
     worst = node.worst
     return {
         "stage": node.stage,
@@ -45,7 +45,7 @@ def _node(node: NodeLevels) -> dict[str, Any]:
         if worst is None
         else {
             "frequency_hz": worst.frequency_hz,
-            "controls": dict(worst.controls),
+            "controls": {f"{stage}.{key}": value for (stage, key), value in worst.controls.items()},
             "limited_by": worst.limited_by,
         },
         "zout_ohm": node.zout_ohm,
@@ -82,7 +82,7 @@ def budget_json(budget: Budget, found: list[Finding]) -> dict[str, Any]:
     """The whole report as plain data."""
     nodes = []
     for k, node in enumerate(budget.nodes):
-        entry = _node(node)
+        entry = _node(node.levels)
         for part in NODE_PARTS:
             entry.update(part(budget, k))
         nodes.append(entry)
@@ -103,14 +103,13 @@ def budget_json(budget: Budget, found: list[Finding]) -> dict[str, Any]:
     for top_part in TOP_PARTS:
         data.update(top_part(budget))
     data["findings"] = [finding_json(fi) for fi in found]
-    data["cautions"] = cautions(budget)
     return json_ready(data)
 
 
 def report_json(chain: Chain) -> dict[str, Any]:
     """The JSON report of a chain, as ``chainbudget check FILE --format json`` prints it."""
     budget = compute(chain)
-    return budget_json(budget, findings(budget))
+    return budget_json(budget, list(budget.findings))
 
 
 def without_nulls(value: Any) -> Any:

@@ -1,4 +1,5 @@
-"""The budget as terminal tables (rich): nodes, then each area's tables, findings, cautions."""
+"""The budget as terminal tables (rich): nodes, then each area's tables, findings, and the
+safety cautions (findings of severity ``caution``) last."""
 
 from __future__ import annotations
 
@@ -12,7 +13,6 @@ from chainbudget.budget import Budget
 from chainbudget.findings import Finding
 from chainbudget.notation import DASH, decibels, eng
 from chainbudget.report import dcbias, noise, power, supplies
-from chainbudget.report.cautions import cautions
 from chainbudget.units import vrms_to_dbu
 
 # Areas of the budget add columns to the node table (NODE_COLUMNS: header, justify and a
@@ -24,16 +24,13 @@ NODE_COLUMNS: list[tuple[str, str, Callable[[Budget, int], str]]] = [
 TABLES: list[Callable[[Budget], list[Table]]] = [noise.tables, supplies.tables, power.tables]
 
 _SEVERITY_MARK = {"error": "ERROR", "warning": "warn ", "note": "note "}
+CAUTION = "caution"
 
 
-def _control_text(stage: str, label: str, rotation: float) -> str:
-    """``tone.bass_position`` -> ``bass=1`` on its own stage's row, ``tone.bass=1`` elsewhere;
-    a stage's single ``position`` -> ``position=1`` on its row, ``volume=1`` elsewhere."""
-    owner, key = label.split(".", 1)
-    key = key.removesuffix("position").rstrip("_")
-    if owner == stage:
-        return f"{key or 'position'}={rotation:g}"
-    return f"{owner}.{key}={rotation:g}" if key else f"{owner}={rotation:g}"
+def _control_text(control: tuple[str, str], rotation: float) -> str:
+    """A control's setting, always as ``stage.control=value`` (``tone.bass_position=1``)."""
+    stage, key = control
+    return f"{stage}.{key}={rotation:g}"
 
 
 def node_table(budget: Budget) -> Table:
@@ -65,7 +62,7 @@ def node_table(budget: Budget) -> Table:
             eng(n.level_vrms, "V"),
             decibels(vrms_to_dbu(n.level_vrms)) if n.level_vrms > 0 else DASH,
             eng(n.clip_vpk, "V"),
-            n.limited_by or DASH,
+            n.levels.limited_by or DASH,
             decibels(n.headroom_db),
             decibels(None if n.worst is None else n.worst.headroom_db),
         )
@@ -79,7 +76,7 @@ def worst_case_lines(budget: Budget) -> list[str]:
         w = n.worst
         if w is None:
             continue
-        turned = " ".join(_control_text(n.stage, key, v) for key, v in w.controls.items())
+        turned = " ".join(_control_text(control, v) for control, v in w.controls.items())
         where = f"{eng(w.frequency_hz, 'Hz')}" + (f", {turned}" if turned else "")
         lines.append(
             f"  {n.stage} ({n.kind}): {decibels(w.headroom_db)} dB at {where}; "
@@ -132,9 +129,10 @@ def render(budget: Budget, found: list[Finding], console: Console) -> None:
         for table in tables(budget):
             console.print(table)
     console.print()
-    if found:
+    told = [fi for fi in found if fi.severity != CAUTION]
+    if told:
         console.print("[bold]Findings[/bold]")
-        for fi in found:
+        for fi in told:
             about = fi.stage or fi.supply
             where = f" [{about}]" if about else ""
             console.print(
@@ -144,5 +142,6 @@ def render(budget: Budget, found: list[Finding], console: Console) -> None:
             )
     else:
         console.print("Findings: none")
-    for text in cautions(budget):
-        console.print(f"CAUTION  {text}", highlight=False, markup=False)
+    for fi in found:
+        if fi.severity == CAUTION:
+            console.print(f"CAUTION  {fi.message}", highlight=False, markup=False)

@@ -1,9 +1,11 @@
 """What every stage kind provides, and the pieces several kinds share.
 
-A stage kind is one module under ``chainbudget/stages/`` holding a `StageKind` subclass:
-its fields (read by the loader and listed by ``chainbudget blocks``), the controls it
-exposes, and ``build``, which stamps its network into a `Netlist` between two nodes and
-declares its swing limits as `Limit` objects on linear probes of that network.
+A stage kind is one module (or a small package) under ``chainbudget/stages/`` holding a
+`StageKind` subclass: its fields (read by the loader and listed by ``chainbudget blocks``),
+the controls it exposes, ``build``, which stamps its network into a `Netlist` between two
+nodes and declares its swing limits as `Limit` objects on linear probes of that network, and
+its own figures and rules: ``figures`` works them out from a `StageContext` (the solved
+chain as seen from the stage), ``rules`` turns them into findings.
 """
 
 from __future__ import annotations
@@ -11,12 +13,14 @@ from __future__ import annotations
 from abc import ABC, abstractmethod
 from collections.abc import Mapping
 from dataclasses import dataclass, field
-from typing import Any, ClassVar
+from typing import Any, ClassVar, Protocol
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from chainbudget import fields as f
+from chainbudget.finding import Finding
+from chainbudget.kindfigures import KindFigures
 from chainbudget.network import GROUND, Netlist, Ref, branch_ref, node_ref
 from chainbudget.parts import OpAmp, Transistor
 from chainbudget.spectrum import flicker_psd
@@ -106,6 +110,9 @@ class Limit:
     probe: str
     peak: float | NDArray[np.float64]
     what: str
+    #: The limit bounds a current (an op-amp's output current, a follower's bias current):
+    #: a stage that clips on it ran out of drive, not out of voltage.
+    bounds_current: bool = False
 
 
 @dataclass(frozen=True)
@@ -131,6 +138,88 @@ class Built:
     limits: list[Limit] = field(default_factory=list)
     opamps: list[tuple[str, OpAmp]] = field(default_factory=list)
     output_probe: str = ""
+    #: Probes of the currents the stage sources in half-sine pulses from each rail (an
+    #: op-amp's output, a class-B output pair), for the mean rail currents.
+    pulse_probes: list[str] = field(default_factory=list)
+
+
+class StageContext(Protocol):
+    """The solved chain as a stage kind sees it when working out its own figures.
+
+    Figures are at the reference frequency with the controls as set, per volt of source
+    open-circuit peak (``gain``, ``probe``, ``input_current``) or as the source peak at
+    which a limit binds (``source_clip``, ``limit_source_peak``). ``index`` is the stage's
+    place in the chain; the methods take any index, so a kind can look at its neighbours.
+    """
+
+    @property
+    def stage(self) -> Stage: ...
+    @property
+    def index(self) -> int: ...
+    @property
+    def env(self) -> Environment:
+        """The stage's environment at the analysed (low-line, loaded) rails."""
+        ...
+
+    @property
+    def hot_env(self) -> Environment:
+        """The stage's environment at high line (for heat)."""
+        ...
+
+    @property
+    def ambient_degc(self) -> float: ...
+    @property
+    def load_ohm(self) -> float: ...
+    @property
+    def is_last(self) -> bool:
+        """Whether the stage drives the load."""
+        ...
+
+    @property
+    def output_nominal_vpk(self) -> float:
+        """The nominal output peak at the load, V."""
+        ...
+
+    def gain(self, index: int) -> float:
+        """|V_node / V_source| at stage ``index``'s output."""
+        ...
+
+    def probe(self, index: int, name: str) -> float:
+        """|probe| of stage ``index`` per volt of source."""
+        ...
+
+    def input_current(self, index: int) -> float:
+        """|current into stage ``index``'s input| per volt of source, A/V."""
+        ...
+
+    def source_clip(self, index: int) -> tuple[float, Limit] | None:
+        """Source peak at which stage ``index`` reaches its tightest limit, and the limit."""
+        ...
+
+    def limit_source_peak(self, index: int, name: str) -> float | None:
+        """Source peak at which limit ``name`` of stage ``index`` binds (None: no such)."""
+        ...
+
+    def limits(self, index: int) -> list[Limit]:
+        """The limits stage ``index`` declared."""
+        ...
+
+    def neighbour(self, index: int) -> tuple[Stage, StageKind]:
+        """Stage ``index`` and its kind."""
+        ...
+
+
+@dataclass(frozen=True)
+class NodeFacts:
+    """What a stage kind's rules may read of the rest of the budget: its node's headroom at
+    max level (dB, None where unlimited), the output power when the stage drives the load
+    (W, None otherwise), the ambient (degC) and the band's low edge (Hz)."""
+
+    stage: str
+    headroom_db: float | None
+    output_power_w: float | None
+    ambient_degc: float
+    band_low_hz: float
 
 
 class StageKind(ABC):
@@ -141,6 +230,19 @@ class StageKind(ABC):
     fields: ClassVar[tuple[f.Field, ...]]
     uses_rails: ClassVar[bool] = True
     uses_opamp: ClassVar[bool] = False
+    #: A passive network that loses level (a volume or tone stage): placing it ahead of the
+    #: main gain lifts the noise floor.
+    attenuates: ClassVar[bool] = False
+    #: The pot the listener turns for level (the last such stage is the master volume).
+    sets_volume: ClassVar[bool] = False
+    #: Its pots shape the response (tone controls): full boost is checked against headroom.
+    shapes_response: ClassVar[bool] = False
+    #: A power output stage: the chain's maximum output is reported as a finding.
+    power_stage: ClassVar[bool] = False
+    #: What makes this stage able to drive a power stage's base current, when it cannot.
+    drive_remedy: ClassVar[str] = "put an emitter follower between them"
+    #: Where the drive note names the stage's output ("its output", "its emitter").
+    output_name: ClassVar[str] = "its output"
 
     def controls(self, stage: Stage) -> list[Control]:
         """The pots of this stage (none by default)."""
@@ -162,6 +264,20 @@ class StageKind(ABC):
     def missing(self, values: Mapping[str, Any]) -> list[str]:
         """Keys that the other values make required (e.g. ``input`` for an inverting stage)."""
         return []
+
+    # --- its own figures and rules --------------------------------------------------------
+
+    def figures(self, context: StageContext) -> tuple[KindFigures, ...]:
+        """The kind's own figures in the solved chain (none by default)."""
+        return ()
+
+    def rules(self, figures: tuple[KindFigures, ...], facts: NodeFacts) -> list[Finding]:
+        """The kind's findings (and cautions) about one stage (none by default)."""
+        return []
+
+    def output_capacitor(self, stage: Stage) -> float | None:
+        """The series capacitor between the stage and what it drives, F (None: none)."""
+        return None
 
     def floating_inputs(self, stage: Stage, input_defined: bool) -> list[str]:
         """Op-amp inputs of this stage with no DC path to a defined potential."""
@@ -336,6 +452,7 @@ def stamp_opamp(
     built.opamps.append((label, part))
     built.probes["out"] = node_ref(out)
     built.probes[f"{label}.current"] = branch_ref(label)
+    built.pulse_probes.append(f"{label}.current")
     built.output_probe = "out"
     rails = env.rails
     assert rails is not None, "op-amp stages always have rails (the loader sees to it)"
@@ -351,6 +468,7 @@ def stamp_opamp(
             f"{label}.current",
             part.output_current,
             f"op-amp output current {part.output_current * 1e3:g} mA peak",
+            bounds_current=True,
         ),
         Limit(
             "slew",

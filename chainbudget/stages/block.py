@@ -2,14 +2,26 @@
 
 from __future__ import annotations
 
+import math
 from collections.abc import Mapping
 from typing import Any
 
 from numpy.typing import ArrayLike
 
 from chainbudget import fields as f
+from chainbudget.finding import Finding
+from chainbudget.kindfigures import KindFigures
 from chainbudget.network import GROUND, SOURCE_FLOOR_OHM, Netlist, node_ref
-from chainbudget.stages.base import RAIL_FIELDS, Built, Environment, Limit, Stage, StageKind
+from chainbudget.stages.base import (
+    RAIL_FIELDS,
+    Built,
+    Environment,
+    Limit,
+    NodeFacts,
+    Stage,
+    StageKind,
+)
+from chainbudget.thresholds import HOT_PART_W
 
 
 class Block(StageKind):
@@ -42,6 +54,25 @@ class Block(StageKind):
         ),
         *RAIL_FIELDS,
     )
+
+    def rules(self, figures: tuple[KindFigures, ...], facts: NodeFacts) -> list[Finding]:
+        """A block that drives the load (a power module) runs hot: the hot-parts caution."""
+        power = facts.output_power_w
+        if power is None or power < HOT_PART_W:
+            return []
+        if not math.isfinite(power):
+            text = (
+                f'Hot parts: "{facts.stage}" drives the load with no output limit given, so its '
+                "heat cannot be estimated; power modules run hot enough to burn. Follow its "
+                "maker's mounting and ventilation advice and check its temperature on the bench."
+            )
+        else:
+            text = (
+                f'Hot parts: "{facts.stage}" delivers up to {power:.3g} W into the load and turns '
+                "a good part of that into heat; its heatsink can burn on touch. Follow its "
+                "maker's mounting and ventilation advice and check its temperature on the bench."
+            )
+        return [Finding("caution", "hot-power-block", facts.stage, text, {"power_w": power})]
 
     def needs_rail(self, values: Mapping[str, Any]) -> bool:
         """A block's model ignores its rails, but the current it draws must land on one."""

@@ -29,6 +29,8 @@ class ToneBass(FeedbackTone):
 
     kind = "tone_bass"
     summary = "feedback bass shelving stage (inverting op-amp, pot and caps in the legs)"
+    attenuates = True
+    shapes_response = True
     fields = (*bass_fields(""), *TONE_COMMON)
     pots = ("",)
 

@@ -29,6 +29,8 @@ class ToneTreble(FeedbackTone):
 
     kind = "tone_treble"
     summary = "feedback treble shelving stage (inverting op-amp, pot fed through caps)"
+    attenuates = True
+    shapes_response = True
     fields = (*treble_fields("", with_outer=True), *TONE_COMMON)
     pots = ("",)
 

@@ -31,6 +31,8 @@ class ToneTwoBand(FeedbackTone):
 
     kind = "tone_two_band"
     summary = "bass and treble feedback tone controls around one op-amp"
+    attenuates = True
+    shapes_response = True
     fields = (*bass_fields("bass_"), *treble_fields("treble_", with_outer=False), *TONE_COMMON)
     pots = ("bass_", "treble_")
 

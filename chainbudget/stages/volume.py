@@ -34,6 +34,8 @@ class Volume(StageKind):
 
     kind = "volume"
     summary = "passive volume pot, optional series and shunt resistors"
+    attenuates = True
+    sets_volume = True
     uses_rails = False
     fields = (
         f.Field("pot", f.RESISTANCE, "track resistance"),

@@ -3,11 +3,34 @@
 from __future__ import annotations
 
 from collections.abc import Mapping
+from dataclasses import dataclass
 from typing import Any
 
 from chainbudget import fields as f
-from chainbudget.supplies.base import Supply, SupplyKind, SupplyLoad, SupplyState
-from chainbudget.supplymath import sag
+from chainbudget.finding import Finding
+from chainbudget.kindfigures import KindFigures, figure
+from chainbudget.notation import amps
+from chainbudget.supplies.base import (
+    Supply,
+    SupplyBudget,
+    SupplyContext,
+    SupplyKind,
+    SupplyLoad,
+    SupplyState,
+)
+from chainbudget.supplymath import battery_runtime_h, sag
+
+
+@dataclass(frozen=True)
+class DcFigures(KindFigures):
+    """Sag at the heaviest load (V) and, with a capacity, the run time (Ah, h)."""
+
+    title = "battery or bench supply"
+
+    sag_v: float = figure("sag at heaviest load", "V")
+    capacity_ah: float | None = figure("capacity", "Ah", default=None)
+    runtime_idle_h: float | None = figure("run time at idle", "h", default=None)
+    runtime_nominal_h: float | None = figure("run time at the nominal level", "h", default=None)
 
 
 class DcSupply(SupplyKind):
@@ -77,3 +100,38 @@ class DcSupply(SupplyKind):
             high_idle_v=terminal(high_v, load.idle_a),
             ripple_vpp=0.0,
         )
+
+    def figures(self, context: SupplyContext) -> DcFigures:
+        """Sag I R at the heaviest load; run time = capacity / mean drain
+        (:func:`chainbudget.supplymath.battery_runtime_h`)."""
+        supply, load = context.supply, context.load
+        capacity = supply.optional("capacity")
+        return DcFigures(
+            sag_v=supply.number("resistance") * load.heaviest_a,
+            capacity_ah=capacity,
+            runtime_idle_h=None
+            if capacity is None
+            else float(battery_runtime_h(capacity, load.idle_a)),
+            runtime_nominal_h=None
+            if capacity is None
+            else float(battery_runtime_h(capacity, load.nominal_a)),
+        )
+
+    def rules(self, supply: SupplyBudget, ambient_degc: float) -> list[Finding]:
+        """The run time, when the capacity is given."""
+        own = supply.own
+        assert isinstance(own, DcFigures)
+        idle, nominal = own.runtime_idle_h, own.runtime_nominal_h
+        if own.capacity_ah is None or idle is None or nominal is None:
+            return []
+        return [
+            Finding(
+                "note",
+                "battery-runtime",
+                None,
+                f'battery "{supply.name}" ({own.capacity_ah:g} Ah) lasts about {idle:.3g} h at '
+                f"idle and {nominal:.3g} h at the nominal level ({amps(supply.idle_load_a)} and "
+                f"{amps(supply.nominal_load_a)}); ideal figures: high drain and cold shorten them",
+                {"runtime_idle_h": idle, "runtime_nominal_h": nominal},
+            )
+        ]

@@ -7,9 +7,22 @@ licensed practice.
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 from chainbudget import fields as f
-from chainbudget.supplies.base import Supply, SupplyKind, SupplyLoad, SupplyState
+from chainbudget.finding import Finding
+from chainbudget.kindfigures import KindFigures, figure
+from chainbudget.supplies.base import (
+    Supply,
+    SupplyBudget,
+    SupplyContext,
+    SupplyKind,
+    SupplyLoad,
+    SupplyState,
+    TroughRemedy,
+)
 from chainbudget.supplymath import mains_factors, rectified_peak, ripple_vpp
+from chainbudget.thresholds import LARGE_RIPPLE_FRACTION, RMS_PER_DC_AMP, TYPICAL_REGULATION
 from chainbudget.units import UnitParseError, parse_fraction, parse_level
 
 # Rectifier drop at the peak of the charging current when the file gives none: about 0.9 V
@@ -31,6 +44,24 @@ def _read_tolerance(value: object) -> float:
 TOLERANCE = f.FieldKind("fraction or %", _read_tolerance, float)
 # The secondary is an rms voltage: "15 V" and "15 Vrms" are the same, "21.2 Vpk" too.
 SECONDARY = f.FieldKind("V rms", parse_level, lambda v: f"{v!r} Vrms")
+
+
+MAINS_CAUTION = (
+    "Mains: this chain has a transformer-fed supply. Mains wiring, fusing, earthing and "
+    "insulation are hazardous and are governed by local electrical codes; have that part "
+    "built or checked by a licensed practitioner. These figures do not assess safety."
+)
+
+
+@dataclass(frozen=True)
+class RectifiedFigures(KindFigures):
+    """The transformer's share of the load (fraction of its rated current, dc) and its
+    regulation (no-load rise, fraction)."""
+
+    title = "rectifier"
+
+    transformer_regulation: float = figure("transformer regulation", "%")
+    transformer_load_fraction: float | None = figure("transformer load (dc)", "%", default=None)
 
 
 class Rectified(SupplyKind):
@@ -55,6 +86,7 @@ class Rectified(SupplyKind):
 
     kind = "rectified"
     summary = "mains transformer, rectifier and reservoir capacitor (unregulated)"
+    from_mains = True
     fields = (
         f.Field("secondary", SECONDARY, "secondary, V rms at nominal mains, rated load"),
         f.Field("mains_tolerance", TOLERANCE, "mains tolerance either way (low/high line)", 0.1),
@@ -131,6 +163,69 @@ class Rectified(SupplyKind):
             high_heavy_v=mean(high, heavy),
             high_idle_v=mean(high, idle),
             ripple_vpp=self.ripple(supply, heavy),
+        )
+
+    def figures(self, context: SupplyContext) -> RectifiedFigures:
+        rated = context.supply.optional("rated_current")
+        return RectifiedFigures(
+            transformer_regulation=context.supply.number("regulation"),
+            transformer_load_fraction=None if rated is None else context.load.heaviest_a / rated,
+        )
+
+    def rules(self, supply: SupplyBudget, ambient_degc: float) -> list[Finding]:
+        """Unknown regulation, transformer rating, a ripple too large for its estimate, and
+        the mains caution."""
+        own = supply.own
+        assert isinstance(own, RectifiedFigures)
+        found: list[Finding] = [Finding("caution", "mains", None, MAINS_CAUTION)]
+        if own.transformer_regulation == 0.0:
+            found.append(
+                Finding(
+                    "note",
+                    "transformer-regulation-unknown",
+                    None,
+                    f'supply "{supply.name}" has no transformer regulation: its no-load crest is '
+                    "taken at the rated-load secondary voltage, while small transformers rise "
+                    f"some {TYPICAL_REGULATION[0]:.0%} to {TYPICAL_REGULATION[1]:.0%} off load "
+                    "(common practice, no source); give `regulation` so the crest checks "
+                    "(regulator max_input, op-amp max_supply) see the real figure",
+                )
+            )
+        fraction = own.transformer_load_fraction
+        if fraction is not None and fraction * RMS_PER_DC_AMP > 1.0:
+            found.append(
+                Finding(
+                    "warning",
+                    "transformer-rating",
+                    None,
+                    f'supply "{supply.name}" draws {supply.max_load_a:.3g} A dc at heaviest load, '
+                    f"{fraction:.0%} of the transformer's rated current; a capacitor-input "
+                    f"rectifier's rms winding current is about {RMS_PER_DC_AMP:g}x its dc load, "
+                    "so choose a transformer rated for at least "
+                    f"{supply.max_load_a * RMS_PER_DC_AMP:.3g} A",
+                    {"load_fraction": fraction},
+                )
+            )
+        ripple = supply.ripple_vpp
+        peak = supply.output_min_v + (ripple or 0.0)
+        if ripple is not None and peak > 0.0 and ripple > LARGE_RIPPLE_FRACTION * peak:
+            found.append(
+                Finding(
+                    "warning",
+                    "large-ripple",
+                    None,
+                    f'supply "{supply.name}" ripples {ripple:.3g} V p-p at heaviest load, over '
+                    f"{LARGE_RIPPLE_FRACTION:.0%} of its peak: the trough figure is rough (the "
+                    "constant-current estimate overstates the ripple); fit a larger reservoir",
+                    {"ripple_vpp": ripple},
+                )
+            )
+        return found
+
+    def trough_remedy(self, supply: Supply, trough_v: float, heaviest_a: float) -> TroughRemedy:
+        return TroughRemedy(
+            self.secondary_for_trough(supply, trough_v, heaviest_a),
+            self.reservoir_for_trough(supply, trough_v, heaviest_a),
         )
 
     # --- what it would take to raise the trough --------------------------------------------

@@ -1,5 +1,8 @@
 """The power tree: loads summed up the tree, voltages solved down it, each stage's rails.
 
+The supplies know their own physics (``chainbudget.supplies``); this module walks the tree
+the chain file describes.
+
 Supplies name their parent in ``from``; the loader has ruled out unknown parents and
 cycles. Loads flow up (a regulator draws its load, divider, bleeder and own current from its
 parent); voltages flow down (a regulator's input is its parent's output).

@@ -6,7 +6,17 @@ from collections.abc import Mapping
 from typing import Any
 
 from chainbudget import fields as f
-from chainbudget.supplies.base import Supply, SupplyKind, SupplyLoad, SupplyState
+from chainbudget.finding import Finding
+from chainbudget.supplies.base import (
+    Supply,
+    SupplyBudget,
+    SupplyContext,
+    SupplyKind,
+    SupplyLoad,
+    SupplyState,
+)
+from chainbudget.supplies.regulator.figures import RegulatorFigures, regulator_figures
+from chainbudget.supplies.regulator.rules import regulator_rules
 from chainbudget.supplymath import adjustable_output, divider_current, ripple_after_regulator
 from chainbudget.units import UnitParseError
 
@@ -161,6 +171,16 @@ class Regulator(SupplyKind):
         return supply.optional("theta_ja")
 
     # --- SupplyKind -----------------------------------------------------------------------
+
+    def output_voltage(self, supply: Supply, state: SupplyState) -> float:
+        return self.set_output(supply)
+
+    def figures(self, context: SupplyContext) -> RegulatorFigures:
+        return regulator_figures(self, context)
+
+    def rules(self, supply: SupplyBudget, ambient_degc: float) -> list[Finding]:
+        assert isinstance(supply.own, RegulatorFigures)
+        return regulator_rules(supply, supply.own, ambient_degc)
 
     def input_load(self, supply: Supply, load: SupplyLoad) -> SupplyLoad:
         return self.delivered(supply, load).plus(self.own_current(supply))

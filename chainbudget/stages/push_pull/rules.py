@@ -1,0 +1,165 @@
+"""A push-pull stage's findings: the drive it asks of its driver, its heat, DC on the load,
+and the hot-parts caution."""
+
+from __future__ import annotations
+
+from chainbudget.finding import Finding
+from chainbudget.notation import amps, watts
+from chainbudget.stages.push_pull.drive import HandOver, OutputBias
+from chainbudget.stages.push_pull.heat import Dissipation
+from chainbudget.thresholds import DRIVE_MARGIN, JUNCTION_MARGIN_K
+
+
+def drive_rules(h: HandOver) -> list[Finding]:
+    """The driver falls short of the base current, or has little to spare (its findings
+    name the driver)."""
+    figures: dict[str, float | None] = {
+        "base_current_a": h.base_current_a,
+        "needed_a": h.needed_a,
+        "available_a": h.available_a,
+        "output_clip_vpk": h.output_clip_vpk,
+    }
+    if h.shortfall and h.available_a is not None:
+        return [
+            Finding(
+                "error",
+                "drive-shortfall",
+                h.driver,
+                f'runs out of current driving the output stage "{h.stage}": at the output '
+                f"stage's clip level of {h.output_clip_vpk:.3g} V peak it would have to "
+                f"deliver {amps(h.needed_a)} (the output stage's base current is "
+                f"{amps(h.base_current_a)}, I_E/(beta + 1) of the conducting half) but has "
+                f"{amps(h.available_a)}, so it clips first, at "
+                f"{h.driver_clip_output_vpk or 0.0:.3g} V peak at the output; "
+                f"{h.driver_remedy}, or use Darlington output devices",
+                {**figures, "driver_clip_output_vpk": h.driver_clip_output_vpk},
+            )
+        ]
+    if (
+        h.needed_a is not None
+        and h.available_a is not None
+        and h.needed_a > DRIVE_MARGIN * h.available_a
+    ):
+        return [
+            Finding(
+                "warning",
+                "drive-margin",
+                h.driver,
+                f'drives the output stage "{h.stage}" to its clip level with '
+                f"{amps(h.needed_a)} of its {amps(h.available_a)}: less than 6 dB of current "
+                f"in hand (the output stage's peak base current is "
+                f"{amps(h.base_current_a)}); {h.driver_remedy} for margin",
+                figures,
+            )
+        ]
+    return []
+
+
+def bias_rules(stage: str, b: OutputBias) -> list[Finding]:
+    if not b.dc_on_load:
+        return []
+    return [
+        Finding(
+            "error",
+            "dc-on-load",
+            stage,
+            "a single-supply output stage without an output capacitor puts half the supply "
+            "across the load as DC; add output_cap in series with the load",
+            {"bias_v": b.bias_v},
+        )
+    ]
+
+
+def heat_rules(d: Dissipation) -> list[Finding]:
+    """The junction against its maximum (or a note asking for the thermal path), a reactive
+    load's extra heat, and the hot-parts caution."""
+    found = _thermal(d)
+    if d.load_phase_deg != 0.0:
+        found.append(
+            Finding(
+                "note",
+                "reactive-load",
+                d.stage,
+                f"with the load's phase of {d.load_phase_deg:.0f} deg the worst dissipation "
+                f"per device is {watts(d.worst_device_w)} against "
+                f"{watts(d.resistive_worst_device_w)} into a resistor of the same "
+                "impedance: the devices draw the same supply current while less of the "
+                "power reaches the load",
+                {"device_w": d.worst_device_w, "resistive_device_w": d.resistive_worst_device_w},
+            )
+        )
+    hot = "" if d.heatsink_degc is None else f" (about {d.heatsink_degc:.0f} degC at worst)"
+    where = "their heatsink runs hot" if d.heatsink_k_per_w is not None else "they run hot"
+    found.append(
+        Finding(
+            "caution",
+            "hot-output-stage",
+            d.stage,
+            f"Hot parts: the output devices dissipate up to {d.worst_device_w:.3g} W each and "
+            f"{where}{hot}; metal that hot can burn on touch. Mount them where they cannot be "
+            "touched or covered, keep air flowing, and check the temperature on the bench "
+            "before closing the box.",
+            {"device_w": d.worst_device_w, "heatsink_degc": d.heatsink_degc},
+        )
+    )
+    return found
+
+
+def _thermal(d: Dissipation) -> list[Finding]:
+    figures: dict[str, float | None] = {
+        "device_w": d.worst_device_w,
+        "max_junction_degc": d.max_junction_degc,
+    }
+    if d.junction_degc is None:
+        sink = ""
+        if d.max_heatsink_k_per_w is not None:
+            sink = (
+                f"; a heatsink of at most {d.max_heatsink_k_per_w:.3g} K/W per device keeps "
+                f"the junction at {d.max_junction_degc:g} degC"
+            )
+        return [
+            Finding(
+                "note",
+                "heat-unknown",
+                d.stage,
+                f"each output device dissipates up to {watts(d.worst_device_w)} (worst sine "
+                f"level, {d.worst_vpk:.3g} V peak); give theta_jc and heatsink (or theta_ja) "
+                f"to check its junction temperature{sink}",
+                figures,
+            )
+        ]
+    figures["junction_degc"] = d.junction_degc
+    sink = ""
+    if d.max_heatsink_k_per_w is not None:
+        sink = (
+            "; no heatsink can keep it there"
+            if d.max_heatsink_k_per_w < 0.0
+            else f"; a heatsink of at most {d.max_heatsink_k_per_w:.3g} K/W keeps it at "
+            f"{d.max_junction_degc:g} degC"
+        )
+    if d.junction_degc > d.max_junction_degc:
+        return [
+            Finding(
+                "error",
+                "junction-over",
+                d.stage,
+                f"output device junction reaches {d.junction_degc:.0f} degC at the worst sine "
+                f"level ({watts(d.worst_device_w)} per device, high-line rails), over its "
+                f"{d.max_junction_degc:g} degC maximum{sink}; or lower the rails or the "
+                "quiescent current",
+                figures,
+            )
+        ]
+    if d.junction_degc > d.max_junction_degc - JUNCTION_MARGIN_K:
+        return [
+            Finding(
+                "warning",
+                "junction-near",
+                d.stage,
+                f"output device junction reaches {d.junction_degc:.0f} degC at the worst sine "
+                f"level ({watts(d.worst_device_w)} per device), within {JUNCTION_MARGIN_K:g} K "
+                f"of its {d.max_junction_degc:g} degC maximum{sink}",
+                figures,
+            )
+        ]
+    return []

@@ -1,0 +1,211 @@
+"""A regulator's findings: dropout, minimum load, junction, input maximum, a better divider,
+and the hot-parts caution."""
+
+from __future__ import annotations
+
+from chainbudget.finding import Finding
+from chainbudget.notation import amps, eng, watts
+from chainbudget.supplies.base import SupplyBudget
+from chainbudget.supplies.regulator.figures import RegulatorFigures
+from chainbudget.thresholds import (
+    HOT_PART_DEGC,
+    HOT_PART_W,
+    JUNCTION_MARGIN_K,
+    THIN_DROPOUT_MARGIN_V,
+)
+
+
+def regulator_rules(s: SupplyBudget, r: RegulatorFigures, ambient_degc: float) -> list[Finding]:
+    """Every finding about one regulator (its ``supply`` is set by the caller)."""
+    return [
+        *_dropout(s, r),
+        *_min_load(s, r),
+        *_junction(s, r, ambient_degc),
+        *_max_input(s, r),
+        *_divider(s, r),
+        *_hot(s, r),
+    ]
+
+
+def _dropout(s: SupplyBudget, r: RegulatorFigures) -> list[Finding]:
+    if not r.in_regulation:
+        d = r.dropout_suggestion
+        ways = ""
+        if d is not None and d.secondary_needed_vrms is not None:
+            ways = f': a secondary of at least {d.secondary_needed_vrms:.3g} V rms on "{d.parent}"'
+            if d.reservoir_needed_f is not None:
+                ways += f", or a reservoir of at least {eng(d.reservoir_needed_f, 'F')}"
+        needed = r.dropout_v + s.vout_v if d is None else d.input_needed_v
+        return [
+            Finding(
+                "error",
+                "regulator-dropout",
+                None,
+                f'regulator "{s.name}" drops out of regulation on the ripple troughs at low '
+                f"line and heaviest load: its input falls to {r.input_min_v:.3g} V, "
+                f"{-r.dropout_margin_v:.2g} V short of the {s.vout_v:.3g} V output plus "
+                f"{r.dropout_v:.3g} V dropout; raise the input to at least "
+                f"{needed:.3g} V{ways}, or use a lower-dropout type",
+                {
+                    "input_min_v": r.input_min_v,
+                    "dropout_margin_v": r.dropout_margin_v,
+                    "input_needed_v": needed,
+                },
+            )
+        ]
+    if r.dropout_margin_v < THIN_DROPOUT_MARGIN_V:
+        return [
+            Finding(
+                "warning",
+                "regulator-dropout-margin",
+                None,
+                f'regulator "{s.name}" stays in regulation at low line and heaviest load with '
+                f"only {r.dropout_margin_v:.2g} V to spare (input trough {r.input_min_v:.3g} V); "
+                f"allow at least {THIN_DROPOUT_MARGIN_V:g} V: raise the input by "
+                f"{THIN_DROPOUT_MARGIN_V - r.dropout_margin_v:.2g} V or use a lower-dropout type",
+                {"dropout_margin_v": r.dropout_margin_v},
+            )
+        ]
+    return []
+
+
+def _min_load(s: SupplyBudget, r: RegulatorFigures) -> list[Finding]:
+    b = r.bleeder_suggestion
+    if b is None or r.min_load_a is None:
+        return []
+    return [
+        Finding(
+            "warning",
+            "regulator-min-load",
+            None,
+            f'regulator "{s.name}" delivers only {amps(s.idle_load_a)} at idle (divider '
+            f"{amps(r.divider_a)} included) against its minimum load of "
+            f"{amps(r.min_load_a)}: below it the output can drift up out of "
+            f'regulation; add a bleeder = "{b.resistance_ohm:g} ohm" ({b.series}) '
+            f"across the output: it draws {amps(b.current_a)} and dissipates "
+            f"{watts(b.power_w)} (use a part rated for twice that)",
+            {
+                "idle_load_a": s.idle_load_a,
+                "min_load_a": r.min_load_a,
+                "min_load_margin_a": r.min_load_margin_a,
+                "bleeder_ohm": b.resistance_ohm,
+                "bleeder_w": b.power_w,
+            },
+        )
+    ]
+
+
+def _junction(s: SupplyBudget, r: RegulatorFigures, ambient_degc: float) -> list[Finding]:
+    if r.junction_degc is None:
+        if r.dissipation_w <= 0.0:
+            return []
+        return [
+            Finding(
+                "note",
+                "regulator-no-thermal",
+                None,
+                f'regulator "{s.name}" dissipates {r.dissipation_w:.3g} W at high line and '
+                "heaviest load; give theta_ja (or theta_jc and heatsink) to check its junction",
+                {"dissipation_w": r.dissipation_w},
+            )
+        ]
+    if r.junction_degc > r.max_junction_degc:
+        fix = "a heatsink"
+        if r.heatsink_allowed_k_per_w is not None and r.heatsink_allowed_k_per_w > 0.0:
+            fix = f"a heatsink (with interface) of at most {r.heatsink_allowed_k_per_w:.3g} K/W"
+        elif r.theta_allowed_k_per_w is not None:
+            fix = (
+                f"a heatsink bringing junction-to-ambient to at most "
+                f"{r.theta_allowed_k_per_w:.3g} K/W"
+            )
+        return [
+            Finding(
+                "error",
+                "regulator-junction",
+                None,
+                f'regulator "{s.name}" dissipates {r.dissipation_w:.3g} W at high line '
+                f"and heaviest load: its junction reaches {r.junction_degc:.0f} degC at "
+                f"{ambient_degc:g} degC ambient, over its {r.max_junction_degc:.0f} degC "
+                f"maximum; fit {fix}, or lower its input voltage",
+                {
+                    "dissipation_w": r.dissipation_w,
+                    "junction_degc": r.junction_degc,
+                    "max_junction_degc": r.max_junction_degc,
+                },
+            )
+        ]
+    if r.junction_degc > r.max_junction_degc - JUNCTION_MARGIN_K:
+        return [
+            Finding(
+                "warning",
+                "regulator-junction-near",
+                None,
+                f'regulator "{s.name}" runs its junction at {r.junction_degc:.0f} degC at high '
+                f"line and heaviest load, within {JUNCTION_MARGIN_K:g} K of its "
+                f"{r.max_junction_degc:.0f} degC maximum; a larger heatsink or a lower "
+                "input voltage buys life and margin for a hot day",
+                {"junction_degc": r.junction_degc, "max_junction_degc": r.max_junction_degc},
+            )
+        ]
+    return []
+
+
+def _max_input(s: SupplyBudget, r: RegulatorFigures) -> list[Finding]:
+    if r.max_input_v is None or r.input_max_v <= r.max_input_v:
+        return []
+    return [
+        Finding(
+            "error",
+            "regulator-max-input",
+            None,
+            f'regulator "{s.name}" sees {r.input_max_v:.3g} V at its input at high line and '
+            f"no load, over its {r.max_input_v:.3g} V maximum; lower the input (a smaller "
+            "secondary) or use a higher-voltage type",
+            {"input_max_v": r.input_max_v, "max_input_v": r.max_input_v},
+        )
+    ]
+
+
+def _divider(s: SupplyBudget, r: RegulatorFigures) -> list[Finding]:
+    dv = r.better_divider
+    if dv is None:  # only a better pair is news
+        return []
+    error = (s.vout_v - dv.target_v) / dv.target_v
+    return [
+        Finding(
+            "note",
+            "regulator-divider",
+            None,
+            f'regulator "{s.name}": the divider sets {s.vout_v:.4g} V against the '
+            f"{dv.target_v:.4g} V target ({error:+.2%}); the best {dv.series} pair with no "
+            f'larger a lower resistor is upper = "{dv.upper_ohm:g} ohm", '
+            f'lower = "{dv.lower_ohm:g} ohm", giving {dv.vout_v:.4g} V '
+            f"({dv.error_fraction:+.2%})",
+            {
+                "target_v": dv.target_v,
+                "upper_ohm": dv.upper_ohm,
+                "lower_ohm": dv.lower_ohm,
+                "vout_v": dv.vout_v,
+                "error_fraction": dv.error_fraction,
+            },
+        )
+    ]
+
+
+def _hot(s: SupplyBudget, r: RegulatorFigures) -> list[Finding]:
+    junction = r.junction_degc
+    hot = r.dissipation_w >= HOT_PART_W or (junction is not None and junction >= HOT_PART_DEGC)
+    if not hot:
+        return []
+    at = "" if junction is None else f", junction about {junction:.0f} degC"
+    return [
+        Finding(
+            "caution",
+            "hot-regulator",
+            None,
+            f'Hot parts: regulator "{s.name}" dissipates up to {r.dissipation_w:.3g} W{at}; '
+            "its tab and heatsink can burn on touch. Mount it where it cannot be touched "
+            "or covered and check its temperature on the bench at high mains.",
+            {"dissipation_w": r.dissipation_w, "junction_degc": junction},
+        )
+    ]
