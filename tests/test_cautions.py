@@ -4,9 +4,11 @@ from __future__ import annotations
 
 import tomllib
 
+from budgetkit import cautions
+
 from chainbudget.budget import compute
 from chainbudget.chainfile import parse_chain
-from chainbudget.report.cautions import HOT_PART_W, cautions
+from chainbudget.thresholds import HOT_PART_W
 
 BASE = """
 [source]

@@ -100,7 +100,7 @@ def test_every_example_prints_the_contract_json_keys(chain: Path) -> None:
         assert SUPPLY_KEYS <= supply.keys()
     for finding in data["findings"]:
         assert FINDING_KEYS <= finding.keys()
-        assert finding["severity"] in ("error", "warning", "note")
+        assert finding["severity"] in ("error", "warning", "caution", "note")
     # Exit status follows the findings (contract: 1 with at least one error).
     has_error = any(f["severity"] == "error" for f in data["findings"])
     assert result.exit_code == (1 if has_error else 0)

@@ -53,7 +53,7 @@ def codes(budget: Budget) -> set[tuple[str, str | None]]:
 
 
 def node_dc(budget: Budget) -> dict[str, float | None]:
-    return {p.stage: p.node_v for p in budget.dc_points}
+    return {p.stage: p.node_v for p in tuple(n.dc for n in budget.nodes)}
 
 
 def without(path: Path, removed: dict[str, tuple[str, ...]]) -> Budget:
@@ -402,7 +402,7 @@ positive = "rail"
     into_volume = budget_of_text(
         head + follower + '[[stage]]\nname = "vol"\nkind = "volume"\npot = "10k"\n'
     )
-    (buf,) = [p for p in into_volume.dc_points if p.stage == "buf"]
+    (buf,) = [p for p in tuple(n.dc for n in into_volume.nodes) if p.stage == "buf"]
     assert buf.output_v == pytest.approx(12.0 - 0.65, rel=1e-12)
     assert buf.node_v == 0.0
     assert dc_findings(into_volume) == []

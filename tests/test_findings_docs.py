@@ -9,9 +9,10 @@ ROOT = Path(__file__).resolve().parents[1]
 
 
 def emitted_codes() -> set[tuple[str, str]]:
-    """(code, severity) of every literal Finding(...) in chainbudget/findings/."""
+    """(code, severity) of every literal Finding(...) in the package: the generic rules in
+    chainbudget/findings/ and each kind's own rules under stages/ and supplies/."""
     found = set()
-    for path in (ROOT / "chainbudget" / "findings").glob("*.py"):
+    for path in (ROOT / "chainbudget").rglob("*.py"):
         for node in ast.walk(ast.parse(path.read_text(encoding="utf-8"))):
             if isinstance(node, ast.Call) and getattr(node.func, "id", None) == "Finding":
                 severity, code = node.args[0], node.args[1]

@@ -6,6 +6,7 @@ from __future__ import annotations
 import tomllib
 
 import pytest
+from budgetkit import followers
 
 from chainbudget.budget import compute
 from chainbudget.chainfile import parse_chain
@@ -53,8 +54,7 @@ def test_follower_dissipation_is_vce_times_ic_at_high_line(current: str, hot: bo
     ~0.67 W, past the 0.5 W a small device takes in free air (common practice), 10 mA
     ~0.17 W."""
     budget = compute(parse_chain(tomllib.loads(TEXT.format(current=current)), "t.toml"))
-    assert budget.drive is not None
-    fo = budget.drive.followers[0]
+    fo = followers(budget)[0]
     i_e = float(current.split()[0]) * 1e-3
     expected = (16.0 + 0.7) * i_e * 100.0 / 101.0  # driver_npn: beta 100, V_BE 0.7 V
     assert fo.dissipation_w == pytest.approx(expected, rel=0.02)

@@ -18,6 +18,7 @@ from typing import Any
 
 import numpy as np
 import pytest
+from budgetkit import cautions, dissipation, handovers, opamp_drives
 from rich.console import Console
 
 from chainbudget.budget import Budget, budget_from, compute
@@ -27,7 +28,6 @@ from chainbudget.budget.levels import node_levels
 from chainbudget.cascade import cascade, solve_stage
 from chainbudget.chainfile import Chain, load_chain, parse_chain
 from chainbudget.findings import Finding, findings
-from chainbudget.report.cautions import cautions
 from chainbudget.report.json_view import budget_json
 from chainbudget.report.table_view import render
 
@@ -69,8 +69,7 @@ def test_opamp_straight_into_push_pull_is_a_drive_shortfall() -> None:
     51 = 31 mA (sec. 2.1.1), more than the op-amp has, so its current limit binds first:
     the drive-shortfall error, naming the op-amp stage. Base current rtol 1e-6."""
     budget = compute(drive_chain())
-    assert budget.drive is not None
-    handover = budget.drive.handovers[0]
+    handover = handovers(budget)[0]
     assert handover.shortfall
     assert handover.driver_limited_by == "current"
     assert handover.base_current_a == pytest.approx(handover.output_clip_vpk / 8.0 / 51.0, rel=1e-6)
@@ -89,8 +88,7 @@ def test_inserting_a_follower_clears_the_drive_shortfall() -> None:
     output stage: the op-amp now sees (beta + 1) times the load (Horowitz & Hill sec.
     2.2.3), no stage runs out of current, no error."""
     budget = compute(drive_chain(STRONG_FOLLOWER))
-    assert budget.drive is not None
-    assert not any(h.shortfall for h in budget.drive.handovers)
+    assert not any(h.shortfall for h in handovers(budget))
     found = findings(budget)
     assert "drive-shortfall" not in codes(found)
     assert not [f for f in found if f.severity == "error"]
@@ -104,8 +102,7 @@ def test_resistor_biased_follower_runs_out_of_pull_down_current() -> None:
     weak = {**STRONG_FOLLOWER, "bias": "resistor", "emitter_resistor": "1k5"}
     del weak["current"]
     budget = compute(drive_chain(weak))
-    assert budget.drive is not None
-    handover = budget.drive.handovers[0]
+    handover = handovers(budget)[0]
     assert handover.driver == "buffer" and handover.shortfall
     assert handover.driver_limit == "cut-off"
     found = codes(findings(budget))
@@ -204,10 +201,10 @@ def test_junction_findings_follow_the_heatsink(heatsink: str, code: str | None) 
     150 degC maximum (error); 32 K/W gives 144 degC, within 25 K of it (warning); 3 K/W
     gives 44 degC (nothing). Junction abs 1e-9 degC."""
     budget = compute(drive_chain(STRONG_FOLLOWER, heatsink=heatsink))
-    assert budget.output is not None and budget.output.dissipation is not None
+    assert dissipation(budget) is not None
     p = 15.0**2 / (np.pi**2 * 8.0) + 15.0 * 0.04
     expected = 25.0 + p * (2.5 + float(heatsink.split()[0]))
-    assert budget.output.dissipation.junction_degc == pytest.approx(expected, abs=1e-9)
+    assert dissipation(budget).junction_degc == pytest.approx(expected, abs=1e-9)
     heat = {k: f for k, f in codes(findings(budget)).items() if k.startswith("junction")}
     if code is None:
         assert not heat
@@ -222,8 +219,8 @@ def test_unknown_thermal_path_gives_the_heatsink_it_needs() -> None:
     (Horowitz & Hill sec. 9.4) is in the budget: rtol 1e-9."""
     budget = compute(drive_chain(STRONG_FOLLOWER, heatsink=None))
     # the fixture gives theta_jc 2 and theta_cs 0.5 K/W
-    assert budget.output is not None and budget.output.dissipation is not None
-    d = budget.output.dissipation
+    assert dissipation(budget) is not None
+    d = dissipation(budget)
     assert d.junction_degc is None
     assert d.max_heatsink_k_per_w == pytest.approx(
         (150.0 - 25.0) / d.worst_device_w - 2.5, rel=1e-9
@@ -274,8 +271,7 @@ def test_opamp_drive_current_is_load_plus_feedback_current() -> None:
         ],
     }
     budget = compute(parse_chain(data, "t.toml"))
-    assert budget.drive is not None
-    drive = budget.drive.opamps[0]
+    drive = opamp_drives(budget)[0]
     v_out = np.sqrt(2.0) * budget.nodes[0].max_level_vrms
     assert v_out == pytest.approx(2.0 * np.sqrt(2.0), rel=1e-4)
     assert drive.peak_a == pytest.approx(v_out / 600.0 + v_out / 20e3, rel=1e-6)
@@ -321,11 +317,11 @@ def test_example_amp_reports_power_dissipation_and_junction_in_table_and_json() 
         "junction_degc",
     ):
         assert isinstance(output[key], float) and np.isfinite(output[key]), key
-    assert budget.output is not None and budget.output.dissipation is not None
+    assert dissipation(budget) is not None
     assert output["clip_power_w"] == budget.output.clip_power_w
-    assert output["junction_degc"] == budget.output.dissipation.junction_degc
-    assert "max output" in text and "worst (sine)" in text and "junction" in text
-    assert f"{budget.output.dissipation.junction_degc:.0f} degC" in text
+    assert output["junction_degc"] == dissipation(budget).junction_degc
+    assert "max output" in text and "device dissipation, worst sine" in text and "junction" in text
+    assert f"{dissipation(budget).junction_degc:.0f} degC" in text
     texts = cautions(budget)
     assert any(t.startswith("Hot parts") for t in texts)
     assert any(t.startswith("Loudness") for t in texts)
@@ -341,7 +337,7 @@ def test_line_level_chain_has_no_power_cautions() -> None:
     """A chain ending in a line driver into 10 kohm with no speaker sensitivity shows no
     output-stage table and no heat or loudness caution."""
     budget = compute(load_chain(ROOT / "chains" / "desk_speaker_preamp.toml"))
-    assert budget.output is not None and budget.output.dissipation is None
+    assert budget.output is not None and dissipation(budget) is None
     assert not [t for t in cautions(budget) if t.startswith(("Hot", "Loud"))]
     _, text = _report(budget)
     assert "Output into" not in text

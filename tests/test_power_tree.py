@@ -17,14 +17,15 @@ import pytest
 from typer.testing import CliRunner
 
 from chainbudget.budget import Budget, compute
-from chainbudget.budget.supplies import SupplyFigures, loaded_analysis
+from chainbudget.budget.rails import supply_voltages
+from chainbudget.budget.supplies import loaded_analysis
 from chainbudget.chainfile import Chain, ChainFileError, load_chain, parse_chain
 from chainbudget.cli import app
 from chainbudget.eseries import series
 from chainbudget.findings import findings
 from chainbudget.parts import GENERIC_OPAMPS
-from chainbudget.report.cautions import MAINS_CAUTION
-from chainbudget.budget.rails import supply_voltages
+from chainbudget.supplies.base import SupplyBudget
+from chainbudget.supplies.rectified import MAINS_CAUTION
 
 ROOT = Path(__file__).resolve().parents[1]
 runner = CliRunner()
@@ -80,7 +81,7 @@ def budget_of(text: str) -> Budget:
     return compute(chain_of(text))
 
 
-def supply(budget: Budget, name: str) -> SupplyFigures:
+def supply(budget: Budget, name: str) -> SupplyBudget:
     return next(s for s in budget.supplies if s.name == name)
 
 
@@ -328,14 +329,14 @@ def test_every_chain_with_a_rectified_supply_carries_the_mains_caution() -> None
             app, ["check", str(ROOT / "chains" / "kitchen_radio_mains.toml"), "--format", "json"]
         ).stdout
     )
-    assert MAINS_CAUTION in data["cautions"]
+    assert MAINS_CAUTION in [f["message"] for f in data["findings"] if f["severity"] == "caution"]
     battery = json.loads(
         runner.invoke(
             app,
             ["check", str(ROOT / "chains" / "field_recorder_battery.toml"), "--format", "json"],
         ).stdout
     )
-    assert MAINS_CAUTION not in battery["cautions"]
+    assert MAINS_CAUTION not in [f["message"] for f in battery["findings"]]
 
 
 CONTRACT_SUPPLY_KEYS = {
@@ -359,7 +360,7 @@ def test_the_mains_example_reports_every_supply_figure() -> None:
         assert isinstance(reg[key], float), key
     assert reg["in_regulation"] is True
     table = runner.invoke(app, ["check", str(file)]).output
-    assert "Supplies" in table and "Supply checks" in table
+    assert "Supplies" in table and 'Supply "pre" (regulator)' in table
 
 
 def test_the_battery_example_reports_its_run_time() -> None:
@@ -371,4 +372,4 @@ def test_the_battery_example_reports_its_run_time() -> None:
     assert pack.runtime_nominal_h == pytest.approx(
         pack.capacity_ah / pack.nominal_load_a, rel=1e-12
     )
-    assert "Battery run time" in runner.invoke(app, ["check", str(file)]).output
+    assert "run time at idle" in runner.invoke(app, ["check", str(file)]).output

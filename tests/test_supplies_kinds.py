@@ -17,10 +17,10 @@ import pytest
 import tomli_w
 
 from chainbudget.budget import Budget, compute
-from chainbudget.budget.supplies import SupplyFigures
 from chainbudget.chainfile import ChainFileError, chain_to_dict, load_chain, parse_chain
 from chainbudget.eseries import values_between
 from chainbudget.findings import findings
+from chainbudget.supplies.base import SupplyBudget
 from chainbudget.supplymath import trough_and_crest
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -56,7 +56,7 @@ def budget_of(text: str, ambient: str = "25 degC") -> Budget:
     return compute(parse_chain(tomllib.loads(HEAD.format(ambient=ambient) + text), "t.toml"))
 
 
-def supply(budget: Budget, name: str) -> SupplyFigures:
+def supply(budget: Budget, name: str) -> SupplyBudget:
     return next(s for s in budget.supplies if s.name == name)
 
 

@@ -76,7 +76,7 @@ def test_bass_boost_worst_case_is_full_boost_at_the_bottom_of_the_band() -> None
     is at rotation 1 and the lowest band frequency."""
     worst = compute(chain(BASS.format(name="bass"))).nodes[0].worst
     assert worst is not None
-    assert worst.controls == {"bass.position": 1.0}
+    assert worst.controls == {("bass", "position"): 1.0}
     assert worst.frequency_hz == 20.0
 
 

@@ -13,6 +13,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field, replace
 from html import escape
+from typing import Any
 
 from chainbudget.budget.analysis import SWEEP_POINTS, Analysis, environments
 from chainbudget.budget.currents import StageCurrents, stage_currents
@@ -122,6 +123,20 @@ class NodeBudget:
     @property
     def snr_db(self) -> float | None:
         return None if self.noise is None else self.noise.snr_db
+
+    def __getattr__(self, key: str) -> Any:
+        """Every other figure of the node by name: its levels', its noise's, its DC point's,
+        then its kind's own (``node.limited_by``, ``node.cut_off_vpk``)."""
+        if not key.startswith("_"):
+            for part in (
+                self.__dict__.get("levels"),
+                self.__dict__.get("noise"),
+                self.__dict__.get("dc"),
+                *self.__dict__.get("own", ()),
+            ):
+                if part is not None and hasattr(part, key):
+                    return getattr(part, key)
+        raise AttributeError(f"node has no figure {key!r}")
 
     def figures(self, cls: type[KindFigures]) -> KindFigures | None:
         """The kind's own figures of one class (e.g. a follower's), or None."""

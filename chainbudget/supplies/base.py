@@ -185,6 +185,13 @@ class SupplyBudget:
         """One of the kind's own figures by name; None when the kind has no such figure."""
         return getattr(self.own, key, None)
 
+    def __getattr__(self, key: str) -> Any:
+        """The kind's own figures read as attributes too (``supply.dropout_margin_v``)."""
+        own = self.__dict__.get("own")
+        if own is not None and not key.startswith("_") and hasattr(own, key):
+            return getattr(own, key)
+        raise AttributeError(f"supply {self.__dict__.get('name')!r} has no figure {key!r}")
+
     def __repr__(self) -> str:
         return (
             f"<SupplyBudget {self.name!r} ({self.kind}): {self.vout_v:.4g} V, "
