@@ -11,7 +11,7 @@ in the table, the JSON and a plot comes from one field here.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field, fields, replace
 from html import escape
 from typing import Any
 
@@ -127,16 +127,12 @@ class NodeBudget:
     def __getattr__(self, key: str) -> Any:
         """Every other figure of the node by name: its levels', its noise's, its DC point's,
         then its kind's own (``node.limited_by``, ``node.cut_off_vpk``)."""
-        if not key.startswith("_"):
-            for part in (
-                self.__dict__.get("levels"),
-                self.__dict__.get("noise"),
-                self.__dict__.get("dc"),
-                *self.__dict__.get("own", ()),
-            ):
-                if part is not None and hasattr(part, key):
-                    return getattr(part, key)
-        raise AttributeError(f"node has no figure {key!r}")
+        if key.startswith("_") or key in NODE_PARTS:  # not yet set (copying, unpickling)
+            raise AttributeError(key)
+        for part in (self.levels, self.noise, self.dc, *self.own):
+            if part is not None and hasattr(part, key):
+                return getattr(part, key)
+        raise AttributeError(f"node {self.stage!r} has no figure {key!r}")
 
     def figures(self, cls: type[KindFigures]) -> KindFigures | None:
         """The kind's own figures of one class (e.g. a follower's), or None."""
@@ -150,6 +146,9 @@ class NodeBudget:
             f"<NodeBudget {self.stage!r} ({self.kind}): gain {db(self.gain_db)}, "
             f"headroom {db(self.headroom_db)}, worst {db(self.worst_headroom_db)}>"
         )
+
+
+NODE_PARTS = frozenset(f.name for f in fields(NodeBudget))
 
 
 @dataclass(frozen=True)

@@ -12,7 +12,7 @@ from __future__ import annotations
 
 from abc import ABC, abstractmethod
 from collections.abc import Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, fields
 from typing import Any, ClassVar
 
 from chainbudget import fields as f
@@ -187,10 +187,11 @@ class SupplyBudget:
 
     def __getattr__(self, key: str) -> Any:
         """The kind's own figures read as attributes too (``supply.dropout_margin_v``)."""
-        own = self.__dict__.get("own")
-        if own is not None and not key.startswith("_") and hasattr(own, key):
-            return getattr(own, key)
-        raise AttributeError(f"supply {self.__dict__.get('name')!r} has no figure {key!r}")
+        if key.startswith("_") or key in SUPPLY_PARTS:  # not yet set (copying, unpickling)
+            raise AttributeError(key)
+        if self.own is not None and hasattr(self.own, key):
+            return getattr(self.own, key)
+        raise AttributeError(f"supply {self.name!r} has no figure {key!r}")
 
     def __repr__(self) -> str:
         return (
@@ -198,6 +199,9 @@ class SupplyBudget:
             f"{self.state.trough_v:.4g}..{self.state.crest_v:.4g} V, "
             f"load {self.load.idle_a:.3g}..{self.load.heaviest_a:.3g} A>"
         )
+
+
+SUPPLY_PARTS = frozenset(f.name for f in fields(SupplyBudget))
 
 
 class SupplyKind(ABC):
