@@ -1,5 +1,9 @@
 """The noise budget: the hiss at every node, which part sets it, and how it reads at the end.
 
+Three modules: `chainbudget.budget.noise_spectra` carries every generator to every node,
+this one turns the spectra into figures, `chainbudget.budget.noise_placement` weighs moving
+an attenuator after the main gain.
+
 Every noise generator of the chain (resistor and pot-half thermal noise, op-amp e_n and i_n,
 a block's input-referred density, the source impedance's own thermal noise) is carried to
 every node as a power spectral density on the analysis frequency axis; the budget then
@@ -36,247 +40,32 @@ frequency).
 from __future__ import annotations
 
 import math
-from collections.abc import Callable, Sequence
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 
 import numpy as np
-from numpy.typing import ArrayLike, NDArray
+from numpy.typing import NDArray
 
 from chainbudget import outputmath as om
-from chainbudget.budget.analysis import Analysis, positions_as_set, solve_chain
+from chainbudget.budget.analysis import Analysis
 from chainbudget.budget.levels import SQRT2, clip_source_peak
-from chainbudget.cascade import Cascade
+from chainbudget.budget.noise_placement import PlacementCost, placement_costs
+from chainbudget.budget.noise_spectra import (
+    SOURCE_STAGE,
+    NoiseOrigin,
+    NoiseSpectra,
+    noise_spectra,
+    unweighted,
+)
 from chainbudget.chainfile import Chain
-from chainbudget.network import GROUND, Complex, Netlist
-from chainbudget.spectrum import integrate_psd, thermal_voltage_psd
-from chainbudget.stages import KINDS
-from chainbudget.stages.base import Environment, Stage
 from chainbudget.units import DBU_REFERENCE_VRMS
 from chainbudget.weighting import a_weighting, itu468_weighting
 
-# A source impedance below this (an ideal driver) is raised to it: 1/Z_S stamps a finite
-# admittance and the stage's input is still, to every practical digit, held at ground.
-SOURCE_IMPEDANCE_FLOOR_OHM = 1e-9
 # Contributors listed at the output (the issue asks for the ten largest).
 TOP_CONTRIBUTORS = 10
 # Contributors listed per frequency in the spectral detail.
 DETAIL_CONTRIBUTORS = 5
 # Frequencies of the spectral detail besides the reference (nearest band grid points), Hz.
 DETAIL_FREQUENCIES_HZ = (100.0, 10_000.0)
-# A stage with more voltage gain than this at the reference is a gain stage (a factor of 2;
-# a flat tone stage, a follower or a volume pot stays well below it). Our choice.
-MAIN_GAIN_MIN_DB = 6.0
-# The stage name and part given to the source impedance's own noise.
-SOURCE_STAGE = "source"
-
-
-@dataclass(frozen=True)
-class NoiseOrigin:
-    """Where a noise generator sits: its netlist label, stage, part and kind.
-
-    ``stage_index`` is the stage's 0-based position in the chain, -1 for the source (whose
-    ``stage`` is ``"source"``); ``kind`` is ``"thermal"``, ``"e_n"``, ``"i_n"`` or
-    ``"input-referred"`` (a block); ``part`` is the label without the stage prefix
-    (``"feedback"``, ``"opamp.i_n+"``).
-    """
-
-    label: str
-    stage: str
-    stage_index: int
-    part: str
-    kind: str
-
-
-@dataclass(frozen=True)
-class NoiseSpectra:
-    """Every generator's noise PSD at every node (controls as set).
-
-    Attributes
-    ----------
-    frequency : ndarray, shape (F,)
-        The analysis axis, Hz: index 0 the reference, then the band grid (``band``).
-    band : slice
-        The band grid within ``frequency``.
-    origins : tuple of NoiseOrigin
-        One per generator, the first axis of ``contribution``.
-    contribution : ndarray, shape (S, K, F)
-        PSD at the output node of stage k due to generator s, V^2/Hz.
-    signal : ndarray, shape (K, F)
-        |v_out| of each node per volt of source open-circuit voltage.
-    """
-
-    frequency: NDArray[np.float64]
-    band: slice
-    origins: tuple[NoiseOrigin, ...]
-    contribution: NDArray[np.float64]
-    signal: NDArray[np.float64]
-
-    @property
-    def node_psd(self) -> NDArray[np.float64]:
-        """Total noise PSD at each node, V^2/Hz, shape (K, F)."""
-        return np.asarray(self.contribution.sum(axis=0), dtype=np.float64)
-
-    @property
-    def band_frequency(self) -> NDArray[np.float64]:
-        return self.frequency[self.band]
-
-    def integrate(
-        self, psd: NDArray[np.float64], weighting: Callable[[ArrayLike], NDArray[np.float64]]
-    ) -> NDArray[np.float64]:
-        """Mean-square value over the band of PSDs on the last axis, weighted, V^2.
-
-        ``weighting`` gives the amplitude factor |W(f)|; the PSD is multiplied by its square.
-        """
-        f = self.band_frequency
-        return integrate_psd(f, psd[..., self.band] * weighting(f) ** 2)
-
-
-def unweighted(f: ArrayLike) -> NDArray[np.float64]:
-    """The flat weighting, 1 at every frequency."""
-    return np.ones_like(np.asarray(f, dtype=np.float64))
-
-
-def _floored(z: Complex) -> Complex:
-    return np.where(np.abs(z) < SOURCE_IMPEDANCE_FLOOR_OHM, SOURCE_IMPEDANCE_FLOOR_OHM, z)
-
-
-def stage_noise_transfers(
-    stage: Stage,
-    stage_index: int,
-    env: Environment,
-    frequency: NDArray[np.float64],
-    positions: dict[str, float],
-    source_impedance: Complex,
-    load_admittance: Complex,
-) -> tuple[list[NoiseOrigin], NDArray[np.float64], Complex, Complex]:
-    """Transfers of a stage's own noise generators to its output and input nodes.
-
-    The stage is built alone, driven from the noiseless ``source_impedance`` (ohm) and
-    loaded by the noiseless ``load_admittance`` (S), both on the frequency axis.
-
-    Returns
-    -------
-    origins : list of NoiseOrigin
-    psd : ndarray, shape (S, F)
-        Each generator's PSD, V^2/Hz or A^2/Hz.
-    to_out, to_in : ndarray, shape (S, F)
-        Complex transfer to the stage's output and input node voltages (V/V or V/A).
-
-    Notes
-    -----
-    Both transfers come from `Netlist.adjoint_transfer`: one adjoint solve per frequency and
-    node serves every generator (Director & Rohrer, IEEE Trans. Circuit Theory CT-16 (1969)
-    318).
-    """
-    net = Netlist(frequency)
-    KINDS[stage.kind].build(net, stage, env, "in", "out", positions)
-    net.admittance("in", GROUND, 1.0 / _floored(np.asarray(source_impedance, complex)))
-    net.admittance("out", GROUND, load_admittance)
-    shape = frequency.shape
-    if not net.noise:
-        empty = np.zeros((0, *shape))
-        return [], empty, empty.astype(complex), empty.astype(complex)
-    _, to_out = net.adjoint_transfer("out")
-    _, to_in = net.adjoint_transfer("in")
-    prefix = f"{stage.name}."
-    origins = [
-        NoiseOrigin(
-            src.label,
-            src.stage or stage.name,
-            stage_index,
-            src.label.removeprefix(prefix),
-            src.kind,
-        )
-        for src in net.noise
-    ]
-    psd = np.stack([np.broadcast_to(src.psd, shape) for src in net.noise])
-    return (
-        origins,
-        psd,
-        np.stack([np.broadcast_to(h, shape) for h in to_out]),
-        np.stack([np.broadcast_to(h, shape) for h in to_in]),
-    )
-
-
-def noise_spectra(
-    chain: Chain,
-    envs: Sequence[Environment],
-    frequency: NDArray[np.float64],
-    nominal: Cascade,
-    temperature_k: float,
-    band: slice,
-) -> NoiseSpectra:
-    """Every generator's PSD at every node of a chain solved with its controls as set.
-
-    Parameters
-    ----------
-    chain : Chain
-        The chain (its stages, in the order of ``nominal``).
-    envs : sequence of Environment
-        Each stage's environment (temperature, parts, rails).
-    frequency : ndarray, shape (F,)
-        The axis ``nominal`` was solved on, Hz.
-    nominal : Cascade
-        The cascade with every control as set (arrays of shape (F,)).
-    temperature_k : float
-        Noise temperature of the source impedance, K.
-    band : slice
-        The band grid within ``frequency``.
-
-    Notes
-    -----
-    See the module notes: per-stage adjoint transfers, carried forward by the loaded
-    voltage ratios of the stages after and backward by the terminated reverse ratios of
-    the stages before.
-    """
-    stages = chain.stages
-    n = len(stages)
-    shape = frequency.shape
-    forward = [
-        np.broadcast_to(
-            sol.two_port.voltage_ratio(nominal.load_admittance[m]), shape
-        )  # V_out,m / V_in,m
-        for m, sol in enumerate(nominal.stages)
-    ]
-    backward = []  # V_in,m / V_out,m with the input terminated in Z_S,m
-    for m, sol in enumerate(nominal.stages):
-        tp, z = sol.two_port, _floored(nominal.source_impedance[m])
-        backward.append(np.broadcast_to(z * (tp.a * tp.d - tp.b * tp.c) / (tp.b + z * tp.d), shape))
-    signal = np.stack([np.abs(np.broadcast_to(v, shape)) for v in nominal.v_out])
-
-    origins: list[NoiseOrigin] = []
-    blocks: list[NDArray[np.float64]] = []
-    r_source = float(np.real(chain.source.impedance))
-    if r_source > 0.0:
-        origins.append(NoiseOrigin("source.impedance", SOURCE_STAGE, -1, "impedance", "thermal"))
-        psd = thermal_voltage_psd(r_source, temperature_k)
-        blocks.append((psd * signal**2)[None])
-    for k, (stage, env, pos) in enumerate(zip(stages, envs, positions_as_set(stages), strict=True)):
-        found, psd, to_out, to_in = stage_noise_transfers(
-            stage,
-            k,
-            env,
-            frequency,
-            pos,
-            nominal.source_impedance[k],
-            nominal.load_admittance[k],
-        )
-        if not found:
-            continue
-        voltage = np.zeros((len(found), n, *shape), dtype=complex)
-        voltage[:, k] = to_out
-        for j in range(k + 1, n):
-            voltage[:, j] = voltage[:, j - 1] * forward[j]
-        if k > 0:
-            voltage[:, k - 1] = to_in
-            for j in range(k - 2, -1, -1):
-                voltage[:, j] = voltage[:, j + 1] * backward[j + 1]
-        origins += found
-        blocks.append(psd[:, None, :] * np.abs(voltage) ** 2)
-    contribution = (
-        np.concatenate(blocks, axis=0) if blocks else np.zeros((0, n, *shape), dtype=float)
-    )
-    return NoiseSpectra(frequency, band, tuple(origins), contribution, signal)
 
 
 # --- figures ---------------------------------------------------------------------------------
@@ -348,24 +137,6 @@ class SpotNoise:
     density_v_rthz: float
     input_density_v_rthz: float | None
     contributors: tuple[SpotContributor, ...]
-
-
-@dataclass(frozen=True)
-class PlacementCost:
-    """What putting an attenuating stage ahead of the main gain costs in output SNR.
-
-    ``lift_db`` is the SNR at the output with the stage moved to just after ``main_stage``
-    minus the SNR as built (positive: the placement lifts the noise floor by that much
-    relative to the signal).
-    """
-
-    stage: str
-    kind: str
-    main_stage: str
-    main_gain_db: float
-    snr_db: float
-    moved_snr_db: float
-    lift_db: float
 
 
 @dataclass(frozen=True)
@@ -525,62 +296,6 @@ def detail_indices(frequency: NDArray[np.float64], band: slice) -> list[int]:
     return [unique[f] for f in sorted(unique)]
 
 
-def output_snr_db(spectra: NoiseSpectra, level_vrms: float) -> float | None:
-    """Nominal level at the output over its unweighted band noise, dB."""
-    noise = float(spectra.integrate(spectra.node_psd[-1], unweighted))
-    return _db20(level_vrms * float(spectra.signal[-1, 0]) / math.sqrt(noise)) if noise else None
-
-
-def placement_costs(analysis: Analysis, spectra: NoiseSpectra) -> list[PlacementCost]:
-    """Output SNR lost by each volume or tone stage that sits ahead of the main gain.
-
-    The main gain is the stage after it with the most voltage gain at the reference, if
-    that exceeds `MAIN_GAIN_MIN_DB` and it is not the last stage (a pot cannot move onto the
-    loudspeaker line). The chain is solved again with the stage moved to just after the main
-    gain, controls as set, and both output SNRs compared (nominal level, unweighted).
-    """
-    chain = analysis.chain
-    stages = chain.stages
-    nominal = analysis.nominal
-    gains = [
-        float(20.0 * np.log10(abs(nominal.v_out[k][0] / nominal.v_in[k][0])))
-        for k in range(len(stages))
-    ]
-    snr = output_snr_db(spectra, chain.source.level)
-    found: list[PlacementCost] = []
-    for v, stage in enumerate(stages):
-        if not KINDS[stage.kind].attenuates or snr is None:
-            continue
-        after = range(v + 1, len(stages) - 1)
-        if not after:
-            continue
-        main = max(after, key=lambda k: gains[k])
-        if gains[main] <= MAIN_GAIN_MIN_DB:
-            continue
-        order = [*range(v), *range(v + 1, main + 1), v, *range(main + 1, len(stages))]
-        moved = replace(chain, stages=tuple(stages[k] for k in order))
-        envs = tuple(analysis.envs[k] for k in order)
-        cas = solve_chain(moved, envs, analysis.frequency, positions_as_set(moved.stages))
-        moved_spectra = noise_spectra(
-            moved, envs, analysis.frequency, cas, analysis.temperature_k, analysis.band_slice
-        )
-        moved_snr = output_snr_db(moved_spectra, chain.source.level)
-        if moved_snr is None:
-            continue
-        found.append(
-            PlacementCost(
-                stage.name,
-                stage.kind,
-                stages[main].name,
-                gains[main],
-                snr,
-                moved_snr,
-                moved_snr - snr,
-            )
-        )
-    return found
-
-
 def noise_budget(analysis: Analysis) -> NoiseBudget:
     """The noise budget of a solved chain (controls as set).
 
@@ -653,3 +368,15 @@ def noise_budget(analysis: Analysis) -> NoiseBudget:
         spectrum=tuple(_spot(spectra, i) for i in detail_indices(spectra.frequency, spectra.band)),
         placement=tuple(placement_costs(analysis, spectra)),
     )
+
+
+__all__ = [
+    "SOURCE_STAGE",
+    "NodeNoise",
+    "NoiseBudget",
+    "NoiseOrigin",
+    "NoiseSpectra",
+    "PlacementCost",
+    "noise_budget",
+    "noise_spectra",
+]

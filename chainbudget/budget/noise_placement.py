@@ -1,0 +1,95 @@
+"""What placing an attenuating stage ahead of the main gain costs in output SNR: the chain
+solved again with the stage moved, and both output SNRs compared."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, replace
+
+import numpy as np
+
+from chainbudget.budget.analysis import Analysis, positions_as_set, solve_chain
+from chainbudget.budget.noise_spectra import NoiseSpectra, noise_spectra, unweighted
+from chainbudget.stages import KINDS
+
+# A stage with more voltage gain than this at the reference is a gain stage (a factor of 2;
+# a flat tone stage, a follower or a volume pot stays well below it). Our choice.
+MAIN_GAIN_MIN_DB = 6.0
+
+
+def _db20(ratio: float) -> float | None:
+    return 20.0 * math.log10(ratio) if ratio > 0.0 and math.isfinite(ratio) else None
+
+
+@dataclass(frozen=True)
+class PlacementCost:
+    """What putting an attenuating stage ahead of the main gain costs in output SNR.
+
+    ``lift_db`` is the SNR at the output with the stage moved to just after ``main_stage``
+    minus the SNR as built (positive: the placement lifts the noise floor by that much
+    relative to the signal).
+    """
+
+    stage: str
+    kind: str
+    main_stage: str
+    main_gain_db: float
+    snr_db: float
+    moved_snr_db: float
+    lift_db: float
+
+
+def output_snr_db(spectra: NoiseSpectra, level_vrms: float) -> float | None:
+    """Nominal level at the output over its unweighted band noise, dB."""
+    noise = float(spectra.integrate(spectra.node_psd[-1], unweighted))
+    return _db20(level_vrms * float(spectra.signal[-1, 0]) / math.sqrt(noise)) if noise else None
+
+
+def placement_costs(analysis: Analysis, spectra: NoiseSpectra) -> list[PlacementCost]:
+    """Output SNR lost by each volume or tone stage that sits ahead of the main gain.
+
+    The main gain is the stage after it with the most voltage gain at the reference, if
+    that exceeds `MAIN_GAIN_MIN_DB` and it is not the last stage (a pot cannot move onto the
+    loudspeaker line). The chain is solved again with the stage moved to just after the main
+    gain, controls as set, and both output SNRs compared (nominal level, unweighted).
+    """
+    chain = analysis.chain
+    stages = chain.stages
+    nominal = analysis.nominal
+    gains = [
+        float(20.0 * np.log10(abs(nominal.v_out[k][0] / nominal.v_in[k][0])))
+        for k in range(len(stages))
+    ]
+    snr = output_snr_db(spectra, chain.source.level)
+    found: list[PlacementCost] = []
+    for v, stage in enumerate(stages):
+        if not KINDS[stage.kind].attenuates or snr is None:
+            continue
+        after = range(v + 1, len(stages) - 1)
+        if not after:
+            continue
+        main = max(after, key=lambda k: gains[k])
+        if gains[main] <= MAIN_GAIN_MIN_DB:
+            continue
+        order = [*range(v), *range(v + 1, main + 1), v, *range(main + 1, len(stages))]
+        moved = replace(chain, stages=tuple(stages[k] for k in order))
+        envs = tuple(analysis.envs[k] for k in order)
+        cas = solve_chain(moved, envs, analysis.frequency, positions_as_set(moved.stages))
+        moved_spectra = noise_spectra(
+            moved, envs, analysis.frequency, cas, analysis.temperature_k, analysis.band_slice
+        )
+        moved_snr = output_snr_db(moved_spectra, chain.source.level)
+        if moved_snr is None:
+            continue
+        found.append(
+            PlacementCost(
+                stage.name,
+                stage.kind,
+                stages[main].name,
+                gains[main],
+                snr,
+                moved_snr,
+                moved_snr - snr,
+            )
+        )
+    return found

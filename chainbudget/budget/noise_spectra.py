@@ -1,0 +1,260 @@
+"""Every noise generator of a chain carried to every node as a power spectral density.
+
+Notes
+-----
+The generators are mutually uncorrelated, so their PSDs add at any node:
+S_j(f) = sum_s S_s(f) |H_sj(f)|^2 with H_sj the transfer from generator s to node j.
+
+Per stage k (controls as set), the stage's own network is built alone with the cascade's
+view of the rest of the chain attached: the Thevenin impedance Z_S,k of everything before it
+(noiseless: the generators upstream are counted in their own stages) from ``in`` to ground
+and the admittance Y_L,k of everything after it from ``out`` to ground. One adjoint solve
+per frequency (`Netlist.adjoint_transfer`) gives the transfer of each of the stage's
+generators to its output node, a second one to its input node. By superposition that is
+exact: stage k meets the rest of the chain only at those two nodes, and the rest is a linear
+network without (these) sources, so its terminal behaviour is Z_S,k and Y_L,k.
+
+Forward, node k's voltage sets every later node: V_j = V_k prod_{m=k+1..j} 1/(A_m + B_m Y_L,m)
+(chain parameters of stage m terminated by Y_L,m; Pozar, Microwave Engineering, 4th ed.,
+sec. 4.4). Backward, a voltage V2 at the output of stage m whose input is terminated in
+Z_S,m gives V1 = V2 Z_S,m (A_m D_m - B_m C_m) / (B_m + Z_S,m D_m) at its input (from
+V1 = A V2 + B I2, I1 = C V2 + D I2 with V1 = -Z_S I1), which carries a generator's voltage at
+its stage's input further upstream (an op-amp's i_n flowing into a volume pot's wiper).
+
+The source's thermal noise 4 k T Re(Z_S) (Johnson, Phys. Rev. 32, 97 (1928); Nyquist,
+Phys. Rev. 32, 110 (1928)) is in series with the source voltage, so it reaches node j as the
+signal does: |v_out,j| per volt. It is the reference of the noise figure
+NF = 10 log10(S_out / S_out,source) (Friis, Proc. IRE 32 (1944) 419; spot noise figure at one
+frequency).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass
+
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+
+from chainbudget.budget.analysis import positions_as_set
+from chainbudget.cascade import Cascade
+from chainbudget.chainfile import Chain
+from chainbudget.network import GROUND, Complex, Netlist
+from chainbudget.spectrum import integrate_psd, thermal_voltage_psd
+from chainbudget.stages import KINDS
+from chainbudget.stages.base import Environment, Stage
+
+# A source impedance below this (an ideal driver) is raised to it: 1/Z_S stamps a finite
+# admittance and the stage's input is still, to every practical digit, held at ground.
+SOURCE_IMPEDANCE_FLOOR_OHM = 1e-9
+# The stage name and part given to the source impedance's own noise.
+SOURCE_STAGE = "source"
+
+
+@dataclass(frozen=True)
+class NoiseOrigin:
+    """Where a noise generator sits: its netlist label, stage, part and kind.
+
+    ``stage_index`` is the stage's 0-based position in the chain, -1 for the source (whose
+    ``stage`` is ``"source"``); ``kind`` is ``"thermal"``, ``"e_n"``, ``"i_n"`` or
+    ``"input-referred"`` (a block); ``part`` is the label without the stage prefix
+    (``"feedback"``, ``"opamp.i_n+"``).
+    """
+
+    label: str
+    stage: str
+    stage_index: int
+    part: str
+    kind: str
+
+
+@dataclass(frozen=True)
+class NoiseSpectra:
+    """Every generator's noise PSD at every node (controls as set).
+
+    Attributes
+    ----------
+    frequency : ndarray, shape (F,)
+        The analysis axis, Hz: index 0 the reference, then the band grid (``band``).
+    band : slice
+        The band grid within ``frequency``.
+    origins : tuple of NoiseOrigin
+        One per generator, the first axis of ``contribution``.
+    contribution : ndarray, shape (S, K, F)
+        PSD at the output node of stage k due to generator s, V^2/Hz.
+    signal : ndarray, shape (K, F)
+        |v_out| of each node per volt of source open-circuit voltage.
+    """
+
+    frequency: NDArray[np.float64]
+    band: slice
+    origins: tuple[NoiseOrigin, ...]
+    contribution: NDArray[np.float64]
+    signal: NDArray[np.float64]
+
+    @property
+    def node_psd(self) -> NDArray[np.float64]:
+        """Total noise PSD at each node, V^2/Hz, shape (K, F)."""
+        return np.asarray(self.contribution.sum(axis=0), dtype=np.float64)
+
+    @property
+    def band_frequency(self) -> NDArray[np.float64]:
+        return self.frequency[self.band]
+
+    def integrate(
+        self, psd: NDArray[np.float64], weighting: Callable[[ArrayLike], NDArray[np.float64]]
+    ) -> NDArray[np.float64]:
+        """Mean-square value over the band of PSDs on the last axis, weighted, V^2.
+
+        ``weighting`` gives the amplitude factor |W(f)|; the PSD is multiplied by its square.
+        """
+        f = self.band_frequency
+        return integrate_psd(f, psd[..., self.band] * weighting(f) ** 2)
+
+
+def unweighted(f: ArrayLike) -> NDArray[np.float64]:
+    """The flat weighting, 1 at every frequency."""
+    return np.ones_like(np.asarray(f, dtype=np.float64))
+
+
+def _floored(z: Complex) -> Complex:
+    return np.where(np.abs(z) < SOURCE_IMPEDANCE_FLOOR_OHM, SOURCE_IMPEDANCE_FLOOR_OHM, z)
+
+
+def stage_noise_transfers(
+    stage: Stage,
+    stage_index: int,
+    env: Environment,
+    frequency: NDArray[np.float64],
+    positions: dict[str, float],
+    source_impedance: Complex,
+    load_admittance: Complex,
+) -> tuple[list[NoiseOrigin], NDArray[np.float64], Complex, Complex]:
+    """Transfers of a stage's own noise generators to its output and input nodes.
+
+    The stage is built alone, driven from the noiseless ``source_impedance`` (ohm) and
+    loaded by the noiseless ``load_admittance`` (S), both on the frequency axis.
+
+    Returns
+    -------
+    origins : list of NoiseOrigin
+    psd : ndarray, shape (S, F)
+        Each generator's PSD, V^2/Hz or A^2/Hz.
+    to_out, to_in : ndarray, shape (S, F)
+        Complex transfer to the stage's output and input node voltages (V/V or V/A).
+
+    Notes
+    -----
+    Both transfers come from `Netlist.adjoint_transfer`: one adjoint solve per frequency and
+    node serves every generator (Director & Rohrer, IEEE Trans. Circuit Theory CT-16 (1969)
+    318).
+    """
+    net = Netlist(frequency)
+    KINDS[stage.kind].build(net, stage, env, "in", "out", positions)
+    net.admittance("in", GROUND, 1.0 / _floored(np.asarray(source_impedance, complex)))
+    net.admittance("out", GROUND, load_admittance)
+    shape = frequency.shape
+    if not net.noise:
+        empty = np.zeros((0, *shape))
+        return [], empty, empty.astype(complex), empty.astype(complex)
+    _, to_out = net.adjoint_transfer("out")
+    _, to_in = net.adjoint_transfer("in")
+    prefix = f"{stage.name}."
+    origins = [
+        NoiseOrigin(
+            src.label,
+            src.stage or stage.name,
+            stage_index,
+            src.label.removeprefix(prefix),
+            src.kind,
+        )
+        for src in net.noise
+    ]
+    psd = np.stack([np.broadcast_to(src.psd, shape) for src in net.noise])
+    return (
+        origins,
+        psd,
+        np.stack([np.broadcast_to(h, shape) for h in to_out]),
+        np.stack([np.broadcast_to(h, shape) for h in to_in]),
+    )
+
+
+def noise_spectra(
+    chain: Chain,
+    envs: Sequence[Environment],
+    frequency: NDArray[np.float64],
+    nominal: Cascade,
+    temperature_k: float,
+    band: slice,
+) -> NoiseSpectra:
+    """Every generator's PSD at every node of a chain solved with its controls as set.
+
+    Parameters
+    ----------
+    chain : Chain
+        The chain (its stages, in the order of ``nominal``).
+    envs : sequence of Environment
+        Each stage's environment (temperature, parts, rails).
+    frequency : ndarray, shape (F,)
+        The axis ``nominal`` was solved on, Hz.
+    nominal : Cascade
+        The cascade with every control as set (arrays of shape (F,)).
+    temperature_k : float
+        Noise temperature of the source impedance, K.
+    band : slice
+        The band grid within ``frequency``.
+
+    Notes
+    -----
+    See the module notes: per-stage adjoint transfers, carried forward by the loaded
+    voltage ratios of the stages after and backward by the terminated reverse ratios of
+    the stages before.
+    """
+    stages = chain.stages
+    n = len(stages)
+    shape = frequency.shape
+    forward = [
+        np.broadcast_to(
+            sol.two_port.voltage_ratio(nominal.load_admittance[m]), shape
+        )  # V_out,m / V_in,m
+        for m, sol in enumerate(nominal.stages)
+    ]
+    backward = []  # V_in,m / V_out,m with the input terminated in Z_S,m
+    for m, sol in enumerate(nominal.stages):
+        tp, z = sol.two_port, _floored(nominal.source_impedance[m])
+        backward.append(np.broadcast_to(z * (tp.a * tp.d - tp.b * tp.c) / (tp.b + z * tp.d), shape))
+    signal = np.stack([np.abs(np.broadcast_to(v, shape)) for v in nominal.v_out])
+
+    origins: list[NoiseOrigin] = []
+    blocks: list[NDArray[np.float64]] = []
+    r_source = float(np.real(chain.source.impedance))
+    if r_source > 0.0:
+        origins.append(NoiseOrigin("source.impedance", SOURCE_STAGE, -1, "impedance", "thermal"))
+        psd = thermal_voltage_psd(r_source, temperature_k)
+        blocks.append((psd * signal**2)[None])
+    for k, (stage, env, pos) in enumerate(zip(stages, envs, positions_as_set(stages), strict=True)):
+        found, psd, to_out, to_in = stage_noise_transfers(
+            stage,
+            k,
+            env,
+            frequency,
+            pos,
+            nominal.source_impedance[k],
+            nominal.load_admittance[k],
+        )
+        if not found:
+            continue
+        voltage = np.zeros((len(found), n, *shape), dtype=complex)
+        voltage[:, k] = to_out
+        for j in range(k + 1, n):
+            voltage[:, j] = voltage[:, j - 1] * forward[j]
+        if k > 0:
+            voltage[:, k - 1] = to_in
+            for j in range(k - 2, -1, -1):
+                voltage[:, j] = voltage[:, j + 1] * backward[j + 1]
+        origins += found
+        blocks.append(psd[:, None, :] * np.abs(voltage) ** 2)
+    contribution = (
+        np.concatenate(blocks, axis=0) if blocks else np.zeros((0, n, *shape), dtype=float)
+    )
+    return NoiseSpectra(frequency, band, tuple(origins), contribution, signal)
