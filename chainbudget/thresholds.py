@@ -50,3 +50,34 @@ LARGE_RIPPLE_FRACTION = 0.2
 THIN_DROPOUT_MARGIN_V = 0.5
 #: Off-load rise of small mains transformers (common practice, no source).
 TYPICAL_REGULATION = (0.10, 0.25)
+
+# --- noise ---------------------------------------------------------------------------------
+#: Hiss at the loudspeaker above this, A-weighted at 1 m, is audible in the pauses of a quiet
+#: room: a quiet living room's background is about 25-30 dB(A), and broadband hiss within
+#: some 5-10 dB of it is heard at a listening distance of a metre or two (common practice,
+#: no source).
+HISS_SPL_A_LIMIT_DB = 20.0
+#: Nominal programme at least this far above the unweighted noise at the output: below it
+#: the hiss is plain in quiet passages (common practice, no source; hi-fi aims at 80 dB or
+#: more re its rated output).
+SNR_MIN_DB = 60.0
+#: An attenuating stage ahead of the main gain is worth a note when moving it after the gain
+#: would improve the output SNR by more than this: 3 dB, a doubling of the noise power
+#: relative to the signal (common practice, no source).
+PLACEMENT_LIFT_DB = 3.0
+
+# --- DC ------------------------------------------------------------------------------------
+#: An output sitting more than this fraction of its swing room away from its bias point has
+#: lost a noticeable slice of headroom on that side (10 % of the room costs 0.9 dB); a
+#: designer re-biases past that (common practice, no source).
+DC_OFFSET_FRACTION = 0.10
+#: DC across a pot track above this makes it crackle as the wiper moves and the wiper passes
+#: DC steps on (common practice, no source).
+POT_DC_LIMIT_V = 0.1
+#: DC across a loudspeaker: past about 50 mV a designer trims it, past a volt it heats the
+#: voice coil and pushes the cone off centre (common practice, no source). A load of under
+#: 100 ohm is taken to be a loudspeaker; above it a line input, which should be AC-coupled.
+SPEAKER_MAX_OHM = 100.0
+SPEAKER_DC_WARN_V = 0.05
+SPEAKER_DC_ERROR_V = 1.0
+LINE_DC_NOTE_V = 0.1

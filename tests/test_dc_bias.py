@@ -25,11 +25,11 @@ from chainbudget.budget import Budget, compute
 from chainbudget.chainfile import parse_chain
 from chainbudget.cli import app
 from chainbudget.findings import Finding, findings
-from chainbudget.findings.dcbias import DC_OFFSET_FRACTION, POT_DC_LIMIT_V
 from chainbudget.parts import GENERIC_TRANSISTORS
 from chainbudget.stages import KINDS
 from chainbudget.stages.base import Environment, Rails, taper_fraction
 from chainbudget.stages.tone_networks import FeedbackTone
+from chainbudget.thresholds import DC_OFFSET_FRACTION, POT_DC_LIMIT_V
 
 ROOT = Path(__file__).resolve().parents[1]
 STARTER = ROOT / "chainbudget" / "templates" / "starter.toml"

@@ -32,7 +32,7 @@ from chainbudget.cascade import whole_chain_network
 from chainbudget.chainfile import Chain, load_chain, parse_chain
 from chainbudget.cli import app
 from chainbudget.findings import findings
-from chainbudget.findings.noise import HISS_SPL_A_LIMIT_DB, SNR_MIN_DB
+from chainbudget.thresholds import HISS_SPL_A_LIMIT_DB, SNR_MIN_DB
 from chainbudget.weighting import a_weighting
 
 ROOT = Path(__file__).resolve().parents[1]

@@ -5,25 +5,18 @@ from __future__ import annotations
 from typing import TYPE_CHECKING
 
 from chainbudget.finding import Finding
+from chainbudget.thresholds import (
+    DC_OFFSET_FRACTION,
+    LINE_DC_NOTE_V,
+    POT_DC_LIMIT_V,
+    SPEAKER_DC_ERROR_V,
+    SPEAKER_DC_WARN_V,
+    SPEAKER_MAX_OHM,
+)
 
 if TYPE_CHECKING:
     from chainbudget.budget import Budget
     from chainbudget.budget.dcbias import DcPoint
-
-# An output sitting more than this fraction of its swing room away from its bias point has
-# lost a noticeable slice of headroom on that side (10 % of the room costs 0.9 dB); a
-# designer re-biases past that (common practice, no source).
-DC_OFFSET_FRACTION = 0.10
-# DC across a pot track above this makes it crackle as the wiper moves and the wiper passes
-# DC steps on (common practice, no source).
-POT_DC_LIMIT_V = 0.1
-# DC across a loudspeaker: past about 50 mV a designer trims it, past a volt it heats the
-# voice coil and pushes the cone off centre (common practice, no source). A load of under
-# 100 ohm is taken to be a loudspeaker; above it a line input, which should be AC-coupled.
-SPEAKER_MAX_OHM = 100.0
-SPEAKER_DC_WARN_V = 0.05
-SPEAKER_DC_ERROR_V = 1.0
-LINE_DC_NOTE_V = 0.1
 
 
 def _output_text(point: DcPoint) -> str:

@@ -5,24 +5,11 @@ from __future__ import annotations
 from typing import TYPE_CHECKING
 
 from chainbudget.finding import Finding
+from chainbudget.thresholds import HISS_SPL_A_LIMIT_DB, PLACEMENT_LIFT_DB, SNR_MIN_DB
 
 if TYPE_CHECKING:
     from chainbudget.budget import Budget
     from chainbudget.budget.noise import NodeNoise, NoiseBudget
-
-# Hiss at the loudspeaker above this, A-weighted at 1 m, is audible in the pauses of a quiet
-# room: a quiet living room's background is about 25-30 dB(A), and broadband hiss within
-# some 5-10 dB of it is heard at a listening distance of a metre or two (common practice,
-# no source).
-HISS_SPL_A_LIMIT_DB = 20.0
-# Nominal programme at least this far above the unweighted noise at the output: below it
-# the hiss is plain in quiet passages (common practice, no source; hi-fi aims at 80 dB or
-# more re its rated output).
-SNR_MIN_DB = 60.0
-# An attenuating stage ahead of the main gain is worth a note when moving it after the gain
-# would improve the output SNR by more than this: 3 dB, a doubling of the noise power
-# relative to the signal (common practice, no source).
-PLACEMENT_LIFT_DB = 3.0
 
 
 def rules(budget: Budget) -> list[Finding]:
