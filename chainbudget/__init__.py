@@ -75,7 +75,13 @@ def __getattr__(name: str) -> Any:
 
 
 def __dir__() -> list[str]:
-    return sorted({*globals(), *_LAZY})
+    """The public names and the submodules loaded so far."""
+    loaded = (
+        name
+        for name, value in globals().items()
+        if isinstance(value, types.ModuleType) and value.__name__.startswith(f"{__name__}.")
+    )
+    return sorted({*__all__, *loaded})
 
 
 class _Package(types.ModuleType):

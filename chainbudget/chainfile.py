@@ -156,9 +156,9 @@ class Chain:
         return parse_chain(data, self.file)
 
     def __repr__(self) -> str:
-        title = _clip(self.settings.title, 48)
-        where = _clip(self.file, 48, keep_end=True)
-        stages = _listing([f"{s.name} {s.kind}" for s in self.stages], 96)
+        title = _clip(self.settings.title, 44)
+        where = _clip(self.file, 40, keep_end=True)
+        stages = _listing([f"{s.name} {s.kind}" for s in self.stages], 110)
         supplies = _listing([f"{s.name} {s.kind}" for s in self.supplies], 36)
         return (
             f"<Chain {title!r} {where}: {_count(self.stages, 'stage')} ({stages}), "

@@ -462,6 +462,12 @@ def test_a_name_shared_by_a_stage_and_a_supply_needs_the_long_form() -> None:
     assert chain.replace("supply.battery.voltage", "12 V").supplies[0].values["voltage"] == 12.0
 
 
+def test_a_stage_name_with_a_dot() -> None:
+    """The field is what follows the last dot; a stage may be named ``level.main``."""
+    chain = cb.loads(SMALL.replace('name = "level"', 'name = "level.main"'))
+    assert chain.replace("level.main.pot", "22k").stages[1].values["pot"] == 22e3
+
+
 def test_the_derived_chain_still_checks_its_references() -> None:
     """Renaming a supply that a stage names is refused as the loader refuses it."""
     chain = cb.loads(SMALL.replace('input = "10k"', 'input = "10k"\npositive = "battery"'))
@@ -518,3 +524,56 @@ def test_html_repr_lists_and_escapes() -> None:
     assert re.search(r"<td>stage 1</td><td>gain</td><td>opamp_gain</td>", page)
     assert re.search(r"<td>supply 1</td><td>battery</td><td>dc</td>", page)
     assert page.count("<tr>") == 1 + len(chain.stages) + len(chain.supplies)
+
+
+# --- docs/api.md says what the code does ----------------------------------------------------------
+
+API_DOC = ROOT / "docs" / "api.md"
+
+
+def _blocks(language: str) -> list[str]:
+    text = API_DOC.read_text(encoding="utf-8")
+    return re.findall(rf"```{language}\n(.*?)```", text, flags=re.S)
+
+
+@pytest.mark.skipif(
+    not hasattr(cb.Budget, "node"), reason="the worked example reads Budget.node, not here yet"
+)
+def test_the_worked_example_runs(monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.chdir(ROOT)
+    exec(_blocks("python")[0], {})
+
+
+def test_the_path_examples_run(monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.chdir(ROOT)
+    space = {"cb": cb, "chain": cb.load("chains/busking_amp.toml")}
+    exec(_blocks("python")[1], space)
+    assert set(space["sweep"]) == {0.2, 0.5, 0.8}
+    assert space["trial"].stages[0].values["feedback"] == 22e3
+
+
+def test_the_error_example_prints_what_it_says(capsys: pytest.CaptureFixture[str]) -> None:
+    block = _blocks("python")[2]
+    exec(block, {"cb": cb})
+    said = " ".join(line.split("# ", 1)[1].strip() for line in block.splitlines() if "# " in line)
+    assert capsys.readouterr().out.strip() == said
+
+
+def test_the_repr_shown_is_the_repr(monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.chdir(ROOT)
+    (shown,) = _blocks("text")
+    assert shown.strip() == repr(cb.load("chains/busking_amp.toml"))
+
+
+def test_the_worked_example_figures_hold(monkeypatch: pytest.MonkeyPatch) -> None:
+    """The figures the example's comments and prose quote, read from the node list."""
+    monkeypatch.chdir(ROOT)
+    chain = cb.load("chains/busking_amp.toml")
+    for change, gain_db, headroom_db in ((None, 3.3, 12.8), ("22k", 10.1, 6.0)):
+        budget = cb.compute(chain if change is None else chain.replace("pre.feedback", change))
+        pre = _node(budget, "pre")
+        assert round(pre.gain_db, 1) == gain_db  # type: ignore[attr-defined]
+        assert round(pre.headroom_db, 1) == headroom_db  # type: ignore[attr-defined]
+    codes = {(item.code, item.stage) for item in cb.findings(budget)}
+    assert ("clip-worst-case", "tone") in codes
+    assert {("thin-headroom", s) for s in ("driver", "buffer", "output")} <= codes
