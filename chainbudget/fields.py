@@ -305,9 +305,10 @@ class TableEntry:
         # A subclass declared as a dataclass would get the generated repr, which prints
         # every value; placing this class's compact repr in the subclass's own namespace
         # before the decorator runs keeps it (dataclasses never replace a method a class
-        # defines itself).
+        # defines itself). A subclass that writes its own repr keeps that.
         super().__init_subclass__(**kwargs)
-        cls.__repr__ = TableEntry.__repr__  # type: ignore[method-assign]
+        if "__repr__" not in cls.__dict__:
+            cls.__repr__ = TableEntry.__repr__  # type: ignore[method-assign]
 
     def __repr__(self) -> str:
         head = f"<{type(self).__name__} {self.path} {self.kind}"
