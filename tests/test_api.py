@@ -577,3 +577,25 @@ def test_the_worked_example_figures_hold(monkeypatch: pytest.MonkeyPatch) -> Non
     codes = {(item.code, item.stage) for item in cb.findings(budget)}
     assert ("clip-worst-case", "tone") in codes
     assert {("thin-headroom", s) for s in ("driver", "buffer", "output")} <= codes
+
+
+def test_a_table_entry_with_its_own_repr_keeps_it() -> None:
+    """Stage and Supply get the compact repr from TableEntry although they are declared as
+    dataclasses; a kind of entry that writes its own repr keeps its own."""
+    from dataclasses import dataclass
+
+    from chainbudget.fields import TableEntry
+
+    @dataclass(frozen=True)
+    class Own(TableEntry):
+        table = "own"
+
+        def __repr__(self) -> str:
+            return "mine"
+
+    @dataclass(frozen=True)
+    class Plain(TableEntry):
+        table = "plain"
+
+    assert repr(Own(1, "a", "k", {})) == "mine"
+    assert repr(Plain(1, "a", "k", {"x": 1.5})) == '<Plain plain[1] "a" k: x=1.5>'
