@@ -2,17 +2,21 @@
 
 Every user-facing input error is raised here as a `ChainFileError` naming the file, the
 table path of the offending value (``stage[2] "bass".feedback``), what was given and what
-was expected. Nothing downstream re-validates.
+was expected. Nothing downstream re-validates. A `Chain` is a value: frozen, hashable,
+compared by value; `Chain.replace` and `Chain.with_values` derive a changed chain through
+the same validation.
 """
 
 from __future__ import annotations
 
+import html
 import tomllib
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, fields, replace
 from pathlib import Path
 from typing import Any
 
+from chainbudget import ChainError  # the base; importable from here as before
 from chainbudget import fields as f
 from chainbudget.fields import suggest
 from chainbudget.parts import (
@@ -30,10 +34,6 @@ from chainbudget.supplies.base import GROUND_SUPPLY, Supply
 from chainbudget.units import UnitParseError
 
 
-class ChainError(Exception):
-    """Base of every error chainbudget reports to the user."""
-
-
 class ChainFileError(ValueError, ChainError):
     """A chain file that cannot be used as written: one line, with file and table path."""
 
@@ -41,6 +41,11 @@ class ChainFileError(ValueError, ChainError):
         where = f"{file}: {path}: " if path else f"{file}: "
         super().__init__(where + message)
         self.file, self.path, self.message = file, path, message
+
+
+class ChainPathError(ChainFileError):
+    """A dotted path given to `Chain.replace` or `Chain.with_values` that names no field of
+    the chain; ``path`` is the dotted path as given."""
 
 
 SETTINGS_FIELDS = (
@@ -92,7 +97,11 @@ class Load:
 
 @dataclass(frozen=True)
 class Chain:
-    """A whole validated chain file."""
+    """A whole validated chain file: immutable, hashable, equal to another by value.
+
+    ``opamps`` and ``transistors`` (the generic classes and the file's own parts, by name)
+    and each stage's and supply's ``values`` are read-only mappings.
+    """
 
     file: str
     settings: Settings
@@ -103,12 +112,107 @@ class Chain:
     supplies: tuple[Supply, ...]
     stages: tuple[Stage, ...]
 
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "opamps", f.frozen(self.opamps))
+        object.__setattr__(self, "transistors", f.frozen(self.transistors))
+
     def supply(self, name: str) -> Supply:
         return next(s for s in self.supplies if s.name == name)
 
     def same_model(self, other: Chain) -> bool:
         """Equal in everything but the file name."""
         return replace(self, file="") == replace(other, file="")
+
+    def replace(self, path: str, value: object) -> Chain:
+        """A new chain with one value changed, validated as the loader validates a file.
+
+        Parameters
+        ----------
+        path : str
+            Where the value sits: a stage or supply name then the field (``"pre.feedback"``,
+            ``"raw.reservoir"``), ``"chain.<field>"``, ``"source.<field>"``,
+            ``"load.<field>"``, ``"opamp.<name>.<field>"`` or ``"transistor.<name>.<field>"``;
+            ``"stage.<name>.<field>"`` and ``"supply.<name>.<field>"`` where a stage and a
+            supply share a name.
+        value : str, int, float, bool or list
+            As it would be written in the file (``"22k"``, ``0.3``, ``true``); None takes
+            the field back to its default.
+
+        Raises
+        ------
+        ChainPathError
+            When ``path`` names no field; the message lists the names there are.
+        ChainFileError
+            When the value is not one the field takes, as loading a file would report it.
+        """
+        return self.with_values({path: value})
+
+    def with_values(self, changes: Mapping[str, object]) -> Chain:
+        """A new chain with several values changed at once (paths as in `replace`, each
+        naming the chain as it is now), validated as the loader validates a file."""
+        data = chain_to_dict(self)
+        for path, value in changes.items():
+            _change(self, data, path, value)
+        return parse_chain(data, self.file)
+
+    def __repr__(self) -> str:
+        title = _clip(self.settings.title, 44)
+        where = _clip(self.file, 40, keep_end=True)
+        stages = _listing([f"{s.name} {s.kind}" for s in self.stages], 110)
+        supplies = _listing([f"{s.name} {s.kind}" for s in self.supplies], 36)
+        return (
+            f"<Chain {title!r} {where}: {_count(self.stages, 'stage')} ({stages}), "
+            f"{_count(self.supplies, 'supply', 'supplies')}"
+            + (f" ({supplies})>" if self.supplies else ">")
+        )
+
+    def _repr_html_(self) -> str:
+        """A small HTML table of the stages and the supplies, for notebooks."""
+
+        def row(*cells: object, header: bool = False) -> str:
+            tag = "th" if header else "td"
+            return "".join(
+                ["<tr>", *(f"<{tag}>{html.escape(str(c))}</{tag}>" for c in cells), "</tr>"]
+            )
+
+        caption = (
+            f"<b>{html.escape(self.settings.title)}</b> ({html.escape(self.file)}): "
+            f"{_count(self.stages, 'stage')}, {_count(self.supplies, 'supply', 'supplies')}"
+        )
+        lines = ["<table>", f"<caption>{caption}</caption>"]
+        lines.append(row("", "name", "kind", "values", header=True))
+        lines += [
+            row(f"stage {s.index}", s.name, s.kind, f.brief(s.values.items(), 80))
+            for s in self.stages
+        ]
+        lines += [
+            row(f"supply {s.index}", s.name, s.kind, f.brief(s.values.items(), 80))
+            for s in self.supplies
+        ]
+        lines.append("</table>")
+        return "\n".join(lines)
+
+
+def _clip(text: str, limit: int, keep_end: bool = False) -> str:
+    """``text`` cut to ``limit`` characters with an ellipsis where it was cut."""
+    if len(text) <= limit:
+        return text
+    return "..." + text[-(limit - 3) :] if keep_end else text[: limit - 3] + "..."
+
+
+def _listing(items: list[str], limit: int) -> str:
+    """Comma-separated items, cut after about ``limit`` characters with a count left."""
+    text = ""
+    for count, item in enumerate(items):
+        item = _clip(item, limit // 2)
+        if text and len(text) + len(item) > limit:
+            return f"{text}, +{len(items) - count} more"
+        text = f"{text}, {item}" if text else item
+    return text
+
+
+def _count(items: tuple[object, ...], one: str, many: str = "") -> str:
+    return f"{len(items)} {one if len(items) == 1 else many or one + 's'}"
 
 
 class _Reader:
@@ -344,6 +448,21 @@ def parse_chain(data: Mapping[str, Any], file: str) -> Chain:
     )
 
 
+def loads_chain(text: str, name: str = "<text>") -> Chain:
+    """Validate a chain given as TOML text; error messages name ``name`` as the file.
+
+    Raises
+    ------
+    ChainFileError
+        When the text is not TOML or does not describe a valid chain.
+    """
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise ChainFileError(name, "", f"not valid TOML: {exc}") from None
+    return parse_chain(data, name)
+
+
 def load_chain(path: str | Path) -> Chain:
     """Read and validate a chain file.
 
@@ -359,11 +478,7 @@ def load_chain(path: str | Path) -> Chain:
         raise ChainFileError(file, "", f"cannot read the file ({exc.strerror})") from None
     except UnicodeDecodeError:
         raise ChainFileError(file, "", "not a UTF-8 text file") from None
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise ChainFileError(file, "", f"not valid TOML: {exc}") from None
-    return parse_chain(data, file)
+    return loads_chain(text, file)
 
 
 # --- writing back ---------------------------------------------------------------------------
@@ -426,3 +541,114 @@ def chain_to_dict(chain: Chain) -> dict[str, Any]:
         for st in chain.stages
     ]
     return data
+
+
+# --- deriving a changed chain ---------------------------------------------------------------
+
+_TOP_SCHEMAS = {"chain": SETTINGS_FIELDS, "source": SOURCE_FIELDS, "load": LOAD_FIELDS}
+_PATH_FORMS = (
+    "a stage or supply name, chain, source, load, opamp.NAME or transistor.NAME, "
+    'then a field, such as "pre.feedback"'
+)
+
+
+def _entry_keys(entry: Stage | Supply) -> tuple[str, ...]:
+    """The keys of a stage's or supply's table, as the loader reads them."""
+    if isinstance(entry, Stage):
+        schema = STAGE_KINDS[entry.kind].fields
+        parent: tuple[str, ...] = ()
+    else:
+        spec = SUPPLY_KINDS[entry.kind]
+        schema, parent = spec.fields, ("from",) if spec.needs_parent else ()
+    return ("name", "kind", *parent, *(field.key for field in schema))
+
+
+def _tables(chain: Chain, owner: str) -> set[tuple[str, str]]:
+    """Every table ``owner`` (the dotted path without its field) can name:
+    ``(table, name)`` pairs, name empty for the top-level tables."""
+    found: set[tuple[str, str]] = set()
+    if owner in _TOP_SCHEMAS:
+        found.add((owner, ""))
+    for table, names in (
+        ("opamp", chain.opamps),
+        ("transistor", chain.transistors),
+        ("stage", [s.name for s in chain.stages]),
+        ("supply", [s.name for s in chain.supplies]),
+    ):
+        prefix = f"{table}."
+        if owner.startswith(prefix) and owner[len(prefix) :] in names:
+            found.add((table, owner[len(prefix) :]))
+    found |= {("stage", s.name) for s in chain.stages if s.name == owner}
+    found |= {("supply", s.name) for s in chain.supplies if s.name == owner}
+    return found
+
+
+def _unknown_owner(chain: Chain, path: str, owner: str) -> ChainPathError:
+    stages = [s.name for s in chain.stages]
+    supplies = [s.name for s in chain.supplies]
+    table, _, name = owner.partition(".")
+    if table in ("opamp", "transistor") and name:
+        parts = chain.opamps if table == "opamp" else chain.transistors
+        what = "op-amp" if table == "opamp" else "transistor"
+        return ChainPathError(
+            chain.file,
+            path,
+            f'no {what} named "{name}"' + suggest(name, parts) + "; there are: " + ", ".join(parts),
+        )
+    return ChainPathError(
+        chain.file,
+        path,
+        f'no stage, supply or table named "{owner}"'
+        + suggest(owner, [*stages, *supplies, *_TOP_SCHEMAS])
+        + f"; stages: {', '.join(stages)}; supplies: {', '.join(supplies) or 'none'}; "
+        "tables: chain, source, load, opamp.NAME, transistor.NAME",
+    )
+
+
+def _change(chain: Chain, data: dict[str, Any], path: str, value: object) -> None:
+    """Write ``value`` into ``data`` (the chain as `chain_to_dict` gives it) at ``path``;
+    None removes the key, so that the loader fills in its default."""
+    owner, _, key = path.rpartition(".") if isinstance(path, str) else ("", "", "")
+    if not owner or not key:
+        raise ChainPathError(chain.file, str(path), f"expected {_PATH_FORMS}")
+    targets = _tables(chain, owner)
+    if not targets:
+        raise _unknown_owner(chain, path, owner)
+    if len(targets) > 1:
+        forms = " or ".join(sorted(f'"{table}.{name}.{key}"' for table, name in targets))
+        raise ChainPathError(
+            chain.file, path, f'"{owner}" names more than one table; write {forms}'
+        )
+    ((table, name),) = targets
+    body: dict[str, Any]
+    if table in _TOP_SCHEMAS:
+        where, keys = f"[{table}]", tuple(field.key for field in _TOP_SCHEMAS[table])
+        body = data.setdefault(table, {})
+    elif table in ("opamp", "transistor"):
+        part = (chain.opamps if table == "opamp" else chain.transistors)[name]
+        schema = OPAMP_FIELDS if table == "opamp" else TRANSISTOR_FIELDS
+        where, keys = f"[{table}.{name}]", tuple(field.key for field in schema)
+        # A shipped class unchanged by the file is not written back; write it out whole
+        # so that the changed table still holds every required field.
+        parts = data.setdefault(table, {})
+        body = parts.setdefault(
+            name, _written({k.name: getattr(part, k.name) for k in fields(part)}, schema)
+        )
+    else:
+        entries: tuple[Stage | Supply, ...] = chain.stages if table == "stage" else chain.supplies
+        entry = next(e for e in entries if e.name == name)
+        where, keys = f"{entry.path} ({entry.kind})", _entry_keys(entry)
+        body = data[table][entry.index - 1]
+    if key not in keys:
+        raise ChainPathError(
+            chain.file,
+            path,
+            f'{where} has no field "{key}"'
+            + suggest(key, keys)
+            + "; its fields: "
+            + ", ".join(keys),
+        )
+    if value is None:
+        body.pop(key, None)
+    else:
+        body[key] = value

@@ -9,12 +9,15 @@ declaration.
 from __future__ import annotations
 
 import difflib
-from collections.abc import Callable, Iterable, Mapping
+from collections.abc import Callable, Iterable, Iterator, Mapping
 from dataclasses import dataclass
-from typing import Any, ClassVar
+from typing import Any, ClassVar, NoReturn, TypeVar
 
 from chainbudget import units
 from chainbudget.units import UnitParseError
+
+_K = TypeVar("_K")
+_V = TypeVar("_V")
 
 
 def suggest(word: str, options: Iterable[str]) -> str:
@@ -201,17 +204,116 @@ COUNT = FieldKind("whole number", _read_integer, int)
 BAND = FieldKind("[low, high] Hz", _read_band, lambda band: [f"{band[0]!r} Hz", f"{band[1]!r} Hz"])
 
 
+class FrozenMapping(Mapping[_K, _V]):
+    """A read-only mapping that keeps its insertion order, compares by value and hashes.
+
+    A chain is a value: two chains read from the same text are equal, and a chain can key a
+    cache or sit in a set. Its stage and supply values and its parts libraries are held in
+    this type so that nothing downstream can change a validated chain in place. Reading is
+    the `Mapping` interface (``m[key]``, ``m.get``, iteration, ``len``, ``in``); equality
+    with any mapping holding the same items, as for a dict. Hashing needs every value to be
+    hashable (the loader's values are floats, strings, bools, None and tuples).
+    """
+
+    __slots__ = ("_items", "_hash")
+    _items: dict[_K, _V]
+    _hash: int | None
+
+    def __init__(self, items: Mapping[_K, _V] | Iterable[tuple[_K, _V]] = ()) -> None:
+        object.__setattr__(self, "_items", dict(items))
+        object.__setattr__(self, "_hash", None)
+
+    def __getitem__(self, key: _K) -> _V:
+        return self._items[key]
+
+    def __iter__(self) -> Iterator[_K]:
+        return iter(self._items)
+
+    def __len__(self) -> int:
+        return len(self._items)
+
+    def __contains__(self, key: object) -> bool:
+        return key in self._items
+
+    def __eq__(self, other: object) -> bool:
+        if isinstance(other, FrozenMapping):
+            return self._items == other._items
+        if isinstance(other, Mapping):
+            return self._items == dict(other.items())
+        return NotImplemented
+
+    def __hash__(self) -> int:
+        # Order-free, as equality is: {a, b} equals {b, a}.
+        if self._hash is None:
+            object.__setattr__(self, "_hash", hash(frozenset(self._items.items())))
+        assert self._hash is not None
+        return self._hash
+
+    def __setattr__(self, name: str, value: object) -> NoReturn:
+        raise AttributeError(f"{type(self).__name__} is read-only")
+
+    def __delattr__(self, name: str) -> NoReturn:
+        raise AttributeError(f"{type(self).__name__} is read-only")
+
+    def __reduce__(self) -> tuple[type[FrozenMapping[_K, _V]], tuple[dict[_K, _V]]]:
+        return type(self), (self._items,)
+
+    def __repr__(self) -> str:
+        return f"{type(self).__name__}({self._items!r})"
+
+
+def frozen(items: Mapping[_K, _V]) -> FrozenMapping[_K, _V]:
+    """``items`` as a `FrozenMapping` (itself when it is one already)."""
+    return items if isinstance(items, FrozenMapping) else FrozenMapping(items)
+
+
+def _short(value: object) -> str:
+    """A value as a compact repr shows it: floats to six significant figures."""
+    if isinstance(value, float):
+        return f"{value:.6g}"
+    return repr(value)
+
+
+def brief(pairs: Iterable[tuple[str, object]], limit: int = 120) -> str:
+    """``key=value`` pairs for a compact repr, unset (None) values left out, cut after about
+    ``limit`` characters with a count of the pairs not shown."""
+    shown = [f"{key}={_short(value)}" for key, value in pairs if value is not None]
+    text = ""
+    for count, pair in enumerate(shown):
+        if text and len(text) + len(pair) > limit:
+            return f"{text} ... (+{len(shown) - count} more)"
+        text = f"{text} {pair}" if text else pair
+    return text
+
+
 @dataclass(frozen=True)
 class TableEntry:
     """One validated entry of an array of tables (``[[stage]]``, ``[[supply]]``): its 1-based
     ``index`` as the table path in messages shows it, name, kind and SI values with defaults
-    filled in."""
+    filled in, held read-only (a `FrozenMapping`, whatever mapping it was built from)."""
 
     table: ClassVar[str]
     index: int
     name: str
     kind: str
     values: Mapping[str, Any]
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "values", frozen(self.values))
+
+    def __init_subclass__(cls, **kwargs: Any) -> None:
+        # A subclass declared as a dataclass would get the generated repr, which prints
+        # every value; placing this class's compact repr in the subclass's own namespace
+        # before the decorator runs keeps it (dataclasses never replace a method a class
+        # defines itself). A subclass that writes its own repr keeps that.
+        super().__init_subclass__(**kwargs)
+        if "__repr__" not in cls.__dict__:
+            cls.__repr__ = TableEntry.__repr__  # type: ignore[method-assign]
+
+    def __repr__(self) -> str:
+        head = f"<{type(self).__name__} {self.path} {self.kind}"
+        values = brief(self.values.items())
+        return f"{head}: {values}>" if values else f"{head}>"
 
     def number(self, key: str) -> float:
         return float(self.values[key])

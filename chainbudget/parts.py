@@ -7,7 +7,7 @@ the chain file's ``[opamp.NAME]`` or ``[transistor.NAME]`` table.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, fields, replace
 
 from chainbudget import fields as f
 
@@ -37,7 +37,17 @@ TRANSISTOR_FIELDS: tuple[f.Field, ...] = (
 )
 
 
-@dataclass(frozen=True, kw_only=True)
+def _part_repr(part: OpAmp | Transistor) -> str:
+    """A part's repr on one short line: its name and its figures (SI), description left out."""
+    pairs = [
+        (field.name, getattr(part, field.name))
+        for field in fields(part)
+        if field.name not in ("name", "description")
+    ]
+    return f"<{type(part).__name__} {part.name!r}: {f.brief(pairs)}>"
+
+
+@dataclass(frozen=True, kw_only=True, repr=False)
 class OpAmp:
     """An op-amp section (SI units: Hz, V/s, V/rtHz, A/rtHz, ohm, V, A)."""
 
@@ -56,8 +66,11 @@ class OpAmp:
     max_supply: float | None = None
     description: str = ""
 
+    def __repr__(self) -> str:
+        return _part_repr(self)
 
-@dataclass(frozen=True, kw_only=True)
+
+@dataclass(frozen=True, kw_only=True, repr=False)
 class Transistor:
     """A bipolar transistor (SI units: V, ohm)."""
 
@@ -68,6 +81,9 @@ class Transistor:
     vce_sat: float = 0.2
     base_resistance: float = 100.0
     description: str = ""
+
+    def __repr__(self) -> str:
+        return _part_repr(self)
 
 
 _GENERIC = "Generic class with representative typical values, not any real part."

@@ -14,14 +14,21 @@ from functools import lru_cache
 
 import pint
 
+from chainbudget import ChainError
+
 # The audio dBu reference: 1 mW into 600 ohm, sqrt(0.6) V rms (common practice, no source).
 DBU_REFERENCE_VRMS = math.sqrt(0.6)
 DBV_REFERENCE_VRMS = 1.0
 ABSOLUTE_ZERO_KELVIN_IN_DEGC = 273.15  # 0 K = -273.15 degC (SI Brochure, 9th ed., sec. 2.3.1)
 
 
-class UnitParseError(ValueError):
-    """A value that could not be read as the quantity a field expects."""
+class UnitParseError(ValueError, ChainError):
+    """A value that could not be read as the quantity a field expects.
+
+    The loader turns it into a `ChainFileError` that adds the file and the table path; it
+    is a `ChainError` itself so that no input error of any layer escapes the user's
+    ``except chainbudget.ChainError``.
+    """
 
     def __init__(self, given: object, expected: str) -> None:
         super().__init__(f"got {given!r}, expected {expected}")
