@@ -7,7 +7,7 @@ The Python API, for notebooks and scripts (described in docs/api.md)::
     chain = cb.load("chains/busking_amp.toml")      # or cb.loads(text, name="...")
     budget = cb.compute(chain)
     louder = chain.replace("pre.feedback", "22k")   # a new, validated chain
-    for finding in cb.findings(cb.compute(louder)):
+    for finding in cb.compute(louder).findings:
         print(finding.severity, finding.code, finding.message)
 
 Every input error is a `ChainError` (and a `ValueError`) with a one-line message naming the
@@ -19,7 +19,6 @@ line and ``import chainbudget`` start fast.
 from __future__ import annotations
 
 import importlib
-import sys
 import types
 from typing import TYPE_CHECKING, Any
 
@@ -39,10 +38,9 @@ _LAZY: dict[str, tuple[str, str]] = {
     "load": ("chainbudget.chainfile", "load_chain"),
     "loads": ("chainbudget.chainfile", "loads_chain"),
     "compute": ("chainbudget.budget", "compute"),
-    "findings": ("chainbudget.findings", "findings"),
     "Chain": ("chainbudget.chainfile", "Chain"),
     "Budget": ("chainbudget.budget", "Budget"),
-    "Finding": ("chainbudget.findings", "Finding"),
+    "Finding": ("chainbudget.finding", "Finding"),
 }
 
 __all__ = [
@@ -52,7 +50,6 @@ __all__ = [
     "Finding",
     "__version__",
     "compute",
-    "findings",
     "load",
     "loads",
 ]
@@ -62,7 +59,7 @@ if TYPE_CHECKING:
     from chainbudget.chainfile import Chain
     from chainbudget.chainfile import load_chain as load
     from chainbudget.chainfile import loads_chain as loads
-    from chainbudget.findings import Finding, findings
+    from chainbudget.finding import Finding
 
 
 def __getattr__(name: str) -> Any:
@@ -82,23 +79,3 @@ def __dir__() -> list[str]:
         if isinstance(value, types.ModuleType) and value.__name__.startswith(f"{__name__}.")
     )
     return sorted({*__all__, *loaded})
-
-
-class _Package(types.ModuleType):
-    """The package module, keeping its public names when a submodule of the same name loads.
-
-    Importing a submodule sets it as an attribute of its package; ``chainbudget.findings``
-    (the package of rules) would then hide ``chainbudget.findings`` (the function of the
-    API) once anything imported the rules. The submodule stays in ``sys.modules``, where
-    ``from chainbudget.findings import ...`` finds it. (A module's class may be set to a
-    subclass of ModuleType: Python Language Reference, "Customizing module attribute
-    access".)
-    """
-
-    def __setattr__(self, name: str, value: object) -> None:
-        if name in _LAZY and isinstance(value, types.ModuleType):
-            return
-        super().__setattr__(name, value)
-
-
-sys.modules[__name__].__class__ = _Package
