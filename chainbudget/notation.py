@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 
 _PREFIXES = (
     (1e12, "T"),
@@ -79,3 +80,8 @@ def figure_text(value: object, unit: str) -> str:
             return f"{number:.3g} {unit}"
         return eng(number, unit)
     return str(value)
+
+
+def settings_text(controls: Mapping[tuple[str, str], float], separator: str = ", ") -> str:
+    """Control settings as the file names them: ``tone.bass_position=1, volume.position=0.5``."""
+    return separator.join(f"{stage}.{key}={value:g}" for (stage, key), value in controls.items())

@@ -10,7 +10,7 @@ from chainbudget.thresholds import SAME_MARGIN_DB, THIN_HEADROOM_DB
 
 if TYPE_CHECKING:
     from chainbudget.budget import Budget
-from chainbudget.notation import hertz
+from chainbudget.notation import hertz, settings_text
 
 
 def _limit_text(what: str | None) -> str:
@@ -72,7 +72,7 @@ def rules(budget: Budget) -> list[Finding]:
         ahead_of_volume = volume_at is None or k < volume_at
         worst = node.worst
         if ahead_of_volume and worst is not None and worst.headroom_db < 0.0 <= node.headroom_db:
-            settings = ", ".join(f"{key} = {value:g}" for key, value in worst.controls.items())
+            settings = settings_text(worst.controls)
             tail = (
                 "turning the volume down cannot save it"
                 if volume_at is not None

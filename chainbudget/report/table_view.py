@@ -11,7 +11,7 @@ from rich.table import Table
 
 from chainbudget.budget import Budget
 from chainbudget.findings import Finding
-from chainbudget.notation import DASH, decibels, eng
+from chainbudget.notation import DASH, decibels, eng, settings_text
 from chainbudget.report import dcbias, noise, power, supplies
 from chainbudget.units import vrms_to_dbu
 
@@ -25,12 +25,6 @@ TABLES: list[Callable[[Budget], list[Table]]] = [noise.tables, supplies.tables, 
 
 _SEVERITY_MARK = {"error": "ERROR", "warning": "warn ", "note": "note "}
 CAUTION = "caution"
-
-
-def _control_text(control: tuple[str, str], rotation: float) -> str:
-    """A control's setting, always as ``stage.control=value`` (``tone.bass_position=1``)."""
-    stage, key = control
-    return f"{stage}.{key}={rotation:g}"
 
 
 def node_table(budget: Budget) -> Table:
@@ -76,7 +70,7 @@ def worst_case_lines(budget: Budget) -> list[str]:
         w = n.worst
         if w is None:
             continue
-        turned = " ".join(_control_text(control, v) for control, v in w.controls.items())
+        turned = settings_text(w.controls, " ")
         where = f"{eng(w.frequency_hz, 'Hz')}" + (f", {turned}" if turned else "")
         lines.append(
             f"  {n.stage} ({n.kind}): {decibels(w.headroom_db)} dB at {where}; "
