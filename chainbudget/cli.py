@@ -33,9 +33,10 @@ STARTER = Path(__file__).parent / "templates" / "starter.toml"
 
 
 def _console() -> Console:
-    """A console that is plain (no colour, fixed width) when not writing to a terminal."""
+    """A console as wide as the terminal (``COLUMNS`` when not a terminal; 80 by default),
+    in colour on a terminal unless ``NO_COLOR`` is set, plain otherwise."""
     tty = sys.stdout.isatty()
-    return Console(no_color=not tty, width=None if tty else 160, soft_wrap=not tty, highlight=False)
+    return Console(no_color=None if tty else True, highlight=False)
 
 
 def _fail(message: str) -> typer.Exit:
@@ -56,6 +57,9 @@ def check(
             "--noise-detail", help="also list the noise contributors at a few frequencies"
         ),
     ] = False,
+    brief: Annotated[
+        bool, typer.Option("--brief", help="the verdict and the findings only, no tables")
+    ] = False,
 ) -> None:
     """Work out the budget of a chain and report it with its findings."""
     if output_format not in ("table", "json", "toml"):
@@ -71,8 +75,8 @@ def check(
     found = list(budget.findings)
     if output_format == "table":
         console = _console()
-        render(budget, found, console)
-        if noise_detail:
+        render(budget, found, console, brief=brief)
+        if noise_detail and not brief:
             for table in noise_view.detail_tables(budget):
                 console.print(table)
     else:

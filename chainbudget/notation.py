@@ -19,8 +19,15 @@ _PREFIXES = (
 DASH = "-"
 
 
+#: Prefixed units spelled out where the short forms differ by case alone: "mohm" and
+#: "Mohm" are a factor of 10^9 apart and one misread letter away, so a milliohm and a
+#: megohm are written in full (reports stay plain ASCII, for every terminal and log).
+_SPELLED = {("m", "ohm"): "milliohm", ("M", "ohm"): "megohm", ("G", "ohm"): "gigohm"}
+
+
 def eng(value: float | None, unit: str, digits: int = 3) -> str:
-    """``4700.0, "ohm"`` -> ``"4.7 kohm"``; None or non-finite -> a dash."""
+    """``4700.0, "ohm"`` -> ``"4.7 kohm"``, ``0.05, "ohm"`` -> ``"50 milliohm"``; None or
+    non-finite -> a dash."""
     if value is None or not math.isfinite(value):
         return DASH
     if value == 0.0:
@@ -29,7 +36,7 @@ def eng(value: float | None, unit: str, digits: int = 3) -> str:
     if magnitude >= 1e13:  # an open circuit in all but name (a node left to the 1e-15 S leak)
         return f"> 10 T{unit}"
     scale, prefix = next(((s, p) for s, p in _PREFIXES if magnitude >= s * 0.9995), (1e-12, "p"))
-    return f"{value / scale:.{digits}g} {prefix}{unit}"
+    return f"{value / scale:.{digits}g} {_SPELLED.get((prefix, unit), prefix + unit)}"
 
 
 def decibels(value: float | None, signed: bool = True) -> str:
@@ -47,7 +54,7 @@ def amps(value: float | None) -> str:
 
 
 def ohms(value: float | None) -> str:
-    """A resistance with its prefix (``"4.7 kohm"``), or a dash."""
+    """A resistance with its prefix (``"4.7 kohm"``, ``"2.2 megohm"``), or a dash."""
     return eng(value, "ohm")
 
 

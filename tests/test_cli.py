@@ -80,7 +80,7 @@ def test_there_are_at_least_three_example_chains() -> None:
 def test_every_example_checks_as_a_table(chain: Path) -> None:
     result = runner.invoke(app, ["check", str(chain)])
     assert result.exit_code in (0, 1), result.output
-    assert "Signal path" in result.output
+    assert "Levels at the reference" in result.output
     assert "Traceback" not in result.output
 
 

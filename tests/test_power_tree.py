@@ -360,7 +360,7 @@ def test_the_mains_example_reports_every_supply_figure() -> None:
         assert isinstance(reg[key], float), key
     assert reg["in_regulation"] is True
     table = runner.invoke(app, ["check", str(file)]).output
-    assert "Supplies" in table and 'Supply "pre" (regulator)' in table
+    assert "Supplies" in table and "Supply pre (regulator)" in table
 
 
 def test_the_battery_example_reports_its_run_time() -> None:

@@ -39,6 +39,7 @@ from chainbudget.budget.staging import (
     post_volume_headroom,
     supply_ranges,
     tone_boosts,
+    volume_reach,
 )
 from chainbudget.budget.supplies import loaded_analysis, supply_budgets
 from chainbudget.chainfile import Chain
@@ -67,6 +68,8 @@ class NodeBudget:
     currents: StageCurrents | None
     opamps: tuple[OpAmpDrive, ...]
     own: tuple[KindFigures, ...]
+    #: Behind the master volume: how far it can turn before max_level clips this node.
+    volume_reach: float | None = None
 
     @property
     def stage(self) -> str:
@@ -251,6 +254,7 @@ def _node_budgets(analysis: Analysis) -> tuple[tuple[NodeBudget, ...], NoiseBudg
     dc = dc_points(analysis)
     currents = stage_currents(analysis)
     drives = opamp_drives(analysis)
+    reach = {r.stage: r.rotation for r in volume_reach(analysis)}
     # Heat is worked out at high line, where each stage's rails are widest.
     views = stage_views(analysis, environments(chain, "high", analysis.voltages))
     return tuple(
@@ -262,6 +266,7 @@ def _node_budgets(analysis: Analysis) -> tuple[tuple[NodeBudget, ...], NoiseBudg
             currents=currents[k],
             opamps=tuple(d for d in drives if d.stage == stage.name),
             own=STAGE_KINDS[stage.kind].figures(views[k]),
+            volume_reach=reach.get(stage.name),
         )
         for k, stage in enumerate(chain.stages)
     ), noise

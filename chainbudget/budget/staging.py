@@ -24,6 +24,15 @@ class StageHeadroom:
 
 
 @dataclass(frozen=True)
+class VolumeReach:
+    """How far the master volume can turn before a stage behind it clips at max_level (at
+    the reference frequency, the other controls as set); 1 when it never does."""
+
+    stage: str
+    rotation: float
+
+
+@dataclass(frozen=True)
 class Boost:
     """A tone stage's greatest gain over the band at full boost, against the headroom of the
     node before it (dB)."""
@@ -143,4 +152,32 @@ def floating_inputs(analysis: Analysis) -> list[FloatingInput]:
         kind = KINDS[stage.kind]
         found += [FloatingInput(stage.name, pin) for pin in kind.floating_inputs(stage, defined)]
         defined = kind.output_defined(stage)
+    return found
+
+
+def volume_reach(analysis: Analysis) -> list[VolumeReach]:
+    """For every limited stage behind the master volume: the largest rotation of the volume
+    at which ``max_level`` still passes it unclipped.
+
+    Notes
+    -----
+    On the fine volume axis of the analysis (`VOLUME_POINTS` rotations at the reference
+    frequency, other controls as set): the source peak at which the stage clips, against
+    sqrt(2) max_level; the rotation is the last one before the first that clips, so it is
+    exact to the axis's step (1/400).
+    """
+    sweep, v = analysis.volume_sweep, analysis.volume_index
+    if sweep is None or v is None:
+        return []
+    max_peak = SQRT2 * analysis.chain.source.max_level
+    rotations = analysis.volume_rotations
+    found = []
+    for k in range(v + 1, len(analysis.chain.stages)):
+        clip = clip_source_peak(sweep, k)
+        if clip is None:
+            continue
+        passes = np.broadcast_to(clip[0][..., 0], rotations.shape) >= max_peak
+        first_fail = int(np.argmin(passes))
+        reach = 1.0 if passes.all() else float(rotations[max(first_fail - 1, 0)])
+        found.append(VolumeReach(analysis.chain.stages[k].name, reach))
     return found

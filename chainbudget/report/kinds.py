@@ -6,21 +6,21 @@ from __future__ import annotations
 from collections.abc import Iterable
 from typing import Any
 
-from rich import box
 from rich.table import Table
 
 from chainbudget.kindfigures import KindFigures
 from chainbudget.notation import figure_text
+from chainbudget.report.tables import add_row, new_table
 
 
 def figures_table(title: str, figures: Iterable[KindFigures]) -> Table | None:
-    """One two-column table (figure, value) of one stage's or supply's own figures."""
-    table = Table(title=title, box=box.SIMPLE_HEAD, title_justify="left")
-    table.add_column("figure")
-    table.add_column("value", justify="right")
+    """One two-column table (figure, value) of one stage's or supply's own figures; the
+    figures that are not known (None) are left out."""
+    table = new_table(title, "figure", "value")
     for own in figures:
         for row in own.rows():
-            table.add_row(row.label, figure_text(row.value, row.unit))
+            if row.value is not None:
+                add_row(table, row.label, figure_text(row.value, row.unit))
     return table if table.row_count else None
 
 

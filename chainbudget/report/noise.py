@@ -5,12 +5,12 @@ from __future__ import annotations
 from collections.abc import Callable
 from typing import Any
 
-from rich import box
 from rich.table import Table
 
 from chainbudget.budget import Budget
 from chainbudget.budget.noise import NoiseBudget
 from chainbudget.notation import DASH, decibels, eng
+from chainbudget.report.tables import add_row, new_table
 
 
 def _percent(share: float) -> str:
@@ -133,44 +133,51 @@ NODE_COLUMNS: list[tuple[str, str, Callable[[Budget, int], str]]] = [
 
 
 def _figures_table(noise: NoiseBudget, budget: Budget) -> Table:
-    table = Table(
-        title=f"Noise over {eng(budget.band_hz[0], 'Hz')} to {eng(budget.band_hz[1], 'Hz')} "
+    table = new_table(
+        f"Noise over {eng(budget.band_hz[0], 'Hz')} to {eng(budget.band_hz[1], 'Hz')} "
         "(controls as set; A: IEC 61672-1)",
-        box=box.SIMPLE_HEAD,
-        title_justify="left",
+        "figure",
+        "unweighted",
+        "A-weighted",
     )
-    for header, justify in (("figure", "left"), ("unweighted", "right"), ("A-weighted", "right")):
-        table.add_column(header, justify=justify)  # type: ignore[arg-type]
     out = noise.output
-    table.add_row(
+    add_row(
+        table,
         f'output noise ("{out.stage}"), set by "{out.set_by}"',
         eng(out.noise_vrms, "V"),
         eng(out.noise_a_vrms, "V"),
     )
-    table.add_row(
+    add_row(
+        table,
         "referred to the source",
         eng(noise.input_noise_vrms, "V"),
         eng(noise.input_noise_a_vrms, "V"),
     )
-    table.add_row("equivalent input noise, dBu", decibels(noise.ein_dbu), decibels(noise.ein_a_dbu))
-    table.add_row(
+    add_row(
+        table, "equivalent input noise, dBu", decibels(noise.ein_dbu), decibels(noise.ein_a_dbu)
+    )
+    add_row(
+        table,
         "SNR at nominal level, dB",
         decibels(out.snr_db, signed=False),
         decibels(out.snr_a_db, signed=False),
     )
-    table.add_row(
+    add_row(
+        table,
         "dynamic range (clip over noise), dB",
         decibels(noise.dynamic_range_db, signed=False),
         decibels(noise.dynamic_range_a_db, signed=False),
     )
     if noise.hiss_spl_db is not None:
-        table.add_row(
+        add_row(
+            table,
             "hiss at 1 m, dB SPL",
             decibels(noise.hiss_spl_db, signed=False),
             decibels(noise.hiss_spl_a_db, signed=False),
         )
     nf = decibels(noise.noise_figure_db, signed=False)
-    table.add_row(
+    add_row(
+        table,
         f"noise figure at {eng(noise.noise_figure_hz, 'Hz')} vs "
         f"{eng(noise.source_resistance_ohm, 'ohm')} source, dB",
         nf,
@@ -181,26 +188,21 @@ def _figures_table(noise: NoiseBudget, budget: Budget) -> Table:
 
 def contributors_table(noise: NoiseBudget) -> Table:
     """The ten largest noise sources at the output, ranked by share of the noise power."""
-    table = Table(
-        title="Largest noise sources at the output (share of band noise power)",
-        box=box.SIMPLE_HEAD,
-        title_justify="left",
+    table = new_table(
+        "Largest noise sources at the output (share of band noise power)",
+        "#",
+        "stage.part",
+        "kind",
+        "at output",
+        "share",
+        "share A",
+        left=("stage.part", "kind"),
     )
-    for header, justify in (
-        ("#", "right"),
-        ("stage", "left"),
-        ("part", "left"),
-        ("kind", "left"),
-        ("rms at output", "right"),
-        ("share", "right"),
-        ("share A", "right"),
-    ):
-        table.add_column(header, justify=justify)  # type: ignore[arg-type]
     for rank, c in enumerate(noise.top_contributors, 1):
-        table.add_row(
+        add_row(
+            table,
             str(rank),
-            c.stage,
-            c.part,
+            f"{c.stage}.{c.part}",
             c.kind,
             eng(c.noise_vrms, "V"),
             _percent(c.share),
@@ -225,21 +227,22 @@ def detail_tables(budget: Budget) -> list[Table]:
         return []
     found = []
     for spot in noise.spectrum:
-        table = Table(
-            title=f"Noise at {eng(spot.frequency_hz, 'Hz')}: {_density(spot.density_v_rthz)} "
+        table = new_table(
+            f"Noise at {eng(spot.frequency_hz, 'Hz')}: {_density(spot.density_v_rthz)} "
             f"at the output, {_density(spot.input_density_v_rthz)} referred to the source",
-            box=box.SIMPLE_HEAD,
-            title_justify="left",
+            "stage.part",
+            "kind",
+            "density at output",
+            "share",
+            left=("kind",),
         )
-        for header, justify in (
-            ("stage", "left"),
-            ("part", "left"),
-            ("kind", "left"),
-            ("density at output", "right"),
-            ("share", "right"),
-        ):
-            table.add_column(header, justify=justify)  # type: ignore[arg-type]
         for c in spot.contributors:
-            table.add_row(c.stage, c.part, c.kind, _density(c.density_v_rthz), _percent(c.share))
+            add_row(
+                table,
+                f"{c.stage}.{c.part}",
+                c.kind,
+                _density(c.density_v_rthz),
+                _percent(c.share),
+            )
         found.append(table)
     return found

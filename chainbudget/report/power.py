@@ -7,13 +7,13 @@ import math
 from dataclasses import asdict
 from typing import Any
 
-from rich import box
 from rich.table import Table
 
 from chainbudget.budget import Budget
 from chainbudget.budget.power import OutputFigures
 from chainbudget.notation import DASH, eng
 from chainbudget.report.kinds import figures_table, place
+from chainbudget.report.tables import add_row, new_table
 
 # The contract's keys of the ``output`` object; a kind's figures fill the ones it knows.
 OUTPUT_KEYS = (
@@ -64,13 +64,6 @@ def node_json(budget: Budget, k: int) -> dict[str, Any]:
     return part
 
 
-def _table(title: str, *columns: str) -> Table:
-    table = Table(title=title, box=box.SIMPLE_HEAD, title_justify="left")
-    for i, header in enumerate(columns):
-        table.add_column(header, justify="left" if i == 0 else "right")
-    return table
-
-
 def _db(value: float | None) -> str:
     if value is None:
         return DASH
@@ -78,11 +71,16 @@ def _db(value: float | None) -> str:
 
 
 def output_table(out: OutputFigures) -> Table:
-    table = _table(
-        f"Output into {out.load_ohm:g} ohm (reference frequency; sine)", "figure", "value", "note"
+    table = new_table(
+        f"Output into {eng(out.load_ohm, 'ohm')} (reference frequency; sine)",
+        "figure",
+        "value",
+        "note",
+        left=("value", "note"),
     )
     limited = math.isfinite(out.clip_power_w)
-    table.add_row(
+    add_row(
+        table,
         "max output",
         f"{eng(out.clip_power_w, 'W')} ({eng(out.clip_vpk, 'Vpk')})"
         if limited
@@ -90,22 +88,25 @@ def output_table(out: OutputFigures) -> Table:
         f"set by {out.clip_stage}: {out.clip_limit}" if out.clip_stage else DASH,
     )
     if out.output_stage_clip_power_w is not None and out.clip_stage != out.stage:
-        table.add_row(
+        add_row(
+            table,
             "output stage alone",
             eng(out.output_stage_clip_power_w, "W"),
             f"{out.stage} on its own limit",
         )
-    table.add_row(
+    add_row(
+        table,
         "nominal",
         f"{eng(out.nominal_power_w, 'W')} ({eng(out.nominal_vpk, 'Vpk')})",
         "nominal source level, controls as set",
     )
-    table.add_row("max SPL at 1 m", _db(out.max_spl_db), "with the load's sensitivity")
-    table.add_row("nominal SPL at 1 m", _db(out.nominal_spl_db), "")
-    table.add_row("output impedance", eng(out.zout_ohm, "ohm"), "")
-    table.add_row("damping factor", f"{out.damping_factor:.3g}", "Z_L / Z_out")
+    add_row(table, "max SPL at 1 m", _db(out.max_spl_db), "with the load's sensitivity")
+    add_row(table, "nominal SPL at 1 m", _db(out.nominal_spl_db), "")
+    add_row(table, "output impedance", eng(out.zout_ohm, "ohm"), "")
+    add_row(table, "damping factor", f"{out.damping_factor:.3g}", "Z_L / Z_out")
     if out.output_cap_corner_hz is not None:
-        table.add_row(
+        add_row(
+            table,
             "output cap corner",
             eng(out.output_cap_corner_hz, "Hz"),
             f"-3 dB, {eng(out.output_cap_f, 'F')} into the load",
@@ -117,14 +118,25 @@ def drive_table(budget: Budget) -> Table | None:
     ops = [op for node in budget.nodes for op in node.opamps]
     if not ops:
         return None
-    table = _table(
-        "Op-amp drive at max_level (peak currents)", "stage", "op-amp", "needs", "has", "into"
+    table = new_table(
+        "Op-amp drive at max_level (peak currents; worst over band and controls)",
+        "stage",
+        "op-amp",
+        "needs",
+        "worst",
+        "at",
+        "has",
+        "into",
+        left=("op-amp",),
     )
     for op in ops:
-        table.add_row(
+        add_row(
+            table,
             op.stage,
             op.opamp,
-            f"{eng(op.peak_a, 'A')} (worst {eng(op.worst_a, 'A')} at {eng(op.worst_hz, 'Hz')})",
+            eng(op.peak_a, "A"),
+            eng(op.worst_a, "A"),
+            eng(op.worst_hz, "Hz"),
             eng(op.limit_a, "A"),
             eng(op.load_ohm, "ohm"),
         )
@@ -135,11 +147,11 @@ def currents_table(budget: Budget) -> Table | None:
     currents = [n.currents for n in budget.nodes if n.currents is not None]
     if not any(c.idle_a or c.clip_a for c in currents):
         return None
-    table = _table("Stage currents from each rail (mean)", "stage", "idle", "nominal", "clip")
+    table = new_table("Stage currents from each rail (mean)", "stage", "idle", "nominal", "clip")
     for c in currents:
         if c.positive is None:  # a passive stage draws nothing
             continue
-        table.add_row(c.stage, eng(c.idle_a, "A"), eng(c.nominal_a, "A"), eng(c.clip_a, "A"))
+        add_row(table, c.stage, eng(c.idle_a, "A"), eng(c.nominal_a, "A"), eng(c.clip_a, "A"))
     return table
 
 
@@ -151,8 +163,7 @@ def tables(budget: Budget) -> list[Table]:
     if out is not None and (out.power_stage or out.max_spl_db is not None):
         found.append(output_table(out))
     for node in budget.nodes:
-        title = f'Stage "{node.stage}" ({node.kind}): ' + ", ".join(o.title for o in node.own)
-        table = figures_table(title, node.own)
+        table = figures_table(f"Stage {node.stage} ({node.kind})", node.own)
         if table is not None:
             found.append(table)
     for table in (drive_table(budget), currents_table(budget)):

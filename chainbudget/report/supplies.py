@@ -5,12 +5,12 @@ from __future__ import annotations
 
 from typing import Any
 
-from rich import box
 from rich.table import Table
 
 from chainbudget.budget import Budget
 from chainbudget.notation import DASH, eng
 from chainbudget.report.kinds import figures_table
+from chainbudget.report.tables import add_row, new_table
 from chainbudget.supplies.base import SupplyBudget
 
 # The contract's keys of each supply; a kind's figures fill the ones it knows.
@@ -59,41 +59,51 @@ def _range(low: float | None, high: float | None) -> str:
 
 
 def tables(budget: Budget) -> list[Table]:
-    """The supplies table, then each supply's own figures."""
+    """The supplies' voltages and loads (two tables, to read at 80 columns), then each
+    supply's own figures."""
     if not budget.supplies:
         return []
-    table = Table(
-        title="Supplies (out: low-line trough at heaviest load .. high-line crest, no load)",
-        box=box.SIMPLE_HEAD,
-        title_justify="left",
+    volts = new_table(
+        "Supplies: output (low-line trough at heaviest load to high-line crest, no load)",
+        "supply",
+        "kind",
+        "from",
+        "out",
+        "range",
+        "ripple pp",
+        left=("kind", "from"),
     )
-    for header, justify in (
-        ("supply", "left"),
-        ("kind", "left"),
-        ("from", "left"),
-        ("out", "right"),
-        ("out range", "right"),
-        ("ripple pp", "right"),
-        ("load idle", "right"),
-        ("load max", "right"),
-    ):
-        table.add_column(header, justify=justify)  # type: ignore[arg-type]
+    loads = new_table(
+        "Supplies: load (mean current out; from the parent: what it draws)",
+        "supply",
+        "idle",
+        "nominal",
+        "heaviest",
+        "from parent",
+    )
     for s in budget.supplies:
-        table.add_row(
+        add_row(
+            volts,
             s.name,
             s.kind,
             s.parent or DASH,
             eng(s.vout_v, "V"),
             _range(s.output_min_v, s.output_max_v),
             eng(s.ripple_vpp, "V"),
-            eng(s.idle_load_a, "A"),
-            eng(s.max_load_a, "A"),
         )
-    found = [table]
+        add_row(
+            loads,
+            s.name,
+            eng(s.idle_load_a, "A"),
+            eng(s.nominal_load_a, "A"),
+            eng(s.max_load_a, "A"),
+            eng(s.input_max_a, "A"),
+        )
+    found = [volts, loads]
     for s in budget.supplies:
         if s.own is None:
             continue
-        own = figures_table(f'Supply "{s.name}" ({s.kind}): {s.own.title}', [s.own])
+        own = figures_table(f"Supply {s.name} ({s.kind})", [s.own])
         if own is not None:
             found.append(own)
     return found

@@ -1,18 +1,24 @@
-"""The budget as terminal tables (rich): nodes, then each area's tables, findings, and the
-safety cautions (findings of severity ``caution``) last."""
+"""The budget as a terminal report (rich), verdict first.
+
+Order: the chain's title and conditions; the verdict (counts by severity, the stage that
+clips first and by how much, the SNR, the output power and each supply's state); the
+findings, coloured by severity; the safety cautions; then, unless ``brief``, every table.
+Every table reads at 80 columns: wide ones are split, cells wrap and never crop.
+"""
 
 from __future__ import annotations
 
 from collections.abc import Callable
 
-from rich import box
 from rich.console import Console
 from rich.table import Table
+from rich.text import Text
 
-from chainbudget.budget import Budget
-from chainbudget.findings import Finding
+from chainbudget.budget import Budget, NodeBudget
+from chainbudget.finding import SEVERITIES, Finding
 from chainbudget.notation import DASH, decibels, eng, settings_text
 from chainbudget.report import dcbias, noise, power, supplies
+from chainbudget.report.tables import add_row, new_table
 from chainbudget.units import vrms_to_dbu
 
 # Areas of the budget add columns to the node table (NODE_COLUMNS: header, justify and a
@@ -23,33 +29,118 @@ NODE_COLUMNS: list[tuple[str, str, Callable[[Budget, int], str]]] = [
 ]
 TABLES: list[Callable[[Budget], list[Table]]] = [noise.tables, supplies.tables, power.tables]
 
-_SEVERITY_MARK = {"error": "ERROR", "warning": "warn ", "note": "note "}
-CAUTION = "caution"
+#: How each severity is marked: its label and its style (the style is dropped under
+#: NO_COLOR or when the output is not a terminal).
+SEVERITY_STYLE = {
+    "error": ("ERROR", "bold red"),
+    "warning": ("WARNING", "yellow"),
+    "caution": ("CAUTION", "magenta"),
+    "note": ("note", "cyan"),
+}
 
 
-def node_table(budget: Budget) -> Table:
-    """One row per node: gain, level, clip level and what sets it, headroom nominal and worst."""
-    table = Table(
-        title="Signal path (headroom of max_level: at the reference as set; worst over band and "
-        "controls)",
-        box=box.SIMPLE_HEAD,
-        title_justify="left",
+def _plural(n: int, word: str) -> str:
+    return f"{n} {word}" + ("" if n == 1 else "s")
+
+
+def verdict_lines(budget: Budget, found: list[Finding]) -> list[Text]:
+    """The verdict: counts by severity, then one line each for the first stage to clip, the
+    noise, the output and every supply."""
+    counts = {severity: sum(fi.severity == severity for fi in found) for severity in SEVERITIES}
+    head = Text("Verdict: ", style="bold")
+    parts = [
+        (_plural(counts["error"], "error"), "bold red" if counts["error"] else "green"),
+        (_plural(counts["warning"], "warning"), "yellow" if counts["warning"] else ""),
+        (_plural(counts["note"], "note"), ""),
+        (_plural(counts["caution"], "caution"), "magenta" if counts["caution"] else ""),
+    ]
+    for i, (text, style) in enumerate(parts):
+        head.append(("" if i == 0 else ", ") + text, style=style)
+    lines = [head]
+    if budget.first_clip is not None:
+        node = budget.node(budget.first_clip)
+        lines.append(
+            Text(
+                f"  first to clip at max_level: {node.stage} ({node.levels.limited_by}), "
+                f"{decibels(node.headroom_db)} dB at {eng(budget.reference_hz, 'Hz')}"
+            )
+        )
+    ahead = [n for n in budget.nodes if n.volume_reach is None and n.worst is not None]
+    if ahead:
+        worst = min(ahead, key=lambda n: n.worst_headroom_db or 0.0)
+        lines.append(
+            Text(
+                f"  worst over band and controls: {worst.stage}, "
+                f"{decibels(worst.worst_headroom_db)} dB"
+            )
+        )
+    if budget.noise is not None:
+        out = budget.noise.output
+        lines.append(
+            Text(
+                f"  SNR at the output: {decibels(out.snr_a_db, signed=False)} dB(A), "
+                f"{decibels(out.snr_db, signed=False)} dB unweighted; floor set by {out.set_by}"
+            )
+        )
+    out_fig = budget.output
+    if out_fig is not None:
+        spl = out_fig.max_spl_db
+        loud = "" if spl is None else f", {spl:.0f} dB SPL at 1 m"
+        power_text = (
+            f"{eng(out_fig.clip_power_w, 'W')} into {eng(out_fig.load_ohm, 'ohm')}{loud}"
+            if out_fig.clip_stage is not None
+            else "no stage declares an output limit"
+        )
+        lines.append(Text(f"  maximum output: {power_text}"))
+    for s in budget.supplies:
+        told = [fi for fi in found if fi.supply == s.name and fi.severity != "caution"]
+        worst_told = min(told, key=lambda fi: SEVERITIES.index(fi.severity), default=None)
+        state = "ok" if worst_told is None else f"{worst_told.severity}: {worst_told.code}"
+        lines.append(
+            Text(
+                f"  supply {s.name} ({s.kind}): {eng(s.vout_v, 'V')}, "
+                f"{eng(s.output_min_v, 'V')} to {eng(s.output_max_v, 'V')}; {state}"
+            )
+        )
+    return lines
+
+
+def findings_table(found: list[Finding], severities: tuple[str, ...]) -> Table | None:
+    """The findings of the given severities: a mark column and the text, wrapped."""
+    shown = [fi for fi in found if fi.severity in severities]
+    if not shown:
+        return None
+    table = Table.grid(padding=(0, 1))
+    table.add_column(no_wrap=True)
+    table.add_column(overflow="fold")
+    for fi in shown:
+        label, style = SEVERITY_STYLE[fi.severity]
+        about = fi.stage or fi.supply
+        body = Text()
+        body.append(fi.code, style="bold")
+        if about:
+            body.append(f" [{about}]")
+        body.append(f": {fi.message}")
+        table.add_row(Text(label, style=style), body)
+    return table
+
+
+def levels_table(budget: Budget) -> Table:
+    """Gain staging at the reference with the controls as set."""
+    table = new_table(
+        "Levels at the reference, controls as set",
+        "stage",
+        "gain dB",
+        "total dB",
+        "level",
+        "dBu",
+        "clip pk",
+        "limit",
+        left=("limit",),
     )
-    for header, justify in (
-        ("stage", "left"),
-        ("gain dB", "right"),
-        ("total dB", "right"),
-        ("level rms", "right"),
-        ("dBu", "right"),
-        ("clip pk", "right"),
-        ("limit", "left"),
-        ("headroom dB", "right"),
-        ("worst dB", "right"),
-    ):
-        # Figures never shrink below their header on a narrow terminal.
-        table.add_column(header, justify=justify, no_wrap=True, min_width=len(header))  # type: ignore[arg-type]
     for n in budget.nodes:
-        table.add_row(
+        add_row(
+            table,
             n.stage,
             decibels(n.gain_db),
             decibels(n.total_gain_db),
@@ -57,41 +148,59 @@ def node_table(budget: Budget) -> Table:
             decibels(vrms_to_dbu(n.level_vrms)) if n.level_vrms > 0 else DASH,
             eng(n.clip_vpk, "V"),
             n.levels.limited_by or DASH,
-            decibels(n.headroom_db),
-            decibels(None if n.worst is None else n.worst.headroom_db),
         )
     return table
 
 
-def worst_case_lines(budget: Budget) -> list[str]:
-    """Where each node's worst case occurs: frequency, settings and the limit that binds."""
-    lines = []
-    for n in budget.nodes:
-        w = n.worst
-        if w is None:
-            continue
-        turned = settings_text(w.controls, " ")
-        where = f"{eng(w.frequency_hz, 'Hz')}" + (f", {turned}" if turned else "")
-        lines.append(
-            f"  {n.stage} ({n.kind}): {decibels(w.headroom_db)} dB at {where}; "
-            f"limited by {w.limited_by}"
+def _where(budget: Budget, n: NodeBudget) -> str:
+    """Where a node's worst case is, or, behind the volume, how far the volume may turn."""
+    if n.volume_reach is not None:
+        if n.volume_reach >= 1.0:
+            return "max_level passes at every volume setting (reference, as set)"
+        return (
+            f"the volume may turn to {n.volume_reach:.2f} before max_level clips it "
+            "(reference, as set)"
         )
-    return lines
+    w = n.worst
+    if w is None:
+        return DASH
+    turned = settings_text(w.controls, " ")
+    return (
+        f"{eng(w.frequency_hz, 'Hz')}" + (f", {turned}" if turned else "") + (f"; {w.limited_by}")
+    )
+
+
+def headroom_table(budget: Budget) -> Table:
+    """Headroom of max_level: at the reference as set, and the worst over band and controls
+    (behind the volume: how far the volume may turn instead)."""
+    table = new_table(
+        "Headroom of max_level (dB): at the reference as set; worst over band and controls",
+        "stage",
+        "as set",
+        "worst",
+        "where (behind the volume: its reach)",
+        left=("where (behind the volume: its reach)",),
+    )
+    for n in budget.nodes:
+        if n.headroom_db is None:
+            continue
+        worst = DASH if n.volume_reach is not None else decibels(n.worst_headroom_db)
+        add_row(table, n.stage, decibels(n.headroom_db), worst, _where(budget, n))
+    return table
 
 
 def loading_table(budget: Budget) -> Table:
     """One row per node: output impedance, what it drives, and each area's node columns."""
-    table = Table(
-        title="Nodes: impedances, noise and DC (controls as set)",
-        box=box.SIMPLE_HEAD,
-        title_justify="left",
+    table = new_table(
+        "Nodes: impedances, noise and DC (controls as set)",
+        "stage",
+        "Zout",
+        "drives",
+        *(header for header, _j, _c in NODE_COLUMNS),
     )
-    for header, justify in (("stage", "left"), ("Zout", "right"), ("drives", "right")):
-        table.add_column(header, justify=justify, no_wrap=True)  # type: ignore[arg-type]
-    for header, justify, _cell in NODE_COLUMNS:
-        table.add_column(header, justify=justify, no_wrap=True)  # type: ignore[arg-type]
     for k, n in enumerate(budget.nodes):
-        table.add_row(
+        add_row(
+            table,
             n.stage,
             eng(n.zout_ohm, "ohm"),
             eng(n.zload_ohm, "ohm"),
@@ -100,42 +209,38 @@ def loading_table(budget: Budget) -> Table:
     return table
 
 
-def render(budget: Budget, found: list[Finding], console: Console) -> None:
-    """Print the whole report."""
-    console.print(f"[bold]{budget.title}[/bold]  ({budget.file})", highlight=False)
+def render(budget: Budget, found: list[Finding], console: Console, brief: bool = False) -> None:
+    """Print the report: verdict, findings, cautions, then (unless ``brief``) the tables."""
+    title = Text(budget.title, style="bold")
+    title.append(f"  ({budget.file})", style="")
+    console.print(title)
     console.print(
-        f"reference {eng(budget.reference_hz, 'Hz')}, band {eng(budget.band_hz[0], 'Hz')} to "
-        f"{eng(budget.band_hz[1], 'Hz')}, ambient {budget.ambient_degc:g} degC; source "
-        f"{eng(budget.source_level_vrms, 'Vrms')} nominal, "
-        f"{eng(budget.source_max_level_vrms, 'Vrms')} max",
-        highlight=False,
+        Text(
+            f"reference {eng(budget.reference_hz, 'Hz')}, band {eng(budget.band_hz[0], 'Hz')} "
+            f"to {eng(budget.band_hz[1], 'Hz')}, ambient {budget.ambient_degc:g} degC; source "
+            f"{eng(budget.source_level_vrms, 'Vrms')} nominal, "
+            f"{eng(budget.source_max_level_vrms, 'Vrms')} max; load "
+            f"{eng(budget.load_ohm, 'ohm')}"
+        )
     )
-    console.print(node_table(budget))
-    lines = worst_case_lines(budget)
-    if lines:
-        console.print("Worst cases:", highlight=False)
-        for line in lines:
-            console.print(line, highlight=False, markup=False)
-    if budget.first_clip is not None:
-        console.print(f"First to clip at max_level: {budget.first_clip}", highlight=False)
-    console.print(loading_table(budget))
+    console.print()
+    for line in verdict_lines(budget, found):
+        console.print(line)
+    told = findings_table(found, ("error", "warning", "note"))
+    if told is not None:
+        console.print()
+        console.print(Text("Findings", style="bold"))
+        console.print(told)
+    cautions = findings_table(found, ("caution",))
+    if cautions is not None:
+        console.print()
+        console.print(Text("Cautions (safety)", style="bold"))
+        console.print(cautions)
+    if brief:
+        return
+    console.print()
+    for table in (levels_table(budget), headroom_table(budget), loading_table(budget)):
+        console.print(table)
     for tables in TABLES:
         for table in tables(budget):
             console.print(table)
-    console.print()
-    told = [fi for fi in found if fi.severity != CAUTION]
-    if told:
-        console.print("[bold]Findings[/bold]")
-        for fi in told:
-            about = fi.stage or fi.supply
-            where = f" [{about}]" if about else ""
-            console.print(
-                f"  {_SEVERITY_MARK[fi.severity]} {fi.code}{where}: {fi.message}",
-                highlight=False,
-                markup=False,
-            )
-    else:
-        console.print("Findings: none")
-    for fi in found:
-        if fi.severity == CAUTION:
-            console.print(f"CAUTION  {fi.message}", highlight=False, markup=False)
