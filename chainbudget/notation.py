@@ -92,3 +92,21 @@ def figure_text(value: object, unit: str) -> str:
 def settings_text(controls: Mapping[tuple[str, str], float], separator: str = ", ") -> str:
     """Control settings as the file names them: ``tone.bass_position=1, volume.position=0.5``."""
     return separator.join(f"{stage}.{key}={value:g}" for (stage, key), value in controls.items())
+
+
+def sig(value: float | None, unit: str = "", digits: int = 3) -> str:
+    """A figure to ``digits`` significant digits in plain decimals (``"1290 uF"`` never
+    ``"1.29e+03 uF"``): from 0.001 up to a million as it is, beyond that in engineering
+    notation; None or non-finite -> a dash."""
+    if value is None or not math.isfinite(value):
+        return DASH
+    if value == 0.0:
+        return f"0 {unit}".rstrip()
+    magnitude = math.floor(math.log10(abs(value)))
+    if not -3 <= magnitude < 6:
+        return eng(value, unit, digits)
+    decimals = max(digits - 1 - magnitude, 0)
+    text = f"{round(value, digits - 1 - magnitude):.{decimals}f}"
+    if "." in text:  # as %g does: no trailing zeros
+        text = text.rstrip("0").rstrip(".")
+    return f"{text} {unit}".rstrip()

@@ -5,6 +5,7 @@ from __future__ import annotations
 from typing import TYPE_CHECKING
 
 from chainbudget.finding import Finding
+from chainbudget.notation import eng, sig
 from chainbudget.thresholds import (
     DC_OFFSET_FRACTION,
     LINE_DC_NOTE_V,
@@ -28,7 +29,7 @@ def _operating_point(point: DcPoint) -> list[Finding]:
     if w is None or v is None:
         return []
     figures = {"dc_v": v, "bias_v": w.bias_v, "low_v": w.low_v, "high_v": w.high_v}
-    source = "" if point.input_v is None else f"with its input at {point.input_v:.3g} V DC, "
+    source = "" if point.input_v is None else f"with its input at {sig(point.input_v, 'V')} DC, "
     if point.outside:
         edge = "bottom" if v < w.low_v else "top"
         return [
@@ -36,8 +37,9 @@ def _operating_point(point: DcPoint) -> list[Finding]:
                 "error",
                 "dc-operating-point",
                 point.stage,
-                f"{source}{_output_text(point)} would sit at {v:.3g} V DC, outside the "
-                f"{w.low_v:.3g} to {w.high_v:.3g} V it can reach (bias point {w.bias_v:.3g} V): "
+                f"{source}{_output_text(point)} would sit at {sig(v, 'V')} DC, outside the "
+                f"{sig(w.low_v, 'V')} to {sig(w.high_v, 'V')} it can reach (bias point "
+                f"{sig(w.bias_v, 'V')}): "
                 f"it sits at the {edge} of its range and passes no signal; {w.remedy}",
                 figures,
             )
@@ -50,8 +52,9 @@ def _operating_point(point: DcPoint) -> list[Finding]:
             "warning",
             "dc-offset",
             point.stage,
-            f"{source}{_output_text(point)} sits at {v:.3g} V DC, {offset:+.3g} V from its bias "
-            f"point {w.bias_v:.3g} V: {100.0 * fraction:.0f} % of its swing room on that side "
+            f"{source}{_output_text(point)} sits at {sig(v, 'V')} DC, {offset:+.3g} V from its "
+            "bias "
+            f"point {sig(w.bias_v, 'V')}: {100.0 * fraction:.0f} % of its swing room on that side "
             f"(more than {100.0 * DC_OFFSET_FRACTION:g} %), so it clips {loss:.1f} dB earlier "
             f"than the headroom figures say; {w.remedy}",
             {**figures, "offset_fraction": fraction, "headroom_loss_db": loss},
@@ -68,7 +71,7 @@ def _pot(point: DcPoint) -> list[Finding]:
             "warning",
             "pot-carries-dc",
             point.stage,
-            f"the pot's track carries {top:.3g} V DC from the stage before (more than "
+            f"the pot's track carries {sig(top, 'V')} DC from the stage before (more than "
             f"{POT_DC_LIMIT_V:g} V): it crackles as the wiper moves and the wiper hands DC "
             "steps on; add input_cap (a coupling capacitor ahead of the pot)",
             {"pot_top_v": top},
@@ -101,8 +104,8 @@ def _load(point: DcPoint, load_ohm: float) -> list[Finding]:
                 severity,
                 "dc-into-load",
                 point.stage,
-                f"puts {v:+.3g} V DC across the {load_ohm:g} ohm loudspeaker "
-                f"({abs(v) / load_ohm * 1e3:.3g} mA through the voice coil); bring the output to "
+                f"puts {v:+.3g} V DC across the {sig(load_ohm, 'ohm')} loudspeaker "
+                f"({eng(abs(v) / load_ohm, 'A')} through the voice coil); bring the output to "
                 "0 V DC (re-bias the stage before it, add DC feedback) or couple the speaker "
                 "through an output capacitor",
                 figures,

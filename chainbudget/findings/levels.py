@@ -10,7 +10,7 @@ from chainbudget.thresholds import SAME_MARGIN_DB, THIN_HEADROOM_DB
 
 if TYPE_CHECKING:
     from chainbudget.budget import Budget
-from chainbudget.notation import hertz, settings_text
+from chainbudget.notation import hertz, settings_text, sig
 
 
 def _limit_text(what: str | None) -> str:
@@ -37,8 +37,9 @@ def rules(budget: Budget) -> list[Finding]:
                     "error",
                     "clip-nominal",
                     node.stage,
-                    f"clips at the nominal level: {node.level_vrms * 2**0.5:.3g} V peak against "
-                    f"a clip level of {node.clip_vpk:.3g} V{limit}, "
+                    f"clips at the nominal level: {sig(node.level_vrms * 2**0.5, 'V')} peak "
+                    "against "
+                    f"a clip level of {sig(node.clip_vpk, 'V')}{limit}, "
                     f"{-node.nominal_headroom_db:.1f} dB over; lower this stage's gain or the "
                     "gain before it, or raise its rails",
                     {**figures, "nominal_headroom_db": node.nominal_headroom_db},
@@ -51,7 +52,8 @@ def rules(budget: Budget) -> list[Finding]:
                     "clip-max",
                     node.stage,
                     "clips at max_level with the controls as set: "
-                    f"{node.max_level_vrms * 2**0.5:.3g} V peak against {node.clip_vpk:.3g} V"
+                    f"{sig(node.max_level_vrms * 2**0.5, 'V')} peak against "
+                    f"{sig(node.clip_vpk, 'V')}"
                     f"{limit}, {-node.headroom_db:.1f} dB over; take {-node.headroom_db:.1f} dB "
                     "of gain out of this stage or those before it, or raise its swing limit",
                     figures,
@@ -241,8 +243,8 @@ def _supply_ranges(budget: Budget) -> list[Finding]:
                     "error",
                     "opamp-supply-low",
                     r.stage,
-                    f'op-amp "{r.opamp}" runs from {r.low_total_v:.3g} V in total at low line, '
-                    f"below its minimum of {r.min_v:.3g} V; raise the supply or choose a "
+                    f'op-amp "{r.opamp}" runs from {sig(r.low_total_v, "V")} in total at low line, '
+                    f"below its minimum of {sig(r.min_v, 'V')}; raise the supply or choose a "
                     "low-voltage op-amp",
                     {**figures, "min_v": r.min_v},
                 )
@@ -253,8 +255,9 @@ def _supply_ranges(budget: Budget) -> list[Finding]:
                     "error",
                     "opamp-supply-high",
                     r.stage,
-                    f'op-amp "{r.opamp}" runs from {r.high_total_v:.3g} V in total at high line '
-                    f"(no load), above its maximum of {r.max_v:.3g} V; lower the supply or "
+                    f'op-amp "{r.opamp}" runs from {sig(r.high_total_v, "V")} in total at high '
+                    "line "
+                    f"(no load), above its maximum of {sig(r.max_v, 'V')}; lower the supply or "
                     "choose a higher-voltage op-amp",
                     {**figures, "max_v": r.max_v},
                 )

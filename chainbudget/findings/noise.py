@@ -5,6 +5,7 @@ from __future__ import annotations
 from typing import TYPE_CHECKING
 
 from chainbudget.finding import Finding
+from chainbudget.notation import eng
 from chainbudget.thresholds import HISS_SPL_A_LIMIT_DB, PLACEMENT_LIFT_DB, SNR_MIN_DB
 
 if TYPE_CHECKING:
@@ -87,7 +88,7 @@ def _hiss(noise: NoiseBudget) -> list[Finding]:
             "hiss-audible",
             noise.output.stage,
             f"hiss at the loudspeaker is {spl:.1f} dB SPL(A) at 1 m "
-            f"({noise.output.noise_a_vrms * 1e6:.3g} uV A-weighted), above the "
+            f"({eng(noise.output.noise_a_vrms, 'V')} A-weighted), above the "
             f"{HISS_SPL_A_LIMIT_DB:g} dB(A) at which it is heard in a quiet room; "
             f"{_remedy(noise.output)} by {over:.1f} dB, or lower the gain after the "
             "volume control",
@@ -106,7 +107,7 @@ def _snr(noise: NoiseBudget) -> list[Finding]:
             "snr-low",
             noise.output.stage,
             f"the nominal level is only {snr:.1f} dB above the output noise "
-            f"({noise.output.noise_vrms * 1e6:.3g} uV unweighted over the band), short of "
+            f"({eng(noise.output.noise_vrms, 'V')} unweighted over the band), short of "
             f"the {SNR_MIN_DB:g} dB usually wanted; {_remedy(noise.output)} or raise "
             "the signal ahead of it",
             {"snr_db": snr, "limit_db": SNR_MIN_DB},

@@ -9,7 +9,7 @@ import math
 from typing import TYPE_CHECKING
 
 from chainbudget.finding import Finding
-from chainbudget.notation import amps, hertz, ohms, watts
+from chainbudget.notation import amps, eng, hertz, ohms, sig, watts
 from chainbudget.thresholds import DRIVE_MARGIN, LOUD_SPL_DB
 
 if TYPE_CHECKING:
@@ -76,9 +76,9 @@ def _output(budget: Budget, out: OutputFigures) -> list[Finding]:
                 "warning",
                 "output-cap-bass",
                 out.stage,
-                f"the output capacitor and the {out.load_ohm:g} ohm load make a high-pass "
-                f"with its -3 dB corner at {corner:.3g} Hz, inside the band from {low:g} Hz; "
-                f"use at least {needed * 1e6:.3g} uF for a corner at {low:g} Hz",
+                f"the output capacitor and the {sig(out.load_ohm, 'ohm')} load make a high-pass "
+                f"with its -3 dB corner at {sig(corner, 'Hz')}, inside the band from {low:g} Hz; "
+                f"use at least {eng(needed, 'F')} for a corner at {low:g} Hz",
                 {"corner_hz": corner, "needed_f": needed},
             )
         )
@@ -94,8 +94,9 @@ def _output(budget: Budget, out: OutputFigures) -> list[Finding]:
                 "note",
                 "max-output",
                 out.clip_stage,
-                f"sets the maximum output: {watts(out.clip_power_w)} into {out.load_ohm:g} ohm "
-                f"({out.clip_vpk:.3g} V peak, limited by {out.clip_limit}){own}",
+                f"sets the maximum output: {watts(out.clip_power_w)} into "
+                f"{sig(out.load_ohm, 'ohm')} "
+                f"({sig(out.clip_vpk, 'V')} peak, limited by {out.clip_limit}){own}",
                 {"clip_power_w": out.clip_power_w, "clip_vpk": out.clip_vpk},
             )
         )

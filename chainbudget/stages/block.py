@@ -12,6 +12,7 @@ from chainbudget import fields as f
 from chainbudget.finding import Finding
 from chainbudget.kindfigures import KindFigures
 from chainbudget.network import GROUND, SOURCE_FLOOR_OHM, Netlist, node_ref
+from chainbudget.notation import sig
 from chainbudget.stages.base import (
     RAIL_FIELDS,
     Built,
@@ -68,7 +69,8 @@ class Block(StageKind):
             )
         else:
             text = (
-                f'Hot parts: "{facts.stage}" delivers up to {power:.3g} W into the load and turns '
+                f'Hot parts: "{facts.stage}" delivers up to {sig(power, "W")} into the load and '
+                "turns "
                 "a good part of that into heat; its heatsink can burn on touch. Follow its "
                 "maker's mounting and ventilation advice and check its temperature on the bench."
             )

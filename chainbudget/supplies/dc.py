@@ -9,7 +9,7 @@ from typing import Any
 from chainbudget import fields as f
 from chainbudget.finding import Finding
 from chainbudget.kindfigures import KindFigures, figure
-from chainbudget.notation import amps
+from chainbudget.notation import amps, sig
 from chainbudget.supplies.base import (
     Supply,
     SupplyBudget,
@@ -129,8 +129,9 @@ class DcSupply(SupplyKind):
                 "note",
                 "battery-runtime",
                 None,
-                f'battery "{supply.name}" ({own.capacity_ah:g} Ah) lasts about {idle:.3g} h at '
-                f"idle and {nominal:.3g} h at the nominal level ({amps(supply.idle_load_a)} and "
+                f'battery "{supply.name}" ({own.capacity_ah:g} Ah) lasts about {sig(idle, "h")} at '
+                f"idle and {sig(nominal, 'h')} at the nominal level ({amps(supply.idle_load_a)} "
+                "and "
                 f"{amps(supply.nominal_load_a)}); ideal figures: high drain and cold shorten them",
                 {"runtime_idle_h": idle, "runtime_nominal_h": nominal},
             )

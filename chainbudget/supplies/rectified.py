@@ -12,6 +12,7 @@ from dataclasses import dataclass
 from chainbudget import fields as f
 from chainbudget.finding import Finding
 from chainbudget.kindfigures import KindFigures, figure
+from chainbudget.notation import sig
 from chainbudget.supplies.base import (
     Supply,
     SupplyBudget,
@@ -198,11 +199,12 @@ class Rectified(SupplyKind):
                     "warning",
                     "transformer-rating",
                     None,
-                    f'supply "{supply.name}" draws {supply.max_load_a:.3g} A dc at heaviest load, '
+                    f'supply "{supply.name}" draws {sig(supply.max_load_a, "A")} dc at heaviest '
+                    "load, "
                     f"{fraction:.0%} of the transformer's rated current; a capacitor-input "
                     f"rectifier's rms winding current is about {RMS_PER_DC_AMP:g}x its dc load, "
                     "so choose a transformer rated for at least "
-                    f"{supply.max_load_a * RMS_PER_DC_AMP:.3g} A",
+                    f"{sig(supply.max_load_a * RMS_PER_DC_AMP, 'A')}",
                     {"load_fraction": fraction},
                 )
             )
@@ -214,7 +216,7 @@ class Rectified(SupplyKind):
                     "warning",
                     "large-ripple",
                     None,
-                    f'supply "{supply.name}" ripples {ripple:.3g} V p-p at heaviest load, over '
+                    f'supply "{supply.name}" ripples {sig(ripple, "V")} p-p at heaviest load, over '
                     f"{LARGE_RIPPLE_FRACTION:.0%} of its peak: the trough figure is rough (the "
                     "constant-current estimate overstates the ripple); fit a larger reservoir",
                     {"ripple_vpp": ripple},

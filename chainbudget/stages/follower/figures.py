@@ -14,7 +14,7 @@ from dataclasses import dataclass
 
 from chainbudget.finding import Finding
 from chainbudget.kindfigures import KindFigures, figure
-from chainbudget.notation import amps, watts
+from chainbudget.notation import amps, sig, watts
 from chainbudget.stages.base import NodeFacts, StageContext
 from chainbudget.stages.follower.bias import CUT_OFF, follower_bias
 from chainbudget.thresholds import FOLLOWER_HOT_W, HOT_PART_W, THIN_HEADROOM_DB
@@ -82,7 +82,7 @@ def follower_rules(fo: FollowerFigures, facts: NodeFacts) -> list[Finding]:
                 "error",
                 "follower-off",
                 fo.stage,
-                f"the follower has no working bias (emitter at {fo.emitter_v:.3g} V, "
+                f"the follower has no working bias (emitter at {sig(fo.emitter_v, 'V')}, "
                 f"{amps(fo.i_e_a)}): its base bias leaves no room to a rail; set base_bias "
                 "between the rails with room for V_BE and the swing",
                 {"i_e_a": fo.i_e_a, "emitter_v": fo.emitter_v},
@@ -96,7 +96,7 @@ def follower_rules(fo: FollowerFigures, facts: NodeFacts) -> list[Finding]:
                 "follower-cut-off",
                 fo.stage,
                 f"clips first on the bias side: with {amps(fo.i_e_a)} of bias current the "
-                f"transistor cuts off at {fo.cut_off_vpk:.3g} V peak into its load "
+                f"transistor cuts off at {sig(fo.cut_off_vpk, 'V')} peak into its load "
                 "(I_E times the emitter resistor in parallel with the load); raise the bias "
                 "current or bias it with a current sink",
                 {"i_e_a": fo.i_e_a, "cut_off_vpk": fo.cut_off_vpk},
@@ -108,7 +108,8 @@ def follower_rules(fo: FollowerFigures, facts: NodeFacts) -> list[Finding]:
                 "caution",
                 "hot-follower",
                 fo.stage,
-                f'Hot parts: follower "{fo.stage}" dissipates {fo.dissipation_w:.3g} W at idle; '
+                f'Hot parts: follower "{fo.stage}" dissipates {sig(fo.dissipation_w, "W")} at '
+                "idle; "
                 "its transistor can burn on touch. Mount it where it cannot be touched and check "
                 "its temperature on the bench.",
                 {"dissipation_w": fo.dissipation_w},

@@ -4,7 +4,7 @@ and the hot-parts caution."""
 from __future__ import annotations
 
 from chainbudget.finding import Finding
-from chainbudget.notation import amps, watts
+from chainbudget.notation import amps, sig, watts
 from chainbudget.stages.push_pull.drive import HandOver, OutputBias
 from chainbudget.stages.push_pull.heat import Dissipation
 from chainbudget.thresholds import DRIVE_MARGIN, JUNCTION_MARGIN_K
@@ -26,11 +26,11 @@ def drive_rules(h: HandOver) -> list[Finding]:
                 "drive-shortfall",
                 h.driver,
                 f'runs out of current driving the output stage "{h.stage}": at the output '
-                f"stage's clip level of {h.output_clip_vpk:.3g} V peak it would have to "
+                f"stage's clip level of {sig(h.output_clip_vpk, 'V')} peak it would have to "
                 f"deliver {amps(h.needed_a)} (the output stage's base current is "
                 f"{amps(h.base_current_a)}, I_E/(beta + 1) of the conducting half) but has "
                 f"{amps(h.available_a)}, so it clips first, at "
-                f"{h.driver_clip_output_vpk or 0.0:.3g} V peak at the output; "
+                f"{sig(h.driver_clip_output_vpk or 0.0, 'V')} peak at the output; "
                 f"{h.driver_remedy}, or use Darlington output devices",
                 {**figures, "driver_clip_output_vpk": h.driver_clip_output_vpk},
             )
@@ -95,7 +95,7 @@ def heat_rules(d: Dissipation) -> list[Finding]:
             "caution",
             "hot-output-stage",
             d.stage,
-            f"Hot parts: the output devices dissipate up to {d.worst_device_w:.3g} W each and "
+            f"Hot parts: the output devices dissipate up to {sig(d.worst_device_w, 'W')} each and "
             f"{where}{hot}; metal that hot can burn on touch. Mount them where they cannot be "
             "touched or covered, keep air flowing, and check the temperature on the bench "
             "before closing the box.",
@@ -114,7 +114,7 @@ def _thermal(d: Dissipation) -> list[Finding]:
         sink = ""
         if d.max_heatsink_k_per_w is not None:
             sink = (
-                f"; a heatsink of at most {d.max_heatsink_k_per_w:.3g} K/W per device keeps "
+                f"; a heatsink of at most {sig(d.max_heatsink_k_per_w, 'K/W')} per device keeps "
                 f"the junction at {d.max_junction_degc:g} degC"
             )
         return [
@@ -123,7 +123,7 @@ def _thermal(d: Dissipation) -> list[Finding]:
                 "heat-unknown",
                 d.stage,
                 f"each output device dissipates up to {watts(d.worst_device_w)} (worst sine "
-                f"level, {d.worst_vpk:.3g} V peak); give theta_jc and heatsink (or theta_ja) "
+                f"level, {sig(d.worst_vpk, 'V')} peak); give theta_jc and heatsink (or theta_ja) "
                 f"to check its junction temperature{sink}",
                 figures,
             )
@@ -134,7 +134,7 @@ def _thermal(d: Dissipation) -> list[Finding]:
         sink = (
             "; no heatsink can keep it there"
             if d.max_heatsink_k_per_w < 0.0
-            else f"; a heatsink of at most {d.max_heatsink_k_per_w:.3g} K/W keeps it at "
+            else f"; a heatsink of at most {sig(d.max_heatsink_k_per_w, 'K/W')} keeps it at "
             f"{d.max_junction_degc:g} degC"
         )
     if d.junction_degc > d.max_junction_degc:

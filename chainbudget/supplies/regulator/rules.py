@@ -4,7 +4,7 @@ and the hot-parts caution."""
 from __future__ import annotations
 
 from chainbudget.finding import Finding
-from chainbudget.notation import amps, eng, watts
+from chainbudget.notation import amps, eng, sig, watts
 from chainbudget.supplies.base import SupplyBudget
 from chainbudget.supplies.regulator.figures import RegulatorFigures
 from chainbudget.thresholds import (
@@ -32,7 +32,9 @@ def _dropout(s: SupplyBudget, r: RegulatorFigures) -> list[Finding]:
         d = r.dropout_suggestion
         ways = ""
         if d is not None and d.secondary_needed_vrms is not None:
-            ways = f': a secondary of at least {d.secondary_needed_vrms:.3g} V rms on "{d.parent}"'
+            ways = (
+                f': a secondary of at least {sig(d.secondary_needed_vrms, "V rms")} on "{d.parent}"'
+            )
             if d.reservoir_needed_f is not None:
                 ways += f", or a reservoir of at least {eng(d.reservoir_needed_f, 'F')}"
         needed = r.dropout_v + s.vout_v if d is None else d.input_needed_v
@@ -42,10 +44,10 @@ def _dropout(s: SupplyBudget, r: RegulatorFigures) -> list[Finding]:
                 "regulator-dropout",
                 None,
                 f'regulator "{s.name}" drops out of regulation on the ripple troughs at low '
-                f"line and heaviest load: its input falls to {r.input_min_v:.3g} V, "
-                f"{-r.dropout_margin_v:.2g} V short of the {s.vout_v:.3g} V output plus "
-                f"{r.dropout_v:.3g} V dropout; raise the input to at least "
-                f"{needed:.3g} V{ways}, or use a lower-dropout type",
+                f"line and heaviest load: its input falls to {sig(r.input_min_v, 'V')}, "
+                f"{sig(-r.dropout_margin_v, 'V', 2)} short of the {sig(s.vout_v, 'V')} output plus "
+                f"{sig(r.dropout_v, 'V')} dropout; raise the input to at least "
+                f"{sig(needed, 'V')}{ways}, or use a lower-dropout type",
                 {
                     "input_min_v": r.input_min_v,
                     "dropout_margin_v": r.dropout_margin_v,
@@ -60,9 +62,11 @@ def _dropout(s: SupplyBudget, r: RegulatorFigures) -> list[Finding]:
                 "regulator-dropout-margin",
                 None,
                 f'regulator "{s.name}" stays in regulation at low line and heaviest load with '
-                f"only {r.dropout_margin_v:.2g} V to spare (input trough {r.input_min_v:.3g} V); "
+                f"only {sig(r.dropout_margin_v, 'V', 2)} to spare (input trough "
+                f"{sig(r.input_min_v, 'V')}); "
                 f"allow at least {THIN_DROPOUT_MARGIN_V:g} V: raise the input by "
-                f"{THIN_DROPOUT_MARGIN_V - r.dropout_margin_v:.2g} V or use a lower-dropout type",
+                f"{sig(THIN_DROPOUT_MARGIN_V - r.dropout_margin_v, 'V', 2)} or use a "
+                "lower-dropout type",
                 {"dropout_margin_v": r.dropout_margin_v},
             )
         ]
@@ -81,7 +85,7 @@ def _min_load(s: SupplyBudget, r: RegulatorFigures) -> list[Finding]:
             f'regulator "{s.name}" delivers only {amps(s.idle_load_a)} at idle (divider '
             f"{amps(r.divider_a)} included) against its minimum load of "
             f"{amps(r.min_load_a)}: below it the output can drift up out of "
-            f'regulation; add a bleeder = "{b.resistance_ohm:g} ohm" ({b.series}) '
+            f'regulation; add a bleeder = "{sig(b.resistance_ohm, "ohm")}" ({b.series}) '
             f"across the output: it draws {amps(b.current_a)} and dissipates "
             f"{watts(b.power_w)} (use a part rated for twice that)",
             {
@@ -104,7 +108,7 @@ def _junction(s: SupplyBudget, r: RegulatorFigures, ambient_degc: float) -> list
                 "note",
                 "regulator-no-thermal",
                 None,
-                f'regulator "{s.name}" dissipates {r.dissipation_w:.3g} W at high line and '
+                f'regulator "{s.name}" dissipates {sig(r.dissipation_w, "W")} at high line and '
                 "heaviest load; give theta_ja (or theta_jc and heatsink) to check its junction",
                 {"dissipation_w": r.dissipation_w},
             )
@@ -112,18 +116,18 @@ def _junction(s: SupplyBudget, r: RegulatorFigures, ambient_degc: float) -> list
     if r.junction_degc > r.max_junction_degc:
         fix = "a heatsink"
         if r.heatsink_allowed_k_per_w is not None and r.heatsink_allowed_k_per_w > 0.0:
-            fix = f"a heatsink (with interface) of at most {r.heatsink_allowed_k_per_w:.3g} K/W"
+            fix = f"a heatsink (with interface) of at most {sig(r.heatsink_allowed_k_per_w, 'K/W')}"
         elif r.theta_allowed_k_per_w is not None:
             fix = (
                 f"a heatsink bringing junction-to-ambient to at most "
-                f"{r.theta_allowed_k_per_w:.3g} K/W"
+                f"{sig(r.theta_allowed_k_per_w, 'K/W')}"
             )
         return [
             Finding(
                 "error",
                 "regulator-junction",
                 None,
-                f'regulator "{s.name}" dissipates {r.dissipation_w:.3g} W at high line '
+                f'regulator "{s.name}" dissipates {sig(r.dissipation_w, "W")} at high line '
                 f"and heaviest load: its junction reaches {r.junction_degc:.0f} degC at "
                 f"{ambient_degc:g} degC ambient, over its {r.max_junction_degc:.0f} degC "
                 f"maximum; fit {fix}, or lower its input voltage",
@@ -158,8 +162,8 @@ def _max_input(s: SupplyBudget, r: RegulatorFigures) -> list[Finding]:
             "error",
             "regulator-max-input",
             None,
-            f'regulator "{s.name}" sees {r.input_max_v:.3g} V at its input at high line and '
-            f"no load, over its {r.max_input_v:.3g} V maximum; lower the input (a smaller "
+            f'regulator "{s.name}" sees {sig(r.input_max_v, "V")} at its input at high line and '
+            f"no load, over its {sig(r.max_input_v, 'V')} maximum; lower the input (a smaller "
             "secondary) or use a higher-voltage type",
             {"input_max_v": r.input_max_v, "max_input_v": r.max_input_v},
         )
@@ -176,10 +180,10 @@ def _divider(s: SupplyBudget, r: RegulatorFigures) -> list[Finding]:
             "note",
             "regulator-divider",
             None,
-            f'regulator "{s.name}": the divider sets {s.vout_v:.4g} V against the '
-            f"{dv.target_v:.4g} V target ({error:+.2%}); the best {dv.series} pair with no "
-            f'larger a lower resistor is upper = "{dv.upper_ohm:g} ohm", '
-            f'lower = "{dv.lower_ohm:g} ohm", giving {dv.vout_v:.4g} V '
+            f'regulator "{s.name}": the divider sets {sig(s.vout_v, "V", 4)} against the '
+            f"{sig(dv.target_v, 'V', 4)} target ({error:+.2%}); the best {dv.series} pair with no "
+            f'larger a lower resistor is upper = "{sig(dv.upper_ohm, "ohm")}", '
+            f'lower = "{sig(dv.lower_ohm, "ohm")}", giving {sig(dv.vout_v, "V", 4)} '
             f"({dv.error_fraction:+.2%})",
             {
                 "target_v": dv.target_v,
@@ -203,7 +207,7 @@ def _hot(s: SupplyBudget, r: RegulatorFigures) -> list[Finding]:
             "caution",
             "hot-regulator",
             None,
-            f'Hot parts: regulator "{s.name}" dissipates up to {r.dissipation_w:.3g} W{at}; '
+            f'Hot parts: regulator "{s.name}" dissipates up to {sig(r.dissipation_w, "W")}{at}; '
             "its tab and heatsink can burn on touch. Mount it where it cannot be touched "
             "or covered and check its temperature on the bench at high mains.",
             {"dissipation_w": r.dissipation_w, "junction_degc": junction},
