@@ -7,6 +7,9 @@ same (rtol 1e-9, no absolute floor: noise figures are near 1e-6 V and densities 
 smaller). A key that held null or an empty list may disappear (a kind's figure no longer printed for
 another kind); a key that held a figure may not. Finding codes, severities and subjects
 are held too; their wording may improve.
+
+Changed on purpose since, each by a commit that says why: the ``thin-headroom`` warning on
+``opamp_into_push_pull``'s driver is gone (the ``drive-shortfall`` error names its cause).
 """
 
 from __future__ import annotations

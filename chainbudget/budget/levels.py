@@ -52,6 +52,8 @@ class NodeLevels:
     worst: WorstCase | None
     zout_ohm: float
     zload_ohm: float
+    #: The binding limit bounds a current (the stage runs out of drive, not of voltage).
+    limited_by_current: bool = False
 
 
 def db(ratio: ArrayLike) -> NDArray[np.float64]:
@@ -98,6 +100,7 @@ def node_levels(analysis: Analysis) -> list[NodeLevels]:
         clip_vpk = headroom = nominal_headroom = None
         limited_by = limit_what = None
         worst = None
+        by_current = False
         if clip is not None:
             peak, which = clip[0][..., 0], int(clip[1][..., 0])
             limit = sol.built.limits[which]
@@ -105,6 +108,7 @@ def node_levels(analysis: Analysis) -> list[NodeLevels]:
             headroom = float(db(peak / max_peak))
             nominal_headroom = float(db(peak / (SQRT2 * chain.source.level)))
             limited_by, limit_what = limit.name, limit.what
+            by_current = limit.bounds_current
             worst = _worst_case(analysis, swept, k)
         found.append(
             NodeLevels(
@@ -122,6 +126,7 @@ def node_levels(analysis: Analysis) -> list[NodeLevels]:
                 worst=worst,
                 zout_ohm=float(abs(nominal.output_impedance[k][..., 0])),
                 zload_ohm=float(abs(1.0 / nominal.load_admittance[k][..., 0])),
+                limited_by_current=by_current,
             )
         )
     return found

@@ -60,7 +60,9 @@ RULES: list[Callable[[Budget], list[Finding]]] = [
 SUPERSEDES: dict[str, frozenset[str]] = {
     "follower-off": frozenset({"clip-nominal", "clip-max", "thin-headroom", "clip-worst-case"}),
     "dc-on-load": frozenset({"dc-into-load"}),
-    "drive-shortfall": frozenset({"follower-cut-off", "opamp-current", "opamp-current-margin"}),
+    "drive-shortfall": frozenset(
+        {"follower-cut-off", "opamp-current", "opamp-current-margin", "thin-headroom"}
+    ),
 }
 
 

@@ -31,6 +31,15 @@ def rules(budget: Budget) -> list[Finding]:
             "clip_vpk": node.clip_vpk,
         }
         limit = _limit_text(node.limit_what)
+        if node.limited_by_current:
+            # Out of current, not of voltage: less gain only hides it, more rail does nothing.
+            cure = (
+                "it cannot deliver the current its load asks for: drive the load through a "
+                "buffer (an emitter follower) or an output stage, or raise the impedance it "
+                "drives"
+            )
+        else:
+            cure = ""
         if node.nominal_headroom_db < 0.0:
             found.append(
                 Finding(
@@ -40,8 +49,8 @@ def rules(budget: Budget) -> list[Finding]:
                     f"clips at the nominal level: {sig(node.level_vrms * 2**0.5, 'V')} peak "
                     "against "
                     f"a clip level of {sig(node.clip_vpk, 'V')}{limit}, "
-                    f"{-node.nominal_headroom_db:.1f} dB over; lower this stage's gain or the "
-                    "gain before it, or raise its rails",
+                    f"{-node.nominal_headroom_db:.1f} dB over; "
+                    + (cure or "lower this stage's gain or the gain before it, or raise its rails"),
                     {**figures, "nominal_headroom_db": node.nominal_headroom_db},
                 )
             )
@@ -54,8 +63,12 @@ def rules(budget: Budget) -> list[Finding]:
                     "clips at max_level with the controls as set: "
                     f"{sig(node.max_level_vrms * 2**0.5, 'V')} peak against "
                     f"{sig(node.clip_vpk, 'V')}"
-                    f"{limit}, {-node.headroom_db:.1f} dB over; take {-node.headroom_db:.1f} dB "
-                    "of gain out of this stage or those before it, or raise its swing limit",
+                    f"{limit}, {-node.headroom_db:.1f} dB over; "
+                    + (
+                        cure
+                        or f"take {-node.headroom_db:.1f} dB of gain out of this stage or those "
+                        "before it, or raise its swing limit"
+                    ),
                     figures,
                 )
             )
@@ -66,8 +79,11 @@ def rules(budget: Budget) -> list[Finding]:
                     "thin-headroom",
                     node.stage,
                     f"only {node.headroom_db:.1f} dB of headroom at max_level{limit}; "
-                    f"{THIN_HEADROOM_DB:g} dB is the usual margin: trim "
-                    f"{THIN_HEADROOM_DB - node.headroom_db:.1f} dB of gain ahead of it",
+                    f"{THIN_HEADROOM_DB:g} dB is the usual margin: "
+                    + (
+                        cure
+                        or f"trim {THIN_HEADROOM_DB - node.headroom_db:.1f} dB of gain ahead of it"
+                    ),
                     figures,
                 )
             )

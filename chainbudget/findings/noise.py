@@ -31,6 +31,19 @@ def _remedy(node: NodeNoise) -> str:
     return f'quieten "{node.set_by}", which sets the floor,'
 
 
+#: What each generator kind is, in words (`chainbudget.network` names them).
+_GENERATOR = {
+    "thermal": "thermal noise of a resistor",
+    "e_n": "the op-amp's voltage noise",
+    "i_n": "the op-amp's current noise",
+    "shot": "a transistor's shot noise",
+}
+
+
+def _what(kind: str) -> str:
+    return _GENERATOR.get(kind, f"{kind} noise")
+
+
 def _late_stage(noise: NoiseBudget) -> list[Finding]:
     stages = [s for s in noise.stage_shares if s.stage_index >= 0]
     if len(noise.nodes) < 2:
@@ -52,7 +65,8 @@ def _late_stage(noise: NoiseBudget) -> list[Finding]:
             largest.stage,
             f"this stage sets the noise floor: {_percent(largest.share)} of the output noise "
             f'power against {_percent(first)} from the first stage "{first_name}"{tail}; its '
-            f'largest source is "{top.part}" ({top.kind}, {_percent(top.share)}): quieten it '
+            f'largest source is "{top.stage}.{top.part}" ({_what(top.kind)}, '
+            f"{_percent(top.share)}): quieten it "
             "(a lower-noise part, lower resistances) or move gain ahead of it",
             {"share": largest.share, "first_stage_share": first, "source_share": source},
         )

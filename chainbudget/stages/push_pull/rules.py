@@ -129,12 +129,14 @@ def _thermal(d: Dissipation) -> list[Finding]:
             )
         ]
     figures["junction_degc"] = d.junction_degc
-    sink = ""
-    if d.max_heatsink_k_per_w is not None:
-        sink = (
-            "; no heatsink can keep it there"
-            if d.max_heatsink_k_per_w < 0.0
-            else f"; a heatsink of at most {sig(d.max_heatsink_k_per_w, 'K/W')} keeps it at "
+    on_sink = d.heatsink_k_per_w is not None
+    if d.max_heatsink_k_per_w is None:
+        fix = "mount the devices on a heatsink"
+    elif d.max_heatsink_k_per_w < 0.0:
+        fix = "no heatsink can keep it there at these rails"
+    else:
+        fix = (
+            f"a heatsink of at most {sig(d.max_heatsink_k_per_w, 'K/W')} keeps it at "
             f"{d.max_junction_degc:g} degC"
         )
     if d.junction_degc > d.max_junction_degc:
@@ -145,11 +147,12 @@ def _thermal(d: Dissipation) -> list[Finding]:
                 d.stage,
                 f"output device junction reaches {d.junction_degc:.0f} degC at the worst sine "
                 f"level ({watts(d.worst_device_w)} per device, high-line rails), over its "
-                f"{d.max_junction_degc:g} degC maximum{sink}; or lower the rails or the "
-                "quiescent current",
+                f"{d.max_junction_degc:g} degC maximum: {fix}; lowering the rails or the "
+                "quiescent current also cools it",
                 figures,
             )
         ]
+    sink = f"; {fix}" if on_sink or d.max_heatsink_k_per_w is not None else ""
     if d.junction_degc > d.max_junction_degc - JUNCTION_MARGIN_K:
         return [
             Finding(
