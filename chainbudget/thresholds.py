@@ -15,6 +15,14 @@ THIN_HEADROOM_DB = 6.0
 #: finding names the first of them (ours: a twentieth of a dB is below any audible change).
 SAME_MARGIN_DB = 0.05
 
+#: A bridging input is at least ten times the impedance of what drives it, which costs under
+#: 0.83 dB (common practice, no source); a chain whose first stage loads its source harder
+#: than that loses level before any stage's gain counts it.
+BRIDGING_RATIO = 10.0
+#: A stage with more voltage gain than this at the reference is a gain stage (a factor of
+#: 2; a flat tone stage, a follower or a volume pot stays well below it). Ours.
+GAIN_STAGE_MIN_DB = 6.0
+
 # --- heat --------------------------------------------------------------------------------
 #: A junction within 25 K of its maximum runs close (common practice, no source).
 JUNCTION_MARGIN_K = 25.0
@@ -48,6 +56,9 @@ LARGE_RIPPLE_FRACTION = 0.2
 #: A dropout margin under this is in regulation on paper only: the part's dropout, the
 #: mains and the diodes all spread (ours, a design allowance).
 THIN_DROPOUT_MARGIN_V = 0.5
+#: A suggested bleeder brings a regulator's idle load this fraction above its minimum load,
+#: not just to it: the op-amps' and the divider's currents spread with their parts (ours).
+BLEEDER_MARGIN = 0.1
 #: Off-load rise of small mains transformers (common practice, no source).
 TYPICAL_REGULATION = (0.10, 0.25)
 

@@ -235,8 +235,9 @@ def test_new_writes_a_starter_that_checks_and_refuses_to_overwrite(tmp_path: Pat
     file = tmp_path / "mine.toml"
     assert runner.invoke(app, ["new", str(file)]).exit_code == 0
     first = file.read_text(encoding="utf-8")
-    # The starter is meant to be a working chain: no error findings (exit 0).
-    assert runner.invoke(app, ["check", str(file)]).exit_code == 0
+    # The starter is meant to be a working chain that checks clean: no error and no warning,
+    # so even --strict passes.
+    assert runner.invoke(app, ["check", str(file), "--strict"]).exit_code == 0
     file.write_text("# my own work\n", encoding="utf-8")
     refused = runner.invoke(app, ["new", str(file)])
     assert refused.exit_code == 2

@@ -274,11 +274,11 @@ def test_adding_the_caps_clears_the_starter() -> None:
 
 def test_only_the_ground_cap_missing_names_the_ground_cap() -> None:
     """input_cap + bias_resistor but no ground_cap: the + input sits at 12 V, the output at
-    12 (1 + 4k7/2k2) = 37.6 V, beyond V+ - 1.5 V; the fix named is the ground_cap."""
+    12 (1 + 4k7/4k7) = 24 V, beyond V+ - 1.5 V; the fix named is the ground_cap."""
     budget = without(STARTER, {"pre": ("ground_cap",)})
     error = next(f for f in dc_findings(budget) if f.stage == "pre")
     assert error.code == "dc-operating-point"
-    assert error.figures["dc_v"] == pytest.approx(12.0 * (1.0 + 4.7e3 / 2.2e3), rel=1e-12)
+    assert error.figures["dc_v"] == pytest.approx(12.0 * (1.0 + 4.7e3 / 4.7e3), rel=1e-12)
     assert "ground_cap" in error.message and "input_cap" not in error.message
 
 

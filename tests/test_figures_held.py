@@ -9,7 +9,9 @@ another kind); a key that held a figure may not. Finding codes, severities and s
 are held too; their wording may improve.
 
 Changed on purpose since, each by a commit that says why: the ``thin-headroom`` warning on
-``opamp_into_push_pull``'s driver is gone (the ``drive-shortfall`` error names its cause).
+``opamp_into_push_pull``'s driver is gone (the ``drive-shortfall`` error names its cause);
+the kitchen radio's ``divider_suggestion`` is null (a pair worse than the file's own is no
+suggestion).
 """
 
 from __future__ import annotations

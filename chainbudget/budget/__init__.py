@@ -23,6 +23,7 @@ from chainbudget.budget.levels import (
     NodeLevels,
     VolumeClip,
     WorstCase,
+    db,
     headroom_curves,
     node_levels,
     volume_clip_rotation,
@@ -170,6 +171,11 @@ class Budget:
     source_level_vrms: float
     source_max_level_vrms: float
     load_ohm: float
+    #: The source impedance and the chain's input impedance (magnitudes at the reference,
+    #: ohm), and the level the source loses to that divider, dB (negative).
+    source_impedance_ohm: float
+    input_impedance_ohm: float
+    source_loss_db: float
     nodes: tuple[NodeBudget, ...]
     supplies: tuple[SupplyBudget, ...]
     first_clip: str | None
@@ -288,6 +294,9 @@ def budget_from(analysis: Analysis) -> Budget:
         source_level_vrms=chain.source.level,
         source_max_level_vrms=chain.source.max_level,
         load_ohm=chain.load.impedance,
+        source_impedance_ohm=abs(chain.source.impedance),
+        input_impedance_ohm=float(abs(1.0 / analysis.nominal.input_admittance[..., 0])),
+        source_loss_db=float(db(analysis.nominal.v_in[0][..., 0])),
         nodes=nodes,
         supplies=supply_budgets(analysis),
         first_clip=None if first_clip is None else nodes[first_clip].stage,

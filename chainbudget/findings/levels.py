@@ -6,7 +6,12 @@ from dataclasses import replace
 from typing import TYPE_CHECKING
 
 from chainbudget.finding import Finding
-from chainbudget.thresholds import SAME_MARGIN_DB, THIN_HEADROOM_DB
+from chainbudget.thresholds import (
+    BRIDGING_RATIO,
+    GAIN_STAGE_MIN_DB,
+    SAME_MARGIN_DB,
+    THIN_HEADROOM_DB,
+)
 
 if TYPE_CHECKING:
     from chainbudget.budget import Budget
@@ -127,6 +132,7 @@ def rules(budget: Budget) -> list[Finding]:
     worst_flagged = {fi.stage for fi in found if fi.code == "clip-worst-case"}
     found += [fi for fi in _boosts(budget) if fi.stage not in worst_flagged]
     found += _supply_ranges(budget)
+    found += _source_loading(budget)
     found += [
         Finding(
             "error",
@@ -279,3 +285,39 @@ def _supply_ranges(budget: Budget) -> list[Finding]:
                 )
             )
     return found
+
+
+def _source_loading(budget: Budget) -> list[Finding]:
+    """The source loaded by the chain's input below a bridging ratio: level lost before the
+    first stage, named with the stage that loads it and, where a gain stage comes later,
+    the placement that would cure it."""
+    z_s, z_in = budget.source_impedance_ohm, budget.input_impedance_ohm
+    # (a relative slack of 1e-9 so that an input of exactly ten times is not flagged for a
+    # rounding residue of the solve)
+    if z_s <= 0.0 or z_in * (1.0 + 1e-9) >= BRIDGING_RATIO * z_s or not budget.nodes:
+        return []
+    first = budget.nodes[0]
+    gain_stage = next((n.stage for n in budget.nodes[1:] if n.gain_db > GAIN_STAGE_MIN_DB), None)
+    placement = (
+        f'; with "{gain_stage}" first the source would see its input instead'
+        if gain_stage is not None and first.gain_db <= GAIN_STAGE_MIN_DB
+        else ""
+    )
+    return [
+        Finding(
+            "warning",
+            "source-loaded",
+            first.stage,
+            f"loads the {sig(z_s, 'ohm')} source with {sig(z_in, 'ohm')} at "
+            f"{hertz(budget.reference_hz)}: {-budget.source_loss_db:.1f} dB of the signal is "
+            "lost before the first stage (no stage's gain shows it) while the source's own "
+            f"noise is not; a bridging input is at least {BRIDGING_RATIO:g} times the source "
+            f"impedance: put a stage with a high input impedance (a buffer or the gain "
+            f"stage) first{placement}",
+            {
+                "source_ohm": z_s,
+                "input_ohm": z_in,
+                "loss_db": budget.source_loss_db,
+            },
+        )
+    ]

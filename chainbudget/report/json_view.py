@@ -95,6 +95,9 @@ def budget_json(budget: Budget, found: list[Finding]) -> dict[str, Any]:
         "source": {
             "level_vrms": budget.source_level_vrms,
             "max_level_vrms": budget.source_max_level_vrms,
+            "impedance_ohm": budget.source_impedance_ohm,
+            "input_impedance_ohm": budget.input_impedance_ohm,
+            "loss_db": budget.source_loss_db,
         },
         "nodes": nodes,
         "first_clip": budget.first_clip,

@@ -35,8 +35,11 @@ class FollowerFigures(KindFigures):
     emitter_v: float = figure("emitter at rest", "V")
     cut_off: bool = figure("cut off (no working bias)")
     limited_by: str | None = figure("clips first on")
-    cut_off_vpk: float | None = figure("cuts off at", "Vpk", node_key="cut_off_vpk")
+    #: Where the bias side would cut off, however far beyond the swing the rails allow.
+    cut_off_vpk: float | None = figure(node_key="cut_off_vpk")
     dissipation_w: float = figure("dissipation at idle, high line", "W")
+    #: The same where it is what clips the stage (a level the signal can reach).
+    cuts_off_at_vpk: float | None = figure("cuts off at", "Vpk", default=None)
 
 
 def follower_figures(context: StageContext) -> FollowerFigures:
@@ -50,14 +53,16 @@ def follower_figures(context: StageContext) -> FollowerFigures:
     v_ce = abs(collector - hot.emitter_v)
     cut_source = context.limit_source_peak(k, CUT_OFF)
     own = context.source_clip(k)
+    cut_off = None if cut_source is None else cut_source * context.gain(k)
     return FollowerFigures(
         stage=stage.name,
         i_e_a=bias.i_e,
         emitter_v=bias.emitter_v,
         cut_off=bias.cut_off,
         limited_by=None if own is None else own[1].name,
-        cut_off_vpk=None if cut_source is None else cut_source * context.gain(k),
+        cut_off_vpk=cut_off,
         dissipation_w=v_ce * hot.small_signal.i_c,
+        cuts_off_at_vpk=cut_off if own is not None and own[1].name == CUT_OFF else None,
     )
 
 

@@ -23,6 +23,7 @@ from chainbudget.notation import eng
 from chainbudget.supplies.base import SupplyContext
 from chainbudget.supplymath import bleeder_suggestion, regulator_dissipation
 from chainbudget.thermal import junction_temperature, largest_sink_theta
+from chainbudget.thresholds import BLEEDER_MARGIN
 
 if TYPE_CHECKING:
     from chainbudget.supplies.regulator.kind import Regulator
@@ -116,10 +117,8 @@ class RegulatorFigures(KindFigures):
     )
     heatsink_allowed_k_per_w: float | None = figure("largest heatsink allowed", "K/W", default=None)
     bleeder_suggestion: BleederSuggestion | None = figure("suggested bleeder", default=None)
-    #: The best preferred-value pair for the target (in the JSON whatever its error).
-    divider_suggestion: DividerSuggestion | None = figure(default=None)
-    #: The same pair where it comes closer to the target than the file's own.
-    better_divider: DividerSuggestion | None = figure("a closer divider", default=None)
+    #: The best preferred-value pair for the target, where it comes closer than the file's.
+    divider_suggestion: DividerSuggestion | None = figure("a closer divider", default=None)
     dropout_suggestion: DropoutSuggestion | None = figure("input needed", default=None)
 
 
@@ -155,7 +154,8 @@ def regulator_figures(kind: Regulator, context: SupplyContext) -> RegulatorFigur
     if min_load > 0.0:
         min_load_a, min_load_margin = min_load, delivered.idle_a - min_load
         if min_load_margin < -MATCH_RTOL * min_load:
-            resistance, power = bleeder_suggestion(vout, -min_load_margin, BLEEDER_SERIES)
+            wanted = -min_load_margin + BLEEDER_MARGIN * min_load
+            resistance, power = bleeder_suggestion(vout, wanted, BLEEDER_SERIES)
             bleeder = BleederSuggestion(resistance, vout / resistance, power, BLEEDER_SERIES)
     # dissipation at high line: heaviest load and idle
     out_heavy = min(vout, max(parent_state.high_heavy_v - dropout, 0.0))
@@ -202,8 +202,7 @@ def regulator_figures(kind: Regulator, context: SupplyContext) -> RegulatorFigur
         theta_allowed_k_per_w=theta_allowed,
         heatsink_allowed_k_per_w=heatsink_allowed,
         bleeder_suggestion=bleeder,
-        divider_suggestion=divider,
-        better_divider=divider
+        divider_suggestion=divider
         if divider is not None and abs(divider.error_fraction) < abs((vout - target) / target)
         else None,
         dropout_suggestion=dropout_suggestion,

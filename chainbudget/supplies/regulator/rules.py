@@ -171,7 +171,7 @@ def _max_input(s: SupplyBudget, r: RegulatorFigures) -> list[Finding]:
 
 
 def _divider(s: SupplyBudget, r: RegulatorFigures) -> list[Finding]:
-    dv = r.better_divider
+    dv = r.divider_suggestion
     if dv is None:  # only a better pair is news
         return []
     error = (s.vout_v - dv.target_v) / dv.target_v
