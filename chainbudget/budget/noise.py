@@ -11,24 +11,9 @@ integrates those spectra over the band, unweighted and weighted, and ranks the g
 
 Notes
 -----
-The generators are mutually uncorrelated, so their PSDs add at any node:
-S_j(f) = sum_s S_s(f) |H_sj(f)|^2 with H_sj the transfer from generator s to node j.
-
-Per stage k (controls as set), the stage's own network is built alone with the cascade's
-view of the rest of the chain attached: the Thevenin impedance Z_S,k of everything before it
-(noiseless: the generators upstream are counted in their own stages) from ``in`` to ground
-and the admittance Y_L,k of everything after it from ``out`` to ground. One adjoint solve
-per frequency (`Netlist.adjoint_transfer`) gives the transfer of each of the stage's
-generators to its output node, a second one to its input node. By superposition that is
-exact: stage k meets the rest of the chain only at those two nodes, and the rest is a linear
-network without (these) sources, so its terminal behaviour is Z_S,k and Y_L,k.
-
-Forward, node k's voltage sets every later node: V_j = V_k prod_{m=k+1..j} 1/(A_m + B_m Y_L,m)
-(chain parameters of stage m terminated by Y_L,m; Pozar, Microwave Engineering, 4th ed.,
-sec. 4.4). Backward, a voltage V2 at the output of stage m whose input is terminated in
-Z_S,m gives V1 = V2 Z_S,m (A_m D_m - B_m C_m) / (B_m + Z_S,m D_m) at its input (from
-V1 = A V2 + B I2, I1 = C V2 + D I2 with V1 = -Z_S I1), which carries a generator's voltage at
-its stage's input further upstream (an op-amp's i_n flowing into a volume pot's wiper).
+How every generator reaches every node (uncorrelated PSDs adding, one adjoint solve per
+stage and frequency, carried forward and backward through the cascade) is in the notes of
+`chainbudget.budget.noise_spectra`.
 
 The source's thermal noise 4 k T Re(Z_S) (Johnson, Phys. Rev. 32, 97 (1928); Nyquist,
 Phys. Rev. 32, 110 (1928)) is in series with the source voltage, so it reaches node j as the
