@@ -161,6 +161,73 @@ def plot(
 
 
 @app.command()
+def sweep(
+    file: Annotated[Path, typer.Argument(help="chain file (TOML)")],
+    control: Annotated[
+        str | None,
+        typer.Option("--control", help="a pot to turn from 0 to 1: STAGE.CONTROL"),
+    ] = None,
+    value: Annotated[
+        str | None,
+        typer.Option("--value", help="a part value to step: STAGE.FIELD (with --from, --to)"),
+    ] = None,
+    start: Annotated[
+        str | None, typer.Option("--from", help='first value, with its unit ("4k7")')
+    ] = None,
+    stop: Annotated[str | None, typer.Option("--to", help="last value, with its unit")] = None,
+    steps: Annotated[int, typer.Option(help="number of steps, ends included")] = 11,
+    spacing: Annotated[
+        str, typer.Option(help="linear or log spacing of a part value's steps")
+    ] = "linear",
+    output_format: Annotated[
+        str, typer.Option("--format", "-f", help="table, csv or json")
+    ] = "table",
+) -> None:
+    """Step one pot or part value and tabulate the key figures at each step."""
+    if output_format not in ("table", "csv", "json"):
+        raise _fail(
+            f'--format: got "{output_format}", expected table, csv or json'
+            + suggest(output_format, ("table", "csv", "json"))
+        )
+    if spacing not in ("linear", "log"):
+        raise _fail(f'--spacing: got "{spacing}", expected linear or log')
+    if (control is None) == (value is None):
+        raise _fail("give one of --control STAGE.CONTROL or --value STAGE.FIELD")
+    if value is not None and (start is None or stop is None):
+        raise _fail("--value needs --from and --to")
+    if control is not None and (start is not None or stop is not None):
+        raise _fail("--from and --to go with --value; a pot is turned from 0 to 1")
+    # The sweep's modules load only on this path.
+    from chainbudget.budget.sweep import stepped_control, stepped_value, sweep_rows
+    from chainbudget.report.sweep_view import SweepInfo, sweep_table, sweep_text
+    from chainbudget.stages import KINDS
+
+    try:
+        chain = load_chain(file)
+        if control is not None:
+            stepped = stepped_control(chain, control, steps)
+        else:
+            assert value is not None and start is not None and stop is not None
+            stepped = stepped_value(chain, value, start, stop, steps, spacing)
+    except ChainError as exc:
+        raise _fail(str(exc)) from None
+    stage = chain.stages[stepped.stage_index]
+    unit = next(fld.kind.unit for fld in KINDS[stage.kind].fields if fld.key == stepped.key)
+    info = SweepInfo(
+        chain.settings.title,
+        chain.file,
+        f"{stage.name}.{stepped.key}",
+        stepped.control,
+        "" if stepped.control or unit not in ("ohm", "F") else unit,
+    )
+    rows = sweep_rows(chain, stepped)
+    if output_format == "table":
+        _console().print(sweep_table(info, rows))
+    else:
+        typer.echo(sweep_text(info, rows, output_format), nl=output_format == "json")
+
+
+@app.command()
 def new(
     file: Annotated[Path, typer.Argument(help="where to write the starter chain")],
     force: Annotated[bool, typer.Option(help="overwrite an existing file")] = False,
