@@ -203,10 +203,20 @@ def plot(
     force: Annotated[bool, typer.Option(help="overwrite existing pictures")] = False,
 ) -> None:
     """Draw the chain: its response, a square wave through it, its levels, noise, headroom."""
+    # matplotlib and the pictures load only on this path.
+    from chainbudget.report.pictures import (
+        NAMES,
+        SQUARE_HZ,
+        PictureOptions,
+        draw,
+        picture_inputs,
+    )
+    from chainbudget.report.pictures.style import save
+
     fmt = output.suffix.lower().lstrip(".")
     if fmt not in ("png", "svg", "pdf"):
         raise _fail(f'--output: got "{output}", expected a .png, .svg or .pdf file')
-    names = _picture_names(what or ["headroom"])
+    names = _picture_names(what or ["headroom"], NAMES)
     targets = (
         {names[0]: output}
         if len(names) == 1
@@ -220,16 +230,11 @@ def plot(
         chain = load_chain(file)
     except ChainError as exc:
         raise _fail(str(exc)) from None
-    if node is not None and node not in (names_ := [st.name for st in chain.stages]):
-        raise _fail(f'--node: no stage named "{node}"{suggest(node, names_)}')
-    # matplotlib and the pictures load only on this path.
-    from chainbudget.report.pictures import PictureOptions, draw, picture_inputs
-    from chainbudget.report.pictures.style import save
-
+    stages = [st.name for st in chain.stages]
+    if node is not None and node not in stages:
+        raise _fail(f'--node: no stage named "{node}"{suggest(node, stages)}')
     inputs = picture_inputs(chain)
-    options = PictureOptions(node=node, phase=phase)
-    if square_hz:
-        options = PictureOptions(node=node, phase=phase, square_hz=square_hz)
+    options = PictureOptions(node=node, phase=phase, square_hz=square_hz or SQUARE_HZ)
     for name, target in targets.items():
         picture = draw(name, inputs, options)
         try:
@@ -240,22 +245,19 @@ def plot(
         typer.echo(f"wrote {target}")
 
 
-PICTURE_NAMES = ("response", "square", "levels", "noise", "headroom")
-
-
-def _picture_names(asked: list[str]) -> list[str]:
+def _picture_names(asked: list[str], known: tuple[str, ...]) -> list[str]:
     """The pictures asked for, in the order asked, each once; ``all`` is every one."""
     names: list[str] = []
     for item in asked:
         for name in (part.strip() for part in item.split(",")):
             if name == "all":
-                names += [n for n in PICTURE_NAMES if n not in names]
-            elif name in PICTURE_NAMES:
+                names += [n for n in known if n not in names]
+            elif name in known:
                 names += [] if name in names else [name]
             else:
                 raise _fail(
-                    f'--what: got "{name}", expected one of {", ".join(PICTURE_NAMES)} or all'
-                    + suggest(name, PICTURE_NAMES)
+                    f'--what: got "{name}", expected one of {", ".join(known)} or all'
+                    + suggest(name, known)
                 )
     return names
 

@@ -255,6 +255,14 @@ def test_the_level_diagram_holds_the_json_figures(name: str) -> None:
     for gid, values in expected.items():
         drawn = np.asarray(line(figure, f"levels:{gid}").get_ydata(), dtype=float)
         np.testing.assert_allclose(drawn, values, rtol=1e-9, equal_nan=True, err_msg=gid)
+    # The dynamic range marked at the output is the JSON's.
+    marked = [
+        t
+        for t in figure.findobj()
+        if getattr(t, "get_gid", lambda: None)() == "levels:dynamic_range"
+    ]
+    assert len(marked) == 1
+    assert f"{report['dynamic_range_a_db']:.1f} dB" in marked[0].get_text()
     # The headroom drawn between max and clip is the JSON's headroom at every limited node.
     for k, node in enumerate(nodes, 1):
         if node["headroom_db"] is not None:

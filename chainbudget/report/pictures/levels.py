@@ -95,21 +95,23 @@ def draw(inputs: PictureInputs, options: PictureOptions) -> tuple[Figure, str]:
             x[i] + 0.17, (clip + top) / 2.0, f"{clip - top:+.1f} dB", fontsize="small", va="center"
         )
     last = len(diagram.places) - 1
-    clip, floor = diagram.clip_dbu[last], diagram.noise_a_dbu[last]
-    if not (math.isnan(clip) or math.isnan(floor)):
+    noise = budget.noise
+    if noise is not None and noise.output_clip_vrms is not None and noise.dynamic_range_a_db:
+        top, floor = _dbu(noise.output_clip_vrms), diagram.noise_a_dbu[last]
         axes.annotate(
             "",
-            xy=(x[last] - 0.12, clip),
+            xy=(x[last] - 0.12, top),
             xytext=(x[last] - 0.12, floor),
             arrowprops={"arrowstyle": "<->", "color": "#404040", "linewidth": 0.9},
         )
         axes.text(
             x[last] - 0.17,
-            (clip + floor) / 2.0,
-            f"clip over the\nnoise floor (A)\n{clip - floor:.1f} dB",
+            (top + floor) / 2.0,
+            f"dynamic range (A)\n{noise.dynamic_range_a_db:.1f} dB",
             fontsize="small",
             va="center",
             ha="right",
+            gid="levels:dynamic_range",
         )
     axes.set_xticks(x, diagram.places)
     axes.set_xlim(-0.4, x[-1] + 0.8)
@@ -122,7 +124,8 @@ def draw(inputs: PictureInputs, options: PictureOptions) -> tuple[Figure, str]:
         marker=r"$\updownarrow$",
         markersize=10,
         color="#404040",
-        label="headroom of max_level; at the output,\nclip level over the noise floor (A)",
+        label="headroom of max_level; at the output, the\ndynamic range: output at the first "
+        "clip\nover the A-weighted noise floor",
     )
     legend_outside(axes, fontsize="small")
     return figure, _summary(budget, diagram)
