@@ -208,3 +208,14 @@ def test_the_sweep_table_and_csv() -> None:
     lines = csv_text.output.strip().splitlines()
     assert lines[0].startswith("value,gain_db,headroom_db") and len(lines) == 12
     assert math.isclose(float(lines[1].split(",")[0]), 10e-9, rel_tol=1e-12)
+
+
+def test_a_step_the_loader_would_refuse_is_refused() -> None:
+    """Stepping a block's gain linearly from -10 to 10 passes through 0, which a chain file
+    may not hold: the sweep says which step, as the loader would."""
+    chain = load_chain(CHAINS / "tape_replay_module.toml")
+    with pytest.raises(SweepError, match="the step at 0 would not load"):
+        stepped_value(chain, "replay.gain", "-10", "10", 3)
+    assert stepped_value(chain, "replay.gain", "20 dB", "40 dB", 3).values == pytest.approx(
+        [10.0, 55.0, 100.0], rel=1e-12
+    )

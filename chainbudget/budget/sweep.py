@@ -21,7 +21,7 @@ from chainbudget.budget import Budget, budget_from
 from chainbudget.budget.analysis import environments, frequency_axis
 from chainbudget.budget.steps import Stepped, loaded_steps, with_value
 from chainbudget.cascade import solve_stage
-from chainbudget.chainfile import Chain, ChainError
+from chainbudget.chainfile import Chain, ChainError, ChainFileError, chain_to_dict, parse_chain
 from chainbudget.fields import suggest
 from chainbudget.findings import findings as draw_findings
 from chainbudget.stages import KINDS
@@ -72,7 +72,9 @@ def stepped_control(chain: Chain, spec: str, steps: int) -> Stepped:
         raise SweepError(
             f'--control: got "{spec}", expected one of {listed}{suggest(key, controls)}'
         )
-    return Stepped(k, key, True, np.linspace(0.0, 1.0, steps))
+    stepped = Stepped(k, key, True, np.linspace(0.0, 1.0, steps))
+    _check_loads(chain, stepped, "--control")
+    return stepped
 
 
 def stepped_value(
@@ -115,6 +117,7 @@ def stepped_value(
     else:
         values = np.linspace(ends[0], ends[1], steps)
     stepped = Stepped(k, key, False, values)
+    _check_loads(chain, stepped, "--value")
     _check_batched(chain, stepped)
     return stepped
 
@@ -122,6 +125,17 @@ def stepped_value(
 def _check_steps(steps: int) -> None:
     if not MIN_STEPS <= steps <= MAX_STEPS:
         raise SweepError(f"--steps: got {steps}, expected {MIN_STEPS} to {MAX_STEPS}")
+
+
+def _check_loads(chain: Chain, stepped: Stepped, option: str) -> None:
+    """Refuse a step whose edited file the loader would refuse (a zero gain, a value another
+    field rules out): each step's chain is written back as the file would hold it and read
+    again by the loader."""
+    for step, value in enumerate(stepped.values):
+        try:
+            parse_chain(chain_to_dict(stepped.edited(chain, step)), chain.file)
+        except ChainFileError as exc:
+            raise SweepError(f"{option}: the step at {value:g} would not load: {exc}") from None
 
 
 def _check_batched(chain: Chain, stepped: Stepped) -> None:

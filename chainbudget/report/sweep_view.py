@@ -53,7 +53,7 @@ def sweep_table(info: SweepInfo, rows: Sequence[SweepRow]) -> Table:
     """One row per step: the value and the chain's key figures there."""
     what = "rotation" if info.control else "value"
     table = Table(
-        title=f"{info.title}: {info.target} swept in {len(rows)} steps (one batched analysis; "
+        title=f"{info.title}: {info.target} swept in {len(rows)} steps (solved together; "
         "headroom: the least of any node, at max_level)",
         box=box.SIMPLE_HEAD,
         title_justify="left",
