@@ -219,3 +219,22 @@ def test_a_real_browser_renders_the_page(page: tuple[Path, str, dict], tmp_path:
     pixels = image.imread(shot)
     dark = (pixels[..., :3].mean(axis=-1) < 0.5).mean()
     assert 0.005 < dark < 0.5
+
+
+def test_every_inline_picture_is_well_formed_and_its_references_resolve(
+    page: tuple[Path, str, dict],
+) -> None:
+    """Each inline SVG parses as XML, and every url(#id) and href="#id" in it names an id of
+    the same picture (the ids are prefixed per picture so that five pictures share a page)."""
+    from xml.etree import ElementTree
+
+    _, text, _ = page
+    chunks = re.findall(r"<svg .*?</svg>", text, flags=re.DOTALL)
+    assert len(chunks) == 5
+    for chunk in chunks:
+        root = ElementTree.fromstring(chunk)
+        ids = {el.get("id") for el in root.iter() if el.get("id")}
+        wanted = set(re.findall(r"url\(#([^)]+)\)", chunk)) | set(
+            re.findall(r'href="#([^"]+)"', chunk)
+        )
+        assert wanted and wanted <= ids, sorted(wanted - ids)[:5]
