@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import io
 import json
 import sys
 from pathlib import Path
@@ -15,7 +16,7 @@ from rich.markup import escape
 from rich.table import Table
 
 from chainbudget.blocks import catalogue, default_text, generic_parts
-from chainbudget.budget import compute
+from chainbudget.budget import Budget, compute
 from chainbudget.chainfile import ChainError, load_chain
 from chainbudget.fields import suggest
 from chainbudget.report import noise as noise_view
@@ -44,11 +45,14 @@ def _fail(message: str) -> typer.Exit:
     return typer.Exit(EXIT_BAD_INPUT)
 
 
+CHECK_FORMATS = ("table", "json", "toml", "html")
+
+
 @app.command()
 def check(
     file: Annotated[Path, typer.Argument(help="chain file (TOML)")],
     output_format: Annotated[
-        str, typer.Option("--format", "-f", help="table, json or toml")
+        str, typer.Option("--format", "-f", help="table, json, toml or html")
     ] = "table",
     strict: Annotated[bool, typer.Option(help="exit 1 on warnings too")] = False,
     noise_detail: Annotated[
@@ -60,34 +64,70 @@ def check(
     brief: Annotated[
         bool, typer.Option("--brief", help="the verdict and the findings only, no tables")
     ] = False,
+    output: Annotated[
+        Path | None,
+        typer.Option("--output", "-o", help="write the report to this file (default: stdout)"),
+    ] = None,
+    force: Annotated[bool, typer.Option(help="overwrite an existing --output file")] = False,
 ) -> None:
     """Work out the budget of a chain and report it with its findings."""
-    if output_format not in ("table", "json", "toml"):
+    if output_format not in CHECK_FORMATS:
         raise _fail(
-            f'--format: got "{output_format}", expected table, json or toml'
-            + suggest(output_format, ("table", "json", "toml"))
+            f'--format: got "{output_format}", expected table, json, toml or html'
+            + suggest(output_format, CHECK_FORMATS)
         )
+    if output is not None and output.exists() and not force:
+        raise _fail(f"{output}: already exists; pass --force to overwrite it")
     try:
         chain = load_chain(file)
     except ChainError as exc:
         raise _fail(str(exc)) from None
-    budget = compute(chain)
+    if output_format == "html":
+        # matplotlib and the pictures load only on this path.
+        from chainbudget.report.html_view import html_page
+        from chainbudget.report.pictures import NAMES, draw, picture_inputs
+
+        inputs = picture_inputs(chain)
+        budget = inputs.budget
+        text = html_page(budget, [draw(name, inputs) for name in NAMES])
+    else:
+        budget = compute(chain)
+        text = _report_text(budget, output_format, noise_detail, brief, output is None)
+    if output is None:
+        if text:
+            typer.echo(text, nl=not text.endswith("\n"))
+    else:
+        try:
+            output.write_text(text, encoding="utf-8")
+        except OSError as exc:
+            raise _fail(f"{output}: cannot write ({exc.strerror})") from None
+        typer.echo(f"wrote {output}", err=True)
+    found = budget.findings
+    errors = any(fi.severity == "error" for fi in found)
+    warnings = any(fi.severity == "warning" for fi in found)
+    raise typer.Exit(EXIT_ERRORS if errors or (strict and warnings) else EXIT_OK)
+
+
+def _report_text(
+    budget: Budget, output_format: str, noise_detail: bool, brief: bool, to_stdout: bool
+) -> str:
+    """The table, JSON or TOML report as text (the table printed straight to a terminal,
+    where it keeps its colours, when ``to_stdout``)."""
     found = list(budget.findings)
     if output_format == "table":
-        console = _console()
+        if to_stdout:
+            console = _console()
+        else:  # a file: plain text at the width of a terminal
+            console = Console(file=io.StringIO(), no_color=True, width=80, highlight=False)
         render(budget, found, console, brief=brief)
         if noise_detail and not brief:
             for table in noise_view.detail_tables(budget):
                 console.print(table)
-    else:
-        data = budget_json(budget, found)
-        if output_format == "json":
-            typer.echo(json.dumps(data, indent=2))
-        else:
-            typer.echo(tomli_w.dumps(without_nulls(data)))
-    errors = any(fi.severity == "error" for fi in found)
-    warnings = any(fi.severity == "warning" for fi in found)
-    raise typer.Exit(EXIT_ERRORS if errors or (strict and warnings) else EXIT_OK)
+        return "" if to_stdout else console.file.getvalue()  # type: ignore[attr-defined]
+    data = budget_json(budget, found)
+    if output_format == "json":
+        return json.dumps(data, indent=2)
+    return tomli_w.dumps(without_nulls(data))
 
 
 @app.command()
@@ -142,26 +182,173 @@ def blocks(
 def plot(
     file: Annotated[Path, typer.Argument(help="chain file (TOML)")],
     output: Annotated[
-        Path, typer.Option("--output", "-o", help="picture to write (.png, .svg, .pdf)")
+        Path,
+        typer.Option(
+            "--output",
+            "-o",
+            help="picture to write (.png, .svg, .pdf); with several pictures, each goes to "
+            "NAME-PICTURE.EXT",
+        ),
     ],
-    force: Annotated[bool, typer.Option(help="overwrite an existing picture")] = False,
+    what: Annotated[
+        list[str] | None,
+        typer.Option(
+            "--what",
+            "-w",
+            help="response, square, levels, noise, headroom or all (repeat or comma-separate)",
+        ),
+    ] = None,
+    node: Annotated[
+        str | None, typer.Option(help="stage whose output the response and square show")
+    ] = None,
+    phase: Annotated[bool, typer.Option(help="add the phase to the response")] = False,
+    square: Annotated[
+        list[str] | None,
+        typer.Option("--square", help='square-wave frequency ("1 kHz"), repeatable'),
+    ] = None,
+    force: Annotated[bool, typer.Option(help="overwrite existing pictures")] = False,
 ) -> None:
-    """Draw every node's headroom across the band, as set and at the worst setting."""
-    if output.suffix.lower() not in (".png", ".svg", ".pdf"):
+    """Draw the chain: its response, a square wave through it, its levels, noise, headroom."""
+    # matplotlib and the pictures load only on this path.
+    from chainbudget.report.pictures import (
+        NAMES,
+        SQUARE_HZ,
+        PictureOptions,
+        draw,
+        picture_inputs,
+    )
+    from chainbudget.report.pictures.style import save
+
+    fmt = output.suffix.lower().lstrip(".")
+    if fmt not in ("png", "svg", "pdf"):
         raise _fail(f'--output: got "{output}", expected a .png, .svg or .pdf file')
-    if output.exists() and not force:
-        raise _fail(f"{output}: already exists; pass --force to overwrite it")
+    names = _picture_names(what or ["headroom"], NAMES)
+    targets = (
+        {names[0]: output}
+        if len(names) == 1
+        else {name: output.with_name(f"{output.stem}-{name}{output.suffix}") for name in names}
+    )
+    for target in targets.values():
+        if target.exists() and not force:
+            raise _fail(f"{target}: already exists; pass --force to overwrite it")
+    square_hz = tuple(_frequency("--square", text) for text in square) if square else None
     try:
         chain = load_chain(file)
     except ChainError as exc:
         raise _fail(str(exc)) from None
-    from chainbudget.report.plot import plot_headroom  # matplotlib only on this path
+    stages = [st.name for st in chain.stages]
+    if node is not None and node not in stages:
+        raise _fail(f'--node: no stage named "{node}"{suggest(node, stages)}')
+    inputs = picture_inputs(chain)
+    options = PictureOptions(node=node, phase=phase, square_hz=square_hz or SQUARE_HZ)
+    for name, target in targets.items():
+        picture = draw(name, inputs, options)
+        try:
+            save(picture.figure, target, fmt, name)
+        except OSError as exc:
+            raise _fail(f"{target}: cannot write ({exc.strerror})") from None
+        typer.echo(picture.summary)
+        typer.echo(f"wrote {target}")
+
+
+def _picture_names(asked: list[str], known: tuple[str, ...]) -> list[str]:
+    """The pictures asked for, in the order asked, each once; ``all`` is every one."""
+    names: list[str] = []
+    for item in asked:
+        for name in (part.strip() for part in item.split(",")):
+            if name == "all":
+                names += [n for n in known if n not in names]
+            elif name in known:
+                names += [] if name in names else [name]
+            else:
+                raise _fail(
+                    f'--what: got "{name}", expected one of {", ".join(known)} or all'
+                    + suggest(name, known)
+                )
+    return names
+
+
+def _frequency(option: str, text: str) -> float:
+    """A frequency given on the command line: a number of hertz or a value with its unit."""
+    from chainbudget import units
 
     try:
-        plot_headroom(compute(chain), output)
-    except OSError as exc:
-        raise _fail(f"{output}: cannot write ({exc.strerror})") from None
-    typer.echo(f"wrote {output}")
+        value = float(text)
+    except ValueError:
+        try:
+            value = units.parse_quantity(text, units.HERTZ)
+        except units.UnitParseError as exc:
+            raise _fail(f"{option}: {exc}") from None
+    if not 0.0 < value < float("inf"):
+        raise _fail(f'{option}: got "{text}", expected a frequency above zero')
+    return value
+
+
+@app.command()
+def sweep(
+    file: Annotated[Path, typer.Argument(help="chain file (TOML)")],
+    control: Annotated[
+        str | None,
+        typer.Option("--control", help="a pot to turn from 0 to 1: STAGE.CONTROL"),
+    ] = None,
+    value: Annotated[
+        str | None,
+        typer.Option("--value", help="a part value to step: STAGE.FIELD (with --from, --to)"),
+    ] = None,
+    start: Annotated[
+        str | None, typer.Option("--from", help='first value, with its unit ("4k7")')
+    ] = None,
+    stop: Annotated[str | None, typer.Option("--to", help="last value, with its unit")] = None,
+    steps: Annotated[int, typer.Option(help="number of steps, ends included")] = 11,
+    spacing: Annotated[
+        str, typer.Option(help="linear or log spacing of a part value's steps")
+    ] = "linear",
+    output_format: Annotated[
+        str, typer.Option("--format", "-f", help="table, csv or json")
+    ] = "table",
+) -> None:
+    """Step one pot or part value and tabulate the key figures at each step."""
+    if output_format not in ("table", "csv", "json"):
+        raise _fail(
+            f'--format: got "{output_format}", expected table, csv or json'
+            + suggest(output_format, ("table", "csv", "json"))
+        )
+    if spacing not in ("linear", "log"):
+        raise _fail(f'--spacing: got "{spacing}", expected linear or log')
+    if (control is None) == (value is None):
+        raise _fail("give one of --control STAGE.CONTROL or --value STAGE.FIELD")
+    if value is not None and (start is None or stop is None):
+        raise _fail("--value needs --from and --to")
+    if control is not None and (start is not None or stop is not None):
+        raise _fail("--from and --to go with --value; a pot is turned from 0 to 1")
+    # The sweep's modules load only on this path.
+    from chainbudget.budget.sweep import stepped_control, stepped_value, sweep_rows
+    from chainbudget.report.sweep_view import SweepInfo, sweep_table, sweep_text
+    from chainbudget.stages import KINDS
+
+    try:
+        chain = load_chain(file)
+        if control is not None:
+            stepped = stepped_control(chain, control, steps)
+        else:
+            assert value is not None and start is not None and stop is not None
+            stepped = stepped_value(chain, value, start, stop, steps, spacing)
+    except ChainError as exc:
+        raise _fail(str(exc)) from None
+    stage = chain.stages[stepped.stage_index]
+    unit = next(fld.kind.unit for fld in KINDS[stage.kind].fields if fld.key == stepped.key)
+    info = SweepInfo(
+        chain.settings.title,
+        chain.file,
+        f"{stage.name}.{stepped.key}",
+        stepped.control,
+        "" if stepped.control or unit not in ("ohm", "F") else unit,
+    )
+    rows = sweep_rows(chain, stepped)
+    if output_format == "table":
+        _console().print(sweep_table(info, rows))
+    else:
+        typer.echo(sweep_text(info, rows, output_format), nl=output_format == "json")
 
 
 @app.command()
