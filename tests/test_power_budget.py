@@ -218,6 +218,8 @@ def test_junction_findings_follow_the_heatsink(heatsink: str, code: str | None) 
     if code is None:
         assert not heat
     else:
+        # restates the project's own threshold (not an outside check): near is
+        # within JUNCTION_MARGIN_K (25 K) of the maximum
         assert list(heat) == [code]
         assert heat[code].severity == ("error" if code == "junction-over" else "warning")
 
@@ -286,6 +288,7 @@ def test_opamp_drive_current_is_load_plus_feedback_current() -> None:
     assert v_out == pytest.approx(2.0 * np.sqrt(2.0), rel=1e-4, abs=0)
     assert drive.peak_a == pytest.approx(v_out / 600.0 + v_out / 20e3, rel=1e-6, abs=0)
     assert drive.load_ohm == pytest.approx(1.0 / (1 / 600.0 + 1 / 20e3), rel=1e-6, abs=0)
+    # restates the project's own threshold (not an outside check): 6 dB is DRIVE_MARGIN
     assert codes(findings(budget))["opamp-current-margin"].severity == "warning"
 
 

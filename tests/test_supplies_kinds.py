@@ -311,7 +311,8 @@ def test_the_suggested_secondary_or_reservoir_brings_the_trough_to_the_need() ->
     assert exact.dropout_margin_v == pytest.approx(0.0, abs=1e-9)
     more = budget_of(dropout_chain(secondary=f"{d.secondary_needed_vrms * 1.001!r} V"))
     assert "regulator-dropout" not in codes(more)
-    assert "regulator-dropout-margin" in codes(more)  # in regulation by millivolts only
+    # in regulation by millivolts only; restates the project's own threshold (not an outside check)
+    assert "regulator-dropout-margin" in codes(more)
     roomy = budget_of(dropout_chain(secondary=f"{d.secondary_needed_vrms + 1.0!r} V"))
     assert not {"regulator-dropout", "regulator-dropout-margin"} & codes(roomy)
     # a bigger reservoir alone: the peak at low line is 17.29 V, above 17 V, so it can
@@ -420,6 +421,8 @@ def test_transformer_rating_and_large_ripple_warnings() -> None:
     text = RAW_18V.replace("4700 uF", "470 uF") + 'rated_current = "1.5 A"\n'
     b = budget_of(text + load_block("amp", "raw", "1 A"))
     found = {f.code: f.severity for f in findings(b)}
+    # restates the project's own threshold (not an outside check):
+    # the 1.8 rms-per-dc factor and the fifth-of-the-peak ripple are the code's own constants
     assert found["transformer-rating"] == "warning"
     assert found["large-ripple"] == "warning"
     calm = budget_of(RAW_18V + 'rated_current = "2 A"\n' + load_block("amp", "raw", "1 A"))
@@ -481,5 +484,6 @@ def test_a_regulator_junction_within_25_k_of_its_maximum_is_a_warning() -> None:
     cool = supply(far, "reg").junction_degc
     assert hot is not None and cool is not None
     assert 100.0 < hot <= 125.0 and cool < 100.0
+    # restates the project's own threshold (not an outside check)
     assert "regulator-junction-near" in codes(near)
     assert "regulator-junction-near" not in codes(far)
