@@ -3,11 +3,13 @@
 from __future__ import annotations
 
 import tomllib
+from pathlib import Path
 
 from budgetkit import cautions
+from test_follower_heat import TEXT as FOLLOWER
 
 from chainbudget.budget import compute
-from chainbudget.chainfile import parse_chain
+from chainbudget.chainfile import load_chain, parse_chain
 from chainbudget.thresholds import HOT_PART_W
 
 BASE = """
@@ -60,7 +62,7 @@ def test_a_regulator_dissipating_watts_carries_a_hot_parts_caution() -> None:
 
 def test_a_power_block_driving_the_speaker_carries_a_hot_parts_caution() -> None:
     """10 V peak into 8 ohm is 6.25 W (P = V_pk^2 / 2R); 1 V peak is 62.5 mW."""
-    assert HOT_PART_W < 6.25
+    assert HOT_PART_W < 6.25  # restates the project's own threshold (not an outside check)
     assert any(t.startswith('Hot parts: "amp"') for t in texts("10 V", "10 mA"))
     assert not any(t.startswith('Hot parts: "amp"') for t in texts("1 V", "10 mA"))
 
@@ -88,3 +90,31 @@ output_impedance = "0.1 ohm"
     assert not any("inf" in t for t in found)
     assert any(t.startswith("Loudness: this amplifier can reach about 100 dB") for t in found)
     assert any(t.startswith('Hot parts: "amp" drives the load with no output limit') for t in found)
+
+
+def _caution_codes(budget: object) -> set[tuple[str, str | None]]:
+    found = budget.findings  # type: ignore[attr-defined]
+    return {(f.code, f.stage or f.supply) for f in found if f.severity == "caution"}
+
+
+def test_each_caution_is_a_finding_of_its_own_code_on_what_it_concerns() -> None:
+    """Cautions are findings of severity "caution": the mains one on the transformer-fed
+    supply, hot parts on the part that runs hot, loudness on the chain."""
+    root = Path(__file__).resolve().parents[1]
+    kitchen = compute(load_chain(root / "chains" / "kitchen_radio_mains.toml"))
+    assert {("mains", "raw"), ("hot-power-block", "amp"), ("loud", None)} <= _caution_codes(kitchen)
+    busking = compute(load_chain(root / "chains" / "busking_amp.toml"))
+    assert ("hot-output-stage", "output") in _caution_codes(busking)
+    hot_regulator = compute(
+        parse_chain(tomllib.loads(BASE.format(max_output="1 V", current="0.4 A")), "t.toml")
+    )
+    assert ("hot-regulator", "reg") in _caution_codes(hot_regulator)
+
+
+def test_a_follower_dissipating_a_watt_carries_the_hot_parts_caution() -> None:
+    """80 mA through a follower from 16 V rails: P = V_CE I_C ~ 16.7 V x 79 mA = 1.3 W
+    (any transistor text), past the watt that burns a finger (common practice, no source)."""
+    budget = compute(parse_chain(tomllib.loads(FOLLOWER.format(current="80 mA")), "t.toml"))
+    assert ("hot-follower", "buf") in _caution_codes(budget)
+    cool = compute(parse_chain(tomllib.loads(FOLLOWER.format(current="10 mA")), "t.toml"))
+    assert not any(code == "hot-follower" for code, _ in _caution_codes(cool))

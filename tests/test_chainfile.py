@@ -61,13 +61,13 @@ def test_the_fixture_loads() -> None:
         "block",
     ]
     pre = chain.stages[0]
-    assert pre.values["feedback"] == pytest.approx(22e3, rel=1e-12)
-    assert pre.values["ground_leg"] == pytest.approx(2.2e3, rel=1e-12)
-    assert chain.source.impedance == pytest.approx(2.2e3, rel=1e-12)
+    assert pre.values["feedback"] == pytest.approx(22e3, rel=1e-12, abs=0)
+    assert pre.values["ground_leg"] == pytest.approx(2.2e3, rel=1e-12, abs=0)
+    assert chain.source.impedance == pytest.approx(2.2e3, rel=1e-12, abs=0)
     # +4 dBu = 1.2277 V rms (common practice); ambient stays in degC.
-    assert chain.source.max_level == pytest.approx(1.2276530, rel=1e-6)
+    assert chain.source.max_level == pytest.approx(1.2276530, rel=1e-6, abs=0)
     assert chain.settings.ambient == pytest.approx(30.0, abs=1e-12)
-    assert chain.opamps["quiet"].noise_current == pytest.approx(0.7e-12, rel=1e-12)
+    assert chain.opamps["quiet"].noise_current == pytest.approx(0.7e-12, rel=1e-12, abs=0)
     # A stage that names no op-amp gets the default generic class.
     assert chain.stages[1].values["opamp"] == "jfet_input"
 
@@ -216,7 +216,7 @@ def test_decimal_letter_code_in_a_file(tmp_path: Path) -> None:
     text = FIXTURE.read_text(encoding="utf-8").replace('input = "4k7"', 'input = "4.7k"')
     path = tmp_path / "decimal.toml"
     path.write_text(text, encoding="utf-8")
-    assert load_chain(path).stages[1].values["input"] == pytest.approx(4.7e3, rel=1e-12)
+    assert load_chain(path).stages[1].values["input"] == pytest.approx(4.7e3, rel=1e-12, abs=0)
 
 
 @pytest.mark.parametrize(

@@ -41,4 +41,4 @@ def test_a_single_supply_line_output_at_mid_rail_is_noted() -> None:
     """An op-amp line driver on a 5 V single supply sits at mid-rail, 2.5 V (contract: the
     signal sits at mid-rail), DC-coupled into a 10 kohm line input: a note."""
     found = dc_into_load((CHAINS / "field_recorder_battery.toml").read_text(encoding="utf-8"))
-    assert found == [("note", pytest.approx(2.5, rel=1e-9))]
+    assert found == [("note", pytest.approx(2.5, rel=1e-9, abs=0))]

@@ -85,7 +85,7 @@ def test_values_between_spans_decades_and_equals_the_decimal_literals() -> None:
     """Decade repetition (IEC 60063); exact float equality with the written values."""
     got = eseries.values_between("E12", 0.1, 1e3)
     want = [m * 10**k for k in (-1, 0, 1, 2) for m in IEC_E12] + [1000.0]
-    assert got.tolist() == pytest.approx(want, rel=1e-15)
+    assert got.tolist() == pytest.approx(want, rel=1e-15, abs=0)
     # Correct rounding: 4.7 kohm is the literal 4700.0, 0.47 is the literal 0.47.
     assert 4700.0 in eseries.values_between("E12", 1e3, 1e4).tolist()
     assert 0.47 in eseries.values_between("E12", 0.1, 1.0).tolist()
@@ -168,8 +168,10 @@ def test_best_divider_for_12_volts() -> None:
     """
     upper, lower, vout, err = eseries.best_divider(12.0, 1.25, 50e-6)
     assert abs(err) < 0.005
-    assert vout == pytest.approx(float(adjustable_output(1.25, 50e-6, upper, lower)), rel=1e-12)
-    assert err == pytest.approx((vout - 12.0) / 12.0, rel=1e-12)
+    assert vout == pytest.approx(
+        float(adjustable_output(1.25, 50e-6, upper, lower)), rel=1e-12, abs=0
+    )
+    assert err == pytest.approx((vout - 12.0) / 12.0, rel=1e-12, abs=0)
     assert is_e96(upper)
     assert is_e96(lower)
     assert 100.0 <= lower <= 10e3
@@ -198,4 +200,6 @@ def test_best_divider_error_within_half_the_widest_e96_step(target: float) -> No
     assert abs(err) <= E96_WORST_STEP / 2
     assert is_e96(upper)
     assert is_e96(lower)
-    assert vout == pytest.approx(float(adjustable_output(1.25, 50e-6, upper, lower)), rel=1e-12)
+    assert vout == pytest.approx(
+        float(adjustable_output(1.25, 50e-6, upper, lower)), rel=1e-12, abs=0
+    )

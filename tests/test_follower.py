@@ -80,11 +80,11 @@ def test_emitter_resistance_is_25_85_ohm_at_1_ma_and_300_k() -> None:
     stage = c.stages[0]
     env = analyse(c).envs[0]
     bias = follower_bias(stage, env)
-    assert bias.i_e == pytest.approx(1e-3, rel=1e-12)
-    assert bias.small_signal.r_e == pytest.approx(25.85, rel=1e-4)
+    assert bias.i_e == pytest.approx(1e-3, rel=1e-12, abs=0)
+    assert bias.small_signal.r_e == pytest.approx(25.85, rel=1e-4, abs=0)
     vt = constants.k * 300.0 / constants.e
     _, z_out, _ = reference_values(c)
-    assert z_out.real == pytest.approx(vt / 1e-3, rel=1e-9)
+    assert z_out.real == pytest.approx(vt / 1e-3, rel=1e-9, abs=0)
     assert abs(z_out.imag) < 1e-9
 
 
@@ -104,7 +104,7 @@ def test_output_impedance_is_r_e_plus_source_and_rbb_over_beta_plus_one(
     r_e = vt / (current_ma * 1e-3)
     expected = r_e + (source_ohm + 100.0) / 201.0
     _, z_out, _ = reference_values(c)
-    assert z_out.real == pytest.approx(expected, rel=1e-7)
+    assert z_out.real == pytest.approx(expected, rel=1e-7, abs=0)
 
 
 def test_output_impedance_with_resistor_bias_has_the_emitter_resistor_in_parallel() -> None:
@@ -117,7 +117,7 @@ def test_output_impedance_with_resistor_bias_has_the_emitter_resistor_in_paralle
     r_e = follower_bias(c.stages[0], env).small_signal.r_e
     transistor = r_e + (10e3 + 100.0) / 201.0
     _, z_out, _ = reference_values(c)
-    assert z_out.real == pytest.approx(transistor * 1500.0 / (transistor + 1500.0), rel=1e-7)
+    assert z_out.real == pytest.approx(transistor * 1500.0 / (transistor + 1500.0), rel=1e-7, abs=0)
 
 
 @pytest.mark.parametrize("load_ohm", [600.0, 10e3, 150.0])
@@ -132,9 +132,9 @@ def test_input_impedance_is_beta_plus_one_times_r_e_plus_emitter_load(load_ohm: 
     r_e = follower_bias(c.stages[0], env).small_signal.r_e
     z_e = 1500.0 * load_ohm / (1500.0 + load_ohm)
     z_in, _, gain = reference_values(c)
-    assert z_in.real == pytest.approx(101.0 * (r_e + z_e), rel=1e-7)
+    assert z_in.real == pytest.approx(101.0 * (r_e + z_e), rel=1e-7, abs=0)
     # and the gain is the divider of r_e and the emitter load (sec. 2.3.2), from 0 ohm
-    assert gain.real == pytest.approx(z_e / (r_e + z_e), rel=1e-7)
+    assert gain.real == pytest.approx(z_e / (r_e + z_e), rel=1e-7, abs=0)
 
 
 def test_input_impedance_adds_rbb_and_base_resistor() -> None:
@@ -149,7 +149,7 @@ def test_input_impedance_adds_rbb_and_base_resistor() -> None:
     r_e = follower_bias(c.stages[0], env).small_signal.r_e
     z_in, _, _ = reference_values(c)
     assert z_in.real == pytest.approx(
-        220.0 + 100.0 + 201.0 * (r_e + 1500.0 * 600.0 / 2100.0), rel=1e-7
+        220.0 + 100.0 + 201.0 * (r_e + 1500.0 * 600.0 / 2100.0), rel=1e-7, abs=0
     )
 
 
@@ -161,8 +161,8 @@ def test_negative_swing_is_bias_current_times_emitter_resistor_parallel_load() -
     c = chain({"transistor": "ideal_base", "emitter_resistor": "1k5", "base_bias": "0.65 V"})
     node = node_levels(analyse(c))[0]
     assert node.limited_by == "cut-off"
-    assert node.clip_vpk == pytest.approx(4.286, rel=1e-4)
-    assert node.clip_vpk == pytest.approx(0.010 * 1500.0 * 600.0 / 2100.0, rel=1e-6)
+    assert node.clip_vpk == pytest.approx(4.286, rel=1e-4, abs=0)
+    assert node.clip_vpk == pytest.approx(0.010 * 1500.0 * 600.0 / 2100.0, rel=1e-6, abs=0)
 
 
 def test_current_sink_follower_cuts_off_at_bias_current_times_load() -> None:
@@ -172,7 +172,7 @@ def test_current_sink_follower_cuts_off_at_bias_current_times_load() -> None:
     c = chain({"transistor": "ideal_base", "bias": "current", "current": "4 mA"})
     node = node_levels(analyse(c))[0]
     assert node.limited_by == "cut-off"
-    assert node.clip_vpk == pytest.approx(2.4, rel=1e-6)
+    assert node.clip_vpk == pytest.approx(2.4, rel=1e-6, abs=0)
 
 
 def test_positive_swing_stops_v_ce_sat_below_the_collector_rail() -> None:
@@ -185,7 +185,7 @@ def test_positive_swing_stops_v_ce_sat_below_the_collector_rail() -> None:
     )
     node = node_levels(analyse(c))[0]
     assert node.limited_by == "saturation"
-    assert node.clip_vpk == pytest.approx(9.8, rel=1e-6)
+    assert node.clip_vpk == pytest.approx(9.8, rel=1e-6, abs=0)
 
 
 def test_bias_current_includes_the_base_resistor_drop() -> None:
@@ -195,8 +195,8 @@ def test_bias_current_includes_the_base_resistor_drop() -> None:
     rtol 1e-9."""
     c = chain({"transistor": "ideal_base", "emitter_resistor": "1k", "base_resistor": "10k"})
     bias = follower_bias(c.stages[0], analyse(c).envs[0])
-    assert bias.i_e == pytest.approx(14.35 / (1000.0 + 10e3 / 101.0), rel=1e-9)
-    assert bias.emitter_v == pytest.approx(-15.0 + bias.i_e * 1000.0, rel=1e-9)
+    assert bias.i_e == pytest.approx(14.35 / (1000.0 + 10e3 / 101.0), rel=1e-9, abs=0)
+    assert bias.emitter_v == pytest.approx(-15.0 + bias.i_e * 1000.0, rel=1e-9, abs=0)
 
 
 def test_pnp_follower_is_the_mirror_image_of_the_npn_one() -> None:
@@ -213,11 +213,11 @@ def test_pnp_follower_is_the_mirror_image_of_the_npn_one() -> None:
     )
     n_bias = follower_bias(npn_chain.stages[0], analyse(npn_chain).envs[0])
     p_bias = follower_bias(pnp_chain.stages[0], analyse(pnp_chain).envs[0])
-    assert p_bias.i_e == pytest.approx(n_bias.i_e, rel=1e-12)
+    assert p_bias.i_e == pytest.approx(n_bias.i_e, rel=1e-12, abs=0)
     assert p_bias.emitter_v == pytest.approx(-n_bias.emitter_v, abs=1e-12)
     n_node, p_node = node_levels(analyse(npn_chain))[0], node_levels(analyse(pnp_chain))[0]
-    assert p_node.clip_vpk == pytest.approx(n_node.clip_vpk, rel=1e-9)
-    assert p_node.zout_ohm == pytest.approx(n_node.zout_ohm, rel=1e-9)
+    assert p_node.clip_vpk == pytest.approx(n_node.clip_vpk, rel=1e-9, abs=0)
+    assert p_node.zout_ohm == pytest.approx(n_node.zout_ohm, rel=1e-9, abs=0)
 
 
 def test_output_cap_forms_a_high_pass_with_the_load() -> None:
@@ -239,7 +239,7 @@ def test_output_cap_forms_a_high_pass_with_the_load() -> None:
     rhs[net.index(drive), 0] = 1.0
     x = net.solve(rhs)[..., 0]
     v_out = np.abs(x[:, net.nodes["out"]])
-    assert v_out[0] / v_out[1] == pytest.approx(1.0 / np.sqrt(2.0), rel=1e-3)
+    assert v_out[0] / v_out[1] == pytest.approx(1.0 / np.sqrt(2.0), rel=1e-3, abs=0)
 
 
 def test_noise_sources_are_shot_noise_of_both_currents_and_rbb_thermal_noise() -> None:
@@ -255,15 +255,15 @@ def test_noise_sources_are_shot_noise_of_both_currents_and_rbb_thermal_noise() -
     net.voltage_source("in", "0", label="short")
     psd = {s.label: float(s.psd[0]) for s in net.noise}
     k, q, t = constants.k, constants.e, 300.0
-    assert psd["buf.q.shot_b"] == pytest.approx(2 * q * ss.i_b, rel=1e-12)
-    assert psd["buf.q.shot_c"] == pytest.approx(2 * q * ss.i_c, rel=1e-12)
-    assert psd["buf.q.rbb"] == pytest.approx(4 * k * t / 100.0, rel=1e-12)
+    assert psd["buf.q.shot_b"] == pytest.approx(2 * q * ss.i_b, rel=1e-12, abs=0)
+    assert psd["buf.q.shot_c"] == pytest.approx(2 * q * ss.i_c, rel=1e-12, abs=0)
+    assert psd["buf.q.rbb"] == pytest.approx(4 * k * t / 100.0, rel=1e-12, abs=0)
     _, transfers = net.adjoint_transfer("out")
     total = sum(
         float(np.abs(h[0]) ** 2) * s.psd[0] for h, s in zip(transfers, net.noise, strict=True)
     )
     expected = 4 * k * t * (100.0 + ss.r_e / 2.0) + 2 * q * ss.i_b * 100.0**2
-    assert total == pytest.approx(expected, rel=2e-3)
+    assert total == pytest.approx(expected, rel=2e-3, abs=0)
 
 
 @pytest.mark.parametrize(

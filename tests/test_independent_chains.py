@@ -361,10 +361,10 @@ def test_line_chain_levels_match_hand_formulas(
         assert_db(n["headroom_db"], headroom, LEVEL_DB_TOL, f"{stage} headroom_db")
         assert n["limited_by"] == "rails"
     # The impedances the nodes see (|Z| at 1 kHz, rtol 1e-3; same hand model).
-    assert node(data, "pre")["zload_ohm"] == pytest.approx(abs(h["z_vol"]), rel=1e-3)
-    assert node(data, "vol")["zload_ohm"] == pytest.approx(abs(h["z_in2"]), rel=1e-3)
-    assert node(data, "vol")["zout_ohm"] == pytest.approx(abs(h["z_w"]), rel=1e-3)
-    assert node(data, "post")["zload_ohm"] == pytest.approx(LINE["load"], rel=1e-3)
+    assert node(data, "pre")["zload_ohm"] == pytest.approx(abs(h["z_vol"]), rel=1e-3, abs=0)
+    assert node(data, "vol")["zload_ohm"] == pytest.approx(abs(h["z_in2"]), rel=1e-3, abs=0)
+    assert node(data, "vol")["zout_ohm"] == pytest.approx(abs(h["z_w"]), rel=1e-3, abs=0)
+    assert node(data, "post")["zload_ohm"] == pytest.approx(LINE["load"], rel=1e-3, abs=0)
 
 
 def test_line_chain_worst_headroom_with_the_volume_full_up(tmp_path: Path) -> None:
@@ -388,7 +388,9 @@ def test_line_chain_worst_headroom_with_the_volume_full_up(tmp_path: Path) -> No
     r_at, f_at = np.unravel_index(int(np.argmin(head2)), head2.shape)
     post = node(data, "post")
     assert_db(post["worst_headroom_db"], worst2, LEVEL_DB_TOL, "post worst_headroom_db")
-    assert post["worst_at"]["controls"]["vol.position"] == pytest.approx(rotations[r_at, 0])
+    assert post["worst_at"]["controls"]["vol.position"] == pytest.approx(
+        rotations[r_at, 0], rel=1e-12, abs=0
+    )
     assert rotations[r_at, 0] == 1.0
     # The response is flat across the band, so the minimum is a plateau: the tool reports the
     # point of it nearest the settings as set (reference frequency first) among points within
@@ -495,7 +497,7 @@ output_current = "20 mA"
         LEVEL_DB_TOL,
         "worst headroom (slew)",
     )
-    assert amp["worst_at"]["frequency_hz"] == pytest.approx(20e3)
+    assert amp["worst_at"]["frequency_hz"] == pytest.approx(20e3, rel=1e-6, abs=0)
     assert amp["worst_at"]["limited_by"] == "slew"
     assert_db(amp["headroom_db"], float(db20(16.5 / peak[0])), LEVEL_DB_TOL, "headroom (rails)")
     assert amp["limited_by"] == "rails"
@@ -672,7 +674,7 @@ treble_position = 0.5
     assert where[0] == 1.0 and where[2] == 20.0, where
     tone = node(data, "tone")
     assert abs(tone["worst_headroom_db"] - worst) <= 0.01, (tone["worst_headroom_db"], worst)
-    assert tone["worst_at"]["frequency_hz"] == pytest.approx(20.0)
+    assert tone["worst_at"]["frequency_hz"] == pytest.approx(20.0, rel=1e-6, abs=0)
     assert tone["worst_at"]["controls"]["tone.bass_position"] == 1.0
     # Nominal (both pots at mid, 1 kHz): headroom from the same solve.
     v_out, i_out = two_band_nodal(np.array([1e3]), 0.5, 0.5)
@@ -713,7 +715,7 @@ position = 0.5
     hand = float(db20(13.5 / (SQRT2 * TONE["max_level"] * abs(h))))
     tone = node(data, "tone")
     assert_db(tone["worst_headroom_db"], hand, LEVEL_DB_TOL, "bass full-boost worst headroom")
-    assert tone["worst_at"]["frequency_hz"] == pytest.approx(20.0)
+    assert tone["worst_at"]["frequency_hz"] == pytest.approx(20.0, rel=1e-6, abs=0)
     assert tone["worst_at"]["controls"]["tone.position"] == 1.0
 
 
@@ -825,7 +827,7 @@ def test_opamp_stage_noise_behind_a_source_resistance(tmp_path: Path) -> None:
 
     white = kt4 * (rs + rp) + E_N**2 + I_N**2 * (rs**2 + rp**2)
     input_closed = math.sqrt(white * (20e3 - 20.0) + E_N**2 * F_C * math.log(1e3))
-    assert band_rms(s_in) == pytest.approx(input_closed, rel=1e-7)  # quad vs closed form
+    assert band_rms(s_in) == pytest.approx(input_closed, rel=1e-7, abs=0)  # quad vs closed form
     gain = node(data, "gain")
     assert_ratio_db(gain["noise_vrms"], band_rms(s_out), NOISE_DB_TOL, "noise_vrms")
     assert_ratio_db(gain["noise_a_vrms"], band_rms(s_out, True), NOISE_DB_TOL, "noise_a_vrms")
@@ -1010,8 +1012,8 @@ def test_power_end_against_class_b_hand_formulas(tmp_path: Path, shared: bool) -
     clip_w = clip_vpk**2 / (2.0 * p["load"])
     out = data["output"]
     assert out["clip_stage"] == "out"
-    assert out["clip_vpk"] == pytest.approx(clip_vpk, rel=1e-3)
-    assert out["clip_power_w"] == pytest.approx(clip_w, rel=1e-3)
+    assert out["clip_vpk"] == pytest.approx(clip_vpk, rel=1e-3, abs=0)
+    assert out["clip_power_w"] == pytest.approx(clip_w, rel=1e-3, abs=0)
     assert out["max_spl_db"] == pytest.approx(p["sensitivity"] + 10 * math.log10(clip_w), abs=0.01)
 
     # Small signal of the conducting (lower-beta) half and of the follower.
@@ -1031,12 +1033,12 @@ def test_power_end_against_class_b_hand_formulas(tmp_path: Path, shared: bool) -
     z_out = p["re"] + re_out + (z_s + p["out_rbb"]) / (beta + 1.0)
     assert_db(node(data, "out")["gain_db"], float(db20(gain_pp)), LEVEL_DB_TOL, "push-pull gain")
     assert_db(node(data, "buffer")["gain_db"], float(db20(gain_buf)), LEVEL_DB_TOL, "buffer gain")
-    assert out["damping_factor"] == pytest.approx(p["load"] / z_out, rel=0.01)
+    assert out["damping_factor"] == pytest.approx(p["load"] / z_out, rel=0.01, abs=0)
 
     # Dissipation at the worst continuous sine (2 V_cc/pi lies below the clip level).
     assert 2 * p["vcc"] / math.pi < clip_vpk
     device_w = p["vcc"] ** 2 / (math.pi**2 * p["load"]) + p["vcc"] * p["iq"]
-    assert out["device_dissipation_w"] == pytest.approx(device_w, rel=1e-3)
+    assert out["device_dissipation_w"] == pytest.approx(device_w, rel=1e-3, abs=0)
     if shared:
         sink = p["ambient"] + p["heatsink"] * 2.0 * device_w
         junction = sink + device_w * (p["theta_jc"] + p["theta_cs"])
@@ -1044,7 +1046,7 @@ def test_power_end_against_class_b_hand_formulas(tmp_path: Path, shared: bool) -
         junction = p["ambient"] + device_w * (p["theta_jc"] + p["theta_cs"] + p["heatsink"])
     assert out["junction_degc"] == pytest.approx(junction, abs=0.1)
     supply_w = 2.0 * p["vcc"] * (clip_vpk / (math.pi * p["load"]) + p["iq"])
-    assert out["dissipation"]["clip_supply_w"] == pytest.approx(supply_w, rel=1e-3)
+    assert out["dissipation"]["clip_supply_w"] == pytest.approx(supply_w, rel=1e-3, abs=0)
 
 
 # --- 4. supplies: rectifier + adjustable regulator ---------------------------------------
@@ -1159,18 +1161,18 @@ def test_rectifier_and_adjustable_regulator(tmp_path: Path, regulation: str | No
 
     dissipation = max(heat(out_idle, in_idle), heat(out_max, in_max))
     reg, raw = supply(data, "reg"), supply(data, "raw")
-    assert reg["vout_v"] == pytest.approx(vout, rel=1e-6)
-    assert reg["idle_load_a"] == pytest.approx(out_idle, rel=1e-4)
-    assert reg["max_load_a"] == pytest.approx(out_max, rel=1e-4)
-    assert raw["max_load_a"] == pytest.approx(in_max, rel=1e-4)
-    assert raw["ripple_vpp"] == pytest.approx(ripple(in_max), rel=1e-4)
-    assert reg["input_min_v"] == pytest.approx(trough, rel=1e-4)
-    assert reg["input_max_v"] == pytest.approx(crest, rel=1e-4)
+    assert reg["vout_v"] == pytest.approx(vout, rel=1e-6, abs=0)
+    assert reg["idle_load_a"] == pytest.approx(out_idle, rel=1e-4, abs=0)
+    assert reg["max_load_a"] == pytest.approx(out_max, rel=1e-4, abs=0)
+    assert raw["max_load_a"] == pytest.approx(in_max, rel=1e-4, abs=0)
+    assert raw["ripple_vpp"] == pytest.approx(ripple(in_max), rel=1e-4, abs=0)
+    assert reg["input_min_v"] == pytest.approx(trough, rel=1e-4, abs=0)
+    assert reg["input_max_v"] == pytest.approx(crest, rel=1e-4, abs=0)
     assert reg["dropout_margin_v"] == pytest.approx(trough - 2.5 - vout, abs=1e-3)
     assert reg["min_load_margin_a"] == pytest.approx(out_idle - 10e-3, abs=1e-6)
-    assert reg["dissipation_w"] == pytest.approx(dissipation, rel=1e-4)
+    assert reg["dissipation_w"] == pytest.approx(dissipation, rel=1e-4, abs=0)
     assert reg["junction_degc"] == pytest.approx(30.0 + 50.0 * dissipation, abs=0.01)
-    assert reg["ripple_vpp"] == pytest.approx(ripple(in_max) * 10 ** (-65 / 20), rel=1e-4)
+    assert reg["ripple_vpp"] == pytest.approx(ripple(in_max) * 10 ** (-65 / 20), rel=1e-4, abs=0)
     # The idle shortfall (9.2 mA < 10 mA) must be reported.
     assert any(fi["code"] == "regulator-min-load" for fi in data["findings"])
 
@@ -1192,4 +1194,4 @@ def test_heaviest_supply_load_is_the_clip_level_even_when_nominal_clips(
     out_max = 4e-3 + 1.25 / 240.0 + i_pk / math.pi
     currents = node(data, "amp")["rail_current_a"]
     assert currents["nominal"] <= currents["clip"] * (1.0 + 1e-9)
-    assert supply(data, "reg")["max_load_a"] == pytest.approx(out_max, rel=1e-4)
+    assert supply(data, "reg")["max_load_a"] == pytest.approx(out_max, rel=1e-4, abs=0)

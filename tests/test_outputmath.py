@@ -25,7 +25,7 @@ from chainbudget.thermal import junction_temperature
 def test_thermal_voltage_matches_exact_si_constants() -> None:
     """SI 2019 exact k = 1.380649e-23 J/K, e = 1.602176634e-19 C (typed here): rtol 1e-12."""
     expected = 1.380649e-23 * 300.0 / 1.602176634e-19  # 25.852 mV
-    assert om.thermal_voltage(300.0) == pytest.approx(expected, rel=1e-12)
+    assert om.thermal_voltage(300.0) == pytest.approx(expected, rel=1e-12, abs=0)
     np.testing.assert_allclose(
         om.thermal_voltage(np.array([273.15, 300.0])), [0.023539, 0.025852], rtol=1e-4
     )
@@ -35,18 +35,18 @@ def test_emitter_resistance_is_25_85_ohm_at_1_ma_300_k() -> None:
     """Horowitz & Hill 3rd ed. sec. 2.3.2 (from memory): r_e = V_T / I_E, 25.85 ohm at 1 mA
     and 300 K; rtol 1e-3."""
     vt = om.thermal_voltage(300.0)
-    assert om.emitter_resistance(1e-3, vt) == pytest.approx(25.85, rel=1e-3)
-    assert om.transconductance(1e-3, vt) == pytest.approx(1 / 25.852, rel=1e-3)
+    assert om.emitter_resistance(1e-3, vt) == pytest.approx(25.85, rel=1e-3, abs=0)
+    assert om.transconductance(1e-3, vt) == pytest.approx(1 / 25.852, rel=1e-3, abs=0)
     # r_pi = beta / g_m: beta 100 at 1 mA -> 2.585 kohm
-    assert om.r_pi(100.0, om.transconductance(1e-3, vt)) == pytest.approx(2585.2, rel=1e-4)
+    assert om.r_pi(100.0, om.transconductance(1e-3, vt)) == pytest.approx(2585.2, rel=1e-4, abs=0)
 
 
 def test_parallel_combines_resistors_shorts_and_opens() -> None:
     """Ohm's law, 1/Z = sum 1/Z_k (common practice, no source); exact to rtol 1e-12."""
-    assert om.parallel(1e3, 1e3) == pytest.approx(500.0, rel=1e-12)
-    assert om.parallel(1500.0, 600.0) == pytest.approx(428.5714286, rel=1e-9)
+    assert om.parallel(1e3, 1e3) == pytest.approx(500.0, rel=1e-12, abs=0)
+    assert om.parallel(1500.0, 600.0) == pytest.approx(428.5714286, rel=1e-9, abs=0)
     assert om.parallel(1e3, 0.0) == 0.0
-    assert om.parallel(1e3, np.inf) == pytest.approx(1e3, rel=1e-12)
+    assert om.parallel(1e3, np.inf) == pytest.approx(1e3, rel=1e-12, abs=0)
     assert om.parallel(np.inf, np.inf) == np.inf
     z_l = 8.0 + 2j * np.pi * np.array([100.0, 1e4]) * 0.5e-3
     np.testing.assert_allclose(om.parallel(1500.0, z_l), 1500.0 * z_l / (1500.0 + z_l), rtol=1e-12)
@@ -90,7 +90,9 @@ def test_push_pull_clip_hand_value() -> None:
     """Horowitz & Hill 3rd ed. sec. 2.4.1 (from memory), our scenario: +/-25 V, 1 V drive
     saturation, 1.3 V Darlington V_BE, 0.22 ohm into 8 ohm -> 22.7 * 8 / 8.22 = 22.092 V;
     rtol 1e-4."""
-    assert om.push_pull_clip_vpk(25.0, 1.0, 1.3, 0.22, 8.0) == pytest.approx(22.0925, rel=1e-4)
+    assert om.push_pull_clip_vpk(25.0, 1.0, 1.3, 0.22, 8.0) == pytest.approx(
+        22.0925, rel=1e-4, abs=0
+    )
 
 
 @settings(derandomize=True, database=None, max_examples=300)
@@ -128,7 +130,7 @@ def test_push_pull_clip_complex_load_phasor_equation(
     available swing (phasor algebra, common practice, no source); rtol 1e-9."""
     z = z_mag * np.exp(1j * phase)
     v = float(om.push_pull_clip_vpk(20.0, 1.0, 0.7, r_e, z))
-    assert abs(v * (1 + r_e / z)) == pytest.approx(18.3, rel=1e-9)
+    assert abs(v * (1 + r_e / z)) == pytest.approx(18.3, rel=1e-9, abs=0)
 
 
 # --------------------------------------------------------------------------------------
@@ -141,7 +143,7 @@ def test_class_b_maximum_efficiency_is_pi_over_4() -> None:
     V_pk = V_cc; abs 5e-5. Cross-checked as P_o / P_dc for 30 V into 16 ohm."""
     ratio = om.sine_power(30.0, 16.0) / om.class_b_supply_power(30.0, 30.0, 16.0)
     assert ratio == pytest.approx(0.7854, abs=5e-5)
-    assert ratio == pytest.approx(np.pi / 4, rel=1e-12)
+    assert ratio == pytest.approx(np.pi / 4, rel=1e-12, abs=0)
 
 
 def test_class_b_30_v_into_16_ohm_worked_example() -> None:
@@ -150,11 +152,11 @@ def test_class_b_30_v_into_16_ohm_worked_example() -> None:
     rounding, rtol 2e-4); maximum dissipation per transistor 5.7 W (book rounding, rtol
     2e-3; 2 * 900 / (pi^2 16) / 2 = 5.699 W). At full swing itself each device dissipates
     (35.81 - 28.125) / 2 = 3.84 W, less than the maximum."""
-    assert om.sine_power(30.0, 16.0) == pytest.approx(28.125, rel=1e-12)
-    assert om.class_b_supply_power(30.0, 30.0, 16.0) == pytest.approx(35.81, rel=2e-4)
+    assert om.sine_power(30.0, 16.0) == pytest.approx(28.125, rel=1e-12, abs=0)
+    assert om.class_b_supply_power(30.0, 30.0, 16.0) == pytest.approx(35.81, rel=2e-4, abs=0)
     worst = om.class_b_worst_vpk(30.0)
-    assert om.class_b_device_dissipation(30.0, worst, 16.0) == pytest.approx(5.7, rel=2e-3)
-    assert om.class_b_device_dissipation(30.0, 30.0, 16.0) == pytest.approx(3.843, rel=1e-3)
+    assert om.class_b_device_dissipation(30.0, worst, 16.0) == pytest.approx(5.7, rel=2e-3, abs=0)
+    assert om.class_b_device_dissipation(30.0, 30.0, 16.0) == pytest.approx(3.843, rel=1e-3, abs=0)
 
 
 def test_class_b_worst_dissipation_15_v_8_ohm() -> None:
@@ -184,7 +186,7 @@ def test_class_b_quiescent_current_adds_2_vcc_iq() -> None:
     extra = om.class_b_total_dissipation(15.0, 5.0, 8.0, 0.1) - om.class_b_total_dissipation(
         15.0, 5.0, 8.0
     )
-    assert extra == pytest.approx(3.0, rel=1e-12)
+    assert extra == pytest.approx(3.0, rel=1e-12, abs=0)
 
 
 def test_class_b_rail_current_matches_integrated_half_sine() -> None:
@@ -193,7 +195,9 @@ def test_class_b_rail_current_matches_integrated_half_sine() -> None:
     rail; rtol 1e-9."""
     ipk = 10.0 / 8.0
     avg, _ = integrate.quad(lambda t: max(ipk * np.sin(t), 0.0), 0, 2 * np.pi, points=[np.pi])
-    assert om.class_b_rail_average_current(10.0, 8.0) == pytest.approx(avg / (2 * np.pi), rel=1e-9)
+    assert om.class_b_rail_average_current(10.0, 8.0) == pytest.approx(
+        avg / (2 * np.pi), rel=1e-9, abs=0
+    )
 
 
 @pytest.mark.parametrize("phase_deg", [0.0, 30.0, -45.0, 60.0, 89.0])
@@ -215,7 +219,7 @@ def test_class_b_reactive_dissipation_matches_integration(phase_deg: float) -> N
     p_lower, _ = integrate.quad(lower, phi + np.pi, phi + 2 * np.pi)
     expected = (p_upper + p_lower) / (2 * np.pi)
     z = zmag * np.exp(1j * phi)
-    assert om.class_b_total_dissipation(vcc, vpk, z) == pytest.approx(expected, rel=1e-8)
+    assert om.class_b_total_dissipation(vcc, vpk, z) == pytest.approx(expected, rel=1e-8, abs=0)
 
 
 def test_class_b_reactive_worst_vpk_on_a_grid() -> None:
@@ -228,7 +232,7 @@ def test_class_b_reactive_worst_vpk_on_a_grid() -> None:
     z = zmag * np.exp(1j * phi)
     p = om.class_b_total_dissipation(vcc, vpk, z)
     assert vpk[np.argmax(p)] == pytest.approx(float(om.class_b_worst_vpk(vcc, phi)), abs=vpk[1])
-    assert om.class_b_worst_vpk(vcc, phi) == pytest.approx(0.7351 * vcc, rel=1e-4)
+    assert om.class_b_worst_vpk(vcc, phi) == pytest.approx(0.7351 * vcc, rel=1e-4, abs=0)
     assert om.class_b_worst_vpk(vcc, np.deg2rad(60.0)) == vcc
 
 
@@ -244,8 +248,8 @@ def test_sine_power_complex_load_matches_time_average() -> None:
     avg, _ = integrate.quad(
         lambda t: 10 * np.sin(t) * 10 / abs(z) * np.sin(t - np.angle(z)), 0, 2 * np.pi
     )
-    assert om.sine_power(10.0, z) == pytest.approx(avg / (2 * np.pi), rel=1e-9)
-    assert om.sine_power(10.0, 8.0) == pytest.approx(6.25, rel=1e-12)
+    assert om.sine_power(10.0, z) == pytest.approx(avg / (2 * np.pi), rel=1e-9, abs=0)
+    assert om.sine_power(10.0, 8.0) == pytest.approx(6.25, rel=1e-12, abs=0)
 
 
 def test_spl_87_db_speaker_at_10_w_is_97_db() -> None:
@@ -264,7 +268,7 @@ def test_hiss_spl_at_1_w_equivalent_voltage_returns_sensitivity() -> None:
 
 def test_damping_factor() -> None:
     """Common practice, no source: 8 ohm / 0.05 ohm = 160; rtol 1e-12."""
-    assert om.damping_factor(8.0, 0.05) == pytest.approx(160.0, rel=1e-12)
+    assert om.damping_factor(8.0, 0.05) == pytest.approx(160.0, rel=1e-12, abs=0)
 
 
 def test_highpass_corner_is_the_minus_3_db_point() -> None:
@@ -272,9 +276,9 @@ def test_highpass_corner_is_the_minus_3_db_point() -> None:
     8 ohm, 9.043 Hz) |H| = 1/sqrt(2); rtol 1e-9."""
     c, r = 2200e-6, 8.0
     fc = float(om.highpass_corner(c, r))
-    assert fc == pytest.approx(9.0429, rel=1e-4)
+    assert fc == pytest.approx(9.0429, rel=1e-4, abs=0)
     _, h = signal.freqs([r * c, 0.0], [r * c, 1.0], worN=[2 * np.pi * fc])
-    assert abs(h[0]) == pytest.approx(1 / np.sqrt(2), rel=1e-9)
+    assert abs(h[0]) == pytest.approx(1 / np.sqrt(2), rel=1e-9, abs=0)
 
 
 # --------------------------------------------------------------------------------------

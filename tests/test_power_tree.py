@@ -125,13 +125,13 @@ def test_idle_currents_sum_up_the_tree() -> None:
     )
     b = budget_of(text)
     logic, plus, raw, minus = (supply(b, n) for n in ("logic", "plus", "raw", "minus"))
-    assert logic.idle_load_a == pytest.approx(0.030, rel=1e-12)
-    assert logic.input_idle_a == pytest.approx(0.033, rel=1e-12)
+    assert logic.idle_load_a == pytest.approx(0.030, rel=1e-12, abs=0)
+    assert logic.input_idle_a == pytest.approx(0.033, rel=1e-12, abs=0)
     divider = 1.25 / 240
-    assert plus.idle_load_a == pytest.approx(JFET_IQ + 0.033 + divider, rel=1e-12)
-    assert plus.input_idle_a == pytest.approx(JFET_IQ + 0.033 + divider + 50e-6, rel=1e-12)
-    assert raw.idle_load_a == pytest.approx(0.100 + plus.input_idle_a, rel=1e-12)
-    assert minus.idle_load_a == pytest.approx(JFET_IQ, rel=1e-12)
+    assert plus.idle_load_a == pytest.approx(JFET_IQ + 0.033 + divider, rel=1e-12, abs=0)
+    assert plus.input_idle_a == pytest.approx(JFET_IQ + 0.033 + divider + 50e-6, rel=1e-12, abs=0)
+    assert raw.idle_load_a == pytest.approx(0.100 + plus.input_idle_a, rel=1e-12, abs=0)
+    assert minus.idle_load_a == pytest.approx(JFET_IQ, rel=1e-12, abs=0)
     assert plus.stages == ("pre",) and minus.stages == ("pre",)
     assert plus.children == ("logic",) and raw.children == ("plus",)
     # heaviest >= nominal >= idle: the op-amp's signal current adds at level and at clip
@@ -144,8 +144,8 @@ def test_the_ripple_sets_the_trough_with_the_whole_tree_loading_the_reservoir() 
     from memory), the load including every regulator below it; rtol 1e-12."""
     b = budget_of(TREE + opamp_stage("pre", "plus", "minus") + block("dsp", "logic", "30 mA"))
     raw = supply(b, "raw")
-    assert raw.ripple_vpp == pytest.approx(raw.max_load_a / (2 * 50 * 4700e-6), rel=1e-12)
-    assert supply(b, "plus").input_min_v == pytest.approx(raw.output_min_v, rel=1e-12)
+    assert raw.ripple_vpp == pytest.approx(raw.max_load_a / (2 * 50 * 4700e-6), rel=1e-12, abs=0)
+    assert supply(b, "plus").input_min_v == pytest.approx(raw.output_min_v, rel=1e-12, abs=0)
 
 
 @pytest.mark.parametrize(
@@ -219,13 +219,13 @@ def test_light_idle_load_gives_the_minimum_load_warning_and_an_e24_bleeder() -> 
     b = budget_of(light_chain())
     reg = supply(b, "opamps")
     vout = 1.25 * (1 + 8200 / 1000) + 50e-6 * 8200
-    assert reg.vout_v == pytest.approx(vout, rel=1e-12)
-    assert reg.idle_load_a == pytest.approx(2 * JFET_IQ + 1.25e-3, rel=1e-12)
-    assert reg.min_load_margin_a == pytest.approx(2 * JFET_IQ + 1.25e-3 - 10e-3, rel=1e-12)
+    assert reg.vout_v == pytest.approx(vout, rel=1e-12, abs=0)
+    assert reg.idle_load_a == pytest.approx(2 * JFET_IQ + 1.25e-3, rel=1e-12, abs=0)
+    assert reg.min_load_margin_a == pytest.approx(2 * JFET_IQ + 1.25e-3 - 10e-3, rel=1e-12, abs=0)
     bleeder = reg.bleeder_suggestion
     assert bleeder is not None and bleeder.series == "E24"
     assert bleeder.resistance_ohm == 1600.0
-    assert bleeder.power_w == pytest.approx(vout**2 / 1600.0, rel=1e-12)
+    assert bleeder.power_w == pytest.approx(vout**2 / 1600.0, rel=1e-12, abs=0)
     # the next E24 value up would not reach the margin
     e24 = [m * 10.0**k for k in range(0, 6) for m in series("E24")]
     above = min(v for v in e24 if v > 1600.0 * (1 + 1e-9))
@@ -252,11 +252,11 @@ def test_the_suggested_bleeder_added_to_the_file_clears_the_finding(tmp_path: Pa
     assert not any(f["code"] == "regulator-min-load" for f in second["findings"])
     reg = next(s for s in second["supplies"] if s["name"] == "opamps")
     assert reg["min_load_margin_a"] >= 0.0
-    assert reg["bleeder_a"] == pytest.approx(reg["vout_v"] / 1600.0, rel=1e-12)
+    assert reg["bleeder_a"] == pytest.approx(reg["vout_v"] / 1600.0, rel=1e-12, abs=0)
     assert reg["min_load_margin_a"] >= 0.1 * 10e-3  # the stated margin, 10 % of min_load
     # the bleeder loads the parent too (Kirchhoff)
     bench = next(s for s in second["supplies"] if s["name"] == "bench")
-    assert bench["idle_load_a"] == pytest.approx(reg["idle_load_a"] + 50e-6, rel=1e-12)
+    assert bench["idle_load_a"] == pytest.approx(reg["idle_load_a"] + 50e-6, rel=1e-12, abs=0)
 
 
 def test_swing_limits_use_the_low_battery_end() -> None:
@@ -270,7 +270,7 @@ voltage = "24 V"
 min_voltage = "20 V"
 """ + opamp_stage("pre", "battery")
     b = budget_of(text)
-    assert b.nodes[0].clip_vpk == pytest.approx(20.0 / 2 - JFET_MARGIN, rel=1e-9)
+    assert b.nodes[0].clip_vpk == pytest.approx(20.0 / 2 - JFET_MARGIN, rel=1e-9, abs=0)
 
 
 def test_a_stage_on_a_rectified_rail_swings_within_its_loaded_trough() -> None:
@@ -317,7 +317,7 @@ reservoir = "1000 uF"
     high = [f for f in findings(over) if f.code == "opamp-supply-high"]
     assert len(high) == 1 and high[0].severity == "error"
     assert high[0].figures["high_total_v"] == pytest.approx(
-        math.sqrt(2) * 26 * 1.1 - 1.8, rel=1e-12
+        math.sqrt(2) * 26 * 1.1 - 1.8, rel=1e-12, abs=0
     )
 
 
@@ -370,8 +370,10 @@ def test_the_battery_example_reports_its_run_time() -> None:
     file = ROOT / "chains" / "field_recorder_battery.toml"
     b = compute(load_chain(file))
     pack = next(s for s in b.supplies if s.capacity_ah is not None)
-    assert pack.runtime_idle_h == pytest.approx(pack.capacity_ah / pack.idle_load_a, rel=1e-12)
+    assert pack.runtime_idle_h == pytest.approx(
+        pack.capacity_ah / pack.idle_load_a, rel=1e-12, abs=0
+    )
     assert pack.runtime_nominal_h == pytest.approx(
-        pack.capacity_ah / pack.nominal_load_a, rel=1e-12
+        pack.capacity_ah / pack.nominal_load_a, rel=1e-12, abs=0
     )
     assert "run time at idle" in runner.invoke(app, ["check", str(file)]).output

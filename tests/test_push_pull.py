@@ -115,8 +115,8 @@ def test_input_impedance_per_half_is_beta_plus_one_times_emitter_resistor_plus_l
     c = chain(PLAIN)
     r_e = push_pull_model(c.stages[0], analyse(c).envs[0]).output.r_e
     z_in, _ = at_reference(c)
-    assert z_in.real == pytest.approx(51.0 * (r_e + 0.22 + 8.0), rel=1e-7)
-    assert z_in.real == pytest.approx(51.0 * (0.22 + 8.0), rel=3e-3)
+    assert z_in.real == pytest.approx(51.0 * (r_e + 0.22 + 8.0), rel=1e-7, abs=0)
+    assert z_in.real == pytest.approx(51.0 * (0.22 + 8.0), rel=3e-3, abs=0)
 
 
 def test_darlington_multiplies_the_input_impedance_by_the_drivers_beta_plus_one() -> None:
@@ -128,8 +128,8 @@ def test_darlington_multiplies_the_input_impedance_by_the_drivers_beta_plus_one(
     assert model.driver is not None
     z_in, _ = at_reference(c)
     exact = 101.0 * (model.driver.r_e + 51.0 * (model.output.r_e + 0.22 + 8.0))
-    assert z_in.real == pytest.approx(exact, rel=1e-7)
-    assert z_in.real == pytest.approx(101.0 * 51.0 * 8.22, rel=1e-2)
+    assert z_in.real == pytest.approx(exact, rel=1e-7, abs=0)
+    assert z_in.real == pytest.approx(101.0 * 51.0 * 8.22, rel=1e-2, abs=0)
 
 
 @pytest.mark.parametrize("source_ohm", [0.0, 100.0, 1000.0])
@@ -146,7 +146,7 @@ def test_output_impedance_is_emitter_resistor_plus_follower_output_impedance(
     )
     r_e = push_pull_model(c.stages[0], analyse(c).envs[0]).output.r_e
     _, z_out = at_reference(c)
-    assert z_out.real == pytest.approx(0.22 + r_e + (source_ohm + 10.0) / 51.0, rel=1e-7)
+    assert z_out.real == pytest.approx(0.22 + r_e + (source_ohm + 10.0) / 51.0, rel=1e-7, abs=0)
 
 
 def test_conduction_r_e_is_thermal_voltage_over_the_clip_current() -> None:
@@ -155,8 +155,10 @@ def test_conduction_r_e_is_thermal_voltage_over_the_clip_current() -> None:
     c = chain(PLAIN)
     model = push_pull_model(c.stages[0], analyse(c).envs[0])
     i_pk = 13.2 / 8.22
-    assert model.conduction_a == pytest.approx(i_pk, rel=1e-12)
-    assert model.output.r_e == pytest.approx(constants.k * 300.0 / constants.e / i_pk, rel=1e-9)
+    assert model.conduction_a == pytest.approx(i_pk, rel=1e-12, abs=0)
+    assert model.output.r_e == pytest.approx(
+        constants.k * 300.0 / constants.e / i_pk, rel=1e-9, abs=0
+    )
 
 
 @pytest.mark.parametrize(
@@ -173,7 +175,7 @@ def test_swing_is_rail_less_saturation_and_vbe_less_emitter_resistor_drop(
     1e-6."""
     node = node_levels(analyse(chain(stage)))[0]
     assert node.limited_by == "swing"
-    assert node.clip_vpk == pytest.approx((15.0 - drop) * 8.0 / 8.22, rel=1e-6)
+    assert node.clip_vpk == pytest.approx((15.0 - drop) * 8.0 / 8.22, rel=1e-6, abs=0)
 
 
 def test_single_supply_stage_swings_about_half_the_supply_through_its_output_cap() -> None:
@@ -184,7 +186,7 @@ def test_single_supply_stage_swings_about_half_the_supply_through_its_output_cap
     c = chain({**PLAIN, "output_cap": "2200u"}, rails=("24 V", None))
     node = node_levels(analyse(c))[0]
     z_c = 1.0 / (2j * np.pi * 1e3 * 2200e-6)
-    assert node.clip_vpk == pytest.approx(10.2 * 8.0 / abs(8.0 + 0.22 + z_c), rel=1e-6)
+    assert node.clip_vpk == pytest.approx(10.2 * 8.0 / abs(8.0 + 0.22 + z_c), rel=1e-6, abs=0)
 
 
 def test_peak_base_current_is_peak_load_current_over_beta_plus_one() -> None:
@@ -202,7 +204,7 @@ def test_peak_base_current_is_peak_load_current_over_beta_plus_one() -> None:
     budget = budget_from(analyse(c))
     handover = handovers(budget)[0]
     i_pk = handover.output_clip_vpk / 8.0
-    assert handover.base_current_a == pytest.approx(i_pk / 51.0, rel=1e-6)
+    assert handover.base_current_a == pytest.approx(i_pk / 51.0, rel=1e-6, abs=0)
 
 
 def _device_power_by_integration(vcc: float, vpk: float, z: complex, i_q: float) -> float:
@@ -229,16 +231,18 @@ def test_dissipation_figures_match_class_b_theory_and_a_cycle_integration() -> N
     assert dissipation(budget) is not None
     d = dissipation(budget)
     worst = 15.0**2 / (np.pi**2 * 8.0) + 15.0 * 0.05
-    assert d.worst_vpk == pytest.approx(2.0 * 15.0 / np.pi, rel=1e-9)
-    assert d.worst_device_w == pytest.approx(worst, rel=1e-9)
+    assert d.worst_vpk == pytest.approx(2.0 * 15.0 / np.pi, rel=1e-9, abs=0)
+    assert d.worst_device_w == pytest.approx(worst, rel=1e-9, abs=0)
     assert d.worst_device_w == pytest.approx(
-        _device_power_by_integration(15.0, d.worst_vpk, 8.0, 0.05), rel=1e-6
+        _device_power_by_integration(15.0, d.worst_vpk, 8.0, 0.05), rel=1e-6, abs=0
     )
-    assert d.idle_device_w == pytest.approx(15.0 * 0.05, rel=1e-12)
+    assert d.idle_device_w == pytest.approx(15.0 * 0.05, rel=1e-12, abs=0)
     clip = d.levels_vpk[-1]
-    assert d.clip_supply_w == pytest.approx(2 * 15.0 * (clip / (np.pi * 8.0) + 0.05), rel=1e-9)
+    assert d.clip_supply_w == pytest.approx(
+        2 * 15.0 * (clip / (np.pi * 8.0) + 0.05), rel=1e-9, abs=0
+    )
     assert d.clip_device_w == pytest.approx(
-        _device_power_by_integration(15.0, clip, 8.0, 0.05), rel=1e-6
+        _device_power_by_integration(15.0, clip, 8.0, 0.05), rel=1e-6, abs=0
     )
 
 
@@ -253,9 +257,11 @@ def test_reactive_load_raises_the_dissipation_as_a_cycle_integration_says() -> N
     assert dissipation(budget) is not None
     d = dissipation(budget)
     z = 8.0 * np.exp(1j * np.radians(40.0))
-    assert d.worst_vpk == pytest.approx(2.0 * 15.0 / (np.pi * np.cos(np.radians(40.0))), rel=1e-9)
+    assert d.worst_vpk == pytest.approx(
+        2.0 * 15.0 / (np.pi * np.cos(np.radians(40.0))), rel=1e-9, abs=0
+    )
     assert d.worst_device_w == pytest.approx(
-        _device_power_by_integration(15.0, d.worst_vpk, z, 0.05), rel=1e-6
+        _device_power_by_integration(15.0, d.worst_vpk, z, 0.05), rel=1e-6, abs=0
     )
     assert d.worst_device_w > d.resistive_worst_device_w
 
@@ -276,9 +282,9 @@ def test_junction_temperature_2_w_through_5_1_10_k_per_w_at_50_degc_is_82_degc()
     budget = budget_from(analyse(_two_watt_stage(**THERMAL)))
     assert dissipation(budget) is not None
     d = dissipation(budget)
-    assert d.worst_device_w == pytest.approx(2.0, rel=1e-12)
+    assert d.worst_device_w == pytest.approx(2.0, rel=1e-12, abs=0)
     assert d.junction_degc == pytest.approx(82.0, abs=1e-9)
-    assert d.max_heatsink_k_per_w == pytest.approx(44.0, rel=1e-9)
+    assert d.max_heatsink_k_per_w == pytest.approx(44.0, rel=1e-9, abs=0)
 
 
 def test_shared_heatsink_carries_both_devices() -> None:
@@ -291,7 +297,7 @@ def test_shared_heatsink_carries_both_devices() -> None:
     d = dissipation(budget)
     assert d.heatsink_degc == pytest.approx(90.0, abs=1e-9)
     assert d.junction_degc == pytest.approx(102.0, abs=1e-9)
-    assert d.max_heatsink_k_per_w == pytest.approx(22.0, rel=1e-9)
+    assert d.max_heatsink_k_per_w == pytest.approx(22.0, rel=1e-9, abs=0)
 
 
 def test_free_air_device_uses_theta_ja() -> None:
@@ -311,8 +317,8 @@ def test_rail_current_is_quiescent_plus_peak_over_pi_per_rail() -> None:
     currents = stage_currents(analysis)[0]
     clip = node_levels(analysis)[0].clip_vpk
     assert clip is not None
-    assert currents.idle_a == pytest.approx(0.05, rel=1e-12)
-    assert currents.clip_a == pytest.approx(0.05 + clip / 8.0 / np.pi, rel=1e-6)
+    assert currents.idle_a == pytest.approx(0.05, rel=1e-12, abs=0)
+    assert currents.clip_a == pytest.approx(0.05 + clip / 8.0 / np.pi, rel=1e-6, abs=0)
 
 
 def test_cascade_with_follower_and_darlington_matches_the_whole_chain_network() -> None:
@@ -371,4 +377,4 @@ def test_load_phase_needs_an_angle_with_its_unit() -> None:
         with pytest.raises(ChainFileError):
             chain({**PLAIN, "load_phase": bad})
     c = chain({**PLAIN, "load_phase": "30 deg"})
-    assert c.stages[0].number("load_phase") == pytest.approx(np.pi / 6.0, rel=1e-12)
+    assert c.stages[0].number("load_phase") == pytest.approx(np.pi / 6.0, rel=1e-12, abs=0)

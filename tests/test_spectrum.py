@@ -95,7 +95,7 @@ def test_integrate_psd_two_points_is_trapezoid_in_log_frequency() -> None:
     f = np.array([100.0, 1000.0])
     psd = np.array([2.0, 3.0])
     expected = 0.5 * np.log(10.0) * (100.0 * 2.0 + 1000.0 * 3.0)
-    assert float(integrate_psd(f, psd)) == pytest.approx(expected, rel=1e-14)
+    assert float(integrate_psd(f, psd)) == pytest.approx(expected, rel=1e-14, abs=0)
 
 
 def test_integrate_psd_batch_axes_and_axis_argument() -> None:
@@ -139,7 +139,7 @@ def test_integrate_psd_of_white_noise_is_level_times_bandwidth(
     f_hi = f_lo * 10.0**decades
     f = log_frequency_grid(f_lo, f_hi, ppd)
     result = float(integrate_psd(f, np.full(f.size, level)))
-    assert result == pytest.approx(level * (f_hi - f_lo), rel=2e-6)
+    assert result == pytest.approx(level * (f_hi - f_lo), rel=2e-6, abs=0)
 
 
 @settings(deadline=None)
@@ -160,7 +160,7 @@ def test_integrate_psd_of_power_law_matches_closed_form(
         expected = np.log(f_hi / f_lo)
     else:
         expected = f_lo**p * np.expm1(p * np.log(f_hi / f_lo)) / p
-    assert float(integrate_psd(f, f**exponent)) == pytest.approx(expected, rel=1e-5)
+    assert float(integrate_psd(f, f**exponent)) == pytest.approx(expected, rel=1e-5, abs=0)
 
 
 # --- integrate_psd on realistic noise spectra ---------------------------------------------
@@ -197,7 +197,7 @@ def test_integrated_a_weighted_white_noise_matches_quad() -> None:
     bandwidth = AUDIO_BAND[1] - AUDIO_BAND[0]
     ours = float(integrate_psd(f, a_weighting(f) ** 2)) / bandwidth
     truth = _quad(_a_weighting_squared_by_hand, *AUDIO_BAND) / bandwidth
-    assert ours == pytest.approx(truth, rel=1e-6)
+    assert ours == pytest.approx(truth, rel=1e-6, abs=0)
     # Sanity against the trade: A-weighting lowers flat-band white noise by about 2-3 dB
     # over 20 Hz-20 kHz (common practice, no source).
     assert -3.5 < _db_ratio(ours, 1.0) < -1.5
@@ -244,7 +244,7 @@ def test_thermal_noise_of_1k_at_300k_is_4_07_nv_per_rthz() -> None:
     """Johnson-Nyquist: 1 kohm at 300 K gives 4.07 nV/rtHz (any electronics text, e.g.
     Horowitz & Hill 3rd ed. sec. 8.1.1); rtol 1.5e-3 for the 3-digit value."""
     density = np.sqrt(thermal_voltage_psd(1e3, 300.0))
-    assert float(density) == pytest.approx(4.07e-9, rel=1.5e-3)
+    assert float(density) == pytest.approx(4.07e-9, rel=1.5e-3, abs=0)
 
 
 def test_thermal_noise_of_1k_over_10khz_band() -> None:
@@ -254,7 +254,9 @@ def test_thermal_noise_of_1k_over_10khz_band() -> None:
     f = log_frequency_grid(20.0, 10_020.0, 20)
     for temperature_k, expected_v in ((290.0, 0.40e-6), (300.0, 0.41e-6)):
         psd = np.broadcast_to(thermal_voltage_psd(1e3, temperature_k), f.shape)
-        assert float(np.sqrt(integrate_psd(f, psd))) == pytest.approx(expected_v, rel=1.25e-2)
+        assert float(np.sqrt(integrate_psd(f, psd))) == pytest.approx(
+            expected_v, rel=1.25e-2, abs=0
+        )
 
 
 def test_thermal_noise_rule_of_thumb_0_13_sqrt_r() -> None:
@@ -270,7 +272,7 @@ def test_thermal_current_noise_is_the_norton_equivalent() -> None:
     """Norton form 4kT/R: 1 kohm at 300 K gives 4.07 pA/rtHz (= 4.07 nV/rtHz / 1 kohm, any
     electronics text); rtol 1.5e-3."""
     density = np.sqrt(thermal_current_psd(1e3, 300.0))
-    assert float(density) == pytest.approx(4.07e-12, rel=1.5e-3)
+    assert float(density) == pytest.approx(4.07e-12, rel=1.5e-3, abs=0)
 
 
 def test_shot_noise_of_1ma_is_17_9_pa_per_rthz() -> None:
@@ -284,7 +286,9 @@ def test_flicker_psd_doubles_at_the_corner_and_integrates_in_closed_form() -> No
     """1/f corner model e_n^2 (1 + f_c/f): twice the white PSD at f = f_c (definition of the
     corner, common practice, rtol 1e-15); band integral e_n^2 [(f_hi - f_lo) + f_c ln(f_hi /
     f_lo)] (calculus), rtol 1e-6 with integrate_psd at 20 points per decade."""
-    assert float(flicker_psd(4.5e-9, 100.0, 100.0)) == pytest.approx(2 * 4.5e-9**2, rel=1e-15)
+    assert float(flicker_psd(4.5e-9, 100.0, 100.0)) == pytest.approx(
+        2 * 4.5e-9**2, rel=1e-15, abs=0
+    )
     f = log_frequency_grid(*AUDIO_BAND, 20)
     density = np.array([[3e-9], [10e-9]])  # batch of two, broadcast against the grid
     corner = np.array([[10.0], [2000.0]])

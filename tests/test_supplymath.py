@@ -22,7 +22,7 @@ IEC_E24 = (
 
 def test_mains_factors_for_a_ten_percent_band() -> None:
     """230 V mains +/-10 % (CENELEC harmonisation, IEC 60038); rtol 1e-15."""
-    assert sm.mains_factors(0.10) == pytest.approx((0.9, 1.0, 1.1), rel=1e-15)
+    assert sm.mains_factors(0.10) == pytest.approx((0.9, 1.0, 1.1), rel=1e-15, abs=0)
     with pytest.raises(ValueError):
         sm.mains_factors(1.0)
     with pytest.raises(ValueError):
@@ -102,7 +102,9 @@ def test_rectified_peak_regulation_interpolates_between_no_load_and_rated_load()
     """
     root2_18 = math.sqrt(2) * 18.0
     got = sm.rectified_peak(18.0, 1.0, 0.0, regulation_fraction=0.10, load_fraction=[0, 0.5, 1])
-    assert got.tolist() == pytest.approx([1.1 * root2_18, 1.05 * root2_18, root2_18], rel=1e-12)
+    assert got.tolist() == pytest.approx(
+        [1.1 * root2_18, 1.05 * root2_18, root2_18], rel=1e-12, abs=0
+    )
 
 
 def test_trough_and_crest_of_a_rectified_rail() -> None:
@@ -122,8 +124,10 @@ def test_trough_and_crest_with_transformer_regulation() -> None:
     rail = sm.trough_and_crest(18.0, 0.10, 1.4, 50.0, 4700e-6, 1.0, 0.10, rated_current_a=2.0)
     root2_18 = math.sqrt(2) * 18.0
     ripple = 1.0 / (2 * 50.0 * 4700e-6)
-    assert float(rail.trough_v) == pytest.approx(root2_18 * 0.9 * 1.05 - 1.4 - ripple, rel=1e-12)
-    assert float(rail.crest_v) == pytest.approx(root2_18 * 1.1 * 1.1 - 1.4, rel=1e-12)
+    assert float(rail.trough_v) == pytest.approx(
+        root2_18 * 0.9 * 1.05 - 1.4 - ripple, rel=1e-12, abs=0
+    )
+    assert float(rail.crest_v) == pytest.approx(root2_18 * 1.1 * 1.1 - 1.4, rel=1e-12, abs=0)
 
 
 def test_adjustable_regulator_output_and_divider_current() -> None:
@@ -160,14 +164,14 @@ def test_ripple_after_regulator_uses_field_quantity_decibels() -> None:
     into 0.1 V; rtol 1e-12.
     """
     got = sm.ripple_after_regulator(1.0, np.array([60.0, 20.0, 0.0]))
-    assert got.tolist() == pytest.approx([1e-3, 0.1, 1.0], rel=1e-12)
+    assert got.tolist() == pytest.approx([1e-3, 0.1, 1.0], rel=1e-12, abs=0)
 
 
 def test_battery_runtime() -> None:
     """Definition of the ampere-hour: 7 A h at 0.5 A lasts 14 h; zero drain -> inf without
     a warning (pytest turns warnings into errors). rtol 1e-12.
     """
-    assert float(sm.battery_runtime_h(7.0, 0.5)) == pytest.approx(14.0, rel=1e-12)
+    assert float(sm.battery_runtime_h(7.0, 0.5)) == pytest.approx(14.0, rel=1e-12, abs=0)
     assert math.isinf(float(sm.battery_runtime_h(7.0, 0.0)))
 
 
@@ -176,7 +180,9 @@ def test_sag_of_a_dc_source() -> None:
     abs 1e-12 V.
     """
     assert float(sm.sag(12.0, 0.1, 2.0)) == pytest.approx(11.8, abs=1e-12)
-    assert sm.sag(12.0, 0.1, np.array([0.0, 1.0])).tolist() == pytest.approx([12.0, 11.9])
+    assert sm.sag(12.0, 0.1, np.array([0.0, 1.0])).tolist() == pytest.approx(
+        [12.0, 11.9], rel=1e-12, abs=0
+    )
 
 
 def e24_next_above(r: float) -> float:
@@ -191,7 +197,7 @@ def test_bleeder_for_a_three_milliamp_shortfall() -> None:
     """
     r, p = sm.bleeder_suggestion(13.87, 3e-3)
     assert r == 4300.0
-    assert p == pytest.approx(13.87**2 / 4300.0, rel=1e-12)
+    assert p == pytest.approx(13.87**2 / 4300.0, rel=1e-12, abs=0)
     with pytest.raises(ValueError):
         sm.bleeder_suggestion(13.87, 0.0)
 
@@ -207,4 +213,4 @@ def test_bleeder_draws_the_shortfall_and_the_next_e24_value_would_not(
     assert vout / r >= shortfall * (1 - 1e-9)
     assert vout / e24_next_above(r) < shortfall
     assert any(math.isclose(r, m * 10.0**k, rel_tol=1e-12) for k in range(-2, 9) for m in IEC_E24)
-    assert p == pytest.approx(vout**2 / r, rel=1e-12)
+    assert p == pytest.approx(vout**2 / r, rel=1e-12, abs=0)

@@ -48,12 +48,12 @@ from chainbudget.units import (
 )
 def test_decibel_levels_match_the_audio_references(text: str, vrms: float) -> None:
     """dBu re sqrt(0.6) V and dBV re 1 V rms (common practice, no source); rtol 1e-6."""
-    assert parse_level(text) == pytest.approx(vrms, rel=1e-6)
+    assert parse_level(text) == pytest.approx(vrms, rel=1e-6, abs=0)
 
 
 def test_dbu_reference_is_one_milliwatt_in_600_ohm() -> None:
     """P = V^2/R: (0 dBu)^2 / 600 ohm = 1 mW (common practice, no source); rtol 1e-12."""
-    assert parse_level("0 dBu") ** 2 / 600.0 == pytest.approx(1e-3, rel=1e-12)
+    assert parse_level("0 dBu") ** 2 / 600.0 == pytest.approx(1e-3, rel=1e-12, abs=0)
 
 
 def test_pint_own_dbu_is_not_the_audio_dbu() -> None:
@@ -61,8 +61,8 @@ def test_pint_own_dbu_is_not_the_audio_dbu() -> None:
     1.2277 V. The level parser must give the audio value, and a voltage field must not
     quietly accept pint's power unit. Tolerance rtol 1e-6."""
     pint_dbu = parse_quantity("4 dBu", units.WATT)
-    assert pint_dbu == pytest.approx(1e-6 * 10**0.4, rel=1e-6)
-    assert parse_level("+4 dBu") == pytest.approx(1.2276530, rel=1e-6)
+    assert pint_dbu == pytest.approx(1e-6 * 10**0.4, rel=1e-6, abs=0)
+    assert parse_level("+4 dBu") == pytest.approx(1.2276530, rel=1e-6, abs=0)
     with pytest.raises(UnitParseError):
         parse_quantity("4 dBu", VOLT)
 
@@ -85,7 +85,7 @@ def test_pint_own_dbu_is_not_the_audio_dbu() -> None:
 )
 def test_rms_peak_and_peak_to_peak_forms(text: str, vrms: float) -> None:
     """Sine forms: rms = pk/sqrt(2) = pp/(2 sqrt(2)) (H&H 3rd ed. sec. 1.7.1); rtol 1e-6."""
-    assert parse_level(text) == pytest.approx(vrms, rel=1e-6)
+    assert parse_level(text) == pytest.approx(vrms, rel=1e-6, abs=0)
 
 
 @pytest.mark.parametrize("text", ["0 V", "-1 V", "1 A", "loud", "1e400 V", "20000 dBu"])
@@ -122,7 +122,7 @@ def test_level_is_refused_as_a_bare_number() -> None:
 )
 def test_resistor_letter_codes(text: str, ohm: float) -> None:
     """IEC 60062 resistor code: R, k, M mark the decimal point and multiplier; rtol 1e-12."""
-    assert parse_quantity(text, OHM) == pytest.approx(ohm, rel=1e-12)
+    assert parse_quantity(text, OHM) == pytest.approx(ohm, rel=1e-12, abs=0)
 
 
 @pytest.mark.parametrize(
@@ -142,7 +142,7 @@ def test_resistor_letter_codes(text: str, ohm: float) -> None:
 def test_capacitor_letter_codes(text: str, farad: float) -> None:
     """IEC 60062 capacitor code: p, n, u (µ) mark the decimal point and multiplier; rtol
     1e-12."""
-    assert parse_quantity(text, FARAD) == pytest.approx(farad, rel=1e-12)
+    assert parse_quantity(text, FARAD) == pytest.approx(farad, rel=1e-12, abs=0)
 
 
 def test_letter_code_follows_the_fields_dimension() -> None:
@@ -166,7 +166,7 @@ def test_letter_code_round_trip(whole: int, decimal: int, letter: str) -> None:
     dimension = OHM if letter in "RkM" else FARAD
     expected = (whole + decimal / 10.0) * multiplier
     assert parse_quantity(f"{whole}{letter}{decimal}", dimension) == pytest.approx(
-        expected, rel=1e-12
+        expected, rel=1e-12, abs=0
     )
 
 
@@ -178,13 +178,13 @@ def test_letter_code_round_trip(whole: int, decimal: int, letter: str) -> None:
 )
 def test_noise_voltage_density_spellings(text: str) -> None:
     """All root-hertz spellings of the contract mean 8e-9 V/sqrt(Hz); rtol 1e-12."""
-    assert parse_quantity(text, NOISE_VOLTAGE) == pytest.approx(8e-9, rel=1e-12)
+    assert parse_quantity(text, NOISE_VOLTAGE) == pytest.approx(8e-9, rel=1e-12, abs=0)
 
 
 @pytest.mark.parametrize("text", ["0.7 pA/rtHz", "0.7 pA/√Hz", "700 fA/sqrt(Hz)"])
 def test_noise_current_density_spellings(text: str) -> None:
     """pA/rtHz and friends: 0.7e-12 A/sqrt(Hz); rtol 1e-12."""
-    assert parse_quantity(text, NOISE_CURRENT) == pytest.approx(0.7e-12, rel=1e-12)
+    assert parse_quantity(text, NOISE_CURRENT) == pytest.approx(0.7e-12, rel=1e-12, abs=0)
 
 
 def test_noise_density_is_not_a_plain_voltage() -> None:
@@ -197,14 +197,14 @@ def test_noise_density_is_not_a_plain_voltage() -> None:
 
 def test_slew_rate_in_volts_per_microsecond() -> None:
     """7 V/us = 7e6 V/s (SI prefixes, SI Brochure 9th ed. Table 7); rtol 1e-12."""
-    assert parse_quantity("7 V/us", units.SLEW) == pytest.approx(7e6, rel=1e-12)
+    assert parse_quantity("7 V/us", units.SLEW) == pytest.approx(7e6, rel=1e-12, abs=0)
 
 
 @pytest.mark.parametrize("text", ["50 K/W", "50 degC/W", "50 °C/W"])
 def test_thermal_resistance_in_kelvin_or_degc_per_watt(text: str) -> None:
     """A temperature difference of 1 degC is 1 K (SI Brochure 9th ed. sec. 2.3.1); rtol
     1e-12."""
-    assert parse_quantity(text, THERMAL_RESISTANCE) == pytest.approx(50.0, rel=1e-12)
+    assert parse_quantity(text, THERMAL_RESISTANCE) == pytest.approx(50.0, rel=1e-12, abs=0)
 
 
 # --- temperatures (offset units) ----------------------------------------------------------
@@ -277,7 +277,7 @@ def test_bare_number_message_says_the_unit_is_missing() -> None:
 def test_dimensionless_accepts_numbers_and_percent() -> None:
     """A plain number is fine where no unit is wanted; 10 % = 0.1 (rtol 1e-12)."""
     assert parse_quantity(200, units.DIMENSIONLESS) == 200.0
-    assert parse_quantity("10 %", units.DIMENSIONLESS) == pytest.approx(0.1, rel=1e-12)
+    assert parse_quantity("10 %", units.DIMENSIONLESS) == pytest.approx(0.1, rel=1e-12, abs=0)
 
 
 @pytest.mark.parametrize(
@@ -294,7 +294,7 @@ def test_dimensionless_accepts_numbers_and_percent() -> None:
 )
 def test_gain_in_decibels_or_as_a_ratio(value: object, ratio: float) -> None:
     """Voltage gain: dB = 20 log10(ratio); rtol 1e-5 (6.0206 is rounded)."""
-    assert parse_gain(value) == pytest.approx(ratio, rel=1e-5)
+    assert parse_gain(value) == pytest.approx(ratio, rel=1e-5, abs=0)
 
 
 @pytest.mark.parametrize("value", ["20000 dB", "20 V", math.inf, True])

@@ -83,6 +83,8 @@ def test_bass_boost_worst_case_is_full_boost_at_the_bottom_of_the_band() -> None
 def test_grid_stays_within_its_budget_as_pots_are_added() -> None:
     """Each swept pot is an axis; past MAX_COMBINATIONS the rotations per pot drop, never
     below 0, 0.5 and 1."""
+    # restates the project's own search budget (SWEEP_POINTS, MAX_COMBINATIONS; not an
+    # outside check)
     assert sweep_points(1) == SWEEP_POINTS
     assert sweep_points(3) == SWEEP_POINTS
     for n in range(1, 9):
