@@ -50,3 +50,15 @@ LARGE_RIPPLE_FRACTION = 0.2
 THIN_DROPOUT_MARGIN_V = 0.5
 #: Off-load rise of small mains transformers (common practice, no source).
 TYPICAL_REGULATION = (0.10, 0.25)
+
+# --- feedback loops ----------------------------------------------------------------------
+#: A loop with less phase margin than this rings on transients and peaks near its unity-gain
+#: frequency; 45 deg is the usual design minimum (Franco, Design with Operational Amplifiers
+#: and Analog Integrated Circuits, 4th ed., sec. 8.1, from memory; common practice).
+PHASE_MARGIN_WARN_DEG = 45.0
+#: Under 20 deg a loop is close to oscillating: the closed-loop peak passes 9 dB and the
+#: tolerance of the parts can tip it over (the same source; common practice).
+PHASE_MARGIN_ERROR_DEG = 20.0
+#: A remedy is chosen to give at least this much margin, a few degrees above the warning so
+#: that the parts' tolerances keep it clear (ours).
+PHASE_MARGIN_TARGET_DEG = 50.0

@@ -66,6 +66,22 @@ def _operating_point(point: DcPoint) -> list[Finding]:
     ]
 
 
+def _loop_open(point: DcPoint) -> list[Finding]:
+    if not point.loop_open_at_dc:
+        return []
+    return [
+        Finding(
+            "error",
+            "loop-open-at-dc",
+            point.stage,
+            "its feedback is taken from beyond a series capacitor inside the loop, so at DC "
+            "the op-amp has no feedback and its output runs to a rail; take the feedback from "
+            "before the capacitor, or give the loop a DC path of its own",
+            {},
+        )
+    ]
+
+
 def _pot(point: DcPoint) -> list[Finding]:
     top = point.pot_top_v
     if top is None or abs(top) <= POT_DC_LIMIT_V:
@@ -88,6 +104,7 @@ def rules(budget: Budget) -> list[Finding]:
     found: list[Finding] = []
     points = [node.dc for node in budget.nodes if node.dc is not None]
     for point in points:
+        found += _loop_open(point)
         found += _operating_point(point)
         found += _pot(point)
     if points:

@@ -18,6 +18,8 @@ from typing import ClassVar
 from numpy.typing import ArrayLike
 
 from chainbudget import fields as f
+from chainbudget.finding import Finding
+from chainbudget.kindfigures import KindFigures
 from chainbudget.network import GROUND, Netlist
 from chainbudget.stages.base import (
     END_RESISTANCE_FIELD,
@@ -28,14 +30,17 @@ from chainbudget.stages.base import (
     Control,
     DcWindow,
     Environment,
+    NodeFacts,
     OwnParts,
     Stage,
+    StageContext,
     StageKind,
     inverting_dc_output,
     opamp_dc_window,
     stamp_opamp,
     taper_fraction,
 )
+from chainbudget.stages.opamp_loop import OwnLoop, loop_figures, loop_rules
 
 
 def bass_fields(prefix: str) -> tuple[f.Field, ...]:
@@ -222,6 +227,13 @@ class FeedbackTone(StageKind):
 
     def controls(self, stage: Stage) -> list[Control]:
         return [pot_control(stage, prefix) for prefix in self.pots]
+
+    def figures(self, context: StageContext) -> tuple[KindFigures, ...]:
+        """Its op-amp's loop (`chainbudget.stages.opamp_loop`)."""
+        return (loop_figures(context),)
+
+    def rules(self, figures: tuple[KindFigures, ...], facts: NodeFacts) -> list[Finding]:
+        return [fi for own in figures if isinstance(own, OwnLoop) for fi in loop_rules(own)]
 
     @abstractmethod
     def stamp_networks(
