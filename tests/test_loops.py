@@ -3,14 +3,17 @@ margins, each checked against an outside source named beside it."""
 
 from __future__ import annotations
 
+import json
 import math
 import subprocess
 import sys
 import tomllib
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 import pytest
+import tomli_w
 from scipy.constants import k as BOLTZMANN
 
 from chainbudget.budget import Budget, compute
@@ -105,8 +108,8 @@ def budget_of(text: str) -> Budget:
     return compute(parse_chain(tomllib.loads(text), "loop.toml"))
 
 
-def global_loop(budget: Budget) -> GlobalLoop:
-    found = budget.node("pre").figures(GlobalLoop)
+def global_loop(budget: Budget, stage: str = "pre") -> GlobalLoop:
+    found = budget.node(stage).figures(GlobalLoop)
     assert isinstance(found, GlobalLoop)
     return found
 
@@ -413,3 +416,56 @@ negative = "minus"
     assert opamp.output_v is not None
     # V_BE 0.65 V of the class, plus I_B r_bb'... the follower's own DC model at 5 mA.
     assert 0.65 <= opamp.output_v < 0.66
+
+
+# --- a capacitive load -------------------------------------------------------------------
+
+DATA = Path(__file__).resolve().parent / "data"
+
+
+def check_json(path: Path) -> dict[str, Any]:
+    done = subprocess.run(
+        [sys.executable, "-m", "chainbudget", "check", str(path), "--format", "json"],
+        capture_output=True,
+        text=True,
+        check=False,
+    )
+    assert done.returncode in (0, 1), done.stderr
+    data: dict[str, Any] = json.loads(done.stdout)
+    return data
+
+
+def test_a_capacitive_load_without_isolation_and_its_remedy(tmp_path: Path) -> None:
+    """2.2 uF across the speaker line, no isolation: the loop round the output stage loses
+    its margin (a pole of the output stage's open-loop output impedance with the load
+    capacitance inside the loop; Franco, Design with Operational Amplifiers, 4th ed., sec.
+    8.x, capacitive loads, from memory). The finding names an isolating network from the
+    E-series; written into the file, it clears the finding."""
+    path = DATA / "capacitive_load.toml"
+    data = check_json(path)
+    (loop,) = data["loop"]
+    assert loop["stage"] == "amp" and loop["inside"] == ["output"]
+    assert loop["phase_margin_deg"] < 45.0
+    found = [f for f in data["findings"] if f["code"] == "phase-margin"]
+    assert [(f["severity"], f["stage"]) for f in found] == [("warning", "amp")]
+    # The remedy, as the budget holds it, applied to the file.
+    budget = compute(parse_chain(tomllib.loads(path.read_text()), str(path)))
+    own = global_loop(budget, "amp")
+    assert own.remedy is not None and own.remedy.stage == "output"
+    assert own.remedy.margin_deg >= 50.0
+    assert own.remedy.text() in found[0]["message"]
+    document = tomllib.loads(path.read_text())
+    (stage,) = [st for st in document["stage"] if st["name"] == "output"]
+    stage.update(dict(own.remedy.fields))
+    fixed = tmp_path / "fixed.toml"
+    fixed.write_text(tomli_w.dumps(document), encoding="utf-8")
+    after = check_json(fixed)
+    assert not [f for f in after["findings"] if f["code"] == "phase-margin"]
+    (loop_after,) = after["loop"]
+    # The margin the remedy promised, now from the stage's own network (the Zobel at the
+    # pair, the inductor between it and the load): the same network, so the same figure.
+    assert loop_after["phase_margin_deg"] == pytest.approx(own.remedy.margin_deg, abs=0.5)
+    # The load's own figures barely move: the inductor is a few milliohms at 1 kHz.
+    assert after["output"]["clip_power_w"] == pytest.approx(
+        data["output"]["clip_power_w"], rel=0.02
+    )

@@ -77,6 +77,10 @@ class CascadeView:
         return stage, KINDS[stage.kind]
 
     @property
+    def band_hz(self) -> tuple[float, float]:
+        return self.loops.chain.settings.band
+
+    @property
     def last_index(self) -> int:
         return len(self.cascade.stages) - 1
 

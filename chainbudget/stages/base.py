@@ -226,6 +226,11 @@ class StageContext(Protocol):
         ...
 
     @property
+    def band_hz(self) -> tuple[float, float]:
+        """The chain's band, Hz."""
+        ...
+
+    @property
     def last_index(self) -> int:
         """The index of the stage that drives the load."""
         ...

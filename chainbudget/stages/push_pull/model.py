@@ -4,22 +4,26 @@ from __future__ import annotations
 
 import math
 import re
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 from typing import Any
 
-from numpy.typing import ArrayLike
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
 
 from chainbudget import fields as f
 from chainbudget import units
+from chainbudget.eseries import nearest, values_between
 from chainbudget.finding import Finding
 from chainbudget.kindfigures import KindFigures
 from chainbudget.loudspeaker import INDUCTANCE
-from chainbudget.network import GROUND, Netlist, Ref, node_ref
+from chainbudget.network import GROUND, Complex, Netlist, Ref, node_ref
+from chainbudget.notation import eng
 from chainbudget.parts import Transistor
 from chainbudget.stages.base import (
     RAIL_FIELDS,
     Built,
     Environment,
+    Isolation,
     Limit,
     NodeFacts,
     OwnParts,
@@ -193,6 +197,32 @@ class PushPull(StageKind):
         networked = v.get("output_cap") is not None or v.get("output_inductor") is not None
         return f"{stage.name}.pair" if networked else node_out
 
+    def isolation_options(self, stage: Stage, load_ohm: float) -> tuple[Isolation, ...]:
+        """An output inductor (E6, 1 to 22 uH) with a damping resistor across it and a Zobel
+        network at the pair, when the stage has neither: the resistors the E12 value nearest
+        the nominal load, the Zobel capacitor the E6 value nearest L/R^2 (the Zobel that
+        makes the network a constant resistance, Zobel, Bell Syst. Tech. J. 2 (1923) 1,
+        from memory)."""
+        v = stage.values
+        if v.get("output_inductor") is not None or v.get("zobel_resistor") is not None:
+            return ()
+        r = nearest(load_ohm, "E12")
+        found = []
+        for inductance in values_between("E6", 1e-6, 22e-6):
+            c = nearest(float(inductance) / (r * r), "E6")
+            found.append(
+                Isolation(
+                    {
+                        "output_inductor": eng(float(inductance), "H"),
+                        "inductor_damping": eng(r, "ohm"),
+                        "zobel_resistor": eng(r, "ohm"),
+                        "zobel_cap": eng(c, "F"),
+                    },
+                    _isolated(float(inductance), r, r, c),
+                )
+            )
+        return tuple(found)
+
     def output_capacitor(self, stage: Stage) -> float | None:
         return stage.optional("output_cap")
 
@@ -341,3 +371,19 @@ def _stamp_output_network(
         damping = stage.optional("inductor_damping")
         if damping is not None:
             own.resistor("inductor_damping", node, node_out, damping)
+
+
+def _isolated(
+    inductance: float, damping: float, zobel_r: float, zobel_c: float
+) -> Callable[[NDArray[np.float64], Complex], Complex]:
+    """The impedance at the pair through an inductor (damped) to the load, with a Zobel
+    network across the pair."""
+
+    def impedance(frequency: NDArray[np.float64], z_load: Complex) -> Complex:
+        s = 2j * np.pi * frequency
+        coil = s * inductance * damping / (s * inductance + damping)
+        zobel = zobel_r + 1.0 / (s * zobel_c)
+        series = coil + z_load
+        return np.asarray(series * zobel / (series + zobel), dtype=complex)
+
+    return impedance
