@@ -62,3 +62,11 @@ PHASE_MARGIN_ERROR_DEG = 20.0
 #: A remedy is chosen to give at least this much margin, a few degrees above the warning so
 #: that the parts' tolerances keep it clear (ours).
 PHASE_MARGIN_TARGET_DEG = 50.0
+
+# --- output stage bias -------------------------------------------------------------------
+#: A quiescent current under half Oliver's optimum (I_q R_E = V_T) leaves a gain dip through
+#: crossover; over twice it, both halves conduct over a wide region and the gain rises there
+#: instead ("gm doubling"), with more idle heat (ours: a factor of two either way, where the
+#: distortion of the static transfer has roughly doubled).
+QUIESCENT_LOW_FRACTION = 0.5
+QUIESCENT_HIGH_FRACTION = 2.0

@@ -77,6 +77,10 @@ class CascadeView:
         return stage, KINDS[stage.kind]
 
     @property
+    def reference_hz(self) -> float:
+        return self.loops.chain.settings.reference
+
+    @property
     def band_hz(self) -> tuple[float, float]:
         return self.loops.chain.settings.band
 

@@ -226,6 +226,11 @@ class StageContext(Protocol):
         ...
 
     @property
+    def reference_hz(self) -> float:
+        """The chain's reference frequency, Hz."""
+        ...
+
+    @property
     def band_hz(self) -> tuple[float, float]:
         """The chain's band, Hz."""
         ...

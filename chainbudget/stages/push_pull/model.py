@@ -32,10 +32,16 @@ from chainbudget.stages.base import (
     StageKind,
 )
 from chainbudget.stages.hybrid_pi import stamp_transistor, transistor_problems
+from chainbudget.stages.push_pull.crossover import Crossover, crossover_figures
 from chainbudget.stages.push_pull.drive import HandOver, OutputBias, hand_over, output_bias
 from chainbudget.stages.push_pull.halves import halves, idle_models, push_pull_model
 from chainbudget.stages.push_pull.heat import Dissipation, push_pull_dissipation
-from chainbudget.stages.push_pull.rules import bias_rules, drive_rules, heat_rules
+from chainbudget.stages.push_pull.rules import (
+    bias_rules,
+    crossover_rules,
+    drive_rules,
+    heat_rules,
+)
 from chainbudget.units import UnitParseError
 
 #: Probe of the conducting half's output current (half-sine pulses from each rail).
@@ -233,6 +239,7 @@ class PushPull(StageKind):
         if drive is not None:
             found.append(drive)
         found.append(output_bias(context, self.output_capacitor(context.stage)))
+        found.append(crossover_figures(context))
         if context.is_last:
             found.append(push_pull_dissipation(context))
         return tuple(found)
@@ -246,6 +253,8 @@ class PushPull(StageKind):
                 found += bias_rules(facts.stage, own)
             elif isinstance(own, Dissipation):
                 found += heat_rules(own)
+            elif isinstance(own, Crossover):
+                found += crossover_rules(own)
         return found
 
     def output_defined(self, stage: Stage) -> bool:

@@ -5,9 +5,15 @@ from __future__ import annotations
 
 from chainbudget.finding import Finding
 from chainbudget.notation import amps, watts
+from chainbudget.stages.push_pull.crossover import Crossover
 from chainbudget.stages.push_pull.drive import HandOver, OutputBias
 from chainbudget.stages.push_pull.heat import Dissipation
-from chainbudget.thresholds import DRIVE_MARGIN, JUNCTION_MARGIN_K
+from chainbudget.thresholds import (
+    DRIVE_MARGIN,
+    JUNCTION_MARGIN_K,
+    QUIESCENT_HIGH_FRACTION,
+    QUIESCENT_LOW_FRACTION,
+)
 
 
 def drive_rules(h: HandOver) -> list[Finding]:
@@ -159,6 +165,56 @@ def _thermal(d: Dissipation) -> list[Finding]:
                 f"output device junction reaches {d.junction_degc:.0f} degC at the worst sine "
                 f"level ({watts(d.worst_device_w)} per device), within {JUNCTION_MARGIN_K:g} K "
                 f"of its {d.max_junction_degc:g} degC maximum{sink}",
+                figures,
+            )
+        ]
+    return []
+
+
+def crossover_rules(c: Crossover) -> list[Finding]:
+    """The quiescent current far from Oliver's optimum I_q R_E = V_T (B. M. Oliver,
+    "Distortion in complementary-pair class-B amplifiers", Hewlett-Packard Journal, Feb.
+    1971): under it the gain dips through crossover, over it the gain rises there."""
+    optimum = c.optimum_quiescent_a
+    if optimum is None:
+        return []
+    figures: dict[str, float | None] = {
+        "quiescent_a": c.quiescent_a,
+        "optimum_quiescent_a": optimum,
+        "idle_zout_ohm": c.idle_zout_ohm,
+        "zout_ohm": c.zout_ohm,
+        "gain_step_db": c.gain_step_db,
+    }
+    where = " (closed loop)" if c.in_loop else ""
+    distortion = "" if c.thd_nominal is None else f"; THD {c.thd_nominal} at the nominal level"
+    if c.quiescent_a < QUIESCENT_LOW_FRACTION * optimum:
+        return [
+            Finding(
+                "warning",
+                "quiescent-low",
+                c.stage,
+                f"its quiescent current of {amps(c.quiescent_a)} is "
+                f"{c.quiescent_a / optimum:.2g} of the optimum for its emitter resistors, "
+                f"I_q R_E = V_T, about {amps(optimum)} (Oliver, HP Journal, Feb. 1971): the "
+                f"output impedance is {c.idle_zout_ohm:.3g} ohm at idle against "
+                f"{c.zout_ohm:.3g} ohm in conduction{where}, a gain step of "
+                f"{c.gain_step_db:+.2f} dB through crossover{distortion}; raise quiescent "
+                "towards the optimum (and check the heat again)",
+                figures,
+            )
+        ]
+    if c.quiescent_a > QUIESCENT_HIGH_FRACTION * optimum:
+        return [
+            Finding(
+                "note",
+                "quiescent-high",
+                c.stage,
+                f"its quiescent current of {amps(c.quiescent_a)} is "
+                f"{c.quiescent_a / optimum:.2g} times the optimum for its emitter resistors, "
+                f"I_q R_E = V_T, about {amps(optimum)} (Oliver, HP Journal, Feb. 1971): both "
+                "halves conduct over a wide region and the gain rises there "
+                f"({c.gain_step_db:+.2f} dB at idle{where}), and the idle heat is higher "
+                "than it needs to be",
                 figures,
             )
         ]
