@@ -70,3 +70,6 @@ PHASE_MARGIN_TARGET_DEG = 50.0
 #: distortion of the static transfer has roughly doubled).
 QUIESCENT_LOW_FRACTION = 0.5
 QUIESCENT_HIGH_FRACTION = 2.0
+#: A quiescent current that more than doubles as the heatsink warms is worth knowing: the
+#: idle heat and the crossover figures move with it (ours).
+QUIESCENT_CLIMB_FACTOR = 2.0

@@ -24,9 +24,12 @@ class Dissipation(KindFigures):
 
     Device figures are for the hotter of the two output devices; ``levels_vpk``,
     ``supply_w`` and ``device_w`` tabulate them from idle to the chain's clip level.
-    ``junction_degc`` is at the worst continuous sine level (``worst_vpk``); ``None`` when
-    the thermal path is not given. ``max_heatsink_k_per_w`` is the largest heatsink
-    (theta_sa) that keeps the junction at ``max_junction_degc`` at that level.
+    ``load_abs_ohm`` and ``load_phase_deg`` are the load's impedance there (with a driver's
+    Thiele-Small impedance or a cable capacitance, at the frequency in the band where the
+    dissipation is worst). ``junction_degc`` is at the worst continuous sine level
+    (``worst_vpk``); ``None`` when the thermal path is not given. ``max_heatsink_k_per_w``
+    is the largest heatsink (theta_sa) that keeps the junction at ``max_junction_degc`` at
+    that level.
     """
 
     title = "power and heat per output device"
@@ -37,6 +40,7 @@ class Dissipation(KindFigures):
     rail_lower_v: float = figure("high-line rail, lower half", "V")
     quiescent_a: float = figure("quiescent current", "A")
     load_phase_deg: float = figure("load phase", "deg")
+    load_abs_ohm: float = figure()
     levels_vpk: tuple[float, ...] = figure()
     supply_w: tuple[float, ...] = figure()
     device_w: tuple[float, ...] = figure()
@@ -158,6 +162,7 @@ def push_pull_dissipation(context: StageContext) -> Dissipation:
         rail_lower_v=lower.rail_v,
         quiescent_a=i_q,
         load_phase_deg=float(np.degrees(phase)),
+        load_abs_ohm=float(abs(z)),
         levels_vpk=tuple(float(v) for v in levels),
         supply_w=tuple(float(p) for p in supply),
         device_w=tuple(float(p) for p in curve),

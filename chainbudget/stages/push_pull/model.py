@@ -41,7 +41,9 @@ from chainbudget.stages.push_pull.rules import (
     crossover_rules,
     drive_rules,
     heat_rules,
+    thermal_loop_rules,
 )
+from chainbudget.stages.push_pull.thermal_loop import ThermalBias, thermal_bias
 from chainbudget.units import UnitParseError
 
 #: Probe of the conducting half's output current (half-sine pulses from each rail).
@@ -241,7 +243,8 @@ class PushPull(StageKind):
         found.append(output_bias(context, self.output_capacitor(context.stage)))
         found.append(crossover_figures(context))
         if context.is_last:
-            found.append(push_pull_dissipation(context))
+            heat = push_pull_dissipation(context)
+            found += [heat, thermal_bias(context, heat)]
         return tuple(found)
 
     def rules(self, figures: tuple[KindFigures, ...], facts: NodeFacts) -> list[Finding]:
@@ -255,6 +258,8 @@ class PushPull(StageKind):
                 found += heat_rules(own)
             elif isinstance(own, Crossover):
                 found += crossover_rules(own)
+            elif isinstance(own, ThermalBias):
+                found += thermal_loop_rules(own)
         return found
 
     def output_defined(self, stage: Stage) -> bool:

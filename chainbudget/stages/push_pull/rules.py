@@ -8,9 +8,11 @@ from chainbudget.notation import amps, watts
 from chainbudget.stages.push_pull.crossover import Crossover
 from chainbudget.stages.push_pull.drive import HandOver, OutputBias
 from chainbudget.stages.push_pull.heat import Dissipation
+from chainbudget.stages.push_pull.thermal_loop import VBE_TEMPCO_V_PER_K, ThermalBias
 from chainbudget.thresholds import (
     DRIVE_MARGIN,
     JUNCTION_MARGIN_K,
+    QUIESCENT_CLIMB_FACTOR,
     QUIESCENT_HIGH_FRACTION,
     QUIESCENT_LOW_FRACTION,
 )
@@ -216,6 +218,60 @@ def crossover_rules(c: Crossover) -> list[Finding]:
                 f"({c.gain_step_db:+.2f} dB at idle{where}), and the idle heat is higher "
                 "than it needs to be",
                 figures,
+            )
+        ]
+    return []
+
+
+def thermal_loop_rules(t: ThermalBias) -> list[Finding]:
+    """Thermal runaway of the bias (error, with what stops it), or a quiescent current that
+    more than doubles running hot (note)."""
+    figures: dict[str, float | None] = {
+        "quiescent_a": t.quiescent_a,
+        "quiescent_hot_a": t.quiescent_hot_a,
+        "spreader_tracking": t.spreader_tracking,
+    }
+    tempco = abs(VBE_TEMPCO_V_PER_K) * 1e3
+    if t.thermal_runaway:
+        fixes = []
+        extra = max(t.stable_r_ohm - t.pair_r_ohm, 0.0) / 2.0
+        fixes.append(
+            f"more emitter resistance (each at least {t.emitter_resistor_ohm + extra:.2g} ohm "
+            "keeps it stable at any current)"
+        )
+        if t.stable_tracking is not None:
+            fixes.append(
+                f"better tracking (the spreader following at least "
+                f"{100.0 * t.stable_tracking:.0f} % of the devices' V_BE: mount it on the "
+                "heatsink beside them)"
+            )
+        fixes.append("a smaller heatsink theta")
+        return [
+            Finding(
+                "error",
+                "thermal-runaway",
+                t.stage,
+                f"the quiescent current runs away as the output devices warm: their V_BE falls "
+                f"by about {tempco:.0f} mV/K and the bias spreader follows "
+                f"{100.0 * t.spreader_tracking:.0f} % of that, so each kelvin asks for more "
+                "current, which heats them further, with no stable point below the junction's "
+                f"maximum; {', '.join(fixes)}",
+                {**figures, "stable_tracking": t.stable_tracking},
+            )
+        ]
+    hot = t.quiescent_hot_a
+    if hot is not None and hot > QUIESCENT_CLIMB_FACTOR * t.quiescent_a:
+        return [
+            Finding(
+                "note",
+                "quiescent-climbs",
+                t.stage,
+                f"its quiescent current climbs from {amps(t.quiescent_a)} to {amps(hot)} with "
+                f"the heatsink at its running temperature (the junction near "
+                f"{t.junction_hot_degc or 0.0:.0f} degC; the spreader follows "
+                f"{100.0 * t.spreader_tracking:.0f} % of the output devices' V_BE): set the "
+                "quiescent warm, or track the devices more closely (spreader on the heatsink)",
+                {**figures, "junction_hot_degc": t.junction_hot_degc},
             )
         ]
     return []
