@@ -232,3 +232,41 @@ def _loop_points(analysis: Analysis, section: Section, dc_in: float | None) -> l
         )
         node_in = node
     return points
+
+
+def dc_errors(analysis: Analysis) -> tuple[float | None, ...]:
+    """Worst-case DC error at each stage's output node from the op-amps' offset voltages and
+    bias currents (and a pair's V_BE difference), V (None: unknown).
+
+    Notes
+    -----
+    Each stage maps the error at its input to its output (`StageKind.dc_error`): through
+    its DC gain, plus its own; an output capacitor stops it. A loop section's first stage
+    gives the error at the sensed node, its loop gain taking out what the stages inside
+    add (their V_BE differences divided by A0 beta); the nodes inside are left unknown.
+    """
+    stages, envs = analysis.chain.stages, analysis.envs
+    found: list[float | None] = []
+    error: float | None = 0.0  # the source sits at 0 V DC, exactly
+    for section in sections(stages):
+        head = section.first
+        error = KINDS[stages[head].kind].dc_error(stages[head], envs[head], error)
+        if section.is_loop:
+            last = stages[section.last]
+            kind = KINDS[last.kind]
+            if kind.sense_node(last, "out") != "out" and not kind.output_defined(last):
+                error = 0.0  # sensed before its output capacitor: the load sees none of it
+            found += [None] * (section.last - section.first)
+        found.append(error)
+    return tuple(found)
+
+
+def load_offset(analysis: Analysis) -> float | None:
+    """Worst-case DC across the load, V: the DC the chain puts there as built (V_BE drops,
+    bias points; `dc_points`) plus the worst-case error of `dc_errors` (None: unknown)."""
+    points = dc_points(analysis)
+    node = points[-1].node_v if points else None
+    error = dc_errors(analysis)[-1]
+    if node is None or error is None:
+        return None
+    return abs(node) + error

@@ -23,6 +23,7 @@ from numpy.typing import ArrayLike, NDArray
 
 from chainbudget import outputmath as om
 from chainbudget.budget.analysis import Analysis
+from chainbudget.budget.dcbias import load_offset
 from chainbudget.budget.levels import SQRT2, clip_source_peak
 from chainbudget.cascade import Cascade
 from chainbudget.chainfile import Chain
@@ -59,6 +60,8 @@ class OutputFigures:
     output_cap_f: float | None
     output_cap_corner_hz: float | None
     power_stage: bool
+    #: Worst-case DC across the load, V (`chainbudget.budget.dcbias.load_offset`).
+    offset_v: float | None = None
 
 
 @dataclass(frozen=True)
@@ -161,6 +164,7 @@ def output_figures(analysis: Analysis) -> OutputFigures:
         output_cap_f=output_cap,
         output_cap_corner_hz=corner,
         power_stage=last_kind.power_stage,
+        offset_v=load_offset(analysis),
     )
 
 

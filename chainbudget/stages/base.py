@@ -400,6 +400,23 @@ class StageKind(ABC):
         stage with no active output of its own to check."""
         return None
 
+    def dc_error(self, stage: Stage, env: Environment, error_in: float | None) -> float | None:
+        """Worst-case DC error at the output, V (a magnitude), with ``error_in`` the worst-case
+        DC error at its input (None: unknown).
+
+        The default carries the input's error through the stage's DC gain (the slope of
+        `dc_output`, an affine map for every kind here) and adds nothing of its own; behind
+        an output capacitor it is 0. Kinds with an op-amp add its offset voltage and bias
+        currents."""
+        if not self.output_defined(stage):
+            return 0.0
+        if error_in is None:
+            return None
+        low, high = self.dc_output(stage, env, 0.0), self.dc_output(stage, env, 1.0)
+        if low is None or high is None:
+            return None
+        return abs(high - low) * error_in
+
     def pot_dc(self, stage: Stage, dc_in: float | None) -> float | None:
         """DC at the upper end of a pot whose lower end returns to 0 V, V; None: no such pot
         or unknown."""

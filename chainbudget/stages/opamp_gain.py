@@ -28,6 +28,7 @@ from chainbudget.stages.base import (
     StageKind,
     inverting_dc_output,
     opamp_dc_window,
+    opamp_part,
     stamp_opamp,
 )
 from chainbudget.stages.opamp_loop import GlobalLoop, OwnLoop, loop_figures, loop_rules
@@ -203,6 +204,39 @@ class OpAmpGain(StageKind):
         if coupled:
             return rails.bias
         return inverting_dc_output(env, stage.number("feedback") / stage.number("input"), dc_in)
+
+    def dc_error(self, stage: Stage, env: Environment, error_in: float | None) -> float | None:
+        """Worst-case DC error at the output (at the sensed stage's, inside a loop), V.
+
+        Notes
+        -----
+        The input's error through the stage's DC gain, plus the op-amp's own: offset
+        voltage times the DC noise gain, and each input's bias current through the DC
+        resistance it meets, signs taken at their worst:
+        |V_os| G_n + I_b (R_f + G_n R_+) (Franco, Design with Operational Amplifiers, 4th
+        ed., sec. 5.1-5.2, input offset error, from memory). Non-inverting: G_n = 1 + R_f/R_g,
+        or 1 with ``ground_cap`` (a capacitor in the ground leg gives unity DC gain); R_+ the
+        ``bias_resistor`` behind ``input_cap`` (0 for a DC-coupled input, the stage before
+        taken as stiff). Inverting: G_n = 1 + R_f/R_i, or 1 behind ``input_cap``; R_+ = 0.
+        """
+        carried = super().dc_error(stage, env, error_in)
+        if carried is None:
+            return None
+        part = opamp_part(stage, env)
+        feedback = stage.number("feedback")
+        coupled = stage.values.get("input_cap") is not None
+        if stage.values["topology"] == "non-inverting":
+            gain = 1.0
+            if stage.values.get("ground_cap") is None:
+                gain += feedback / stage.number("ground_leg")
+            plus = stage.optional("bias_resistor") if coupled else 0.0
+            if plus is None:
+                return None  # a floating input: its own finding says so
+        else:
+            gain = 1.0 if coupled else 1.0 + feedback / stage.number("input")
+            plus = 0.0
+        own = part.offset_voltage * gain + part.bias_current * (feedback + gain * plus)
+        return carried + own
 
     def dc_rest(self, stage: Stage, env: Environment) -> float | None:
         """A DC-coupled input rests at the bias point through ``bias_resistor`` (non-inverting)

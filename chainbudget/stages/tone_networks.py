@@ -37,6 +37,7 @@ from chainbudget.stages.base import (
     StageKind,
     inverting_dc_output,
     opamp_dc_window,
+    opamp_part,
     stamp_opamp,
     taper_fraction,
 )
@@ -211,6 +212,14 @@ class FeedbackTone(StageKind):
         """V_b + G_dc (V_b - V_in): an inverting stage with its + input at the bias point
         (`inverting_dc_output`); no input capacitor, so its input's DC always counts."""
         return inverting_dc_output(env, self.dc_gain(stage), dc_in)
+
+    def dc_error(self, stage: Stage, env: Environment, error_in: float | None) -> float | None:
+        """The input's error times the DC gain G, plus the op-amp's offset voltage times the
+        noise gain 1 + G (its bias currents' share is left out here)."""
+        carried = super().dc_error(stage, env, error_in)
+        if carried is None:
+            return None
+        return carried + opamp_part(stage, env).offset_voltage * (1.0 + self.dc_gain(stage))
 
     def dc_rest(self, stage: Stage, env: Environment) -> float | None:
         """The input rests at the summing node's potential, the bias point."""

@@ -33,8 +33,15 @@ from chainbudget.stages.base import (
 )
 from chainbudget.stages.hybrid_pi import stamp_transistor, transistor_problems
 from chainbudget.stages.push_pull.crossover import Crossover, crossover_figures
-from chainbudget.stages.push_pull.drive import HandOver, OutputBias, hand_over, output_bias
-from chainbudget.stages.push_pull.halves import halves, idle_models, push_pull_model
+from chainbudget.stages.push_pull.drive import (
+    HandOver,
+    OutputBias,
+    TurnOn,
+    hand_over,
+    output_bias,
+    turn_on,
+)
+from chainbudget.stages.push_pull.halves import Half, halves, idle_models, push_pull_model
 from chainbudget.stages.push_pull.heat import Dissipation, push_pull_dissipation
 from chainbudget.stages.push_pull.rules import (
     bias_rules,
@@ -42,6 +49,7 @@ from chainbudget.stages.push_pull.rules import (
     drive_rules,
     heat_rules,
     thermal_loop_rules,
+    turn_on_rules,
 )
 from chainbudget.stages.push_pull.thermal_loop import ThermalBias, thermal_bias
 from chainbudget.units import UnitParseError
@@ -245,6 +253,9 @@ class PushPull(StageKind):
         if context.is_last:
             heat = push_pull_dissipation(context)
             found += [heat, thermal_bias(context, heat)]
+            switch_on = turn_on(context, self.output_capacitor(context.stage))
+            if switch_on is not None:
+                found.append(switch_on)
         return tuple(found)
 
     def rules(self, figures: tuple[KindFigures, ...], facts: NodeFacts) -> list[Finding]:
@@ -260,6 +271,8 @@ class PushPull(StageKind):
                 found += crossover_rules(own)
             elif isinstance(own, ThermalBias):
                 found += thermal_loop_rules(own)
+            elif isinstance(own, TurnOn):
+                found += turn_on_rules(own)
         return found
 
     def output_defined(self, stage: Stage) -> bool:
@@ -275,6 +288,20 @@ class PushPull(StageKind):
         if stage.values.get("output_cap") is not None or dc_in is None:
             return env.rails.bias
         return dc_in
+
+    def dc_error(self, stage: Stage, env: Environment, error_in: float | None) -> float | None:
+        """The drive's error, plus half the difference of the two halves' V_BE chains: with
+        the spreader centred on the drive the pair settles where the halves balance, halfway
+        between (by symmetry; V_BE as the parts give it). Behind ``output_cap``: 0."""
+        carried = super().dc_error(stage, env, error_in)
+        if carried is None or stage.values.get("output_cap") is not None:
+            return carried
+        upper, lower = halves(stage, env)
+
+        def chain_v(half: Half) -> float:
+            return half.output.vbe + (0.0 if half.driver is None else half.driver.vbe)
+
+        return carried + abs(chain_v(upper) - chain_v(lower)) / 2.0
 
     def supply_current(self, stage: Stage, env: Environment) -> float:
         """The quiescent current, which flows from rail to rail through both devices."""

@@ -6,7 +6,7 @@ from __future__ import annotations
 from chainbudget.finding import Finding
 from chainbudget.notation import amps, watts
 from chainbudget.stages.push_pull.crossover import Crossover
-from chainbudget.stages.push_pull.drive import HandOver, OutputBias
+from chainbudget.stages.push_pull.drive import HandOver, OutputBias, TurnOn
 from chainbudget.stages.push_pull.heat import Dissipation
 from chainbudget.stages.push_pull.thermal_loop import VBE_TEMPCO_V_PER_K, ThermalBias
 from chainbudget.thresholds import (
@@ -275,3 +275,20 @@ def thermal_loop_rules(t: ThermalBias) -> list[Finding]:
             )
         ]
     return []
+
+
+def turn_on_rules(t: TurnOn) -> list[Finding]:
+    """The switch-on thump of a single-supply stage's output capacitor (note)."""
+    return [
+        Finding(
+            "note",
+            "turn-on-thump",
+            t.stage,
+            f"at switch-on the mid-point rises to {t.mid_v:.3g} V and the output capacitor "
+            f"charges to it through the loudspeaker: up to {amps(t.peak_a)} peak and "
+            f"{t.energy_j * 1e3:.3g} mJ stored (as much again spent in the voice coil), a "
+            "thump; ramp the bias up slowly (a larger capacitor on the bias divider, a "
+            "soft-start), or hold the speaker off with a relay for the first second",
+            {"mid_v": t.mid_v, "energy_j": t.energy_j, "peak_a": t.peak_a},
+        )
+    ]
