@@ -469,3 +469,26 @@ def test_a_capacitive_load_without_isolation_and_its_remedy(tmp_path: Path) -> N
     assert after["output"]["clip_power_w"] == pytest.approx(
         data["output"]["clip_power_w"], rel=0.02
     )
+
+
+def test_the_bench_example_shows_the_output_stage_as_built() -> None:
+    """The example with the output stage inside the op-amp's loop: its loop figures, THD at
+    the three levels, the offset at the speaker and the quiescent current hot, in the JSON
+    the command prints."""
+    data = check_json(Path(__file__).resolve().parents[1] / "chains" / "bench_amp.toml")
+    (loop,) = data["loop"]
+    assert loop["inside"] == ["output"]
+    for key in ("loop_gain_db", "unity_gain_hz", "phase_margin_deg", "closed_loop_zout_ohm"):
+        assert isinstance(loop[key], float), key
+    assert loop["phase_margin_deg"] > 45.0
+    out = data["output"]
+    assert len(out["thd"]) == 3
+    levels = [entry["level_vrms"] for entry in out["thd"]]
+    assert levels[1] == pytest.approx(math.sqrt(8.0), rel=1e-12)  # 1 W into 8 ohm
+    for entry in out["thd"]:
+        # The loop divides the pair's distortion by its return difference.
+        assert entry["thd_percent"] < entry["open_loop_thd_percent"] / 30.0
+    assert out["damping_factor"] == pytest.approx(loop["damping_factor"], rel=1e-9)
+    assert 0.0 <= out["offset_v"] < 0.05
+    assert out["quiescent_hot_a"] > 0.1 and out["thermal_runaway"] is False
+    assert data["findings"] and all(f["severity"] != "error" for f in data["findings"])

@@ -154,7 +154,8 @@ def harmonics(
     """Distortion of the static transfer at output levels ``levels_vpk`` (peak of the
     fundamental at the load, V).
 
-    ``loop_factor`` is |1 + T(n f)| for n = 1..`HARMONICS` (None: open loop).
+    ``loop_factor`` is |1 + T(n f)| for n = 1..`HARMONICS` (None: open loop); the first
+    entry is not used (the fundamental is the level asked for).
 
     Notes
     -----
@@ -176,8 +177,11 @@ def harmonics(
         drive = drive * np.where(fundamental > 0.0, target / fundamental, 1.0)
     amplitude = np.abs(spectrum[:, 1 : HARMONICS + 1])
     factor = np.ones(HARMONICS) if loop_factor is None else np.asarray(loop_factor, float)
-    closed = amplitude / factor
-    closed = closed * (amplitude[:, :1] / closed[:, :1])  # the level is the level asked for
+    # The fundamental stays the level asked for (the loop supplies the drive for it); each
+    # harmonic the pair generates is divided by the loop's return difference at its own
+    # frequency.
+    closed = amplitude.copy()
+    closed[:, 1:] = amplitude[:, 1:] / factor[1:]
 
     def thd(h: NDArray[np.float64]) -> NDArray[np.float64]:
         return np.asarray(np.sqrt(np.sum(h[:, 1:] ** 2, axis=1)) / h[:, 0])
@@ -220,7 +224,7 @@ class Crossover(KindFigures):
     zout_ohm: float = figure("output impedance, conduction", "ohm")
     idle_zout_ohm: float = figure("output impedance, idle", "ohm", node_key="idle_zout_ohm")
     gain_step_db: float = figure("gain step, idle over conduction", "dB", node_key="gain_step_db")
-    quiescent_a: float = figure("quiescent current", "A")
+    quiescent_a: float = figure()
     optimum_quiescent_a: float | None = figure(
         "optimum quiescent, I_q R_E = V_T", "A", node_key="optimum_quiescent_a"
     )
