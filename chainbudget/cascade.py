@@ -398,9 +398,12 @@ def whole_chain_network(
     frequency: NDArray[np.float64],
     positions: Sequence[Mapping[str, ArrayLike]],
     source_impedance: float,
-    load_impedance: float,
+    load_impedance: ArrayLike,
 ) -> tuple[Netlist, list[str]]:
     """One network of the whole chain, source voltage to load, built by the same stages.
+
+    ``load_impedance`` is in ohm, a number or an array on the frequency axis (a
+    loudspeaker's impedance, `chainbudget.loudspeaker.load_impedance`).
 
     Returns the netlist (a 1 V source named ``source`` drives node ``src``) and the names of
     the stage output nodes. Used to check the cascade, and for the noise of the whole chain.
@@ -422,5 +425,5 @@ def whole_chain_network(
         KINDS[stage.kind].build(net, stage, env, node, out, pos)
         outs.append(out)
         node = out
-    net.resistor(node, "0", load_impedance, label="load")
+    net.admittance(node, GROUND, 1.0 / np.asarray(load_impedance, dtype=complex))
     return net, outs

@@ -33,6 +33,7 @@ from chainbudget.chainfile import Chain, load_chain, parse_chain
 from chainbudget.cli import app
 from chainbudget.findings import findings
 from chainbudget.findings.noise import HISS_SPL_A_LIMIT_DB, SNR_MIN_DB
+from chainbudget.loudspeaker import load_impedance
 from chainbudget.weighting import a_weighting
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -300,7 +301,7 @@ def whole_chain_node_psd(chain: Chain) -> np.ndarray:
         a.frequency,
         positions_as_set(chain.stages),
         chain.source.impedance,
-        chain.load.impedance,
+        load_impedance(chain.load, a.frequency),
     )
     if chain.source.impedance > 0.0:
         psd = 4.0 * BOLTZMANN * a.temperature_k / chain.source.impedance
