@@ -492,3 +492,34 @@ def test_the_bench_example_shows_the_output_stage_as_built() -> None:
     assert 0.0 <= out["offset_v"] < 0.05
     assert out["quiescent_hot_a"] > 0.1 and out["thermal_runaway"] is False
     assert data["findings"] and all(f["severity"] != "error" for f in data["findings"])
+
+
+def test_an_opamp_driving_a_cable_directly_and_its_isolating_resistor(tmp_path: Path) -> None:
+    """An op-amp stage into 47 nF: T = A(f) beta Z'/(R_o + Z'), Z' the feedback network,
+    the 10 kohm input and the cable in parallel (the output resistance's divider; Franco,
+    4th ed., sec. 8.x, capacitive loads, from memory), worked here on a fine grid: the
+    tool's margin within 0.2 deg; the isolating resistor it names clears the finding."""
+    path = DATA / "line_driver_cable.toml"
+    budget = compute(parse_chain(tomllib.loads(path.read_text()), str(path)))
+    own = budget.node("line").figures(OwnLoop)
+    assert isinstance(own, OwnLoop) and own.phase_margin_deg is not None
+    f = np.geomspace(1e3, 1e9, 400_001)
+    a = 10 ** (100 / 20) / (1 + 1j * f * 10 ** (100 / 20) / 10e6)  # low_noise_bipolar
+    z = 1.0 / (1.0 / 2e3 + 1.0 / 10e3 + 2j * np.pi * f * 47e-9)
+    t = a * 0.5 * z / (50.0 + z)
+    i = int(np.argmax(np.abs(t) < 1.0))
+    margin = 180.0 + math.degrees(float(np.unwrap(np.angle(t))[i]))
+    assert own.phase_margin_deg == pytest.approx(margin, abs=0.2)
+    assert [(fi.severity, fi.code) for fi in budget.findings if fi.code == "phase-margin"] == [
+        ("error", "phase-margin")
+    ]
+    assert own.remedy is not None
+    ((key, value),) = own.remedy.fields
+    assert key == "isolating_resistor"
+    document = tomllib.loads(path.read_text())
+    document["stage"][0][key] = value
+    fixed = tmp_path / "fixed.toml"
+    fixed.write_text(tomli_w.dumps(document), encoding="utf-8")
+    after = check_json(fixed)
+    assert not [f for f in after["findings"] if f["code"] == "phase-margin"]
+    assert after["nodes"][0]["phase_margin_deg"] == pytest.approx(own.remedy.margin_deg, abs=0.5)

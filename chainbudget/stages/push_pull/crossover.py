@@ -37,10 +37,13 @@ from chainbudget.stages.push_pull.halves import halves
 SAMPLES = 512
 #: Harmonics reported, 2 to this one (the contract's "at least 20").
 HARMONICS = 20
-#: Newton steps (each kept inside a shrinking bracket) of the output per sample.
+#: Newton steps (each kept inside a shrinking bracket) of the output per sample, at most;
+#: they stop when no sample moves by more than `CONVERGED` of the drive's peak.
 NEWTON_STEPS = 40
-#: Drive-amplitude corrections so that the fundamental at the load is the level asked for.
-LEVEL_STEPS = 8
+CONVERGED = 1e-13
+#: Drive-amplitude corrections so that the fundamental at the load is the level asked for,
+#: at most (they stop within `CONVERGED` of it).
+LEVEL_STEPS = 12
 #: Harmonics below this (dB re the fundamental) are rounding, not distortion: the even ones
 #: of a symmetric pair. They are reported as none (null in the JSON).
 HARMONIC_FLOOR_DB = -200.0
@@ -118,6 +121,7 @@ def static_output(
     v = np.asarray(v_in, dtype=float)
     lo, hi = np.minimum(v, 0.0), np.maximum(v, 0.0)
     out = v * r_load / (r_load + 0.5 * (upper.r_ohm + lower.r_ohm))
+    scale = float(np.max(np.abs(v), initial=0.0))
     for _ in range(NEWTON_STEPS):
         i_u = upper.current(v - out, v_t)
         i_l = lower.current(out - v, v_t)
@@ -126,7 +130,11 @@ def static_output(
         hi = np.where(g > 0.0, hi, out)
         slope = upper.slope(i_u, v_t) + lower.slope(i_l, v_t) + 1.0 / r_load
         step = out + g / slope
-        out = np.where((step > lo) & (step < hi), step, 0.5 * (lo + hi))
+        moved = np.where((step > lo) & (step < hi), step, 0.5 * (lo + hi))
+        done = bool(np.all(np.abs(moved - out) <= CONVERGED * scale))
+        out = moved
+        if done:
+            break
     return np.asarray(out)
 
 
@@ -174,7 +182,10 @@ def harmonics(
         out = static_output(drive[:, None] * np.sin(phase), upper, lower, r_load, v_t)
         spectrum = np.fft.rfft(out, axis=-1) * 2.0 / SAMPLES
         fundamental = np.abs(spectrum[:, 1])
-        drive = drive * np.where(fundamental > 0.0, target / fundamental, 1.0)
+        ratio = np.where(fundamental > 0.0, target / fundamental, 1.0)
+        if np.all(np.abs(ratio - 1.0) <= CONVERGED):
+            break
+        drive = drive * ratio
     amplitude = np.abs(spectrum[:, 1 : HARMONICS + 1])
     factor = np.ones(HARMONICS) if loop_factor is None else np.asarray(loop_factor, float)
     # The fundamental stays the level asked for (the loop supplies the drive for it); each
