@@ -77,7 +77,7 @@ class GlobalLoop(KindFigures):
     damping_factor: float | None = figure("damping factor at the load")
     idle_closed_loop_zout_ohm: float = figure("closed-loop output impedance, idle", "ohm")
     idle_damping_factor: float | None = figure("damping factor, idle")
-    idle_gain_step_db: float = figure("closed-loop gain step, idle to conduction", "dB")
+    idle_gain_step_db: float = figure("closed-loop gain step, idle over conduction", "dB")
     remedy: Remedy | None = figure()
 
     def as_json(self) -> dict[str, object]:

@@ -224,8 +224,8 @@ class Crossover(KindFigures):
     (the modelled half at its conduction current) and at idle (both halves at I_q); inside
     a loop those are the closed loop's. ``optimum_quiescent_a`` is Oliver's V_T/R_E.
     ``thd`` holds, for the output stage driving the load, the distortion at the nominal
-    level, 1 W and 1 dB below clip (the contract's ``output.thd``; a level the stage cannot
-    reach is left out).
+    level, 1 W and 1 dB below the chain's clip (the contract's ``output.thd``; a level the
+    chain cannot reach is left out).
     """
 
     title = "crossover and bias"
@@ -279,11 +279,17 @@ def crossover_figures(context: StageContext) -> Crossover:
 def _distortion(
     context: StageContext, v_t: float, in_loop: bool, first: int
 ) -> tuple[list[Distortion], list[str | None], list[dict[str, Any]]]:
-    """Distortion at the nominal level, 1 W and 1 dB below the stage's clip level."""
+    """Distortion at the nominal level, 1 W and 1 dB below the chain's clip level (the
+    first stage to reach its limit, the controls as set)."""
     k = context.index
     r_load = context.load_ohm
-    clip = context.source_clip(k)
-    clip_vpk = None if clip is None else clip[0] * context.gain(k)
+    # The chain's clip with the controls as set: the first stage to reach its limit.
+    peaks = [
+        found[0]
+        for j in range(context.last_index + 1)
+        if (found := context.source_clip(j)) is not None
+    ]
+    clip_vpk = min(peaks) * context.gain(k) if peaks else None
     wanted = [context.output_nominal_vpk, float(np.sqrt(2.0 * r_load))]
     if clip_vpk is not None:
         wanted.append(clip_vpk * 10.0 ** (-BELOW_CLIP_DB / 20.0))
