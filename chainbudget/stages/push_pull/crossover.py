@@ -284,11 +284,8 @@ def _distortion(
     k = context.index
     r_load = context.load_ohm
     # The chain's clip with the controls as set: the first stage to reach its limit.
-    peaks = [
-        found[0]
-        for j in range(context.last_index + 1)
-        if (found := context.source_clip(j)) is not None
-    ]
+    clips = [context.source_clip(j) for j in range(context.last_index + 1)]
+    peaks = [clip[0] for clip in clips if clip is not None]
     clip_vpk = min(peaks) * context.gain(k) if peaks else None
     wanted = [context.output_nominal_vpk, float(np.sqrt(2.0 * r_load))]
     if clip_vpk is not None:
