@@ -19,6 +19,8 @@ from typing import Any
 from chainbudget import ChainError  # the base; importable from here as before
 from chainbudget import fields as f
 from chainbudget.fields import suggest
+from chainbudget.loops import loop_problems
+from chainbudget.loudspeaker import LOUDSPEAKER_FIELDS, load_problems
 from chainbudget.parts import (
     GENERIC_OPAMPS,
     GENERIC_TRANSISTORS,
@@ -63,6 +65,7 @@ SOURCE_FIELDS = (
 LOAD_FIELDS = (
     f.Field("impedance", f.RESISTANCE, "nominal load (loudspeaker) impedance"),
     f.Field("sensitivity", f.DECIBELS, "SPL at 1 m for 1 W (enables SPL figures)", None),
+    *LOUDSPEAKER_FIELDS,
 )
 TOP_TABLES = ("chain", "source", "load", "opamp", "transistor", "supply", "stage")
 
@@ -89,10 +92,18 @@ class Source:
 
 @dataclass(frozen=True)
 class Load:
-    """The loudspeaker: impedance ohm, sensitivity dB SPL at 1 m for 1 W (or None)."""
+    """The loudspeaker: nominal impedance ohm, sensitivity dB SPL at 1 m for 1 W (or None);
+    optionally the capacitance across it (F) and its Thiele-Small parameters (ohm, H, Hz),
+    which make it `chainbudget.loudspeaker.load_impedance` at every frequency."""
 
     impedance: float
     sensitivity: float | None
+    capacitance: float | None = None
+    re: float | None = None
+    le: float | None = None
+    fs: float | None = None
+    qes: float | None = None
+    qms: float | None = None
 
 
 @dataclass(frozen=True)
@@ -430,12 +441,16 @@ def parse_chain(data: Mapping[str, Any], file: str) -> Chain:
     if "load" not in data:
         raise reader.error("load", "missing required table [load]")
     load_values = reader.read(reader.table(data["load"], "load"), LOAD_FIELDS, "load")
+    for key, message in load_problems(load_values):
+        raise reader.error(f"load.{key}", message)
     opamps = _parts(reader, data, "opamp", OPAMP_FIELDS, OpAmp, GENERIC_OPAMPS)
     transistors = _parts(
         reader, data, "transistor", TRANSISTOR_FIELDS, Transistor, GENERIC_TRANSISTORS
     )
     supplies = _supplies(reader, data)
     stages = _stages(reader, data, supplies, opamps, transistors)
+    for index, key, message in loop_problems(stages):
+        raise reader.error(f"{stages[index].path}.{key}", message)
     return Chain(
         file=file,
         settings=settings,

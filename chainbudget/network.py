@@ -178,6 +178,10 @@ class Netlist:
         """A capacitor, admittance s*C."""
         self.admittance(a, b, self.s * np.asarray(capacitance, dtype=float))
 
+    def inductor(self, a: str, b: str, inductance: ArrayLike) -> None:
+        """An inductor, admittance 1/(s*L) (the axes never include DC)."""
+        self.admittance(a, b, 1.0 / (self.s * np.asarray(inductance, dtype=float)))
+
     def pot(
         self,
         upper: str,
@@ -252,29 +256,36 @@ class Netlist:
         gbw: float,
         output_resistance: float,
         label: str,
+        second_pole: float | None = None,
     ) -> Ref:
-        """An op-amp: single-pole open-loop gain behind an output resistance.
+        """An op-amp: dominant-pole open-loop gain (with an optional second pole) behind an
+        output resistance.
 
         Returns its branch reference (see `vcvs`); its input voltage noise enters there.
 
         Notes
         -----
-        A(s) = A0 / (1 + s/w_p) with w_p = 2 pi GBW / A0, so |A| falls through 1 near GBW
-        (the dominant-pole model: Franco, Design with Operational Amplifiers and Analog
-        Integrated Circuits, 4th ed., sec. 6.1). The output is an ideal source A(s)(v+ - v-)
-        in series with the open-loop output resistance R_o. The branch current of the source
-        (named ``label``) is minus the op-amp's output current. R_o = 0 is stamped as
-        ``SOURCE_FLOOR_OHM``.
+        A(s) = A0 / (1 + s/w_p) / (1 + s/w_2) with w_p = 2 pi GBW / A0, so |A| falls
+        through 1 near GBW (the dominant-pole model: Franco, Design with Operational
+        Amplifiers and Analog Integrated Circuits, 4th ed., sec. 6.1), and w_2 = 2 pi f_2 the
+        second pole, where one is given (Franco, sec. 8.1, the two-pole open-loop response,
+        from memory). The output is an ideal source A(s)(v+ - v-) in series with the
+        open-loop output resistance R_o. The branch current of the source (named ``label``)
+        is minus the op-amp's output current. R_o = 0 is stamped as ``SOURCE_FLOOR_OHM``.
         """
-        gain = self.open_loop_gain(open_loop_gain, gbw)
+        gain = self.open_loop_gain(open_loop_gain, gbw, second_pole)
         internal = f"{label}.internal"
         branch = self.vcvs(plus, minus, internal, gain, label=label)
         self.resistor(internal, out, max(output_resistance, SOURCE_FLOOR_OHM), label=f"{label}.ro")
         return branch
 
-    def open_loop_gain(self, a0: float, gbw: float) -> Complex:
-        """A(s) = A0 / (1 + s A0 / (2 pi GBW)) on this netlist's frequency axis."""
-        return a0 / (1.0 + self.s * a0 / (2.0 * np.pi * gbw))
+    def open_loop_gain(self, a0: float, gbw: float, second_pole: float | None = None) -> Complex:
+        """A(s) = A0 / (1 + s A0 / (2 pi GBW)) / (1 + s / (2 pi f_2)) on this netlist's
+        frequency axis (no second factor when ``second_pole`` is None)."""
+        gain = a0 / (1.0 + self.s * a0 / (2.0 * np.pi * gbw))
+        if second_pole is None:
+            return gain
+        return gain / (1.0 + self.s / (2.0 * np.pi * second_pole))
 
     # --- noise generators -------------------------------------------------------------
     def current_noise(
@@ -345,6 +356,39 @@ class Netlist:
         b = np.asarray(rhs, dtype=complex)
         b = np.broadcast_to(b, (*m.shape[:-2], *b.shape[-2:]))
         return np.linalg.solve(m, b)
+
+    def return_ratio(self, label: str) -> Complex:
+        """Bode's return ratio of the controlled source ``label`` (a `vcvs` or `opamp`).
+
+        Returns T with shape ``batch + (F,)``.
+
+        Notes
+        -----
+        The source's equation is v(out) = sum_i g_i v(c_i) (its controls). Replace it by an
+        independent unit source, v(out) = 1, solve the network with every independent
+        source at zero (the netlist holds none: its terminations are admittances), and the
+        value the source's controls return is R = sum_i g_i v(c_i); the return ratio is
+        T = -R (Bode, Network Analysis and Feedback Amplifier Design, 1945, ch. 4; the same
+        as Middlebrook's double injection at an ideal source, from memory). For an op-amp
+        A(s)(v+ - v-) in a negative-feedback loop, T = A beta at low frequency, and the
+        closed-loop figures are their open-loop values over (1 + T).
+        """
+        m = self.matrix()
+        k = self.index(branch_ref(label))
+        controls = next(c for name, _, c in self._branch_stamps if name == label)
+        for node_name, coefficient in controls:
+            if node_name != GROUND:
+                m[..., k, self.nodes[node_name]] -= coefficient
+        e = np.zeros(m.shape[:-1], dtype=complex)
+        e[..., k] = 1.0
+        x = np.linalg.solve(m, e[..., None])[..., 0]
+        # The branch row holds v(out) + sum_i c_i v(c_i) with c_i = -g_i (see `vcvs`), so
+        # the returned value is R = -sum_i c_i v(c_i) and T = sum_i c_i v(c_i).
+        returned = np.zeros(x.shape[:-1], dtype=complex)
+        for node_name, coefficient in controls:
+            if node_name != GROUND:
+                returned = returned + coefficient * x[..., self.nodes[node_name]]
+        return returned
 
     def adjoint_transfer(self, output_node: str) -> tuple[Complex, list[Complex]]:
         """Transfer from every noise generator to the voltage at ``output_node``.

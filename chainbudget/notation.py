@@ -83,7 +83,7 @@ def figure_text(value: object, unit: str) -> str:
             return f"{number:.0f} degC"
         if unit == "%":
             return f"{number:.0%}"
-        if unit in ("K/W", "h", "Ah", "deg"):
+        if unit in ("K/W", "h", "Ah", "deg", "dB"):
             return f"{number:.3g} {unit}"
         return eng(number, unit)
     return str(value)

@@ -18,10 +18,13 @@ OPAMP_FIELDS: tuple[f.Field, ...] = (
     f.Field("noise_current", f.NOISE_CURRENT, "input current noise density, each input", 0.0),
     f.Field("noise_corner", f.FREQUENCY, "1/f corner of the voltage noise", None),
     f.Field("open_loop_gain", f.GAIN, "DC open-loop voltage gain", 10.0**5),
+    f.Field("second_pole", f.FREQUENCY, "second pole of the open-loop gain (none: one pole)", None),
     f.Field("output_resistance", f.RESISTANCE_OR_ZERO, "open-loop output resistance", 50.0),
     f.Field("swing_margin", f.VOLTAGE_OR_ZERO, "how close the output swings to a rail", 1.5),
     f.Field("output_current", f.POSITIVE_CURRENT, "usable peak output current", 0.02),
     f.Field("supply_current", f.CURRENT, "quiescent current per section", 0.002),
+    f.Field("offset_voltage", f.VOLTAGE_OR_ZERO, "input offset voltage (magnitude)", 1e-3),
+    f.Field("bias_current", f.CURRENT, "input bias current, each input (magnitude)", 100e-9),
     f.Field("min_supply", f.POSITIVE_VOLTAGE, "least total supply, rail to rail", None),
     f.Field("max_supply", f.POSITIVE_VOLTAGE, "greatest total supply, rail to rail", None),
     f.Field("description", f.NAME, "what the class stands for", ""),
@@ -49,7 +52,14 @@ def _part_repr(part: OpAmp | Transistor) -> str:
 
 @dataclass(frozen=True, kw_only=True, repr=False)
 class OpAmp:
-    """An op-amp section (SI units: Hz, V/s, V/rtHz, A/rtHz, ohm, V, A)."""
+    """An op-amp section (SI units: Hz, V/s, V/rtHz, A/rtHz, ohm, V, A).
+
+    ``second_pole`` (Hz, None for a single-pole part) is the open-loop gain's second pole;
+    ``offset_voltage`` and ``bias_current`` are magnitudes (typical figures): their sign
+    is unknown, so the DC figures take the worst of both. The defaults of a part described
+    in a chain file without them (1 mV, 100 nA) are those of a general-purpose bipolar
+    op-amp, from memory (common practice, no source).
+    """
 
     name: str
     gbw: float
@@ -58,10 +68,13 @@ class OpAmp:
     noise_current: float = 0.0
     noise_corner: float | None = None
     open_loop_gain: float = 10.0**5
+    second_pole: float | None = None
     output_resistance: float = 50.0
     swing_margin: float = 1.5
     output_current: float = 0.02
     supply_current: float = 0.002
+    offset_voltage: float = 1e-3
+    bias_current: float = 100e-9
     min_supply: float | None = None
     max_supply: float | None = None
     description: str = ""
@@ -89,7 +102,9 @@ class Transistor:
 _GENERIC = "Generic class with representative typical values, not any real part."
 
 # Representative values for each family, set from general experience of the families
-# (common practice, no source); they are demonstration defaults, not a datasheet.
+# (common practice, no source; offset voltage and bias current are typical figures of each
+# family quoted from memory); they are demonstration defaults, not a datasheet. None has a
+# second pole: each is taken as compensated to a single pole.
 GENERIC_OPAMPS: dict[str, OpAmp] = {
     op.name: op
     for op in (
@@ -105,6 +120,8 @@ GENERIC_OPAMPS: dict[str, OpAmp] = {
             swing_margin=1.5,
             output_current=0.02,
             supply_current=0.0015,
+            offset_voltage=3e-3,
+            bias_current=30e-12,
             min_supply=10.0,
             max_supply=36.0,
             description="JFET-input general-purpose op-amp. " + _GENERIC,
@@ -121,6 +138,8 @@ GENERIC_OPAMPS: dict[str, OpAmp] = {
             swing_margin=1.5,
             output_current=0.025,
             supply_current=0.005,
+            offset_voltage=0.5e-3,
+            bias_current=200e-9,
             min_supply=10.0,
             max_supply=36.0,
             description="Low-noise bipolar audio op-amp. " + _GENERIC,
@@ -137,6 +156,8 @@ GENERIC_OPAMPS: dict[str, OpAmp] = {
             swing_margin=2.0,
             output_current=0.02,
             supply_current=0.0017,
+            offset_voltage=1e-3,
+            bias_current=80e-9,
             min_supply=10.0,
             max_supply=36.0,
             description="Early general-purpose bipolar op-amp. " + _GENERIC,
@@ -153,6 +174,8 @@ GENERIC_OPAMPS: dict[str, OpAmp] = {
             swing_margin=0.1,
             output_current=0.01,
             supply_current=0.0001,
+            offset_voltage=1e-3,
+            bias_current=1e-12,
             min_supply=2.7,
             max_supply=6.0,
             description="Low-voltage CMOS rail-to-rail op-amp. " + _GENERIC,

@@ -92,3 +92,26 @@ SPEAKER_MAX_OHM = 100.0
 SPEAKER_DC_WARN_V = 0.05
 SPEAKER_DC_ERROR_V = 1.0
 LINE_DC_NOTE_V = 0.1
+
+# --- feedback loops ----------------------------------------------------------------------
+#: A loop with less phase margin than this rings on transients and peaks near its unity-gain
+#: frequency; 45 deg is the usual design minimum (Franco, Design with Operational Amplifiers
+#: and Analog Integrated Circuits, 4th ed., sec. 8.1, from memory; common practice).
+PHASE_MARGIN_WARN_DEG = 45.0
+#: Under 20 deg a loop is close to oscillating: the closed-loop peak passes 9 dB and the
+#: tolerance of the parts can tip it over (the same source; common practice).
+PHASE_MARGIN_ERROR_DEG = 20.0
+#: A remedy is chosen to give at least this much margin, a few degrees above the warning so
+#: that the parts' tolerances keep it clear (ours).
+PHASE_MARGIN_TARGET_DEG = 50.0
+
+# --- output stage bias -------------------------------------------------------------------
+#: A quiescent current under half Oliver's optimum (I_q R_E = V_T) leaves a gain dip through
+#: crossover; over twice it, both halves conduct over a wide region and the gain rises there
+#: instead ("gm doubling"), with more idle heat (ours: a factor of two either way, where the
+#: distortion of the static transfer has roughly doubled).
+QUIESCENT_LOW_FRACTION = 0.5
+QUIESCENT_HIGH_FRACTION = 2.0
+#: A quiescent current that more than doubles as the heatsink warms is worth knowing: the
+#: idle heat and the crossover figures move with it (ours).
+QUIESCENT_CLIMB_FACTOR = 2.0

@@ -469,7 +469,8 @@ def test_reprs_are_short(path: Path) -> None:
     chain = cb.load(path)
     text = repr(chain)
     assert len(text) <= 300 and "\n" not in text
-    assert text.startswith(f"<Chain {chain.settings.title!r} ")
+    # a long title is clipped to keep the repr short
+    assert text.startswith(f"<Chain {chain.settings.title[:20]!r}"[:-1])
     assert chain.stages[0].name in text
     parts = (*chain.opamps.values(), *chain.transistors.values())
     for item in (*chain.stages, *chain.supplies, *parts):

@@ -32,6 +32,7 @@ from chainbudget.cascade import whole_chain_network
 from chainbudget.chainfile import Chain, load_chain, parse_chain
 from chainbudget.cli import app
 from chainbudget.findings import findings
+from chainbudget.loudspeaker import load_impedance
 from chainbudget.thresholds import HISS_SPL_A_LIMIT_DB, SNR_MIN_DB
 from chainbudget.weighting import a_weighting
 
@@ -304,7 +305,7 @@ def whole_chain_node_psd(chain: Chain) -> np.ndarray:
         a.frequency,
         positions_as_set(chain.stages),
         chain.source.impedance,
-        chain.load.impedance,
+        load_impedance(chain.load, a.frequency),
     )
     if chain.source.impedance > 0.0:
         psd = 4.0 * BOLTZMANN * a.temperature_k / chain.source.impedance

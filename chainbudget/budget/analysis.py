@@ -14,8 +14,9 @@ import numpy as np
 from numpy.typing import NDArray
 
 from chainbudget.budget.rails import stage_rails, supply_voltages
-from chainbudget.cascade import Cascade, cascade, solve_stage
+from chainbudget.cascade import Cascade, solve_cascade
 from chainbudget.chainfile import Chain
+from chainbudget.loudspeaker import load_impedance
 from chainbudget.spectrum import log_frequency_grid, zero_celsius_k
 from chainbudget.stages import KINDS
 from chainbudget.stages.base import Control, Environment, Stage
@@ -105,12 +106,10 @@ def solve_chain(
     frequency: NDArray[np.float64],
     positions: Sequence[Mapping[str, object]],
 ) -> Cascade:
-    """Solve every stage and cascade them between the source and the load."""
-    solutions = [
-        solve_stage(stage, env, frequency, pos)  # type: ignore[arg-type]
-        for stage, env, pos in zip(chain.stages, envs, positions, strict=True)
-    ]
-    return cascade(solutions, chain.source.impedance, chain.load.impedance)
+    """Solve every stage (a loop section as one network) and cascade them between the
+    source and the load (its impedance on the frequency axis)."""
+    load = load_impedance(chain.load, frequency)
+    return solve_cascade(chain.stages, envs, frequency, positions, chain.source.impedance, load)  # type: ignore[arg-type]
 
 
 def master_volume(chain: Chain) -> int | None:

@@ -13,6 +13,7 @@ import math
 from dataclasses import dataclass
 
 from chainbudget.budget.analysis import Analysis
+from chainbudget.loops import Section, sections
 from chainbudget.stages import KINDS
 from chainbudget.stages.base import DcWindow
 
@@ -57,6 +58,9 @@ class DcPoint:
     window: DcWindow | None
     pot_top_v: float | None
     output_name: str = "its output"
+    #: The stage heads a loop whose feedback passes a series capacitor: at DC its op-amp
+    #: has no feedback, and its output's DC is not held anywhere.
+    loop_open_at_dc: bool = False
 
     @property
     def outside(self) -> bool:
@@ -128,19 +132,26 @@ def dc_points(analysis: Analysis) -> tuple[DcPoint, ...]:
     -----
     Pots at their settings. A node behind an output capacitor sits where the next stage's
     input returns it (`StageKind.dc_rest`), or at 0 V through the load. On split rails every
-    bias point is 0 V, so a 0 V source leaves every op-amp node at 0 V.
+    bias point is 0 V, so a 0 V source leaves every op-amp node at 0 V. A loop section
+    (`_loop_points`) holds its sensed node where its first stage's feedback puts it.
     """
     stages, envs = analysis.chain.stages, analysis.envs
     points: list[DcPoint] = []
     dc_in: float | None = SOURCE_DC_V
-    for k, (stage, env) in enumerate(zip(stages, envs, strict=True)):
+    for section in sections(stages):
+        if section.is_loop:
+            found = _loop_points(analysis, section, dc_in)
+            points += found
+            dc_in = found[-1].node_v
+            continue
+        k = section.first
+        stage, env = stages[k], envs[k]
         kind = KINDS[stage.kind]
         window = kind.dc_window(stage, env)
         output = kind.dc_output(stage, env, dc_in)
         node = _clamp(output, window)
         if not kind.output_defined(stage):
-            following = KINDS[stages[k + 1].kind] if k + 1 < len(stages) else None
-            node = LOAD_DC_V if following is None else following.dc_rest(stages[k + 1], envs[k + 1])
+            node = _rest(analysis, k)
         points.append(
             DcPoint(
                 stage.name,
@@ -155,3 +166,107 @@ def dc_points(analysis: Analysis) -> tuple[DcPoint, ...]:
         )
         dc_in = node
     return tuple(points)
+
+
+def _rest(analysis: Analysis, k: int) -> float | None:
+    """Where the node behind stage k's output capacitor rests: the next stage's input, or
+    the load."""
+    stages, envs = analysis.chain.stages, analysis.envs
+    if k + 1 >= len(stages):
+        return LOAD_DC_V
+    return KINDS[stages[k + 1].kind].dc_rest(stages[k + 1], envs[k + 1])
+
+
+def _loop_points(analysis: Analysis, section: Section, dc_in: float | None) -> list[DcPoint]:
+    """DC points of a loop section.
+
+    Notes
+    -----
+    The first stage's feedback holds the sensed node where its own stage would hold its
+    output (`StageKind.dc_output` of the first stage: V+ (1 + R_f/R_g), or V+ with a ground
+    leg capacitor), the loop gain taking up what the stages inside drop. Working back from
+    there, each stage inside needs at its input its output's DC plus its own drop
+    (x - dc_output(x) at x = its output's DC, exact for a stage whose output follows its
+    input less a fixed V_BE); the op-amp's output sits at the first of those. A series
+    capacitor inside the loop leaves it open at DC: the op-amp's output is not held. A last
+    stage sensed inside itself (`StageKind.sense_node`, before its output capacitor) is
+    held there, and its output node rests where the load returns it.
+    """
+    stages, envs = analysis.chain.stages, analysis.envs
+    head = section.first
+    inside = list(section.indices)[1:]
+    last = stages[section.last]
+    last_kind = KINDS[last.kind]
+    sensed_inside = last_kind.sense_node(last, "out") != "out"
+    open_at_dc = any(not KINDS[stages[j].kind].output_defined(stages[j]) for j in inside[:-1]) or (
+        not sensed_inside and not last_kind.output_defined(last)
+    )
+    head_kind = KINDS[stages[head].kind]
+    target = None if open_at_dc else head_kind.dc_output(stages[head], envs[head], dc_in)
+    needed: dict[int, float | None] = {section.last: target}
+    for j in reversed(inside):
+        out = needed[j]
+        moved = None if out is None else KINDS[stages[j].kind].dc_output(stages[j], envs[j], out)
+        needed[j - 1] = None if out is None or moved is None else out + (out - moved)
+    points: list[DcPoint] = []
+    node_in = dc_in
+    for j in section.indices:
+        kind = KINDS[stages[j].kind]
+        window = kind.dc_window(stages[j], envs[j])
+        output = needed[j]
+        node = _clamp(output, window)
+        if j == section.last and not kind.output_defined(stages[j]):
+            node = _rest(analysis, j)
+        points.append(
+            DcPoint(
+                stages[j].name,
+                stages[j].kind,
+                node_in,
+                output,
+                node,
+                window,
+                kind.pot_dc(stages[j], node_in),
+                kind.output_name,
+                loop_open_at_dc=open_at_dc and j == head,
+            )
+        )
+        node_in = node
+    return points
+
+
+def dc_errors(analysis: Analysis) -> tuple[float | None, ...]:
+    """Worst-case DC error at each stage's output node from the op-amps' offset voltages and
+    bias currents (and a pair's V_BE difference), V (None: unknown).
+
+    Notes
+    -----
+    Each stage maps the error at its input to its output (`StageKind.dc_error`): through
+    its DC gain, plus its own; an output capacitor stops it. A loop section's first stage
+    gives the error at the sensed node, its loop gain taking out what the stages inside
+    add (their V_BE differences divided by A0 beta); the nodes inside are left unknown.
+    """
+    stages, envs = analysis.chain.stages, analysis.envs
+    found: list[float | None] = []
+    error: float | None = 0.0  # the source sits at 0 V DC, exactly
+    for section in sections(stages):
+        head = section.first
+        error = KINDS[stages[head].kind].dc_error(stages[head], envs[head], error)
+        if section.is_loop:
+            last = stages[section.last]
+            kind = KINDS[last.kind]
+            if kind.sense_node(last, "out") != "out" and not kind.output_defined(last):
+                error = 0.0  # sensed before its output capacitor: the load sees none of it
+            found += [None] * (section.last - section.first)
+        found.append(error)
+    return tuple(found)
+
+
+def load_offset(analysis: Analysis) -> float | None:
+    """Worst-case DC across the load, V: the DC the chain puts there as built (V_BE drops,
+    bias points; `dc_points`) plus the worst-case error of `dc_errors` (None: unknown)."""
+    points = dc_points(analysis)
+    node = points[-1].node_v if points else None
+    error = dc_errors(analysis)[-1]
+    if node is None or error is None:
+        return None
+    return abs(node) + error

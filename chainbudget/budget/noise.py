@@ -12,8 +12,8 @@ integrates those spectra over the band, unweighted and weighted, and ranks the g
 Notes
 -----
 How every generator reaches every node (uncorrelated PSDs adding, one adjoint solve per
-stage and frequency, carried forward and backward through the cascade) is in the notes of
-`chainbudget.budget.noise_spectra`.
+stage or loop section and frequency, carried forward and backward through the cascade) is
+in the notes of `chainbudget.budget.noise_spectra`.
 
 The source's thermal noise 4 k T Re(Z_S) (Johnson, Phys. Rev. 32, 97 (1928); Nyquist,
 Phys. Rev. 32, 110 (1928)) is in series with the source voltage, so it reaches node j as the

@@ -10,6 +10,7 @@ import numpy as np
 
 from chainbudget.budget.analysis import Analysis, positions_as_set, solve_chain
 from chainbudget.budget.noise_spectra import NoiseSpectra, noise_spectra, unweighted
+from chainbudget.loops import Section
 from chainbudget.stages import KINDS
 
 # A stage with more voltage gain than this at the reference is a gain stage (a factor of 2;
@@ -56,21 +57,25 @@ def placement_costs(analysis: Analysis, spectra: NoiseSpectra) -> list[Placement
     chain = analysis.chain
     stages = chain.stages
     nominal = analysis.nominal
-    gains = [
-        float(20.0 * np.log10(abs(nominal.v_out[k][0] / nominal.v_in[k][0])))
-        for k in range(len(stages))
-    ]
+    # A loop section counts as one stage here: its gain is the closed loop's, and a pot is
+    # never moved into it.
+    units = nominal.sections or tuple(Section(k, k) for k in range(len(stages)))
+    gains = {
+        unit: float(20.0 * np.log10(abs(nominal.v_out[unit.last][0] / nominal.v_in[unit.first][0])))
+        for unit in units
+    }
     snr = output_snr_db(spectra, chain.source.level)
     found: list[PlacementCost] = []
     for v, stage in enumerate(stages):
-        if not KINDS[stage.kind].attenuates or snr is None:
+        if not KINDS[stage.kind].attenuates or snr is None or nominal.section(v).is_loop:
             continue
-        after = range(v + 1, len(stages) - 1)
+        after = [unit for unit in units if unit.first > v and unit.last < len(stages) - 1]
         if not after:
             continue
-        main = max(after, key=lambda k: gains[k])
-        if gains[main] <= MAIN_GAIN_MIN_DB:
+        unit = max(after, key=lambda u: gains[u])
+        if gains[unit] <= MAIN_GAIN_MIN_DB:
             continue
+        main = unit.last
         order = [*range(v), *range(v + 1, main + 1), v, *range(main + 1, len(stages))]
         moved = replace(chain, stages=tuple(stages[k] for k in order))
         envs = tuple(analysis.envs[k] for k in order)
@@ -85,8 +90,8 @@ def placement_costs(analysis: Analysis, spectra: NoiseSpectra) -> list[Placement
             PlacementCost(
                 stage.name,
                 stage.kind,
-                stages[main].name,
-                gains[main],
+                stages[unit.first].name,
+                gains[unit],
                 snr,
                 moved_snr,
                 moved_snr - snr,

@@ -37,8 +37,9 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from chainbudget.budget.analysis import positions_as_set
-from chainbudget.cascade import Cascade
+from chainbudget.cascade import Cascade, inner_node, stamp_section
 from chainbudget.chainfile import Chain
+from chainbudget.loops import Section
 from chainbudget.network import GROUND, Complex, Netlist
 from chainbudget.spectrum import integrate_psd, thermal_voltage_psd
 from chainbudget.stages import KINDS
@@ -179,6 +180,69 @@ def stage_noise_transfers(
     )
 
 
+def section_noise_transfers(
+    chain: Chain,
+    envs: Sequence[Environment],
+    frequency: NDArray[np.float64],
+    section: Section,
+    source_impedance: Complex,
+    load_admittance: Complex,
+) -> tuple[list[NoiseOrigin], NDArray[np.float64], Complex, Complex]:
+    """Transfers of a loop section's noise generators to each of its stages' output nodes
+    and to its input node, like `stage_noise_transfers` for one stage.
+
+    Returns
+    -------
+    origins, psd
+        As `stage_noise_transfers`; each origin carries the index of the stage it sits in.
+    to_nodes : ndarray, shape (S, K, F)
+        Transfer to the output node of each of the section's K stages.
+    to_in : ndarray, shape (S, F)
+        Transfer to the section's input node.
+
+    Notes
+    -----
+    The section is one network (`chainbudget.cascade.stamp_section`, the feedback closed
+    round it), terminated as the cascade finds it; one adjoint solve per node.
+    """
+    stages = chain.stages
+    net = Netlist(frequency)
+    stamp_section(net, stages, envs, positions_as_set(stages), section, "in", "out")
+    net.admittance("in", GROUND, 1.0 / _floored(np.asarray(source_impedance, complex)))
+    net.admittance("out", GROUND, load_admittance)
+    shape = frequency.shape
+    count = len(section.indices)
+    if not net.noise:
+        empty = np.zeros((0, *shape))
+        return [], empty, np.zeros((0, count, *shape), complex), empty.astype(complex)
+    nodes = [inner_node(k) for k in section.indices[:-1]] + ["out"]
+    to_nodes = [net.adjoint_transfer(node)[1] for node in nodes]
+    _, to_in = net.adjoint_transfer("in")
+    index = {stages[k].name: k for k in section.indices}
+    origins = []
+    for src in net.noise:
+        k = index.get(src.stage, section.first)
+        origins.append(
+            NoiseOrigin(
+                src.label,
+                stages[k].name,
+                k,
+                src.label.removeprefix(f"{stages[k].name}."),
+                src.kind,
+            )
+        )
+    psd = np.stack([np.broadcast_to(src.psd, shape) for src in net.noise])
+    return (
+        origins,
+        psd,
+        np.stack(
+            [np.stack([np.broadcast_to(h, shape) for h in per_node]) for per_node in to_nodes],
+            axis=1,
+        ),
+        np.stack([np.broadcast_to(h, shape) for h in to_in]),
+    )
+
+
 def noise_spectra(
     chain: Chain,
     envs: Sequence[Environment],
@@ -208,21 +272,33 @@ def noise_spectra(
     -----
     See the module notes: per-stage adjoint transfers, carried forward by the loaded
     voltage ratios of the stages after and backward by the terminated reverse ratios of
-    the stages before.
+    the stages before. A loop section is one unit: its generators reach every node inside
+    from one solve of its network, and a voltage at its input (or output) reaches a node k
+    inside as g1 + g2 V2/V1 per volt at the input (g1 V1/V2 + g2 per volt at the output,
+    V1/V2 the terminated reverse ratio), g1, g2 the node's probe of the section's two-port.
     """
     stages = chain.stages
     n = len(stages)
     shape = frequency.shape
-    forward = [
-        np.broadcast_to(
-            sol.two_port.voltage_ratio(nominal.load_admittance[m]), shape
-        )  # V_out,m / V_in,m
-        for m, sol in enumerate(nominal.stages)
-    ]
-    backward = []  # V_in,m / V_out,m with the input terminated in Z_S,m
-    for m, sol in enumerate(nominal.stages):
-        tp, z = sol.two_port, _floored(nominal.source_impedance[m])
-        backward.append(np.broadcast_to(z * (tp.a * tp.d - tp.b * tp.c) / (tp.b + z * tp.d), shape))
+    units = nominal.sections or tuple(Section(k, k) for k in range(n))
+    # Per unit and per stage inside it: node voltage per volt at the unit's input (driven
+    # from before) and per volt at its output (driven from after, input terminated in Z_S).
+    per_input: list[Complex] = [np.zeros(shape, complex)] * n
+    per_output: list[Complex] = [np.ones(shape, complex)] * n
+    backward: list[Complex] = []  # V_in / V_out of each unit, its input terminated in Z_S
+    for unit in units:
+        tp = nominal.stages[unit.first].two_port
+        ratio = np.broadcast_to(tp.voltage_ratio(nominal.load_admittance[unit.last]), shape)
+        z = _floored(nominal.source_impedance[unit.first])
+        back = np.broadcast_to(z * (tp.a * tp.d - tp.b * tp.c) / (tp.b + z * tp.d), shape)
+        backward.append(back)
+        per_input[unit.last] = ratio
+        if unit.is_loop:
+            section_port = nominal.section_port(unit)
+            for k in unit.indices[:-1]:
+                g1, g2 = section_port.probes[f"node{k}"]
+                per_input[k] = np.broadcast_to(g1 + g2 * ratio, shape)
+                per_output[k] = np.broadcast_to(g1 * back + g2, shape)
     signal = np.stack([np.abs(np.broadcast_to(v, shape)) for v in nominal.v_out])
 
     origins: list[NoiseOrigin] = []
@@ -232,26 +308,44 @@ def noise_spectra(
         origins.append(NoiseOrigin("source.impedance", SOURCE_STAGE, -1, "impedance", "thermal"))
         psd = thermal_voltage_psd(r_source, temperature_k)
         blocks.append((psd * signal**2)[None])
-    for k, (stage, env, pos) in enumerate(zip(stages, envs, positions_as_set(stages), strict=True)):
-        found, psd, to_out, to_in = stage_noise_transfers(
-            stage,
-            k,
-            env,
-            frequency,
-            pos,
-            nominal.source_impedance[k],
-            nominal.load_admittance[k],
-        )
+    positions = positions_as_set(stages)
+    for u, unit in enumerate(units):
+        k = unit.first
+        if unit.is_loop:
+            found, psd, to_nodes, to_in = section_noise_transfers(
+                chain,
+                envs,
+                frequency,
+                unit,
+                nominal.source_impedance[k],
+                nominal.load_admittance[unit.last],
+            )
+        else:
+            found, psd, to_out, to_in = stage_noise_transfers(
+                stages[k],
+                k,
+                envs[k],
+                frequency,
+                positions[k],
+                nominal.source_impedance[k],
+                nominal.load_admittance[k],
+            )
+            to_nodes = to_out[:, None]
         if not found:
             continue
         voltage = np.zeros((len(found), n, *shape), dtype=complex)
-        voltage[:, k] = to_out
-        for j in range(k + 1, n):
-            voltage[:, j] = voltage[:, j - 1] * forward[j]
+        voltage[:, unit.first : unit.last + 1] = to_nodes
+        for later in units[u + 1 :]:
+            v_before = voltage[:, later.first - 1]
+            for j in later.indices:
+                voltage[:, j] = v_before * per_input[j]
         if k > 0:
-            voltage[:, k - 1] = to_in
-            for j in range(k - 2, -1, -1):
-                voltage[:, j] = voltage[:, j + 1] * backward[j + 1]
+            v_after = to_in
+            for w in range(u - 1, -1, -1):
+                earlier = units[w]
+                for j in earlier.indices:
+                    voltage[:, j] = v_after * per_output[j]
+                v_after = v_after * backward[w]
         origins += found
         blocks.append(psd[:, None, :] * np.abs(voltage) ** 2)
     contribution = (

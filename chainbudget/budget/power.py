@@ -23,8 +23,11 @@ from numpy.typing import ArrayLike, NDArray
 
 from chainbudget import outputmath as om
 from chainbudget.budget.analysis import Analysis
+from chainbudget.budget.dcbias import load_offset
 from chainbudget.budget.levels import SQRT2, clip_source_peak
 from chainbudget.cascade import Cascade
+from chainbudget.chainfile import Chain
+from chainbudget.loudspeaker import is_reactive, load_impedance
 from chainbudget.stages import KINDS
 from chainbudget.stages.base import opamp_part
 
@@ -57,6 +60,8 @@ class OutputFigures:
     output_cap_f: float | None
     output_cap_corner_hz: float | None
     power_stage: bool
+    #: Worst-case DC across the load, V (`chainbudget.budget.dcbias.load_offset`).
+    offset_v: float | None = None
 
 
 @dataclass(frozen=True)
@@ -103,7 +108,12 @@ def _max_output_cascade(analysis: Analysis) -> tuple[Cascade, tuple[int, ...]]:
 def output_figures(analysis: Analysis) -> OutputFigures:
     """Output power, SPL, damping factor and output-capacitor corner of the chain."""
     chain = analysis.chain
-    z_load = chain.load.impedance
+    # Power and current into the load as it is at the reference frequency (a driver's
+    # Thiele-Small impedance there, the cable capacitance across it); the nominal rating
+    # for a plain load, and for the damping factor always (the trade quotes it so).
+    z_load: complex | float = chain.load.impedance
+    if is_reactive(chain.load):
+        z_load = complex(load_impedance(chain.load, [chain.settings.reference])[0])
     nominal = analysis.nominal
     last = len(chain.stages) - 1
     cas, index = _max_output_cascade(analysis)
@@ -127,11 +137,13 @@ def output_figures(analysis: Analysis) -> OutputFigures:
     last_kind = KINDS[chain.stages[last].kind]
     output_cap = last_kind.output_capacitor(chain.stages[last])
     corner = None
-    if output_cap is not None:
-        corner = float(om.highpass_corner(output_cap, z_load + z_out.real))
+    if output_cap is not None and not is_reactive(chain.load):
+        corner = float(om.highpass_corner(output_cap, chain.load.impedance + z_out.real))
+    elif output_cap is not None:
+        corner = _reactive_corner(chain, output_cap, z_out)
     return OutputFigures(
         stage=chain.stages[last].name,
-        load_ohm=z_load,
+        load_ohm=chain.load.impedance,
         clip_vpk=clip_vpk,
         clip_power_w=clip_power,
         clip_stage=clip_stage,
@@ -147,12 +159,41 @@ def output_figures(analysis: Analysis) -> OutputFigures:
         if sensitivity is None
         else float(om.spl_at_1m(sensitivity, nominal_power)),
         zout_ohm=abs(z_out),
-        damping_factor=float(om.damping_factor(z_load, z_out)),
-        clip_current_a=clip_vpk / z_load,
+        damping_factor=float(om.damping_factor(chain.load.impedance, z_out)),
+        clip_current_a=clip_vpk / abs(z_load),
         output_cap_f=output_cap,
         output_cap_corner_hz=corner,
         power_stage=last_kind.power_stage,
+        offset_v=load_offset(analysis),
     )
+
+
+# Points a decade on the axis the corner of an output capacitor into a reactive load is read
+# from, and how far below the band it reaches.
+CORNER_POINTS_PER_DECADE = 200
+CORNER_DECADES_BELOW_BAND = 2.0
+
+
+def _reactive_corner(chain: Chain, output_cap: float, z_out: complex) -> float | None:
+    """-3 dB corner of an output capacitor into a reactive load, Hz (None: none in reach).
+
+    Notes
+    -----
+    The divider |Z_L / (Z_L + R_out + 1/(j w C))| of the load, the stage's output resistance
+    and the capacitor, relative to its value at the reference frequency, read on a fine log
+    axis: the highest frequency below the reference where it is 3 dB down (the first-order
+    corner 1/(2 pi (R_L + R_out) C) of a resistive load is the special case).
+    """
+    low = chain.settings.band[0] / 10.0**CORNER_DECADES_BELOW_BAND
+    reference = chain.settings.reference
+    points = int(np.log10(reference / low) * CORNER_POINTS_PER_DECADE) + 2
+    f = np.geomspace(low, reference, points)
+    z = load_impedance(chain.load, f)
+    divider = np.abs(z / (z + z_out.real + 1.0 / (2j * np.pi * f * output_cap)))
+    down = divider < divider[-1] / np.sqrt(2.0)
+    if not down.any():
+        return None
+    return float(f[np.flatnonzero(down)[-1]])
 
 
 def _voltage_clip_source_peak(cas: Cascade, k: int) -> NDArray[np.float64]:

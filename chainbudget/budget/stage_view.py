@@ -6,14 +6,17 @@ cascade; the environment at high line is worked out once per chain.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
-from numpy.typing import ArrayLike
+from numpy.typing import ArrayLike, NDArray
 
 from chainbudget.budget.analysis import Analysis
 from chainbudget.budget.levels import SQRT2, clip_source_peak
+from chainbudget.budget.loops import LoopSolver
 from chainbudget.cascade import Cascade
+from chainbudget.loudspeaker import load_impedance
+from chainbudget.network import Complex
 from chainbudget.stages import KINDS
 from chainbudget.stages.base import Environment, Limit, Stage, StageKind
 
@@ -36,6 +39,7 @@ class CascadeView:
     load_ohm: float
     is_last: bool
     output_nominal_vpk: float
+    loops: LoopSolver
 
     def gain(self, index: int) -> float:
         return at_reference(self.cascade.v_out[index])
@@ -72,12 +76,53 @@ class CascadeView:
         stage = self.cascade.stages[index].stage
         return stage, KINDS[stage.kind]
 
+    @property
+    def reference_hz(self) -> float:
+        return self.loops.chain.settings.reference
+
+    @property
+    def band_hz(self) -> tuple[float, float]:
+        return self.loops.chain.settings.band
+
+    @property
+    def last_index(self) -> int:
+        return len(self.cascade.stages) - 1
+
+    def input_gain(self, index: int) -> float:
+        return at_reference(self.cascade.v_in[index])
+
+    def output_impedance(self, index: int) -> complex:
+        return complex(np.asarray(self.cascade.output_impedance[index])[..., 0])
+
+    def source_impedance(self, index: int) -> complex:
+        return complex(np.asarray(self.cascade.source_impedance[index])[..., 0])
+
+    def loop_section(self, index: int) -> tuple[int, int]:
+        section = self.loops.section(index)
+        return section.first, section.last
+
+    def stability_axis(self) -> NDArray[np.float64]:
+        return self.loops.stability_axis()
+
+    def return_ratio(
+        self, index: int, frequency_hz: NDArray[np.float64], load_z: ArrayLike | None = None
+    ) -> Complex | None:
+        z = None if load_z is None else np.asarray(load_z, dtype=complex)
+        return self.loops.return_ratio(index, np.asarray(frequency_hz, dtype=float), z)
+
+    def load_impedance(self, frequency_hz: ArrayLike) -> Complex:
+        return load_impedance(self.loops.chain.load, frequency_hz)
+
+    def at_idle(self) -> CascadeView:
+        return replace(self, cascade=self.loops.idle())
+
 
 def stage_views(analysis: Analysis, hot_envs: tuple[Environment, ...]) -> list[CascadeView]:
     """One view per stage of the nominal cascade."""
     chain = analysis.chain
     nominal = analysis.nominal
     last = len(chain.stages) - 1
+    loops = LoopSolver(chain, analysis.envs, chain.settings.reference)
     output_vpk = SQRT2 * chain.source.level * at_reference(nominal.v_out[last])
     return [
         CascadeView(
@@ -90,6 +135,7 @@ def stage_views(analysis: Analysis, hot_envs: tuple[Environment, ...]) -> list[C
             load_ohm=chain.load.impedance,
             is_last=k == last,
             output_nominal_vpk=output_vpk,
+            loops=loops,
         )
         for k, stage in enumerate(chain.stages)
     ]

@@ -62,6 +62,22 @@ def _operating_point(point: DcPoint) -> list[Finding]:
     ]
 
 
+def _loop_open(point: DcPoint) -> list[Finding]:
+    if not point.loop_open_at_dc:
+        return []
+    return [
+        Finding(
+            "error",
+            "loop-open-at-dc",
+            point.stage,
+            "its feedback is taken from beyond a series capacitor inside the loop, so at DC "
+            "the op-amp has no feedback and its output runs to a rail; take the feedback from "
+            "before the capacitor, or give the loop a DC path of its own",
+            {},
+        )
+    ]
+
+
 def _pot(point: DcPoint) -> list[Finding]:
     top = point.pot_top_v
     if top is None or abs(top) <= POT_DC_LIMIT_V:
@@ -84,11 +100,40 @@ def rules(budget: Budget) -> list[Finding]:
     found: list[Finding] = []
     points = [node.dc for node in budget.nodes if node.dc is not None]
     for point in points:
+        found += _loop_open(point)
         found += _operating_point(point)
         found += _pot(point)
     if points:
         found += _load(points[-1], budget.load_ohm)
+        if budget.output is not None:
+            found += _worst_offset(points[-1], budget.output.offset_v, budget.load_ohm)
     return found
+
+
+def _worst_offset(point: DcPoint, offset: float | None, load_ohm: float) -> list[Finding]:
+    """The worst-case DC across a loudspeaker, from the op-amps' offset voltages and bias
+    currents on top of the DC as built, past the threshold (when the DC as built is not
+    already past it: `dc-into-load` says that)."""
+    nominal = point.node_v
+    if offset is None or nominal is None or load_ohm >= SPEAKER_MAX_OHM:
+        return []
+    if abs(nominal) >= SPEAKER_DC_WARN_V or offset < SPEAKER_DC_WARN_V:
+        return []
+    return [
+        Finding(
+            "warning",
+            "offset-at-load",
+            point.stage,
+            f"the DC across the loudspeaker can reach {offset * 1e3:.3g} mV at worst "
+            f"({nominal * 1e3:+.3g} mV as built, the rest from the op-amps' offset voltage "
+            "and bias currents through the DC gains and resistances of the stages that "
+            f"couple it), over the {SPEAKER_DC_WARN_V * 1e3:g} mV a designer trims to "
+            "(common practice); give the stage that sets it a DC gain of one (ground_cap "
+            "in its ground leg), match the DC resistance at its two inputs, use a "
+            "lower-offset op-amp, or add a DC servo",
+            {"offset_v": offset, "dc_v": nominal, "load_ohm": load_ohm},
+        )
+    ]
 
 
 def _load(point: DcPoint, load_ohm: float) -> list[Finding]:

@@ -36,6 +36,7 @@ def json_part(budget: Budget) -> dict[str, Any]:
         data.update(asdict(out))
         part["output"] = data
     part["drive"] = {"opamps": [asdict(op) for node in budget.nodes for op in node.opamps]}
+    part["loop"] = []  # the contract's one entry per global loop, filled by the kinds below
     for node in budget.nodes:
         for own in node.own:
             if out is not None and node.stage == out.stage:

@@ -11,7 +11,7 @@ chain as seen from the stage), ``rules`` turns them into findings.
 from __future__ import annotations
 
 from abc import ABC, abstractmethod
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
 from typing import Any, ClassVar, Protocol
 
@@ -21,7 +21,7 @@ from numpy.typing import ArrayLike, NDArray
 from chainbudget import fields as f
 from chainbudget.finding import Finding
 from chainbudget.kindfigures import KindFigures
-from chainbudget.network import GROUND, Netlist, Ref, branch_ref, node_ref
+from chainbudget.network import GROUND, Complex, Netlist, Ref, branch_ref, node_ref
 from chainbudget.parts import OpAmp, Transistor
 from chainbudget.spectrum import flicker_psd
 
@@ -66,6 +66,12 @@ class Environment:
     rails: Rails | None
     # The chain's load, ohm: what an output stage works its conduction current out from.
     load_impedance: float | None = None
+    #: Inside a loop section, the node whose voltage the stage's feedback senses (the
+    #: output of a later stage, `StageKind.feedback_from`); None: its own output.
+    feedback_node: str | None = None
+    #: Small-signal model at idle instead of at the conduction point: an output pair with
+    #: both halves conducting at their quiescent current (kinds without one ignore it).
+    idle: bool = False
 
 
 @dataclass(frozen=True)
@@ -128,6 +134,17 @@ class DcWindow:
     low_v: float
     high_v: float
     remedy: str
+
+
+@dataclass(frozen=True)
+class Isolation:
+    """A network a stage could put between the node its loop senses and the load, to keep
+    a capacitive load out of the loop: the fields (TOML text) that give it, and the
+    impedance the loop then sees, ``impedance(frequency_hz, z_load)`` (ohm, ``z_load`` the
+    load on that axis)."""
+
+    fields: Mapping[str, str]
+    impedance: Callable[[NDArray[np.float64], Complex], Complex]
 
 
 @dataclass
@@ -208,6 +225,62 @@ class StageContext(Protocol):
         """Stage ``index`` and its kind."""
         ...
 
+    @property
+    def reference_hz(self) -> float:
+        """The chain's reference frequency, Hz."""
+        ...
+
+    @property
+    def band_hz(self) -> tuple[float, float]:
+        """The chain's band, Hz."""
+        ...
+
+    @property
+    def last_index(self) -> int:
+        """The index of the stage that drives the load."""
+        ...
+
+    def input_gain(self, index: int) -> float:
+        """|V at stage ``index``'s input / V_source|."""
+        ...
+
+    def output_impedance(self, index: int) -> complex:
+        """The impedance at stage ``index``'s output in the chain, ohm (a loop section's
+        last stage: the closed-loop figure, with the load removed)."""
+        ...
+
+    def source_impedance(self, index: int) -> complex:
+        """The impedance that drives stage ``index``'s input, ohm."""
+        ...
+
+    def loop_section(self, index: int) -> tuple[int, int]:
+        """(first, last) stage of the section holding stage ``index``: a loop when
+        last > first, else the stage alone."""
+        ...
+
+    def stability_axis(self) -> NDArray[np.float64]:
+        """The frequency axis loop margins are read on, Hz (from the reference frequency)."""
+        ...
+
+    def return_ratio(
+        self, index: int, frequency_hz: NDArray[np.float64], load_z: ArrayLike | None = None
+    ) -> Complex | None:
+        """Bode's return ratio of stage ``index``'s op-amp in its loop (its own feedback, or
+        the loop section it heads), terminated as in the chain, on ``frequency_hz``; with
+        ``load_z`` (shape ``(..., F)``) that impedance in place of everything after the
+        section. None for a stage without an op-amp."""
+        ...
+
+    def load_impedance(self, frequency_hz: ArrayLike) -> Complex:
+        """The chain's load (a driver's Thiele-Small impedance, cable capacitance) on any
+        axis, ohm."""
+        ...
+
+    def at_idle(self) -> StageContext:
+        """The same view of the chain with every stage at its idle point (an output pair's
+        both halves conducting at their quiescent current), at the reference frequency."""
+        ...
+
 
 @dataclass(frozen=True)
 class NodeFacts:
@@ -265,6 +338,19 @@ class StageKind(ABC):
         """Keys that the other values make required (e.g. ``input`` for an inverting stage)."""
         return []
 
+    def sense_node(self, stage: Stage, node_out: str) -> str:
+        """The node a loop's feedback senses when it ends at this stage: its output by
+        default. A stage with an output network of its own (an isolating inductor or
+        resistor, an output capacitor) is sensed before it; a stage that says so keeps the
+        sensed node DC-coupled to its drive."""
+        return node_out
+
+    def feedback_from(self, stage: Stage) -> str | None:
+        """The later stage whose output the stage's feedback senses (None: its own). The
+        stages from this one to that one are solved as one loop section, and ``build`` then
+        gets the sensed node as ``env.feedback_node``."""
+        return None
+
     # --- its own figures and rules --------------------------------------------------------
 
     def figures(self, context: StageContext) -> tuple[KindFigures, ...]:
@@ -274,6 +360,11 @@ class StageKind(ABC):
     def rules(self, figures: tuple[KindFigures, ...], facts: NodeFacts) -> list[Finding]:
         """The kind's findings (and cautions) about one stage (none by default)."""
         return []
+
+    def isolation_options(self, stage: Stage, load_ohm: float) -> tuple[Isolation, ...]:
+        """Networks this stage could add at its output to keep a capacitive load out of a
+        loop that senses it, smallest first (none by default, or when it has one)."""
+        return ()
 
     def output_capacitor(self, stage: Stage) -> float | None:
         """The series capacitor between the stage and what it drives, F (None: none)."""
@@ -308,6 +399,23 @@ class StageKind(ABC):
         """The DC an active output is meant to sit at and the range it can reach; None for a
         stage with no active output of its own to check."""
         return None
+
+    def dc_error(self, stage: Stage, env: Environment, error_in: float | None) -> float | None:
+        """Worst-case DC error at the output, V (a magnitude), with ``error_in`` the worst-case
+        DC error at its input (None: unknown).
+
+        The default carries the input's error through the stage's DC gain (the slope of
+        `dc_output`, an affine map for every kind here) and adds nothing of its own; behind
+        an output capacitor it is 0. Kinds with an op-amp add its offset voltage and bias
+        currents."""
+        if not self.output_defined(stage):
+            return 0.0
+        if error_in is None:
+            return None
+        low, high = self.dc_output(stage, env, 0.0), self.dc_output(stage, env, 1.0)
+        if low is None or high is None:
+            return None
+        return abs(high - low) * error_in
 
     def pot_dc(self, stage: Stage, dc_in: float | None) -> float | None:
         """DC at the upper end of a pot whose lower end returns to 0 V, V; None: no such pot
@@ -439,8 +547,9 @@ def stamp_opamp(
         gbw=part.gbw,
         output_resistance=part.output_resistance,
         label=label,
+        second_pole=part.second_pole,
     )
-    gain = net.open_loop_gain(part.open_loop_gain, part.gbw)
+    gain = net.open_loop_gain(part.open_loop_gain, part.gbw, part.second_pole)
     corner = 0.0 if part.noise_corner is None else part.noise_corner
     en2 = flicker_psd(part.noise_voltage, corner, net.frequency)
     net.voltage_noise_at(branch, gain, en2, f"{label}.e_n", stage.name, "opamp", "e_n")

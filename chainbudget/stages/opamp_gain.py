@@ -2,25 +2,36 @@
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
+from dataclasses import replace
 
-from numpy.typing import ArrayLike
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
 
 from chainbudget import fields as f
-from chainbudget.network import GROUND, Netlist
+from chainbudget.eseries import values_between
+from chainbudget.finding import Finding
+from chainbudget.kindfigures import KindFigures
+from chainbudget.network import GROUND, Complex, Netlist, node_ref
+from chainbudget.notation import eng
 from chainbudget.stages.base import (
     OPAMP_FIELD,
     RAIL_FIELDS,
     Built,
     DcWindow,
     Environment,
+    Isolation,
+    NodeFacts,
     OwnParts,
     Stage,
+    StageContext,
     StageKind,
     inverting_dc_output,
     opamp_dc_window,
+    opamp_part,
     stamp_opamp,
 )
+from chainbudget.stages.opamp_loop import GlobalLoop, OwnLoop, loop_figures, loop_rules
 
 
 class OpAmpGain(StageKind):
@@ -35,6 +46,10 @@ class OpAmpGain(StageKind):
     (through ``input_cap``) to the inverting input, ``feedback`` from the output to it, the +
     input at the bias point; ideal gain -Z_f/Z_i (Horowitz & Hill, The Art of Electronics,
     3rd ed., sec. 4.2.1).
+
+    With ``feedback_from`` the feedback network (``feedback`` and ``feedback_cap``) runs from
+    that later stage's output instead of the op-amp's own; the op-amp's output feeds only
+    the next stage, and the stages between sit inside the loop (`chainbudget.loops`).
     """
 
     kind = "opamp_gain"
@@ -54,6 +69,18 @@ class OpAmpGain(StageKind):
         ),
         f.Field("input_cap", f.CAPACITANCE, "series input coupling capacitor", None),
         f.Field("bias_resistor", f.RESISTANCE, "non-inverting: + input to the bias point", None),
+        f.Field(
+            "isolating_resistor",
+            f.RESISTANCE,
+            "resistor from the op-amp's output to the stage's (the feedback senses the pin)",
+            None,
+        ),
+        f.Field(
+            "feedback_from",
+            f.NAME,
+            "a later stage whose output the feedback senses (the stages between sit in the loop)",
+            None,
+        ),
         OPAMP_FIELD,
         *RAIL_FIELDS,
     )
@@ -91,11 +118,50 @@ class OpAmpGain(StageKind):
                 source = f"{name}.in_cap"
                 net.capacitor(node_in, source, cap_in)
             own.resistor("input", source, summing, stage.number("input"))
-        own.resistor("feedback", node_out, summing, stage.number("feedback"))
+        pin = self.sense_node(stage, node_out)
+        sensed = pin if env.feedback_node is None else env.feedback_node
+        own.resistor("feedback", sensed, summing, stage.number("feedback"))
         if feedback_cap is not None:
-            net.capacitor(node_out, summing, feedback_cap)
-        stamp_opamp(net, stage, env, plus, summing, node_out, built)
+            net.capacitor(sensed, summing, feedback_cap)
+        stamp_opamp(net, stage, env, plus, summing, pin, built)
+        isolating = stage.optional("isolating_resistor")
+        if isolating is not None:
+            own.resistor("isolating_resistor", pin, node_out, isolating)
+            built.probes["out"] = node_ref(node_out)
+            built.probes["pin"] = node_ref(pin)
+            for i, limit in enumerate(built.limits):
+                if limit.probe == "out":
+                    built.limits[i] = replace(limit, probe="pin")
         return built
+
+    def sense_node(self, stage: Stage, node_out: str) -> str:
+        """The op-amp's own output pin: behind an isolating resistor when it has one."""
+        if stage.values.get("isolating_resistor") is None:
+            return node_out
+        return f"{stage.name}.pin"
+
+    def isolation_options(self, stage: Stage, load_ohm: float) -> tuple[Isolation, ...]:
+        """An isolating resistor from the op-amp's pin to the load (E12, 10 ohm to 1 kohm),
+        when it has none."""
+        if stage.values.get("isolating_resistor") is not None:
+            return ()
+        return tuple(
+            Isolation({"isolating_resistor": eng(float(r), "ohm")}, _in_series(float(r)))
+            for r in values_between("E12", 10.0, 1000.0)
+        )
+
+    def figures(self, context: StageContext) -> tuple[KindFigures, ...]:
+        """Its loop: its own feedback's, or the loop it heads round later stages."""
+        return (loop_figures(context),)
+
+    def rules(self, figures: tuple[KindFigures, ...], facts: NodeFacts) -> list[Finding]:
+        return [
+            fi for own in figures if isinstance(own, OwnLoop | GlobalLoop) for fi in loop_rules(own)
+        ]
+
+    def feedback_from(self, stage: Stage) -> str | None:
+        value = stage.values.get("feedback_from")
+        return None if value is None else str(value)
 
     def missing(self, values: Mapping[str, object]) -> list[str]:
         key = "ground_leg" if values.get("topology") == "non-inverting" else "input"
@@ -139,6 +205,39 @@ class OpAmpGain(StageKind):
             return rails.bias
         return inverting_dc_output(env, stage.number("feedback") / stage.number("input"), dc_in)
 
+    def dc_error(self, stage: Stage, env: Environment, error_in: float | None) -> float | None:
+        """Worst-case DC error at the output (at the sensed stage's, inside a loop), V.
+
+        Notes
+        -----
+        The input's error through the stage's DC gain, plus the op-amp's own: offset
+        voltage times the DC noise gain, and each input's bias current through the DC
+        resistance it meets, signs taken at their worst:
+        |V_os| G_n + I_b (R_f + G_n R_+) (Franco, Design with Operational Amplifiers, 4th
+        ed., sec. 5.1-5.2, input offset error, from memory). Non-inverting: G_n = 1 + R_f/R_g,
+        or 1 with ``ground_cap`` (a capacitor in the ground leg gives unity DC gain); R_+ the
+        ``bias_resistor`` behind ``input_cap`` (0 for a DC-coupled input, the stage before
+        taken as stiff). Inverting: G_n = 1 + R_f/R_i, or 1 behind ``input_cap``; R_+ = 0.
+        """
+        carried = super().dc_error(stage, env, error_in)
+        if carried is None:
+            return None
+        part = opamp_part(stage, env)
+        feedback = stage.number("feedback")
+        coupled = stage.values.get("input_cap") is not None
+        if stage.values["topology"] == "non-inverting":
+            gain = 1.0
+            if stage.values.get("ground_cap") is None:
+                gain += feedback / stage.number("ground_leg")
+            plus = stage.optional("bias_resistor") if coupled else 0.0
+            if plus is None:
+                return None  # a floating input: its own finding says so
+        else:
+            gain = 1.0 if coupled else 1.0 + feedback / stage.number("input")
+            plus = 0.0
+        own = part.offset_voltage * gain + part.bias_current * (feedback + gain * plus)
+        return carried + own
+
     def dc_rest(self, stage: Stage, env: Environment) -> float | None:
         """A DC-coupled input rests at the bias point through ``bias_resistor`` (non-inverting)
         or through ``input`` to the summing node, held at the bias point (inverting)."""
@@ -165,3 +264,12 @@ class OpAmpGain(StageKind):
             fixes.append("add ground_cap in series with ground_leg (a DC gain of one)")
         remedy = " and ".join(fixes) or "bring the DC at its input to the bias point"
         return opamp_dc_window(stage, env, remedy)
+
+
+def _in_series(resistance: float) -> Callable[[NDArray[np.float64], Complex], Complex]:
+    """The impedance a loop sees through a series resistor to the load."""
+
+    def impedance(frequency: NDArray[np.float64], z_load: Complex) -> Complex:
+        return np.asarray(resistance + z_load, dtype=complex)
+
+    return impedance

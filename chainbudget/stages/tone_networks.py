@@ -18,6 +18,8 @@ from typing import ClassVar
 from numpy.typing import ArrayLike
 
 from chainbudget import fields as f
+from chainbudget.finding import Finding
+from chainbudget.kindfigures import KindFigures
 from chainbudget.network import GROUND, Netlist
 from chainbudget.stages.base import (
     END_RESISTANCE_FIELD,
@@ -28,14 +30,18 @@ from chainbudget.stages.base import (
     Control,
     DcWindow,
     Environment,
+    NodeFacts,
     OwnParts,
     Stage,
+    StageContext,
     StageKind,
     inverting_dc_output,
     opamp_dc_window,
+    opamp_part,
     stamp_opamp,
     taper_fraction,
 )
+from chainbudget.stages.opamp_loop import OwnLoop, loop_figures, loop_rules
 
 
 def bass_fields(prefix: str) -> tuple[f.Field, ...]:
@@ -207,6 +213,14 @@ class FeedbackTone(StageKind):
         (`inverting_dc_output`); no input capacitor, so its input's DC always counts."""
         return inverting_dc_output(env, self.dc_gain(stage), dc_in)
 
+    def dc_error(self, stage: Stage, env: Environment, error_in: float | None) -> float | None:
+        """The input's error times the DC gain G, plus the op-amp's offset voltage times the
+        noise gain 1 + G (its bias currents' share is left out here)."""
+        carried = super().dc_error(stage, env, error_in)
+        if carried is None:
+            return None
+        return carried + opamp_part(stage, env).offset_voltage * (1.0 + self.dc_gain(stage))
+
     def dc_rest(self, stage: Stage, env: Environment) -> float | None:
         """The input rests at the summing node's potential, the bias point."""
         return None if env.rails is None else env.rails.bias
@@ -222,6 +236,13 @@ class FeedbackTone(StageKind):
 
     def controls(self, stage: Stage) -> list[Control]:
         return [pot_control(stage, prefix) for prefix in self.pots]
+
+    def figures(self, context: StageContext) -> tuple[KindFigures, ...]:
+        """Its op-amp's loop (`chainbudget.stages.opamp_loop`)."""
+        return (loop_figures(context),)
+
+    def rules(self, figures: tuple[KindFigures, ...], facts: NodeFacts) -> list[Finding]:
+        return [fi for own in figures if isinstance(own, OwnLoop) for fi in loop_rules(own)]
 
     @abstractmethod
     def stamp_networks(

@@ -105,3 +105,40 @@ def output_bias(context: StageContext, output_cap: float | None) -> OutputBias:
     rails = context.env.rails
     bias = 0.0 if rails is None else rails.bias
     return OutputBias(bias_v=bias, dc_on_load=output_cap is None and abs(bias) > 1e-9)
+
+
+@dataclass(frozen=True)
+class TurnOn(KindFigures):
+    """What a single-supply stage's output capacitor dumps into the loudspeaker at switch-on
+    (V, J, A)."""
+
+    title = "switch-on"
+
+    stage: str
+    mid_v: float = figure("mid-point the capacitor charges to", "V")
+    energy_j: float = figure("energy into the capacitor through the speaker", "J")
+    peak_a: float = figure("peak current through the speaker", "A")
+
+
+def turn_on(context: StageContext, output_cap: float | None) -> TurnOn | None:
+    """At switch-on the mid-point rises to V_s/2 and the output capacitor charges to it
+    through the loudspeaker (None: split rails, or no capacitor).
+
+    Notes
+    -----
+    Charging a capacitor C to V through a resistance stores C V^2/2 and dissipates as much
+    again in the resistance, whatever its value (the RC charging energy, Horowitz & Hill
+    3rd ed. sec. 1.4, from memory); a mid-point that rises faster than the R_L C time
+    constant drives a peak current of V/R_L through the voice coil (the nominal load), the
+    thump. At high line, where the mid-point is highest.
+    """
+    rails = context.hot_env.rails
+    if output_cap is None or rails is None or rails.negative != 0.0 or rails.bias <= 0.0:
+        return None
+    mid = rails.bias
+    return TurnOn(
+        stage=context.stage.name,
+        mid_v=mid,
+        energy_j=output_cap * mid * mid / 2.0,
+        peak_a=mid / context.load_ohm,
+    )

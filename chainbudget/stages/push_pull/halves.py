@@ -123,3 +123,23 @@ def push_pull_model(stage: Stage, env: Environment) -> PushPullModel:
         driver = small_signal(half.driver, output.i_b, t)
         idle_driver = small_signal(half.driver, idle_output.i_b, t)
     return PushPullModel(half, conduction, output, driver, idle_output, idle_driver)
+
+
+@dataclass(frozen=True)
+class IdleHalf:
+    """Hybrid-pi parameters of one half at idle: the output device at I_q, its driver (if
+    any) at the output device's base current."""
+
+    output: SmallSignal
+    driver: SmallSignal | None
+
+
+def idle_models(stage: Stage, env: Environment) -> tuple[IdleHalf, IdleHalf]:
+    """Both halves at the quiescent current (the crossover region, where both conduct)."""
+    i_q, t = stage.number("quiescent"), env.temperature_k
+    found = []
+    for half in halves(stage, env):
+        output = small_signal(half.output, i_q, t)
+        driver = None if half.driver is None else small_signal(half.driver, output.i_b, t)
+        found.append(IdleHalf(output, driver))
+    return found[0], found[1]

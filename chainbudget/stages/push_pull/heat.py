@@ -24,9 +24,12 @@ class Dissipation(KindFigures):
 
     Device figures are for the hotter of the two output devices; ``levels_vpk``,
     ``supply_w`` and ``device_w`` tabulate them from idle to the chain's clip level.
-    ``junction_degc`` is at the worst continuous sine level (``worst_vpk``); ``None`` when
-    the thermal path is not given. ``max_heatsink_k_per_w`` is the largest heatsink
-    (theta_sa) that keeps the junction at ``max_junction_degc`` at that level.
+    ``load_abs_ohm`` and ``load_phase_deg`` are the load's impedance there (with a driver's
+    Thiele-Small impedance or a cable capacitance, at the frequency in the band where the
+    dissipation is worst). ``junction_degc`` is at the worst continuous sine level
+    (``worst_vpk``); ``None`` when the thermal path is not given. ``max_heatsink_k_per_w``
+    is the largest heatsink (theta_sa) that keeps the junction at ``max_junction_degc`` at
+    that level.
     """
 
     title = "power and heat per output device"
@@ -37,6 +40,7 @@ class Dissipation(KindFigures):
     rail_lower_v: float = figure("high-line rail, lower half", "V")
     quiescent_a: float = figure("quiescent current", "A")
     load_phase_deg: float = figure("load phase", "deg")
+    load_abs_ohm: float = figure()
     levels_vpk: tuple[float, ...] = figure()
     supply_w: tuple[float, ...] = figure()
     device_w: tuple[float, ...] = figure()
@@ -90,15 +94,18 @@ def push_pull_dissipation(context: StageContext) -> Dissipation:
     nominal_vpk = context.output_nominal_vpk
     upper, lower = halves(stage, context.hot_env)
     i_q = stage.number("quiescent")
-    phase = stage.number("load_phase")
-    z = context.load_ohm * np.exp(1j * phase)
     r_emitter = stage.number("emitter_resistors")
+    rails = np.array([upper.rail_v, lower.rail_v])
+    drops = np.array([upper.drop_v, lower.drop_v])
+    z = _worst_load(context, rails, drops, r_emitter, i_q)
+    if z is None:
+        z = context.load_ohm * np.exp(1j * stage.number("load_phase"))
+    phase = float(np.angle(z))
     clip = min(
         float(om.push_pull_clip_vpk(half.rail_v, 0.0, half.drop_v, r_emitter, z))
         for half in (upper, lower)
     )
     levels = np.linspace(0.0, clip, CURVE_POINTS)
-    rails = np.array([upper.rail_v, lower.rail_v])
 
     def device(vpk: NDArray[np.float64] | float, load: complex = z) -> NDArray[np.float64]:
         """Per-device dissipation, shape (2, ...) for the two halves."""
@@ -114,7 +121,7 @@ def push_pull_dissipation(context: StageContext) -> Dissipation:
     curve = device(levels).max(axis=0)
     supply = sum(vcc * (om.class_b_rail_average_current(levels, z) + i_q) for vcc in rails)
     worst_w, worst_vpk = worst(z)
-    resistive_w, _ = worst(complex(context.load_ohm))
+    resistive_w, _ = worst(complex(abs(z)))
     theta_jc, theta_cs = stage.optional("theta_jc"), stage.number("theta_cs")
     heatsink, theta_ja = stage.optional("heatsink"), stage.optional("theta_ja")
     shared = bool(stage.values.get("heatsink_shared"))
@@ -155,6 +162,7 @@ def push_pull_dissipation(context: StageContext) -> Dissipation:
         rail_lower_v=lower.rail_v,
         quiescent_a=i_q,
         load_phase_deg=float(np.degrees(phase)),
+        load_abs_ohm=float(abs(z)),
         levels_vpk=tuple(float(v) for v in levels),
         supply_w=tuple(float(p) for p in supply),
         device_w=tuple(float(p) for p in curve),
@@ -179,3 +187,38 @@ def push_pull_dissipation(context: StageContext) -> Dissipation:
         max_heatsink_k_per_w=max_sink,
         heatsink_degc=sink_t,
     )
+
+
+#: Points a decade on which a reactive load's worst frequency for the heat is sought.
+LOAD_POINTS_PER_DECADE = 40
+
+
+def _worst_load(
+    context: StageContext,
+    rails: NDArray[np.float64],
+    drops: NDArray[np.float64],
+    r_emitter: float,
+    i_q: float,
+) -> complex | None:
+    """The load's impedance at the frequency in the band where the hotter device's worst
+    continuous dissipation is greatest, when the load is more than a resistor (a driver's
+    Thiele-Small impedance, cable capacitance); None for a plain load (``load_phase`` then
+    stands for its phase).
+
+    Notes
+    -----
+    At each frequency the worst level min(2 V_cc/(pi cos phi), clip) and the dissipation
+    there (the formulas of `push_pull_dissipation`), all frequencies at once.
+    """
+    lo, hi = context.band_hz
+    f = np.geomspace(lo, hi, max(int(np.log10(hi / lo) * LOAD_POINTS_PER_DECADE), 2))
+    z = context.load_impedance(f)
+    if np.allclose(z, context.load_ohm, rtol=1e-12, atol=0.0):
+        return None
+    clip = np.min(
+        [om.push_pull_clip_vpk(v, 0.0, d, r_emitter, z) for v, d in zip(rails, drops, strict=True)],
+        axis=0,
+    )
+    worst_vpk = np.minimum(om.class_b_worst_vpk(rails[:, None], np.angle(z)), clip)
+    device = om.class_b_device_dissipation(rails[:, None], worst_vpk, z, i_q)
+    return complex(z[int(np.argmax(device.max(axis=0)))])

@@ -5,9 +5,17 @@ from __future__ import annotations
 
 from chainbudget.finding import Finding
 from chainbudget.notation import amps, sig, watts
-from chainbudget.stages.push_pull.drive import HandOver, OutputBias
+from chainbudget.stages.push_pull.crossover import Crossover
+from chainbudget.stages.push_pull.drive import HandOver, OutputBias, TurnOn
 from chainbudget.stages.push_pull.heat import Dissipation
-from chainbudget.thresholds import DRIVE_MARGIN, JUNCTION_MARGIN_K
+from chainbudget.stages.push_pull.thermal_loop import VBE_TEMPCO_V_PER_K, ThermalBias
+from chainbudget.thresholds import (
+    DRIVE_MARGIN,
+    JUNCTION_MARGIN_K,
+    QUIESCENT_CLIMB_FACTOR,
+    QUIESCENT_HIGH_FRACTION,
+    QUIESCENT_LOW_FRACTION,
+)
 
 
 def drive_rules(h: HandOver) -> list[Finding]:
@@ -166,3 +174,124 @@ def _thermal(d: Dissipation) -> list[Finding]:
             )
         ]
     return []
+
+
+def crossover_rules(c: Crossover) -> list[Finding]:
+    """The quiescent current far from Oliver's optimum I_q R_E = V_T (B. M. Oliver,
+    "Distortion in complementary-pair class-B amplifiers", Hewlett-Packard Journal, Feb.
+    1971): under it the gain dips through crossover, over it the gain rises there."""
+    optimum = c.optimum_quiescent_a
+    if optimum is None:
+        return []
+    figures: dict[str, float | None] = {
+        "quiescent_a": c.quiescent_a,
+        "optimum_quiescent_a": optimum,
+        "idle_zout_ohm": c.idle_zout_ohm,
+        "zout_ohm": c.zout_ohm,
+        "gain_step_db": c.gain_step_db,
+    }
+    where = " (closed loop)" if c.in_loop else ""
+    distortion = "" if c.thd_nominal is None else f"; THD {c.thd_nominal} at the nominal level"
+    if c.quiescent_a < QUIESCENT_LOW_FRACTION * optimum:
+        return [
+            Finding(
+                "warning",
+                "quiescent-low",
+                c.stage,
+                f"its quiescent current of {amps(c.quiescent_a)} is "
+                f"{c.quiescent_a / optimum:.2g} of the optimum for its emitter resistors, "
+                f"I_q R_E = V_T, about {amps(optimum)} (Oliver, HP Journal, Feb. 1971): the "
+                f"output impedance is {c.idle_zout_ohm:.3g} ohm at idle against "
+                f"{c.zout_ohm:.3g} ohm in conduction{where}, a gain step of "
+                f"{c.gain_step_db:+.2f} dB through crossover{distortion}; raise quiescent "
+                "towards the optimum (and check the heat again)",
+                figures,
+            )
+        ]
+    if c.quiescent_a > QUIESCENT_HIGH_FRACTION * optimum:
+        return [
+            Finding(
+                "note",
+                "quiescent-high",
+                c.stage,
+                f"its quiescent current of {amps(c.quiescent_a)} is "
+                f"{c.quiescent_a / optimum:.2g} times the optimum for its emitter resistors, "
+                f"I_q R_E = V_T, about {amps(optimum)} (Oliver, HP Journal, Feb. 1971): both "
+                "halves conduct over a wide region and the gain rises there "
+                f"({c.gain_step_db:+.2f} dB at idle{where}), and the idle heat is higher "
+                "than it needs to be",
+                figures,
+            )
+        ]
+    return []
+
+
+def thermal_loop_rules(t: ThermalBias) -> list[Finding]:
+    """Thermal runaway of the bias (error, with what stops it), or a quiescent current that
+    more than doubles running hot (note)."""
+    figures: dict[str, float | None] = {
+        "quiescent_a": t.quiescent_a,
+        "quiescent_hot_a": t.quiescent_hot_a,
+        "spreader_tracking": t.spreader_tracking,
+    }
+    tempco = abs(VBE_TEMPCO_V_PER_K) * 1e3
+    if t.thermal_runaway:
+        fixes = []
+        extra = max(t.stable_r_ohm - t.pair_r_ohm, 0.0) / 2.0
+        fixes.append(
+            f"more emitter resistance (each at least {t.emitter_resistor_ohm + extra:.2g} ohm "
+            "keeps it stable at any current)"
+        )
+        if t.stable_tracking is not None:
+            fixes.append(
+                f"better tracking (the spreader following at least "
+                f"{100.0 * t.stable_tracking:.0f} % of the devices' V_BE: mount it on the "
+                "heatsink beside them)"
+            )
+        fixes.append("a smaller heatsink theta")
+        return [
+            Finding(
+                "error",
+                "thermal-runaway",
+                t.stage,
+                f"the quiescent current runs away as the output devices warm: their V_BE falls "
+                f"by about {tempco:.0f} mV/K and the bias spreader follows "
+                f"{100.0 * t.spreader_tracking:.0f} % of that, so each kelvin asks for more "
+                "current, which heats them further, with no stable point below the junction's "
+                f"maximum; {', '.join(fixes)}",
+                {**figures, "stable_tracking": t.stable_tracking},
+            )
+        ]
+    hot = t.quiescent_hot_a
+    if hot is not None and hot > QUIESCENT_CLIMB_FACTOR * t.quiescent_a:
+        return [
+            Finding(
+                "note",
+                "quiescent-climbs",
+                t.stage,
+                f"its quiescent current climbs from {amps(t.quiescent_a)} to {amps(hot)} with "
+                f"the heatsink at its running temperature (the junction near "
+                f"{t.junction_hot_degc or 0.0:.0f} degC; the spreader follows "
+                f"{100.0 * t.spreader_tracking:.0f} % of the output devices' V_BE): set the "
+                "quiescent warm, or track the devices more closely (spreader on the heatsink)",
+                {**figures, "junction_hot_degc": t.junction_hot_degc},
+            )
+        ]
+    return []
+
+
+def turn_on_rules(t: TurnOn) -> list[Finding]:
+    """The switch-on thump of a single-supply stage's output capacitor (note)."""
+    return [
+        Finding(
+            "note",
+            "turn-on-thump",
+            t.stage,
+            f"at switch-on the mid-point rises to {t.mid_v:.3g} V and the output capacitor "
+            f"charges to it through the loudspeaker: up to {amps(t.peak_a)} peak and "
+            f"{t.energy_j * 1e3:.3g} mJ stored (as much again spent in the voice coil), a "
+            "thump; ramp the bias up slowly (a larger capacitor on the bias divider, a "
+            "soft-start), or hold the speaker off with a relay for the first second",
+            {"mid_v": t.mid_v, "energy_j": t.energy_j, "peak_a": t.peak_a},
+        )
+    ]

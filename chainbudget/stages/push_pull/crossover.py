@@ -1,0 +1,318 @@
+"""Crossover: a push-pull stage's small-signal figures at idle beside those in conduction,
+the quiescent current that keeps its gain flat through crossover, and the distortion of its
+static transfer, open loop and inside a loop.
+
+Notes
+-----
+The static transfer: each half from the drive node to the output is its chain of
+base-emitter junctions and its emitter resistor, u(I) = m V_T ln(I/I_q) + (I - I_q) R,
+with m the junctions (2 behind a Darlington driver, whose emitter current is the output
+device's base current, so its V_BE moves with the same logarithm), R = R_E + r_bb'/(beta + 1)
+(+ the driver's r_bb' over both betas) and the bias spreader holding both halves at I_q at
+rest (the Ebers-Moll exponential, Horowitz & Hill, The Art of Electronics, 3rd ed., sec.
+2.3.1; the class-AB pair of Oliver, "Distortion in complementary-pair class-B amplifiers",
+Hewlett-Packard Journal, Feb. 1971; both from memory). For an output v_o and a drive v_in
+the upper half carries I_u = u^-1(v_in - v_o), the lower I_l = u^-1(v_o - v_in), and the
+load closes it: I_u - I_l = v_o/R_L. u^-1 is a Lambert W: I = (a/R) W((R I_q/a)
+exp((y + I_q R)/a)), a = m V_T (I_q exp(y/a) when R = 0). The drive is taken as stiff (an
+op-amp or a follower: its output impedance over the devices' current gain is milliohms).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+from scipy.special import lambertw
+
+from chainbudget import outputmath as om
+from chainbudget.kindfigures import KindFigures, figure
+from chainbudget.stages.base import Environment, Stage, StageContext
+from chainbudget.stages.push_pull.halves import halves
+
+#: Samples of one cycle of the static transfer (harmonics far above the twentieth fold back
+#: only from above the 256th).
+SAMPLES = 512
+#: Harmonics reported, 2 to this one (the contract's "at least 20").
+HARMONICS = 20
+#: Newton steps (each kept inside a shrinking bracket) of the output per sample, at most;
+#: they stop when no sample moves by more than `CONVERGED` of the drive's peak.
+NEWTON_STEPS = 40
+CONVERGED = 1e-13
+#: Drive-amplitude corrections so that the fundamental at the load is the level asked for,
+#: at most (they stop within `CONVERGED` of it).
+LEVEL_STEPS = 12
+#: Harmonics below this (dB re the fundamental) are rounding, not distortion: the even ones
+#: of a symmetric pair. They are reported as none (null in the JSON).
+HARMONIC_FLOOR_DB = -200.0
+#: Output levels besides the nominal: 1 W into the nominal load, and this far below clip (dB).
+BELOW_CLIP_DB = 1.0
+
+
+@dataclass(frozen=True)
+class HalfLaw:
+    """One half's junction law: ``junctions`` V_BE's in series and the resistance ``r_ohm``
+    behind them, at the quiescent current ``i_q`` (A)."""
+
+    junctions: int
+    r_ohm: float
+    i_q: float
+
+    def current(self, y: NDArray[np.float64], v_t: float) -> NDArray[np.float64]:
+        """I = u^-1(y), A (the module's notes)."""
+        a = self.junctions * v_t
+        if self.r_ohm <= 0.0:
+            return np.asarray(self.i_q * np.exp(np.minimum(y / a, 700.0)))
+        x = np.log(self.r_ohm * self.i_q / a) + (y + self.i_q * self.r_ohm) / a
+        return np.asarray(a / self.r_ohm * _w_of_exp(x))
+
+    def slope(self, current: NDArray[np.float64], v_t: float) -> NDArray[np.float64]:
+        """dI/dy = 1/u'(I), S."""
+        return np.asarray(1.0 / (self.junctions * v_t / current + self.r_ohm))
+
+
+def _w_of_exp(x: NDArray[np.float64]) -> NDArray[np.float64]:
+    """W(e^x), the principal Lambert W of e^x, for any real x without overflow.
+
+    Notes
+    -----
+    scipy's lambertw where e^x is finite; beyond, Newton on w + ln w = x from the
+    asymptote x - ln x (Corless et al., "On the Lambert W function", Adv. Comput. Math. 5
+    (1996) 329, from memory)."""
+    small = np.minimum(x, 600.0)
+    w = np.asarray(lambertw(np.exp(small)).real)
+    big = np.maximum(x, 600.0)
+    v = big - np.log(big)
+    for _ in range(8):
+        v = v - (v + np.log(v) - big) / (1.0 + 1.0 / v)
+    return np.asarray(np.where(x > 600.0, v, w))
+
+
+def pair_laws(stage: Stage, env: Environment) -> tuple[HalfLaw, HalfLaw]:
+    """The upper and lower halves' junction laws."""
+    r_emitter = stage.number("emitter_resistors")
+    i_q = stage.number("quiescent")
+    found = []
+    for half in halves(stage, env):
+        out = half.output
+        r = r_emitter + out.base_resistance / (out.beta + 1.0)
+        junctions = 1
+        if half.driver is not None:
+            junctions = 2
+            r += half.driver.base_resistance / ((out.beta + 1.0) * (half.driver.beta + 1.0))
+        found.append(HalfLaw(junctions, r, i_q))
+    return found[0], found[1]
+
+
+def static_output(
+    v_in: ArrayLike, upper: HalfLaw, lower: HalfLaw, r_load: float, v_t: float
+) -> NDArray[np.float64]:
+    """The pair's output for drive voltages ``v_in`` (any shape), V: every sample at once.
+
+    Notes
+    -----
+    g(v_o) = I_u(v_in - v_o) - I_l(v_o - v_in) - v_o/R_L falls monotonically in v_o, and is
+    positive at 0 and negative at v_in for v_in > 0 (the mirror for v_in < 0): Newton steps
+    on g, each kept inside that bracket (halving it where a step would leave), converge to
+    the root of every sample together.
+    """
+    v = np.asarray(v_in, dtype=float)
+    lo, hi = np.minimum(v, 0.0), np.maximum(v, 0.0)
+    out = v * r_load / (r_load + 0.5 * (upper.r_ohm + lower.r_ohm))
+    scale = float(np.max(np.abs(v), initial=0.0))
+    for _ in range(NEWTON_STEPS):
+        i_u = upper.current(v - out, v_t)
+        i_l = lower.current(out - v, v_t)
+        g = i_u - i_l - out / r_load
+        lo = np.where(g > 0.0, out, lo)
+        hi = np.where(g > 0.0, hi, out)
+        slope = upper.slope(i_u, v_t) + lower.slope(i_l, v_t) + 1.0 / r_load
+        step = out + g / slope
+        moved = np.where((step > lo) & (step < hi), step, 0.5 * (lo + hi))
+        done = bool(np.all(np.abs(moved - out) <= CONVERGED * scale))
+        out = moved
+        if done:
+            break
+    return np.asarray(out)
+
+
+@dataclass(frozen=True)
+class Distortion:
+    """Harmonics of the pair's output at one level: peak of the fundamental (V), THD as a
+    fraction, and harmonics 2 to `HARMONICS` in dB re the fundamental, open loop and with
+    the loop's correction."""
+
+    level_vpk: float
+    open_thd: float
+    open_harmonics_db: tuple[float, ...]
+    thd: float
+    harmonics_db: tuple[float, ...]
+
+
+def harmonics(
+    levels_vpk: ArrayLike,
+    upper: HalfLaw,
+    lower: HalfLaw,
+    r_load: float,
+    v_t: float,
+    loop_factor: ArrayLike | None = None,
+) -> list[Distortion]:
+    """Distortion of the static transfer at output levels ``levels_vpk`` (peak of the
+    fundamental at the load, V).
+
+    ``loop_factor`` is |1 + T(n f)| for n = 1..`HARMONICS` (None: open loop); the first
+    entry is not used (the fundamental is the level asked for).
+
+    Notes
+    -----
+    One cycle of a sine drive, `SAMPLES` points, through `static_output`; harmonics by the
+    discrete Fourier transform (amplitude 2|X_n|/N). The drive amplitude is corrected
+    `LEVEL_STEPS` times by the ratio of the fundamental asked for to the one obtained. THD
+    = sqrt(sum_{n=2..20} H_n^2)/H_1 (IEC 60268-3's definition over the harmonics, from
+    memory). Inside a loop each harmonic is divided by |1 + T(n f)| (the distortion an
+    output stage generates, reduced by the loop's return difference at its frequency).
+    """
+    target = np.atleast_1d(np.asarray(levels_vpk, dtype=float))
+    phase = 2.0 * np.pi * np.arange(SAMPLES) / SAMPLES
+    drive = target.copy()
+    spectrum = np.zeros((target.size, SAMPLES // 2 + 1), complex)
+    for _ in range(LEVEL_STEPS):
+        out = static_output(drive[:, None] * np.sin(phase), upper, lower, r_load, v_t)
+        spectrum = np.fft.rfft(out, axis=-1) * 2.0 / SAMPLES
+        fundamental = np.abs(spectrum[:, 1])
+        ratio = np.where(fundamental > 0.0, target / fundamental, 1.0)
+        if np.all(np.abs(ratio - 1.0) <= CONVERGED):
+            break
+        drive = drive * ratio
+    amplitude = np.abs(spectrum[:, 1 : HARMONICS + 1])
+    factor = np.ones(HARMONICS) if loop_factor is None else np.asarray(loop_factor, float)
+    # The fundamental stays the level asked for (the loop supplies the drive for it); each
+    # harmonic the pair generates is divided by the loop's return difference at its own
+    # frequency.
+    closed = amplitude.copy()
+    closed[:, 1:] = amplitude[:, 1:] / factor[1:]
+
+    def thd(h: NDArray[np.float64]) -> NDArray[np.float64]:
+        return np.asarray(np.sqrt(np.sum(h[:, 1:] ** 2, axis=1)) / h[:, 0])
+
+    def db(h: NDArray[np.float64]) -> NDArray[np.float64]:
+        with np.errstate(divide="ignore"):
+            found = 20.0 * np.log10(h[:, 1:] / h[:, :1])
+        return np.asarray(np.where(found < HARMONIC_FLOOR_DB, -np.inf, found))
+
+    open_thd, closed_thd = thd(amplitude), thd(closed)
+    open_db, closed_db = db(amplitude), db(closed)
+    return [
+        Distortion(
+            float(target[i]),
+            float(open_thd[i]),
+            tuple(float(x) for x in open_db[i]),
+            float(closed_thd[i]),
+            tuple(float(x) for x in closed_db[i]),
+        )
+        for i in range(target.size)
+    ]
+
+
+@dataclass(frozen=True)
+class Crossover(KindFigures):
+    """Crossover and bias of a push-pull stage (ohm, dB, A, V).
+
+    The output impedance at the stage's output and the chain's gain to it, in conduction
+    (the modelled half at its conduction current) and at idle (both halves at I_q); inside
+    a loop those are the closed loop's. ``optimum_quiescent_a`` is Oliver's V_T/R_E.
+    ``thd`` holds, for the output stage driving the load, the distortion at the nominal
+    level, 1 W and 1 dB below the chain's clip (the contract's ``output.thd``; a level the
+    chain cannot reach is left out).
+    """
+
+    title = "crossover and bias"
+
+    stage: str
+    in_loop: bool = figure("inside a feedback loop (closed-loop figures)")
+    zout_ohm: float = figure("output impedance, conduction", "ohm")
+    idle_zout_ohm: float = figure("output impedance, idle", "ohm", node_key="idle_zout_ohm")
+    gain_step_db: float = figure("gain step, idle over conduction", "dB", node_key="gain_step_db")
+    quiescent_a: float = figure()
+    optimum_quiescent_a: float | None = figure(
+        "optimum quiescent, I_q R_E = V_T", "A", node_key="optimum_quiescent_a"
+    )
+    thd_nominal: str | None = figure("THD, nominal level")
+    thd_one_watt: str | None = figure("THD, 1 W")
+    thd_below_clip: str | None = figure("THD, 1 dB below clip")
+    thd: tuple[dict[str, Any], ...] = figure(output_key="thd")
+    levels: tuple[Distortion, ...] = figure()
+
+
+def crossover_figures(context: StageContext) -> Crossover:
+    """The stage's idle and conduction figures, its optimum quiescent and its distortion."""
+    stage, k = context.stage, context.index
+    idle = context.at_idle()
+    first, last = context.loop_section(k)
+    in_loop = first < k <= last
+    v_t = float(om.thermal_voltage(context.env.temperature_k))
+    r_emitter = stage.number("emitter_resistors")
+    optimum = v_t / r_emitter if r_emitter > 0.0 else None
+    levels: list[Distortion] = []
+    texts: list[str | None] = [None, None, None]
+    entries: list[dict[str, Any]] = []
+    if context.is_last:
+        levels, texts, entries = _distortion(context, v_t, in_loop, first)
+    return Crossover(
+        stage=stage.name,
+        in_loop=in_loop,
+        zout_ohm=abs(context.output_impedance(k)),
+        idle_zout_ohm=abs(idle.output_impedance(k)),
+        gain_step_db=float(20.0 * np.log10(idle.gain(k) / context.gain(k))),
+        quiescent_a=stage.number("quiescent"),
+        optimum_quiescent_a=optimum,
+        thd_nominal=texts[0],
+        thd_one_watt=texts[1],
+        thd_below_clip=texts[2],
+        thd=tuple(entries),
+        levels=tuple(levels),
+    )
+
+
+def _distortion(
+    context: StageContext, v_t: float, in_loop: bool, first: int
+) -> tuple[list[Distortion], list[str | None], list[dict[str, Any]]]:
+    """Distortion at the nominal level, 1 W and 1 dB below the chain's clip level (the
+    first stage to reach its limit, the controls as set)."""
+    k = context.index
+    r_load = context.load_ohm
+    # The chain's clip with the controls as set: the first stage to reach its limit.
+    clips = [context.source_clip(j) for j in range(context.last_index + 1)]
+    peaks = [clip[0] for clip in clips if clip is not None]
+    clip_vpk = min(peaks) * context.gain(k) if peaks else None
+    wanted = [context.output_nominal_vpk, float(np.sqrt(2.0 * r_load))]
+    if clip_vpk is not None:
+        wanted.append(clip_vpk * 10.0 ** (-BELOW_CLIP_DB / 20.0))
+    reachable = [v for v in wanted if clip_vpk is None or v < clip_vpk]
+    factor = None
+    if in_loop:
+        n = np.arange(1, HARMONICS + 1, dtype=float)
+        t = context.return_ratio(first, n * context.reference_hz)
+        factor = None if t is None else np.abs(1.0 + t)
+    upper, lower = pair_laws(context.stage, context.env)
+    found = harmonics(reachable, upper, lower, r_load, v_t, factor) if reachable else []
+    by_level = {d.level_vpk: d for d in found}
+    texts: list[str | None] = []
+    entries: list[dict[str, Any]] = []
+    for v in wanted:
+        d = by_level.get(float(v))
+        texts.append(None if d is None else f"{100.0 * d.thd:.3g} % at {v / np.sqrt(2.0):.3g} Vrms")
+        if d is not None:
+            entries.append(
+                {
+                    "level_vrms": v / np.sqrt(2.0),
+                    "thd_percent": 100.0 * d.thd,
+                    "harmonics_db": list(d.harmonics_db),
+                    "open_loop_thd_percent": 100.0 * d.open_thd,
+                }
+            )
+    while len(texts) < 3:
+        texts.append(None)
+    return found, texts, entries
