@@ -5,7 +5,7 @@ from __future__ import annotations
 import json
 import sys
 from pathlib import Path
-from typing import Annotated
+from typing import Annotated, Any
 
 import tomli_w
 import typer
@@ -13,16 +13,39 @@ from rich import box
 from rich.console import Console
 from rich.markup import escape
 from rich.table import Table
+from typer.core import TyperCommand, TyperGroup
 
+from chainbudget import __version__
 from chainbudget.blocks import catalogue, default_text, generic_parts
 from chainbudget.budget import compute
-from chainbudget.chainfile import ChainError, load_chain
+from chainbudget.chainfile import ChainError, load_chain, one_line
 from chainbudget.fields import suggest
 from chainbudget.report import noise as noise_view
 from chainbudget.report.json_view import budget_json, without_nulls
 from chainbudget.report.table_view import render
 
+
+class _FlagsWithoutType:
+    """Help that shows no "<bool>" after a flag: a flag takes no value to type."""
+
+    def get_params(self, ctx: Any) -> list[Any]:
+        params: list[Any] = super().get_params(ctx)  # type: ignore[misc]
+        for param in params:
+            if getattr(param, "is_flag", False) and param.metavar is None:
+                param.metavar = ""
+        return params
+
+
+class _Command(_FlagsWithoutType, TyperCommand):
+    pass
+
+
+class _Group(_FlagsWithoutType, TyperGroup):
+    pass
+
+
 app = typer.Typer(
+    cls=_Group,
     add_completion=False,
     no_args_is_help=True,
     help="Gain, headroom, noise, drive and supply budgets of small audio amplifier chains.",
@@ -32,6 +55,24 @@ EXIT_OK, EXIT_ERRORS, EXIT_BAD_INPUT = 0, 1, 2
 STARTER = Path(__file__).parent / "templates" / "starter.toml"
 
 
+def _show_version(wanted: bool) -> None:
+    if wanted:
+        typer.echo(f"chainbudget {__version__}")
+        raise typer.Exit(EXIT_OK)
+
+
+@app.callback()
+def _options(
+    version: Annotated[
+        bool,
+        typer.Option(
+            "--version", help="print the version and exit", is_eager=True, callback=_show_version
+        ),
+    ] = False,
+) -> None:
+    """Gain, headroom, noise, drive and supply budgets of small audio amplifier chains."""
+
+
 def _console() -> Console:
     """A console that is plain (no colour, fixed width) when not writing to a terminal."""
     tty = sys.stdout.isatty()
@@ -39,11 +80,29 @@ def _console() -> Console:
 
 
 def _fail(message: str) -> typer.Exit:
-    typer.echo(f"chainbudget: {message}", err=True)
+    typer.echo(f"chainbudget: {one_line(message)}", err=True)
     return typer.Exit(EXIT_BAD_INPUT)
 
 
-@app.command()
+def _numeric_failure(exc: BaseException) -> bool:
+    """An arithmetic failure of the analysis (the loader refuses every value known to cause
+    one; this is the last guard, so that even an unforeseen one is one line, not a
+    traceback)."""
+    linalg = getattr(sys.modules.get("numpy"), "linalg", None)
+    return isinstance(exc, ArithmeticError | MemoryError | RecursionError) or (
+        linalg is not None and isinstance(exc, linalg.LinAlgError)
+    )
+
+
+def _analysis_failed(file: Path, exc: BaseException) -> typer.Exit:
+    return _fail(
+        f"{file}: the analysis cannot be carried through for this chain "
+        f"({type(exc).__name__}: {exc}); check its values for one far outside the circuit's "
+        "range"
+    )
+
+
+@app.command(cls=_Command)
 def check(
     file: Annotated[Path, typer.Argument(help="chain file (TOML)")],
     output_format: Annotated[
@@ -65,9 +124,13 @@ def check(
         )
     try:
         chain = load_chain(file)
+        budget = compute(chain)
     except ChainError as exc:
         raise _fail(str(exc)) from None
-    budget = compute(chain)
+    except Exception as exc:
+        if _numeric_failure(exc):
+            raise _analysis_failed(file, exc) from None
+        raise
     found = list(budget.findings)
     if output_format == "table":
         console = _console()
@@ -86,7 +149,7 @@ def check(
     raise typer.Exit(EXIT_ERRORS if errors or (strict and warnings) else EXIT_OK)
 
 
-@app.command()
+@app.command(cls=_Command)
 def blocks(
     kind: Annotated[str | None, typer.Argument(help="a stage or supply kind, or a table")] = None,
 ) -> None:
@@ -134,7 +197,7 @@ def blocks(
         console.print(shipped)
 
 
-@app.command()
+@app.command(cls=_Command)
 def plot(
     file: Annotated[Path, typer.Argument(help="chain file (TOML)")],
     output: Annotated[
@@ -149,18 +212,23 @@ def plot(
         raise _fail(f"{output}: already exists; pass --force to overwrite it")
     try:
         chain = load_chain(file)
+        budget = compute(chain)
     except ChainError as exc:
         raise _fail(str(exc)) from None
+    except Exception as exc:
+        if _numeric_failure(exc):
+            raise _analysis_failed(file, exc) from None
+        raise
     from chainbudget.report.plot import plot_headroom  # matplotlib only on this path
 
     try:
-        plot_headroom(compute(chain), output)
+        plot_headroom(budget, output)
     except OSError as exc:
         raise _fail(f"{output}: cannot write ({exc.strerror})") from None
     typer.echo(f"wrote {output}")
 
 
-@app.command()
+@app.command(cls=_Command)
 def new(
     file: Annotated[Path, typer.Argument(help="where to write the starter chain")],
     force: Annotated[bool, typer.Option(help="overwrite an existing file")] = False,
