@@ -226,3 +226,24 @@ def test_a_volume_pot_marked_a_is_the_log_pot() -> None:
     gains = [compute(chain).node("vol").gain_db for chain in chains]
     assert gains[0] == pytest.approx(gains[1], rel=1e-12)
     assert math.isfinite(gains[0])
+
+
+def test_a_singular_stage_network_names_the_stage(monkeypatch: pytest.MonkeyPatch) -> None:
+    """Should a stage's network ever have no single solution, the budget reports it as an
+    input error naming the file and the stage, not a traceback: here the volume pot's stage
+    is given a second ideal source across its output (a singular matrix)."""
+    from chainbudget.stages import KINDS
+
+    volume = KINDS["volume"]
+    build = type(volume).build
+
+    def shorted(self, net, stage, env, node_in, node_out, positions):  # type: ignore[no-untyped-def]
+        built = build(self, net, stage, env, node_in, node_out, positions)
+        net.voltage_source(node_out, "0", label="short.one")
+        net.voltage_source(node_out, "0", label="short.two")
+        return built
+
+    monkeypatch.setattr(type(volume), "build", shorted)
+    with pytest.raises(ChainFileError) as info:
+        compute(loads_chain(FIXTURE, "singular.toml"))
+    assert str(info.value).startswith('singular.toml: stage[6] "vol": its network has no single')

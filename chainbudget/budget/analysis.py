@@ -15,7 +15,8 @@ from numpy.typing import NDArray
 
 from chainbudget.budget.rails import stage_rails, supply_voltages
 from chainbudget.cascade import Cascade, cascade, solve_stage
-from chainbudget.chainfile import Chain
+from chainbudget.chainfile import Chain, ChainFileError
+from chainbudget.network import SingularNetwork
 from chainbudget.spectrum import log_frequency_grid, zero_celsius_k
 from chainbudget.stages import KINDS
 from chainbudget.stages.base import Control, Environment, Stage
@@ -106,10 +107,12 @@ def solve_chain(
     positions: Sequence[Mapping[str, object]],
 ) -> Cascade:
     """Solve every stage and cascade them between the source and the load."""
-    solutions = [
-        solve_stage(stage, env, frequency, pos)  # type: ignore[arg-type]
-        for stage, env, pos in zip(chain.stages, envs, positions, strict=True)
-    ]
+    solutions = []
+    for stage, env, pos in zip(chain.stages, envs, positions, strict=True):
+        try:
+            solutions.append(solve_stage(stage, env, frequency, pos))  # type: ignore[arg-type]
+        except SingularNetwork as exc:  # an input error: name the stage
+            raise ChainFileError(chain.file, stage.path, str(exc)) from None
     return cascade(solutions, chain.source.impedance, chain.load.impedance)
 
 
