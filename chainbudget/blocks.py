@@ -73,14 +73,15 @@ def value_text(field: f.Field, value: object) -> str:
         return " to ".join(eng(v, "Hz") for v in value)
     if not isinstance(value, float):
         return str(value)
-    if field.kind is f.GAIN:
+    if field.kind in (f.GAIN, f.OPEN_LOOP_GAIN):
         return f"{20.0 * math.log10(value):.3g} dB"
     if field.kind is f.FRACTION:
         return f"{100.0 * value:g} %"
     if field.kind is f.SLEW_RATE:
         return f"{value / 1e6:.3g} V/us"
-    if field.kind.unit in _PREFIXED:
-        return eng(value, field.kind.unit)
+    unit, _, measure = field.kind.unit.partition(" ")  # "A peak": the unit and its measure
+    if unit in _PREFIXED:
+        return eng(value, unit) + (f" {measure}" if measure else "")
     if field.kind.unit not in ("", "number", "0..1"):
         return f"{value:g} {field.kind.unit}"
     return f"{value:g}"

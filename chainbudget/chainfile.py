@@ -10,6 +10,7 @@ the same validation.
 from __future__ import annotations
 
 import html
+import math
 import tomllib
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, fields, replace
@@ -18,7 +19,7 @@ from typing import Any
 
 from chainbudget import ChainError  # the base; importable from here as before
 from chainbudget import fields as f
-from chainbudget.fields import suggest
+from chainbudget.fields import listing, quoted, suggest
 from chainbudget.loops import loop_problems
 from chainbudget.loudspeaker import LOUDSPEAKER_FIELDS, load_problems
 from chainbudget.parts import (
@@ -33,7 +34,7 @@ from chainbudget.stages import KINDS as STAGE_KINDS
 from chainbudget.stages.base import Stage
 from chainbudget.supplies import KINDS as SUPPLY_KINDS
 from chainbudget.supplies.base import GROUND_SUPPLY, Supply
-from chainbudget.units import UnitParseError
+from chainbudget.units import UnitParseError, shown
 
 
 class ChainFileError(ValueError, ChainError):
@@ -41,8 +42,17 @@ class ChainFileError(ValueError, ChainError):
 
     def __init__(self, file: str, path: str, message: str) -> None:
         where = f"{file}: {path}: " if path else f"{file}: "
-        super().__init__(where + message)
+        super().__init__(one_line(where + message))
         self.file, self.path, self.message = file, path, message
+
+
+def one_line(text: str) -> str:
+    """A message as one printable line: every character that does not print (line breaks,
+    terminal escapes, direction overrides, unassigned code points) written as its Python
+    escape, never echoed raw."""
+    if text.isprintable():
+        return text
+    return "".join(ch if ch.isprintable() else repr(ch)[1:-1] for ch in text)
 
 
 class ChainPathError(ChainFileError):
@@ -60,14 +70,22 @@ SETTINGS_FIELDS = (
 SOURCE_FIELDS = (
     f.Field("level", f.LEVEL, "nominal programme level (sine-equivalent)"),
     f.Field("max_level", f.LEVEL, "hottest level the input must take (default: level)", None),
-    f.Field("impedance", f.RESISTANCE_OR_ZERO, "source output impedance (resistive)", 0.0),
+    f.Field("impedance", f.SOURCE_IMPEDANCE, "source output impedance (resistive)", 0.0),
 )
 LOAD_FIELDS = (
-    f.Field("impedance", f.RESISTANCE, "nominal load (loudspeaker) impedance"),
+    f.Field("impedance", f.LOAD_IMPEDANCE, "nominal load (loudspeaker) impedance"),
     f.Field("sensitivity", f.DECIBELS, "SPL at 1 m for 1 W (enables SPL figures)", None),
     *LOUDSPEAKER_FIELDS,
 )
 TOP_TABLES = ("chain", "source", "load", "opamp", "transistor", "supply", "stage")
+# The analysis solves every frequency point for every combination of swept pot rotations
+# at once: these two bounds keep that grid within memory (budget/analysis.py: at least
+# 3 rotations a pot, MAX_COMBINATIONS; the default grid is 120 points in 20 Hz to 20 kHz).
+MAX_BAND_POINTS = 1000
+MAX_SWEPT_POTS = 6
+# A chain file is a page or two of text; past this it is something else (a log, an image, a
+# device such as /dev/zero), read no further.
+MAX_FILE_BYTES = 2**20
 
 
 @dataclass(frozen=True)
@@ -237,7 +255,7 @@ class _Reader:
 
     def table(self, data: object, path: str) -> dict[str, Any]:
         if not isinstance(data, dict):
-            raise self.error(path, f"got {data!r}, expected a table")
+            raise self.error(path, f"got {shown(data)}, expected a table")
         return data
 
     def read(
@@ -249,10 +267,13 @@ class _Reader:
     ) -> dict[str, Any]:
         """Read ``data`` against ``schema``: unknown keys, missing keys, bad values."""
         schema = tuple(schema)
-        known = {field.key for field in schema} | set(skip)
+        known = [*skip, *(field.key for field in schema)]
         for key in data:
             if key not in known:
-                raise self.error(f"{path}.{key}", "unknown field" + suggest(key, known))
+                raise self.error(
+                    f"{path}.{quoted(key)[1:-1]}",
+                    "unknown field" + suggest(key, known) + "; its fields: " + listing(known),
+                )
         values: dict[str, Any] = {}
         for field in schema:
             if field.key not in data:
@@ -272,25 +293,35 @@ class _Reader:
     def named_list(self, data: Mapping[str, Any], key: str) -> list[dict[str, Any]]:
         items = data.get(key, [])
         if not isinstance(items, list):
-            raise self.error(key, f"expected an array of tables [[{key}]]")
+            raise self.error(key, f"got {shown(items)}, expected an array of tables [[{key}]]")
         return [self.table(item, f"{key}[{i}]") for i, item in enumerate(items, start=1)]
 
     def name_and_kind(
         self, item: Mapping[str, Any], path: str, kinds: Iterable[str]
     ) -> tuple[str, str]:
-        name = item.get("name")
-        if not isinstance(name, str) or not name.strip():
-            raise self.error(f"{path}.name", f"got {name!r}, expected a name in quotes")
+        if "name" not in item:
+            raise self.error(f"{path}.name", "missing required field (a name in quotes)")
+        try:
+            name = f.NAME.read(item["name"])
+        except UnitParseError as exc:
+            raise self.error(f"{path}.name", str(exc)) from None
         kind = item.get("kind")
-        labelled = f'{path} "{name}"'
-        if not isinstance(kind, str):
+        labelled = f"{path} {quoted(name)}"
+        if "kind" not in item:
             raise self.error(
                 f"{labelled}.kind", "missing required field, one of " + ", ".join(kinds)
+            )
+        if not isinstance(kind, str):
+            raise self.error(
+                f"{labelled}.kind", f"got {shown(kind)}, expected one of " + ", ".join(kinds)
             )
         if kind not in kinds:
             raise self.error(
                 f"{labelled}.kind",
-                f'unknown kind "{kind}"' + suggest(kind, kinds) + "; known: " + ", ".join(kinds),
+                f"unknown kind {quoted(kind)}"
+                + suggest(kind, kinds)
+                + "; known: "
+                + ", ".join(kinds),
             )
         return name, kind
 
@@ -311,7 +342,11 @@ def _parts(
 ) -> dict[str, Any]:
     found = dict(generic)
     for name, body in reader.table(data.get(table, {}), table).items():
-        path = f"{table}.{name}"
+        path = f"{table}.{quoted(name)[1:-1]}"
+        try:
+            f.NAME.read(name)
+        except UnitParseError as exc:
+            raise reader.error(path, "a part's name: " + str(exc)) from None
         found[name] = cls(name=name, **reader.read(reader.table(body, path), schema, path))
     return found
 
@@ -320,6 +355,14 @@ def _settings(reader: _Reader, data: Mapping[str, Any], default_title: str) -> S
     body = reader.table(data.get("chain", {}), "chain")
     values = reader.read(body, SETTINGS_FIELDS, "chain")
     lo, hi = values["band"]
+    points = values["points_per_decade"] * math.log10(hi / lo)
+    if points > MAX_BAND_POINTS:
+        raise reader.error(
+            "chain.points_per_decade",
+            f"got {values['points_per_decade']} points per decade over {math.log10(hi / lo):.3g} "
+            f"decades ({points:.0f} points), expected at most {MAX_BAND_POINTS} points in the "
+            "band: fewer points per decade or a narrower band",
+        )
     if not lo <= values["reference"] <= hi:
         raise reader.error(
             "chain.reference",
@@ -333,7 +376,7 @@ def _supplies(reader: _Reader, data: Mapping[str, Any]) -> tuple[Supply, ...]:
     found: list[Supply] = []
     for index, item in enumerate(reader.named_list(data, "supply"), start=1):
         name, kind = reader.name_and_kind(item, f"supply[{index}]", SUPPLY_KINDS)
-        path = f'supply[{index}] "{name}"'
+        path = f"supply[{index}] {quoted(name)}"
         spec = SUPPLY_KINDS[kind]
         schema = spec.fields
         if spec.needs_parent:
@@ -344,26 +387,38 @@ def _supplies(reader: _Reader, data: Mapping[str, Any]) -> tuple[Supply, ...]:
         for key, message in spec.problems(values):
             raise reader.error(f"{path}.{key}", message)
         if name == GROUND_SUPPLY or any(s.name == name for s in found):
-            raise reader.error(f"{path}.name", f'"{name}" is already defined')
+            raise reader.error(f"{path}.name", f"{quoted(name)} is already defined")
         found.append(Supply(index, name, kind, values))
     names = [s.name for s in found]
     for supply in found:
         parent = supply.parent
         if parent is not None and parent not in names:
             raise reader.error(
-                f"{supply.path}.from", f'no supply named "{parent}"' + suggest(parent, names)
+                f"{_path(supply)}.from",
+                f"no supply named {quoted(parent)}"
+                + suggest(parent, names)
+                + "; the supplies are: "
+                + listing(names),
             )
     for supply in found:  # a cycle would make the power tree unsolvable
-        seen, here = {supply.name}, supply.parent
+        chain, here = [supply.name], supply.parent
         while here is not None:
-            if here in seen:
+            if here in chain:
+                loop = chain[chain.index(here) :] + [here]
                 raise reader.error(
-                    f"{supply.path}.from",
-                    "the supplies feed each other in a loop; a supply tree must end at a source",
+                    f"{_path(supply)}.from",
+                    "the supplies feed each other in a loop ("
+                    + " <- ".join(quoted(name, 30) for name in loop)
+                    + "); a supply tree must end at a source",
                 )
-            seen.add(here)
+            chain.append(here)
             here = next(s for s in found if s.name == here).parent
     return tuple(found)
+
+
+def _path(entry: Stage | Supply) -> str:
+    """An entry's table path as messages show it (its name quoted safely)."""
+    return f"{entry.table}[{entry.index}] {quoted(entry.name)}"
 
 
 def _stages(
@@ -380,17 +435,20 @@ def _stages(
         raise reader.error("stage", "a chain needs at least one [[stage]]")
     for index, item in enumerate(items, start=1):
         name, kind = reader.name_and_kind(item, f"stage[{index}]", STAGE_KINDS)
-        path = f'stage[{index}] "{name}"'
+        path = f"stage[{index}] {quoted(name)}"
         spec = STAGE_KINDS[kind]
         values = reader.read(item, spec.fields, path, skip=("name", "kind"))
         for key in spec.missing(values):
             raise reader.error(f"{path}.{key}", _missing(spec.fields, key, " for this topology"))
         if any(s.name == name for s in found):
-            raise reader.error(f"{path}.name", f'"{name}" names an earlier stage too')
+            raise reader.error(f"{path}.name", f"{quoted(name)} names an earlier stage too")
         if "opamp" in values and values["opamp"] not in opamps:
             raise reader.error(
                 f"{path}.opamp",
-                f'no op-amp named "{values["opamp"]}"' + suggest(values["opamp"], opamps),
+                f"no op-amp named {quoted(values['opamp'])}"
+                + suggest(values["opamp"], opamps)
+                + "; the op-amps are: "
+                + listing(opamps),
             )
         for key, message in spec.part_problems(values, transistors):
             raise reader.error(f"{path}.{key}", message)
@@ -407,11 +465,31 @@ def _stages(
                 if wanted is not None and wanted != GROUND_SUPPLY and wanted not in rail_names:
                     raise reader.error(
                         f"{path}.{rail}",
-                        f'no supply named "{wanted}"'
-                        + suggest(wanted, [*rail_names, GROUND_SUPPLY]),
+                        f"no supply named {quoted(wanted)}"
+                        + suggest(wanted, [*rail_names, GROUND_SUPPLY])
+                        + "; the supplies are: "
+                        + listing([*rail_names, GROUND_SUPPLY]),
                     )
         found.append(Stage(index, name, kind, values))
     return tuple(found)
+
+
+def _swept_pots(reader: _Reader, stages: tuple[Stage, ...]) -> None:
+    """Refuse more swept pots than the worst-case search can hold (MAX_SWEPT_POTS)."""
+    swept = [
+        (stage, control.key)
+        for stage in stages
+        for control in STAGE_KINDS[stage.kind].controls(stage)
+        if control.sweep
+    ]
+    if len(swept) > MAX_SWEPT_POTS:
+        stage, key = swept[MAX_SWEPT_POTS]
+        raise reader.error(
+            f"{_path(stage)}.sweep",
+            f"{len(swept)} pots are swept in the worst-case search, expected at most "
+            f"{MAX_SWEPT_POTS}: set sweep = false on the stages whose pots are set once "
+            f"(this is the {MAX_SWEPT_POTS + 1}th, {key})",
+        )
 
 
 def parse_chain(data: Mapping[str, Any], file: str) -> Chain:
@@ -425,7 +503,13 @@ def parse_chain(data: Mapping[str, Any], file: str) -> Chain:
     reader = _Reader(file)
     for key in data:
         if key not in TOP_TABLES:
-            raise reader.error(key, "unknown table" + suggest(key, TOP_TABLES))
+            raise reader.error(
+                quoted(key)[1:-1],
+                "unknown table"
+                + suggest(key, TOP_TABLES)
+                + "; the tables: "
+                + ", ".join(TOP_TABLES),
+            )
     settings = _settings(reader, data, Path(file).stem)
     if "source" not in data:
         raise reader.error("source", "missing required table [source]")
@@ -451,6 +535,7 @@ def parse_chain(data: Mapping[str, Any], file: str) -> Chain:
     stages = _stages(reader, data, supplies, opamps, transistors)
     for index, key, message in loop_problems(stages):
         raise reader.error(f"{stages[index].path}.{key}", message)
+    _swept_pots(reader, stages)
     return Chain(
         file=file,
         settings=settings,
@@ -475,6 +560,8 @@ def loads_chain(text: str, name: str = "<text>") -> Chain:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise ChainFileError(name, "", f"not valid TOML: {exc}") from None
+    except RecursionError:
+        raise ChainFileError(name, "", "not a chain file: its tables nest too deeply") from None
     return parse_chain(data, name)
 
 
@@ -488,9 +575,18 @@ def load_chain(path: str | Path) -> Chain:
     """
     file = str(path)
     try:
-        text = Path(path).read_text(encoding="utf-8")
+        with open(path, "rb") as stream:
+            raw = stream.read(MAX_FILE_BYTES + 1)
     except OSError as exc:
         raise ChainFileError(file, "", f"cannot read the file ({exc.strerror})") from None
+    if len(raw) > MAX_FILE_BYTES:
+        raise ChainFileError(
+            file, "", f"over {MAX_FILE_BYTES // 2**20} MiB: too large to be a chain file"
+        )
+    if b"\x00" in raw:
+        raise ChainFileError(file, "", "a binary file, not a chain file (TOML text)")
+    try:
+        text = raw.decode("utf-8")
     except UnicodeDecodeError:
         raise ChainFileError(file, "", "not a UTF-8 text file") from None
     return loads_chain(text, file)

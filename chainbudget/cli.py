@@ -6,7 +6,7 @@ import io
 import json
 import sys
 from pathlib import Path
-from typing import Annotated
+from typing import Annotated, Any
 
 import tomli_w
 import typer
@@ -14,16 +14,39 @@ from rich import box
 from rich.console import Console
 from rich.markup import escape
 from rich.table import Table
+from typer.core import TyperCommand, TyperGroup
 
+from chainbudget import __version__
 from chainbudget.blocks import catalogue, default_text, generic_parts
 from chainbudget.budget import Budget, compute
-from chainbudget.chainfile import ChainError, load_chain
+from chainbudget.chainfile import ChainError, load_chain, one_line
 from chainbudget.fields import suggest
 from chainbudget.report import noise as noise_view
 from chainbudget.report.json_view import budget_json, without_nulls
 from chainbudget.report.table_view import render
 
+
+class _FlagsWithoutType:
+    """Help that shows no "<bool>" after a flag: a flag takes no value to type."""
+
+    def get_params(self, ctx: Any) -> list[Any]:
+        params: list[Any] = super().get_params(ctx)  # type: ignore[misc]
+        for param in params:
+            if getattr(param, "is_flag", False) and param.metavar is None:
+                param.metavar = ""
+        return params
+
+
+class _Command(_FlagsWithoutType, TyperCommand):
+    pass
+
+
+class _Group(_FlagsWithoutType, TyperGroup):
+    pass
+
+
 app = typer.Typer(
+    cls=_Group,
     add_completion=False,
     no_args_is_help=True,
     help="Gain, headroom, noise, drive and supply budgets of small audio amplifier chains.",
@@ -31,6 +54,24 @@ app = typer.Typer(
 
 EXIT_OK, EXIT_ERRORS, EXIT_BAD_INPUT = 0, 1, 2
 STARTER = Path(__file__).parent / "templates" / "starter.toml"
+
+
+def _show_version(wanted: bool) -> None:
+    if wanted:
+        typer.echo(f"chainbudget {__version__}")
+        raise typer.Exit(EXIT_OK)
+
+
+@app.callback()
+def _options(
+    version: Annotated[
+        bool,
+        typer.Option(
+            "--version", help="print the version and exit", is_eager=True, callback=_show_version
+        ),
+    ] = False,
+) -> None:
+    """Gain, headroom, noise, drive and supply budgets of small audio amplifier chains."""
 
 
 def _console() -> Console:
@@ -41,14 +82,32 @@ def _console() -> Console:
 
 
 def _fail(message: str) -> typer.Exit:
-    typer.echo(f"chainbudget: {message}", err=True)
+    typer.echo(f"chainbudget: {one_line(message)}", err=True)
     return typer.Exit(EXIT_BAD_INPUT)
+
+
+def _numeric_failure(exc: BaseException) -> bool:
+    """An arithmetic failure of the analysis (the loader refuses every value known to cause
+    one; this is the last guard, so that even an unforeseen one is one line, not a
+    traceback)."""
+    linalg = getattr(sys.modules.get("numpy"), "linalg", None)
+    return isinstance(exc, ArithmeticError | MemoryError | RecursionError) or (
+        linalg is not None and isinstance(exc, linalg.LinAlgError)
+    )
+
+
+def _analysis_failed(file: Path, exc: BaseException) -> typer.Exit:
+    return _fail(
+        f"{file}: the analysis cannot be carried through for this chain "
+        f"({type(exc).__name__}: {exc}); check its values for one far outside the circuit's "
+        "range"
+    )
 
 
 CHECK_FORMATS = ("table", "json", "toml", "html")
 
 
-@app.command()
+@app.command(cls=_Command)
 def check(
     file: Annotated[Path, typer.Argument(help="chain file (TOML)")],
     output_format: Annotated[
@@ -80,19 +139,23 @@ def check(
         raise _fail(f"{output}: already exists; pass --force to overwrite it")
     try:
         chain = load_chain(file)
+        if output_format == "html":
+            # matplotlib and the pictures load only on this path.
+            from chainbudget.report.html_view import html_page
+            from chainbudget.report.pictures import NAMES, draw, picture_inputs
+
+            inputs = picture_inputs(chain)
+            budget = inputs.budget
+            text = html_page(budget, [draw(name, inputs) for name in NAMES])
+        else:
+            budget = compute(chain)
+            text = _report_text(budget, output_format, noise_detail, brief, output is None)
     except ChainError as exc:
         raise _fail(str(exc)) from None
-    if output_format == "html":
-        # matplotlib and the pictures load only on this path.
-        from chainbudget.report.html_view import html_page
-        from chainbudget.report.pictures import NAMES, draw, picture_inputs
-
-        inputs = picture_inputs(chain)
-        budget = inputs.budget
-        text = html_page(budget, [draw(name, inputs) for name in NAMES])
-    else:
-        budget = compute(chain)
-        text = _report_text(budget, output_format, noise_detail, brief, output is None)
+    except Exception as exc:
+        if _numeric_failure(exc):
+            raise _analysis_failed(file, exc) from None
+        raise
     if output is None:
         if text:
             typer.echo(text, nl=not text.endswith("\n"))
@@ -130,7 +193,7 @@ def _report_text(
     return tomli_w.dumps(without_nulls(data))
 
 
-@app.command()
+@app.command(cls=_Command)
 def blocks(
     kind: Annotated[str | None, typer.Argument(help="a stage or supply kind, or a table")] = None,
 ) -> None:
@@ -178,7 +241,7 @@ def blocks(
         console.print(shipped)
 
 
-@app.command()
+@app.command(cls=_Command)
 def plot(
     file: Annotated[Path, typer.Argument(help="chain file (TOML)")],
     output: Annotated[
@@ -239,7 +302,14 @@ def plot(
     stages = [st.name for st in chain.stages]
     if node is not None and node not in stages:
         raise _fail(f'--node: no stage named "{node}"{suggest(node, stages)}')
-    inputs = picture_inputs(chain)
+    try:
+        inputs = picture_inputs(chain)
+    except ChainError as exc:
+        raise _fail(str(exc)) from None
+    except Exception as exc:
+        if _numeric_failure(exc):
+            raise _analysis_failed(file, exc) from None
+        raise
     options = PictureOptions(node=node, phase=phase, square_hz=square_hz or SQUARE_HZ)
     for name, target in targets.items():
         picture = draw(name, inputs, options)
@@ -284,7 +354,7 @@ def _frequency(option: str, text: str) -> float:
     return value
 
 
-@app.command()
+@app.command(cls=_Command)
 def sweep(
     file: Annotated[Path, typer.Argument(help="chain file (TOML)")],
     control: Annotated[
@@ -351,7 +421,7 @@ def sweep(
         typer.echo(sweep_text(info, rows, output_format), nl=output_format == "json")
 
 
-@app.command()
+@app.command(cls=_Command)
 def new(
     file: Annotated[Path, typer.Argument(help="where to write the starter chain")],
     force: Annotated[bool, typer.Option(help="overwrite an existing file")] = False,

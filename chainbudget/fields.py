@@ -9,12 +9,14 @@ declaration.
 from __future__ import annotations
 
 import difflib
+import re
 from collections.abc import Callable, Iterable, Iterator, Mapping
 from dataclasses import dataclass
 from typing import Any, ClassVar, NoReturn, TypeVar
 
-from chainbudget import units
-from chainbudget.units import UnitParseError
+from chainbudget import plausible, units
+from chainbudget.plausible import Plausible
+from chainbudget.units import UnitParseError, shown
 
 _K = TypeVar("_K")
 _V = TypeVar("_V")
@@ -24,6 +26,22 @@ def suggest(word: str, options: Iterable[str]) -> str:
     """A ``(did you mean "x"?)`` tail for a mistyped key or kind, or nothing."""
     close = difflib.get_close_matches(word, list(options), n=1, cutoff=0.6)
     return f' (did you mean "{close[0]}"?)' if close else ""
+
+
+def quoted(text: object, limit: int = 40) -> str:
+    """Text from a file (a name, a key) as a message shows it, in double quotes: control
+    characters escaped as Python does, cut to ``limit`` characters."""
+    body = repr(str(text))[1:-1] if isinstance(text, str) else shown(text)
+    if len(body) > limit:
+        body = body[: limit - 3] + "..."
+    return f'"{body}"'
+
+
+def listing(options: Iterable[str], limit: int = 30) -> str:
+    """Names for a message's "known: ..." list, each quoted safely, cut after ``limit``."""
+    names = [str(option) for option in options]
+    shownames = ", ".join(quoted(name, 30)[1:-1] for name in names[:limit])
+    return shownames + (f", ... ({len(names) - limit} more)" if len(names) > limit else "")
 
 
 class _Required:
@@ -91,8 +109,41 @@ def _quantity(dimension: units.Dimension) -> Callable[[object], float]:
     return lambda value: units.parse_quantity(value, dimension)
 
 
-def _with_unit(unit: str) -> Callable[[float], str]:
-    return lambda number: f"{number!r} {unit}"
+def _with_unit(unit: str, within: Plausible | None = None) -> Callable[[float], str]:
+    """The writer of a quantity: ``"4700.0 ohm"``; a value outside ``within``'s plausible
+    range (kept because the file wrote its prefix in full) is written the same way, so that
+    it reads back bit for bit and is still taken as meant."""
+
+    def write(number: float) -> str:
+        if within is None or within.dimension is None or within.holds(number):
+            return f"{number!r} {unit}"
+        return units.spelled_out(number, within.dimension)
+
+    return write
+
+
+def _within(read: Callable[[object], float], range_: Plausible) -> Callable[[object], float]:
+    """``read``, then the plausibility check of `chainbudget.plausible` (after the sign rules,
+    so that a negative value is told it must be positive)."""
+
+    def checked(value: object) -> float:
+        return range_.check(value, read(value), read)
+
+    return checked
+
+
+def _between(
+    read: Callable[[object], float], low: float, high: float, expected: str
+) -> Callable[[object], float]:
+    """``read``, then a plain range check (no spelled-out escape: a gain, a temperature)."""
+
+    def checked(value: object) -> float:
+        number = read(value)
+        if not low <= number <= high:
+            raise UnitParseError(value, expected)
+        return number
+
+    return checked
 
 
 def _read_position(value: object) -> float:
@@ -102,12 +153,41 @@ def _read_position(value: object) -> float:
     return number
 
 
+# Pot tapers as catalogues mark them. The letters are the usage of pots made in Asia and
+# sold in the US: A audio (log), B linear, C reverse log. European catalogues have used other
+# letters (older ones marked linear with A and log with B or C; from memory, no source), so
+# a letter is read in the first sense only: write "log" or "linear" where in doubt.
+_TAPER_WORDS = {
+    "linear": "linear", "lin": "linear", "b": "linear",
+    "log": "log", "logarithmic": "log", "audio": "log", "a": "log",
+}  # fmt: skip
+# Reverse log (anti-log), the mirror image of the log law: 1 - g(1 - x) with
+# g(x) = (10^(2x) - 1)/99 equals (1 - 100^-x)/0.99, which is the fraction-at-mid law
+# (b^x - 1)/(b - 1) of `taper_fraction` with b = (1/m - 1)^2 = 0.01, i.e. m = 10/11.
+REVERSE_LOG_MID = 10.0 / 11.0
+_REVERSE_WORDS = ("c", "reverse log", "reverse audio", "anti log", "antilog", "reverse")
+_TAPER_EXPECTED = (
+    '"log" (or "A", "audio"), "linear" (or "B", "lin"), "reverse log" (or "C"), or the '
+    'fraction at mid rotation, such as "10 %" or 0.1'
+)
+
+
 def _read_taper(value: object) -> str | float:
-    if value in ("linear", "log"):
-        return str(value)
-    if isinstance(value, int | float) and not isinstance(value, bool) and 0.0 < value < 1.0:
-        return float(value)
-    raise UnitParseError(value, '"linear", "log" or the fraction at mid rotation (0 to 1)')
+    if isinstance(value, str):
+        word = " ".join(re.split(r"[\s_-]+", value.lower())).strip()
+        if word in _TAPER_WORDS:
+            return _TAPER_WORDS[word]
+        if word in _REVERSE_WORDS:
+            return REVERSE_LOG_MID
+    if isinstance(value, bool):
+        raise UnitParseError(value, _TAPER_EXPECTED)
+    try:
+        mid = units.parse_fraction(value)
+    except UnitParseError:
+        raise UnitParseError(value, _TAPER_EXPECTED) from None
+    if not 0.0 < mid < 1.0:
+        raise UnitParseError(value, _TAPER_EXPECTED + " (a fraction between 0 and 1)")
+    return mid
 
 
 def _read_bool(value: object) -> bool:
@@ -116,23 +196,31 @@ def _read_bool(value: object) -> bool:
     raise UnitParseError(value, "true or false")
 
 
+# Characters a name or title may not hold: control characters, and the bidirectional
+# overrides that make text show in another order than it reads.
+_UNPRINTABLE_RE = re.compile(r"[\x00-\x1f\x7f-\x9f\u202a-\u202e\u2066-\u2069]")
+
+
 def _read_name(value: object) -> str:
-    if isinstance(value, str) and value.strip():
-        return value
-    raise UnitParseError(value, "a name in quotes")
+    if not (isinstance(value, str) and value.strip()):
+        raise UnitParseError(value, "a name in quotes")
+    if _UNPRINTABLE_RE.search(value):
+        raise UnitParseError(value, "a name in quotes without control characters")
+    return value
 
 
 def _read_integer(value: object) -> int:
-    if isinstance(value, int) and not isinstance(value, bool) and value > 0:
+    low, high = plausible.GRID_POINTS_PER_DECADE
+    if isinstance(value, int) and not isinstance(value, bool) and low <= value <= high:
         return value
-    raise UnitParseError(value, "a whole number above zero")
+    raise UnitParseError(value, f"a whole number from {low} to {high}")
 
 
 def _read_band(value: object) -> tuple[float, float]:
     expected = 'two frequencies, low first, such as ["20 Hz", "20 kHz"]'
     if not (isinstance(value, list) and len(value) == 2):
         raise UnitParseError(value, expected)
-    lo, hi = (units.parse_quantity(item, units.HERTZ) for item in value)
+    lo, hi = (FREQUENCY.read(item) for item in value)
     if not 0.0 < lo < hi:
         raise UnitParseError(value, expected)
     return lo, hi
@@ -150,58 +238,136 @@ def choice(*options: str) -> FieldKind:
     return FieldKind(" | ".join(options), read, str)
 
 
-RESISTANCE = FieldKind("ohm", _positive(_quantity(units.OHM), "a resistance"), _with_unit("ohm"))
-RESISTANCE_OR_ZERO = FieldKind(
-    "ohm", _non_negative(_quantity(units.OHM), "a resistance"), _with_unit("ohm")
+def _quantity_kind(
+    unit: str,
+    dimension: units.Dimension,
+    range_: Plausible,
+    sign: Callable[[Callable[[object], float], str], Callable[[object], float]] | None,
+    what: str,
+) -> FieldKind:
+    """A quantity's field kind: read in ``dimension``, the sign rule, the plausible range."""
+    read = _quantity(dimension)
+    if sign is not None:
+        read = sign(read, what)
+    return FieldKind(unit, _within(read, range_), _with_unit(unit, range_))
+
+
+RESISTANCE = _quantity_kind("ohm", units.OHM, plausible.PART_OHMS, _positive, "a resistance")
+RESISTANCE_OR_ZERO = _quantity_kind(
+    "ohm", units.OHM, plausible.SMALL_OHMS, _non_negative, "a resistance"
 )
+SOURCE_IMPEDANCE = _quantity_kind(
+    "ohm", units.OHM, plausible.SOURCE_OHMS, _non_negative, "a source impedance"
+)
+LOAD_IMPEDANCE = _quantity_kind("ohm", units.OHM, plausible.LOAD_OHMS, _positive, "a load")
 CAPACITANCE = FieldKind(
-    "F", _positive(_quantity(units.FARAD), "a capacitance"), _with_unit("farad")
+    "F",
+    _within(_positive(_quantity(units.FARAD), "a capacitance"), plausible.CAPACITANCE),
+    _with_unit("farad", plausible.CAPACITANCE),
 )
-FREQUENCY = FieldKind("Hz", _positive(_quantity(units.HERTZ), "a frequency"), _with_unit("Hz"))
-VOLTAGE = FieldKind("V", _quantity(units.VOLT), _with_unit("V"))
-POSITIVE_VOLTAGE = FieldKind("V", _positive(_quantity(units.VOLT), "a voltage"), _with_unit("V"))
-VOLTAGE_OR_ZERO = FieldKind("V", _non_negative(_quantity(units.VOLT), "a voltage"), _with_unit("V"))
-CURRENT = FieldKind("A", _non_negative(_quantity(units.AMPERE), "a current"), _with_unit("A"))
-POSITIVE_CURRENT = FieldKind("A", _positive(_quantity(units.AMPERE), "a current"), _with_unit("A"))
-SLEW_RATE = FieldKind("V/s", _positive(_quantity(units.SLEW), "a slew rate"), _with_unit("V/s"))
-NOISE_VOLTAGE = FieldKind(
-    "V/rtHz",
-    _non_negative(_quantity(units.NOISE_VOLTAGE), "a noise density"),
-    _with_unit("V/rtHz"),
+FREQUENCY = _quantity_kind("Hz", units.HERTZ, plausible.FREQUENCY, _positive, "a frequency")
+VOLTAGE = _quantity_kind("V", units.VOLT, plausible.VOLTAGE, None, "a voltage")
+POSITIVE_VOLTAGE = _quantity_kind("V", units.VOLT, plausible.VOLTAGE, _positive, "a voltage")
+VOLTAGE_OR_ZERO = _quantity_kind("V", units.VOLT, plausible.VOLTAGE, _non_negative, "a voltage")
+CURRENT = _quantity_kind("A", units.AMPERE, plausible.CURRENT, _non_negative, "a current")
+POSITIVE_CURRENT = _quantity_kind("A", units.AMPERE, plausible.CURRENT, _positive, "a current")
+# Peaks: a plain "12 V" is the peak itself; "24 Vpp" and "8.49 Vrms" are converted to it.
+PEAK_VOLTAGE = FieldKind(
+    "V peak",
+    _within(_positive(units.parse_peak, "a peak voltage"), plausible.VOLTAGE),
+    _with_unit("V", plausible.VOLTAGE),
 )
-NOISE_CURRENT = FieldKind(
-    "A/rtHz",
-    _non_negative(_quantity(units.NOISE_CURRENT), "a noise density"),
-    _with_unit("A/rtHz"),
+PEAK_CURRENT = FieldKind(
+    "A peak",
+    _within(
+        _positive(lambda value: units.parse_peak(value, units.AMPERE), "a peak current"),
+        plausible.CURRENT,
+    ),
+    _with_unit("A", plausible.CURRENT),
 )
-THERMAL_RESISTANCE = FieldKind(
+SLEW_RATE = _quantity_kind("V/s", units.SLEW, plausible.SLEW_RATE, _positive, "a slew rate")
+NOISE_VOLTAGE = _quantity_kind(
+    "V/rtHz", units.NOISE_VOLTAGE, plausible.NOISE_VOLTAGE, _non_negative, "a noise density"
+)
+NOISE_CURRENT = _quantity_kind(
+    "A/rtHz", units.NOISE_CURRENT, plausible.NOISE_CURRENT, _non_negative, "a noise density"
+)
+THERMAL_RESISTANCE = _quantity_kind(
     "K/W",
-    _non_negative(_quantity(units.THERMAL_RESISTANCE), "a thermal resistance"),
-    _with_unit("K/W"),
+    units.THERMAL_RESISTANCE,
+    plausible.THERMAL_RESISTANCE,
+    _non_negative,
+    "a thermal resistance",
 )
-CHARGE = FieldKind("Ah", _positive(_quantity(units.CHARGE), "a capacity"), _with_unit("Ah"))
-TEMPERATURE = FieldKind("degC", units.parse_temperature, _with_unit("degC"))
-LEVEL = FieldKind("level (Vrms, Vpk, Vpp, dBV, dBu)", units.parse_level, _with_unit("Vrms"))
+CHARGE = _quantity_kind("Ah", units.CHARGE, plausible.CHARGE, _positive, "a capacity")
+TEMPERATURE = FieldKind(
+    "degC",
+    _between(units.parse_temperature, *plausible.TEMPERATURE_DEGC, plausible.TEMPERATURE_TEXT),
+    _with_unit("degC"),
+)
+LEVEL = FieldKind(
+    "level (Vrms, Vpk, Vpp, dBV, dBu)",
+    _within(units.parse_level, plausible.LEVEL),
+    _with_unit("Vrms", plausible.LEVEL),
+)
 GAIN = FieldKind("dB or ratio", units.parse_gain, float)
 
 
 def _read_nonzero_gain(value: object) -> float:
     gain = units.parse_gain(value)
+    low, _ = plausible.GAIN_RATIO
     if gain == 0.0:
         raise UnitParseError(value, 'a voltage gain other than zero, such as "26 dB" or 20')
+    if abs(gain) < low:
+        raise UnitParseError(value, "a voltage gain of at least -200 dB (a ratio of 1e-10)")
+    return gain
+
+
+def _read_open_loop_gain(value: object) -> float:
+    gain = units.parse_gain(value)
+    low, high = plausible.OPEN_LOOP_RATIO
+    if not low <= gain <= high:
+        raise UnitParseError(
+            value, 'an open-loop gain from 0 to 200 dB, such as "100 dB" (a ratio of 1e5)'
+        )
     return gain
 
 
 NONZERO_GAIN = FieldKind("dB or ratio", _read_nonzero_gain, float)
-DECIBELS = FieldKind("dB", units.parse_db, _with_unit("dB"))
-FRACTION = FieldKind("fraction or %", _non_negative(units.parse_fraction, "a fraction"), float)
-RATIO = FieldKind("number", _positive(units.parse_fraction, "a number"), float)
+OPEN_LOOP_GAIN = FieldKind("dB or ratio", _read_open_loop_gain, float)
+DECIBELS = FieldKind(
+    "dB",
+    _between(units.parse_db, *plausible.DECIBELS, 'a figure from -200 to 200 dB, such as "65 dB"'),
+    _with_unit("dB"),
+)
+FRACTION = FieldKind(
+    "fraction or %",
+    _between(
+        _non_negative(units.parse_fraction, "a fraction"),
+        *plausible.FRACTION,
+        'a fraction from 0 to 10 (1000 %), such as 0.1 or "10 %"',
+    ),
+    float,
+)
+RATIO = FieldKind(
+    "number",
+    _between(
+        _positive(units.parse_fraction, "a number"),
+        *plausible.RATIO,
+        "a number from 0.001 to 10 million",
+    ),
+    float,
+)
 POSITION = FieldKind("0..1", _read_position, float)
-TAPER = FieldKind('"linear" | "log" | fraction at mid', _read_taper, lambda v: v)
+TAPER = FieldKind(
+    '"log" (A) | "linear" (B) | "reverse log" (C) | fraction at mid', _read_taper, lambda v: v
+)
 FLAG = FieldKind("true | false", _read_bool, bool)
 NAME = FieldKind("name", _read_name, str)
 COUNT = FieldKind("whole number", _read_integer, int)
-BAND = FieldKind("[low, high] Hz", _read_band, lambda band: [f"{band[0]!r} Hz", f"{band[1]!r} Hz"])
+BAND = FieldKind(
+    "[low, high] Hz", _read_band, lambda band: [FREQUENCY.write(band[0]), FREQUENCY.write(band[1])]
+)
 
 
 class FrozenMapping(Mapping[_K, _V]):

@@ -23,6 +23,7 @@ from typing import Any
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
+from chainbudget import ChainError
 from chainbudget.spectrum import thermal_current_psd
 
 GROUND = "0"
@@ -43,6 +44,23 @@ GMIN = 1e-15
 SOURCE_FLOOR_OHM = 1e-3
 
 Complex = NDArray[np.complexfloating[Any, Any]]
+
+
+class SingularNetwork(ValueError, ChainError):
+    """A network whose equations have no single solution (a node both cut off and driven,
+    two ideal sources in a loop): an input error of the chain, which the budget reports with
+    the stage it was solving."""
+
+
+def _solved(m: Complex, b: Complex) -> Complex:
+    """``np.linalg.solve``, a singular matrix reported as `SingularNetwork`."""
+    try:
+        return np.linalg.solve(m, b)
+    except np.linalg.LinAlgError:
+        raise SingularNetwork(
+            "its network has no single solution (a node shorted or cut off, most likely by a "
+            "value far outside its range)"
+        ) from None
 
 
 @dataclass(frozen=True)
@@ -355,7 +373,7 @@ class Netlist:
         m = self.matrix()
         b = np.asarray(rhs, dtype=complex)
         b = np.broadcast_to(b, (*m.shape[:-2], *b.shape[-2:]))
-        return np.linalg.solve(m, b)
+        return _solved(m, b)
 
     def return_ratio(self, label: str) -> Complex:
         """Bode's return ratio of the controlled source ``label`` (a `vcvs` or `opamp`).
@@ -406,7 +424,7 @@ class Netlist:
         m = self.matrix()
         e = np.zeros(m.shape[:-1], dtype=complex)
         e[..., self.nodes[output_node]] = 1.0
-        z = np.linalg.solve(np.swapaxes(m, -1, -2), e[..., None])[..., 0]
+        z = _solved(np.swapaxes(m, -1, -2), e[..., None])[..., 0]
         transfers = [
             sum(
                 (z[..., self.index(ref)] * coefficient for ref, coefficient in source.rhs),

@@ -9,7 +9,9 @@ from __future__ import annotations
 
 import math
 import re
+import reprlib
 from dataclasses import dataclass
+from decimal import Decimal
 from functools import lru_cache
 
 import pint
@@ -22,6 +24,21 @@ DBV_REFERENCE_VRMS = 1.0
 ABSOLUTE_ZERO_KELVIN_IN_DEGC = 273.15  # 0 K = -273.15 degC (SI Brochure, 9th ed., sec. 2.3.1)
 
 
+# A message echoes what the file held, never more than this much of it.
+_GIVEN_LIMIT = 60
+_REPR = reprlib.Repr()
+_REPR.maxstring = _GIVEN_LIMIT
+_REPR.maxother = _GIVEN_LIMIT
+_REPR.maxlevel = 2
+_REPR.maxlist = _REPR.maxdict = 4
+
+
+def shown(value: object) -> str:
+    """A value from a file as a message shows it: its repr (control characters escaped),
+    cut to a few dozen characters, safe for any depth of nesting."""
+    return _REPR.repr(value)
+
+
 class UnitParseError(ValueError, ChainError):
     """A value that could not be read as the quantity a field expects.
 
@@ -31,7 +48,7 @@ class UnitParseError(ValueError, ChainError):
     """
 
     def __init__(self, given: object, expected: str) -> None:
-        super().__init__(f"got {given!r}, expected {expected}")
+        super().__init__(f"got {shown(given)}, expected {expected}")
         self.given = given
         self.expected = expected
 
@@ -65,13 +82,20 @@ THERMAL_RESISTANCE = Dimension("kelvin / watt", "a thermal resistance", '"50 K/W
 CHARGE = Dimension("ampere * hour", "a battery capacity", '"2.2 Ah"')
 DIMENSIONLESS = Dimension("dimensionless", "a plain number", "200")
 
+_NUMBER = r"[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?"
+
 # IEC 60062 letter-for-decimal code: the letter stands for the decimal point and the
-# multiplier ("4k7" = 4.7e3, "470R" = 470, "2n2" = 2.2e-9).
+# multiplier ("4k7" = 4.7e3, "470R" = 470, "2n2" = 2.2e-9). The field's base unit may follow
+# ("4k7 ohm", "2u2F"), as some schematics print it.
 _RESISTOR_CODE = {"R": 1.0, "r": 1.0, "k": 1e3, "K": 1e3, "M": 1e6, "G": 1e9}
 _CAPACITOR_CODE = {"p": 1e-12, "n": 1e-9, "u": 1e-6, "µ": 1e-6, "μ": 1e-6, "m": 1e-3}
-_CODE_RE = re.compile(r"^\s*(\d+(?:\.\d+)?|\d*)([A-Za-zµμ])(\d*)\s*$")
-_NUMBER_RE = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*$")
-_ROOT_HZ_RE = re.compile(r"(rtHz|√\s*Hz|sqrt\(\s*Hz\s*\)|Hz\s*\*\*\s*0?\.5|Hz\^0?\.5)")
+_CODE_RE = re.compile(r"^\s*(\d+(?:\.\d+)?|\d*)([A-Za-zµμ])(\d*)\s*((?i:ohms?)|Ω|F)?\s*$")
+_NUMBER_RE = re.compile(rf"^\s*({_NUMBER})\s*(.*?)\s*$", re.S)
+_ROOT_HZ_RE = re.compile(
+    r"(rt\s*\(?\s*Hz\s*\)?|√\s*\(?\s*Hz\s*\)?|sqrt\s*\(?\s*Hz\s*\)?|Hz\s*\*\*\s*\(?\s*0?\.5\s*\)?"
+    r"|Hz\s*\^\s*\(?\s*(?:0?\.5|1/2)\s*\)?)",
+    re.I,
+)
 
 
 def _letter_code(text: str, dimension: Dimension) -> float | None:
@@ -80,9 +104,11 @@ def _letter_code(text: str, dimension: Dimension) -> float | None:
     match = _CODE_RE.match(text)
     if table is None or match is None:
         return None
-    whole, letter, fraction = match.groups()
+    whole, letter, fraction, unit = match.groups()
     if letter not in table or (not whole and not fraction):
         return None
+    if unit is not None and (unit == "F") != (dimension is FARAD):
+        return None  # "4k7 F" or "2n2 ohm": the unit contradicts the field
     if "." in whole:
         if fraction:  # "4.7k7" is no code
             return None
@@ -91,11 +117,150 @@ def _letter_code(text: str, dimension: Dimension) -> float | None:
     return number * table[letter]
 
 
-def _normalise_unit_text(unit: str) -> str:
+# --- unit spellings ---------------------------------------------------------------------------
+
+# SI prefixes written in full. A value whose prefix is written out ("1 milliohm") is taken
+# as meant even where it looks implausible for its field (see `chainbudget.plausible`).
+_SPELLED_PREFIX = {
+    "pico": -12,
+    "nano": -9,
+    "micro": -6,
+    "milli": -3,
+    "kilo": 3,
+    "mega": 6,
+    "giga": 9,
+}
+_SPELLED_UNIT = {OHM: "ohm", FARAD: "farad", HERTZ: "hertz", VOLT: "volt", AMPERE: "ampere"}
+_SPELLED_RE = re.compile(
+    rf"^\s*({_NUMBER})\s*({'|'.join(_SPELLED_PREFIX)})\s*-?\s*"
+    r"(ohm|farad|hertz|volt|ampere|amp)s?\s*$",
+    re.I,
+)
+# The trade's contractions of a spelled prefix and ohm ("megohm", "kilohm").
+_CONTRACTIONS = {"megohm": "megaohm", "kilohm": "kiloohm", "gigohm": "gigaohm"}
+
+
+def _word(match: re.Match[str]) -> str:
+    """One word of a unit in the form pint reads: ohm in any case ("kOhm", "OHMS"), the
+    trade's contractions ("megohm")."""
+    word = match.group(0)
+    lower = word.lower()
+    if lower.rstrip("s") in _CONTRACTIONS:
+        return _CONTRACTIONS[lower.rstrip("s")]
+    parts = re.fullmatch(r"(.*?)(ohms?)", word, re.I)
+    if parts is None:
+        return word
+    prefix = parts.group(1)
+    return (prefix.lower() if prefix.lower() in _SPELLED_PREFIX else prefix) + "ohm"
+
+
+_WORD_RE = re.compile(r"[A-Za-zµμ]+")
+
+
+def _normalise_unit_text(unit: str, dimension: Dimension) -> str:
+    """A unit as written on datasheets and schematics, in the form pint reads."""
     unit = _ROOT_HZ_RE.sub("(Hz**0.5)", unit)
-    unit = unit.replace("%", "percent").replace("Ω", "ohm").replace("μ", "u")
-    # A temperature difference per watt is written with degC as often as with K.
-    return re.sub(r"deg\s*C\s*/", "K/", unit)
+    unit = unit.replace("%", "percent").replace("Ω", "ohm").replace("Ω", "ohm")
+    unit = unit.replace("μ", "u").replace("µ", "u")
+    unit = re.sub(r"[°º]\s*C", "degC", unit)
+    unit = re.sub(r"[°º]\s*F", "degF", unit)
+    unit = _WORD_RE.sub(_word, unit)
+    if dimension is THERMAL_RESISTANCE:
+        # A temperature difference per watt is written with degC (or a bare C) as often as K.
+        unit = re.sub(r"^(deg\s*C|C)\s*/", "K/", unit)
+    return unit
+
+
+# Case folding for a unit pint did not take ("uf", "KHz", "V/uS"): the base unit in any
+# case, a prefix letter whose other case is no SI prefix (k/K, u/U, n/N, G/g) folded.
+# m/M (milli/mega) and p/P (pico/peta) stay as written: there the case is the meaning.
+_FOLD_BASES = {"ohm": "ohm", "hz": "Hz", "ah": "Ah", "fd": "F", "f": "F", "v": "V"}
+_FOLD_BASES |= {"a": "A", "w": "W", "s": "s", "h": "h"}
+_FOLD_PREFIXES = {"": "", "k": "k", "K": "k", "u": "u", "U": "u", "n": "n", "N": "n"}
+_FOLD_PREFIXES |= {"G": "G", "g": "G", "m": "m", "M": "M", "p": "p"}
+_FOLD_RE = re.compile(r"^([kKuUnNGgmMp]?)((?i:ohm|hz|ah|fd|f|v|a|w|s|h))$")
+
+
+def _fold(unit: str) -> str:
+    def fold(match: re.Match[str]) -> str:
+        word = match.group(0)
+        parts = _FOLD_RE.match(word)
+        if parts is None:
+            return word
+        prefix, base = parts.groups()
+        if prefix == "" and base.lower() == "h" and word == "H":
+            return word  # henry
+        return _FOLD_PREFIXES[prefix] + _FOLD_BASES[base.lower()]
+
+    return _WORD_RE.sub(fold, unit)
+
+
+# Older schematics wrote microfarad as "mf" or "mfd": in a capacitance field, a lower-case
+# or upper-case "mf" is ambiguous between that and the SI millifarad "mF".
+_AMBIGUOUS_FARAD_RE = re.compile(r"^(?:mfd|MFD|Mfd|mf|MF|Mf)$")
+
+
+def _with_pint(number: float, unit: str, dimension: Dimension) -> float | None:
+    """The quantity in SI, or None when pint cannot read it as ``dimension``."""
+    try:
+        quantity = registry().Quantity(number, unit)
+        return float(quantity.to(dimension.si_unit).magnitude)
+    except Exception:  # pint's unit parser raises many types (tokenize errors, asserts...)
+        return None
+
+
+def _spelled_value(text: str, dimension: Dimension) -> float | None:
+    """A value with its prefix written in full ("1 milliohm"), read exactly: the decimal
+    number shifted by the prefix's power of ten, then rounded once to a float."""
+    match = _SPELLED_RE.match(_CONTRACTION_RE.sub(_contract, text))
+    if match is None or _SPELLED_UNIT.get(dimension) != _unit_word(match.group(3)):
+        return None
+    shifted = Decimal(match.group(1)).scaleb(_SPELLED_PREFIX[match.group(2).lower()])
+    return float(shifted)
+
+
+_CONTRACTION_RE = re.compile("|".join(_CONTRACTIONS), re.I)
+
+
+def _contract(match: re.Match[str]) -> str:
+    return _CONTRACTIONS[match.group(0).lower()]
+
+
+def _unit_word(word: str) -> str:
+    word = word.lower()
+    return "ampere" if word == "amp" else word
+
+
+def is_spelled_out(value: object) -> bool:
+    """Whether a value's prefix is written in full (``"1 milliohm"``, ``"2 megohm"``)."""
+    return isinstance(value, str) and bool(_SPELLED_RE.match(_CONTRACTION_RE.sub(_contract, value)))
+
+
+def spelled_out(number: float, dimension: Dimension) -> str:
+    """``number`` (SI) written with its prefix in full, so that it reads back exactly and is
+    taken as meant: ``1e-3, OHM`` -> ``"1 milliohm"``."""
+    unit = _SPELLED_UNIT[dimension]
+    magnitude = abs(number)
+    power = 3 * math.floor(math.log10(magnitude) / 3) if magnitude > 0 else -3
+    power = min(max(power, -12), 9) or -3
+    prefix = next(name for name, p in _SPELLED_PREFIX.items() if p == power)
+    digits = Decimal(repr(number)).scaleb(-power).normalize()
+    return f"{digits:f} {prefix}{unit}"
+
+
+_PREFIX_SWAP_RE = re.compile(rf"^(\s*{_NUMBER}\s*)([mM])([A-Za-zΩ].*)$")
+
+
+def case_readings(value: object) -> list[str]:
+    """Other readings of a value whose prefix letter's case may be a slip: ``"1 mohm"`` ->
+    ``["1 Mohm", "1 ohm"]`` (the prefix's other case, then no prefix)."""
+    if not isinstance(value, str):
+        return []
+    match = _PREFIX_SWAP_RE.match(value)
+    if match is None:
+        return []
+    head, letter, rest = match.groups()
+    return [head + letter.swapcase() + rest, head + rest]
 
 
 def parse_quantity(value: object, dimension: Dimension) -> float:
@@ -104,8 +269,9 @@ def parse_quantity(value: object, dimension: Dimension) -> float:
     Parameters
     ----------
     value : str or number
-        Text such as ``"10 kohm"``, ``"4k7"``, ``"7 V/us"``, ``"8 nV/rtHz"``; a bare number
-        only where the dimension is dimensionless.
+        Text such as ``"10 kohm"``, ``"4k7"``, ``"4.7 kOhm"``, ``"2.2 uf"``, ``"7 V/us"``,
+        ``"8 nV/rtHz"``, ``"1 milliohm"``; a bare number only where the dimension is
+        dimensionless.
     dimension : Dimension
         What the field holds.
 
@@ -118,6 +284,15 @@ def parse_quantity(value: object, dimension: Dimension) -> float:
     ------
     UnitParseError
         When the text is not a number with a unit of the right dimension.
+
+    Notes
+    -----
+    Spellings: pint's own units; IEC 60062 letter codes for resistors and capacitors, a
+    base unit after them allowed; ohm in any case ("kOhm", "OHMS", "Ω", "megohm");
+    root-hertz as rtHz, √Hz, sqrt(Hz), sqrtHz, Hz^0.5, Hz**0.5; degC, °C or a bare C before
+    "/W" in a thermal resistance. When pint takes none of that, the unit is read once more
+    with its case folded where the case carries no meaning ("uf" -> uF, "KHz" -> kHz,
+    "V/uS" -> V/us); m and M (milli, mega) and p and P (pico, peta) are never folded.
     """
     expected = f"{dimension.description} such as {dimension.example}"
     if isinstance(value, bool):
@@ -130,39 +305,56 @@ def parse_quantity(value: object, dimension: Dimension) -> float:
         return float(value)
     if not isinstance(value, str):
         raise UnitParseError(value, expected)
-    coded = _letter_code(value, dimension)
-    if coded is not None:
-        return coded
-    match = _NUMBER_RE.match(value)
-    if match is None:
-        raise UnitParseError(value, expected)
-    number, unit = float(match.group(1)), _normalise_unit_text(match.group(2))
-    if not unit:
-        if dimension is DIMENSIONLESS:
-            return number
-        raise UnitParseError(value, expected + " (a bare number has no unit)")
-    reg = registry()
-    try:
-        quantity = reg.Quantity(number, unit)
-        result = float(quantity.to(dimension.si_unit).magnitude)
-    except Exception:  # pint's unit parser raises many types (tokenize errors, asserts...)
-        raise UnitParseError(value, expected) from None
+    result = _letter_code(value, dimension)
+    if result is None:
+        result = _spelled_value(value, dimension)
+    if result is None:
+        match = _NUMBER_RE.match(value)
+        if match is None:
+            raise UnitParseError(value, expected)
+        number, written = float(match.group(1)), match.group(2)
+        if not written:
+            if dimension is DIMENSIONLESS:
+                return number
+            raise UnitParseError(value, expected + " (a bare number has no unit)")
+        if dimension is FARAD and _AMBIGUOUS_FARAD_RE.match(written):
+            raise UnitParseError(
+                value,
+                'a capacitance in "uF" (microfarad) or "mF" (millifarad): "mf" has meant either',
+            )
+        unit = _normalise_unit_text(written, dimension)
+        result = _with_pint(number, unit, dimension)
+        if result is None and _fold(unit) != unit:
+            result = _with_pint(number, _fold(unit), dimension)
+        if result is None:
+            raise UnitParseError(value, expected)
     if not math.isfinite(result):
         raise UnitParseError(value, expected + " (a finite number)")
     return result
 
 
+# Temperatures: the units written on datasheets for degrees Celsius and Fahrenheit.
+_CELSIUS_RE = re.compile(r"^(?:deg\s*C|[°º]\s*C|C|degrees?\s*C|celsius|centigrade)$", re.I)
+_FAHRENHEIT_RE = re.compile(r"^(?:deg\s*F|[°º]\s*F|F|degrees?\s*F|fahrenheit)$", re.I)
+
+
 def parse_temperature(value: object) -> float:
-    """Read a temperature (``"30 degC"``, ``"300 K"``, ``"86 degF"``) and return degC."""
+    """Read a temperature (``"30 degC"``, ``"40 C"``, ``"40 °C"``, ``"300 K"``,
+    ``"86 degF"``) and return degC; a bare C or F is Celsius or Fahrenheit here, never the
+    coulomb or the farad."""
     expected = 'a temperature such as "30 degC" or "300 K"'
     if not isinstance(value, str):
         raise UnitParseError(value, expected)
     match = _NUMBER_RE.match(value)
     if match is None or not match.group(2):
         raise UnitParseError(value, expected)
-    reg = registry()
+    unit = match.group(2)
+    if _CELSIUS_RE.match(unit):
+        unit = "degC"
+    elif _FAHRENHEIT_RE.match(unit):
+        unit = "degF"
     try:
-        quantity = reg.Quantity(float(match.group(1)), match.group(2))
+        quantity = registry().Quantity(float(match.group(1)), unit)
         celsius = float(quantity.to("degC").magnitude)
     except Exception:  # pint's unit parser raises many types (tokenize errors, asserts...)
         raise UnitParseError(value, expected) from None
@@ -182,7 +374,7 @@ def _finite_ratio(decibels: float, value: object, expected: str) -> float:
     return ratio
 
 
-_DB_RE = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*dB\s*$")
+_DB_RE = re.compile(rf"^\s*({_NUMBER})\s*dB\s*$")
 
 
 def parse_db(value: object) -> float:
@@ -197,23 +389,28 @@ def parse_db(value: object) -> float:
 # No audio gain stage or open-loop gain comes near 200 dB; past it a figure is a typo and
 # would overflow the network's arithmetic.
 MAX_GAIN_RATIO = 1e10
+# A ratio written as schematics and datasheets do: "x20", "×20", "20x", "20 V/V".
+_TIMES_RE = re.compile(rf"^\s*(?:[x×X]\s*({_NUMBER})|({_NUMBER})\s*(?:[x×X]|V/V))\s*$")
 
 
 def parse_gain(value: object) -> float:
-    """Read a voltage gain given in dB (``"26 dB"``) or as a plain ratio (``20``); a ratio
-    of magnitude at most 1e10 (200 dB)."""
-    expected = 'a voltage gain such as "26 dB" or a plain ratio such as 20, up to 200 dB'
+    """Read a voltage gain given in dB (``"26 dB"``) or as a plain ratio (``20``, ``"x20"``,
+    ``"20 V/V"``); a ratio of magnitude at most 1e10 (200 dB)."""
+    expected = 'a voltage gain such as "26 dB", "x20" or a plain ratio such as 20, up to 200 dB'
     gain: float | None = None
     if isinstance(value, int | float) and not isinstance(value, bool) and math.isfinite(value):
         gain = float(value)
     elif isinstance(value, str):
         match = _DB_RE.match(value)
         bare = _NUMBER_RE.match(value)
+        times = _TIMES_RE.match(value)
         if match:
             gain = _finite_ratio(float(match.group(1)), value, expected)
-        elif bare and not bare.group(2) and math.isfinite(float(bare.group(1))):
+        elif times:
+            gain = float(times.group(1) or times.group(2))
+        elif bare and not bare.group(2):
             gain = float(bare.group(1))
-    if gain is None or abs(gain) > MAX_GAIN_RATIO:
+    if gain is None or not math.isfinite(gain) or abs(gain) > MAX_GAIN_RATIO:
         raise UnitParseError(value, expected)
     return gain
 
@@ -223,14 +420,59 @@ def parse_fraction(value: object) -> float:
     return parse_quantity(value, DIMENSIONLESS)
 
 
-# Audio levels: every form is reduced to the rms value of the equivalent sine.
-_LEVEL_RE = re.compile(
-    r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*"
-    r"(?:(dBu|dBV)|([munµμk]?)V\s*(rms|pk|pp|p-p)?)\s*$"
+# Sine measures: every form of a voltage (or current) is named by how it is measured.
+# rms (also "AC", as mains transformers and meters mark it), peak ("pk", "p", "peak") and
+# peak-to-peak ("pp", "p-p", "pk-pk"); for a sine peak = rms sqrt(2) and pp = 2 peak
+# (Horowitz & Hill, The Art of Electronics, 3rd ed., sec. 1.7.1).
+RMS, PEAK, PEAK_TO_PEAK = "rms", "peak", "peak-to-peak"
+_FORMS = {
+    "rms": RMS, "ac": RMS, "pk": PEAK, "p": PEAK, "peak": PEAK, "pp": PEAK_TO_PEAK,
+    "p-p": PEAK_TO_PEAK, "pk-pk": PEAK_TO_PEAK, "pkpk": PEAK_TO_PEAK,
+}  # fmt: skip
+_TO_PEAK = {RMS: math.sqrt(2.0), PEAK: 1.0, PEAK_TO_PEAK: 0.5}
+_TO_RMS = {RMS: 1.0, PEAK: 1.0 / math.sqrt(2.0), PEAK_TO_PEAK: 0.5 / math.sqrt(2.0)}
+_MEASURE_RE = re.compile(
+    rf"^\s*({_NUMBER})\s*(?:(dBu|dBV)|([munµμkM]?)([VA])\s*"
+    r"(?:\(?\s*(pk-pk|p-p|pkpk|peak|pp|pk|p|rms|ac)\s*\)?)?)\s*$",
+    re.I,
 )
-_LEVEL_PREFIX = {"": 1.0, "m": 1e-3, "u": 1e-6, "µ": 1e-6, "μ": 1e-6, "n": 1e-9, "k": 1e3}
-_LEVEL_FORM = {None: 1.0, "rms": 1.0, "pk": 1.0 / math.sqrt(2.0), "pp": 0.5 / math.sqrt(2.0)}
-_LEVEL_FORM["p-p"] = _LEVEL_FORM["pp"]
+_MEASURE_PREFIX = {"": 1.0, "m": 1e-3, "u": 1e-6, "µ": 1e-6, "μ": 1e-6, "n": 1e-9, "k": 1e3}
+_MEASURE_PREFIX["M"] = 1e6
+# Past these no signal of a small amplifier lies and the arithmetic of levels in dB would
+# lose its meaning (a level of 1e-300 V is zero in all but name).
+LEVEL_FLOOR_V, LEVEL_CEILING_V = 1e-12, 1e6
+
+
+def _measure(value: str, base: str, expected: str) -> tuple[float, str | None] | None:
+    """A voltage (``base`` "V") or current ("A") with its sine measure: (SI magnitude,
+    rms/peak/peak-to-peak, or None when plain); dBu and dBV are rms. None when the text is
+    not in that form."""
+    match = _MEASURE_RE.match(value)
+    if match is None:
+        return None
+    number, decibel, prefix, unit, form = match.groups()
+    if decibel is not None:
+        if base != "V" or decibel not in ("dBu", "dBV"):
+            return None
+        reference = DBU_REFERENCE_VRMS if decibel == "dBu" else DBV_REFERENCE_VRMS
+        return reference * _finite_ratio(float(number), value, expected), RMS
+    if unit.upper() != base or prefix not in _MEASURE_PREFIX:
+        return None
+    return float(number) * _MEASURE_PREFIX[prefix], None if form is None else _FORMS[form.lower()]
+
+
+def _sine_measure(
+    value: object, base: str, dimension: Dimension, expected: str
+) -> tuple[float, str | None]:
+    """A sine measure (`_measure`), or a plain quantity of ``dimension`` in any spelling
+    `parse_quantity` takes ("300 millivolt")."""
+    measured = _measure(value, base, expected) if isinstance(value, str) else None
+    if measured is not None:
+        return measured
+    try:
+        return parse_quantity(value, dimension), None
+    except UnitParseError:
+        raise UnitParseError(value, expected) from None
 
 
 def parse_level(value: object) -> float:
@@ -238,27 +480,48 @@ def parse_level(value: object) -> float:
 
     Notes
     -----
-    ``V``/``Vrms`` are rms; ``Vpk`` is the peak, rms = pk / sqrt(2); ``Vpp`` the
-    peak-to-peak, rms = pp / (2 sqrt(2)); ``dBV`` is re 1 V rms; ``dBu`` is re sqrt(0.6) V rms
-    (0.7746 V, 1 mW in 600 ohm). pint's own ``dBu`` (decibel-microwatt) is deliberately not
-    used.
+    ``V``, ``Vrms`` and ``VAC`` are rms; ``Vpk``/``Vp`` the peak, rms = pk / sqrt(2);
+    ``Vpp`` the peak-to-peak, rms = pp / (2 sqrt(2)); ``dBV`` is re 1 V rms; ``dBu`` is re
+    sqrt(0.6) V rms (0.7746 V, 1 mW in 600 ohm). pint's own ``dBu`` (decibel-microwatt) is
+    deliberately not used.
     """
     expected = 'a signal level such as "300 mV", "1.4 Vpk", "2.8 Vpp", "-10 dBV" or "+4 dBu"'
     if not isinstance(value, str):
         raise UnitParseError(value, expected)
-    match = _LEVEL_RE.match(value)
-    if match is None:
-        raise UnitParseError(value, expected)
-    number, decibel, prefix, form = match.groups()
-    if decibel == "dBu":
-        return DBU_REFERENCE_VRMS * _finite_ratio(float(number), value, expected)
-    if decibel == "dBV":
-        return DBV_REFERENCE_VRMS * _finite_ratio(float(number), value, expected)
-    level = float(number) * _LEVEL_PREFIX[prefix] * _LEVEL_FORM[form]
+    volts, form = _sine_measure(value, "V", VOLT, expected)
+    return _within_levels(volts * _TO_RMS[form or RMS], value, expected)
+
+
+def parse_peak(value: object, dimension: Dimension = VOLT) -> float:
+    """Read a peak voltage (or, with ``dimension`` AMPERE, a peak current): a plain
+    ``"12 V"`` is the peak itself; ``"12 Vpk"``/``"12 Vp"`` too; ``"24 Vpp"`` is 12 V peak
+    and ``"8.49 Vrms"`` (or a dBu/dBV level) is the peak of that sine, 8.49 sqrt(2) = 12.0 V
+    (Horowitz & Hill, 3rd ed., sec. 1.7.1). Signed as written."""
+    base = "A" if dimension is AMPERE else "V"
+    what = "current" if base == "A" else "voltage"
+    expected = (
+        f'a peak {what} such as "12 {base}", "12 {base}pk", "24 {base}pp" or "8.49 {base}rms"'
+    )
+    magnitude, form = _sine_measure(value, base, dimension, expected)
+    peak = magnitude * _TO_PEAK[form or PEAK]
+    if not math.isfinite(peak):
+        raise UnitParseError(value, expected + " (a finite number)")
+    return peak
+
+
+def _within_levels(level: float, value: object, expected: str) -> float:
     if not math.isfinite(level):
         raise UnitParseError(value, expected + " (a finite level)")
     if level <= 0.0:
         raise UnitParseError(value, expected + " (a level above zero)")
+    if not LEVEL_FLOOR_V <= level <= LEVEL_CEILING_V:
+        hint = ""
+        for reading in case_readings(value):
+            measured = _measure(reading, "V", expected)
+            if measured is not None and LEVEL_FLOOR_V <= measured[0] <= LEVEL_CEILING_V:
+                hint = f"; did you mean {reading!r}?"
+                break
+        raise UnitParseError(value, expected + f" (from 1 picovolt to 1 megavolt){hint}")
     return level
 
 

@@ -283,18 +283,40 @@ def test_resistance_writes_back_exactly(value: float) -> None:
     assert f.RESISTANCE.read(f.RESISTANCE.write(value)) == value
 
 
-@given(
-    st.sampled_from(
-        [f.CAPACITANCE, f.FREQUENCY, f.SLEW_RATE, f.NOISE_VOLTAGE, f.NOISE_CURRENT, f.LEVEL]
-    ),
-    st.floats(min_value=1e-15, max_value=1e9, **_FINITE),
-)
-def test_positive_quantities_write_back_exactly(kind: f.FieldKind, value: float) -> None:
-    """Property: every positive quantity kind reads back what it wrote, bit for bit."""
+# Each positive quantity kind and the hard range of its values (chainbudget.plausible):
+# inside it every value is taken, written outside the plausible range with its prefix in
+# full so that it is still taken as meant.
+_HARD_RANGES = [
+    (f.CAPACITANCE, 1e-18, 1e3),
+    (f.FREQUENCY, 1e-6, 1e12),
+    (f.SLEW_RATE, 1e3, 1e11),
+    (f.NOISE_VOLTAGE, 1e-15, 1e-4),
+    (f.NOISE_CURRENT, 1e-18, 1e-6),
+    (f.LEVEL, 1e-12, 1e6),
+    (f.RESISTANCE_OR_ZERO, 1e-9, 1e12),
+    (f.POSITIVE_CURRENT, 1e-12, 1e5),
+    (f.PEAK_VOLTAGE, 1e-12, 1e6),
+    (f.PEAK_CURRENT, 1e-12, 1e5),
+    (f.VOLTAGE, -1e6, 1e6),
+]
+
+
+@given(st.sampled_from(_HARD_RANGES), st.floats(0.0, 1.0))
+def test_positive_quantities_write_back_exactly(
+    kind_range: tuple[f.FieldKind, float, float], where: float
+) -> None:
+    """Property: every quantity kind reads back what it wrote, bit for bit, anywhere in its
+    hard range (log-spaced draws; linear for a signed kind)."""
+    kind, low, high = kind_range
+    if low < 0.0:
+        value = low + where * (high - low)
+    else:
+        value = low * (high / low) ** where
+    value = min(max(value, low), high)
     assert kind.read(kind.write(value)) == value
 
 
-@given(st.floats(min_value=-273.15, max_value=1000.0, **_FINITE))
+@given(st.floats(min_value=-100.0, max_value=400.0, **_FINITE))
 def test_temperature_writes_back_exactly(value: float) -> None:
     """Property: degC (an offset unit) reads back what it wrote."""
     assert math.isclose(f.TEMPERATURE.read(f.TEMPERATURE.write(value)), value, rel_tol=0.0)
@@ -340,3 +362,139 @@ def test_reference_frequency_outside_the_band_is_refused(tmp_path: Path) -> None
 def test_max_level_below_the_nominal_level_is_refused(tmp_path: Path) -> None:
     error = _error(tmp_path, 'max_level = "+4 dBu"', 'max_level = "-60 dBV"')
     assert error.path == "source.max_level"
+
+
+# --- messages that say what was given and what was expected --------------------------------
+
+
+def test_unknown_field_lists_the_known_fields(tmp_path: Path) -> None:
+    """ "unknown field" names the fields the table takes, not only the nearest one."""
+    message = str(_error(tmp_path, 'feedback_cap = "100p"', 'feedbak_cap = "100p"'))
+    assert "its fields: name, kind, topology, feedback, ground_leg, input" in message
+
+
+def test_no_supply_named_lists_the_supplies(tmp_path: Path) -> None:
+    """ "no supply named X" names the supplies there are, ground included."""
+    old = 'feedback_cap = "100p"\npositive = "plus"'
+    message = str(_error(tmp_path, old, 'feedback_cap = "100p"\npositive = "xyzzy"'))
+    assert 'no supply named "xyzzy"; the supplies are: plus, minus, ground' in message
+
+
+def test_a_supply_loop_names_the_supplies_in_it() -> None:
+    """Supplies that feed each other: the message walks the loop by name."""
+    text = (DATA / "every_kind.toml").read_text(encoding="utf-8")
+    loop = (
+        '[[supply]]\nname = "a"\nkind = "regulator"\nfrom = "b"\noutput = "12 V"\n\n'
+        '[[supply]]\nname = "b"\nkind = "regulator"\nfrom = "a"\noutput = "12 V"\n\n'
+    )
+    with pytest.raises(ChainFileError) as info:
+        parse_chain(tomllib.loads(text.replace("[[supply]]", loop + "[[supply]]", 1)), "x.toml")
+    assert info.value.path == 'supply[1] "a".from'
+    assert 'in a loop ("a" <- "b" <- "a")' in info.value.message
+
+
+@pytest.mark.parametrize(
+    "name", ["amp\x1b[31m", "two\nlines", "bell\x07", "\u202eevil", "tab\tname"]
+)
+def test_control_characters_in_a_name_are_refused_and_escaped(tmp_path: Path, name: str) -> None:
+    """A name holding control characters (terminal escapes, line breaks, direction
+    overrides) is refused; the message shows them escaped, never raw, on one line."""
+    escaped = tomli_w.dumps({"name": name}).split("=", 1)[1].strip()
+    error = _error(tmp_path, 'name = "pre"', f"name = {escaped}")
+    message = str(error)
+    assert message.isprintable()
+    assert "without control characters" in message
+
+
+def test_control_characters_in_an_unknown_key_are_escaped(tmp_path: Path) -> None:
+    """An unknown key is echoed in the table path, escaped."""
+    message = str(_error(tmp_path, 'feedback_cap = "100p"', '"feed\\u001bback" = "100p"'))
+    assert message.isprintable() and "feed\\x1bback" in message
+
+
+def test_a_long_value_is_cut_in_the_message(tmp_path: Path) -> None:
+    """A value of thousands of characters is echoed cut short: the line stays readable."""
+    error = _error(tmp_path, 'feedback = "10 kohm"', f'feedback = "{"9" * 5000} ohm"')
+    assert len(str(error)) < 400
+
+
+def test_deeply_nested_values_are_one_line(tmp_path: Path) -> None:
+    """Deep TOML nesting (tomllib recursion, or a deep array as a value) is one line."""
+    path = tmp_path / "deep.toml"
+    path.write_text("x = " + "[" * 100_000 + "]" * 100_000 + "\n", encoding="utf-8")
+    with pytest.raises(ChainFileError, match="nest too deeply"):
+        load_chain(path)
+    error = _error(tmp_path, "position = 0.7\n", "position = " + "[" * 300 + "]" * 300 + "\n")
+    assert len(str(error)) < 400
+
+
+# --- files that are not chain files ---------------------------------------------------------
+
+
+def _load_error(path: Path) -> str:
+    with pytest.raises(ChainFileError) as info:
+        load_chain(path)
+    message = str(info.value)
+    assert message.startswith(f"{path}: ") and "\n" not in message
+    return message
+
+
+def test_a_directory(tmp_path: Path) -> None:
+    assert "cannot read the file" in _load_error(tmp_path)
+
+
+def test_an_unreadable_file(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    """A file the user may not read (simulated: the tests may run as root, whom file modes
+    do not stop) is one line with the system's reason."""
+    path = tmp_path / "locked.toml"
+    path.write_text("[chain]\n", encoding="utf-8")
+    real_open = open
+
+    def refusing_open(file: object, *args: object, **kwargs: object) -> object:
+        if str(file) == str(path):
+            raise PermissionError(13, "Permission denied", str(path))
+        return real_open(file, *args, **kwargs)  # type: ignore[call-overload]
+
+    monkeypatch.setattr("builtins.open", refusing_open)
+    assert "cannot read the file (Permission denied)" in _load_error(path)
+
+
+def test_a_binary_file(tmp_path: Path) -> None:
+    path = tmp_path / "image.toml"
+    path.write_bytes(bytes(range(256)) * 4)
+    assert "binary file" in _load_error(path)
+
+
+def test_a_file_that_is_not_utf8(tmp_path: Path) -> None:
+    path = tmp_path / "latin.toml"
+    path.write_bytes('title = "caf\xe9"\n'.encode("latin-1"))
+    assert "not a UTF-8 text file" in _load_error(path)
+
+
+def test_a_ten_megabyte_file_is_not_read_through(tmp_path: Path) -> None:
+    """A 10 MB file is refused after its first MiB (a chain file is a page of text)."""
+    path = tmp_path / "huge.toml"
+    path.write_text("# padding\n" * 1_048_576, encoding="utf-8")
+    assert "too large to be a chain file" in _load_error(path)
+
+
+def test_too_many_swept_pots(tmp_path: Path) -> None:
+    """More swept pots than the worst-case search holds: one line naming the first one
+    past the limit and the way out (sweep = false)."""
+    text = FIXTURE.read_text(encoding="utf-8")
+    extra = "".join(
+        f'\n[[stage]]\nname = "trim{i}"\nkind = "volume"\npot = "10k"\nposition = 0.5\n'
+        for i in range(4)
+    )
+    path = tmp_path / "many.toml"
+    path.write_text(text + extra, encoding="utf-8")
+    with pytest.raises(ChainFileError, match=r"expected at most 6: set sweep = false") as info:
+        load_chain(path)
+    assert info.value.path.endswith(".sweep")
+
+
+def test_too_dense_a_frequency_grid(tmp_path: Path) -> None:
+    """points_per_decade times the band's decades past the grid's limit: refused."""
+    error = _error(tmp_path, "points_per_decade = 12", "points_per_decade = 500")
+    assert error.path == "chain.points_per_decade"
+    assert "1500 points" in error.message

@@ -335,3 +335,103 @@ def test_the_check_path_does_not_load_matplotlib(output_format: str) -> None:
     assert last.split(" ", 2)[1] in ("0", "1"), done.stderr  # the check itself ran through
     assert last.endswith("[]"), last
     assert "Levels at the reference" in done.stdout or json.loads(done.stdout)["nodes"]
+
+
+# --- small things, and files that are not chain files --------------------------------------
+
+
+def test_version() -> None:
+    """``--version`` prints the package's version (the one pyproject.toml declares)."""
+    result = runner.invoke(app, ["--version"])
+    declared = tomllib.loads((ROOT / "pyproject.toml").read_text(encoding="utf-8"))
+    assert result.exit_code == 0
+    assert result.stdout.strip() == f"chainbudget {declared['project']['version']}"
+
+
+def test_help_shows_no_type_after_a_flag() -> None:
+    """A flag takes no value: its help line shows no "<bool>"; an option with a value keeps
+    its type."""
+    for command in (["check", "--help"], ["new", "--help"], ["plot", "--help"], ["--help"]):
+        result = runner.invoke(app, command, env={"COLUMNS": "120"})
+        assert result.exit_code == 0
+        assert "<bool>" not in result.stdout
+    assert "<str>" in runner.invoke(app, ["check", "--help"], env={"COLUMNS": "120"}).stdout
+
+
+def _command(*args: str) -> subprocess.CompletedProcess[str]:
+    return subprocess.run(
+        [sys.executable, "-m", "chainbudget", *args],
+        capture_output=True,
+        text=True,
+        check=False,
+        timeout=120,
+    )
+
+
+def _one_line_refusal(done: subprocess.CompletedProcess[str], file: Path) -> str:
+    assert done.returncode == 2, done.stderr
+    assert "Traceback" not in done.stderr
+    lines = done.stderr.splitlines()
+    assert len(lines) == 1 and lines[0].startswith(f"chainbudget: {file}: ")
+    assert lines[0].isprintable()
+    return lines[0]
+
+
+@pytest.mark.parametrize(
+    ("form", "expected"),
+    [
+        ("directory", "cannot read the file"),
+        ("binary", "binary file"),
+        ("deep", "nest too deeply"),
+        ("huge", "too large"),
+        ("escape", "without control characters"),
+    ],
+)
+def test_hostile_files_are_one_line_through_the_real_command(
+    tmp_path: Path, form: str, expected: str
+) -> None:
+    """A directory, a binary file, TOML nested 100,000 deep, a 10 MB file and a name with a
+    terminal escape: each is one printable line on stderr and exit 2, never a traceback."""
+    file = tmp_path / "hostile.toml"
+    if form == "directory":
+        file.mkdir()
+    elif form == "binary":
+        file.write_bytes(bytes(range(256)))
+    elif form == "deep":
+        file.write_text("x = " + "[" * 100_000 + "]" * 100_000, encoding="utf-8")
+    elif form == "huge":
+        file.write_text("#" * 10_000_000, encoding="utf-8")
+    else:
+        file.write_text(GOOD.replace('name = "pre"', 'name = "pre\\u001b[2J"'), encoding="utf-8")
+    assert expected in _one_line_refusal(_command("check", str(file)), file)
+
+
+def test_a_title_in_square_brackets_reaches_the_json_as_written(tmp_path: Path) -> None:
+    """Text the file supplies is data, not markup: a title and a stage name holding square
+    brackets (rich's markup) come out unchanged in the JSON."""
+    file = tmp_path / "brackets.toml"
+    text = GOOD.replace('title = "t"', 'title = "Amp [/bold] [red]x"').replace(
+        'name = "pre"', 'name = "pre[1]"'
+    )
+    file.write_text(text, encoding="utf-8")
+    done = _command("check", str(file), "--format", "json")
+    assert done.returncode in (0, 1), done.stderr
+    data = json.loads(done.stdout)
+    assert data["title"] == "Amp [/bold] [red]x"
+    assert data["nodes"][0]["stage"] == "pre[1]"
+
+
+def test_a_title_in_square_brackets_prints_as_a_table(tmp_path: Path) -> None:
+    """The table view prints a title holding "[/bold]" as text (today rich reads it as
+    markup and fails: a traceback)."""
+    file = tmp_path / "brackets.toml"
+    file.write_text(GOOD.replace('title = "t"', 'title = "Amp [/bold]"'), encoding="utf-8")
+    done = _command("check", str(file))
+    assert done.returncode in (0, 1) and "Traceback" not in done.stderr
+    assert "Amp [/bold]" in done.stdout
+
+
+def test_a_control_character_in_an_option_is_escaped(tmp_path: Path) -> None:
+    """What the user typed is echoed escaped, too."""
+    result = runner.invoke(app, ["check", str(CHAINS[0]), "--format", "js\x1bon"])
+    assert result.exit_code == 2 and "\x1b" not in result.stderr and "\\x1b" in result.stderr

@@ -48,7 +48,7 @@ ambient = "25 degC"
 points_per_decade = 10
 
 [opamp.ideal]
-gbw = "100 GHz"
+gbw = "100 gigahertz"   # the prefix in full: an idealised value kept as meant
 slew_rate = "1000 V/us"
 open_loop_gain = "120 dB"
 output_resistance = "50 ohm"

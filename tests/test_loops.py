@@ -91,8 +91,10 @@ def chain_text(
 ) -> str:
     head = HEAD.format(
         source=f"{source} ohm",
-        load=f"{load} ohm",
-        gbw=f"{gbw} Hz",
+        load=f"{load / 1e3!r} kiloohm",
+        # a prefix written in full keeps an idealised value the loader would otherwise
+        # question (docs/format.md, plausible values)
+        gbw=f"{gbw / 1e9!r} gigahertz",
         a0_db=20.0 * math.log10(a0),
         ro=f"{ro} ohm",
         second="" if second is None else f'second_pole = "{second} Hz"',
@@ -100,7 +102,7 @@ def chain_text(
     stage = OPAMP.format(
         rf=f"{rf} ohm", rg=f"{rg} ohm", loop='feedback_from = "buf"' if loop else ""
     )
-    tail = BUFFER.format(rin=f"{rin} ohm", rb=f"{rb} ohm") if buffer else ""
+    tail = BUFFER.format(rin=f"{rin / 1e9!r} gigohm", rb=f"{rb} ohm") if buffer else ""
     return head + stage + tail
 
 
@@ -120,9 +122,9 @@ def test_a_loop_round_an_ideal_buffer_is_the_plain_non_inverting_stage() -> None
     ed., sec. 4.2.1 and the feedback equation of sec. 2.5.1, from memory), which with the
     op-amp's gain large is 1 + Rf/Rg."""
     rf, rg = 9e3, 1e3
-    # An op-amp with a loop gain near 1e9 at 1 kHz: the ideal gain to 1e-8.
+    # An op-amp with a loop gain near 1e8 at 1 kHz: the ideal gain to 1e-7.
     ideal: dict[str, float] = {
-        "gbw": 1e13,
+        "gbw": 1e12,
         "a0": 1e10,
         "ro": 0.0,
         "rin": 1e12,

@@ -222,3 +222,24 @@ def test_duplicate_branch_label_is_refused() -> None:
     net.voltage_source("a", GROUND, label="v")
     with pytest.raises(ValueError, match="already"):
         net.voltage_source("b", GROUND, label="v")
+
+
+def test_a_singular_network_is_an_input_error() -> None:
+    """Two ideal sources across one pair of nodes: the MNA rows are dependent (Ho, Ruehli &
+    Brennan 1975: each source adds a row fixing the same voltage difference), so the matrix
+    is singular. The solver says so as an input error, in the solve and in the adjoint
+    noise transfer alike, never as numpy's LinAlgError."""
+    from chainbudget import ChainError
+    from chainbudget.network import SingularNetwork
+
+    net = Netlist(FREQUENCY)
+    net.resistor("a", GROUND, 1e3, label="r")
+    first = net.index(net.voltage_source("a", GROUND, label="one"))
+    net.voltage_source("a", GROUND, label="two")
+    rhs = np.zeros((net.size, 1))
+    rhs[first, 0] = 1.0
+    with pytest.raises(SingularNetwork, match="no single solution") as info:
+        net.solve(rhs)
+    assert isinstance(info.value, ChainError) and isinstance(info.value, ValueError)
+    with pytest.raises(SingularNetwork):
+        net.adjoint_transfer("a")

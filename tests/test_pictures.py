@@ -147,7 +147,7 @@ input_cap = "1 uF"
 name = "buffer"
 kind = "block"
 gain = 1
-input_impedance = "1 Gohm"
+input_impedance = "1 gigaohm"
 output_impedance = "1 ohm"
 """
 
@@ -176,15 +176,15 @@ ambient = "25 degC"
 [source]
 level = "100 mV"
 max_level = "1 V"
-impedance = "1 mohm"
+impedance = "1 milliohm"
 [load]
-impedance = "1 Gohm"
+impedance = "1 gigaohm"
 [[stage]]
 name = "wire"
 kind = "block"
 gain = 1
-input_impedance = "1 Tohm"
-output_impedance = "1 mohm"
+input_impedance = "1000 gigaohm"
+output_impedance = "1 milliohm"
 """
 
 

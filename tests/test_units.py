@@ -307,3 +307,164 @@ def test_unusable_gains_are_refused(value: object) -> None:
 def test_one_cached_registry() -> None:
     """Quantities from two registries don't mix: the module hands out one."""
     assert units.registry() is units.registry()
+
+
+# --- the notation designers write (datasheets, schematics, catalogues) --------------------
+# Each spelling below is one a designer writes and must mean the obvious thing. SI prefixes
+# and their case: SI Brochure, 9th ed., Table 7 (k is kilo, M mega, m milli; K, U and N are
+# no prefixes, so their case is a slip that cannot mislead).
+
+
+@pytest.mark.parametrize(
+    ("text", "dimension", "si"),
+    [
+        ("4.7 kOhm", OHM, 4.7e3),
+        ("4.7 KOhm", OHM, 4.7e3),  # K is no SI prefix: only kilo is meant
+        ("4k7 ohm", OHM, 4.7e3),  # IEC 60062 code followed by the unit
+        ("4k7Ω", OHM, 4.7e3),
+        ("10k ohms", OHM, 10e3),
+        ("100 OHMS", OHM, 100.0),
+        ("2 megohm", OHM, 2e6),  # the trade's contraction of megaohm
+        ("47 kilohm", OHM, 47e3),
+        ("2.2 uf", FARAD, 2.2e-6),
+        ("2.2 UF", FARAD, 2.2e-6),
+        ("220 pf", FARAD, 220e-12),
+        ("2u2F", FARAD, 2.2e-6),
+        ("10 ufd", FARAD, 10e-6),
+        ("10 V/uS", units.SLEW, 10e6),  # uS would be microsiemens; a slew rate is per us
+        ("20 KHz", units.HERTZ, 20e3),
+        ("20 khz", units.HERTZ, 20e3),
+        ("3 MHZ", units.HERTZ, 3e6),
+        ("100 nV/sqrtHz", NOISE_VOLTAGE, 100e-9),
+        ("4 nV/√(Hz)", NOISE_VOLTAGE, 4e-9),
+        ("4 nV/rt(Hz)", NOISE_VOLTAGE, 4e-9),
+        ("4 nV/Hz^1/2", NOISE_VOLTAGE, 4e-9),
+        ("2 pA/sqrtHz", NOISE_CURRENT, 2e-12),
+        ("65 C/W", THERMAL_RESISTANCE, 65.0),  # a difference of 1 degC is 1 K
+        ("65 °C/W", THERMAL_RESISTANCE, 65.0),
+        ("25 ma", units.AMPERE, 25e-3),
+        ("2 mAH", units.CHARGE, 2e-3),
+        ("1 milliohm", OHM, 1e-3),  # a prefix written in full
+        ("10 microfarads", FARAD, 10e-6),
+    ],
+)
+def test_datasheet_spellings(text: str, dimension: units.Dimension, si: float) -> None:
+    """Unit spellings as printed on datasheets and schematics read as SI; rtol 1e-12."""
+    assert parse_quantity(text, dimension) == pytest.approx(si, rel=1e-12)
+
+
+@pytest.mark.parametrize("text", ["1 mf", "1 MF", "100 mfd"])
+def test_mf_is_refused_as_ambiguous(text: str) -> None:
+    """Older schematics wrote microfarad as "mf"/"mfd"; in SI "mF" is the millifarad. A
+    lower- or upper-case "mf" is read as neither, and the message names both."""
+    with pytest.raises(UnitParseError, match=r'"uF" \(microfarad\) or "mF" \(millifarad\)'):
+        parse_quantity(text, FARAD)
+    assert parse_quantity("1 mF", FARAD) == pytest.approx(1e-3, rel=1e-12)
+
+
+@pytest.mark.parametrize(
+    ("text", "si"),
+    [("1 mohm", 1e-3), ("1 Mohm", 1e6), ("10 mA", 10e-3), ("10 MA", 10e6), ("3 mHz", 3e-3)],
+)
+def test_milli_and_mega_keep_their_case(text: str, si: float) -> None:
+    """m and M are different prefixes (SI Brochure Table 7): their case is never folded;
+    the loader's plausibility check, not the parser, catches a slip."""
+    dimension = {"ohm": OHM, "A": units.AMPERE, "Hz": units.HERTZ}[text.split()[1][1:]]
+    assert parse_quantity(text, dimension) == pytest.approx(si, rel=1e-12)
+
+
+@pytest.mark.parametrize(
+    ("text", "celsius"),
+    [("40 C", 40.0), ("40 °C", 40.0), ("40 degrees C", 40.0), ("104 F", 40.0), ("104 °F", 40.0)],
+)
+def test_temperature_spellings(text: str, celsius: float) -> None:
+    """In a temperature field a bare C is Celsius (never the coulomb), a bare F Fahrenheit:
+    T(degC) = (T(degF) - 32) * 5/9 (common practice, no source); atol 1e-9 degC."""
+    assert parse_temperature(text) == pytest.approx(celsius, abs=1e-9)
+
+
+@pytest.mark.parametrize(
+    ("text", "vrms"),
+    [
+        ("1.4142136 Vp", 1.0),  # "Vp": the peak
+        ("1.4142136 V peak", 1.0),
+        ("1.4142136 V(pk)", 1.0),
+        ("2.8284271 Vpk-pk", 1.0),
+        ("15 VAC", 15.0),  # mains transformers and meters mark rms as AC
+        ("15 Vac", 15.0),
+        ("15 V rms", 15.0),
+        ("300 mv", 0.3),
+        ("300 millivolt", 0.3),
+    ],
+)
+def test_level_spellings(text: str, vrms: float) -> None:
+    """Sine measures as written: rms = pk / sqrt(2) = pp / (2 sqrt(2)) (Horowitz & Hill,
+    3rd ed., sec. 1.7.1); AC means rms; rtol 1e-6."""
+    assert parse_level(text) == pytest.approx(vrms, rel=1e-6)
+
+
+@pytest.mark.parametrize(
+    ("text", "peak"),
+    [
+        ("12 V", 12.0),  # a peak field's own measure: the value itself
+        ("12 Vpk", 12.0),
+        ("12 Vp", 12.0),
+        ("24 Vpp", 12.0),  # pp = 2 peak
+        ("24 Vp-p", 12.0),
+        ("8.485281 Vrms", 12.0),  # peak = rms sqrt(2)
+        ("8.485281 VAC", 12.0),
+        ("0 dBV", math.sqrt(2.0)),  # a level in dB is rms
+    ],
+)
+def test_peak_voltage_forms(text: str, peak: float) -> None:
+    """A peak field converts every sine measure to the peak: peak = rms sqrt(2), peak =
+    pp / 2 (Horowitz & Hill, 3rd ed., sec. 1.7.1); rtol 1e-6."""
+    assert units.parse_peak(text) == pytest.approx(peak, rel=1e-6)
+
+
+def test_peak_current_forms() -> None:
+    """A peak current the same way: 25 mApk = 50 mApp = 17.68 mArms; rtol 1e-6."""
+    for text in ("25 mA", "25 mApk", "50 mApp", "17.677670 mArms"):
+        assert units.parse_peak(text, units.AMPERE) == pytest.approx(25e-3, rel=1e-6)
+
+
+@pytest.mark.parametrize(
+    ("value", "ratio"),
+    [("x20", 20.0), ("×20", 20.0), ("X 20", 20.0), ("20x", 20.0), ("20 V/V", 20.0), ("x0.5", 0.5)],
+)
+def test_gain_as_a_multiplier(value: str, ratio: float) -> None:
+    """Gains written as schematics write them ("x20", "20 V/V") are plain ratios."""
+    assert parse_gain(value) == pytest.approx(ratio, rel=1e-12)
+
+
+def test_prefix_written_in_full_reads_back_exactly() -> None:
+    """`spelled_out` writes a number with its prefix in full so that it reads back bit for
+    bit (a decimal shift, rounded once) and is recognised as written in full."""
+    for number, dimension in ((1e-3, OHM), (4.7e-3, OHM), (0.1 + 0.2, FARAD), (123e9, OHM)):
+        text = units.spelled_out(number, dimension)
+        assert units.is_spelled_out(text)
+        assert parse_quantity(text, dimension) == number
+    assert units.spelled_out(1e-3, OHM) == "1 milliohm"
+    assert not units.is_spelled_out("1 mohm")
+
+
+def test_case_readings_offer_the_other_case_then_no_prefix() -> None:
+    """The readings a slip of case may hide: "1 mohm" -> "1 Mohm", then "1 ohm"."""
+    assert units.case_readings("1 mohm") == ["1 Mohm", "1 ohm"]
+    assert units.case_readings("10 MA") == ["10 mA", "10 A"]
+    assert units.case_readings("4k7") == []
+
+
+@given(st.text(max_size=30))
+def test_any_text_is_a_value_or_a_unit_parse_error(text: str) -> None:
+    """Property: no text escapes the parsers as anything but a UnitParseError."""
+    for dimension in (OHM, FARAD, units.HERTZ, VOLT, units.SLEW, NOISE_VOLTAGE):
+        try:
+            parse_quantity(text, dimension)
+        except UnitParseError:
+            pass
+    for parse in (parse_level, parse_temperature, parse_gain, units.parse_peak):
+        try:
+            parse(text)
+        except UnitParseError:
+            pass

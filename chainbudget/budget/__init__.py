@@ -43,10 +43,11 @@ from chainbudget.budget.staging import (
     volume_reach,
 )
 from chainbudget.budget.supplies import loaded_analysis, supply_budgets
-from chainbudget.chainfile import Chain
+from chainbudget.chainfile import Chain, ChainFileError
 from chainbudget.finding import Finding
 from chainbudget.findings import findings as draw_findings
 from chainbudget.kindfigures import KindFigures
+from chainbudget.network import SingularNetwork
 from chainbudget.stages import KINDS as STAGE_KINDS
 from chainbudget.supplies import KINDS as SUPPLY_KINDS
 from chainbudget.supplies.base import SupplyBudget
@@ -249,7 +250,10 @@ def compute(chain: Chain) -> Budget:
     Stages are analysed on their rails at low line (low battery) under the loaded power
     tree (`chainbudget.budget.supplies.loaded_analysis`): the swing limits a build must meet.
     """
-    budget = budget_from(loaded_analysis(chain, corner="low"))
+    try:
+        budget = budget_from(loaded_analysis(chain, corner="low"))
+    except SingularNetwork as exc:  # the whole chain's network (noise): no one stage to name
+        raise ChainFileError(chain.file, "stage", f"the chain's {exc}") from None
     return replace(budget, findings=tuple(draw_findings(budget)))
 
 

@@ -9,14 +9,16 @@ from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
+from typing import cast
 
 import numpy as np
-from numpy.typing import NDArray
+from numpy.typing import ArrayLike, NDArray
 
 from chainbudget.budget.rails import stage_rails, supply_voltages
-from chainbudget.cascade import Cascade, solve_cascade
-from chainbudget.chainfile import Chain
+from chainbudget.cascade import Cascade, sections, solve_cascade
+from chainbudget.chainfile import Chain, ChainFileError
 from chainbudget.loudspeaker import load_impedance
+from chainbudget.network import SingularNetwork
 from chainbudget.spectrum import log_frequency_grid, zero_celsius_k
 from chainbudget.stages import KINDS
 from chainbudget.stages.base import Control, Environment, Stage
@@ -107,9 +109,30 @@ def solve_chain(
     positions: Sequence[Mapping[str, object]],
 ) -> Cascade:
     """Solve every stage (a loop section as one network) and cascade them between the
-    source and the load (its impedance on the frequency axis)."""
+    source and the load (its impedance on the frequency axis).
+
+    A singular network is an input error: it is reported with the stage (or the loop
+    section's first stage) whose network it is.
+    """
     load = load_impedance(chain.load, frequency)
-    return solve_cascade(chain.stages, envs, frequency, positions, chain.source.impedance, load)  # type: ignore[arg-type]
+    settings = cast(Sequence[Mapping[str, ArrayLike]], positions)
+    try:
+        return solve_cascade(chain.stages, envs, frequency, settings, chain.source.impedance, load)
+    except SingularNetwork as exc:
+        for section in sections(chain.stages):
+            try:
+                solve_cascade(
+                    chain.stages[section.first : section.last + 1],
+                    envs[section.first : section.last + 1],
+                    frequency,
+                    settings[section.first : section.last + 1],
+                    chain.source.impedance,
+                    load,
+                )
+            except SingularNetwork:
+                stage = chain.stages[section.first]
+                raise ChainFileError(chain.file, stage.path, str(exc)) from None
+        raise ChainFileError(chain.file, "", str(exc)) from None
 
 
 def master_volume(chain: Chain) -> int | None:

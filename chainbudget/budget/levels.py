@@ -56,10 +56,16 @@ class NodeLevels:
     limited_by_current: bool = False
 
 
+# The floor of every level figure in dB: a ratio of zero (a node whose swing window has
+# closed, its bias outside its rails; a silenced path) reads as this far below anything
+# real instead of -inf, which no JSON can carry.
+DB_FLOOR = -400.0
+
+
 def db(ratio: ArrayLike) -> NDArray[np.float64]:
-    """20 log10 of an amplitude ratio, -inf for zero without a warning."""
+    """20 log10 of an amplitude ratio, floored at DB_FLOOR (zero included, no warning)."""
     with np.errstate(divide="ignore"):
-        return np.asarray(20.0 * np.log10(np.abs(ratio)), dtype=float)
+        return np.maximum(np.asarray(20.0 * np.log10(np.abs(ratio)), dtype=float), DB_FLOOR)
 
 
 def clip_source_peak(cas: Cascade, k: int) -> tuple[NDArray[np.float64], NDArray[np.intp]] | None:

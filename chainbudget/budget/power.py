@@ -24,7 +24,7 @@ from numpy.typing import ArrayLike, NDArray
 from chainbudget import outputmath as om
 from chainbudget.budget.analysis import Analysis
 from chainbudget.budget.dcbias import load_offset
-from chainbudget.budget.levels import SQRT2, clip_source_peak
+from chainbudget.budget.levels import DB_FLOOR, SQRT2, clip_source_peak
 from chainbudget.cascade import Cascade
 from chainbudget.chainfile import Chain
 from chainbudget.loudspeaker import is_reactive, load_impedance
@@ -105,6 +105,11 @@ def _max_output_cascade(analysis: Analysis) -> tuple[Cascade, tuple[int, ...]]:
     return analysis.volume_sweep, (analysis.volume_rotations.size - 1,)
 
 
+def _spl(sensitivity_db: float, power_w: float) -> float:
+    """SPL at 1 m, floored like every level figure (no power at all reads DB_FLOOR)."""
+    return max(float(om.spl_at_1m(sensitivity_db, power_w)), DB_FLOOR)
+
+
 def output_figures(analysis: Analysis) -> OutputFigures:
     """Output power, SPL, damping factor and output-capacitor corner of the chain."""
     chain = analysis.chain
@@ -154,10 +159,8 @@ def output_figures(analysis: Analysis) -> OutputFigures:
         else float(om.sine_power(output_stage_clip_vpk, z_load)),
         nominal_vpk=nominal_vpk,
         nominal_power_w=nominal_power,
-        max_spl_db=None if sensitivity is None else float(om.spl_at_1m(sensitivity, clip_power)),
-        nominal_spl_db=None
-        if sensitivity is None
-        else float(om.spl_at_1m(sensitivity, nominal_power)),
+        max_spl_db=None if sensitivity is None else _spl(sensitivity, clip_power),
+        nominal_spl_db=None if sensitivity is None else _spl(sensitivity, nominal_power),
         zout_ohm=abs(z_out),
         damping_factor=float(om.damping_factor(chain.load.impedance, z_out)),
         clip_current_a=clip_vpk / abs(z_load),

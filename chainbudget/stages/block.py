@@ -46,7 +46,7 @@ class Block(StageKind):
         f.Field("input_impedance", f.RESISTANCE, "input impedance (resistive)"),
         f.Field("output_impedance", f.RESISTANCE_OR_ZERO, "output impedance (resistive)"),
         f.Field("noise", f.NOISE_VOLTAGE, "input-referred noise density", 0.0),
-        f.Field("max_output", f.POSITIVE_VOLTAGE, "peak output voltage at its terminals", None),
+        f.Field("max_output", f.PEAK_VOLTAGE, "peak output voltage at its terminals", None),
         f.Field(
             "supply_current",
             f.CURRENT,

@@ -11,7 +11,7 @@ from dataclasses import dataclass
 from typing import Any
 
 from chainbudget import outputmath as om
-from chainbudget.fields import suggest
+from chainbudget.fields import listing, quoted, suggest
 from chainbudget.network import GROUND, Netlist, Ref
 from chainbudget.parts import Transistor
 from chainbudget.spectrum import shot_current_psd
@@ -167,8 +167,16 @@ def transistor_problems(
             continue
         part = transistors.get(str(name))
         if part is None:
-            found.append((key, f'no transistor named "{name}"' + suggest(str(name), transistors)))
+            found.append(
+                (
+                    key,
+                    f"no transistor named {quoted(name)}"
+                    + suggest(str(name), transistors)
+                    + "; the transistors are: "
+                    + listing(transistors),
+                )
+            )
         elif polarity is not None and part.polarity != polarity:
             expected = f"a transistor of polarity {polarity}"
-            found.append((key, f'"{name}" is {part.polarity}, expected {expected}'))
+            found.append((key, f"{quoted(name)} is {part.polarity}, expected {expected}"))
     return found
