@@ -228,10 +228,15 @@ def _supplies(reader: _Reader, data: Mapping[str, Any]) -> tuple[Supply, ...]:
             raise reader.error(f"{path}.{key}", _missing(schema, key))
         for key, message in spec.problems(values):
             raise reader.error(f"{path}.{key}", message)
-        if name == GROUND_SUPPLY or any(s.name == name for s in found):
-            raise reader.error(f"{path}.name", f'"{name}" is already defined')
-        found.append(Supply(index, name, kind, values))
-    names = [s.name for s in found]
+        supply = Supply(index, name, kind, values)
+        defined = [rail for s in found for rail in SUPPLY_KINDS[s.kind].rails(s)]
+        for rail in spec.rails(supply):
+            if rail == GROUND_SUPPLY or rail in defined:
+                raise reader.error(f"{path}.name", f'"{rail}" is already defined')
+        found.append(supply)
+    # a split supply defines more than one rail; each names its supply
+    owner = {rail: s for s in found for rail in SUPPLY_KINDS[s.kind].rails(s)}
+    names = list(owner)
     for supply in found:
         parent = supply.parent
         if parent is not None and parent not in names:
@@ -241,13 +246,13 @@ def _supplies(reader: _Reader, data: Mapping[str, Any]) -> tuple[Supply, ...]:
     for supply in found:  # a cycle would make the power tree unsolvable
         seen, here = {supply.name}, supply.parent
         while here is not None:
-            if here in seen:
+            if owner[here].name in seen:
                 raise reader.error(
                     f"{supply.path}.from",
                     "the supplies feed each other in a loop; a supply tree must end at a source",
                 )
-            seen.add(here)
-            here = next(s for s in found if s.name == here).parent
+            seen.add(owner[here].name)
+            here = owner[here].parent
     return tuple(found)
 
 
@@ -259,7 +264,7 @@ def _stages(
     transistors: Mapping[str, Transistor],
 ) -> tuple[Stage, ...]:
     found: list[Stage] = []
-    rail_names = [s.name for s in supplies]
+    rail_names = [rail for s in supplies for rail in SUPPLY_KINDS[s.kind].rails(s)]
     items = reader.named_list(data, "stage")
     if not items:
         raise reader.error("stage", "a chain needs at least one [[stage]]")
@@ -295,7 +300,15 @@ def _stages(
                         f'no supply named "{wanted}"'
                         + suggest(wanted, [*rail_names, GROUND_SUPPLY]),
                     )
-        found.append(Stage(index, name, kind, values))
+        stage = Stage(index, name, kind, values)
+        bias = spec.bias_supply(stage)
+        if bias is not None and bias not in rail_names:
+            raise reader.error(
+                f"{path}.bias",
+                f'got "{bias}", expected a voltage or the name of a supply'
+                + suggest(bias, rail_names),
+            )
+        found.append(stage)
     return tuple(found)
 
 

@@ -24,6 +24,7 @@ from numpy.typing import ArrayLike, NDArray
 from chainbudget import outputmath as om
 from chainbudget.budget.analysis import Analysis
 from chainbudget.budget.levels import SQRT2, clip_source_peak
+from chainbudget.budget.supplies import low_edge_clip_vpk
 from chainbudget.cascade import Cascade
 from chainbudget.stages import KINDS
 from chainbudget.stages.base import opamp_part
@@ -34,9 +35,9 @@ class OutputFigures:
     """What reaches the load (V peak, W, dB SPL at 1 m, ohm, Hz) at the reference frequency.
 
     ``clip_*``: the largest clean sine at the load with the volume fully up (if the chain
-    has one) and the other controls as set; ``clip_stage`` is the stage that clips first
-    there and so sets the maximum output. ``output_stage_clip_*``: what the stage driving
-    the load could give on its own limit.
+    has one) and the other controls as set (``clip_power_low_w``: at the band's low edge);
+    ``clip_stage`` is the stage that clips first there and so sets the maximum output.
+    ``output_stage_clip_*``: what the stage driving the load could give on its own limit.
     """
 
     stage: str
@@ -57,6 +58,9 @@ class OutputFigures:
     output_cap_f: float | None
     output_cap_corner_hz: float | None
     power_stage: bool
+    #: The clip power for a tone at the band's low edge, with the supplies settled for it
+    #: (they have the longest to sag between charges there), W.
+    clip_power_low_w: float | None = None
 
 
 @dataclass(frozen=True)
@@ -129,6 +133,7 @@ def output_figures(analysis: Analysis) -> OutputFigures:
     corner = None
     if output_cap is not None:
         corner = float(om.highpass_corner(output_cap, z_load + z_out.real))
+    low_vpk = low_edge_clip_vpk(analysis)
     return OutputFigures(
         stage=chain.stages[last].name,
         load_ohm=z_load,
@@ -152,6 +157,7 @@ def output_figures(analysis: Analysis) -> OutputFigures:
         output_cap_f=output_cap,
         output_cap_corner_hz=corner,
         power_stage=last_kind.power_stage,
+        clip_power_low_w=None if low_vpk is None else float(om.sine_power(low_vpk, z_load)),
     )
 
 
