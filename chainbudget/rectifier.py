@@ -83,7 +83,9 @@ _PANELS = 12
 _GL_X, _GL_W = np.polynomial.legendre.leggauss(_NODES)
 # Dense grid for the extremes within a charging interval.
 _DENSE = np.linspace(0.0, 1.0, 193)
-_ROOT_XTOL = 1e-11
+_ROOT_XTOL = 1e-10
+# The periodic state's start is found to this fraction of the peak.
+_SHOOT_RTOL = 1e-11
 # A gap between source and reservoir within this fraction of the peak at its largest grid
 # point may close between grid points (a sine sags 1 - cos(pi/96) ~ 5e-4 between them).
 _GRAZE = 2e-3
@@ -187,6 +189,8 @@ class SteadyState:
     harmonics_vpk: NDArray[np.complex128]
     ripple_hz: float
     signal_hz: float | None
+    #: The reservoir voltage at the line's zero crossing that starts the periodic state.
+    start_v: Array
 
 
 class _Batch:
@@ -456,7 +460,8 @@ def _bracketed_roots(f: object, lo: Array, hi: Array, f_lo: Array, f_hi: Array) 
     k = np.flatnonzero(proper)
     a, b, fa = lo[k], hi[k], f_lo[k]
     base = hi.copy()
-    x = np.where(np.abs(f_lo[k]) < np.abs(f_hi[k]), a, b)
+    # start at the secant point of the bracket (the grid's points are close)
+    x = (lo[k] * f_hi[k] - hi[k] * f_lo[k]) / (f_hi[k] - f_lo[k])
     for _ in range(_ROOT_ITERATIONS):
         base[k] = x
         values, slopes = func(base)  # type: ignore[operator]
@@ -696,7 +701,7 @@ def _shoot(batch: _Batch, length: float, guess: Array) -> tuple[Array, NDArray[n
     n = guess.size
     hi = np.maximum(batch.V - batch.Vd, 0.0)
     lo = np.full(n, -np.inf)
-    tol = 1e-12 * np.maximum(hi, 1.0)
+    tol = _SHOOT_RTOL * np.maximum(hi, 1.0)
     x = np.clip(guess, 0.0, hi)
     collapsed = np.zeros(n, dtype=bool)
     active = np.ones(n, dtype=bool)
@@ -716,17 +721,19 @@ def _shoot(batch: _Batch, length: float, guess: Array) -> tuple[Array, NDArray[n
         gone = (x[rows] <= 0.0) & ~up & ~finished
         collapsed[rows[gone]] = True
         step = g / np.maximum(1.0 - slope, 1e-12)
-        new = x[rows] + step
+        newton = x[rows] + step
+        # a Newton step this small lands on the root (the map is smooth there)
+        finished |= (np.abs(step) <= tol[rows]) & ~gone
         lo_r = np.where(np.isfinite(lo[rows]), lo[rows], 0.0)
-        inside = (new > lo_r) & (new < hi[rows])
+        inside = (newton > lo_r) & (newton < hi[rows])
         bisect = 0.5 * (lo_r + hi[rows])
         # below zero and nothing known below: try zero itself once
         new = np.where(
-            inside, new, np.where(np.isfinite(lo[rows]), bisect, np.minimum(bisect, 0.0))
+            inside, newton, np.where(np.isfinite(lo[rows]), bisect, np.minimum(bisect, 0.0))
         )
         new = np.where((new < 0.0) & ~np.isfinite(lo[rows]), 0.0, new)
         narrow = (hi[rows] - lo_r) <= tol[rows]
-        v0[rows] = np.where(finished | narrow, x[rows], new)
+        v0[rows] = np.where(finished, newton, x[rows])
         x[rows] = new
         active[rows[finished | narrow | gone]] = False
     return np.where(collapsed, 0.0, v0), collapsed
@@ -818,6 +825,7 @@ def solve(
     phase: ArrayLike = 0.0,
     conductance_s: ArrayLike = 0.0,
     half_wave: bool = False,
+    guess: ArrayLike | None = None,
 ) -> SteadyState:
     """Periodic steady state of a batch of capacitor-input rectifiers (arrays broadcast).
 
@@ -847,6 +855,9 @@ def solve(
         Resistive part of the load, S.
     half_wave : bool, optional
         One charging pulse per line cycle instead of two.
+    guess : array_like, optional
+        The reservoir voltage at the line's zero crossing to start the shooting from (a
+        nearby circuit's `SteadyState.start_v`); by default the constant-current estimate.
 
     Returns
     -------
@@ -889,7 +900,11 @@ def solve(
     # a first guess: the reservoir's mean under the constant-current discharge
     open_peak = np.maximum(peak - drop, 0.0)
     mean_load = dc + pulse / np.pi + g * open_peak
-    v0, collapsed = _shoot(batch, length, open_peak - 0.5 * mean_load / (source_hz * cap))
+    start = open_peak - 0.5 * mean_load / (source_hz * cap)
+    if guess is not None:
+        given = np.broadcast_to(np.asarray(guess, dtype=float), start.shape)
+        start = np.where(np.isfinite(given), given, start)
+    v0, collapsed = _shoot(batch, length, start)
     found = _figures(batch, v0, length, source_hz / line_hz)
     collapsed = (collapsed | (found["trough_v"] <= 0.0)) & ~idle
     for key in ("trough_v", "crest_v", "mean_v"):
@@ -917,6 +932,7 @@ def solve(
         harmonics_vpk=found["harmonics_vpk"],
         ripple_hz=source_hz,
         signal_hz=used_hz,
+        start_v=v0,
     )
 
 
@@ -936,6 +952,12 @@ def inrush_peak(peak_v: ArrayLike, drop_v: ArrayLike, resistance_ohm: ArrayLike)
         return np.asarray(np.where(r > 0.0, drive / np.where(r > 0.0, r, 1.0), np.inf), dtype=float)
 
 
+# The last periodic start of each circuit shape (everything but the load and the source's
+# amplitude): the power tree asks for nearly the same circuit again and again as it
+# settles, and Newton's method from there needs a step or two.
+_WARM: dict[tuple[object, ...], Array] = {}
+
+
 @lru_cache(maxsize=512)
 def solve_cached(
     peak_v: tuple[float, ...],
@@ -949,9 +971,11 @@ def solve_cached(
     phase: tuple[float, ...],
     half_wave: bool,
 ) -> SteadyState:
-    """`solve` memoised on plain arguments (the power tree asks the same corner again and
-    again while it settles)."""
-    return solve(
+    """`solve` memoised on plain arguments, started from the last solution of the same
+    circuit shape (the power tree asks for nearly the same corner again and again while it
+    settles)."""
+    shape = (len(peak_v), drop_v, resistance_ohm, reservoir_f, line_hz, signal_hz, phase, half_wave)
+    found = solve(
         np.array(peak_v),
         drop_v,
         resistance_ohm,
@@ -962,4 +986,9 @@ def solve_cached(
         signal_hz,
         np.array(phase),
         half_wave=half_wave,
+        guess=_WARM.get(shape),
     )
+    if len(_WARM) > 256:
+        _WARM.clear()
+    _WARM[shape] = np.where(found.collapsed, np.nan, found.start_v)
+    return found

@@ -63,7 +63,7 @@ from chainbudget.supplies.base import (
 
 #: The rails are settled when each moves less than this between the voltage a stage is
 #: analysed on and the supply's output under the load it then draws, V.
-RAIL_TOLERANCE_V = 1e-6
+RAIL_TOLERANCE_V = 1e-8
 #: Evaluations of the tree allowed to settle it (each solves the chain at one frequency).
 MAX_EVALUATIONS = 400
 # Plain substitution continues while each step shrinks the disagreement at least this much.
@@ -154,9 +154,15 @@ class _Tree:
         return y, loads, found
 
 
-def settle(chain: Chain, corner: str = "low", tone_hz: float | None = None) -> SettledTree:
+def settle(
+    chain: Chain,
+    corner: str = "low",
+    tone_hz: float | None = None,
+    start: Mapping[str, Corners] | None = None,
+) -> SettledTree:
     """The power tree's operating point with the stages analysed at ``corner`` and their
-    currents worked out at the tone ``tone_hz`` (default: the reference frequency).
+    currents worked out at the tone ``tone_hz`` (default: the reference frequency), the
+    search started from the rails ``start`` (default: the unloaded tree's).
 
     Notes
     -----
@@ -170,6 +176,8 @@ def settle(chain: Chain, corner: str = "low", tone_hz: float | None = None) -> S
     rails = _moving_rails(chain)
     ceiling = {r: float(getattr(unloaded[r].corners, corner)) for r in rails}
     x = dict(ceiling)
+    if start is not None:
+        x = {r: min(float(getattr(start[r], corner)), ceiling[r]) for r in rails}
     y, loads, states = tree(unloaded, x)
 
     def residual(a: Mapping[str, float], b: Mapping[str, float]) -> float:
@@ -219,31 +227,31 @@ def _settle_one(
     lo, hi = 0.0, max(ceiling, 0.0)
     h_lo: float | None = None
     h_hi: float | None = None
+    side = 0  # +1: lo moved last, -1: hi moved last
     t, h = x[rail], y[rail] - x[rail]
-    kept = 0
     for _ in range(60):
         if abs(h) <= RAIL_TOLERANCE_V or tree.evaluations >= MAX_EVALUATIONS:
             break
+        # Illinois: the end that stays put a second time has its value halved
         if h > 0.0:
-            lo, h_lo = t, h
-            kept = kept + 1 if kept > 0 else 1
+            if side == 1 and h_hi is not None:
+                h_hi *= 0.5
+            lo, h_lo, side = t, h, 1
         else:
-            hi, h_hi = t, h
-            kept = kept - 1 if kept < 0 else -1
+            if side == -1 and h_lo is not None:
+                h_lo *= 0.5
+            hi, h_hi, side = t, h, -1
+        if hi - lo <= 0.1 * RAIL_TOLERANCE_V:
+            break
         if h_lo is None or h_hi is None:
-            # one end known: step by the residual, clipped to the bracket's other end
+            # one end known: substitute, kept within the bracket
             t_new = min(max(t + h, lo), hi)
             if t_new == t:
                 t_new = 0.5 * (lo + hi)
         else:
-            # Illinois: halve the value of an end kept twice in a row
-            a_lo = h_lo * (0.5 if kept <= -2 else 1.0)
-            a_hi = h_hi * (0.5 if kept >= 2 else 1.0)
-            t_new = (lo * a_hi - hi * a_lo) / (a_hi - a_lo)
+            t_new = (lo * h_hi - hi * h_lo) / (h_hi - h_lo)
             if not lo < t_new < hi:
                 t_new = 0.5 * (lo + hi)
-        if hi - lo <= 0.1 * RAIL_TOLERANCE_V:
-            break
         trial = dict(x)
         trial[rail] = t_new
         y_new, loads_new, states_new = tree(states, trial)
@@ -286,7 +294,7 @@ def low_edge_clip_vpk(analysis: Analysis) -> float | None:
     low_hz = chain.settings.band[0]
     voltages: Mapping[str, Corners] = analysis.voltages
     if _sags(chain, analysis):
-        voltages = settle(chain, "low", low_hz).voltages
+        voltages = settle(chain, "low", low_hz, start=analysis.voltages).voltages
     return clip_at_load(chain, voltages, "low", low_hz)
 
 
