@@ -118,6 +118,64 @@ def test_the_sag_that_costs_more_than_a_decibel_is_a_warning_with_its_fix(tmp_pa
         assert not [f for f in fixed.findings if f.code == "battery-resistance"]
 
 
+PAIR = """
+[chain]
+title = "battery pair"
+[source]
+level = "100 mV"
+max_level = "1 V"
+impedance = "100 ohm"
+[load]
+impedance = "4 ohm"
+[[supply]]
+name = "plus"
+kind = "dc"
+voltage = "12 V"
+resistance = "1 ohm"
+[[supply]]
+name = "minus"
+kind = "dc"
+voltage = "12 V"
+resistance = "{minus}"
+[[stage]]
+name = "drive"
+kind = "block"
+gain = "30 dB"
+input_impedance = "100k"
+output_impedance = "10 ohm"
+[[stage]]
+name = "out"
+kind = "push_pull"
+emitter_resistors = "0R22"
+quiescent = "20 mA"
+positive = "plus"
+negative = "minus"
+"""
+
+
+@pytest.mark.parametrize("minus", ["1 ohm", "0 ohm"])
+def test_each_battery_of_a_pair_is_charged_with_its_own_sag(minus: str) -> None:
+    """Two 12 V batteries, 1 ohm each (or the negative one ideal), feeding the halves of a
+    push-pull into 4 ohm: each one's cost is the clip with both ideal, emitter swing 12 V -
+    (V_CE(sat) + V_BE), over the clip with only it sagging, e = (12 - 1 x I_q - drop)/(1 +
+    1/(R_E + R_L)) (Thevenin, the fixed point solved by hand): the same for both when both
+    sag (the stage clips on either), rel 1e-9; an ideal battery costs nothing."""
+    text = PAIR.format(minus=minus)
+    b = compute(parse_chain(tomllib.loads(text), "pair.toml"))
+    npn = GENERIC_TRANSISTORS["power_npn"]
+    drop = npn.vce_sat + npn.vbe
+    ideal = 12.0 - drop
+    sagging = (12.0 - 0.02 - drop) / (1.0 + 1.0 / 4.22)
+    cost = 20.0 * math.log10(ideal / sagging)
+    assert b.supply("plus").sag_cost_db == pytest.approx(cost, rel=1e-9)
+    if minus == "1 ohm":
+        assert b.supply("minus").sag_cost_db == pytest.approx(cost, rel=1e-9)
+    else:
+        assert b.supply("minus").sag_cost_db is None
+    warned = {f.supply for f in b.findings if f.code == "battery-resistance"}
+    assert warned == ({"plus", "minus"} if minus == "1 ohm" else {"plus"})
+
+
 def test_a_reservoir_across_a_battery_holds_the_fast_crests_up() -> None:
     """With 1000 uF across the battery the trough at the 1 kHz crest is the direct
     integration of the RC under the half-sine pulses (solve_ivp over 30 cycles, the last one

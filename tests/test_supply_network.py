@@ -8,13 +8,14 @@ import cmath
 import json
 import math
 import tomllib
+from pathlib import Path
 
 import pytest
 
 from chainbudget import rectifier
 from chainbudget.budget import Budget, compute
 from chainbudget.budget.supplies import loaded_analysis
-from chainbudget.chainfile import Chain, ChainFileError, parse_chain
+from chainbudget.chainfile import Chain, ChainFileError, load_chain, parse_chain
 from chainbudget.report.json_view import report_json
 
 SQRT2 = math.sqrt(2.0)
@@ -284,3 +285,33 @@ def test_the_loader_checks_rails_and_named_biases(text: str, path: str, words: s
         chain_of(text)
     assert path in str(caught.value) and words in str(caught.value)
     assert "\n" not in str(caught.value)
+
+
+EXAMPLES = sorted((Path(__file__).resolve().parents[1] / "chains").glob("*.toml"))
+SUPPLY_KEYS = {"trough_v", "crest_v", "mean_v", "ripple_vpp", "ripple_harmonics", "collapsed"}
+RECTIFIED_KEYS = {
+    "winding_rms_a",
+    "diode_peak_a",
+    "reservoir_ripple_a",
+    "conduction_deg",
+    "inrush_a",
+}
+
+
+@pytest.mark.parametrize("path", EXAMPLES, ids=lambda p: p.stem)
+def test_every_example_carries_the_supply_keys_of_the_contract(path: Path) -> None:
+    """chain-format.md, "Extensions: Supplies": every supply's trough, crest, mean, ripple,
+    its spectrum ({"hz", "vpk"}, at least five; empty where there is no mains ripple) and
+    whether it collapsed; a rectified one's currents; the output's clip power at the
+    reference and at the band's low edge."""
+    data = json.loads(json.dumps(report_json(load_chain(path))))
+    assert {"clip_power_w", "clip_power_low_w"} <= data["output"].keys()
+    for entry in data["supplies"]:
+        assert SUPPLY_KEYS <= entry.keys()
+        spectrum = entry["ripple_harmonics"]
+        assert spectrum == [] or (
+            len(spectrum) >= 5 and all(set(h) == {"hz", "vpk"} for h in spectrum)
+        )
+        if entry["kind"] == "rectified":
+            assert RECTIFIED_KEYS <= entry.keys()
+            assert len(spectrum) >= 5

@@ -43,6 +43,7 @@ from chainbudget.budget.levels import clip_source_peak
 from chainbudget.budget.rails import (
     drawn_from_parent,
     external_loads,
+    parents_first,
     rail_owners,
     rails_of,
     stage_rail_names,
@@ -184,13 +185,21 @@ def settle(
         return max((abs(a[r] - b[r]) for r in rails), default=0.0)
 
     gap = residual(x, y)
-    # substitution while it contracts fast
+    # substitution, each rail's step scaled by the secant of its last two (a rail's F falls
+    # as it rises, so the slope is taken no higher than zero), while it contracts fast
+    previous: tuple[dict[str, float], dict[str, float]] | None = None
     while gap > RAIL_TOLERANCE_V and tree.evaluations < 8:
-        x_new = y
+        x_new = {}
+        for r in rails:
+            slope = 0.0
+            if previous is not None and x[r] != previous[0][r]:
+                slope = min((y[r] - previous[1][r]) / (x[r] - previous[0][r]), 0.0)
+            x_new[r] = min(max(x[r] + (y[r] - x[r]) / (1.0 - slope), 0.0), ceiling[r])
         y_new, loads_new, states_new = tree(states, x_new)
         gap_new = residual(x_new, y_new)
         if gap_new > _FAST_CONTRACTION * gap:
             break
+        previous = (x, y)
         x, y, loads, states, gap = x_new, y_new, loads_new, states_new, gap_new
     # each rail's own bracketed root, in turn
     while gap > RAIL_TOLERANCE_V and tree.evaluations < MAX_EVALUATIONS:
@@ -312,45 +321,77 @@ def _sag_cost_db(
     states: Mapping[str, SupplyState],
 ) -> dict[str, float]:
     """For each supply that can say what its own source resistance is: the output clip
-    power it costs at the reference frequency, dB (the clip with its state taken without
-    that resistance, the rest of the tree under the same loads)."""
+    power its sag costs at the reference frequency, dB.
+
+    Notes
+    -----
+    The clip with every such supply taken without its resistance (`SupplyKind.stiff_state`)
+    against the clip with all of them so but this one, the rest of the tree under the same
+    loads: what this supply's sag alone costs (two batteries feeding the two halves of a
+    push-pull each cost their share, though the stage clips on the weaker half).
+    """
     chain = analysis.chain
     reference = chain.settings.reference
-    found: dict[str, float] = {}
-    clip: float | None = None
+    stiff: dict[str, SupplyState] = {}
     for supply in chain.supplies:
-        kind = KINDS[supply.kind]
         parent = None if supply.parent is None else states[supply.parent]
-        stiff = kind.stiff_state(supply, parent, loads.get(supply.name, NO_LOAD))
-        if stiff is None:
+        state = KINDS[supply.kind].stiff_state(supply, parent, loads.get(supply.name, NO_LOAD))
+        if state is not None:
+            stiff[supply.name] = state
+    if not stiff:
+        return {}
+    ideal = clip_at_load(chain, _replaced(chain, stiff, loads, states), "low", reference)
+    found: dict[str, float] = {}
+    for name in stiff:
+        others = {other: state for other, state in stiff.items() if other != name}
+        sagging = (
+            _reference_clip(analysis)
+            if not others
+            else clip_at_load(chain, _replaced(chain, others, loads, states), "low", reference)
+        )
+        if ideal is None or sagging is None or ideal <= 0.0 or sagging <= 0.0:
             continue
-        if clip is None:
-            clip = clip_at_load(chain, analysis.voltages, "low", reference)
-        corners = {rail: state.corners for rail, state in states.items()}
-        corners.update(_below(chain, supply.name, stiff, loads))
-        stiff_clip = clip_at_load(chain, corners, "low", reference)
-        if clip is None or stiff_clip is None or clip <= 0.0 or stiff_clip <= 0.0:
-            continue
-        found[supply.name] = float(20.0 * np.log10(stiff_clip / clip))
+        found[name] = float(20.0 * np.log10(ideal / sagging))
     return found
 
 
-def _below(
-    chain: Chain, rail: str, state: SupplyState, loads: Mapping[str, SupplyLoad]
+def _replaced(
+    chain: Chain,
+    replaced: Mapping[str, SupplyState],
+    loads: Mapping[str, SupplyLoad],
+    states: Mapping[str, SupplyState],
 ) -> dict[str, Corners]:
-    """The corners of ``rail`` at ``state`` and of every supply fed from it, recomputed."""
-    changed = {rail: state}
-    pending = [s for s in chain.supplies if s.parent is not None]
-    progress = True
-    while progress:
-        progress = False
-        for supply in list(pending):
-            if supply.parent in changed:
-                mine = {r: loads.get(r, NO_LOAD) for r in rails_of(supply)}
-                changed.update(KINDS[supply.kind].rail_states(supply, changed[supply.parent], mine))
-                pending.remove(supply)
-                progress = True
-    return {name: s.corners for name, s in changed.items()}
+    """Every rail's corners with the supplies ``replaced`` at the states given and every
+    supply fed from them recomputed under the same loads."""
+    changed = dict(replaced)
+    for supply in parents_first(chain):
+        if supply.name in replaced or supply.parent is None or supply.parent not in changed:
+            continue
+        mine = {r: loads.get(r, NO_LOAD) for r in rails_of(supply)}
+        changed.update(KINDS[supply.kind].rail_states(supply, changed[supply.parent], mine))
+    corners = {rail: state.corners for rail, state in states.items()}
+    corners.update({rail: state.corners for rail, state in changed.items()})
+    return corners
+
+
+def _reference_clip(analysis: Analysis) -> float | None:
+    """The analysis's own clip peak at the load at the reference frequency, volume fully
+    up (as `clip_at_load` would solve it; read from the volume axis already solved)."""
+    chain = analysis.chain
+    last = len(chain.stages) - 1
+    cascade = analysis.nominal
+    index: tuple[int, ...] = ()
+    if analysis.volume_sweep is not None:
+        cascade, index = analysis.volume_sweep, (analysis.volume_rotations.size - 1,)
+    gain = float(np.abs(np.asarray(cascade.v_out[last])[(*index, 0)]))
+    peaks = []
+    for k in range(last + 1):
+        clip = clip_source_peak(cascade, k)
+        if clip is not None:
+            peak = np.asarray(clip[0])
+            shape = np.broadcast_shapes(peak.shape, np.shape(cascade.v_out[k]))
+            peaks.append(float(np.broadcast_to(peak, shape)[(*index, 0)]))
+    return min(peaks) * gain if peaks else None
 
 
 def supply_budgets(analysis: Analysis) -> tuple[SupplyBudget, ...]:
