@@ -386,10 +386,15 @@ def _supplies(reader: _Reader, data: Mapping[str, Any]) -> tuple[Supply, ...]:
             raise reader.error(f"{path}.{key}", _missing(schema, key))
         for key, message in spec.problems(values):
             raise reader.error(f"{path}.{key}", message)
-        if name == GROUND_SUPPLY or any(s.name == name for s in found):
-            raise reader.error(f"{path}.name", f"{quoted(name)} is already defined")
-        found.append(Supply(index, name, kind, values))
-    names = [s.name for s in found]
+        supply = Supply(index, name, kind, values)
+        defined = [rail for s in found for rail in SUPPLY_KINDS[s.kind].rails(s)]
+        for rail in spec.rails(supply):
+            if rail == GROUND_SUPPLY or rail in defined:
+                raise reader.error(f"{path}.name", f"{quoted(rail)} is already defined")
+        found.append(supply)
+    # a split supply defines more than one rail; each names its supply
+    owner = {rail: s for s in found for rail in SUPPLY_KINDS[s.kind].rails(s)}
+    names = list(owner)
     for supply in found:
         parent = supply.parent
         if parent is not None and parent not in names:
@@ -403,16 +408,16 @@ def _supplies(reader: _Reader, data: Mapping[str, Any]) -> tuple[Supply, ...]:
     for supply in found:  # a cycle would make the power tree unsolvable
         chain, here = [supply.name], supply.parent
         while here is not None:
-            if here in chain:
-                loop = chain[chain.index(here) :] + [here]
+            if owner[here].name in chain:
+                loop = chain[chain.index(owner[here].name) :] + [owner[here].name]
                 raise reader.error(
                     f"{_path(supply)}.from",
                     "the supplies feed each other in a loop ("
                     + " <- ".join(quoted(name, 30) for name in loop)
                     + "); a supply tree must end at a source",
                 )
-            chain.append(here)
-            here = next(s for s in found if s.name == here).parent
+            chain.append(owner[here].name)
+            here = owner[here].parent
     return tuple(found)
 
 
@@ -429,7 +434,7 @@ def _stages(
     transistors: Mapping[str, Transistor],
 ) -> tuple[Stage, ...]:
     found: list[Stage] = []
-    rail_names = [s.name for s in supplies]
+    rail_names = [rail for s in supplies for rail in SUPPLY_KINDS[s.kind].rails(s)]
     items = reader.named_list(data, "stage")
     if not items:
         raise reader.error("stage", "a chain needs at least one [[stage]]")
@@ -470,7 +475,15 @@ def _stages(
                         + "; the supplies are: "
                         + listing([*rail_names, GROUND_SUPPLY]),
                     )
-        found.append(Stage(index, name, kind, values))
+        stage = Stage(index, name, kind, values)
+        bias = spec.bias_supply(stage)
+        if bias is not None and bias not in rail_names:
+            raise reader.error(
+                f"{path}.bias",
+                f'got "{bias}", expected a voltage or the name of a supply'
+                + suggest(bias, rail_names),
+            )
+        found.append(stage)
     return tuple(found)
 
 

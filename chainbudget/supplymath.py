@@ -16,6 +16,7 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from chainbudget.eseries import largest_at_most
+from chainbudget.rectifier import pulse_response_peak
 
 _SQRT2 = float(np.sqrt(2.0))
 
@@ -395,3 +396,58 @@ def sag(v: ArrayLike, resistance: ArrayLike, current: ArrayLike) -> NDArray[np.f
     memory).
     """
     return np.asarray(_f(v) - _f(resistance) * _f(current), dtype=float)
+
+
+def pulsed_sag(
+    resistance_ohm: float,
+    capacitance_f: float | None,
+    dc_a: float,
+    pulse_a: float,
+    signal_hz: float | None,
+) -> float:
+    """Largest drop across a source resistance feeding a steady current and half-wave sine
+    pulses, with an optional capacitor across the output, V.
+
+    Parameters
+    ----------
+    resistance_ohm : float
+        Source resistance R (a battery's internal resistance, a filter's series resistor).
+    capacitance_f : float or None
+        Capacitor from the output to ground (None: none).
+    dc_a : float
+        Steady load current, A.
+    pulse_a : float
+        Peak of the half-wave sine pulses, A (what a class-B output draws from one rail).
+    signal_hz : float or None
+        Frequency of the pulses, Hz.
+
+    Returns
+    -------
+    float
+        R (I_dc + I_p y_max), the drop at the crest of the pulses.
+
+    Notes
+    -----
+    The output is the source less R times the load current seen through the low-pass
+    1/(1 + j omega R C) that the capacitor makes of it: the steady part drops R I_dc, the
+    pulses R I_p y, y the periodic response of a first-order low-pass of time constant
+    omega_s R C to a half-wave rectified sine (`chainbudget.rectifier.pulse_response`;
+    y_max = 1 without a capacitor, the drop at the pulses' crest, falling towards their
+    mean 1/pi as the capacitor holds the output up over the signal period). Thevenin and
+    the first-order step response of circuit theory.
+    """
+    if pulse_a <= 0.0 or signal_hz is None:
+        return resistance_ohm * (dc_a + max(pulse_a, 0.0))
+    peak = 1.0
+    if capacitance_f is not None and capacitance_f > 0.0:
+        tau = 2.0 * np.pi * signal_hz * resistance_ohm * capacitance_f
+        peak = float(pulse_response_peak(tau)[0])
+    return resistance_ohm * (dc_a + pulse_a * peak)
+
+
+def first_order_lowpass(hz: float, resistance_ohm: float, capacitance_f: float | None) -> complex:
+    """Complex gain 1/(1 + j 2 pi f R C) of a series resistor into a shunt capacitor (1 with
+    no capacitor): how an RC filter passes ripple at ``hz`` (circuit theory)."""
+    if capacitance_f is None or capacitance_f <= 0.0:
+        return 1.0 + 0.0j
+    return 1.0 / (1.0 + 2j * np.pi * hz * resistance_ohm * capacitance_f)

@@ -47,11 +47,12 @@ LOUD_SPL_DB = 85.0
 # --- supplies ----------------------------------------------------------------------------
 #: A capacitor-input rectifier draws its charge in short peaks, so the transformer's rms
 #: current is well above the dc load: about 1.8x for a bridge (common practice, no source;
-#: from memory). A dc load above rated/1.8 overheats the winding though the dc figure fits.
+#: from memory). The rectifier model solves the real figure; this rule of thumb judges the
+#: rating only when the winding resistance is not known (an ideal source's pulses are too
+#: tall to judge it by).
 RMS_PER_DC_AMP = 1.8
-#: Ripple at which the constant-current ripple figure stops being a close estimate (it
-#: overstates the ripple more and more as the trough falls towards zero): a fifth of the
-#: peak (ours; the approximation needs V_pp << V_pk).
+#: Ripple over this fraction of the peak costs every stage on the rail that much swing and
+#: any regulator after it the margin: worth a larger reservoir (ours).
 LARGE_RIPPLE_FRACTION = 0.2
 #: A dropout margin under this is in regulation on paper only: the part's dropout, the
 #: mains and the diodes all spread (ours, a design allowance).
@@ -59,6 +60,10 @@ THIN_DROPOUT_MARGIN_V = 0.5
 #: A suggested bleeder brings a regulator's idle load this fraction above its minimum load,
 #: not just to it: the op-amps' and the divider's currents spread with their parts (ours).
 BLEEDER_MARGIN = 0.1
+#: A battery's internal resistance that costs more clip power than this is worth a warning,
+#: dB (the issue's figure; about the least change in loudness a listener notices on music,
+#: common practice, no source).
+BATTERY_SAG_COST_DB = 1.0
 #: Off-load rise of small mains transformers (common practice, no source).
 TYPICAL_REGULATION = (0.10, 0.25)
 

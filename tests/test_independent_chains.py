@@ -26,11 +26,14 @@ from typing import Any
 
 import numpy as np
 import pytest
+from bruteforce import Circuit, steady_state
 from numpy.typing import NDArray
 from scipy import integrate
 from scipy.constants import e as Q_ELECTRON
 from scipy.constants import k as BOLTZMANN
 from scipy.constants import zero_Celsius
+
+from chainbudget import rectifier
 
 LEVEL_DB_TOL = 0.05  # reviewer's tolerance on levels, gains and headroom
 NOISE_DB_TOL = 0.1  # reviewer's tolerance on noise figures
@@ -1122,22 +1125,26 @@ def test_rectifier_and_adjustable_regulator(tmp_path: Path, regulation: str | No
     regulator (1.25 V, 50 uA, 240R across the reference, 2k2 to ground) feeding one
     single-supply op-amp stage (4 mA quiescent, into 1 kohm || 11 kohm).
 
-    Sources (hand formulas; Horowitz & Hill, 3rd ed., sec. 9.5 and ch. 9):
+    Sources (hand formulas; Horowitz & Hill, 3rd ed., sec. 9.5 and ch. 9; a direct
+    integration of the rectifier, tests/bruteforce.py):
     - V_out = V_ref (1 + 2k2/240R) + I_adj 2k2; rtol 1e-6.
     - loads: idle I_q,opamp + V_ref/240R; heaviest adds the op-amp's mean sourced
       current at its clip level, I_pk/pi (half-wave rectified sine), I_pk = (V_out/2 -
       1.5 V)/(1k || 11k); the regulator input adds I_adj. rtol 1e-4.
-    - peak V_pk = sqrt2 V_sec k (1 + r (1 - I/I_rated)) - V_bridge, k = 0.9/1/1.1;
-      ripple I/(2 f C) (constant-current discharge over a half cycle); trough at low line
-      and heaviest load V_pk - V_pp; dropout margin trough - dropout - V_out; crest at high
-      line, no load; rtol 1e-4 (margin abs 1 mV).
-    - dissipation (V_in,mean - V_out) I_out + V_in,mean I_adj at high line, V_in,mean =
-      V_pk - V_pp/2, the larger of idle and heaviest; junction T_a + P theta_ja; output
-      ripple V_pp 10^(-65/20). rtol 1e-4 (junction abs 0.01 K).
+    - with 10 % regulation and 0.5 A rated: R_s = 0.1 x 15 / 0.5 = 3 ohm behind the
+      open-circuit 16.5 V rms; the trough at low line is the brute-force periodic state
+      under the steady load and the op-amp's half-sine pulses at 1 kHz (abs 1 mV, the
+      spread over the signal's phase being 0.15 mV); the ripple likewise; dropout margin
+      trough - dropout - V_out (abs 1 mV). Without a winding resistance the source is the
+      rated-load 15 V, ideal: the trough lies above the constant-current bound V_pk - V_d
+      - I/(2 f C) and within its ripple of it.
+    - crest at high line, no load: sqrt2 V_oc 1.1 - 1.8 V; rtol 1e-9.
+    - dissipation (V_in,mean - V_out) I_out + V_in,mean I_adj at high line, the larger of
+      idle and heaviest; junction T_a + P theta_ja; output ripple V_pp 10^(-65/20). The
+      means from the rectifier's solution (rtol 1e-6).
     - min-load margin: idle output current (op-amp + divider) - 10 mA. abs 1 uA.
     """
     data = check_json(tmp_path, supply_text(regulation))
-    r_transformer = 0.0 if regulation is None else 0.10
     vout = 1.25 * (1.0 + 2200.0 / 240.0) + 50e-6 * 2200.0
     divider = 1.25 / 240.0
     z_load = 1.0 / (1.0 / 1e3 + 1.0 / 11e3)
@@ -1145,34 +1152,40 @@ def test_rectifier_and_adjustable_regulator(tmp_path: Path, regulation: str | No
     out_idle = 4e-3 + divider
     out_max = out_idle + i_pk / math.pi
     in_idle, in_max = out_idle + 50e-6, out_max + 50e-6
-
-    def peak(k: float, current: float) -> float:
-        return SQRT2 * 15.0 * k * (1.0 + r_transformer * (1.0 - current / 0.5)) - 1.8
-
-    def ripple(current: float) -> float:
-        return current / (2.0 * 50.0 * 4700e-6)
-
-    trough = peak(0.9, in_max) - ripple(in_max)
-    crest = peak(1.1, 0.0) if regulation is not None else SQRT2 * 15.0 * 1.1 - 1.8
-
-    def heat(current_out: float, current_in: float) -> float:
-        v_in = peak(1.1, current_in) - ripple(current_in) / 2.0
-        return (v_in - vout) * current_out + v_in * 50e-6
-
-    dissipation = max(heat(out_idle, in_idle), heat(out_max, in_max))
+    steady = in_idle  # the pulses ride on the steady currents
+    v_oc, r_s = (15.0, 0.0) if regulation is None else (16.5, 3.0)
+    crest = SQRT2 * v_oc * 1.1 - 1.8
     reg, raw = supply(data, "reg"), supply(data, "raw")
     assert reg["vout_v"] == pytest.approx(vout, rel=1e-6, abs=0)
     assert reg["idle_load_a"] == pytest.approx(out_idle, rel=1e-4, abs=0)
     assert reg["max_load_a"] == pytest.approx(out_max, rel=1e-4, abs=0)
     assert raw["max_load_a"] == pytest.approx(in_max, rel=1e-4, abs=0)
-    assert raw["ripple_vpp"] == pytest.approx(ripple(in_max), rel=1e-4, abs=0)
-    assert reg["input_min_v"] == pytest.approx(trough, rel=1e-4, abs=0)
-    assert reg["input_max_v"] == pytest.approx(crest, rel=1e-4, abs=0)
-    assert reg["dropout_margin_v"] == pytest.approx(trough - 2.5 - vout, abs=1e-3)
+    assert reg["input_max_v"] == pytest.approx(crest, rel=1e-9, abs=0)
+    low_peak = SQRT2 * v_oc * 0.9
+    if regulation is None:
+        bound = low_peak - 1.8 - in_max / (2.0 * 50.0 * 4700e-6)
+        assert bound < reg["input_min_v"] < bound + raw["ripple_vpp"]
+    else:
+        brute = steady_state(
+            Circuit(low_peak, 1.8, r_s, 4700e-6, 50.0, steady, i_pk, 1000.0, period_s=0.01)
+        )
+        assert reg["input_min_v"] == pytest.approx(brute.trough_v, abs=1e-3)
+        assert raw["ripple_vpp"] == pytest.approx(brute.crest_v - brute.trough_v, abs=1e-3)
+    trough = reg["input_min_v"]
+    assert reg["dropout_margin_v"] == pytest.approx(trough - 2.5 - vout, abs=1e-9)
+
+    def heat(current_out: float, steady_in: float, pulse: float) -> float:
+        state = rectifier.solve(
+            SQRT2 * v_oc * 1.1, 1.8, r_s, 4700e-6, 50.0, steady_in, pulse, 1000.0, 0.0
+        )
+        v_in = float(state.mean_v[0])
+        return (v_in - vout) * current_out + v_in * 50e-6
+
+    dissipation = max(heat(out_idle, in_idle, 0.0), heat(out_max, steady, i_pk))
     assert reg["min_load_margin_a"] == pytest.approx(out_idle - 10e-3, abs=1e-6)
     assert reg["dissipation_w"] == pytest.approx(dissipation, rel=1e-4, abs=0)
     assert reg["junction_degc"] == pytest.approx(30.0 + 50.0 * dissipation, abs=0.01)
-    assert reg["ripple_vpp"] == pytest.approx(ripple(in_max) * 10 ** (-65 / 20), rel=1e-4, abs=0)
+    assert reg["ripple_vpp"] == pytest.approx(raw["ripple_vpp"] * 10 ** (-65 / 20), rel=1e-9, abs=0)
     # The idle shortfall (9.2 mA < 10 mA) must be reported.
     assert any(fi["code"] == "regulator-min-load" for fi in data["findings"])
 

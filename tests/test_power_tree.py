@@ -140,11 +140,14 @@ def test_idle_currents_sum_up_the_tree() -> None:
 
 
 def test_the_ripple_sets_the_trough_with_the_whole_tree_loading_the_reservoir() -> None:
-    """raw's ripple is its heaviest load / (2 f C) (Horowitz & Hill 3rd ed. sec. 9.5.2,
-    from memory), the load including every regulator below it; rtol 1e-12."""
+    """raw's ripple is its heaviest load's, the load including every regulator below it:
+    under the constant-current figure I/(2 f C) and within 20 % of it (Horowitz & Hill 3rd
+    ed. sec. 9.5.2, from memory; the cycle-by-cycle solution lies below it); the regulator
+    sees raw's trough (rel 1e-12)."""
     b = budget_of(TREE + opamp_stage("pre", "plus", "minus") + block("dsp", "logic", "30 mA"))
     raw = supply(b, "raw")
-    assert raw.ripple_vpp == pytest.approx(raw.max_load_a / (2 * 50 * 4700e-6), rel=1e-12, abs=0)
+    limit = raw.max_load_a / (2 * 50 * 4700e-6)
+    assert 0.8 * limit < (raw.ripple_vpp or 0.0) < limit
     assert supply(b, "plus").input_min_v == pytest.approx(raw.output_min_v, rel=1e-12, abs=0)
 
 

@@ -6,7 +6,9 @@ A stage's quiescent current flows rail to rail: an op-amp's supply current per s
 follower's bias current, a push-pull stage's quiescent current. The signal current a
 class-B source (an op-amp output, a push-pull pair) sends into its load comes from the
 positive rail on positive half-cycles and from the negative rail (or ground, single supply)
-on negative ones; for a sine of peak I_pk the average from each rail is I_pk/pi, the mean of
+on negative ones, in half-wave sine pulses (the load on the supply as a waveform: the
+rectifier model charges its reservoir against them); for a sine of peak I_pk the average
+from each rail is I_pk/pi, the mean of
 a half-wave rectified sine (Boylestad & Nashelsky, Electronic Devices and Circuit Theory,
 class B section: I_dc = (2/pi) I_pk for both halves together, from memory). For a push-pull
 stage into Z_L that is V_pk/(pi |Z_L|) from each rail, 2 V_pk/(pi |Z_L|) from the two
@@ -17,21 +19,27 @@ averages to zero over a cycle: it draws its bias current at every level short of
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
 
 from chainbudget.budget.analysis import Analysis
 from chainbudget.budget.levels import SQRT2, clip_source_peak
+from chainbudget.cascade import Cascade
+from chainbudget.chainfile import Chain
 from chainbudget.stages import KINDS
+from chainbudget.stages.base import Environment
 
 
 @dataclass(frozen=True)
 class StageCurrents:
-    """Average current a stage draws from EACH of its rails, A.
+    """Average current a stage draws from EACH of its rails, A, and the peaks of the
+    half-sine pulses its class-B part draws (included in the averages at peak/pi).
 
     ``idle_a`` with no signal; ``nominal_a`` at the nominal source level; ``clip_a`` with a
-    sine at the stage's own clip level (controls as set, reference frequency).
+    sine at the stage's own clip level (controls as set, at ``signal_hz``: the reference
+    frequency unless the figures were worked out at another tone).
     """
 
     stage: str
@@ -40,36 +48,59 @@ class StageCurrents:
     idle_a: float
     nominal_a: float
     clip_a: float
+    nominal_pulse_a: float = 0.0
+    clip_pulse_a: float = 0.0
+    signal_hz: float | None = None
 
 
 def stage_currents(analysis: Analysis) -> list[StageCurrents]:
     """Average current from each rail of every stage at idle, nominal level and its own clip
-    level (see the module notes for the model of each kind)."""
-    nominal = analysis.nominal
+    level, at the reference frequency (see the module notes for the model of each kind)."""
+    return currents_at(
+        analysis.chain, analysis.nominal, analysis.envs, 0, analysis.chain.settings.reference
+    )
+
+
+def currents_at(
+    chain: Chain,
+    cascade: Cascade,
+    envs: Sequence[Environment],
+    column: int,
+    signal_hz: float,
+) -> list[StageCurrents]:
+    """`stage_currents` from a cascade solved with the controls as set, read at one column
+    of its frequency axis (the tone ``signal_hz``)."""
     found = []
     # A stage that clips limits the signal every later stage sees: the nominal source peak
     # that reaches stage k is capped by the clip levels of stage k and those before it.
-    reaching = SQRT2 * analysis.chain.source.level
-    for k, (sol, env) in enumerate(zip(nominal.stages, analysis.envs, strict=True)):
+    reaching = SQRT2 * chain.source.level
+    for k, (sol, env) in enumerate(zip(cascade.stages, envs, strict=True)):
         stage = sol.stage
         idle = KINDS[stage.kind].supply_current(stage, env)
-        clip = clip_source_peak(nominal, k)
-        if clip is not None:
-            reaching = min(reaching, float(clip[0][..., 0]))
+        clip = clip_source_peak(cascade, k)
+        clip_peak = None if clip is None else float(clip[0][..., column])
+        if clip_peak is not None:
+            reaching = min(reaching, clip_peak)
         per_volt = sum(
-            (float(np.abs(nominal.probe(k, probe)[..., 0])) for probe in sol.built.pulse_probes),
+            (
+                float(np.abs(cascade.probe(k, probe)[..., column]))
+                for probe in sol.built.pulse_probes
+            ),
             0.0,
         )
-        signal_nominal = per_volt * reaching / np.pi
-        signal_clip = 0.0 if clip is None else per_volt * float(clip[0][..., 0]) / np.pi
+        pulse_nominal = per_volt * reaching
+        pulse_clip = 0.0 if clip_peak is None else per_volt * clip_peak
         found.append(
             StageCurrents(
                 stage=stage.name,
                 positive=stage.values.get("positive"),
                 negative=stage.values.get("negative"),
                 idle_a=idle,
-                nominal_a=idle + signal_nominal,
-                clip_a=idle + signal_clip,
+                nominal_a=idle + pulse_nominal / np.pi,
+                clip_a=idle + pulse_clip / np.pi,
+                nominal_pulse_a=pulse_nominal,
+                clip_pulse_a=pulse_clip,
+                signal_hz=signal_hz,
             )
         )
     return found

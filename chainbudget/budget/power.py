@@ -25,6 +25,7 @@ from chainbudget import outputmath as om
 from chainbudget.budget.analysis import Analysis
 from chainbudget.budget.dcbias import load_offset
 from chainbudget.budget.levels import DB_FLOOR, SQRT2, clip_source_peak
+from chainbudget.budget.supplies import low_edge_clip_vpk
 from chainbudget.cascade import Cascade
 from chainbudget.chainfile import Chain
 from chainbudget.loudspeaker import is_reactive, load_impedance
@@ -37,9 +38,9 @@ class OutputFigures:
     """What reaches the load (V peak, W, dB SPL at 1 m, ohm, Hz) at the reference frequency.
 
     ``clip_*``: the largest clean sine at the load with the volume fully up (if the chain
-    has one) and the other controls as set; ``clip_stage`` is the stage that clips first
-    there and so sets the maximum output. ``output_stage_clip_*``: what the stage driving
-    the load could give on its own limit.
+    has one) and the other controls as set (``clip_power_low_w``: at the band's low edge);
+    ``clip_stage`` is the stage that clips first there and so sets the maximum output.
+    ``output_stage_clip_*``: what the stage driving the load could give on its own limit.
     """
 
     stage: str
@@ -62,6 +63,9 @@ class OutputFigures:
     power_stage: bool
     #: Worst-case DC across the load, V (`chainbudget.budget.dcbias.load_offset`).
     offset_v: float | None = None
+    #: The clip power for a tone at the band's low edge, with the supplies settled for it
+    #: (they have the longest to sag between charges there), W.
+    clip_power_low_w: float | None = None
 
 
 @dataclass(frozen=True)
@@ -146,6 +150,7 @@ def output_figures(analysis: Analysis) -> OutputFigures:
         corner = float(om.highpass_corner(output_cap, chain.load.impedance + z_out.real))
     elif output_cap is not None:
         corner = _reactive_corner(chain, output_cap, z_out)
+    low_vpk = low_edge_clip_vpk(analysis)
     return OutputFigures(
         stage=chain.stages[last].name,
         load_ohm=chain.load.impedance,
@@ -168,6 +173,7 @@ def output_figures(analysis: Analysis) -> OutputFigures:
         output_cap_corner_hz=corner,
         power_stage=last_kind.power_stage,
         offset_v=load_offset(analysis),
+        clip_power_low_w=None if low_vpk is None else float(om.sine_power(low_vpk, z_load)),
     )
 
 

@@ -4,8 +4,10 @@ The supplies know their own physics (``chainbudget.supplies``); this module walk
 the chain file describes.
 
 Supplies name their parent in ``from``; the loader has ruled out unknown parents and
-cycles. Loads flow up (a regulator draws its load, divider, bleeder and own current from its
-parent); voltages flow down (a regulator's input is its parent's output).
+cycles. A supply defines one rail, by its name, or more (a centre-tapped supply's
+``<name>`` and ``<name>.neg``); stages and child supplies name rails. Loads flow up (a
+regulator draws its load, divider, bleeder and own current from its parent's rail);
+voltages flow down (a regulator's input is its parent rail's output).
 """
 
 from __future__ import annotations
@@ -21,19 +23,31 @@ from chainbudget.supplies.base import (
     NO_LOAD,
     Corners,
     Supply,
+    SupplyKind,
     SupplyLoad,
     SupplyState,
 )
 
 
+def rails_of(supply: Supply) -> tuple[str, ...]:
+    """The rails a supply defines (its own name first)."""
+    return KINDS[supply.kind].rails(supply)
+
+
+def rail_owners(chain: Chain) -> dict[str, Supply]:
+    """Every rail of the chain and the supply that defines it, in file order."""
+    return {rail: supply for supply in chain.supplies for rail in rails_of(supply)}
+
+
 def parents_first(chain: Chain) -> list[Supply]:
     """The supplies ordered so that every parent comes before its children."""
+    owners = rail_owners(chain)
     ordered: list[Supply] = []
     done: set[str] = set()
     pending = list(chain.supplies)
     while pending:
         for supply in list(pending):
-            if supply.parent is None or supply.parent in done:
+            if supply.parent is None or owners[supply.parent].name in done:
                 ordered.append(supply)
                 done.add(supply.name)
                 pending.remove(supply)
@@ -41,7 +55,7 @@ def parents_first(chain: Chain) -> list[Supply]:
 
 
 def supply_state(supply: Supply, parent: SupplyState | None, load: SupplyLoad) -> SupplyState:
-    """One supply's output state given its parent's state and its external load."""
+    """One supply's output state (its first rail's) given its parent's state and its load."""
     return KINDS[supply.kind].state(supply, parent, load)
 
 
@@ -50,36 +64,68 @@ def input_load(supply: Supply, load: SupplyLoad) -> SupplyLoad:
     return KINDS[supply.kind].input_load(supply, load)
 
 
-def external_loads(chain: Chain, stage_loads: Mapping[str, SupplyLoad]) -> dict[str, SupplyLoad]:
-    """Load on every supply's output: its stages plus what its child supplies draw.
+def _has_standing_current(kind: SupplyKind) -> bool:
+    return type(kind).standing_current is not SupplyKind.standing_current
 
-    ``stage_loads`` maps a supply name to the current its stages draw from it directly.
+
+def drawn_from_parent(
+    chain: Chain,
+    supply: Supply,
+    load: SupplyLoad,
+    unloaded: Mapping[str, SupplyState] | None = None,
+) -> SupplyLoad:
+    """What a supply with a parent draws from it given its external load: its kind's
+    ``input_load`` and any standing current (a divider's), the latter at the parent's
+    unloaded state (``unloaded``: the tree's no-load states, if already worked out)."""
+    kind = KINDS[supply.kind]
+    drawn = kind.input_load(supply, load)
+    if supply.parent is not None and _has_standing_current(kind):
+        states = supply_states(chain) if unloaded is None else unloaded
+        drawn = drawn.plus(kind.standing_current(supply, states[supply.parent]))
+    return drawn
+
+
+def external_loads(chain: Chain, stage_loads: Mapping[str, SupplyLoad]) -> dict[str, SupplyLoad]:
+    """Load on every rail: its stages plus what the supplies fed from it draw.
+
+    ``stage_loads`` maps a rail to the current its stages draw from it directly. A supply
+    that draws a standing current whatever its load (a divider) draws it at its parent's
+    unloaded state (the small error is on the safe side: more current).
     """
     order = parents_first(chain)
-    loads = {s.name: stage_loads.get(s.name, NO_LOAD) for s in order}
+    loads = {rail: stage_loads.get(rail, NO_LOAD) for s in order for rail in rails_of(s)}
+    unloaded: dict[str, SupplyState] | None = None
     for supply in reversed(order):  # children before parents
-        if supply.parent is not None:
-            loads[supply.parent] = loads[supply.parent] + input_load(supply, loads[supply.name])
+        if supply.parent is None:
+            continue
+        if unloaded is None and _has_standing_current(KINDS[supply.kind]):
+            unloaded = supply_states(chain)
+        own = NO_LOAD
+        for rail in rails_of(supply):
+            own = own + loads[rail]
+        loads[supply.parent] = loads[supply.parent] + drawn_from_parent(
+            chain, supply, own, unloaded
+        )
     return loads
 
 
 def supply_states(
     chain: Chain, loads: Mapping[str, SupplyLoad] | None = None
 ) -> dict[str, SupplyState]:
-    """Output state of every supply under ``loads`` (default: no load)."""
+    """Output state of every rail under ``loads`` (default: no load)."""
     loads = loads or {}
     found: dict[str, SupplyState] = {}
     for supply in parents_first(chain):
-        load = loads.get(supply.name, NO_LOAD)
         parent = None if supply.parent is None else found[supply.parent]
-        found[supply.name] = supply_state(supply, parent, load)
+        mine = {rail: loads.get(rail, NO_LOAD) for rail in rails_of(supply)}
+        found.update(KINDS[supply.kind].rail_states(supply, parent, mine))
     return found
 
 
 def supply_voltages(
     chain: Chain, loads: Mapping[str, SupplyLoad] | None = None
 ) -> dict[str, Corners]:
-    """Output voltage magnitude of every supply at the three corners under ``loads``, V.
+    """Output voltage magnitude of every rail at the three corners under ``loads``, V.
 
     ``low``: low line (low battery), heaviest load, ripple trough; ``nominal``: nominal line
     and load, mean; ``high``: high line, no load. Without loads: the no-load voltages.
@@ -87,23 +133,39 @@ def supply_voltages(
     return {name: state.corners for name, state in supply_states(chain, loads).items()}
 
 
+def stage_rail_names(stage: Stage) -> tuple[str, ...]:
+    """The rails a stage's swing depends on: its positive and negative rails and the supply
+    its bias names (ground left out)."""
+    named = (
+        stage.values.get("positive"),
+        stage.values.get("negative"),
+        STAGE_KINDS[stage.kind].bias_supply(stage),
+    )
+    return tuple(dict.fromkeys(n for n in named if n is not None and n != GROUND_SUPPLY))
+
+
 def stage_rails(stage: Stage, voltages: Mapping[str, Corners], corner: str) -> Rails | None:
     """The rails of a stage at one corner (``"low"``, ``"nominal"`` or ``"high"``).
 
     A supply named as the negative rail sits below ground. The bias point is the stage's
-    ``bias`` if given, else mid-rail for a single supply and ground for split rails.
+    ``bias``: a voltage, or the output of the supply it names at the same corner; else
+    mid-rail for a single supply and ground for split rails.
     """
     positive_name = stage.values.get("positive")
     if positive_name is None:
         return None
     negative_name = stage.values.get("negative", GROUND_SUPPLY)
+    kind = STAGE_KINDS[stage.kind]
 
     def level(name: str) -> float:
         return 0.0 if name == GROUND_SUPPLY else float(getattr(voltages[name], corner))
 
     positive = level(positive_name)
     negative = -level(negative_name)
-    bias = STAGE_KINDS[stage.kind].bias_point(stage)
+    bias = kind.bias_point(stage)
+    bias_supply = kind.bias_supply(stage)
+    if bias_supply is not None:
+        bias = level(bias_supply)
     if bias is None:
         bias = (positive + negative) / 2.0 if negative_name == GROUND_SUPPLY else 0.0
     return Rails(positive=positive, negative=negative, bias=bias)

@@ -49,8 +49,8 @@ from chainbudget.budget.analysis import (
     solve_chain,
     sweep_points,
 )
-from chainbudget.budget.rails import external_loads, supply_voltages
-from chainbudget.budget.supplies import MAX_PASSES, _rails_agree, stage_loads
+from chainbudget.budget.rails import supply_voltages
+from chainbudget.budget.supplies import settle
 from chainbudget.cascade import Cascade, StageSolution
 from chainbudget.chainfile import Chain
 from chainbudget.network import TwoPort
@@ -410,9 +410,10 @@ def _rails_key(voltages: Mapping[str, Corners], corner: str) -> tuple[tuple[str,
 def loaded_steps(chain: Chain, stepped: Stepped, corner: str = "low") -> Iterator[Analysis]:
     """Each step's analysis on the rails its loaded power tree gives, in step order.
 
-    The same fixed point as `chainbudget.budget.supplies.loaded_analysis`, for every step
-    at once: solve on the unloaded rails; work out each step's loaded rails; solve the
-    steps whose rails moved again, together with the others that moved to the same rails.
+    The same operating point as `chainbudget.budget.supplies.loaded_analysis` (its
+    `settle`), for every step: solve on the unloaded rails; settle each step's tree; solve
+    the steps whose rails moved again, together with the others that moved to the same
+    rails.
     The analyses are yielded one at a time (each step's worst-case grid is a large array).
     """
     steps = range(stepped.values.size)
@@ -426,24 +427,16 @@ def loaded_steps(chain: Chain, stepped: Stepped, corner: str = "low") -> Iterato
 
     unloaded = supply_voltages(chain)
     solve(steps, [dict(unloaded) for _ in steps])
-    pending = list(steps)
-    for _ in range(MAX_PASSES):
-        moved: dict[tuple[Any, ...], list[tuple[int, dict[str, Corners]]]] = {}
-        for step in pending:
-            batch, position = batches[step]
-            analysis = batch.analysis(position, grid=False)
-            loaded = supply_voltages(
-                analysis.chain, external_loads(analysis.chain, stage_loads(analysis))
-            )
-            if not _rails_agree(analysis.chain, analysis.voltages, loaded, corner):
-                moved.setdefault(_rails_key(loaded, corner), []).append((step, loaded))
-        if not moved:
-            break
-        pending = []
-        for members in moved.values():
-            group = [step for step, _ in members]
-            solve(group, [loaded for _, loaded in members])
-            pending += group
+    # Each step's tree settled as `loaded_analysis` settles it; the steps whose rails moved
+    # are solved again, grouped by the rails they moved to.
+    moved: dict[tuple[Any, ...], list[tuple[int, dict[str, Corners]]]] = {}
+    for step in steps:
+        edited = stepped.edited(chain, step)
+        settled = dict(settle(edited, corner).voltages)
+        if _rails_key(settled, corner) != _rails_key(unloaded, corner):
+            moved.setdefault(_rails_key(settled, corner), []).append((step, settled))
+    for members in moved.values():
+        solve([step for step, _ in members], [loaded for _, loaded in members])
     for step in steps:
         batch, position = batches[step]
         yield batch.analysis(position)

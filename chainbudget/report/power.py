@@ -88,6 +88,12 @@ def output_table(out: OutputFigures) -> Table:
         else "no limit given (no stage declares one)",
         f"set by {out.clip_stage}: {out.clip_limit}" if out.clip_stage else DASH,
     )
+    if out.clip_power_low_w is not None and limited:
+        table.add_row(
+            "max output, band's low edge",
+            eng(out.clip_power_low_w, "W"),
+            "the supplies sag longest between charges there",
+        )
     if out.output_stage_clip_power_w is not None and out.clip_stage != out.stage:
         add_row(
             table,

@@ -25,14 +25,21 @@ CONTRACT_KEYS = (
 
 
 def supply_json(s: SupplyBudget) -> dict[str, Any]:
-    """One supply: the contract's keys first, then every other figure (SI; degC)."""
+    """One supply (one rail of a split supply): the contract's keys first, then every other
+    figure (SI; degC). ``ripple_harmonics`` is the mains ripple's spectrum at nominal line
+    and load, each harmonic's frequency and peak magnitude."""
     data: dict[str, Any] = {
         "name": s.name,
         "kind": s.kind,
         "vout_v": s.vout_v,
         "idle_load_a": s.idle_load_a,
         "max_load_a": s.max_load_a,
+        "trough_v": s.trough_v,
+        "crest_v": s.crest_v,
+        "mean_v": s.mean_v,
         "ripple_vpp": s.ripple_vpp,
+        "ripple_harmonics": [{"hz": hz, "vpk": abs(v)} for hz, v in s.ripple_harmonics],
+        "collapsed": s.collapsed,
         **{key: s.figure(key) for key in CONTRACT_KEYS},
         "parent": s.parent,
         "stages": list(s.stages),
@@ -42,6 +49,7 @@ def supply_json(s: SupplyBudget) -> dict[str, Any]:
         "nominal_load_a": s.nominal_load_a,
         "input_idle_a": s.input_idle_a,
         "input_max_a": s.input_max_a,
+        "sag_cost_db": s.sag_cost_db,
     }
     if s.own is not None:
         data.update(s.own.as_json())
@@ -88,7 +96,7 @@ def tables(budget: Budget) -> list[Table]:
             s.kind,
             s.parent or DASH,
             eng(s.vout_v, "V"),
-            _range(s.output_min_v, s.output_max_v),
+            "collapsed" if s.collapsed else _range(s.output_min_v, s.output_max_v),
             eng(s.ripple_vpp, "V"),
         )
         add_row(

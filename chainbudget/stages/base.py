@@ -10,6 +10,7 @@ chain as seen from the stage), ``rules`` turns them into findings.
 
 from __future__ import annotations
 
+import re
 from abc import ABC, abstractmethod
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
@@ -24,6 +25,7 @@ from chainbudget.kindfigures import KindFigures
 from chainbudget.network import GROUND, Complex, Netlist, Ref, branch_ref, node_ref
 from chainbudget.parts import OpAmp, Transistor
 from chainbudget.spectrum import flicker_psd
+from chainbudget.units import UnitParseError
 
 
 @dataclass(frozen=True)
@@ -423,12 +425,20 @@ class StageKind(ABC):
         return None
 
     def bias_point(self, stage: Stage) -> float | None:
-        """The signal bias point the stage sets, V (None: mid-rail single supply, 0 V split).
+        """The signal bias point the stage sets, V (None: mid-rail single supply, 0 V split,
+        or the supply `bias_supply` names).
 
         A kind whose ``bias`` field means something else (a follower's bias circuit) names
         its bias point in another field.
         """
-        return stage.optional("bias")
+        value = stage.values.get("bias")
+        return None if value is None or isinstance(value, str) else float(value)
+
+    def bias_supply(self, stage: Stage) -> str | None:
+        """The supply (a divider, say) whose output is the stage's bias point, if its
+        ``bias`` names one instead of a voltage."""
+        value = stage.values.get("bias")
+        return value if isinstance(value, str) and BIAS_FIELD in self.fields else None
 
     def needs_rail(self, values: Mapping[str, Any]) -> bool:
         """Whether the stage must name its positive rail (or take the only supply)."""
@@ -443,12 +453,37 @@ class StageKind(ABC):
 
 # --- pieces shared by several kinds --------------------------------------------------------
 
+# A supply's name as a stage's bias: a word, not a number with a unit.
+_SUPPLY_NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_.-]*")
+
+
+def _read_bias(value: object) -> float | str:
+    try:
+        return f.VOLTAGE.read(value)
+    except UnitParseError:
+        if isinstance(value, str) and _SUPPLY_NAME.fullmatch(value.strip()):
+            return value.strip()
+        raise UnitParseError(
+            value, 'a voltage such as "6 V", or the name of a supply (a divider) to bias from'
+        ) from None
+
+
+def _write_bias(value: float | str) -> str:
+    return value if isinstance(value, str) else str(f.VOLTAGE.write(value))
+
+
+BIAS = f.FieldKind("V or supply", _read_bias, _write_bias)
+BIAS_FIELD = f.Field(
+    "bias",
+    BIAS,
+    "signal bias point: a voltage or a supply such as a divider (default: mid-rail single "
+    "supply, 0 V split)",
+    None,
+)
 RAIL_FIELDS: tuple[f.Field, ...] = (
     f.Field("positive", f.NAME, "supply feeding the positive rail (default: the only one)", None),
     f.Field("negative", f.NAME, 'supply of the negative rail, or "ground"', "ground"),
-    f.Field(
-        "bias", f.VOLTAGE, "signal bias point (default: mid-rail single supply, 0 V split)", None
-    ),
+    BIAS_FIELD,
 )
 OPAMP_FIELD = f.Field(
     "opamp", f.NAME, "op-amp part (a generic class or an [opamp.NAME])", "jfet_input"

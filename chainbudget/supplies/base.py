@@ -10,9 +10,10 @@ in ``chainbudget.budget``; a supply knows only its own physics.
 
 from __future__ import annotations
 
+import math
 from abc import ABC, abstractmethod
-from collections.abc import Mapping
-from dataclasses import dataclass, fields
+from collections.abc import Callable, Mapping
+from dataclasses import dataclass, field, fields
 from typing import Any, ClassVar
 
 from chainbudget import fields as f
@@ -45,26 +46,64 @@ class Corners:
 
 @dataclass(frozen=True)
 class SupplyLoad:
-    """Mean current drawn from a supply's output at idle, nominal level and heaviest, A.
+    """Current drawn from a supply's output at idle, nominal level and heaviest, A, with the
+    signal's share of it as a waveform.
 
-    ``heaviest_a`` is every stage at its own clip level at once (an upper bound: they do
-    not all clip at the same source level).
+    The means (``idle_a``, ``nominal_a``, ``heaviest_a``) are what a supply delivers on
+    average; ``heaviest_a`` is every stage at its own clip level at once (an upper bound:
+    they do not all clip at the same source level). A class-AB output (a push-pull pair,
+    an op-amp's output) draws its signal current from each rail in half-wave sine pulses:
+    ``nominal_pulse_a`` and ``heaviest_pulse_a`` are the pulses' peaks, at ``signal_hz``,
+    included in the means at their average, peak/pi. Pulses from different stages on one
+    rail are taken in phase (their peaks add: the upper bound).
     """
 
     idle_a: float = 0.0
     nominal_a: float = 0.0
     heaviest_a: float = 0.0
+    nominal_pulse_a: float = 0.0
+    heaviest_pulse_a: float = 0.0
+    signal_hz: float | None = None
 
     def __add__(self, other: SupplyLoad) -> SupplyLoad:
         return SupplyLoad(
             self.idle_a + other.idle_a,
             self.nominal_a + other.nominal_a,
             self.heaviest_a + other.heaviest_a,
+            self.nominal_pulse_a + other.nominal_pulse_a,
+            self.heaviest_pulse_a + other.heaviest_pulse_a,
+            self.signal_hz if self.signal_hz is not None else other.signal_hz,
         )
 
     def plus(self, current_a: float) -> SupplyLoad:
         """The same load with a constant current added at every level."""
         return self + SupplyLoad(current_a, current_a, current_a)
+
+    def scaled(self, factor: float) -> SupplyLoad:
+        """The same load times ``factor`` (its waveform's shape kept)."""
+        return SupplyLoad(
+            self.idle_a * factor,
+            self.nominal_a * factor,
+            self.heaviest_a * factor,
+            self.nominal_pulse_a * factor,
+            self.heaviest_pulse_a * factor,
+            self.signal_hz,
+        )
+
+    @property
+    def nominal_dc_a(self) -> float:
+        """The steady part of the nominal load (the mean less the pulses' average), A."""
+        return max(self.nominal_a - self.nominal_pulse_a / math.pi, 0.0)
+
+    @property
+    def heaviest_dc_a(self) -> float:
+        """The steady part of the heaviest load, A."""
+        return max(self.heaviest_a - self.heaviest_pulse_a / math.pi, 0.0)
+
+    @property
+    def heaviest_peak_a(self) -> float:
+        """The heaviest load at the crest of its pulses, A."""
+        return self.heaviest_dc_a + self.heaviest_pulse_a
 
 
 NO_LOAD = SupplyLoad()
@@ -89,6 +128,16 @@ class SupplyState:
         Mean voltage at high line and idle load.
     ripple_vpp : float or None
         Ripple at the heaviest load, V peak-to-peak; None when not known.
+    collapsed : bool
+        No steady operating point holds the load: the output falls to zero (the figures
+        of the trough corner are then not a working rail's).
+    ripple_hz : float or None
+        Fundamental of the mains ripple (twice the line frequency from a full-wave
+        rectifier), Hz; None for a supply with no mains ripple.
+    harmonics_vpk : tuple of complex
+        The mains ripple at nominal line and nominal (mean) load as a spectrum: the k-th
+        entry is the complex peak amplitude at k times ``ripple_hz`` (phase referred to the
+        line's zero crossing), as every supply from its root passes it on.
     """
 
     trough_v: float
@@ -97,10 +146,29 @@ class SupplyState:
     high_heavy_v: float
     high_idle_v: float
     ripple_vpp: float | None
+    collapsed: bool = False
+    ripple_hz: float | None = None
+    harmonics_vpk: tuple[complex, ...] = ()
 
     @property
     def corners(self) -> Corners:
         return Corners(low=self.trough_v, nominal=self.nominal_v, high=self.crest_v)
+
+    @property
+    def mean_v(self) -> float:
+        """The mean output at nominal line and nominal load, V."""
+        return self.nominal_v
+
+    def ripple_harmonics(self) -> tuple[tuple[float, complex], ...]:
+        """The ripple spectrum as (frequency in Hz, complex peak amplitude in V) pairs, the
+        fundamental first (empty when the supply has no mains ripple or it is not known)."""
+        if self.ripple_hz is None:
+            return ()
+        return tuple((k * self.ripple_hz, v) for k, v in enumerate(self.harmonics_vpk, start=1))
+
+    def through(self, gain: Callable[[float], complex]) -> tuple[complex, ...]:
+        """The harmonics passed through a network of complex gain ``gain(hz)``."""
+        return tuple(v * gain(hz) for hz, v in self.ripple_harmonics())
 
 
 @dataclass(frozen=True)
@@ -125,6 +193,10 @@ class SupplyContext:
     parent_state: SupplyState | None
     parent_load: SupplyLoad | None
     ambient_degc: float
+    #: The rail these figures are for (a split supply has two: ``name`` and ``name.neg``).
+    rail: str = ""
+    #: The external load on every rail of this supply, by rail name.
+    rail_loads: Mapping[str, SupplyLoad] = field(default_factory=dict)
 
 
 @dataclass(frozen=True)
@@ -148,6 +220,34 @@ class SupplyBudget:
     load: SupplyLoad
     drawn: SupplyLoad | None
     own: KindFigures | None
+    #: The output clip power the supply's own source resistance costs at the reference
+    #: frequency, dB (None where the kind has no such resistance to speak of).
+    sag_cost_db: float | None = None
+
+    @property
+    def trough_v(self) -> float:
+        """Lowest output: low line, heaviest load, bottom of the ripple, V."""
+        return self.state.trough_v
+
+    @property
+    def crest_v(self) -> float:
+        """Highest output: high line, no load, V."""
+        return self.state.crest_v
+
+    @property
+    def mean_v(self) -> float:
+        """Mean output at nominal line and nominal load, V."""
+        return self.state.nominal_v
+
+    @property
+    def collapsed(self) -> bool:
+        """No steady operating point holds the load."""
+        return self.state.collapsed
+
+    @property
+    def ripple_harmonics(self) -> tuple[tuple[float, complex], ...]:
+        """The mains ripple at the output as (Hz, complex V peak) pairs."""
+        return self.state.ripple_harmonics()
 
     @property
     def output_min_v(self) -> float:
@@ -201,7 +301,7 @@ class SupplyBudget:
         )
 
 
-SUPPLY_PARTS = frozenset(f.name for f in fields(SupplyBudget))
+SUPPLY_PARTS = frozenset(item.name for item in fields(SupplyBudget))
 
 
 class SupplyKind(ABC):
@@ -222,6 +322,29 @@ class SupplyKind(ABC):
         """Current this supply draws from its parent given its external load (a root: none)."""
         return NO_LOAD
 
+    def standing_current(self, supply: Supply, parent: SupplyState) -> float:
+        """Current the supply draws from its parent whatever its load, A, at the parent's
+        state (e.g. a divider's current through both resistors); none by default."""
+        return 0.0
+
+    def rails(self, supply: Supply) -> tuple[str, ...]:
+        """The rails the supply defines, by the names stages and supplies use for them; one,
+        its own name, unless the kind builds more (a centre-tapped supply's ``.neg``)."""
+        return (supply.name,)
+
+    def rail_states(
+        self, supply: Supply, parent: SupplyState | None, loads: Mapping[str, SupplyLoad]
+    ) -> dict[str, SupplyState]:
+        """The state of each of its rails under its load (by default the one rail's)."""
+        return {supply.name: self.state(supply, parent, loads.get(supply.name, NO_LOAD))}
+
+    def stiff_state(
+        self, supply: Supply, parent: SupplyState | None, load: SupplyLoad
+    ) -> SupplyState | None:
+        """The state with the supply's own source resistance taken away (what its sag costs
+        is measured against it); None when the kind has no such resistance to speak of."""
+        return None
+
     def delivered(self, supply: Supply, load: SupplyLoad) -> SupplyLoad:
         """Current out of the output pin given the external load (the load itself unless
         the kind adds its own, e.g. a regulator's divider and bleeder)."""
@@ -239,9 +362,12 @@ class SupplyKind(ABC):
         """The kind's findings (and cautions) about one supply (none by default)."""
         return []
 
-    def trough_remedy(self, supply: Supply, trough_v: float, heaviest_a: float) -> TroughRemedy:
-        """What would raise this supply's low-line trough to ``trough_v`` at the same load
-        (asked by a child that drops out); the default knows no remedy."""
+    def trough_remedy(
+        self, supply: Supply, trough_v: float, load: SupplyLoad, rail: str | None = None
+    ) -> TroughRemedy:
+        """What would raise the low-line trough of this supply's ``rail`` (default: its own
+        name) to ``trough_v`` under the same load (asked by a child that drops out); the
+        default knows no remedy."""
         return TroughRemedy()
 
     def missing(self, values: Mapping[str, Any]) -> list[str]:

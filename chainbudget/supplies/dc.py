@@ -9,7 +9,7 @@ from typing import Any
 from chainbudget import fields as f
 from chainbudget.finding import Finding
 from chainbudget.kindfigures import KindFigures, figure
-from chainbudget.notation import amps, sig
+from chainbudget.notation import amps, eng
 from chainbudget.supplies.base import (
     Supply,
     SupplyBudget,
@@ -18,19 +18,24 @@ from chainbudget.supplies.base import (
     SupplyLoad,
     SupplyState,
 )
-from chainbudget.supplymath import battery_runtime_h, sag
+from chainbudget.supplymath import battery_runtime_h, pulsed_sag, sag
+from chainbudget.thresholds import BATTERY_SAG_COST_DB
 
 
 @dataclass(frozen=True)
 class DcFigures(KindFigures):
-    """Sag at the heaviest load (V) and, with a capacity, the run time (Ah, h)."""
+    """Sag at the crest of the heaviest load (V, A) and, with a capacity, the run time (Ah,
+    h)."""
 
     title = "battery or bench supply"
 
-    sag_v: float = figure("sag at heaviest load", "V")
+    sag_v: float = figure("sag at the crest of the heaviest load", "V")
+    peak_current_a: float = figure("current at that crest", "A")
     capacity_ah: float | None = figure("capacity", "Ah", default=None)
     runtime_idle_h: float | None = figure("run time at idle", "h", default=None)
     runtime_nominal_h: float | None = figure("run time at the nominal level", "h", default=None)
+    resistance_ohm: float = figure(default=0.0)
+    reservoir_f: float | None = figure(default=None)
 
 
 class DcSupply(SupplyKind):
@@ -52,6 +57,7 @@ class DcSupply(SupplyKind):
         ),
         f.Field("resistance", f.RESISTANCE_OR_ZERO, "internal resistance", 0.0),
         f.Field("capacity", f.CHARGE, "battery capacity, for run time", None),
+        f.Field("reservoir", f.CAPACITANCE, "capacitor across the terminals", None),
     )
 
     def problems(self, values: Mapping[str, Any]) -> list[tuple[str, str]]:
@@ -78,36 +84,66 @@ class DcSupply(SupplyKind):
         -----
         A Thevenin source, emf E in series with its internal resistance R, gives E - R I at
         the terminals (:func:`chainbudget.supplymath.sag`; Horowitz & Hill, The Art of
-        Electronics, 3rd ed., ch. 1, from memory). The low end (``min_voltage``) sags under
-        the heaviest load, the nominal voltage under the nominal load; the high end
-        (``max_voltage``) is taken unloaded. No ripple.
+        Electronics, 3rd ed., ch. 1, from memory). The trough is the low end
+        (``min_voltage``) at the crest of the heaviest load: the steady current plus the
+        crest of the pulses a class-B stage draws, less what a ``reservoir`` across the
+        terminals holds up over the signal period
+        (:func:`chainbudget.supplymath.pulsed_sag`). The means: the nominal voltage under
+        the nominal load, the high end (``max_voltage``) under the heaviest and the idle
+        load; the crest is the high end unloaded. No mains ripple. The supply collapses
+        when the sag would take the trough to zero.
         """
+        return self._state(supply, load, supply.number("resistance"))
+
+    def stiff_state(
+        self, supply: Supply, parent: SupplyState | None, load: SupplyLoad
+    ) -> SupplyState | None:
+        """The same battery with no internal resistance (None when it has none)."""
+        if supply.number("resistance") <= 0.0:
+            return None
+        return self._state(supply, load, 0.0)
+
+    def _state(self, supply: Supply, load: SupplyLoad, r: float) -> SupplyState:
         nominal = abs(supply.number("voltage"))
         low = supply.optional("min_voltage")
         high = supply.optional("max_voltage")
         low_v = nominal if low is None else abs(low)
         high_v = nominal if high is None else abs(high)
-        r = supply.number("resistance")
 
         def terminal(emf: float, current: float) -> float:
             return max(float(sag(emf, r, current)), 0.0)
 
+        drop = self.crest_sag(supply, load, r)
         return SupplyState(
-            trough_v=terminal(low_v, load.heaviest_a),
+            trough_v=max(low_v - drop, 0.0),
             nominal_v=terminal(nominal, load.nominal_a),
             crest_v=high_v,
             high_heavy_v=terminal(high_v, load.heaviest_a),
             high_idle_v=terminal(high_v, load.idle_a),
             ripple_vpp=0.0,
+            collapsed=drop >= low_v and load.heaviest_a > 0.0,
+        )
+
+    def crest_sag(self, supply: Supply, load: SupplyLoad, r: float | None = None) -> float:
+        """Sag at the crest of the heaviest load, V."""
+        return pulsed_sag(
+            supply.number("resistance") if r is None else r,
+            supply.optional("reservoir"),
+            load.heaviest_dc_a,
+            load.heaviest_pulse_a,
+            load.signal_hz,
         )
 
     def figures(self, context: SupplyContext) -> DcFigures:
-        """Sag I R at the heaviest load; run time = capacity / mean drain
+        """Sag at the crest of the heaviest load; run time = capacity / mean drain
         (:func:`chainbudget.supplymath.battery_runtime_h`)."""
         supply, load = context.supply, context.load
         capacity = supply.optional("capacity")
+        r = supply.number("resistance")
+        drop = self.crest_sag(supply, load)
         return DcFigures(
-            sag_v=supply.number("resistance") * load.heaviest_a,
+            sag_v=drop,
+            peak_current_a=load.heaviest_peak_a,
             capacity_ah=capacity,
             runtime_idle_h=None
             if capacity is None
@@ -115,24 +151,98 @@ class DcSupply(SupplyKind):
             runtime_nominal_h=None
             if capacity is None
             else float(battery_runtime_h(capacity, load.nominal_a)),
+            resistance_ohm=r,
+            reservoir_f=supply.optional("reservoir"),
         )
 
     def rules(self, supply: SupplyBudget, ambient_degc: float) -> list[Finding]:
-        """The run time, when the capacity is given."""
+        """Collapse, a sag that costs clip power, and the run time."""
         own = supply.own
         assert isinstance(own, DcFigures)
-        idle, nominal = own.runtime_idle_h, own.runtime_nominal_h
-        if own.capacity_ah is None or idle is None or nominal is None:
-            return []
-        return [
-            Finding(
-                "note",
-                "battery-runtime",
-                None,
-                f'battery "{supply.name}" ({own.capacity_ah:g} Ah) lasts about {sig(idle, "h")} at '
-                f"idle and {sig(nominal, 'h')} at the nominal level ({amps(supply.idle_load_a)} "
-                "and "
-                f"{amps(supply.nominal_load_a)}); ideal figures: high drain and cold shorten them",
-                {"runtime_idle_h": idle, "runtime_nominal_h": nominal},
+        found: list[Finding] = []
+        if supply.collapsed:
+            found.append(
+                Finding(
+                    "error",
+                    "supply-collapse",
+                    None,
+                    f'supply "{supply.name}" cannot hold its load: {amps(supply.max_load_a)} '
+                    f"through its {eng(own.resistance_ohm, 'ohm')} internal resistance drops "
+                    f"the whole of its low-end voltage; a source of lower resistance or a "
+                    "lighter load would hold it",
+                    {"max_load_a": supply.max_load_a, "sag_v": own.sag_v},
+                )
             )
-        ]
+        cost = supply.sag_cost_db
+        if cost is not None and cost > BATTERY_SAG_COST_DB and not supply.collapsed:
+            fix = battery_sag_fix(own, supply.load, cost)
+            found.append(
+                Finding(
+                    "warning",
+                    "battery-resistance",
+                    None,
+                    f'supply "{supply.name}" sags {own.sag_v:.3g} V at the crest of the '
+                    f"heaviest load ({amps(own.peak_current_a)} through "
+                    f"{eng(own.resistance_ohm, 'ohm')}): its internal resistance costs "
+                    f"{cost:.2g} dB of clip power; {fix}",
+                    {"sag_v": own.sag_v, "sag_cost_db": cost},
+                )
+            )
+        idle, nominal = own.runtime_idle_h, own.runtime_nominal_h
+        if own.capacity_ah is not None and idle is not None and nominal is not None:
+            found.append(
+                Finding(
+                    "note",
+                    "battery-runtime",
+                    None,
+                    f'battery "{supply.name}" ({own.capacity_ah:g} Ah) lasts about {idle:.3g} h '
+                    f"at idle and {nominal:.3g} h at the nominal level "
+                    f"({amps(supply.idle_load_a)} and {amps(supply.nominal_load_a)}); ideal "
+                    "figures: high drain and cold shorten them",
+                    {"runtime_idle_h": idle, "runtime_nominal_h": nominal},
+                )
+            )
+        return found
+
+
+# The fix aims a little under the estimate (ours: the estimate is first order).
+FIX_ALLOWANCE = 0.95
+
+
+def battery_sag_fix(own: DcFigures, load: SupplyLoad, cost_db: float) -> str:
+    """What brings a battery's sag cost under `BATTERY_SAG_COST_DB`: the internal resistance
+    that would, and (for a pulsed load) the reservoir across it that would.
+
+    Notes
+    -----
+    First-order estimates. The swing falls with the sag, so the swing lost is e (1 -
+    10^(-cost/20)) against the stiff swing e; the sag allowed is the present one scaled
+    by the swing lost at the allowed cost over the swing lost now. At the larger swing the
+    pulses are taller by 10^((cost - allowed)/20): the resistance allowed is the sag
+    allowed over that current. A reservoir lowers the pulses' share of the sag towards
+    their mean (`pulsed_sag`); the smallest one reaching the sag allowed is found by
+    bisection in the capacitance. The sag allowed keeps `FIX_ALLOWANCE` of the estimate's
+    (the swing is not quite linear in the sag), so that the fix clears the threshold.
+    """
+
+    def lost(db: float) -> float:
+        return 1.0 - 10.0 ** (-db / 20.0)
+
+    allowed = FIX_ALLOWANCE * own.sag_v * lost(BATTERY_SAG_COST_DB) / lost(cost_db)
+    taller = 10.0 ** ((cost_db - BATTERY_SAG_COST_DB) / 20.0)
+    r = own.resistance_ohm
+    text = (
+        f"a source of at most {eng(allowed / (own.peak_current_a * taller), 'ohm')} would "
+        "keep it under 1 dB"
+    )
+    pulse = load.heaviest_pulse_a * taller
+    if pulse <= 0.0 or load.signal_hz is None or r <= 0.0:
+        return text
+    dc = load.heaviest_dc_a
+    if pulsed_sag(r, 1e9, dc, pulse, load.signal_hz) >= allowed:
+        return text
+    lo, hi = 1e-9, 1e3
+    for _ in range(80):
+        mid = (lo * hi) ** 0.5
+        lo, hi = (mid, hi) if pulsed_sag(r, mid, dc, pulse, load.signal_hz) > allowed else (lo, mid)
+    return text + f", or a reservoir of at least {eng(hi, 'F')} across it"

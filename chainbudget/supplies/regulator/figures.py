@@ -139,7 +139,7 @@ def regulator_figures(kind: Regulator, context: SupplyContext) -> RegulatorFigur
     dropout_suggestion = None
     if not in_regulation:
         needed = vout + dropout
-        remedy = parent_kind.trough_remedy(parent, needed, parent_load.heaviest_a)
+        remedy = parent_kind.trough_remedy(parent, needed, parent_load, supply.parent)
         dropout_suggestion = DropoutSuggestion(
             needed,
             needed - parent_state.trough_v,

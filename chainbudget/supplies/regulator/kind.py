@@ -196,9 +196,14 @@ class Regulator(SupplyKind):
         trough = follow(parent.trough_v)
         rejection = supply.optional("ripple_rejection")
         ripple: float | None = None
+        harmonics: tuple[complex, ...] = ()
         if rejection is not None and parent.ripple_vpp is not None:
             ripple = float(ripple_after_regulator(parent.ripple_vpp, rejection))
             ripple += vout - trough  # zero in regulation
+            # in regulation the rejection applies to every harmonic (a real, positive
+            # factor: a data-sheet magnitude); out of it the ripple passes unrejected
+            factor = float(ripple_after_regulator(1.0, rejection)) if trough >= vout else 1.0
+            harmonics = parent.through(lambda hz: factor)
         return SupplyState(
             trough_v=trough,
             nominal_v=follow(parent.nominal_v),
@@ -206,4 +211,7 @@ class Regulator(SupplyKind):
             high_heavy_v=follow(parent.high_heavy_v),
             high_idle_v=follow(parent.high_idle_v),
             ripple_vpp=ripple,
+            collapsed=parent.collapsed,
+            ripple_hz=parent.ripple_hz if harmonics else None,
+            harmonics_vpk=harmonics,
         )
