@@ -20,7 +20,8 @@ from typing import Any
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
-from scipy import constants
+
+from chainbudget.spectrum import boltzmann_k, elementary_charge
 
 FloatArray = NDArray[np.float64]
 #: Real or complex result (impedances).
@@ -54,9 +55,9 @@ def thermal_voltage(temperature_k: ArrayLike) -> FloatArray:
     Notes
     -----
     V_T = k T / q with the exact SI (2019) values of the Boltzmann constant and the
-    elementary charge from ``scipy.constants``.
+    elementary charge (`chainbudget.spectrum`).
     """
-    return _real(constants.k * _real(temperature_k) / constants.e)
+    return _real(boltzmann_k * _real(temperature_k) / elementary_charge)
 
 
 def transconductance(ic: ArrayLike, vt: ArrayLike) -> FloatArray:
