@@ -29,3 +29,18 @@ def dissipation(budget: Budget) -> Dissipation | None:
 
 def opamp_drives(budget: Budget) -> list[OpAmpDrive]:
     return [op for node in budget.nodes for op in node.opamps]
+
+
+def load_block(name: str, rail: str, current: str) -> str:
+    """A ``[[stage]]`` table: a black-box stage that draws a constant ``current`` from
+    ``rail`` (unity gain, 10 kohm in, 100 ohm out), for loading a supply in a test chain."""
+    return f"""
+[[stage]]
+name = "{name}"
+kind = "block"
+gain = 1
+input_impedance = "10 kohm"
+output_impedance = "100 ohm"
+supply_current = "{current}"
+positive = "{rail}"
+"""

@@ -14,6 +14,7 @@ import tomllib
 from pathlib import Path
 
 import pytest
+from budgetkit import load_block as block
 from typer.testing import CliRunner
 
 from chainbudget.budget import Budget, compute
@@ -60,19 +61,6 @@ negative = "{negative}"
 """
 
 
-def block(name: str, rail: str, current: str) -> str:
-    return f"""
-[[stage]]
-name = "{name}"
-kind = "block"
-gain = 1
-input_impedance = "10 kohm"
-output_impedance = "100 ohm"
-supply_current = "{current}"
-positive = "{rail}"
-"""
-
-
 def chain_of(text: str) -> Chain:
     return parse_chain(tomllib.loads(HEAD + text), "t.toml")
 
@@ -82,7 +70,7 @@ def budget_of(text: str) -> Budget:
 
 
 def supply(budget: Budget, name: str) -> SupplyBudget:
-    return next(s for s in budget.supplies if s.name == name)
+    return budget.supply(name)
 
 
 TREE = """

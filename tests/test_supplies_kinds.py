@@ -16,6 +16,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 import tomli_w
+from budgetkit import load_block
 
 from chainbudget import rectifier
 from chainbudget.budget import Budget, compute
@@ -39,26 +40,12 @@ impedance = "10 kohm"
 """
 
 
-def load_block(name: str, rail: str, current: str) -> str:
-    """A black-box stage that draws a constant ``current`` from ``rail``."""
-    return f"""
-[[stage]]
-name = "{name}"
-kind = "block"
-gain = 1
-input_impedance = "10 kohm"
-output_impedance = "100 ohm"
-supply_current = "{current}"
-positive = "{rail}"
-"""
-
-
 def budget_of(text: str, ambient: str = "25 degC") -> Budget:
     return compute(parse_chain(tomllib.loads(HEAD.format(ambient=ambient) + text), "t.toml"))
 
 
 def supply(budget: Budget, name: str) -> SupplyBudget:
-    return next(s for s in budget.supplies if s.name == name)
+    return budget.supply(name)
 
 
 def codes(budget: Budget) -> set[str]:

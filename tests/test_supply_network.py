@@ -11,6 +11,7 @@ import tomllib
 from pathlib import Path
 
 import pytest
+from budgetkit import load_block as block
 
 from chainbudget import rectifier
 from chainbudget.budget import Budget, compute
@@ -28,19 +29,6 @@ level = "100 mV"
 impedance = "1 kohm"
 [load]
 impedance = "10 kohm"
-"""
-
-
-def block(name: str, rail: str, current: str) -> str:
-    return f"""
-[[stage]]
-name = "{name}"
-kind = "block"
-gain = 1
-input_impedance = "10 kohm"
-output_impedance = "100 ohm"
-supply_current = "{current}"
-positive = "{rail}"
 """
 
 
