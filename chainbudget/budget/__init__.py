@@ -49,7 +49,6 @@ from chainbudget.findings import findings as draw_findings
 from chainbudget.kindfigures import KindFigures
 from chainbudget.network import SingularNetwork
 from chainbudget.stages import KINDS as STAGE_KINDS
-from chainbudget.supplies import KINDS as SUPPLY_KINDS
 from chainbudget.supplies.base import SupplyBudget
 
 
@@ -186,7 +185,6 @@ class Budget:
     boosts: tuple[Boost, ...]
     supply_ranges: tuple[SupplyRange, ...]
     floating: tuple[FloatingInput, ...]
-    has_mains: bool
     volume_stage: str | None
     sweep_points: int
     full_sweep_points: int
@@ -310,7 +308,6 @@ def budget_from(analysis: Analysis) -> Budget:
         boosts=tuple(tone_boosts(analysis, [n.levels for n in nodes])),
         supply_ranges=tuple(supply_ranges(analysis)),
         floating=tuple(floating_inputs(analysis)),
-        has_mains=any(SUPPLY_KINDS[s.kind].from_mains for s in chain.supplies),
         volume_stage=None
         if analysis.volume_index is None
         else chain.stages[analysis.volume_index].name,

@@ -311,8 +311,6 @@ class SupplyKind(ABC):
     summary: ClassVar[str]
     fields: ClassVar[tuple[f.Field, ...]]
     needs_parent: ClassVar[bool] = False
-    #: Whether the supply starts at the mains (the report then shows the mains caution).
-    from_mains: ClassVar[bool] = False
 
     @abstractmethod
     def state(self, supply: Supply, parent: SupplyState | None, load: SupplyLoad) -> SupplyState:

@@ -63,7 +63,6 @@ class Rectified(SupplyKind):
 
     kind = "rectified"
     summary = "mains transformer, rectifier and reservoir capacitor (unregulated)"
-    from_mains = True
     fields = (
         f.Field(
             "secondary", SECONDARY, "secondary, V rms at nominal mains, rated load (each half)"
