@@ -11,6 +11,8 @@ from __future__ import annotations
 
 import html
 import math
+import os
+import stat
 import tomllib
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, fields, replace
@@ -578,6 +580,18 @@ def loads_chain(text: str, name: str = "<text>") -> Chain:
     return parse_chain(data, name)
 
 
+def _read_head(path: str | Path) -> bytes:
+    """At most MAX_FILE_BYTES + 1 bytes of a file; a named pipe with no writer reads as
+    empty instead of waiting for one forever."""
+    flags = os.O_RDONLY
+    if stat.S_ISFIFO(os.stat(path).st_mode):
+        flags |= os.O_NONBLOCK
+    descriptor = os.open(path, flags)
+    os.set_blocking(descriptor, True)
+    with open(descriptor, "rb") as stream:
+        return stream.read(MAX_FILE_BYTES + 1)
+
+
 def load_chain(path: str | Path) -> Chain:
     """Read and validate a chain file.
 
@@ -588,8 +602,7 @@ def load_chain(path: str | Path) -> Chain:
     """
     file = str(path)
     try:
-        with open(path, "rb") as stream:
-            raw = stream.read(MAX_FILE_BYTES + 1)
+        raw = _read_head(path)
     except OSError as exc:
         raise ChainFileError(file, "", f"cannot read the file ({exc.strerror})") from None
     if len(raw) > MAX_FILE_BYTES:

@@ -158,7 +158,7 @@ TEMPERATURE_DEGC = (-100.0, 400.0)
 TEMPERATURE_TEXT = "a temperature from -100 degC to 400 degC"
 # Signal levels (rms): from far below any noise floor to past any rail.
 LEVEL = _range(
-    1e-9, 1e3, "a level from 1 nV to 1 kV",
+    1e-9, 1e3, "a level from 1 nV to 1 kV rms",
     units.LEVEL_FLOOR_V, units.LEVEL_CEILING_V, "nothing outside 1 picovolt to 1 megavolt is taken",
     units.VOLT,
 )  # fmt: skip

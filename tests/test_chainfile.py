@@ -446,16 +446,18 @@ def test_a_directory(tmp_path: Path) -> None:
 def test_an_unreadable_file(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
     """A file the user may not read (simulated: the tests may run as root, whom file modes
     do not stop) is one line with the system's reason."""
+    import os
+
     path = tmp_path / "locked.toml"
     path.write_text("[chain]\n", encoding="utf-8")
-    real_open = open
+    real_open = os.open
 
-    def refusing_open(file: object, *args: object, **kwargs: object) -> object:
+    def refusing_open(file: object, *args: object, **kwargs: object) -> int:
         if str(file) == str(path):
             raise PermissionError(13, "Permission denied", str(path))
-        return real_open(file, *args, **kwargs)  # type: ignore[call-overload]
+        return real_open(file, *args, **kwargs)  # type: ignore[arg-type]
 
-    monkeypatch.setattr("builtins.open", refusing_open)
+    monkeypatch.setattr(os, "open", refusing_open)
     assert "cannot read the file (Permission denied)" in _load_error(path)
 
 
@@ -498,3 +500,23 @@ def test_too_dense_a_frequency_grid(tmp_path: Path) -> None:
     error = _error(tmp_path, "points_per_decade = 12", "points_per_decade = 500")
     assert error.path == "chain.points_per_decade"
     assert "1500 points" in error.message
+
+
+def test_a_named_pipe_with_no_writer_does_not_hang(tmp_path: Path) -> None:
+    """A FIFO nobody writes to reads as an empty file (one line: no [source]) instead of
+    waiting forever; run in a subprocess with a time limit so that a hang fails the test."""
+    import os
+    import subprocess
+    import sys
+
+    fifo = tmp_path / "pipe.toml"
+    os.mkfifo(fifo)
+    done = subprocess.run(
+        [sys.executable, "-m", "chainbudget", "check", str(fifo)],
+        capture_output=True,
+        text=True,
+        timeout=60,
+        check=False,
+    )
+    assert done.returncode == 2
+    assert done.stderr.strip() == f"chainbudget: {fifo}: source: missing required table [source]"
