@@ -36,6 +36,9 @@ from chainbudget.stages import KINDS as STAGE_KINDS
 from chainbudget.stages.base import Stage
 from chainbudget.supplies import KINDS as SUPPLY_KINDS
 from chainbudget.supplies.base import GROUND_SUPPLY, Supply
+from chainbudget.tolerance import Bound, Tolerances, read_bound, read_class_defaults
+from chainbudget.tolerance import CLASSES as TOLERANCE_CLASSES
+from chainbudget.tolerance import toleranced_fields, write_bound
 from chainbudget.units import UnitParseError, shown
 
 
@@ -79,7 +82,7 @@ LOAD_FIELDS = (
     f.Field("sensitivity", f.DECIBELS, "SPL at 1 m for 1 W (enables SPL figures)", None),
     *LOUDSPEAKER_FIELDS,
 )
-TOP_TABLES = ("chain", "source", "load", "opamp", "transistor", "supply", "stage")
+TOP_TABLES = ("chain", "source", "load", "opamp", "transistor", "supply", "stage", "tolerances")
 # The analysis solves every frequency point for every combination of swept pot rotations
 # at once: these two bounds keep that grid within memory (budget/analysis.py: at least
 # 3 rotations a pot, MAX_COMBINATIONS; the default grid is 120 points in 20 Hz to 20 kHz).
@@ -142,6 +145,8 @@ class Chain:
     transistors: Mapping[str, Transistor]
     supplies: tuple[Supply, ...]
     stages: tuple[Stage, ...]
+    #: The parts' tolerances: ``[tolerances]`` and each table's ``tolerance`` overrides.
+    tolerances: Tolerances = Tolerances()
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "opamps", f.frozen(self.opamps))
@@ -374,7 +379,63 @@ def _settings(reader: _Reader, data: Mapping[str, Any], default_title: str) -> S
     return Settings(**{**values, "title": values["title"] or default_title})
 
 
-def _supplies(reader: _Reader, data: Mapping[str, Any]) -> tuple[Supply, ...]:
+def _entry_tolerances(
+    reader: _Reader,
+    item: Mapping[str, Any],
+    schema: Iterable[f.Field],
+    path: str,
+    owner: tuple[str, str],
+) -> list[tuple[tuple[str, str], str, Bound]]:
+    """A stage's or supply's ``tolerance = { field = "1 %" }``: each key a field of its kind
+    that takes a tolerance (chainbudget/tolerance.py), each value a bound of its class."""
+    if "tolerance" not in item:
+        return []
+    table = reader.table(item["tolerance"], f"{path}.tolerance")
+    takes = toleranced_fields(schema)
+    found: list[tuple[tuple[str, str], str, Bound]] = []
+    for key, value in table.items():
+        where = f"{path}.tolerance.{quoted(key)[1:-1]}"
+        if key not in takes:
+            raise reader.error(
+                where,
+                "no field of this kind that takes a tolerance"
+                + suggest(key, takes)
+                + ("; those that do: " + listing(takes) if takes else "; it has none"),
+            )
+        try:
+            found.append((owner, key, read_bound(value, takes[key])))
+        except UnitParseError as exc:
+            raise reader.error(where, str(exc)) from None
+    return found
+
+
+def _tolerances(
+    reader: _Reader,
+    data: Mapping[str, Any],
+    overrides: list[tuple[tuple[str, str], str, Bound]],
+) -> Tolerances:
+    """The ``[tolerances]`` table's class defaults with the tables' own overrides."""
+    body = reader.table(data.get("tolerances", {}), "tolerances")
+    try:
+        fractions, beta = read_class_defaults(body)
+    except KeyError as exc:
+        key = str(exc.args[0])
+        raise reader.error(
+            f"tolerances.{quoted(key)[1:-1]}",
+            "unknown part class" + suggest(key, TOLERANCE_CLASSES) + "; the classes: "
+            + ", ".join(TOLERANCE_CLASSES),
+        ) from None
+    except UnitParseError as exc:
+        key = next(k for k, v in body.items() if v is exc.given)
+        raise reader.error(f"tolerances.{quoted(key)[1:-1]}", str(exc)) from None
+    return Tolerances(fractions, beta, tuple(overrides))
+
+
+def _supplies(
+    reader: _Reader,
+    data: Mapping[str, Any],
+    overrides: list[tuple[tuple[str, str], str, Bound]],
+) -> tuple[Supply, ...]:
     found: list[Supply] = []
     for index, item in enumerate(reader.named_list(data, "supply"), start=1):
         name, kind = reader.name_and_kind(item, f"supply[{index}]", SUPPLY_KINDS)
@@ -383,7 +444,8 @@ def _supplies(reader: _Reader, data: Mapping[str, Any]) -> tuple[Supply, ...]:
         schema = spec.fields
         if spec.needs_parent:
             schema = (f.Field("from", f.NAME, "the supply this one is fed from"), *schema)
-        values = reader.read(item, schema, path, skip=("name", "kind"))
+        values = reader.read(item, schema, path, skip=("name", "kind", "tolerance"))
+        overrides.extend(_entry_tolerances(reader, item, schema, path, ("supply", name)))
         for key in spec.missing(values):
             raise reader.error(f"{path}.{key}", _missing(schema, key))
         for key, message in spec.problems(values):
@@ -434,6 +496,7 @@ def _stages(
     supplies: tuple[Supply, ...],
     opamps: Mapping[str, OpAmp],
     transistors: Mapping[str, Transistor],
+    overrides: list[tuple[tuple[str, str], str, Bound]],
 ) -> tuple[Stage, ...]:
     found: list[Stage] = []
     rail_names = [rail for s in supplies for rail in SUPPLY_KINDS[s.kind].rails(s)]
@@ -444,7 +507,8 @@ def _stages(
         name, kind = reader.name_and_kind(item, f"stage[{index}]", STAGE_KINDS)
         path = f"stage[{index}] {quoted(name)}"
         spec = STAGE_KINDS[kind]
-        values = reader.read(item, spec.fields, path, skip=("name", "kind"))
+        values = reader.read(item, spec.fields, path, skip=("name", "kind", "tolerance"))
+        overrides.extend(_entry_tolerances(reader, item, spec.fields, path, ("stage", name)))
         for key in spec.missing(values):
             raise reader.error(f"{path}.{key}", _missing(spec.fields, key, " for this topology"))
         if any(s.name == name for s in found):
@@ -546,8 +610,9 @@ def parse_chain(data: Mapping[str, Any], file: str) -> Chain:
     transistors = _parts(
         reader, data, "transistor", TRANSISTOR_FIELDS, Transistor, GENERIC_TRANSISTORS
     )
-    supplies = _supplies(reader, data)
-    stages = _stages(reader, data, supplies, opamps, transistors)
+    overrides: list[tuple[tuple[str, str], str, Bound]] = []
+    supplies = _supplies(reader, data, overrides)
+    stages = _stages(reader, data, supplies, opamps, transistors, overrides)
     for index, key, message in loop_problems(stages):
         raise reader.error(f"{stages[index].path}.{key}", message)
     _swept_pots(reader, stages)
@@ -560,6 +625,7 @@ def parse_chain(data: Mapping[str, Any], file: str) -> Chain:
         transistors=transistors,
         supplies=supplies,
         stages=stages,
+        tolerances=_tolerances(reader, data, overrides),
     )
 
 
@@ -670,14 +736,32 @@ def chain_to_dict(chain: Chain) -> dict[str, Any]:
                 "kind": sp.kind,
                 **({"from": sp.parent} if sp.parent is not None else {}),
                 **_written(sp.values, SUPPLY_KINDS[sp.kind].fields),
+                **_written_tolerances(chain.tolerances, ("supply", sp.name)),
             }
             for sp in chain.supplies
         ]
     data["stage"] = [
-        {"name": st.name, "kind": st.kind, **_written(st.values, STAGE_KINDS[st.kind].fields)}
+        {
+            "name": st.name,
+            "kind": st.kind,
+            **_written(st.values, STAGE_KINDS[st.kind].fields),
+            **_written_tolerances(chain.tolerances, ("stage", st.name)),
+        }
         for st in chain.stages
     ]
+    if not chain.tolerances.is_default():
+        tol = chain.tolerances
+        data["tolerances"] = {
+            **{k: write_bound(v) for k, v in tol.fractions.items()},
+            "beta": write_bound(tol.beta),
+        }
     return data
+
+
+def _written_tolerances(tolerances: Tolerances, owner: tuple[str, str]) -> dict[str, Any]:
+    """A table's own ``tolerance`` overrides as the file holds them (none: no key)."""
+    own = {key: write_bound(bound) for who, key, bound in tolerances.overrides if who == owner}
+    return {"tolerance": own} if own else {}
 
 
 # --- deriving a changed chain ---------------------------------------------------------------

@@ -48,7 +48,7 @@ def bass_fields(prefix: str) -> tuple[f.Field, ...]:
     """Fields of a bass network, keys prefixed with ``prefix`` (``""`` or ``"bass_"``)."""
     return (
         f.Field(f"{prefix}outer", f.RESISTANCE, "each of the two equal fixed resistors"),
-        f.Field(f"{prefix}pot", f.RESISTANCE, "bass pot track resistance"),
+        f.Field(f"{prefix}pot", f.RESISTANCE, "bass pot track resistance", tolerance="pots"),
         f.Field(
             f"{prefix}position", f.POSITION, "rotation: 0 full cut, 0.5 flat, 1 full boost", 0.5
         ),
@@ -72,7 +72,7 @@ def treble_fields(prefix: str, with_outer: bool) -> tuple[f.Field, ...]:
     )
     return (
         *outer,
-        f.Field(f"{prefix}pot", f.RESISTANCE, "treble pot track resistance"),
+        f.Field(f"{prefix}pot", f.RESISTANCE, "treble pot track resistance", tolerance="pots"),
         f.Field(
             f"{prefix}position", f.POSITION, "rotation: 0 full cut, 0.5 flat, 1 full boost", 0.5
         ),

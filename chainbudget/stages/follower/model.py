@@ -67,6 +67,7 @@ class Follower(StageKind):
             f.NAME,
             "transistor part (a generic class or a [transistor.NAME])",
             "small_npn",
+            tolerance="beta",
         ),
         f.Field(
             "bias",

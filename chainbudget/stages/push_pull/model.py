@@ -117,8 +117,8 @@ class PushPull(StageKind):
     summary = "complementary class-AB output stage driving the load"
     power_stage = True
     fields = (
-        f.Field("upper", f.NAME, "upper (NPN) output transistor", "power_npn"),
-        f.Field("lower", f.NAME, "lower (PNP) output transistor", "power_pnp"),
+        f.Field("upper", f.NAME, "upper (NPN) output transistor", "power_npn", tolerance="beta"),
+        f.Field("lower", f.NAME, "lower (PNP) output transistor", "power_pnp", tolerance="beta"),
         f.Field("driver_upper", f.NAME, "Darlington driver of the upper device (NPN)", None),
         f.Field("driver_lower", f.NAME, "Darlington driver of the lower device (PNP)", None),
         f.Field("emitter_resistors", f.RESISTANCE_OR_ZERO, "each output emitter resistor"),

@@ -67,7 +67,13 @@ class Regulator(SupplyKind):
     needs_parent = True
     fields = (
         f.Field("output", NONZERO_VOLTAGE, "fixed output (with a divider: the target)", None),
-        f.Field("reference", NONZERO_VOLTAGE, "adjustable: output-to-adjust reference", None),
+        f.Field(
+            "reference",
+            NONZERO_VOLTAGE,
+            "adjustable: output-to-adjust reference",
+            None,
+            tolerance="references",
+        ),
         f.Field("adjust_current", f.CURRENT, "adjustable: current out of the adjust pin", 0.0),
         f.Field("upper", f.RESISTANCE, "adjustable: adjust pin to ground", None),
         f.Field("lower", f.RESISTANCE, "adjustable: output to adjust pin (across reference)", None),
