@@ -422,6 +422,32 @@ def sweep(
 
 
 @app.command(cls=_Command)
+def spread(
+    file: Annotated[Path, typer.Argument(help="chain file (TOML)")],
+    trials: Annotated[int, typer.Option(help="Monte Carlo trials")] = 10_000,
+    seed: Annotated[int, typer.Option(help="random seed (same seed, same trials)")] = 1,
+    output_format: Annotated[str, typer.Option("--format", "-f", help="table or json")] = "table",
+    plot: Annotated[
+        Path | None, typer.Option("--plot", help="histograms of the key figures (png/svg/pdf)")
+    ] = None,
+    force: Annotated[bool, typer.Option(help="overwrite an existing --plot file")] = False,
+) -> None:
+    """Every figure over the parts' tolerances: Monte Carlo, corners, yield, sensitivity."""
+    from chainbudget.spread.command import spread_command  # loads only on this path
+
+    try:
+        text = spread_command(file, trials, seed, output_format, plot, force)
+    except ChainError as exc:
+        raise _fail(str(exc)) from None
+    except Exception as exc:
+        if _numeric_failure(exc):
+            raise _analysis_failed(file, exc) from None
+        raise
+    if text is not None:
+        typer.echo(text)
+
+
+@app.command(cls=_Command)
 def new(
     file: Annotated[Path, typer.Argument(help="where to write the starter chain")],
     force: Annotated[bool, typer.Option(help="overwrite an existing file")] = False,

@@ -600,11 +600,13 @@ def stamp_opamp(
     built.output_probe = "out"
     rails = env.rails
     assert rails is not None, "op-amp stages always have rails (the loader sees to it)"
+    # rails may vary over a leading trial axis (chainbudget/spread): element-wise
+    room = np.maximum(np.minimum(rails.up, rails.down) - part.swing_margin, 0.0)
     built.limits += [
         Limit(
             "rails",
             "out",
-            max(min(rails.up, rails.down) - part.swing_margin, 0.0),
+            float(room) if np.ndim(room) == 0 else room,
             f"output swing within {part.swing_margin:g} V of the rails",
         ),
         Limit(

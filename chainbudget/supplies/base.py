@@ -16,6 +16,9 @@ from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field, fields
 from typing import Any, ClassVar
 
+import numpy as np
+from numpy.typing import NDArray
+
 from chainbudget import fields as f
 from chainbudget.finding import Finding
 from chainbudget.kindfigures import KindFigures
@@ -304,6 +307,27 @@ class SupplyBudget:
 SUPPLY_PARTS = frozenset(item.name for item in fields(SupplyBudget))
 
 
+@dataclass(frozen=True)
+class SpreadThreshold:
+    """A rule's limit on one of a kind's spread figures: the trials where the figure falls
+    below ``limit`` (and not below a tighter threshold of the same figure) draw ``code``."""
+
+    key: str
+    limit: float
+    code: str
+    severity: str
+
+
+@dataclass(frozen=True)
+class SupplySpread:
+    """A supply's figures over a leading trial axis (chainbudget/spread), each of shape
+    (T,); ``rail_low_v`` is its output at low line, what its stages run from, per trial."""
+
+    figures: Mapping[str, NDArray[np.float64]]
+    thresholds: tuple[SpreadThreshold, ...]
+    rail_low_v: NDArray[np.float64] | None
+
+
 class SupplyKind(ABC):
     """A supply kind: its fields, its output under load, its figures and its rules."""
 
@@ -359,6 +383,18 @@ class SupplyKind(ABC):
     def rules(self, supply: SupplyBudget, ambient_degc: float) -> list[Finding]:
         """The kind's findings (and cautions) about one supply (none by default)."""
         return []
+
+    def spread_fields(self, supply: Supply) -> tuple[str, ...]:
+        """The toleranced fields `spread` draws for this supply (none by default: its
+        figures hold their nominal values in every trial)."""
+        return ()
+
+    def spread(
+        self, supply: Supply, drawn: Mapping[str, NDArray[np.float64]], nominal: SupplyBudget
+    ) -> SupplySpread | None:
+        """The kind's figures with ``drawn`` (field -> (T,) values) in place of the file's,
+        about the nominal operating point ``nominal`` (None: the kind spreads nothing)."""
+        return None
 
     def trough_remedy(
         self, supply: Supply, trough_v: float, load: SupplyLoad, rail: str | None = None

@@ -13,10 +13,12 @@ from chainbudget.supplies.base import (
     SupplyContext,
     SupplyKind,
     SupplyLoad,
+    SupplySpread,
     SupplyState,
 )
 from chainbudget.supplies.regulator.figures import RegulatorFigures, regulator_figures
 from chainbudget.supplies.regulator.rules import regulator_rules
+from chainbudget.supplies.regulator.spread import SPREAD_FIELDS, regulator_spread
 from chainbudget.supplymath import adjustable_output, divider_current, ripple_after_regulator
 from chainbudget.units import UnitParseError
 
@@ -187,6 +189,15 @@ class Regulator(SupplyKind):
     def rules(self, supply: SupplyBudget, ambient_degc: float) -> list[Finding]:
         assert isinstance(supply.own, RegulatorFigures)
         return regulator_rules(supply, supply.own, ambient_degc)
+
+    def spread_fields(self, supply: Supply) -> tuple[str, ...]:
+        keys = SPREAD_FIELDS if self.adjustable(supply) else ("bleeder",)
+        return tuple(key for key in keys if supply.values.get(key) is not None)
+
+    def spread(
+        self, supply: Supply, drawn: Mapping[str, Any], nominal: SupplyBudget
+    ) -> SupplySpread:
+        return regulator_spread(self, supply, drawn, nominal)
 
     def input_load(self, supply: Supply, load: SupplyLoad) -> SupplyLoad:
         return self.delivered(supply, load).plus(self.own_current(supply))
