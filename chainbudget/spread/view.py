@@ -88,8 +88,8 @@ def spread_tables(result: SpreadResult, title: str) -> Group:
     )
     parts.append(head)
     figures = new_table(
-        "Spread over the parts' tolerances (corners: the extremes over the bounds)",
-        "figure", "unit", "p1", "p50", "p99", "low corner", "high corner",
+        "Spread over the parts' tolerances (low, high: the corner worst case)",
+        "figure", "unit", "p1", "p50", "p99", "low", "high",
         left=("unit",),
     )
     still = moving(result)
