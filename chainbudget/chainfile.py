@@ -36,9 +36,15 @@ from chainbudget.stages import KINDS as STAGE_KINDS
 from chainbudget.stages.base import Stage
 from chainbudget.supplies import KINDS as SUPPLY_KINDS
 from chainbudget.supplies.base import GROUND_SUPPLY, Supply
-from chainbudget.tolerance import Bound, Tolerances, read_bound, read_class_defaults
 from chainbudget.tolerance import CLASSES as TOLERANCE_CLASSES
-from chainbudget.tolerance import toleranced_fields, write_bound
+from chainbudget.tolerance import (
+    Bound,
+    Tolerances,
+    read_bound,
+    read_class_defaults,
+    toleranced_fields,
+    write_bound,
+)
 from chainbudget.units import UnitParseError, shown
 
 
@@ -271,10 +277,13 @@ class _Reader:
         schema: Iterable[f.Field],
         path: str,
         skip: Iterable[str] = (),
+        after: Iterable[str] = (),
     ) -> dict[str, Any]:
-        """Read ``data`` against ``schema``: unknown keys, missing keys, bad values."""
+        """Read ``data`` against ``schema``: unknown keys, missing keys, bad values.
+        ``skip`` and ``after`` are keys read elsewhere (listed before and after the
+        schema's in an unknown field's message)."""
         schema = tuple(schema)
-        known = [*skip, *(field.key for field in schema)]
+        known = [*skip, *(field.key for field in schema), *after]
         for key in data:
             if key not in known:
                 raise self.error(
@@ -422,7 +431,9 @@ def _tolerances(
         key = str(exc.args[0])
         raise reader.error(
             f"tolerances.{quoted(key)[1:-1]}",
-            "unknown part class" + suggest(key, TOLERANCE_CLASSES) + "; the classes: "
+            "unknown part class"
+            + suggest(key, TOLERANCE_CLASSES)
+            + "; the classes: "
             + ", ".join(TOLERANCE_CLASSES),
         ) from None
     except UnitParseError as exc:
@@ -444,7 +455,7 @@ def _supplies(
         schema = spec.fields
         if spec.needs_parent:
             schema = (f.Field("from", f.NAME, "the supply this one is fed from"), *schema)
-        values = reader.read(item, schema, path, skip=("name", "kind", "tolerance"))
+        values = reader.read(item, schema, path, skip=("name", "kind"), after=("tolerance",))
         overrides.extend(_entry_tolerances(reader, item, schema, path, ("supply", name)))
         for key in spec.missing(values):
             raise reader.error(f"{path}.{key}", _missing(schema, key))
@@ -507,7 +518,7 @@ def _stages(
         name, kind = reader.name_and_kind(item, f"stage[{index}]", STAGE_KINDS)
         path = f"stage[{index}] {quoted(name)}"
         spec = STAGE_KINDS[kind]
-        values = reader.read(item, spec.fields, path, skip=("name", "kind", "tolerance"))
+        values = reader.read(item, spec.fields, path, skip=("name", "kind"), after=("tolerance",))
         overrides.extend(_entry_tolerances(reader, item, spec.fields, path, ("stage", name)))
         for key in spec.missing(values):
             raise reader.error(f"{path}.{key}", _missing(spec.fields, key, " for this topology"))

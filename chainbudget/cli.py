@@ -227,6 +227,12 @@ def blocks(
             *(escape(text) for text in (fld.key, fld.kind.unit, default_text(fld), fld.meaning))
         )
     console.print(table)
+    if e.table in ("[[stage]]", "[[supply]]"):
+        from chainbudget.tolerance import tolerance_note
+
+        note = tolerance_note(e.fields)
+        if note is not None:
+            console.print(escape(note))
     if kind in ("opamp", "transistor"):
         columns, cells = generic_parts(kind)
         shipped = Table(

@@ -350,22 +350,39 @@ class Netlist:
         values += [c for _, _, coefficients in self._branch_stamps for _, c in coefficients]
         shape = np.broadcast_shapes(f_shape, *(np.shape(v) for v in values))
         n = self.size
-        m = np.zeros((*shape, n, n), dtype=complex)
+        # Stamps of one value everywhere go into one N x N matrix; the values that vary (over
+        # frequency, controls or trials) are summed per entry and written into the batch in
+        # one indexed assignment (entry-by-entry writes are strided passes over the batch).
+        fixed = np.zeros((n, n), dtype=complex)
         diagonal = np.arange(len(self.nodes))
-        m[..., diagonal, diagonal] += GMIN
+        fixed[diagonal, diagonal] += GMIN
+        varying: dict[tuple[int, int], Any] = {}
+
+        def add(r: int, c: int, value: Any) -> None:
+            if np.size(value) == 1:
+                fixed[r, c] += np.asarray(value).reshape(())
+            else:
+                varying[(r, c)] = varying.get((r, c), 0.0) + value
+
         for st in self._stamps:
             for r, c, sign in zip(st.rows, st.cols, st.signs, strict=True):
                 if r >= 0 and c >= 0:
-                    m[..., r, c] += sign * st.value
+                    add(r, c, sign * st.value)
         for label, controls, coefficients in self._branch_stamps:
             k = self.index(branch_ref(label))
             for name, sign in controls:
                 if name != GROUND:
-                    m[..., self.nodes[name], k] += sign
-                    m[..., k, self.nodes[name]] += sign
+                    fixed[self.nodes[name], k] += sign
+                    fixed[k, self.nodes[name]] += sign
             for name, coefficient in coefficients:
                 if name != GROUND:
-                    m[..., k, self.nodes[name]] += coefficient
+                    add(k, self.nodes[name], coefficient)
+        m = np.empty((*shape, n, n), dtype=complex)
+        m[...] = fixed
+        if varying:
+            rows, cols = (np.array(index) for index in zip(*varying, strict=True))
+            entries = np.stack([np.broadcast_to(v, shape) for v in varying.values()], axis=-1)
+            m[..., rows, cols] = fixed[rows, cols] + entries
         return m
 
     def solve(self, rhs: ArrayLike) -> Complex:

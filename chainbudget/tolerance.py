@@ -145,3 +145,24 @@ def write_bound(bound: Bound) -> object:
 
 def describe(value: object) -> str:
     return shown(value)
+
+
+_PERCENT_KIND = f.FieldKind('% ("1 %", "+/-1 %")', read_fraction, write_bound)
+_BETA_KIND = f.FieldKind("[low, high] factors", read_beta, write_bound)
+#: The ``[tolerances]`` table as ``chainbudget blocks`` and docs/format.md list it.
+TOLERANCE_FIELDS = (
+    f.Field("resistors", _PERCENT_KIND, "every resistor's tolerance", "1 %"),
+    f.Field("capacitors", _PERCENT_KIND, "every capacitor's tolerance", "10 %"),
+    f.Field("pots", _PERCENT_KIND, "every pot's track resistance", "20 %"),
+    f.Field("references", _PERCENT_KIND, "a regulator's reference voltage", "2 %"),
+    f.Field("beta", _BETA_KIND, "a transistor's current gain, drawn log-uniformly", "0.5x to 2x"),
+)
+
+
+def tolerance_note(schema: Iterable[f.Field]) -> str | None:
+    """One line naming the fields of a kind that take a tolerance, and their classes."""
+    takes = toleranced_fields(schema)
+    if not takes:
+        return None
+    listed = ", ".join(f"{key} ({cls})" for key, cls in takes.items())
+    return f'Takes a tolerance (tolerance = {{ field = "1 %" }}): {listed}.'

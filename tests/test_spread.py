@@ -90,7 +90,7 @@ def test_non_inverting_gain_spread_matches_the_exact_distribution() -> None:
     result = run_spread(_chain(NON_INVERTING), trials, 7)
     gain = result.samples["nodes.pre.gain_db"]
     for name, p in (("p1", 0.01), ("p50", 0.5), ("p99", 0.99)):
-        exact = optimize.brentq(lambda g: _gain_cdf(g, 9e3, 1e3, 0.01) - p, 19.5, 20.5)
+        exact = optimize.brentq(lambda g, p=p: _gain_cdf(g, 9e3, 1e3, 0.01) - p, 19.5, 20.5)
         # The trials' share below the exact quantile is p within sampling error.
         share = float(np.mean(gain <= exact))
         assert abs(share - p) < 5.0 * math.sqrt(p * (1 - p) / trials), name
@@ -179,9 +179,11 @@ def test_yield_against_the_analytic_share_failing_dropout() -> None:
     uniform's share above 14 V (exact), the yield within 5 sigma of it; and every trial is
     below the regulator's minimum load (a warning) where the divider's 5.2 mA cannot make
     a 20 mA minimum."""
-    text = REGULATOR.format(raw="15.1 V", min_load="20 mA").replace(
-        'resistors = "1 %"', 'resistors = "0 %"'
-    ).replace('tolerance = { upper = "2 %" }', "")
+    text = (
+        REGULATOR.format(raw="15.1 V", min_load="20 mA")
+        .replace('resistors = "1 %"', 'resistors = "0 %"')
+        .replace('tolerance = { upper = "2 %" }', "")
+    )
     trials = 20_000
     result = run_spread(_chain(text), trials, 11)
     gain = 1 + 2200 / 240

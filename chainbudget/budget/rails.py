@@ -13,6 +13,7 @@ voltages flow down (a regulator's input is its parent rail's output).
 from __future__ import annotations
 
 from collections.abc import Mapping
+from typing import cast
 
 import numpy as np
 
@@ -164,7 +165,7 @@ def stage_rails(stage: Stage, voltages: Mapping[str, Corners], corner: str) -> R
             return 0.0
         value = getattr(voltages[name], corner)
         # A rail that varies over a leading trial axis (chainbudget/spread) stays an array.
-        return value if isinstance(value, np.ndarray) else float(value)
+        return cast(float, value) if isinstance(value, np.ndarray) else float(value)
 
     positive = level(positive_name)
     negative = -level(negative_name)

@@ -24,7 +24,7 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass, replace
-from typing import Any
+from typing import Any, cast
 
 import numpy as np
 from numpy.typing import NDArray
@@ -74,7 +74,8 @@ class Evaluator:
         voltages = dict(self.voltages)
         for j, supply in enumerate(self.chain.supplies):
             drawn = {
-                p.key: v for p, v in zip(self.parts, values, strict=True)
+                p.key: v
+                for p, v in zip(self.parts, values, strict=True)
                 if p.table == "supply" and p.index == j
             }
             kind = SUPPLY_KINDS[supply.kind]
@@ -87,7 +88,8 @@ class Evaluator:
                 figures[f"supplies.{supply.name}.{key}"] = _trials(array, trials)
             if spread.rail_low_v is not None and supply.name in voltages:
                 rail = _trials(spread.rail_low_v, trials).reshape(trials, 1)
-                voltages[supply.name] = replace(voltages[supply.name], low=rail)
+                # an array rail: `chainbudget.budget.rails.stage_rails` keeps it one
+                voltages[supply.name] = replace(voltages[supply.name], low=cast(float, rail))
         chain = self.chain
         betas: dict[int, list[tuple[str, NDArray[np.float64]]]] = {}
         for part, value in zip(self.parts, values, strict=True):

@@ -10,6 +10,7 @@ fraction f gives [(1 - f) x, (1 + f) x]; beta a range of factors, drawn log-unif
 from __future__ import annotations
 
 from dataclasses import dataclass, replace
+from typing import cast
 
 import numpy as np
 from numpy.typing import NDArray
@@ -78,7 +79,9 @@ def _bounds(nominal: float, bound: float | tuple[float, float]) -> tuple[float, 
 def with_beta(env: Environment, name: str, beta: object) -> Environment:
     """A stage's environment with its transistor ``name`` at ``beta`` (an array)."""
     part = env.transistors[name]
-    return replace(env, transistors={**env.transistors, name: replace(part, beta=beta)})
+    # an array where the models read a float: they broadcast it (chainbudget/stages/hybrid_pi)
+    drawn = replace(part, beta=cast(float, beta))
+    return replace(env, transistors={**env.transistors, name: drawn})
 
 
 def _stage_batches(chain: Chain, part: Part, envs: tuple[Environment, ...]) -> bool:
@@ -131,9 +134,9 @@ def chain_parts(chain: Chain) -> tuple[list[Part], list[HeldPart]]:
                     HeldPart(part.label, f"the {stage.kind} model takes it one value at a time")
                 )
     for k, supply in enumerate(chain.supplies):
-        kind = SUPPLY_KINDS[supply.kind]
-        spread = kind.spread_fields(supply)
-        for key, cls in toleranced_fields(kind.fields).items():
+        supply_kind = SUPPLY_KINDS[supply.kind]
+        spread = supply_kind.spread_fields(supply)
+        for key, cls in toleranced_fields(supply_kind.fields).items():
             value = supply.values.get(key)
             if value is None:
                 continue

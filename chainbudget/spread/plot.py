@@ -20,8 +20,9 @@ def key_figures(result: SpreadResult) -> list[str]:
     limited = list(dict.fromkeys(c.threshold.path for c in result.crossings))
     rest = sorted(
         (p for p in moving(result) if p not in limited),
-        key=lambda p: -(result.stats[p]["max"] - result.stats[p]["min"])
-        / max(abs(result.nominal[p]), 1e-30),
+        key=lambda p: (
+            -(result.stats[p]["max"] - result.stats[p]["min"]) / max(abs(result.nominal[p]), 1e-30)
+        ),
     )
     return (limited + rest)[:MAX_PANELS]
 
@@ -44,7 +45,9 @@ def draw_histograms(result: SpreadResult, target: Path, fmt: str) -> list[str]:
             for c in result.crossings:
                 if c.threshold.path == path:
                     axes.axvline(
-                        c.threshold.limit, color=style.COLOURS[2], linestyle=":",
+                        c.threshold.limit,
+                        color=style.COLOURS[2],
+                        linestyle=":",
                         gid=f"limit:{path}",
                     )
             axes.set_title(path, fontsize="small")

@@ -35,11 +35,11 @@ from numpy.typing import NDArray
 from chainbudget.budget import Budget, compute
 from chainbudget.budget.supplies import settle
 from chainbudget.chainfile import Chain, ChainError
-from chainbudget.spread.evaluate import Evaluator, Figures, Threshold, failing
+from chainbudget.spread.evaluate import Evaluator, Threshold, failing
 from chainbudget.spread.parts import HeldPart, Part, chain_parts
 
 # Trials per batched solve: a few tens of MB of matrices for the largest example chain.
-CHUNK_TRIALS = 2048
+CHUNK_TRIALS = 8192
 # Every figure's trials are kept for the percentiles (8 bytes a figure a trial): past this
 # count the run is refused rather than left to exhaust memory.
 MAX_TRIALS = 1_000_000
@@ -166,11 +166,13 @@ def _crossing(
     part = parts[i]
     excess = t.limit - corner_low
     needed = None
-    half = pull[i] / 2.0 if part.is_beta is False else pull[i]
+    # Linear in each part, the corner lies sum_j |D_j| / 2 from nominal: part i's half.
+    half = pull[i] / 2.0
     if nominal >= t.limit and half > 0.0 and excess < half:
         scale = 1.0 - excess / half
         if part.is_beta:
-            needed = f"{(part.low / part.nominal) ** scale:.3g}x..{(part.high / part.nominal) ** scale:.3g}x"
+            low, high = (part.low / part.nominal) ** scale, (part.high / part.nominal) ** scale
+            needed = f"{low:.3g}x..{high:.3g}x"
         else:
             needed = f"{(part.high / part.nominal - 1.0) * scale * 100.0:.2g} %"
     return Crossing(t, nominal, corner_low, share_failing, part.label, part.tolerance_text, needed)

@@ -89,7 +89,13 @@ def spread_tables(result: SpreadResult, title: str) -> Group:
     parts.append(head)
     figures = new_table(
         "Spread over the parts' tolerances (low, high: the corner worst case)",
-        "figure", "unit", "p1", "p50", "p99", "low", "high",
+        "figure",
+        "unit",
+        "p1",
+        "p50",
+        "p99",
+        "low",
+        "high",
         left=("unit",),
     )
     still = moving(result)
@@ -115,9 +121,9 @@ def spread_tables(result: SpreadResult, title: str) -> Group:
     parts.append(yields)
     sens = new_table("What moves each figure (share of its variance)", "figure", "part", "share")
     for path in still:
-        rows = [s for s in result.sensitivity if s.figure == path][:TOP_PARTS]
-        for i, s in enumerate(rows):
-            add_row(sens, _short(path) if i == 0 else "", s.part, f"{s.share:.0%}")
+        rows = [x for x in result.sensitivity if x.figure == path][:TOP_PARTS]
+        for i, row in enumerate(rows):
+            add_row(sens, _short(path) if i == 0 else "", row.part, f"{row.share:.0%}")
     parts.append(sens)
     if result.crossings:
         cross = new_table(
@@ -205,8 +211,13 @@ def spread_json(result: SpreadResult, title: str, file: str) -> dict[str, Any]:
             for c in result.crossings
         ],
         "parts": [
-            {"part": p.label, "class": p.part_class, "low": p.low, "high": p.high,
-             "tolerance": p.tolerance_text}
+            {
+                "part": p.label,
+                "class": p.part_class,
+                "low": p.low,
+                "high": p.high,
+                "tolerance": p.tolerance_text,
+            }
             for p in result.parts
         ],
         "held": [{"part": h.label, "reason": h.reason} for h in result.held],

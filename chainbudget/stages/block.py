@@ -6,6 +6,7 @@ import math
 from collections.abc import Mapping
 from typing import Any
 
+import numpy as np
 from numpy.typing import ArrayLike
 
 from chainbudget import fields as f
@@ -94,7 +95,8 @@ class Block(StageKind):
             node_in, GROUND, stage.number("input_impedance"), label=f"{name}.input_impedance"
         )
         # A zero output impedance is stamped as a tiny one (see SOURCE_FLOOR_OHM).
-        z_out = max(stage.number("output_impedance"), SOURCE_FLOOR_OHM)
+        # element-wise: the value may vary over a leading trial axis (chainbudget/spread)
+        z_out = np.maximum(stage.number("output_impedance"), SOURCE_FLOOR_OHM)
         source = f"{name}.source"
         branch = net.vcvs(node_in, GROUND, source, stage.number("gain"), label=f"{name}.gain")
         net.resistor(source, node_out, z_out, label=f"{name}.output_impedance")

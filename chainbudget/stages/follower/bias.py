@@ -3,10 +3,13 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
 
 from chainbudget.parts import Transistor
 from chainbudget.stages.base import Environment, Stage
-from chainbudget.stages.hybrid_pi import SmallSignal, small_signal
+from chainbudget.stages.hybrid_pi import SmallSignal, as_number, small_signal
 
 #: Name of the limit on the emitter current (the follower cuts off on the bias side).
 CUT_OFF = "cut-off"
@@ -44,8 +47,15 @@ class FollowerBias:
     small_signal: SmallSignal
 
     @property
-    def cut_off(self) -> bool:
-        return self.i_e <= 0.0 or self.collector_room_v <= 0.0 or self.bias_room_v <= 0.0
+    def cut_off(self) -> Any:
+        """True where the follower has no working current or room (element-wise over a
+        trial axis; a plain bool for one follower)."""
+        off = (
+            (np.asarray(self.i_e) <= 0.0)
+            | (np.asarray(self.collector_room_v) <= 0.0)
+            | (np.asarray(self.bias_room_v) <= 0.0)
+        )
+        return bool(off) if off.ndim == 0 else off
 
 
 def follower_bias(stage: Stage, env: Environment, base_drive: float | None = None) -> FollowerBias:
@@ -82,7 +92,7 @@ def follower_bias(stage: Stage, env: Environment, base_drive: float | None = Non
     if stage.values["bias"] == "resistor":
         r_e = stage.number("emitter_resistor")
         i_e = (sign * (base_drive - bias_rail) - part.vbe) / (r_e + r_dc / (beta + 1.0))
-        i_e = max(i_e, 0.0)
+        i_e = as_number(np.maximum(i_e, 0.0))  # element-wise over any trial axis
         compliance = 0.0
     else:
         i_e = stage.number("current")

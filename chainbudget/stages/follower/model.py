@@ -5,6 +5,7 @@ from __future__ import annotations
 from collections.abc import Mapping
 from typing import Any
 
+import numpy as np
 from numpy.typing import ArrayLike
 
 from chainbudget import fields as f
@@ -27,6 +28,7 @@ from chainbudget.stages.base import (
 from chainbudget.stages.follower.bias import CUT_OFF, follower_bias, transistor_part
 from chainbudget.stages.follower.figures import FollowerFigures, follower_figures, follower_rules
 from chainbudget.stages.hybrid_pi import (
+    as_number,
     stamp_transistor,
     transistor_problems,
 )
@@ -142,7 +144,7 @@ class Follower(StageKind):
         if bias_resistor is not None:
             own.resistor("bias_resistor", base, GROUND, bias_resistor)
         base_resistor = stage.number("base_resistor")
-        if base_resistor > 0.0:
+        if np.any(np.asarray(base_resistor) > 0.0):
             own.resistor("base_resistor", base, f"{name}.base", base_resistor)
             base = f"{name}.base"
         output_cap = stage.optional("output_cap")
@@ -156,22 +158,24 @@ class Follower(StageKind):
             net.capacitor(emitter, node_out, output_cap)
         part = transistor_part(stage, env)
         rail = "positive" if bias.polarity > 0 else "negative"
-        cut = 0.0 if bias.cut_off else bias.i_e
+        # element-wise: the bias may vary over a leading trial axis (chainbudget/spread)
+        cut = as_number(np.where(bias.cut_off, 0.0, bias.i_e))
+        typical_ma = float(np.median(bias.i_e)) * 1e3
         if stage.values["bias"] == "resistor":
             cut_what = (
-                f"bias current {bias.i_e * 1e3:.3g} mA: cuts off when R_E and the load "
+                f"bias current {typical_ma:.3g} mA: cuts off when R_E and the load "
                 "take it all, I_E (R_E || Z_L)"
             )
         else:
             cut_what = (
-                f"sink current {bias.i_e * 1e3:.3g} mA: cuts off when the load takes "
+                f"sink current {typical_ma:.3g} mA: cuts off when the load takes "
                 "it all, I_bias |Z_L|"
             )
         limits = [
             Limit(
                 "saturation",
                 "emitter",
-                0.0 if bias.cut_off else bias.collector_room_v,
+                as_number(np.where(bias.cut_off, 0.0, bias.collector_room_v)),
                 f"emitter within V_CE(sat) {part.vce_sat:g} V of the {rail} rail",
             ),
             Limit(CUT_OFF, "emitter_current", cut, cut_what, bounds_current=True),
@@ -179,7 +183,10 @@ class Follower(StageKind):
         if stage.values["bias"] == "current":
             limits.append(
                 Limit(
-                    "compliance", "emitter", max(bias.bias_room_v, 0.0), "current sink's compliance"
+                    "compliance",
+                    "emitter",
+                    as_number(np.maximum(bias.bias_room_v, 0.0)),
+                    "current sink's compliance",
                 )
             )
         return Built(
