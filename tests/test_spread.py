@@ -268,3 +268,150 @@ def test_nominal_spread_figures_are_the_check_figures() -> None:
         group, name, key = path.split(".")
         held = (nodes if group == "nodes" else supplies)[name][key]
         assert value == pytest.approx(held, rel=1e-9, abs=1e-12), path
+
+
+FOLLOWER = (
+    """
+[chain]
+title = "follower spread"
+[source]
+level = "100 mV"
+impedance = "10k"
+[load]
+impedance = "8 ohm"
+[tolerances]
+resistors = "5 %"
+capacitors = "20 %"
+beta = [0.3, 3]
+[transistor.buffer_npn]
+polarity = "npn"
+beta = 150
+vbe = "0.65 V"
+vce_sat = "0.2 V"
+base_resistance = "100 ohm"
+[[supply]]
+name = "bat"
+kind = "dc"
+voltage = "18 V"
+[[stage]]
+name = "pre"
+kind = "opamp_gain"
+topology = "inverting"
+input = "10k"
+feedback = "47k"
+input_cap = "100n"
+opamp = "ideal"
+positive = "bat"
+[[stage]]
+name = "buffer"
+kind = "follower"
+transistor = "buffer_npn"
+bias = "resistor"
+emitter_resistor = "1k"
+base_resistor = "2k2"
+output_cap = "10u"
+positive = "bat"
+[[stage]]
+name = "line"
+kind = "block"
+gain = "0 dB"
+input_impedance = "600 ohm"
+output_impedance = "50 ohm"
+"""
+    + IDEAL
+)
+
+
+def test_batched_trials_equal_the_check_of_each_trial_edited_into_the_file() -> None:
+    """Brute force, one sample at a time: each of a few trials written into the file
+    (`Chain.with_values`) and checked on its own gives the figures the batched trial axis
+    gives (a follower's beta and bias resistors included: the transistor model and the
+    follower's bias taken as arrays), rtol 1e-9."""
+    from chainbudget.budget import compute
+    from chainbudget.budget.supplies import settle
+    from chainbudget.report.json_view import budget_json
+    from chainbudget.spread.evaluate import Evaluator
+    from chainbudget.spread.parts import chain_parts
+
+    chain = _chain(FOLLOWER)
+    parts, held = chain_parts(chain)
+    labels = {p.label for p in parts}
+    assert {"buffer.transistor beta", "buffer.base_resistor", "line.output_impedance"} <= labels
+    assert held == []
+    evaluate = Evaluator(chain, tuple(parts), compute(chain), settle(chain, "low").voltages)
+    positions = np.random.default_rng(2).random((4, len(parts)))
+    batched = evaluate(positions)
+    for t in range(positions.shape[0]):
+        changes: dict[str, object] = {}
+        for part, value in zip(parts, evaluate.values(positions[t : t + 1]), strict=True):
+            if part.is_beta:
+                changes["transistor.buffer_npn.beta"] = float(value[0])
+            else:
+                changes[f"{part.owner}.{part.key}"] = f"{float(value[0])!r} {_si(part)}"
+        edited = chain.with_values(changes)
+        budget = compute(edited)
+        data = json.loads(json.dumps(budget_json(budget, list(budget.findings))))
+        nodes = {n["stage"]: n for n in data["nodes"]}
+        for path, values in batched.items():
+            _, name, key = path.split(".")
+            assert values[t] == pytest.approx(nodes[name][key], rel=1e-9, abs=1e-12), path
+
+
+def _si(part) -> str:  # noqa: ANN001
+    return "F" if part.part_class == "capacitors" else "ohm"
+
+
+def test_small_signal_takes_an_array_beta_element_by_element() -> None:
+    """The hybrid-pi parameters of an array of betas are those of each beta alone
+    (r_pi = (beta + 1) r_e exactly, Horowitz & Hill 3rd ed. sec. 2.3, from memory)."""
+    from dataclasses import replace
+
+    from chainbudget.parts import GENERIC_TRANSISTORS
+    from chainbudget.stages.hybrid_pi import small_signal
+
+    part = GENERIC_TRANSISTORS["small_npn"]
+    betas = np.array([[60.0], [150.0], [400.0]])
+    batch = small_signal(replace(part, beta=betas), 2e-3, 300.0)  # type: ignore[arg-type]
+    for i, beta in enumerate(betas[:, 0]):
+        one = small_signal(replace(part, beta=float(beta)), 2e-3, 300.0)
+        assert batch.r_pi[i, 0] == pytest.approx(one.r_pi, rel=1e-12, abs=0)
+        assert batch.r_pi[i, 0] == pytest.approx((beta + 1) * one.r_e, rel=1e-12, abs=0)
+        assert batch.g_m[i, 0] == pytest.approx(one.g_m, rel=1e-12, abs=0)
+
+
+def test_plot_draws_the_histograms_of_the_trials(tmp_path: Path) -> None:
+    """--plot writes a picture with the gain's histogram; an existing file is kept."""
+    chain = tmp_path / "g.toml"
+    chain.write_text(NON_INVERTING)
+    picture = tmp_path / "spread.svg"
+    done = _run("spread", str(chain), "--trials", "300", "--plot", str(picture))
+    assert done.returncode == 0, done.stderr
+    text = picture.read_text()
+    assert 'id="hist:nodes.pre.gain_db' in text
+    again = _run("spread", str(chain), "--trials", "300", "--plot", str(picture))
+    assert again.returncode == 2 and "--force" in again.stderr
+
+
+def test_interpolated_rectifier_trough_equals_the_direct_solve() -> None:
+    """A chunk of trials solves the rectifier on a grid of reservoir values and interpolates;
+    each trial solved cycle by cycle on its own (a batch under the grid size) agrees to
+    1 uV; the nominal reservoir gives the check's own trough."""
+    from chainbudget.budget import compute
+    from chainbudget.budget.supplies import settle
+    from chainbudget.chainfile import load_chain
+    from chainbudget.spread.evaluate import Evaluator
+    from chainbudget.spread.parts import chain_parts
+
+    chain = load_chain(ROOT / "chains" / "kitchen_radio_mains.toml")
+    parts, _ = chain_parts(chain)
+    assert "raw.reservoir" in {p.label for p in parts}
+    budget = compute(chain)
+    evaluate = Evaluator(chain, tuple(parts), budget, settle(chain, "low").voltages)
+    positions = np.random.default_rng(4).random((200, len(parts)))
+    many = evaluate(positions)["supplies.raw.trough_v"]
+    assert np.ptp(many) > 0.05  # the reservoir's 10 % moves it
+    for t in (0, 57, 199):
+        alone = evaluate(positions[t : t + 1])["supplies.raw.trough_v"][0]
+        assert many[t] == pytest.approx(alone, abs=1e-6)
+    middle = evaluate(np.full((1, len(parts)), 0.5))["supplies.raw.trough_v"][0]
+    assert middle == pytest.approx(budget.supply("raw").trough_v, rel=1e-12, abs=0)

@@ -72,7 +72,9 @@ class Evaluator:
         values = self.values(positions)
         figures: Figures = {}
         voltages = dict(self.voltages)
-        for j, supply in enumerate(self.chain.supplies):
+        lows: dict[str, NDArray[np.float64]] = {}
+        for j in _parents_first(self.chain):
+            supply = self.chain.supplies[j]
             drawn = {
                 p.key: v
                 for p, v in zip(self.parts, values, strict=True)
@@ -81,13 +83,15 @@ class Evaluator:
             kind = SUPPLY_KINDS[supply.kind]
             if not kind.spread_fields(supply):
                 continue
-            spread = kind.spread(supply, drawn, self.nominal.supply(supply.name))
+            parent = None if supply.parent is None else lows.get(supply.parent)
+            spread = kind.spread(supply, drawn, self.nominal.supply(supply.name), parent)
             if spread is None:
                 continue
             for key, array in spread.figures.items():
                 figures[f"supplies.{supply.name}.{key}"] = _trials(array, trials)
             if spread.rail_low_v is not None and supply.name in voltages:
-                rail = _trials(spread.rail_low_v, trials).reshape(trials, 1)
+                lows[supply.name] = _trials(spread.rail_low_v, trials)
+                rail = lows[supply.name].reshape(trials, 1)
                 # an array rail: `chainbudget.budget.rails.stage_rails` keeps it one
                 voltages[supply.name] = replace(voltages[supply.name], low=cast(float, rail))
         chain = self.chain
@@ -153,6 +157,21 @@ class Evaluator:
                 continue
             found += [_supply_threshold(supply.name, t) for t in spread.thresholds]
         return found
+
+
+def _parents_first(chain: Chain) -> list[int]:
+    """The supplies' indices, each after the supply it is fed from."""
+    order: list[int] = []
+    done: set[str] = set()
+    while len(order) < len(chain.supplies):
+        before = len(order)
+        for j, supply in enumerate(chain.supplies):
+            if j not in order and (supply.parent is None or supply.parent in done):
+                order.append(j)
+                done.add(supply.name)
+        if len(order) == before:  # a parent that is no supply's name (the loader refuses it)
+            order += [j for j in range(len(chain.supplies)) if j not in order]
+    return order
 
 
 def _supply_threshold(name: str, threshold: SpreadThreshold) -> Threshold:

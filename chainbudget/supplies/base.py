@@ -390,10 +390,16 @@ class SupplyKind(ABC):
         return ()
 
     def spread(
-        self, supply: Supply, drawn: Mapping[str, NDArray[np.float64]], nominal: SupplyBudget
+        self,
+        supply: Supply,
+        drawn: Mapping[str, NDArray[np.float64]],
+        nominal: SupplyBudget,
+        parent_low_v: NDArray[np.float64] | None = None,
     ) -> SupplySpread | None:
         """The kind's figures with ``drawn`` (field -> (T,) values) in place of the file's,
-        about the nominal operating point ``nominal`` (None: the kind spreads nothing)."""
+        about the nominal operating point ``nominal``; ``parent_low_v`` is the parent's
+        low-line trough per trial where the parent spreads it (None: its nominal one).
+        None: the kind spreads nothing."""
         return None
 
     def trough_remedy(

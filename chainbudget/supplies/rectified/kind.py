@@ -14,6 +14,7 @@ from chainbudget.supplies.base import (
     SupplyContext,
     SupplyKind,
     SupplyLoad,
+    SupplySpread,
     SupplyState,
     TroughRemedy,
 )
@@ -26,6 +27,7 @@ from chainbudget.supplies.rectified.circuit import (
 )
 from chainbudget.supplies.rectified.figures import RectifiedFigures, rectified_figures
 from chainbudget.supplies.rectified.rules import rectified_rules
+from chainbudget.supplies.rectified.spread import SPREAD_FIELDS, rectified_spread
 from chainbudget.units import UnitParseError, parse_fraction, parse_level
 
 
@@ -135,6 +137,19 @@ class Rectified(SupplyKind):
             )
             for rail, s in solved.items()
         }
+
+    def spread_fields(self, supply: Supply) -> tuple[str, ...]:
+        # a split supply's two rails share one solve; the spread takes single rails only
+        return () if supply.values.get("split") else SPREAD_FIELDS
+
+    def spread(
+        self,
+        supply: Supply,
+        drawn: Mapping[str, Any],
+        nominal: SupplyBudget,
+        parent_low_v: Any = None,
+    ) -> SupplySpread:
+        return rectified_spread(supply, drawn, nominal)
 
     def figures(self, context: SupplyContext) -> RectifiedFigures:
         return rectified_figures(context)

@@ -195,9 +195,13 @@ class Regulator(SupplyKind):
         return tuple(key for key in keys if supply.values.get(key) is not None)
 
     def spread(
-        self, supply: Supply, drawn: Mapping[str, Any], nominal: SupplyBudget
+        self,
+        supply: Supply,
+        drawn: Mapping[str, Any],
+        nominal: SupplyBudget,
+        parent_low_v: Any = None,
     ) -> SupplySpread:
-        return regulator_spread(self, supply, drawn, nominal)
+        return regulator_spread(self, supply, drawn, nominal, parent_low_v)
 
     def input_load(self, supply: Supply, load: SupplyLoad) -> SupplyLoad:
         return self.delivered(supply, load).plus(self.own_current(supply))

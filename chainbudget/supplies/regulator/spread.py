@@ -6,10 +6,11 @@ Notes
 -----
 V_out = V_ref (1 + upper/lower) + I_adj upper (`chainbudget.supplymath.adjustable_output`);
 the divider takes V_ref/lower and a bleeder V_out/bleeder from the output, counted toward
-the minimum load. The input's trough and the external load are the nominal operating
-point's (the tree as settled for the nominal parts): the regulator's own current changes
-by micro- to milliamperes over its tolerances, which moves a rectifier's trough by far less
-than the reference's spread moves the output. Out of regulation the output follows the
+the minimum load. The input's trough is the parent's per trial where the parent spreads
+it (a rectifier's reservoir), else the nominal one; the external load is the nominal
+operating point's (the tree as settled for the nominal parts): the regulator's own current
+changes by micro- to milliamperes over its tolerances, which moves a rectifier's trough by
+far less than the reference's spread moves the output. Out of regulation the output follows the
 input's trough less the dropout, as `Regulator.state` has it.
 """
 
@@ -37,6 +38,7 @@ def regulator_spread(
     supply: Supply,
     drawn: Mapping[str, NDArray[np.float64]],
     nominal: SupplyBudget,
+    parent_low_v: NDArray[np.float64] | None = None,
 ) -> SupplySpread:
     """Output, divider and bleeder currents, dropout and minimum-load margins per trial."""
     own = nominal.own
@@ -59,7 +61,7 @@ def regulator_spread(
     bleeder_a = np.asarray(0.0) if bleeder is None else vout / value("bleeder")
     # the load as solved counts the divider and bleeder at their nominal values
     external_idle = nominal.load.idle_a - own.divider_a - own.bleeder_a
-    trough = own.input_min_v
+    trough = own.input_min_v if parent_low_v is None else np.asarray(parent_low_v, dtype=float)
     dropout = own.dropout_v
     size = max(np.size(vout), np.size(divider_a), np.size(bleeder_a))
     figures: dict[str, NDArray[np.float64]] = {
