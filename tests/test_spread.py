@@ -415,3 +415,32 @@ def test_interpolated_rectifier_trough_equals_the_direct_solve() -> None:
         assert many[t] == pytest.approx(alone, abs=1e-6)
     middle = evaluate(np.full((1, len(parts)), 0.5))["supplies.raw.trough_v"][0]
     assert middle == pytest.approx(budget.supply("raw").trough_v, rel=1e-12, abs=0)
+
+
+@pytest.mark.parametrize("name", sorted(p.name for p in (ROOT / "chains").glob("*.toml")))
+def test_every_example_spreads_into_json_and_80_columns(name: str) -> None:
+    """Every example chain: the JSON holds the contract's keys and no NaN or Infinity, the
+    table reads at 80 columns in ASCII (the house rule for reports)."""
+    import io
+
+    from rich.console import Console
+
+    from chainbudget.chainfile import load_chain
+    from chainbudget.spread.view import spread_json, spread_tables
+
+    chain = load_chain(ROOT / "chains" / name)
+    result = run_spread(chain, 64, 1)
+    text = json.dumps(spread_json(result, chain.settings.title, chain.file), allow_nan=False)
+    data = json.loads(text)
+    for key in ("trials", "seed", "figures", "yield", "yield_by_code", "corners", "sensitivity"):
+        assert key in data
+    for path, (low, high) in result.corners.items():
+        stats = result.stats[path]
+        span = max(abs(low), abs(high), 1e-12) * 1e-9
+        assert low - span <= stats["min"] <= stats["max"] <= high + span, path
+    out = io.StringIO()
+    Console(file=out, width=80, no_color=True, highlight=False).print(
+        spread_tables(result, chain.settings.title)
+    )
+    lines = out.getvalue().splitlines()
+    assert all(len(line.encode()) <= 80 for line in lines)

@@ -84,7 +84,10 @@ class Evaluator:
             if not kind.spread_fields(supply):
                 continue
             parent = None if supply.parent is None else lows.get(supply.parent)
-            spread = kind.spread(supply, drawn, self.nominal.supply(supply.name), parent)
+            bounds = {
+                p.key: (p.low, p.high) for p in self.parts if p.table == "supply" and p.index == j
+            }
+            spread = kind.spread(supply, drawn, self.nominal.supply(supply.name), parent, bounds)
             if spread is None:
                 continue
             for key, array in spread.figures.items():

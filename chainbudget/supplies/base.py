@@ -395,11 +395,12 @@ class SupplyKind(ABC):
         drawn: Mapping[str, NDArray[np.float64]],
         nominal: SupplyBudget,
         parent_low_v: NDArray[np.float64] | None = None,
+        bounds: Mapping[str, tuple[float, float]] | None = None,
     ) -> SupplySpread | None:
         """The kind's figures with ``drawn`` (field -> (T,) values) in place of the file's,
         about the nominal operating point ``nominal``; ``parent_low_v`` is the parent's
-        low-line trough per trial where the parent spreads it (None: its nominal one).
-        None: the kind spreads nothing."""
+        low-line trough per trial where the parent spreads it (None: its nominal one);
+        ``bounds`` each drawn field's (low, high). None: the kind spreads nothing."""
         return None
 
     def trough_remedy(

@@ -148,8 +148,9 @@ class Rectified(SupplyKind):
         drawn: Mapping[str, Any],
         nominal: SupplyBudget,
         parent_low_v: Any = None,
+        bounds: Mapping[str, tuple[float, float]] | None = None,
     ) -> SupplySpread:
-        return rectified_spread(supply, drawn, nominal)
+        return rectified_spread(supply, drawn, nominal, bounds)
 
     def figures(self, context: SupplyContext) -> RectifiedFigures:
         return rectified_figures(context)

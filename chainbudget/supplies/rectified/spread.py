@@ -15,12 +15,13 @@ from __future__ import annotations
 
 import math
 from collections.abc import Mapping
+from functools import lru_cache
 
 import numpy as np
 from numpy.typing import NDArray
 
 from chainbudget import rectifier
-from chainbudget.supplies.base import Supply, SupplyBudget, SupplySpread
+from chainbudget.supplies.base import Supply, SupplyBudget, SupplyLoad, SupplySpread
 from chainbudget.supplies.rectified.circuit import transformer
 
 SPREAD_FIELDS = ("reservoir",)
@@ -29,12 +30,49 @@ GRID_POINTS = 17
 
 
 def rectified_spread(
-    supply: Supply, drawn: Mapping[str, NDArray[np.float64]], nominal: SupplyBudget
+    supply: Supply,
+    drawn: Mapping[str, NDArray[np.float64]],
+    nominal: SupplyBudget,
+    bounds: Mapping[str, tuple[float, float]] | None = None,
 ) -> SupplySpread:
-    """Trough and ripple at low line and heaviest load per trial."""
+    """Trough and ripple at low line and heaviest load per trial.
+
+    A batch of more than GRID_POINTS trials takes the trough from a grid of reservoir
+    values across the part's bounds, solved once (cached) and interpolated by a cubic
+    spline (the trough is smooth and monotonic in C; within 1 uV of the direct solve,
+    tests/test_spread.py); a smaller batch (a corner, a sensitivity) is solved directly.
+    """
     tr = transformer(supply)
     reservoir = np.atleast_1d(np.asarray(drawn.get("reservoir", tr.reservoir_f), dtype=float))
     load = nominal.load
+    span = (bounds or {}).get("reservoir")
+    if reservoir.size > GRID_POINTS and span is not None and span[0] != span[1]:
+        from scipy.interpolate import CubicSpline
+
+        grid = np.linspace(min(span), max(span), GRID_POINTS)
+        trough_grid, ripple_grid = _solved(supply, load, tuple(float(c) for c in grid))
+        trough = CubicSpline(grid, trough_grid)(reservoir)
+        ripple = CubicSpline(grid, ripple_grid)(reservoir)
+    else:
+        trough, ripple = (np.asarray(a) for a in _solve(supply, load, reservoir))
+    trough = np.maximum(trough, 0.0)
+    return SupplySpread({"trough_v": trough, "ripple_vpp": ripple}, (), trough)
+
+
+@lru_cache(maxsize=32)
+def _solved(
+    supply: Supply, load: SupplyLoad, grid: tuple[float, ...]
+) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
+    """`_solve` on a grid of reservoir values, kept for the next chunk of trials."""
+    return _solve(supply, load, np.array(grid))
+
+
+def _solve(
+    supply: Supply, load: SupplyLoad, reservoir: NDArray[np.float64]
+) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
+    """Trough and ripple at low line and heaviest load for each reservoir value, the worst
+    of the signal's phases (as `solve_rails` takes them)."""
+    tr = transformer(supply)
     signal = load.signal_hz
     pulsed = signal is not None and load.heaviest_pulse_a > 0.0
     phases = rectifier.PHASES if pulsed else 1
@@ -42,35 +80,20 @@ def rectified_spread(
     if pulsed and signal is not None:
         cycles = max(rectifier.commensurate(signal, tr.ripple_hz)[1], 1)
     offsets = np.array([2.0 * math.pi * j / (phases * cycles) for j in range(phases)])
-    low_line = tr.lines[0]
-    # The trough is smooth and monotonic in C: past GRID_POINTS trials it is solved on a
-    # grid across the trials' range and interpolated (cubic spline; error checked in
-    # tests/test_spread.py), so a chunk of trials costs GRID_POINTS rectifier solves.
-    if reservoir.size > GRID_POINTS and np.ptp(reservoir) > 0.0:
-        grid = np.linspace(reservoir.min(), reservoir.max(), GRID_POINTS)
-    else:
-        grid = reservoir
     solved = rectifier.solve(
-        tr.source_peak(low_line, load.heaviest_a > 0.0),
+        tr.source_peak(tr.lines[0], load.heaviest_a > 0.0),
         tr.drop_v,
         tr.winding_ohm,
-        np.repeat(grid, phases),
+        np.repeat(reservoir, phases),
         tr.line_hz,
         load.heaviest_dc_a,
         load.heaviest_pulse_a,
         signal if pulsed else None,
-        np.tile(offsets, grid.size),
+        np.tile(offsets, reservoir.size),
         half_wave=tr.half_wave,
     )
-    troughs = np.asarray(solved.trough_v).reshape(grid.size, phases)
+    troughs = np.asarray(solved.trough_v).reshape(reservoir.size, phases)
     worst = np.argmin(troughs, axis=1)
-    rows = np.arange(grid.size)
-    trough = troughs[rows, worst]
-    ripple = np.asarray(solved.ripple_vpp).reshape(grid.size, phases)[rows, worst]
-    if grid is not reservoir:
-        from scipy.interpolate import CubicSpline
-
-        trough = CubicSpline(grid, trough)(reservoir)
-        ripple = CubicSpline(grid, ripple)(reservoir)
-    trough = np.maximum(trough, 0.0)
-    return SupplySpread({"trough_v": trough, "ripple_vpp": ripple}, (), trough)
+    rows = np.arange(reservoir.size)
+    ripple = np.asarray(solved.ripple_vpp).reshape(reservoir.size, phases)[rows, worst]
+    return troughs[rows, worst], ripple

@@ -200,6 +200,7 @@ class Regulator(SupplyKind):
         drawn: Mapping[str, Any],
         nominal: SupplyBudget,
         parent_low_v: Any = None,
+        bounds: Mapping[str, tuple[float, float]] | None = None,
     ) -> SupplySpread:
         return regulator_spread(self, supply, drawn, nominal, parent_low_v)
 
