@@ -24,6 +24,7 @@ vertices; exact for a figure monotonic in each part).
 
 from __future__ import annotations
 
+import math
 import sys
 import time
 from collections.abc import Callable
@@ -44,6 +45,8 @@ CHUNK_TRIALS = 8192
 # count the run is refused rather than left to exhaust memory.
 MAX_TRIALS = 1_000_000
 PERCENTILES = (("p1", 1.0), ("p50", 50.0), ("p99", 99.0))
+# A figure whose parts move it by less than this fraction of itself is not ranked.
+STILL_RTOL = 1e-9
 # Corner confirmation rounds at most (each flips every part once).
 MAX_CONFIRM_ROUNDS = 8
 
@@ -221,7 +224,9 @@ def run_spread(
     sensitivity = []
     for p in paths:
         total = float(np.sum(deltas[p] ** 2))
-        if total <= 0.0:
+        # a figure the parts move only by round-off (a fixed limit carried through a solve)
+        # has no sensitivity to rank
+        if math.sqrt(total) <= STILL_RTOL * abs(float(centre[p][0])) or total <= 0.0:
             continue
         for i in np.argsort(-(deltas[p] ** 2)):
             share = float(deltas[p][i] ** 2 / total)

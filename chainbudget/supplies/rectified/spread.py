@@ -18,6 +18,7 @@ from collections.abc import Mapping
 from functools import lru_cache
 
 import numpy as np
+from numpy.polynomial import chebyshev as cheb
 from numpy.typing import NDArray
 
 from chainbudget import rectifier
@@ -37,22 +38,28 @@ def rectified_spread(
 ) -> SupplySpread:
     """Trough and ripple at low line and heaviest load per trial.
 
-    A batch of more than GRID_POINTS trials takes the trough from a grid of reservoir
-    values across the part's bounds, solved once (cached) and interpolated by a cubic
-    spline (the trough is smooth and monotonic in C; within 1 uV of the direct solve,
-    tests/test_spread.py); a smaller batch (a corner, a sensitivity) is solved directly.
+    A batch of more than GRID_POINTS trials takes the trough from GRID_POINTS reservoir
+    values across the part's bounds (Chebyshev nodes), solved once (cached) and
+    interpolated by their polynomial (the trough is smooth in C; within 1 uV of the direct
+    solve, tests/test_spread.py); a smaller batch (a corner, a sensitivity) is solved
+    directly.
     """
     tr = transformer(supply)
     reservoir = np.atleast_1d(np.asarray(drawn.get("reservoir", tr.reservoir_f), dtype=float))
     load = nominal.load
     span = (bounds or {}).get("reservoir")
     if reservoir.size > GRID_POINTS and span is not None and span[0] != span[1]:
-        from scipy.interpolate import CubicSpline
-
-        grid = np.linspace(min(span), max(span), GRID_POINTS)
-        trough_grid, ripple_grid = _solved(supply, load, tuple(float(c) for c in grid))
-        trough = CubicSpline(grid, trough_grid)(reservoir)
-        ripple = CubicSpline(grid, ripple_grid)(reservoir)
+        mid, half = (span[0] + span[1]) / 2.0, abs(span[1] - span[0]) / 2.0
+        # Chebyshev nodes across the bounds: the interpolating polynomial of a smooth
+        # function converges geometrically with their number (Trefethen, Approximation
+        # Theory and Approximation Practice, ch. 8)
+        nodes = np.cos(np.pi * (np.arange(GRID_POINTS) + 0.5) / GRID_POINTS)
+        grid = tuple(float(c) for c in mid + half * nodes)
+        trough_grid, ripple_grid = _solved(supply, load, grid)
+        where = (reservoir - mid) / half
+        degree = GRID_POINTS - 1
+        trough = cheb.chebval(where, cheb.chebfit(nodes, trough_grid, degree))
+        ripple = cheb.chebval(where, cheb.chebfit(nodes, ripple_grid, degree))
     else:
         trough, ripple = (np.asarray(a) for a in _solve(supply, load, reservoir))
     trough = np.maximum(trough, 0.0)
