@@ -5,8 +5,6 @@ from __future__ import annotations
 
 from pathlib import Path
 
-import numpy as np
-
 from chainbudget.report.pictures import style
 from chainbudget.spread.run import SpreadResult
 from chainbudget.spread.view import moving
@@ -61,6 +59,3 @@ def draw_histograms(result: SpreadResult, target: Path, fmt: str) -> list[str]:
 def picture_format(path: Path) -> str:
     suffix = path.suffix.lower().lstrip(".")
     return suffix if suffix in ("png", "svg", "pdf") else "png"
-
-
-__all__ = ["draw_histograms", "key_figures", "np", "picture_format"]

@@ -6,7 +6,6 @@ import math
 from typing import Any
 
 from rich.console import Group
-from rich.table import Table
 from rich.text import Text
 
 from chainbudget.notation import eng
@@ -223,6 +222,3 @@ def spread_json(result: SpreadResult, title: str, file: str) -> dict[str, Any]:
         "held": [{"part": h.label, "reason": h.reason} for h in result.held],
         "codes_not_spread": result.codes_not_spread(),
     }
-
-
-__all__ = ["Table", "moving", "spread_json", "spread_tables"]
