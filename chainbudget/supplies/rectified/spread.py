@@ -58,12 +58,12 @@ def rectified_spread(
         trough_grid, ripple_grid = _solved(supply, load, grid)
         where = (reservoir - mid) / half
         degree = GRID_POINTS - 1
-        trough = cheb.chebval(where, cheb.chebfit(nodes, trough_grid, degree))
-        ripple = cheb.chebval(where, cheb.chebfit(nodes, ripple_grid, degree))
+        trough = np.asarray(cheb.chebval(where, cheb.chebfit(nodes, trough_grid, degree)), float)
+        ripple = np.asarray(cheb.chebval(where, cheb.chebfit(nodes, ripple_grid, degree)), float)
     else:
-        trough, ripple = (np.asarray(a) for a in _solve(supply, load, reservoir))
-    trough = np.maximum(trough, 0.0)
-    return SupplySpread({"trough_v": trough, "ripple_vpp": ripple}, (), trough)
+        trough, ripple = _solve(supply, load, reservoir)
+    low: NDArray[np.float64] = np.maximum(trough, 0.0)
+    return SupplySpread({"trough_v": low, "ripple_vpp": ripple}, (), low)
 
 
 @lru_cache(maxsize=32)
