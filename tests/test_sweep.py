@@ -74,6 +74,8 @@ CASES = [
     ("busking_amp", "volume", "position", True, (0.2, 1.0), repr),
     ("field_recorder_battery", "trim", "position", True, (0.15, 0.9), repr),
     ("desk_speaker_preamp", "driver", "feedback", False, (10e3, 47e3), lambda v: f'"{v!r} ohm"'),
+    # the follower's bias takes its base resistor as an array (chainbudget/spread needs it)
+    ("busking_amp", "buffer", "base_resistor", False, (220.0, 4.7e3), lambda v: f'"{v!r} ohm"'),
 ]
 
 
@@ -167,7 +169,6 @@ def test_a_log_sweep_of_a_part_value_is_geometric() -> None:
 @pytest.mark.parametrize(
     ("chain", "spec", "said"),
     [
-        ("busking_amp", "buffer.base_resistor", "one value at a time"),
         ("busking_amp", "output.emitter_resistors", "one value at a time"),
         ("desk_speaker_preamp", "driver.opamp", "not a part value"),
         ("desk_speaker_preamp", "tone.bass_position", "is a pot"),
