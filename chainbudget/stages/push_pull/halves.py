@@ -5,9 +5,11 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+import numpy as np
+
 from chainbudget.parts import Transistor
 from chainbudget.stages.base import Environment, Stage
-from chainbudget.stages.hybrid_pi import SmallSignal, small_signal
+from chainbudget.stages.hybrid_pi import SmallSignal, as_number, small_signal
 
 
 @dataclass(frozen=True)
@@ -108,7 +110,9 @@ def conduction_current(stage: Stage, env: Environment) -> float:
     if env.load_impedance is None:
         return i_q
     swing = min(half.swing_v for half in halves(stage, env))
-    return max(i_q, swing / (stage.number("emitter_resistors") + env.load_impedance))
+    # element-wise: R_E may vary over a leading trial axis (chainbudget/spread)
+    peak = swing / (stage.number("emitter_resistors") + env.load_impedance)
+    return as_number(np.maximum(i_q, peak))
 
 
 def push_pull_model(stage: Stage, env: Environment) -> PushPullModel:

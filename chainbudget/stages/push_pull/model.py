@@ -341,7 +341,10 @@ def _stamp_conducting_half(
             noise_bias=model.idle_driver,
         )
     r_emitter = stage.number("emitter_resistors")
-    emitter = junction if r_emitter <= 0.0 else f"{name}.emitter"
+    # any(): R_E may be an array over a leading trial axis (chainbudget/spread), all drawn
+    # around a nominal above zero
+    has_emitter_resistor = bool(np.any(np.asarray(r_emitter) > 0.0))
+    emitter = junction if not has_emitter_resistor else f"{name}.emitter"
     current = stamp_transistor(
         net,
         base,
@@ -352,7 +355,7 @@ def _stamp_conducting_half(
         temperature_k=t,
         noise_bias=model.idle_output,
     )
-    if r_emitter > 0.0:
+    if has_emitter_resistor:
         own.resistor("emitter_resistor", emitter, junction, r_emitter)
     return emitter, current
 
