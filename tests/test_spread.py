@@ -444,3 +444,109 @@ def test_every_example_spreads_into_json_and_80_columns(name: str) -> None:
     )
     lines = out.getvalue().splitlines()
     assert all(len(line.encode()) <= 80 for line in lines)
+
+
+PUSH_PULL = (
+    """
+[chain]
+title = "output pair spread"
+[source]
+level = "300 mV"
+max_level = "1 V"
+impedance = "1k"
+[load]
+impedance = "8 ohm"
+[tolerances]
+resistors = "5 %"
+beta = [0.4, 2.5]
+[transistor.hot_npn]
+polarity = "npn"
+beta = 60
+vbe = "0.7 V"
+vce_sat = "0.5 V"
+base_resistance = "10 ohm"
+[transistor.hot_pnp]
+polarity = "pnp"
+beta = 45
+vbe = "0.7 V"
+vce_sat = "0.5 V"
+base_resistance = "10 ohm"
+[transistor.drive_npn]
+polarity = "npn"
+beta = 150
+vbe = "0.65 V"
+vce_sat = "0.2 V"
+base_resistance = "50 ohm"
+[transistor.drive_pnp]
+polarity = "pnp"
+beta = 120
+vbe = "0.65 V"
+vce_sat = "0.2 V"
+base_resistance = "50 ohm"
+[[supply]]
+name = "plus"
+kind = "dc"
+voltage = "15 V"
+[[supply]]
+name = "minus"
+kind = "dc"
+voltage = "15 V"
+[[stage]]
+name = "pre"
+kind = "opamp_gain"
+topology = "non-inverting"
+feedback = "22k"
+ground_leg = "2k2"
+opamp = "ideal"
+positive = "plus"
+negative = "minus"
+[[stage]]
+name = "output"
+kind = "push_pull"
+upper = "hot_npn"
+lower = "hot_pnp"
+driver_upper = "drive_npn"
+driver_lower = "drive_pnp"
+emitter_resistors = "0R47"
+quiescent = "40 mA"
+positive = "plus"
+negative = "minus"
+"""
+    + IDEAL
+)
+
+
+def test_output_pair_betas_drawn_per_trial_equal_the_check_of_each_trial() -> None:
+    """Brute force, one sample at a time, for the output pair: each trial's four betas and
+    emitter resistors written into the file and checked alone give the batched figures
+    (the half of lower gain chosen per trial), rtol 1e-9."""
+    from chainbudget.budget import compute
+    from chainbudget.budget.supplies import settle
+    from chainbudget.report.json_view import budget_json
+    from chainbudget.spread.evaluate import Evaluator
+    from chainbudget.spread.parts import chain_parts
+
+    chain = _chain(PUSH_PULL)
+    parts, held = chain_parts(chain)
+    betas = {p.label for p in parts if p.is_beta}
+    assert betas == {f"output.{k} beta" for k in ("upper", "lower", "driver_upper", "driver_lower")}
+    assert held == []
+    evaluate = Evaluator(chain, tuple(parts), compute(chain), settle(chain, "low").voltages)
+    positions = np.random.default_rng(9).random((6, len(parts)))
+    batched = evaluate(positions)
+    moved = np.ptp(batched["nodes.pre.zload_ohm"])
+    assert moved > 0.0  # the pair's input impedance follows its betas
+    for t in range(positions.shape[0]):
+        changes: dict[str, object] = {}
+        for part, value in zip(parts, evaluate.values(positions[t : t + 1]), strict=True):
+            if part.is_beta:
+                name = chain.stages[part.index].values[part.key]
+                changes[f"transistor.{name}.beta"] = float(value[0])
+            else:
+                changes[f"{part.owner}.{part.key}"] = f"{float(value[0])!r} {_si(part)}"
+        budget = compute(chain.with_values(changes))
+        data = json.loads(json.dumps(budget_json(budget, list(budget.findings))))
+        nodes = {n["stage"]: n for n in data["nodes"]}
+        for path, values in batched.items():
+            _, name, key = path.split(".")
+            assert values[t] == pytest.approx(nodes[name][key], rel=1e-9, abs=1e-12), path

@@ -116,8 +116,46 @@ def conduction_current(stage: Stage, env: Environment) -> float:
 
 
 def push_pull_model(stage: Stage, env: Environment) -> PushPullModel:
-    """Hybrid-pi parameters of the modelled half, in conduction and at idle."""
-    half = modelled_half(stage, env)
+    """Hybrid-pi parameters of the modelled half, in conduction and at idle.
+
+    With the devices' betas over a leading trial axis (chainbudget/spread) the half of
+    lower gain differs from trial to trial: both halves' models are worked out and each
+    parameter taken from the weaker half of each trial (``half`` is then the upper one,
+    for its structure; both halves must have a driver or neither).
+    """
+    upper, lower = halves(stage, env)
+    weaker_lower = np.asarray(lower.beta_total < upper.beta_total)
+    if weaker_lower.ndim == 0 or (upper.driver is None) != (lower.driver is None):
+        return _half_model(stage, env, modelled_half(stage, env))
+    of_upper, of_lower = _half_model(stage, env, upper), _half_model(stage, env, lower)
+
+    def pick(a: SmallSignal | None, b: SmallSignal | None) -> SmallSignal | None:
+        if a is None or b is None:
+            return None
+        return SmallSignal(
+            *(
+                as_number(np.where(weaker_lower, getattr(b, k), getattr(a, k)))
+                for k in SmallSignal.__dataclass_fields__
+            )
+        )
+
+    output, idle_output = (
+        pick(of_upper.output, of_lower.output),
+        pick(of_upper.idle_output, of_lower.idle_output),
+    )
+    assert output is not None and idle_output is not None
+    return PushPullModel(
+        upper,
+        of_upper.conduction_a,
+        output,
+        pick(of_upper.driver, of_lower.driver),
+        idle_output,
+        pick(of_upper.idle_driver, of_lower.idle_driver),
+    )
+
+
+def _half_model(stage: Stage, env: Environment, half: Half) -> PushPullModel:
+    """The hybrid-pi parameters of ``half``, in conduction and at idle."""
     t = env.temperature_k
     conduction = conduction_current(stage, env)
     output = small_signal(half.output, conduction, t)

@@ -119,8 +119,20 @@ class PushPull(StageKind):
     fields = (
         f.Field("upper", f.NAME, "upper (NPN) output transistor", "power_npn", tolerance="beta"),
         f.Field("lower", f.NAME, "lower (PNP) output transistor", "power_pnp", tolerance="beta"),
-        f.Field("driver_upper", f.NAME, "Darlington driver of the upper device (NPN)", None),
-        f.Field("driver_lower", f.NAME, "Darlington driver of the lower device (PNP)", None),
+        f.Field(
+            "driver_upper",
+            f.NAME,
+            "Darlington driver of the upper device (NPN)",
+            None,
+            tolerance="beta",
+        ),
+        f.Field(
+            "driver_lower",
+            f.NAME,
+            "Darlington driver of the lower device (PNP)",
+            None,
+            tolerance="beta",
+        ),
         f.Field("emitter_resistors", f.RESISTANCE_OR_ZERO, "each output emitter resistor"),
         f.Field("quiescent", f.POSITIVE_CURRENT, "idle current through the pair"),
         f.Field(
