@@ -130,23 +130,18 @@ def spread_tables(result: SpreadResult, title: str) -> Group:
             "figure",
             "limit",
             "trials",
-            "part",
-            "keeps it inside",
+            "part, now",
+            "inside with",
         )
         for c in result.crossings:
             t = c.threshold
-            needed = (
-                f"{c.tolerance_needed} (now {c.tolerance})"
-                if c.tolerance_needed is not None
-                else f"not this part alone (now {c.tolerance})"
-            )
             add_row(
                 cross,
-                f"{_short(t.path)} {t.code}",
+                f"{_bare(t.path)}\n{t.code}",
                 shown(t.path, t.limit),
                 f"{c.share_failing:.1%}",
-                c.part,
-                needed,
+                f"{c.part}\n{c.tolerance}",
+                c.tolerance_needed if c.tolerance_needed is not None else "none alone",
             )
         parts.append(cross)
     notes = []
@@ -162,7 +157,9 @@ def spread_tables(result: SpreadResult, title: str) -> Group:
         )
     notes.append(
         "corners: the extreme over the bounds (from the sensitivities' signs, confirmed by "
-        "flipping each part); 'keeps it inside' is from the linear sensitivity"
+        "flipping each part); 'inside with': the part's tolerance that keeps the corner "
+        "inside the limit, from the linear sensitivity ('none alone': no tolerance of that "
+        "part does)"
     )
     parts += [Text(n) for n in notes]
     parts += [Text(f"CAUTION: {c}") for c in result.cautions]
