@@ -21,7 +21,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from chainbudget import fields as f
-from chainbudget.units import UnitParseError, shown
+from chainbudget.units import UnitParseError
 
 # Part classes and their defaults (contract): a fraction either side, beta a factor range.
 CLASSES = ("resistors", "capacitors", "pots", "references", "beta")
@@ -141,10 +141,6 @@ def write_bound(bound: Bound) -> object:
     if isinstance(bound, tuple):
         return [bound[0], bound[1]]
     return f"{bound * 100.0:.12g} %"
-
-
-def describe(value: object) -> str:
-    return shown(value)
 
 
 _PERCENT_KIND = f.FieldKind('% ("1 %", "+/-1 %")', read_fraction, write_bound)
