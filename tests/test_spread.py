@@ -550,3 +550,39 @@ def test_output_pair_betas_drawn_per_trial_equal_the_check_of_each_trial() -> No
         for path, values in batched.items():
             _, name, key = path.split(".")
             assert values[t] == pytest.approx(nodes[name][key], rel=1e-9, abs=1e-12), path
+
+
+@pytest.mark.parametrize(
+    ("text", "fraction"),
+    [("1 %", 0.01), ("5%", 0.05), ("+/-10 %", 0.10), ("±10 %", 0.10), ("0.1 %", 0.001)],
+)
+def test_the_trades_tolerance_notation(text: str, fraction: float) -> None:
+    """The ways a tolerance is written on parts lists and in catalogues (common practice,
+    no source) all read as the same bound, here through a stage's own override."""
+    chain = _chain(
+        NON_INVERTING.replace(
+            'ground_leg = "1k"', f'ground_leg = "1k"\ntolerance = {{ feedback = "{text}" }}'
+        )
+    )
+    assert chain.tolerances.bound("stage", "pre", "feedback", "resistors") == pytest.approx(
+        fraction, rel=1e-12, abs=0
+    )
+    assert chain.tolerances.bound("stage", "pre", "ground_leg", "resistors") == 0.01
+
+
+def test_beta_is_drawn_uniformly_in_log() -> None:
+    """A log-uniform draw on [0.5 b, 2 b] (the contract): log(beta) is uniform, so a
+    quarter of the trials fall below 0.5 b * 4**0.25 = b/sqrt(2) and half below b, within
+    5 sigma of a binomial share over 40,000 draws."""
+    from chainbudget.spread.parts import Part
+
+    part = Part("stage", 0, "buffer", "transistor", "beta", 100.0, 50.0, 200.0)
+    draws = part.at(np.random.default_rng(8).random(40_000))
+    for below, share in (
+        (100.0 / math.sqrt(2.0), 0.25),
+        (100.0, 0.5),
+        (200.0 / math.sqrt(2.0), 0.75),
+    ):
+        sigma = math.sqrt(share * (1 - share) / draws.size)
+        assert abs(float(np.mean(draws < below)) - share) < 5 * sigma
+    assert draws.min() >= 50.0 and draws.max() <= 200.0
