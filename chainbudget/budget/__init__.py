@@ -18,6 +18,8 @@ from typing import Any
 from chainbudget.budget.analysis import SWEEP_POINTS, Analysis, environments
 from chainbudget.budget.currents import StageCurrents, stage_currents
 from chainbudget.budget.dcbias import DcPoint, dc_points
+from chainbudget.budget.hum import HumBudget
+from chainbudget.budget.hum_remedies import hum_with_remedies
 from chainbudget.budget.levels import (
     HeadroomCurves,
     NodeLevels,
@@ -191,6 +193,8 @@ class Budget:
     curves: HeadroomCurves
     noise: NoiseBudget | None = None
     output: OutputFigures | None = None
+    #: The mains ripple at every node and at the loudspeaker (`chainbudget.budget.hum`).
+    hum: HumBudget | None = None
     findings: tuple[Finding, ...] = field(default=(), repr=False)
 
     def node(self, name: str) -> NodeBudget:
@@ -287,6 +291,13 @@ def budget_from(analysis: Analysis) -> Budget:
     limited = [k for k, n in enumerate(nodes) if n.headroom_db is not None]
     first_clip = min(limited, key=lambda k: nodes[k].headroom_db or 0.0) if limited else None
     output_index = limited[-1] if limited else None
+    supplies = supply_budgets(analysis)
+    hum = hum_with_remedies(
+        analysis,
+        supplies,
+        None if noise is None else noise.output.noise_a_vrms,
+        [0.0 if n.currents is None else n.currents.nominal_a for n in nodes],
+    )
     return Budget(
         title=chain.settings.title,
         file=chain.file,
@@ -300,7 +311,7 @@ def budget_from(analysis: Analysis) -> Budget:
         input_impedance_ohm=float(abs(1.0 / analysis.nominal.input_admittance[..., 0])),
         source_loss_db=float(db(analysis.nominal.v_in[0][..., 0])),
         nodes=nodes,
-        supplies=supply_budgets(analysis),
+        supplies=supplies,
         first_clip=None if first_clip is None else nodes[first_clip].stage,
         output_stage=None if output_index is None else nodes[output_index].stage,
         volume_clip=None if output_index is None else volume_clip_rotation(analysis, output_index),
@@ -316,6 +327,7 @@ def budget_from(analysis: Analysis) -> Budget:
         curves=headroom_curves(analysis),
         noise=noise,
         output=output_figures(analysis),
+        hum=hum,
     )
 
 

@@ -12,7 +12,7 @@ from chainbudget.budget import Budget, compute
 from chainbudget.budget.levels import NodeLevels
 from chainbudget.chainfile import Chain
 from chainbudget.findings import Finding
-from chainbudget.report import dcbias, noise, power, supplies
+from chainbudget.report import dcbias, hum, noise, power, supplies
 
 
 def json_ready(value: Any) -> Any:
@@ -59,9 +59,11 @@ NODE_PARTS: list[Callable[[Budget, int], dict[str, Any]]] = [
     noise.node_json,
     power.node_json,
     dcbias.node_json,
+    hum.node_json,
 ]
 TOP_PARTS: list[Callable[[Budget], dict[str, Any]]] = [
     noise.json_part,
+    hum.json_part,
     supplies.json_part,
     power.json_part,
 ]

@@ -17,7 +17,7 @@ from rich.text import Text
 from chainbudget.budget import Budget, NodeBudget
 from chainbudget.finding import SEVERITIES, Finding
 from chainbudget.notation import DASH, decibels, eng, settings_text
-from chainbudget.report import dcbias, noise, power, supplies
+from chainbudget.report import dcbias, hum, noise, power, supplies
 from chainbudget.report.tables import add_row, new_table
 from chainbudget.units import vrms_to_dbu
 
@@ -27,7 +27,12 @@ NODE_COLUMNS: list[tuple[str, str, Callable[[Budget, int], str]]] = [
     *noise.NODE_COLUMNS,
     *dcbias.NODE_COLUMNS,
 ]
-TABLES: list[Callable[[Budget], list[Table]]] = [noise.tables, supplies.tables, power.tables]
+TABLES: list[Callable[[Budget], list[Table]]] = [
+    noise.tables,
+    hum.tables,
+    supplies.tables,
+    power.tables,
+]
 
 #: How each severity is marked: its label and its style (the style is dropped under
 #: NO_COLOR or when the output is not a terminal).

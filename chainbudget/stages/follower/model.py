@@ -140,6 +140,15 @@ class Follower(StageKind):
         bias_resistor = stage.optional("bias_resistor")
         if bias_resistor is not None:
             own.resistor("bias_resistor", base, GROUND, bias_resistor)
+            # to the base bias point, a voltage (`base_bias`) no supply names: ideal
+            net.ripple_current(
+                base,
+                1.0 / bias_resistor,
+                rail="bias",
+                label=f"{name}.bias_resistor.ripple",
+                stage=name,
+                path="bias resistor",
+            )
         base_resistor = stage.number("base_resistor")
         if base_resistor > 0.0:
             own.resistor("base_resistor", base, f"{name}.base", base_resistor)
@@ -150,7 +159,20 @@ class Follower(StageKind):
             net, base, emitter, bias.small_signal, label=f"{name}.q", stage=name, temperature_k=t
         )
         if stage.values["bias"] == "resistor":
-            own.resistor("emitter_resistor", emitter, GROUND, stage.number("emitter_resistor"))
+            r_e = stage.number("emitter_resistor")
+            own.resistor("emitter_resistor", emitter, GROUND, r_e)
+            # The emitter resistor returns to the bias rail (NPN: the negative one, whose
+            # ripple a resistor sees inverted; PNP: the positive): its Norton current.
+            npn = bias.polarity > 0
+            net.ripple_current(
+                emitter,
+                1.0 / r_e,
+                rail="negative" if npn else "positive",
+                polarity=-1.0 if npn else 1.0,
+                label=f"{name}.emitter_resistor.ripple",
+                stage=name,
+                path="emitter resistor",
+            )
         if output_cap is not None:
             net.capacitor(emitter, node_out, output_cap)
         part = transistor_part(stage, env)
