@@ -12,6 +12,7 @@ from __future__ import annotations
 import cmath
 import json
 import math
+import tomllib
 from dataclasses import replace
 from pathlib import Path
 
@@ -19,10 +20,10 @@ import numpy as np
 import pytest
 from typer.testing import CliRunner
 
-from chainbudget.budget import compute
+from chainbudget.budget import Budget, compute
 from chainbudget.budget.hum import hum_budget
 from chainbudget.budget.supplies import loaded_analysis, supply_budgets
-from chainbudget.chainfile import load_chain, parse_chain
+from chainbudget.chainfile import Chain, load_chain, parse_chain
 from chainbudget.cli import app
 from chainbudget.supplies.base import SupplyBudget
 
@@ -61,9 +62,7 @@ psrr_corner = "100 Hz"
 """
 
 
-def chain_of(text: str):  # noqa: ANN201 - a Chain
-    import tomllib
-
+def chain_of(text: str) -> Chain:
     return parse_chain(tomllib.loads(HEAD + text), "hum-test.toml")
 
 
@@ -86,9 +85,7 @@ def db20(x: float) -> float:
 # --- the ripple's spectrum ------------------------------------------------------------------
 
 
-def test_a_reservoir_under_a_steady_load_ripples_as_a_sawtooth_of_harmonics_vpp_over_pi_n() -> (
-    None
-):
+def test_a_reservoir_under_a_steady_load_ripples_as_a_sawtooth_of_harmonics_vpp_over_pi_n() -> None:
     """Fourier series of a sawtooth of peak-to-peak V_pp: b_n = V_pp/(pi n) (Kreyszig,
     Advanced Engineering Mathematics, 10th ed., sec. 11.1, the sawtooth f(x) = x on
     (-pi, pi) with b_n = 2(-1)^(n+1)/n). A huge reservoir under a steady current recharges
@@ -200,9 +197,7 @@ bias = "half"
 """
 
 
-def test_a_divider_with_a_capacitor_passes_half_the_ripple_through_a_first_order_low_pass() -> (
-    None
-):
+def test_a_divider_with_a_capacitor_passes_half_the_ripple_through_a_first_order_low_pass() -> None:
     """First-order RC low-pass (Horowitz & Hill, The Art of Electronics, 3rd ed., sec. 1.7.1,
     from memory): R1 = R2 with C across R2 gives v/2 / (1 + j 2 pi f (R1||R2) C) at the bias
     point, phase included (the contract's divider). Then the inverting stage's + input sits
@@ -299,7 +294,7 @@ def plain_nodal_output(f: float, e: complex) -> complex:
     return complex(np.linalg.solve(m, b)[3])
 
 
-def _two_stages(filtered: bool):  # noqa: ANN202 - (budget, rail name)
+def _two_stages(filtered: bool) -> tuple[Budget, str]:
     rail = "clean" if filtered else "raw"
     text = TWO_STAGES.format(filter=FILTER if filtered else "", rail=rail)
     return compute(chain_of(text)), rail
@@ -457,3 +452,79 @@ def test_a_chain_without_mains_ripple_has_no_hum_and_no_hum_table() -> None:
     assert data["hum"]["by_path"] == []
     done = runner.invoke(app, ["check", str(ROOT / "chains" / "busking_amp.toml")])
     assert "Hum by path" not in done.output
+
+
+def test_a_regulator_rejects_the_ripple_as_given_at_its_fundamental_falling_above_its_corner() -> (
+    None
+):
+    """The contract's regulator: ``ripple_rejection`` at twice the line frequency, falling at
+    20 dB/decade above ``ripple_rejection_corner`` (a first-order roll-off, normalised at
+    the fundamental), a real positive factor on each harmonic."""
+    budget = compute(
+        chain_of(
+            """
+[[supply]]
+name = "raw"
+kind = "rectified"
+secondary = "15 V"
+line_frequency = "50 Hz"
+reservoir = "4700 uF"
+regulation = "10 %"
+rated_current = "1 A"
+
+[[supply]]
+name = "clean"
+kind = "regulator"
+from = "raw"
+output = "12 V"
+dropout = "2 V"
+ripple_rejection = "60 dB"
+ripple_rejection_corner = "50 Hz"
+
+[[stage]]
+name = "pre"
+kind = "opamp_gain"
+topology = "non-inverting"
+feedback = "10k"
+ground_leg = "10k"
+opamp = "ideal"
+positive = "clean"
+"""
+        )
+    )
+    raw = dict(budget.supply("raw").ripple_harmonics)
+    for hz, v in budget.supply("clean").ripple_harmonics:
+        factor = 1e-3 * abs(1.0 + 1j * hz / 50.0) / abs(1.0 + 1j * 100.0 / 50.0)
+        assert cmath.isclose(v, raw[hz] * factor, rel_tol=1e-12)
+    assert abs(budget.supply("clean").ripple_harmonics[0][1]) == pytest.approx(
+        1e-3 * abs(raw[100.0]), rel=1e-12, abs=0.0
+    )
+
+
+def test_a_block_with_a_psrr_refers_its_rail_ripple_to_its_input() -> None:
+    """A block's ``psrr``: v_ripple 10^(-psrr/20) at its input, times its open-circuit gain
+    at its output (the Thevenin model; its output impedance into the load: 0.1 ohm into
+    8 ohm loses 1/81.1)."""
+    chain = chain_of(
+        """
+[[supply]]
+name = "plus"
+kind = "dc"
+voltage = "15 V"
+
+[[stage]]
+name = "module"
+kind = "block"
+gain = 10
+input_impedance = "10k"
+output_impedance = "0.1 ohm"
+psrr = "60 dB"
+positive = "plus"
+"""
+    )
+    analysis = loaded_analysis(chain)
+    supplies = with_ripple(supply_budgets(analysis), "plus", 100.0, [2.0 + 0.0j])
+    hum, _ = hum_budget(analysis, supplies, None)
+    expected = 2.0 * 1e-3 * 10.0 * 8.0 / 8.1 / math.sqrt(2.0)
+    assert db20(hum.output_vrms) == pytest.approx(db20(expected), abs=1e-4)
+    assert [p.path for p in hum.paths] == ["V+ pin (PSRR)"]

@@ -225,11 +225,17 @@ def solve_hum(
         elif source.rail == "bias" and rail_of(stage, "negative") is None:
             ideal[stage.name] = None  # single supply, its bias point named after no supply
     transfers, from_source = net.ripple_transfers(outs)  # (H, J, R), (H, J)
-    at_nodes = np.zeros((len(kept), len(outs), frequency.size), dtype=complex)
-    for i, (r, source, rail) in enumerate(kept):
-        spectrum = dict(by_rail[rail].ripple_harmonics)
-        v = np.array([spectrum.get(float(hz), 0j) for hz in frequency], dtype=complex)
-        at_nodes[i] = (transfers[:, :, r] * (source.polarity * v)[:, None]).T
+    spectra = {rail: dict(by_rail[rail].ripple_harmonics) for _, _, rail in kept}
+    # each kept source's rail ripple on the harmonic axis, (H, R_kept)
+    ripple = np.array(
+        [
+            [source.polarity * spectra[rail].get(float(hz), 0j) for _, source, rail in kept]
+            for hz in frequency
+        ],
+        dtype=complex,
+    ).reshape(frequency.size, len(kept))
+    columns = [r for r, _, _ in kept]
+    at_nodes = np.transpose(transfers[:, :, columns] * ripple[:, None, :], (2, 1, 0))
     roots = tuple(root_of(chain, rail) for _, _, rail in kept)
     sources = tuple((source, rail, index[source.stage]) for _, source, rail in kept)
     hum = HumField(frequency, at_nodes, roots, sources, from_source[:, -1])

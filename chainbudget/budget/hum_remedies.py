@@ -210,7 +210,7 @@ def _supply_remedy(ctx: _Context, rail: str, need: float) -> HumRemedy | None:
         supply.name,
         f'give supply "{supply.name}" {remedy.key} = "{remedy.written}"{was}',
         expected,
-        {f"{remedy.key}_si": remedy.value},
+        {remedy.key: remedy.value},
         ((f"{supply.name}.{remedy.key}", remedy.written),),
     )
 
