@@ -21,7 +21,7 @@ import pytest
 from typer.testing import CliRunner
 
 from chainbudget.budget import Budget, compute
-from chainbudget.budget.hum import hum_budget
+from chainbudget.budget.hum import hum_budget, solve_hum
 from chainbudget.budget.supplies import loaded_analysis, supply_budgets
 from chainbudget.chainfile import Chain, load_chain, parse_chain
 from chainbudget.cli import app
@@ -528,3 +528,104 @@ positive = "plus"
     expected = 2.0 * 1e-3 * 10.0 * 8.0 / 8.1 / math.sqrt(2.0)
     assert db20(hum.output_vrms) == pytest.approx(db20(expected), abs=1e-4)
     assert [p.path for p in hum.paths] == ["V+ pin (PSRR)"]
+
+
+def test_hum_travels_backwards_from_a_bias_point_through_the_input_resistor() -> None:
+    """An inverting stage holds its summing node at its + input, here the ripple of a named
+    bias divider: through its input resistor that drives the node before it, whose source
+    resistance R_th (the volume's wiper: x P || ((1 - x) P + R_s)) divides it:
+    v_before = v_b R_th / (R_th + R_i) (Ohm's law with a virtual short; rtol 1e-4 for the
+    120 dB loop)."""
+    chain = chain_of(
+        """
+[[supply]]
+name = "plus"
+kind = "dc"
+voltage = "15 V"
+
+[[supply]]
+name = "half"
+kind = "divider"
+from = "plus"
+upper = "10k"
+lower = "10k"
+
+[[stage]]
+name = "volume"
+kind = "volume"
+pot = "10k"
+taper = "linear"
+position = 0.3
+
+[[stage]]
+name = "inv"
+kind = "opamp_gain"
+topology = "inverting"
+input = "10k"
+feedback = "47k"
+opamp = "ideal"
+positive = "plus"
+bias = "half"
+"""
+    )
+    analysis = loaded_analysis(chain)
+    supplies = with_ripple(supply_budgets(analysis), "half", 100.0, [0.01 + 0.0j])
+    hum, _ = hum_budget(analysis, supplies, None)
+    x, pot, r_s, r_i = 0.3, 10e3, 1e3, 10e3
+    lower, upper = x * pot, (1.0 - x) * pot + r_s
+    r_th = lower * upper / (lower + upper)
+    expected = 0.01 * r_th / (r_th + r_i) / math.sqrt(2.0)
+    assert hum.node_vrms[0] == pytest.approx(expected, rel=1e-4, abs=0.0)
+
+
+def test_a_follower_takes_its_negative_rails_ripple_inverted_through_its_emitter_resistor() -> None:
+    """An NPN follower's emitter resistor returns to the negative rail: its ripple v reaches
+    the emitter as the Norton current v/R_E into R_E || Z_e || R_L, Z_e = r_e + (R_s +
+    r_bb')/(beta + 1) looking into the emitter (Horowitz & Hill, 3rd ed., sec. 2.2.3, from
+    memory), and inverted: a resistor sees a negative rail's ripple as the circuit does."""
+    chain = chain_of(
+        """
+[[supply]]
+name = "plus"
+kind = "dc"
+voltage = "15 V"
+
+[[supply]]
+name = "minus"
+kind = "dc"
+voltage = "15 V"
+
+[[stage]]
+name = "buffer"
+kind = "follower"
+transistor = "small_npn"
+bias = "resistor"
+emitter_resistor = "1k5"
+base_bias = "0 V"
+positive = "plus"
+negative = "minus"
+"""
+    )
+    analysis = loaded_analysis(chain)
+    supplies = with_ripple(supply_budgets(analysis), "minus", 100.0, [0.1 + 0.0j])
+    hum, _ = solve_hum(analysis, supplies)
+    assert hum is not None
+    (source, rail, _k), phasor = hum.sources[0], hum.at_nodes[0, -1, 0]
+    assert (source.path, rail) == ("emitter resistor", "minus")
+    node = budget_node_emitter_current(chain)
+    vt = 1.380649e-23 * (25.0 + 273.15) / 1.602176634e-19
+    beta, r_bb = 200.0, 100.0
+    r_e = vt / node
+    z_e = r_e + (1e3 + r_bb) / (beta + 1.0)
+    r_e_bias, r_load = 1.5e3, 8.0
+    shunt = 1.0 / (1.0 / r_e_bias + 1.0 / z_e + 1.0 / r_load)
+    expected = -0.1 / r_e_bias * shunt
+    assert phasor.real == pytest.approx(expected, rel=1e-3, abs=0.0)
+    assert abs(phasor.imag) < 1e-6 * abs(expected)
+
+
+def budget_node_emitter_current(chain: Chain) -> float:
+    """The follower's bias current, I_E = (V_B - V_BE - V-)/R_E with its base driven at the
+    0 V bias point and no resistor in its base lead (Horowitz & Hill sec. 2.2.5, from
+    memory), A."""
+    return (0.0 - 0.65 + 15.0) / 1.5e3
