@@ -87,6 +87,14 @@ def verdict_lines(budget: Budget, found: list[Finding]) -> list[Text]:
                 f"{decibels(out.snr_db, signed=False)} dB unweighted; floor set by {out.set_by}"
             )
         )
+    hum = budget.hum
+    if hum is not None and hum.dominant is not None:
+        lines.append(
+            Text(
+                f"  hum: {eng(hum.output_a_vrms, 'V')}(A), {decibels(hum.hum_to_noise_db)} dB "
+                f"re the noise; largest path {hum.dominant.stage} ({hum.dominant.path})"
+            )
+        )
     out_fig = budget.output
     if out_fig is not None:
         spl = out_fig.max_spl_db
