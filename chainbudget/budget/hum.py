@@ -93,8 +93,8 @@ class HumRemedy:
     ``"reservoir"``), a ``"filter"`` or a regulator (``"regulate"``) put in front of the
     stage; ``text`` says it in words with its values;
     ``values`` holds them (SI) for scripts and tests; ``edits`` the file's values that
-    change as (table path, value as written) pairs, where the change is one of values
-    (an added supply is in ``text``).
+    change, as (table path, value as written) pairs for `Chain.with_values`; a filter
+    remedy also adds the supplies its ``text`` names, which must be written in first.
     """
 
     what: str
