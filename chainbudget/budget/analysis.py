@@ -8,12 +8,13 @@ on a fine axis at the reference frequency (the rotation at which the output clip
 from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import cast
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
+from chainbudget.budget.dcbias import dc_walk
 from chainbudget.budget.rails import stage_rails, supply_voltages
 from chainbudget.cascade import Cascade, sections, solve_cascade
 from chainbudget.chainfile import Chain, ChainFileError
@@ -81,11 +82,13 @@ def environments(
     chain: Chain, corner: str = "nominal", voltages: Mapping[str, Corners] | None = None
 ) -> tuple[Environment, ...]:
     """Each stage's environment: temperature, parts and rails at a supply corner (of the
-    unloaded tree unless ``voltages`` are given)."""
+    unloaded tree unless ``voltages`` are given), and the DC at its input as the chain's DC
+    walk finds it (`chainbudget.budget.dcbias.dc_walk`), so a DC-coupled stage is built at
+    the operating point the DC check reports."""
     if voltages is None:
         voltages = supply_voltages(chain)
     temperature = chain.settings.ambient + zero_celsius_k
-    return tuple(
+    envs = tuple(
         Environment(
             temperature,
             chain.opamps,
@@ -94,6 +97,10 @@ def environments(
             chain.load.impedance,
         )
         for stage in chain.stages
+    )
+    walked = dc_walk(chain.stages, envs)
+    return tuple(
+        replace(env, dc_input_v=point.input_v) for env, point in zip(envs, walked, strict=True)
     )
 
 

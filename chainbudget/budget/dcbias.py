@@ -10,12 +10,16 @@ again.
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
-from chainbudget.budget.analysis import Analysis
 from chainbudget.loops import Section, sections
 from chainbudget.stages import KINDS
-from chainbudget.stages.base import DcWindow
+from chainbudget.stages.base import DcWindow, Environment, Stage
+
+if TYPE_CHECKING:
+    from chainbudget.budget.analysis import Analysis
 
 #: DC potential of the source, V. A source with a DC offset of its own is outside the model:
 #: a signal source is AC-coupled or sits at 0 V (common practice, no source).
@@ -126,6 +130,11 @@ def _clamp(value: float | None, window: DcWindow | None) -> float | None:
 
 
 def dc_points(analysis: Analysis) -> tuple[DcPoint, ...]:
+    """The DC operating point of every stage of an analysed chain (`dc_walk`)."""
+    return dc_walk(analysis.chain.stages, analysis.envs)
+
+
+def dc_walk(stages: Sequence[Stage], envs: Sequence[Environment]) -> tuple[DcPoint, ...]:
     """The DC operating point of every stage, from the source (0 V DC) to the load.
 
     Notes
@@ -135,12 +144,11 @@ def dc_points(analysis: Analysis) -> tuple[DcPoint, ...]:
     bias point is 0 V, so a 0 V source leaves every op-amp node at 0 V. A loop section
     (`_loop_points`) holds its sensed node where its first stage's feedback puts it.
     """
-    stages, envs = analysis.chain.stages, analysis.envs
     points: list[DcPoint] = []
     dc_in: float | None = SOURCE_DC_V
     for section in sections(stages):
         if section.is_loop:
-            found = _loop_points(analysis, section, dc_in)
+            found = _loop_points(stages, envs, section, dc_in)
             points += found
             dc_in = found[-1].node_v
             continue
@@ -151,7 +159,7 @@ def dc_points(analysis: Analysis) -> tuple[DcPoint, ...]:
         output = kind.dc_output(stage, env, dc_in)
         node = _clamp(output, window)
         if not kind.output_defined(stage):
-            node = _rest(analysis, k)
+            node = _rest(stages, envs, k)
         points.append(
             DcPoint(
                 stage.name,
@@ -168,16 +176,17 @@ def dc_points(analysis: Analysis) -> tuple[DcPoint, ...]:
     return tuple(points)
 
 
-def _rest(analysis: Analysis, k: int) -> float | None:
+def _rest(stages: Sequence[Stage], envs: Sequence[Environment], k: int) -> float | None:
     """Where the node behind stage k's output capacitor rests: the next stage's input, or
     the load."""
-    stages, envs = analysis.chain.stages, analysis.envs
     if k + 1 >= len(stages):
         return LOAD_DC_V
     return KINDS[stages[k + 1].kind].dc_rest(stages[k + 1], envs[k + 1])
 
 
-def _loop_points(analysis: Analysis, section: Section, dc_in: float | None) -> list[DcPoint]:
+def _loop_points(
+    stages: Sequence[Stage], envs: Sequence[Environment], section: Section, dc_in: float | None
+) -> list[DcPoint]:
     """DC points of a loop section.
 
     Notes
@@ -192,7 +201,6 @@ def _loop_points(analysis: Analysis, section: Section, dc_in: float | None) -> l
     stage sensed inside itself (`StageKind.sense_node`, before its output capacitor) is
     held there, and its output node rests where the load returns it.
     """
-    stages, envs = analysis.chain.stages, analysis.envs
     head = section.first
     inside = list(section.indices)[1:]
     last = stages[section.last]
@@ -216,7 +224,7 @@ def _loop_points(analysis: Analysis, section: Section, dc_in: float | None) -> l
         output = needed[j]
         node = _clamp(output, window)
         if j == section.last and not kind.output_defined(stages[j]):
-            node = _rest(analysis, j)
+            node = _rest(stages, envs, j)
         points.append(
             DcPoint(
                 stages[j].name,
