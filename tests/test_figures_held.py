@@ -12,7 +12,11 @@ Chains added since have no figures held.
 Changed on purpose since, each by a commit that says why: the ``thin-headroom`` warning on
 ``opamp_into_push_pull``'s driver is gone (the ``drive-shortfall`` error names its cause);
 the kitchen radio's ``divider_suggestion`` is null (a pair worse than the file's own is no
-suggestion).
+suggestion); ``violin_piezo_preamp``'s piezo is a 1 nF capacitance with 1 kohm of loss in
+series instead of a 470 kohm resistor (a reactive source's noise is 4kT Re Z_S): its noise
+figures, noise sources and ``noise_set_by`` ("buffer", no longer "source") moved, and its
+levels by about 1e-9 relative (a different source impedance against the buffer's floating
+input).
 """
 
 from __future__ import annotations
