@@ -17,6 +17,7 @@ import numpy as np
 import pytest
 from scipy import integrate
 from scipy.constants import k as BOLTZMANN
+from test_offset import LOOP, offset_of
 
 from chainbudget.budget import compute
 from chainbudget.budget.analysis import analyse
@@ -348,7 +349,6 @@ def test_source_impedance_is_r_plus_reactances() -> None:
         ('capacitance = "1 nH"', "source.capacitance"),
         ('inductance = "3 F"', "source.inductance"),
         ('inductance = "-2 H"', "source.inductance"),
-        ("capacitance = true", "source.capacitance"),
     ],
 )
 def test_bad_reactive_source_values_give_one_line_and_exit_2(
@@ -383,3 +383,64 @@ def test_the_violin_demos_floor_is_set_by_its_op_amps_not_by_its_piezo() -> None
     assert budget.nodes[-1].noise.set_by != "source"
     source = [s.share for s in budget.noise.stage_shares if s.stage_index < 0]
     assert source and source[0] < 0.01
+
+
+# --- DC: a piezo passes none ------------------------------------------------------------------
+
+DC_COUPLED = """
+[chain]
+band = ["20 Hz", "20 kHz"]
+[source]
+level = "100 mV"
+impedance = "1 kohm"
+{extra}
+[load]
+impedance = "10 kohm"
+[[supply]]
+name = "rail"
+kind = "dc"
+voltage = "9 V"
+[[stage]]
+name = "pre"
+kind = "opamp_gain"
+topology = "non-inverting"
+feedback = "10k"
+ground_leg = "10k"
+ground_cap = "10u"
+opamp = "low_noise_bipolar"
+{bias}
+"""
+
+
+@pytest.mark.parametrize(
+    ("extra", "bias", "floats"),
+    [
+        ("", "", False),  # a resistive source is the + input's DC path
+        ('inductance = "2 H"', "", False),  # so is a pickup's coil
+        ('capacitance = "1 nF"', "", True),  # a piezo is an open circuit at DC
+        ('capacitance = "1 nF"', 'bias_resistor = "10 Mohm"', False),
+    ],
+)
+def test_a_piezo_straight_into_a_plus_input_leaves_it_without_a_dc_path(
+    extra: str, bias: str, floats: bool
+) -> None:
+    """A capacitor passes no DC (common practice, no source): a DC-coupled + input fed by a
+    piezo needs its own bias resistor, and ``no-dc-path`` says so."""
+    budget = compute(chain_of(DC_COUPLED.format(extra=extra, bias=bias)))
+    codes = [fi.code for fi in budget.findings]
+    assert ("no-dc-path" in codes) is floats
+
+
+def test_behind_a_piezo_the_bias_current_meets_the_bias_resistor() -> None:
+    """A DC-coupled non-inverting stage with a ground-leg capacitor (DC noise gain 1) behind a
+    piezo: |V_os| + I_b (R_f + R_+), R_+ the 1 Mohm bias resistor, since the piezo passes no
+    DC (Franco, Design with Operational Amplifiers, 4th ed., sec. 5.1-5.2, input offset
+    error, from memory): 2 mV + 500 nA x 1.022 Mohm = 513 mV at the speaker. With a
+    resistive source the + input is driven from a stiff 0 V (the source): 2 mV + 11 mV."""
+    leg = 'ground_leg = "1k"\nground_cap = "220u"\nbias_resistor = "1 Mohm"'
+    resistive = LOOP.format(topology="non-inverting", leg=leg)
+    piezo = resistive.replace(
+        'impedance = "600 ohm"', 'impedance = "600 ohm"\ncapacitance = "1 nF"'
+    )
+    assert offset_of(resistive)[0] == pytest.approx(2e-3 + 500e-9 * 22e3, rel=1e-9)
+    assert offset_of(piezo)[0] == pytest.approx(2e-3 + 500e-9 * (22e3 + 1e6), rel=1e-9)
