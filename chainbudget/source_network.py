@@ -33,10 +33,20 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from chainbudget import fields as f
+from chainbudget import plausible
 from chainbudget.loudspeaker import INDUCTANCE
 from chainbudget.notation import eng
 
 Complex = NDArray[np.complexfloating[Any, Any]]
+
+
+def _read_source_inductance(value: object) -> float:
+    """An inductance above zero (`chainbudget.loudspeaker.INDUCTANCE`) within the range
+    `plausible.SOURCE_INDUCTANCE` holds for a source."""
+    return plausible.SOURCE_INDUCTANCE.check(value, INDUCTANCE.read(value), INDUCTANCE.read)
+
+
+SOURCE_INDUCTANCE = f.FieldKind(INDUCTANCE.unit, _read_source_inductance, INDUCTANCE.write)
 
 #: The reactive parts of ``[source]``, each in series with its ``impedance``.
 SOURCE_REACTIVE_FIELDS: tuple[f.Field, ...] = (
@@ -48,7 +58,7 @@ SOURCE_REACTIVE_FIELDS: tuple[f.Field, ...] = (
     ),
     f.Field(
         "inductance",
-        INDUCTANCE,
+        SOURCE_INDUCTANCE,
         "in series with the impedance: an inductive source (magnetic pickup)",
         None,
     ),

@@ -18,12 +18,14 @@ import pytest
 from scipy import integrate
 from scipy.constants import k as BOLTZMANN
 from test_offset import LOOP, offset_of
+from typer.testing import CliRunner
 
 from chainbudget.budget import compute
 from chainbudget.budget.analysis import analyse
 from chainbudget.budget.noise_spectra import noise_spectra
 from chainbudget.budget.response import Setting, chain_response
 from chainbudget.chainfile import Chain, load_chain, parse_chain
+from chainbudget.cli import app
 from chainbudget.network import GMIN, POT_END_FRACTION, SOURCE_FLOOR_OHM
 from chainbudget.report.json_view import report_json
 from chainbudget.source_network import source_impedance
@@ -348,7 +350,7 @@ def test_source_impedance_is_r_plus_reactances() -> None:
         ('capacitance = "-1 nF"', "source.capacitance"),
         ('capacitance = "1 nH"', "source.capacitance"),
         ('inductance = "3 F"', "source.inductance"),
-        ('inductance = "-2 H"', "source.inductance"),
+        ('inductance = "300 H"', "source.inductance"),  # past plausible.SOURCE_INDUCTANCE
     ],
 )
 def test_bad_reactive_source_values_give_one_line_and_exit_2(
@@ -444,3 +446,15 @@ def test_behind_a_piezo_the_bias_current_meets_the_bias_resistor() -> None:
     )
     assert offset_of(resistive)[0] == pytest.approx(2e-3 + 500e-9 * 22e3, rel=1e-9)
     assert offset_of(piezo)[0] == pytest.approx(2e-3 + 500e-9 * (22e3 + 1e6), rel=1e-9)
+
+
+def test_the_report_names_the_sources_parts() -> None:
+    """The report's second line gives a reactive source's parts in series; the noise figure
+    row says its reference is Re Z_S (80 columns: tests/test_report.py checks every example)."""
+    result = CliRunner().invoke(
+        app,
+        ["check", str(ROOT / "chains" / "violin_piezo_preamp.toml")],
+        env={"COLUMNS": "80", "NO_COLOR": "1"},
+    )
+    assert "(1 kohm + 1 nF)" in " ".join(result.output.split())
+    assert "vs 1 kohm (Re Zs)" in result.output

@@ -210,7 +210,7 @@ def loading_table(budget: Budget) -> Table:
     return table
 
 
-def _reactive_source(budget: Budget) -> str:
+def reactive_source_text(budget: Budget) -> str:
     """ " (1 kohm + 1 nF)": a piezo's or pickup's impedance, its parts in series; else ""."""
     if budget.source_capacitance_f is None and budget.source_inductance_h is None:
         return ""
@@ -230,7 +230,7 @@ def render(budget: Budget, found: list[Finding], console: Console, brief: bool =
             f"reference {eng(budget.reference_hz, 'Hz')}, band {eng(budget.band_hz[0], 'Hz')} "
             f"to {eng(budget.band_hz[1], 'Hz')}, ambient {budget.ambient_degc:g} degC; source "
             f"{eng(budget.source_level_vrms, 'Vrms')} nominal, "
-            f"{eng(budget.source_max_level_vrms, 'Vrms')} max{_reactive_source(budget)}; "
+            f"{eng(budget.source_max_level_vrms, 'Vrms')} max{reactive_source_text(budget)}; "
             f"load {eng(budget.load_ohm, 'ohm')}"
         )
     )
