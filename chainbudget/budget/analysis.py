@@ -20,6 +20,7 @@ from chainbudget.cascade import Cascade, sections, solve_cascade
 from chainbudget.chainfile import Chain, ChainFileError
 from chainbudget.loudspeaker import load_impedance
 from chainbudget.network import SingularNetwork
+from chainbudget.source_network import source_impedance
 from chainbudget.spectrum import log_frequency_grid, zero_celsius_k
 from chainbudget.stages import KINDS
 from chainbudget.stages.base import Control, Environment, Stage
@@ -98,7 +99,7 @@ def environments(
         )
         for stage in chain.stages
     )
-    walked = dc_walk(chain.stages, envs)
+    walked = dc_walk(chain, envs)
     return tuple(
         replace(env, dc_input_v=point.input_v) for env, point in zip(envs, walked, strict=True)
     )
@@ -116,15 +117,18 @@ def solve_chain(
     positions: Sequence[Mapping[str, object]],
 ) -> Cascade:
     """Solve every stage (a loop section as one network) and cascade them between the
-    source and the load (its impedance on the frequency axis).
+    source and the load, both impedances on the frequency axis (a reactive source's
+    `chainbudget.source_network.source_impedance`, a loudspeaker's
+    `chainbudget.loudspeaker.load_impedance`).
 
     A singular network is an input error: it is reported with the stage (or the loop
     section's first stage) whose network it is.
     """
     load = load_impedance(chain.load, frequency)
+    source = source_impedance(chain.source, frequency)
     settings = cast(Sequence[Mapping[str, ArrayLike]], positions)
     try:
-        return solve_cascade(chain.stages, envs, frequency, settings, chain.source.impedance, load)
+        return solve_cascade(chain.stages, envs, frequency, settings, source, load)
     except SingularNetwork as exc:
         for section in sections(chain.stages):
             try:
@@ -133,7 +137,7 @@ def solve_chain(
                     envs[section.first : section.last + 1],
                     frequency,
                     settings[section.first : section.last + 1],
-                    chain.source.impedance,
+                    source,
                     load,
                 )
             except SingularNetwork:

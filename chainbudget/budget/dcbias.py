@@ -11,9 +11,10 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import TYPE_CHECKING
 
+from chainbudget.chainfile import Chain
 from chainbudget.loops import Section, sections
 from chainbudget.stages import KINDS
 from chainbudget.stages.base import DcWindow, Environment, Stage
@@ -29,6 +30,26 @@ SOURCE_DC_V = 0.0
 LOAD_DC_V = 0.0
 #: A DC this close to the edge of an output's range counts as at the edge (rounding only).
 EDGE_TOLERANCE_V = 1e-9
+
+
+def stages_at_dc(chain: Chain) -> tuple[Stage, ...]:
+    """The chain's stages as DC sees them.
+
+    A capacitive source (a piezo) passes no DC, as a series capacitor does: where the first
+    stage's kind has an ``input_cap`` and it is left out, the source's capacitance stands in
+    for it, so the stage's own DC rules (its bias resistor, the DC resistance its input
+    current meets, a floating + input) apply as they do behind a coupling capacitor.
+    """
+    stages = chain.stages
+    capacitance = chain.source.capacitance
+    if capacitance is None or not stages:
+        return stages
+    first = stages[0]
+    keys = {field.key for field in KINDS[first.kind].fields}
+    if "input_cap" not in keys or first.values.get("input_cap") is not None:
+        return stages
+    seen = replace(first, values={**first.values, "input_cap": capacitance})
+    return (seen, *stages[1:])
 
 
 @dataclass(frozen=True)
@@ -131,21 +152,29 @@ def _clamp(value: float | None, window: DcWindow | None) -> float | None:
 
 def dc_points(analysis: Analysis) -> tuple[DcPoint, ...]:
     """The DC operating point of every stage of an analysed chain (`dc_walk`)."""
-    return dc_walk(analysis.chain.stages, analysis.envs)
+    return dc_walk(analysis.chain, analysis.envs)
 
 
-def dc_walk(stages: Sequence[Stage], envs: Sequence[Environment]) -> tuple[DcPoint, ...]:
-    """The DC operating point of every stage, from the source (0 V DC) to the load.
+def dc_walk(chain: Chain, envs: Sequence[Environment]) -> tuple[DcPoint, ...]:
+    """The DC operating point of every stage, from the source (0 V DC) to the load, each
+    stage in its environment ``envs[k]``.
 
     Notes
     -----
     Pots at their settings. A node behind an output capacitor sits where the next stage's
     input returns it (`StageKind.dc_rest`), or at 0 V through the load. On split rails every
     bias point is 0 V, so a 0 V source leaves every op-amp node at 0 V. A loop section
-    (`_loop_points`) holds its sensed node where its first stage's feedback puts it.
+    (`_loop_points`) holds its sensed node where its first stage's feedback puts it. A
+    capacitive source (a piezo) passes no DC: the first input rests where its own stage
+    returns it, as behind a series capacitor.
     """
+    stages = stages_at_dc(chain)
     points: list[DcPoint] = []
     dc_in: float | None = SOURCE_DC_V
+    if chain.source.capacitance is not None and stages:
+        # A piezo blocks DC: the first input rests where its own stage returns it, as behind
+        # a series capacitor.
+        dc_in = KINDS[stages[0].kind].dc_rest(stages[0], envs[0])
     for section in sections(stages):
         if section.is_loop:
             found = _loop_points(stages, envs, section, dc_in)
@@ -253,7 +282,7 @@ def dc_errors(analysis: Analysis) -> tuple[float | None, ...]:
     gives the error at the sensed node, its loop gain taking out what the stages inside
     add (their V_BE differences divided by A0 beta); the nodes inside are left unknown.
     """
-    stages, envs = analysis.chain.stages, analysis.envs
+    stages, envs = stages_at_dc(analysis.chain), analysis.envs
     found: list[float | None] = []
     error: float | None = 0.0  # the source sits at 0 V DC, exactly
     for section in sections(stages):
