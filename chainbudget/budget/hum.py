@@ -213,6 +213,8 @@ def solve_hum(
         positions_as_set(stages),
         float(np.real(chain.source.impedance)),
         load,
+        source_capacitance=chain.source.capacitance,
+        source_inductance=chain.source.inductance,
     )
     index = {stage.name: k for k, stage in enumerate(stages)}
     kept: list[tuple[int, RippleSource, str]] = []

@@ -100,6 +100,11 @@ def budget_json(budget: Budget, found: list[Finding]) -> dict[str, Any]:
             "impedance_ohm": budget.source_impedance_ohm,
             "input_impedance_ohm": budget.input_impedance_ohm,
             "loss_db": budget.source_loss_db,
+            # A reactive source (docs/format.md): impedance_ohm is |Z_S| at the reference.
+            "capacitance_f": budget.source_capacitance_f,
+            "inductance_h": budget.source_inductance_h,
+            "worst_loss_db": budget.source_loss_worst_db,
+            "worst_loss_hz": budget.source_loss_worst_hz,
         },
         "nodes": nodes,
         "first_clip": budget.first_clip,

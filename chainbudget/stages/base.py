@@ -74,6 +74,9 @@ class Environment:
     #: Small-signal model at idle instead of at the conduction point: an output pair with
     #: both halves conducting at their quiescent current (kinds without one ignore it).
     idle: bool = False
+    #: DC at the stage's input node as the chain's DC walk finds it (`budget.dcbias`), V;
+    #: None: unknown or not yet walked. A DC-coupled follower's base sits there.
+    dc_input_v: float | None = None
 
 
 @dataclass(frozen=True)

@@ -99,8 +99,8 @@ class Follower(StageKind):
         f.Field(
             "base_bias",
             f.VOLTAGE,
-            "quiescent voltage the base is driven from (default: mid-rail single "
-            "supply, 0 V split)",
+            "quiescent voltage the base is driven from (default: behind input_cap "
+            "mid-rail single supply, 0 V split; DC-coupled, the DC of the stage before)",
             None,
         ),
         *_RAILS,
@@ -253,7 +253,7 @@ class Follower(StageKind):
         else:
             low, high = rails.negative + part.vce_sat, rails.positive - compliance
         return DcWindow(
-            follower_bias(stage, env).emitter_v,
+            follower_bias(stage, env, rails.bias).emitter_v,
             low,
             high,
             "couple its base through input_cap with bias_resistor to base_bias, or set "
