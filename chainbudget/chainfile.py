@@ -32,6 +32,7 @@ from chainbudget.parts import (
     OpAmp,
     Transistor,
 )
+from chainbudget.source_network import SOURCE_REACTIVE_FIELDS
 from chainbudget.stages import KINDS as STAGE_KINDS
 from chainbudget.stages.base import Stage
 from chainbudget.supplies import KINDS as SUPPLY_KINDS
@@ -82,6 +83,7 @@ SOURCE_FIELDS = (
     f.Field("level", f.LEVEL, "nominal programme level (sine-equivalent)"),
     f.Field("max_level", f.LEVEL, "hottest level the input must take (default: level)", None),
     f.Field("impedance", f.SOURCE_IMPEDANCE, "source output impedance (resistive)", 0.0),
+    *SOURCE_REACTIVE_FIELDS,
 )
 LOAD_FIELDS = (
     f.Field("impedance", f.LOAD_IMPEDANCE, "nominal load (loudspeaker) impedance"),
@@ -112,11 +114,15 @@ class Settings:
 
 @dataclass(frozen=True)
 class Source:
-    """What feeds the first stage: levels as rms V, impedance ohm."""
+    """What feeds the first stage: levels as rms V (open circuit), impedance ohm; optionally
+    a series capacitance (F) and inductance (H), which make it
+    `chainbudget.source_network.source_impedance` at every frequency."""
 
     level: float
     max_level: float
     impedance: float
+    capacitance: float | None = None
+    inductance: float | None = None
 
 
 @dataclass(frozen=True)

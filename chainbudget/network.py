@@ -109,6 +109,39 @@ class NoiseSource:
     rhs: tuple[tuple[Ref, Complex], ...]
 
 
+@dataclass(frozen=True)
+class RippleSource:
+    """One way supply ripple enters a netlist (the hum budget's injections).
+
+    Attributes
+    ----------
+    label : str
+        Unique name, e.g. ``"pre.opamp.psrr+"``.
+    stage : str
+        The stage it belongs to.
+    path : str
+        What carries the ripple in, for the report (``"V+ pin (PSRR)"``, ``"bias"``).
+    rail : str
+        The stage's rail it comes from, by role: ``"positive"``, ``"negative"`` or
+        ``"bias"`` (the supply its ``bias`` names); the hum budget resolves the role to a
+        supply, and drops a source whose role names none (ground, an ideal bias point).
+    polarity : float
+        +1 or -1: the factor on the rail's ripple as its supply reports it (a magnitude's
+        ripple; a resistor to a negative rail sees it inverted, a PSRR source does not).
+    rhs : tuple of (Ref, ndarray)
+        Where one volt of the rail's ripple enters the right-hand side of the MNA system,
+        with its coefficient on the frequency axis (a current into a node, or a voltage in a
+        branch's equation).
+    """
+
+    label: str
+    stage: str
+    path: str
+    rail: str
+    polarity: float
+    rhs: tuple[tuple[Ref, Complex], ...]
+
+
 @dataclass
 class _Stamp:
     rows: tuple[int, ...]
@@ -131,6 +164,7 @@ class Netlist:
     nodes: dict[str, int] = field(default_factory=dict)
     branches: dict[str, int] = field(default_factory=dict)
     noise: list[NoiseSource] = field(default_factory=list)
+    ripple: list[RippleSource] = field(default_factory=list)
     _stamps: list[_Stamp] = field(default_factory=list)
     _branch_stamps: list[tuple[str, list[tuple[str, float]], list[tuple[str, Complex]]]] = field(
         default_factory=list
@@ -337,6 +371,77 @@ class Netlist:
         """A noise voltage entering the equation of ``branch`` with ``coefficient`` (V^2/Hz)."""
         rhs = ((branch, np.asarray(coefficient, complex)),)
         self.noise.append(NoiseSource(label, stage, part, kind, self._density(psd), rhs))
+
+    # --- ripple injections (the hum budget) ------------------------------------------------
+    def ripple_current(
+        self,
+        node: str,
+        coefficient: ArrayLike,
+        *,
+        rail: str,
+        label: str,
+        stage: str,
+        path: str,
+        polarity: float = 1.0,
+    ) -> None:
+        """Ripple entering ``node`` as a current of ``coefficient`` A per volt of the rail's
+        ripple (a resistor R to a rippling rail: its Norton form, 1/R, beside the resistor
+        stamped to ground)."""
+        if node == GROUND:
+            return
+        rhs = ((node_ref(node), self._on_axis(coefficient)),)
+        self.ripple.append(RippleSource(label, stage, path, rail, polarity, rhs))
+
+    def ripple_voltage_at(
+        self,
+        branch: Ref,
+        coefficient: ArrayLike,
+        *,
+        rail: str,
+        label: str,
+        stage: str,
+        path: str,
+        polarity: float = 1.0,
+    ) -> None:
+        """Ripple entering the equation of ``branch`` with ``coefficient`` per volt of the
+        rail's ripple (an input-referred source at an op-amp's + input: its open-loop gain
+        times the rejection's factor)."""
+        rhs = ((branch, self._on_axis(coefficient)),)
+        self.ripple.append(RippleSource(label, stage, path, rail, polarity, rhs))
+
+    def _on_axis(self, value: ArrayLike) -> Complex:
+        array = np.asarray(value, complex)
+        return np.broadcast_to(array, np.broadcast_shapes(array.shape, self.frequency.shape))
+
+    def ripple_transfers(self, nodes: list[str]) -> tuple[Complex, Complex]:
+        """Every ripple source's transfer to each of ``nodes``, and the source branch's.
+
+        Returns ``(to_nodes, from_source)``: ``to_nodes`` with shape ``batch + (F, J, R)``,
+        the voltage at node j per volt of ripple on source r's rail; ``from_source`` with
+        shape ``batch + (F, J)``, the voltage at node j per volt of a voltage source named
+        ``source`` where the netlist has one (zeros otherwise).
+
+        Notes
+        -----
+        One batched solve M X = B with a right-hand side per ripple source (and one for the
+        signal source), frequency an array axis: superposition, each source alone with the
+        others (and the signal source) at zero (Ho, Ruehli & Brennan, IEEE Trans. CAS-22
+        (1975) 504).
+        """
+        m = self.matrix()
+        count = len(self.ripple)
+        b = np.zeros((*m.shape[:-1], count + 1), dtype=complex)
+        for r, source in enumerate(self.ripple):
+            for ref, coefficient in source.rhs:
+                index = self.index(ref)
+                if index >= 0:
+                    b[..., index, r] += coefficient
+        if "source" in self.branches:
+            b[..., self.index(branch_ref("source")), count] = 1.0
+        x = _solved(m, b)
+        rows = [self.nodes[name] for name in nodes]
+        picked = x[..., rows, :]
+        return picked[..., :count], picked[..., count]
 
     def _density(self, psd: ArrayLike) -> NDArray[np.float64]:
         density = np.asarray(psd, float)

@@ -8,17 +8,19 @@ on a fine axis at the reference frequency (the rotation at which the output clip
 from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import cast
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
+from chainbudget.budget.dcbias import dc_walk
 from chainbudget.budget.rails import stage_rails, supply_voltages
 from chainbudget.cascade import Cascade, sections, solve_cascade
 from chainbudget.chainfile import Chain, ChainFileError
 from chainbudget.loudspeaker import load_impedance
 from chainbudget.network import SingularNetwork
+from chainbudget.source_network import source_impedance
 from chainbudget.spectrum import log_frequency_grid, zero_celsius_k
 from chainbudget.stages import KINDS
 from chainbudget.stages.base import Control, Environment, Stage
@@ -81,11 +83,13 @@ def environments(
     chain: Chain, corner: str = "nominal", voltages: Mapping[str, Corners] | None = None
 ) -> tuple[Environment, ...]:
     """Each stage's environment: temperature, parts and rails at a supply corner (of the
-    unloaded tree unless ``voltages`` are given)."""
+    unloaded tree unless ``voltages`` are given), and the DC at its input as the chain's DC
+    walk finds it (`chainbudget.budget.dcbias.dc_walk`), so a DC-coupled stage is built at
+    the operating point the DC check reports."""
     if voltages is None:
         voltages = supply_voltages(chain)
     temperature = chain.settings.ambient + zero_celsius_k
-    return tuple(
+    envs = tuple(
         Environment(
             temperature,
             chain.opamps,
@@ -94,6 +98,10 @@ def environments(
             chain.load.impedance,
         )
         for stage in chain.stages
+    )
+    walked = dc_walk(chain, envs)
+    return tuple(
+        replace(env, dc_input_v=point.input_v) for env, point in zip(envs, walked, strict=True)
     )
 
 
@@ -109,15 +117,18 @@ def solve_chain(
     positions: Sequence[Mapping[str, object]],
 ) -> Cascade:
     """Solve every stage (a loop section as one network) and cascade them between the
-    source and the load (its impedance on the frequency axis).
+    source and the load, both impedances on the frequency axis (a reactive source's
+    `chainbudget.source_network.source_impedance`, a loudspeaker's
+    `chainbudget.loudspeaker.load_impedance`).
 
     A singular network is an input error: it is reported with the stage (or the loop
     section's first stage) whose network it is.
     """
     load = load_impedance(chain.load, frequency)
+    source = source_impedance(chain.source, frequency)
     settings = cast(Sequence[Mapping[str, ArrayLike]], positions)
     try:
-        return solve_cascade(chain.stages, envs, frequency, settings, chain.source.impedance, load)
+        return solve_cascade(chain.stages, envs, frequency, settings, source, load)
     except SingularNetwork as exc:
         for section in sections(chain.stages):
             try:
@@ -126,7 +137,7 @@ def solve_chain(
                     envs[section.first : section.last + 1],
                     frequency,
                     settings[section.first : section.last + 1],
-                    chain.source.impedance,
+                    source,
                     load,
                 )
             except SingularNetwork:

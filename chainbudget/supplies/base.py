@@ -184,6 +184,19 @@ class TroughRemedy:
 
 
 @dataclass(frozen=True)
+class RippleRemedy:
+    """One of a supply's own values changed so that it passes less ripple: the field, its
+    new value (SI) and how the file writes it, and the change in its output's ripple at
+    each frequency, ``factor(hz)`` (new over old, complex); ``factor`` None: the kind must
+    be solved again with the new value (a rectifier's reservoir)."""
+
+    key: str
+    value: float
+    written: str
+    factor: Callable[[float], complex] | None = None
+
+
+@dataclass(frozen=True)
 class SupplyContext:
     """What a supply kind is given to work out its own figures: its state and load in the
     solved tree, its parent's, and the ambient temperature (degC)."""
@@ -335,6 +348,9 @@ class SupplyKind(ABC):
     summary: ClassVar[str]
     fields: ClassVar[tuple[f.Field, ...]]
     needs_parent: ClassVar[bool] = False
+    #: Its output's ripple is held down by a regulation loop (a rejection), not passed on by
+    #: a filter: feeding a stage from another such supply is no remedy for its hum.
+    regulates: ClassVar[bool] = False
 
     @abstractmethod
     def state(self, supply: Supply, parent: SupplyState | None, load: SupplyLoad) -> SupplyState:
@@ -410,6 +426,14 @@ class SupplyKind(ABC):
         name) to ``trough_v`` under the same load (asked by a child that drops out); the
         default knows no remedy."""
         return TroughRemedy()
+
+    def ripple_remedy(
+        self, supply: Supply, attenuation: float, fundamental_hz: float
+    ) -> RippleRemedy | None:
+        """A value of its own that would lower its output's ripple at ``fundamental_hz`` by
+        ``attenuation`` (a ratio above 1) or as near as it sensibly can; None: the kind has
+        no such value (the default)."""
+        return None
 
     def missing(self, values: Mapping[str, Any]) -> list[str]:
         """Keys that the other values make required."""

@@ -70,11 +70,10 @@ def follower_bias(stage: Stage, env: Environment, base_drive: float | None = Non
     current sink I_E is its current. Room before saturation V+ - V_CE(sat) - V_E; room
     towards the bias rail V_E - V- (less the sink's compliance). A PNP follower is the
     mirror image (collector to V-, bias to V+). R_dc is the base resistor, plus the bias
-    resistor when an input capacitor blocks the DC path from the stage before; the stage
-    before is taken as a stiff DC source at ``base_bias``, or at ``base_drive`` when given
-    (the DC the stage before really sits at, for the DC operating-point check). The DC
-    current of the next stage's input is left out (it is AC-coupled or a base current, a
-    few percent of I_E).
+    resistor when an input capacitor blocks the DC path from the stage before. The base
+    is driven from ``base_drive`` when given, else from where the chain's DC walk puts it
+    (`_base_drive`). The DC current of the next stage's input is left out (it is
+    AC-coupled or a base current, a few percent of I_E).
     """
     rails = env.rails
     assert rails is not None, "a follower always has rails (the loader sees to it)"
@@ -84,7 +83,7 @@ def follower_bias(stage: Stage, env: Environment, base_drive: float | None = Non
         (rails.positive, rails.negative) if sign > 0 else (rails.negative, rails.positive)
     )
     if base_drive is None:
-        base_drive = rails.bias
+        base_drive = _base_drive(stage, env)
     r_dc = stage.number("base_resistor")
     if stage.values.get("input_cap") is not None and stage.values.get("bias_resistor"):
         r_dc += stage.number("bias_resistor")
@@ -107,6 +106,20 @@ def follower_bias(stage: Stage, env: Environment, base_drive: float | None = Non
         bias_room_v=sign * (emitter - bias_rail) - compliance,
         small_signal=small_signal(part, i_e, env.temperature_k),
     )
+
+
+def _base_drive(stage: Stage, env: Environment) -> float:
+    """Where the base is driven from, V: ``base_bias`` when the file gives it (through
+    ``bias_resistor`` behind an input capacitor; DC-coupled, the designer's statement of the
+    DC the stage before sits at). Otherwise DC-coupled, the DC the chain's DC walk finds at
+    the input (`Environment.dc_input_v`), the stage before taken as a stiff DC source; else
+    the default bias point (mid-rail single supply, 0 V split)."""
+    rails = env.rails
+    assert rails is not None
+    walked = env.dc_input_v
+    if stage.values.get("input_cap") is None and stage.optional("base_bias") is None:
+        return rails.bias if walked is None else walked
+    return rails.bias
 
 
 def transistor_part(stage: Stage, env: Environment) -> Transistor:

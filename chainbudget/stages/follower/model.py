@@ -102,8 +102,8 @@ class Follower(StageKind):
         f.Field(
             "base_bias",
             f.VOLTAGE,
-            "quiescent voltage the base is driven from (default: mid-rail single "
-            "supply, 0 V split)",
+            "quiescent voltage the base is driven from (default: behind input_cap "
+            "mid-rail single supply, 0 V split; DC-coupled, the DC of the stage before)",
             None,
         ),
         *_RAILS,
@@ -143,6 +143,15 @@ class Follower(StageKind):
         bias_resistor = stage.optional("bias_resistor")
         if bias_resistor is not None:
             own.resistor("bias_resistor", base, GROUND, bias_resistor)
+            # to the base bias point, a voltage (`base_bias`) no supply names: ideal
+            net.ripple_current(
+                base,
+                1.0 / bias_resistor,
+                rail="bias",
+                label=f"{name}.bias_resistor.ripple",
+                stage=name,
+                path="bias resistor",
+            )
         base_resistor = stage.number("base_resistor")
         if np.any(np.asarray(base_resistor) > 0.0):
             own.resistor("base_resistor", base, f"{name}.base", base_resistor)
@@ -153,7 +162,20 @@ class Follower(StageKind):
             net, base, emitter, bias.small_signal, label=f"{name}.q", stage=name, temperature_k=t
         )
         if stage.values["bias"] == "resistor":
-            own.resistor("emitter_resistor", emitter, GROUND, stage.number("emitter_resistor"))
+            r_e = stage.number("emitter_resistor")
+            own.resistor("emitter_resistor", emitter, GROUND, r_e)
+            # The emitter resistor returns to the bias rail (NPN: the negative one, whose
+            # ripple a resistor sees inverted; PNP: the positive): its Norton current.
+            npn = bias.polarity > 0
+            net.ripple_current(
+                emitter,
+                1.0 / r_e,
+                rail="negative" if npn else "positive",
+                polarity=-1.0 if npn else 1.0,
+                label=f"{name}.emitter_resistor.ripple",
+                stage=name,
+                path="emitter resistor",
+            )
         if output_cap is not None:
             net.capacitor(emitter, node_out, output_cap)
         part = transistor_part(stage, env)
@@ -239,7 +261,7 @@ class Follower(StageKind):
         else:
             low, high = rails.negative + part.vce_sat, rails.positive - compliance
         return DcWindow(
-            follower_bias(stage, env).emitter_v,
+            follower_bias(stage, env, rails.bias).emitter_v,
             low,
             high,
             "couple its base through input_cap with bias_resistor to base_bias, or set "
