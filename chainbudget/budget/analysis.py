@@ -80,12 +80,16 @@ def frequency_axis(chain: Chain) -> NDArray[np.float64]:
 
 
 def environments(
-    chain: Chain, corner: str = "nominal", voltages: Mapping[str, Corners] | None = None
+    chain: Chain,
+    corner: str = "nominal",
+    voltages: Mapping[str, Corners] | None = None,
+    dc_inputs: Sequence[float | None] | None = None,
 ) -> tuple[Environment, ...]:
     """Each stage's environment: temperature, parts and rails at a supply corner (of the
     unloaded tree unless ``voltages`` are given), and the DC at its input as the chain's DC
     walk finds it (`chainbudget.budget.dcbias.dc_walk`), so a DC-coupled stage is built at
-    the operating point the DC check reports."""
+    the operating point the DC check reports. ``dc_inputs`` gives those DCs instead of
+    walking them (the spread holds them at the nominal check's: its parts are arrays)."""
     if voltages is None:
         voltages = supply_voltages(chain)
     temperature = chain.settings.ambient + zero_celsius_k
@@ -99,10 +103,9 @@ def environments(
         )
         for stage in chain.stages
     )
-    walked = dc_walk(chain, envs)
-    return tuple(
-        replace(env, dc_input_v=point.input_v) for env, point in zip(envs, walked, strict=True)
-    )
+    if dc_inputs is None:
+        dc_inputs = [point.input_v for point in dc_walk(chain, envs)]
+    return tuple(replace(env, dc_input_v=dc_in) for env, dc_in in zip(envs, dc_inputs, strict=True))
 
 
 def positions_as_set(stages: Sequence[Stage]) -> list[dict[str, float]]:

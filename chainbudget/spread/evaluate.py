@@ -108,7 +108,11 @@ class Evaluator:
                 betas.setdefault(part.index, []).append((name, column))
             else:
                 chain = with_value(chain, part.index, part.key, column)
-        envs = list(environments(chain, "low", voltages))
+        # DC operating points held at the nominal check's (DC is not spread)
+        dc_inputs = [
+            node.dc.input_v if node.dc is not None else None for node in self.nominal.nodes
+        ]
+        envs = list(environments(chain, "low", voltages, dc_inputs))
         for k, drawn_betas in betas.items():
             for name, column in drawn_betas:
                 envs[k] = with_beta(envs[k], name, column)

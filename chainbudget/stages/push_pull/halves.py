@@ -39,7 +39,7 @@ class Half:
     @property
     def swing_v(self) -> float:
         """Peak the emitters may reach from the bias point, V (never below 0)."""
-        return max(self.rail_v - self.drop_v, 0.0)
+        return as_number(np.maximum(self.rail_v - self.drop_v, 0.0))  # over any trial axis
 
     @property
     def beta_total(self) -> float:
@@ -109,7 +109,8 @@ def conduction_current(stage: Stage, env: Environment) -> float:
     i_q = stage.number("quiescent")
     if env.load_impedance is None:
         return i_q
-    swing = min(half.swing_v for half in halves(stage, env))
+    upper, lower = halves(stage, env)
+    swing = np.minimum(upper.swing_v, lower.swing_v)
     # element-wise: R_E may vary over a leading trial axis (chainbudget/spread)
     peak = swing / (stage.number("emitter_resistors") + env.load_impedance)
     return as_number(np.maximum(i_q, peak))

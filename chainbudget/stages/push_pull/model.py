@@ -31,7 +31,7 @@ from chainbudget.stages.base import (
     StageContext,
     StageKind,
 )
-from chainbudget.stages.hybrid_pi import stamp_transistor, transistor_problems
+from chainbudget.stages.hybrid_pi import as_number, stamp_transistor, transistor_problems
 from chainbudget.stages.push_pull.crossover import Crossover, crossover_figures
 from chainbudget.stages.push_pull.drive import (
     HandOver,
@@ -197,7 +197,15 @@ class PushPull(StageKind):
             emitter, current = _stamp_conducting_half(net, stage, env, node_in, junction, own)
         _stamp_output_network(net, stage, junction, node_out, own)
         upper, lower = halves(stage, env)
-        tight = min((upper, lower), key=lambda half: half.swing_v)
+        swing = np.minimum(upper.swing_v, lower.swing_v)  # element-wise over any trial axis
+        if np.ndim(swing) == 0:
+            tight = upper if upper.swing_v <= lower.swing_v else lower
+            why = (
+                f"{tight.side} half: {tight.rail_v:.3g} V rail less "
+                f"{tight.drop_v:.3g} V of V_CE(sat) + V_BE, less I_pk R_E"
+            )
+        else:
+            why = "the tighter half's rail less V_CE(sat) + V_BE, less I_pk R_E"
         return Built(
             probes={
                 "out": node_ref(node_out),
@@ -208,9 +216,8 @@ class PushPull(StageKind):
                 Limit(
                     SWING,
                     "emitter",
-                    tight.swing_v,
-                    f"{tight.side} half: {tight.rail_v:.3g} V rail less "
-                    f"{tight.drop_v:.3g} V of V_CE(sat) + V_BE, less I_pk R_E",
+                    as_number(swing),
+                    why,
                 )
             ],
             output_probe="out",
