@@ -262,11 +262,8 @@ def test_nominal_spread_figures_are_the_check_figures() -> None:
     result = run_spread(chain, 50, 1)
     budget = compute(chain)
     data = json.loads(json.dumps(budget_json(budget, list(budget.findings))))
-    nodes = {n["stage"]: n for n in data["nodes"]}
-    supplies = {s["name"]: s for s in data["supplies"]}
     for path, value in result.nominal.items():
-        group, name, key = path.split(".")
-        held = (nodes if group == "nodes" else supplies)[name][key]
+        held = _json_figure(data, path)
         assert value == pytest.approx(held, rel=1e-9, abs=1e-12), path
 
 
@@ -351,10 +348,9 @@ def test_batched_trials_equal_the_check_of_each_trial_edited_into_the_file() -> 
         edited = chain.with_values(changes)
         budget = compute(edited)
         data = json.loads(json.dumps(budget_json(budget, list(budget.findings))))
-        nodes = {n["stage"]: n for n in data["nodes"]}
         for path, values in batched.items():
-            _, name, key = path.split(".")
-            assert values[t] == pytest.approx(nodes[name][key], rel=1e-9, abs=1e-12), path
+            held = _json_figure(data, path)
+            assert values[t] == pytest.approx(held, rel=1e-9, abs=1e-12), path
 
 
 def _si(part) -> str:  # noqa: ANN001
@@ -546,10 +542,9 @@ def test_output_pair_betas_drawn_per_trial_equal_the_check_of_each_trial() -> No
                 changes[f"{part.owner}.{part.key}"] = f"{float(value[0])!r} {_si(part)}"
         budget = compute(chain.with_values(changes))
         data = json.loads(json.dumps(budget_json(budget, list(budget.findings))))
-        nodes = {n["stage"]: n for n in data["nodes"]}
         for path, values in batched.items():
-            _, name, key = path.split(".")
-            assert values[t] == pytest.approx(nodes[name][key], rel=1e-9, abs=1e-12), path
+            held = _json_figure(data, path)
+            assert values[t] == pytest.approx(held, rel=1e-9, abs=1e-12), path
 
 
 @pytest.mark.parametrize(
@@ -586,3 +581,131 @@ def test_beta_is_drawn_uniformly_in_log() -> None:
         sigma = math.sqrt(share * (1 - share) / draws.size)
         assert abs(float(np.mean(draws < below)) - share) < 5 * sigma
     assert draws.min() >= 50.0 and draws.max() <= 200.0
+
+
+TONE_AND_VOLUME = (
+    """
+[chain]
+title = "tone and volume spread"
+[source]
+level = "100 mV"
+max_level = "300 mV"
+impedance = "2k2"
+[load]
+impedance = "8 ohm"
+sensitivity = "86 dB"
+[tolerances]
+resistors = "2 %"
+capacitors = "10 %"
+pots = "20 %"
+[[supply]]
+name = "bat"
+kind = "dc"
+voltage = "24 V"
+[[stage]]
+name = "pre"
+kind = "opamp_gain"
+topology = "non-inverting"
+feedback = "22k"
+ground_leg = "2k2"
+ground_cap = "47u"
+input_cap = "1u"
+bias_resistor = "100k"
+opamp = "ideal"
+positive = "bat"
+[[stage]]
+name = "tone"
+kind = "tone_two_band"
+bass_outer = "47k"
+bass_pot = "100k"
+bass_cap = "47n"
+bass_position = 0.5
+treble_pot = "100k"
+treble_cap = "2n2"
+treble_wiper = "1k"
+treble_position = 0.5
+opamp = "ideal"
+positive = "bat"
+[[stage]]
+name = "volume"
+kind = "volume"
+pot = "47k"
+taper = "log"
+position = 0.4
+input_cap = "1u"
+[[stage]]
+name = "amp"
+kind = "block"
+gain = "26 dB"
+input_impedance = "20k"
+output_impedance = "0.05 ohm"
+max_output = "6 V"
+"""
+    + IDEAL
+)
+
+
+def _json_figure(data: dict, path: str) -> float:  # type: ignore[type-arg]
+    """A spread figure's value in the check JSON (``nodes.NAME.KEY`` or ``output.KEY``)."""
+    group, *rest = path.split(".")
+    if group == "nodes":
+        name, key = rest
+        return float(next(n for n in data["nodes"] if n["stage"] == name)[key])
+    if group == "supplies":
+        name, key = rest
+        return float(next(s for s in data["supplies"] if s["name"] == name)[key])
+    return float(data[group][rest[0]])
+
+
+@pytest.mark.parametrize("text", [TONE_AND_VOLUME, FOLLOWER], ids=["tone-volume", "follower"])
+def test_band_noise_and_power_of_each_trial_equal_the_check_of_that_trial(text: str) -> None:
+    """Brute force, one sample at a time, for the figures over the band: each trial's
+    parts written into the file and checked alone give the batched worst headroom over
+    the band (the nominal check's worst control setting held), the output noise and SNR
+    (unweighted and A-weighted; compared in dB) and the output power, rtol 1e-9. The
+    tone chain's treble boost is its worst setting by a margin no trial closes (the
+    spread holds the nominal check's worst setting: docs/tolerances.md)."""
+    from chainbudget.budget import compute
+    from chainbudget.budget.supplies import settle
+    from chainbudget.report.json_view import budget_json
+    from chainbudget.spread.evaluate import Evaluator
+    from chainbudget.spread.parts import chain_parts
+
+    chain = _chain(text)
+    parts, _ = chain_parts(chain)
+    nominal = compute(chain)
+    evaluate = Evaluator(chain, tuple(parts), nominal, settle(chain, "low").voltages)
+    positions = np.random.default_rng(5).random((4, len(parts)))
+    batched = evaluate(positions)
+    out = chain.stages[-1].name
+    new = [p for p in batched if p.startswith("output.")] + [
+        f"nodes.{out}.{key}" for key in ("noise_vrms", "noise_a_vrms", "snr_db", "snr_a_db")
+    ]
+    new += [p for p in batched if p.endswith(".worst_headroom_db")]
+    assert any(p.endswith(".worst_headroom_db") for p in new)
+    assert "output.nominal_power_w" in new and "output.clip_power_w" in new
+    # every new figure is moved by the parts (but the tone chain's clip power: its
+    # amplifier block's rated swing sets it)
+    fixed = ("output.clip", "output.max_spl") if text is TONE_AND_VOLUME else ()
+    for path in new:
+        assert np.ptp(batched[path]) > 0.0 or path.startswith(fixed), path
+    for t in range(positions.shape[0]):
+        changes: dict[str, object] = {}
+        for part, value in zip(parts, evaluate.values(positions[t : t + 1]), strict=True):
+            if part.is_beta:
+                name = chain.stages[part.index].values[part.key]
+                changes[f"transistor.{name}.beta"] = float(value[0])
+            else:
+                changes[f"{part.owner}.{part.key}"] = f"{float(value[0])!r} {_si(part)}"
+        budget = compute(chain.with_values(changes))
+        for node in nominal.nodes:  # the premise: each trial's worst setting is nominal's
+            if node.worst is not None:
+                assert budget.node(node.stage).worst.controls == node.worst.controls
+        data = json.loads(json.dumps(budget_json(budget, list(budget.findings))))
+        for path in batched:
+            held = _json_figure(data, path)
+            if "noise" in path:
+                got, want = 20 * math.log10(batched[path][t]), 20 * math.log10(held)
+                assert got == pytest.approx(want, rel=0, abs=1e-8), path
+            else:
+                assert batched[path][t] == pytest.approx(held, rel=1e-9, abs=1e-12), path

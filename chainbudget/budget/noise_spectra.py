@@ -89,6 +89,9 @@ class NoiseSpectra:
         PSD at the output node of stage k due to generator s, V^2/Hz.
     signal : ndarray, shape (K, F)
         |v_out| of each node per volt of source open-circuit voltage.
+
+    Parts given as arrays over leading batch axes (the spread's trials) put those axes
+    before F: ``contribution`` (S, K, T, F), ``signal`` (K, T, F).
     """
 
     frequency: NDArray[np.float64]
@@ -126,6 +129,12 @@ def _floored(z: Complex) -> Complex:
     return np.where(np.abs(z) < SOURCE_IMPEDANCE_FLOOR_OHM, SOURCE_IMPEDANCE_FLOOR_OHM, z)
 
 
+def _batch_shape(frequency: NDArray[np.float64], arrays: Sequence[ArrayLike]) -> tuple[int, ...]:
+    """The shape every spectrum takes: the frequency axis (F,) behind any batch axes the
+    parts bring (the spread's trials: a part of shape (T, 1) makes every figure (T, F))."""
+    return np.broadcast_shapes(frequency.shape, *(np.shape(a) for a in arrays))
+
+
 def stage_noise_transfers(
     stage: Stage,
     stage_index: int,
@@ -158,12 +167,12 @@ def stage_noise_transfers(
     KINDS[stage.kind].build(net, stage, env, "in", "out", positions)
     net.admittance("in", GROUND, 1.0 / _floored(np.asarray(source_impedance, complex)))
     net.admittance("out", GROUND, load_admittance)
-    shape = frequency.shape
     if not net.noise:
-        empty = np.zeros((0, *shape))
+        empty = np.zeros((0, *frequency.shape))
         return [], empty, empty.astype(complex), empty.astype(complex)
     _, to_out = net.adjoint_transfer("out")
     _, to_in = net.adjoint_transfer("in")
+    shape = _batch_shape(frequency, [*to_out, *to_in, *(src.psd for src in net.noise)])
     prefix = f"{stage.name}."
     origins = [
         NoiseOrigin(
@@ -214,14 +223,15 @@ def section_noise_transfers(
     stamp_section(net, stages, envs, positions_as_set(stages), section, "in", "out")
     net.admittance("in", GROUND, 1.0 / _floored(np.asarray(source_impedance, complex)))
     net.admittance("out", GROUND, load_admittance)
-    shape = frequency.shape
     count = len(section.indices)
     if not net.noise:
-        empty = np.zeros((0, *shape))
-        return [], empty, np.zeros((0, count, *shape), complex), empty.astype(complex)
+        empty = np.zeros((0, *frequency.shape))
+        return [], empty, np.zeros((0, count, *frequency.shape), complex), empty.astype(complex)
     nodes = [inner_node(k) for k in section.indices[:-1]] + ["out"]
     to_nodes = [net.adjoint_transfer(node)[1] for node in nodes]
     _, to_in = net.adjoint_transfer("in")
+    every = [h for per_node in to_nodes for h in per_node]
+    shape = _batch_shape(frequency, [*every, *to_in, *(src.psd for src in net.noise)])
     index = {stages[k].name: k for k in section.indices}
     origins = []
     for src in net.noise:
@@ -283,7 +293,9 @@ def noise_spectra(
     """
     stages = chain.stages
     n = len(stages)
-    shape = frequency.shape
+    shape = _batch_shape(
+        frequency, [*nominal.v_out, *nominal.source_impedance, *nominal.load_admittance]
+    )
     units = nominal.sections or tuple(Section(k, k) for k in range(n))
     # Per unit and per stage inside it: node voltage per volt at the unit's input (driven
     # from before) and per volt at its output (driven from after, input terminated in Z_S).

@@ -24,6 +24,7 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass, replace
+from functools import cached_property
 from typing import Any, cast
 
 import numpy as np
@@ -31,15 +32,28 @@ from numpy.typing import NDArray
 
 from chainbudget.budget import Budget
 from chainbudget.budget.analysis import environments, frequency_axis, positions_as_set, solve_chain
-from chainbudget.budget.levels import SQRT2, clip_source_peak, db
+from chainbudget.budget.levels import DB_FLOOR, SQRT2, clip_source_peak, db
 from chainbudget.budget.steps import with_value
+from chainbudget.cascade import Cascade, sections, solve_section
+from chainbudget.cascade import cascade as join_cascade
 from chainbudget.chainfile import Chain
+from chainbudget.loudspeaker import is_reactive, load_impedance
+from chainbudget.network import SingularNetwork
+from chainbudget.outputmath import sine_power, spl_at_1m
+from chainbudget.source_network import source_impedance
+from chainbudget.spread.noise import output_noise
 from chainbudget.spread.parts import Part, with_beta
+from chainbudget.spread.settings import HeldSettings, held_settings, worst_of_candidates
+from chainbudget.stages.base import Environment
 from chainbudget.supplies import KINDS as SUPPLY_KINDS
 from chainbudget.supplies.base import Corners, SpreadThreshold
-from chainbudget.thresholds import THIN_HEADROOM_DB
+from chainbudget.thresholds import SNR_MIN_DB, THIN_HEADROOM_DB
 
 Figures = dict[str, NDArray[np.float64]]
+
+# Trial-frequency points per batched solve: each point is one stage matrix (n x n complex,
+# n up to 16 in the examples), so a batch's matrices take at most about 130 MB.
+CHUNK_POINTS = 1 << 15
 
 
 @dataclass(frozen=True)
@@ -51,6 +65,9 @@ class Threshold:
     limit: float
     code: str
     severity: str
+    #: Another figure that must stay at or above a limit for the code to be drawn (the
+    #: worst case over band and controls is flagged only where the reference is clear).
+    only_if_at_least: tuple[str, float] | None = None
 
 
 @dataclass(frozen=True)
@@ -66,8 +83,28 @@ class Evaluator:
         """Each part's value per trial from positions (T, n) in 0..1."""
         return [part.at(positions[:, i]) for i, part in enumerate(self.parts)]
 
+    @cached_property
+    def settings(self) -> HeldSettings:
+        """The control settings held fixed per trial (`chainbudget.spread.settings`)."""
+        return held_settings(self.chain, self.voltages)
+
+    @property
+    def chunk_trials(self) -> int:
+        """Trials per batched solve: `CHUNK_POINTS` over the chain's frequency points, so
+        that memory stays bounded however fine the chain's grid is."""
+        return max(1, CHUNK_POINTS // frequency_axis(self.chain).size)
+
     def __call__(self, positions: NDArray[np.float64]) -> Figures:
-        """Every spread figure, shape (T,), for part positions of shape (T, n)."""
+        """Every spread figure, shape (T,), for part positions of shape (T, n), solved
+        `chunk_trials` at a time."""
+        size = self.chunk_trials
+        if positions.shape[0] <= size:
+            return self._batch(positions)
+        pieces = [self._batch(positions[i : i + size]) for i in range(0, len(positions), size)]
+        return {path: np.concatenate([p[path] for p in pieces]) for path in pieces[0]}
+
+    def _batch(self, positions: NDArray[np.float64]) -> Figures:
+        """Every spread figure for one batch of trials (one solve of each kind)."""
         trials = positions.shape[0]
         values = self.values(positions)
         figures: Figures = {}
@@ -116,37 +153,26 @@ class Evaluator:
         for k, drawn_betas in betas.items():
             for name, column in drawn_betas:
                 envs[k] = with_beta(envs[k], name, column)
-        frequency = frequency_axis(self.chain)[:1]
-        cascade = solve_chain(chain, tuple(envs), frequency, positions_as_set(self.chain.stages))
-        source = self.chain.source
-        for k, sol in enumerate(cascade.stages):
-            node = f"nodes.{sol.stage.name}."
-            v_out = cascade.v_out[k][..., 0]
-            figures[node + "gain_db"] = _trials(db(v_out / cascade.v_in[k][..., 0]), trials)
-            figures[node + "total_gain_db"] = _trials(db(v_out), trials)
-            figures[node + "level_vrms"] = _trials(source.level * np.abs(v_out), trials)
-            figures[node + "zout_ohm"] = _trials(
-                np.abs(cascade.output_impedance[k][..., 0]), trials
-            )
-            figures[node + "zload_ohm"] = _trials(
-                np.abs(1.0 / cascade.load_admittance[k][..., 0]), trials
-            )
-            clip = clip_source_peak(cascade, k)
-            if clip is None:
-                continue
-            peak = clip[0][..., 0]
-            figures[node + "clip_vpk"] = _trials(peak * np.abs(v_out), trials)
-            figures[node + "headroom_db"] = _trials(db(peak / (SQRT2 * source.max_level)), trials)
-            figures[node + "nominal_headroom_db"] = _trials(
-                db(peak / (SQRT2 * source.level)), trials
-            )
+        frequency = frequency_axis(self.chain)
+        settings = self.settings
+        as_set, held = _solve_as_set_and_held(chain, tuple(envs), frequency, settings)
+        figures.update(_reference_figures(self.chain, as_set, trials))
+        figures.update(_band_figures(self.chain, held, as_set, settings, trials))
+        figures.update(_output_figures(self.chain, held, as_set, settings, trials))
+        figures.update(output_noise(chain, tuple(envs), frequency, as_set, trials))
         return figures
 
     def thresholds(self, figures: Mapping[str, Any]) -> list[Threshold]:
         """The rules' limits on the figures spread covers."""
         found = []
-        for node in self.nominal.nodes:
-            path = f"nodes.{node.stage}."
+        names = [node.stage for node in self.nominal.nodes]
+        volume_at = (
+            names.index(self.nominal.volume_stage)
+            if self.nominal.volume_stage in names
+            else len(names)
+        )
+        for k, name in enumerate(names):
+            path = f"nodes.{name}."
             if path + "headroom_db" not in figures:
                 continue
             found += [
@@ -154,6 +180,21 @@ class Evaluator:
                 Threshold(path + "headroom_db", 0.0, "clip-max", "error"),
                 Threshold(path + "headroom_db", THIN_HEADROOM_DB, "thin-headroom", "warning"),
             ]
+            # `chainbudget.findings.levels`: only ahead of the volume control, and only
+            # where the headroom at the reference with the controls as set is not lost
+            if k < volume_at and path + "worst_headroom_db" in figures:
+                found.append(
+                    Threshold(
+                        path + "worst_headroom_db",
+                        0.0,
+                        "clip-worst-case",
+                        "warning",
+                        (path + "headroom_db", 0.0),
+                    )
+                )
+        output = f"nodes.{names[-1]}.snr_db" if names else ""
+        if output in figures:
+            found.append(Threshold(output, SNR_MIN_DB, "snr-low", "warning"))
         for supply in self.chain.supplies:
             kind = SUPPLY_KINDS[supply.kind]
             if not kind.spread_fields(supply):
@@ -164,6 +205,125 @@ class Evaluator:
                 continue
             found += [_supply_threshold(supply.name, t) for t in spread.thresholds]
         return found
+
+
+def _reference_figures(chain: Chain, cascade: Cascade, trials: int) -> Figures:
+    """Each node's figures at the reference frequency (index 0) with the controls as set,
+    as `chainbudget.budget.levels.node_levels` gives them."""
+    figures: Figures = {}
+    source = chain.source
+    for k, sol in enumerate(cascade.stages):
+        node = f"nodes.{sol.stage.name}."
+        v_out = cascade.v_out[k][..., 0]
+        figures[node + "gain_db"] = _trials(db(v_out / cascade.v_in[k][..., 0]), trials)
+        figures[node + "total_gain_db"] = _trials(db(v_out), trials)
+        figures[node + "level_vrms"] = _trials(source.level * np.abs(v_out), trials)
+        figures[node + "zout_ohm"] = _trials(np.abs(cascade.output_impedance[k][..., 0]), trials)
+        figures[node + "zload_ohm"] = _trials(
+            np.abs(1.0 / cascade.load_admittance[k][..., 0]), trials
+        )
+        clip = clip_source_peak(cascade, k)
+        if clip is None:
+            continue
+        peak = clip[0][..., 0]
+        figures[node + "clip_vpk"] = _trials(peak * np.abs(v_out), trials)
+        figures[node + "headroom_db"] = _trials(db(peak / (SQRT2 * source.max_level)), trials)
+        figures[node + "nominal_headroom_db"] = _trials(db(peak / (SQRT2 * source.level)), trials)
+    return figures
+
+
+def _solve_as_set_and_held(
+    chain: Chain,
+    envs: tuple[Environment, ...],
+    frequency: NDArray[np.float64],
+    settings: HeldSettings,
+) -> tuple[Cascade, list[Cascade]]:
+    """The chain solved with the controls as set, and at each held setting. A section
+    (a stage, or a loop solved as one network) is solved once for each distinct setting
+    of its own controls and serves every cascade that has it."""
+    as_set_positions = positions_as_set(chain.stages)
+    source = source_impedance(chain.source, frequency)
+    load = load_impedance(chain.load, frequency)
+    units = sections(chain.stages)
+    solved: dict[tuple[int, tuple[object, ...]], Any] = {}
+
+    def solve(positions: list[dict[str, float]]) -> Cascade:
+        found = []
+        for unit in units:
+            key = (unit.first, tuple(tuple(sorted(positions[k].items())) for k in unit.indices))
+            if key not in solved:
+                solved[key] = solve_section(chain.stages, envs, frequency, positions, unit)
+            found.append(solved[key])
+        return join_cascade(found, source, load)
+
+    try:
+        as_set = solve(as_set_positions)
+    except SingularNetwork:  # the check's message, naming the stage
+        solve_chain(chain, envs, frequency, as_set_positions)
+        raise
+    return as_set, [solve(settings.positions(chain, row)) for row in range(len(settings.rows))]
+
+
+def _at_row(array: Any, trials: int) -> NDArray[Any]:
+    """A cascade's array as (T, F)."""
+    array = np.asarray(array)
+    return np.broadcast_to(array, (trials, array.shape[-1]))
+
+
+def _band_figures(
+    chain: Chain, held: list[Cascade], as_set: Cascade, settings: HeldSettings, trials: int
+) -> Figures:
+    """Each limited node's worst headroom over the whole frequency axis, at the nominal
+    check's worst setting of that node held fixed (`chainbudget.spread.settings`)."""
+    figures: Figures = {}
+    max_peak = SQRT2 * chain.source.max_level
+    for k, sol in enumerate(as_set.stages):
+        if k not in settings.node_rows:
+            continue
+        peaks = []
+        for row, _ in settings.node_rows[k]:
+            clip = clip_source_peak(as_set if row is None else held[row], k)
+            assert clip is not None
+            peaks.append(_at_row(clip[0], trials))
+        distance = np.array([d for _, d in settings.node_rows[k]])
+        worst = worst_of_candidates(np.stack(peaks, axis=1), distance)
+        figures[f"nodes.{sol.stage.name}.worst_headroom_db"] = _trials(db(worst / max_peak), trials)
+    return figures
+
+
+def _output_figures(
+    chain: Chain, held: list[Cascade], as_set: Cascade, settings: HeldSettings, trials: int
+) -> Figures:
+    """Output power at the reference frequency as `chainbudget.budget.power.output_figures`
+    works it out: the tightest stage's clip peak carried to the load with the volume fully
+    up (`clip_power_w`), the nominal level with the controls as set (`nominal_power_w`)."""
+    last = len(chain.stages) - 1
+    z_load: complex | float = chain.load.impedance
+    if is_reactive(chain.load):
+        z_load = complex(load_impedance(chain.load, [chain.settings.reference])[0])
+    figures: Figures = {}
+    nominal_vpk = SQRT2 * chain.source.level * np.abs(as_set.v_out[last][..., 0])
+    figures["output.nominal_power_w"] = _trials(sine_power(nominal_vpk, z_load), trials)
+    # the volume fully up: its row of the held settings (no volume: the controls as set)
+    row = settings.volume_row
+    cascade = as_set if row is None else held[row]
+    peaks = []
+    for k in range(last + 1):
+        clip = clip_source_peak(cascade, k)
+        if clip is not None:
+            peaks.append(_at_row(clip[0], trials)[:, 0])
+    if not peaks:
+        return figures
+    gain = np.abs(_at_row(cascade.v_out[last], trials)[:, 0])
+    clip_vpk = np.min(peaks, axis=0) * gain
+    power = _trials(sine_power(clip_vpk, z_load), trials)
+    figures["output.clip_vpk"] = _trials(clip_vpk, trials)
+    figures["output.clip_power_w"] = power
+    sensitivity = chain.load.sensitivity
+    if sensitivity is not None:
+        spl = np.maximum(spl_at_1m(sensitivity, power), DB_FLOOR)
+        figures["output.max_spl_db"] = _trials(spl, trials)
+    return figures
 
 
 def _parents_first(chain: Chain) -> list[int]:
@@ -212,6 +372,9 @@ def failing(
         mask = value < t.limit
         if tighter:
             mask &= value >= max(tighter)
+        if t.only_if_at_least is not None:
+            other, floor = t.only_if_at_least
+            mask &= figures[other] >= floor
         owner = t.path.rsplit(".", 1)[0]
         if t.code != "clip-nominal" and owner in clipped_nominal:
             mask &= ~clipped_nominal[owner]

@@ -117,6 +117,13 @@ def _one_at_a_time(n: int) -> NDArray[np.float64]:
     return rows
 
 
+def _distinct(evaluate: Evaluator, rows: NDArray[np.float64]) -> dict[str, NDArray[np.float64]]:
+    """``evaluate(rows)``, each distinct row solved once (many figures share a corner)."""
+    unique, inverse = np.unique(rows, axis=0, return_inverse=True)
+    values = evaluate(unique)
+    return {path: v[inverse.reshape(-1)] for path, v in values.items()}
+
+
 def _corners(
     evaluate: Evaluator, paths: list[str], deltas: dict[str, NDArray[np.float64]], n: int
 ) -> dict[str, tuple[float, float]]:
@@ -128,7 +135,7 @@ def _corners(
     vertices = {p: [(deltas[p] < 0).astype(float), (deltas[p] >= 0).astype(float)] for p in paths}
     order = [(p, side) for p in paths for side in (0, 1)]
     start = np.array([vertices[p][side] for p, side in order])
-    values = evaluate(start)
+    values = _distinct(evaluate, start)
     best = {key: float(values[key[0]][i]) for i, key in enumerate(order)}
     active = list(order)
     for _ in range(MAX_CONFIRM_ROUNDS):
@@ -139,7 +146,7 @@ def _corners(
             flips = np.repeat(vertices[p][side][None, :], n, axis=0)
             flips[np.arange(n), np.arange(n)] = 1.0 - flips[np.arange(n), np.arange(n)]
             rows.append(flips)
-        flipped = evaluate(np.concatenate(rows))
+        flipped = _distinct(evaluate, np.concatenate(rows))
         still = []
         for a, (p, side) in enumerate(active):
             got = flipped[p][a * n : (a + 1) * n]

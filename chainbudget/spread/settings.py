@@ -1,0 +1,134 @@
+"""The control settings the spread holds fixed per trial: the nominal check's worst-case
+setting of each limited node, and the master volume fully up (the output power).
+
+Notes
+-----
+The check finds each node's worst headroom over the band and every swept control
+(`chainbudget.budget.levels.node_levels`: a grid of rotations, one solve). Carrying that
+grid through every trial would multiply the trial axis by up to 30,000 settings; the
+spread instead takes, for each node, the setting at which the nominal check found its
+worst case and holds it fixed in every trial, searching only the frequency axis per
+trial. Exact wherever a trial's worst setting is the nominal one (tolerances of a few
+per cent rarely move a pot's worst rotation to another grid point); otherwise the spread
+figure is at most the check's margin above it.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass
+
+import numpy as np
+from numpy.typing import NDArray
+
+from chainbudget.budget.analysis import analyse, master_volume, positions_as_set
+from chainbudget.budget.levels import TIE_DB, _least_surprising_minimum, clip_source_peak
+from chainbudget.chainfile import Chain
+from chainbudget.supplies.base import Corners
+
+
+@dataclass(frozen=True)
+class HeldSettings:
+    """Rows of control settings, each a rotation per varied control.
+
+    ``keys`` are the (stage index, control key) pairs some row moves from its setting;
+    ``rows`` one rotation per key each (none of them the settings as set); ``node_rows``
+    each limited node's candidate settings for its worst case (by stage index), in the
+    check's grid order, each a row (None: the settings as set) and its distance from the
+    settings as set (the check's tie-break);
+    ``volume_row`` the row with the master volume fully up (None: no volume control, or
+    it is fully up as set).
+    """
+
+    keys: tuple[tuple[int, str], ...]
+    rows: tuple[tuple[float, ...], ...]
+    node_rows: dict[int, tuple[tuple[int | None, float], ...]]
+    volume_row: int | None
+
+    @property
+    def stages(self) -> frozenset[int]:
+        """The stages whose controls some row moves."""
+        return frozenset(k for k, _ in self.keys)
+
+    def positions(self, chain: Chain, row: int) -> list[dict[str, float]]:
+        """Every stage's control positions at one row."""
+        positions = [dict(p) for p in positions_as_set(chain.stages)]
+        for (k, key), value in zip(self.keys, self.rows[row], strict=True):
+            positions[k][key] = value
+        return positions
+
+
+def held_settings(chain: Chain, voltages: Mapping[str, Corners]) -> HeldSettings:
+    """The nominal check's worst setting of each limited node and the volume fully up.
+
+    The nominal chain is analysed as `check` analyses it (low line, the settled tree's
+    ``voltages``) and each node's worst case located as `node_levels` locates it
+    (`_least_surprising_minimum`, near-ties going to the settings as set).
+    """
+    analysis = analyse(chain, "low", voltages)
+    swept = analysis.swept_controls
+    axes = len(swept) + 1
+    keys = [(sc.stage_index, sc.control.key) for sc in swept]
+    volume = master_volume(chain)
+    if volume is not None and (volume, "position") not in keys:
+        keys.append((volume, "position"))
+    as_set = positions_as_set(chain.stages)
+    base = tuple(float(as_set[k][key]) for k, key in keys)
+    rows: list[tuple[float, ...]] = []
+    node_rows: dict[int, tuple[tuple[int | None, float], ...]] = {}
+
+    def row_of(row: tuple[float, ...]) -> int | None:
+        if row == base:
+            return None
+        if row not in rows:
+            rows.append(row)
+        return rows.index(row)
+
+    for k in range(len(chain.stages)):
+        clip = clip_source_peak(analysis.swept, k)
+        if clip is None:
+            continue
+        peak = clip[0]
+        if peak.ndim != axes:  # no control moves this node
+            node_rows[k] = ((None, 0.0),)
+            continue
+        # the setting at which the check finds this node's worst case
+        where = _least_surprising_minimum(analysis, peak)
+        chosen = {int(np.ravel_multi_index(where[:-1], peak.shape[:-1]))}
+        found = []
+        for flat in sorted(chosen):
+            index = np.unravel_index(flat, peak.shape[:-1])
+            row = list(base)
+            distance = 0.0
+            for sc in swept:
+                if peak.shape[sc.axis] > 1:
+                    row[sc.axis] = float(sc.rotations[index[sc.axis]])
+                    distance += abs(row[sc.axis] - sc.control.position)
+            found.append((row_of(tuple(row)), distance))
+        node_rows[k] = tuple(found)
+    volume_row = None
+    if volume is not None:
+        row = list(base)
+        row[keys.index((volume, "position"))] = 1.0
+        volume_row = row_of(tuple(row))
+    if not rows:
+        keys = []
+    return HeldSettings(tuple(keys), tuple(rows), node_rows, volume_row)
+
+
+def worst_of_candidates(
+    peak: NDArray[np.float64], distance: NDArray[np.float64]
+) -> NDArray[np.float64]:
+    """The clip peak the check reports as a node's worst, per trial, from its candidate
+    settings: ``peak`` (T, C, F) at C candidates (in the check's grid order) over the
+    frequency axis (index 0 the reference), ``distance`` (C,) each candidate's distance
+    from the settings as set. As `_least_surprising_minimum`: among the points within
+    `TIE_DB` of the least, the one nearest the settings as set and the reference, the
+    first in grid order among equals."""
+    trials, count, points = peak.shape
+    tied = peak <= peak.min(axis=(1, 2), keepdims=True) * 10.0 ** (TIE_DB / 20.0)
+    off_reference = np.ones(points)
+    off_reference[0] = 0.0
+    cost = np.where(tied, (distance[:, None] + off_reference)[None], np.inf)
+    index = np.argmin(cost.reshape(trials, count * points), axis=1)
+    return peak.reshape(trials, count * points)[np.arange(trials), index]
