@@ -16,7 +16,7 @@ one row and one column.
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -543,18 +543,28 @@ class Netlist:
         of any generator entering as b is z^T b (Director & Rohrer, "The generalized adjoint
         network and network sensitivities", IEEE Trans. Circuit Theory CT-16 (1969) 318).
         """
+        return self.adjoint_transfers([output_node])[0]
+
+    def adjoint_transfers(self, output_nodes: Sequence[str]) -> list[tuple[Complex, list[Complex]]]:
+        """`adjoint_transfer` to each of several nodes from one assembly of the matrix and
+        one solve with a right-hand side per node (the same adjoint method)."""
         m = self.matrix()
-        e = np.zeros(m.shape[:-1], dtype=complex)
-        e[..., self.nodes[output_node]] = 1.0
-        z = _solved(np.swapaxes(m, -1, -2), e[..., None])[..., 0]
-        transfers = [
-            sum(
-                (z[..., self.index(ref)] * coefficient for ref, coefficient in source.rhs),
-                np.zeros(z.shape[:-1], complex),
-            )
-            for source in self.noise
-        ]
-        return z, transfers
+        e = np.zeros((*m.shape[:-1], len(output_nodes)), dtype=complex)
+        for j, node in enumerate(output_nodes):
+            e[..., self.nodes[node], j] = 1.0
+        solved = _solved(np.swapaxes(m, -1, -2), e)
+        found = []
+        for j in range(len(output_nodes)):
+            z = solved[..., j]
+            transfers = [
+                sum(
+                    (z[..., self.index(ref)] * coefficient for ref, coefficient in source.rhs),
+                    np.zeros(z.shape[:-1], complex),
+                )
+                for source in self.noise
+            ]
+            found.append((z, transfers))
+        return found
 
 
 @dataclass(frozen=True)

@@ -170,8 +170,7 @@ def stage_noise_transfers(
     if not net.noise:
         empty = np.zeros((0, *frequency.shape))
         return [], empty, empty.astype(complex), empty.astype(complex)
-    _, to_out = net.adjoint_transfer("out")
-    _, to_in = net.adjoint_transfer("in")
+    (_, to_out), (_, to_in) = net.adjoint_transfers(["out", "in"])
     shape = _batch_shape(frequency, [*to_out, *to_in, *(src.psd for src in net.noise)])
     prefix = f"{stage.name}."
     origins = [
@@ -228,8 +227,8 @@ def section_noise_transfers(
         empty = np.zeros((0, *frequency.shape))
         return [], empty, np.zeros((0, count, *frequency.shape), complex), empty.astype(complex)
     nodes = [inner_node(k) for k in section.indices[:-1]] + ["out"]
-    to_nodes = [net.adjoint_transfer(node)[1] for node in nodes]
-    _, to_in = net.adjoint_transfer("in")
+    *per_node, (_, to_in) = net.adjoint_transfers([*nodes, "in"])
+    to_nodes = [transfers for _, transfers in per_node]
     every = [h for per_node in to_nodes for h in per_node]
     shape = _batch_shape(frequency, [*every, *to_in, *(src.psd for src in net.noise)])
     index = {stages[k].name: k for k in section.indices}
