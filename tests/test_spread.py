@@ -709,3 +709,28 @@ def test_band_noise_and_power_of_each_trial_equal_the_check_of_that_trial(text: 
                 assert got == pytest.approx(want, rel=0, abs=1e-8), path
             else:
                 assert batched[path][t] == pytest.approx(held, rel=1e-9, abs=1e-12), path
+
+
+@pytest.mark.parametrize("name", sorted(p.name for p in (ROOT / "chains").glob("*.toml")))
+def test_every_example_nominal_figures_are_the_check_figures(name: str) -> None:
+    """Every example, every spread figure at the nominal parts equals the check JSON's
+    (the worst headroom over band and controls included: the held setting and the
+    check's tie-break reproduce its figure), rtol 1e-9."""
+    from chainbudget.budget import compute
+    from chainbudget.budget.supplies import settle
+    from chainbudget.chainfile import load_chain
+    from chainbudget.report.json_view import budget_json
+    from chainbudget.spread.evaluate import Evaluator
+    from chainbudget.spread.parts import chain_parts
+
+    chain = load_chain(ROOT / "chains" / name)
+    parts, _ = chain_parts(chain)
+    budget = compute(chain)
+    evaluate = Evaluator(chain, tuple(parts), budget, settle(chain, "low").voltages)
+    figures = evaluate(np.full((1, len(parts)), 0.5))
+    assert any(p.endswith("worst_headroom_db") for p in figures)
+    assert any(p.endswith(".snr_a_db") for p in figures)
+    data = json.loads(json.dumps(budget_json(budget, list(budget.findings))))
+    for path, values in figures.items():
+        held = _json_figure(data, path)
+        assert values[0] == pytest.approx(held, rel=1e-9, abs=1e-12), path
