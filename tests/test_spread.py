@@ -646,7 +646,8 @@ max_output = "6 V"
 
 
 def _json_figure(data: dict, path: str) -> float:  # type: ignore[type-arg]
-    """A spread figure's value in the check JSON (``nodes.NAME.KEY`` or ``output.KEY``)."""
+    """A spread figure's value in the check JSON (``nodes.NAME.KEY``, ``output.KEY`` or a
+    top-level key such as ``hiss_spl_a_db``)."""
     group, *rest = path.split(".")
     if group == "nodes":
         name, key = rest
@@ -654,7 +655,7 @@ def _json_figure(data: dict, path: str) -> float:  # type: ignore[type-arg]
     if group == "supplies":
         name, key = rest
         return float(next(s for s in data["supplies"] if s["name"] == name)[key])
-    return float(data[group][rest[0]])
+    return float(data[group][rest[0]] if rest else data[group])
 
 
 @pytest.mark.parametrize("text", [TONE_AND_VOLUME, FOLLOWER], ids=["tone-volume", "follower"])
@@ -734,3 +735,45 @@ def test_every_example_nominal_figures_are_the_check_figures(name: str) -> None:
     for path, values in figures.items():
         held = _json_figure(data, path)
         assert values[0] == pytest.approx(held, rel=1e-9, abs=1e-12), path
+
+
+# The tone chain tuned so that its tone stage's worst case over band and controls, the
+# output's SNR and the hiss at the loudspeaker each sit within a fraction of a dB of their
+# rules' limits (0 dB, 60 dB, 20 dB SPL(A)): the tolerances carry trials across each.
+ON_THE_EDGE = TONE_AND_VOLUME.replace(
+    'level = "100 mV"\nmax_level = "300 mV"', 'level = "50 mV"\nmax_level = "82 mV"'
+).replace('sensitivity = "86 dB"', 'sensitivity = "97 dB"').replace(
+    'opamp = "ideal"\npositive = "bat"\n[[stage]]\nname = "tone"',
+    'opamp = "hissy"\npositive = "bat"\n[[stage]]\nname = "tone"',
+    1,
+) + IDEAL.replace("[opamp.ideal]", "[opamp.hissy]").replace(
+    'noise_voltage = "1 nV/rtHz"', 'noise_voltage = "345.9 nV/rtHz"'
+)
+
+
+def test_per_trial_findings_over_band_and_noise_are_the_check_findings_of_each_trial() -> None:
+    """Brute force: for each of a dozen trials, whether the spread counts it as drawing
+    clip-worst-case, snr-low or hiss-audible is whether the check of that trial, written
+    into the file, finds it; each code is drawn by some trials and not by others."""
+    from chainbudget.budget import compute
+    from chainbudget.budget.supplies import settle
+    from chainbudget.spread.evaluate import Evaluator, failing
+    from chainbudget.spread.parts import chain_parts
+
+    chain = _chain(ON_THE_EDGE)
+    parts, _ = chain_parts(chain)
+    evaluate = Evaluator(chain, tuple(parts), compute(chain), settle(chain, "low").voltages)
+    positions = np.random.default_rng(3).random((12, len(parts)))
+    figures = evaluate(positions)
+    masks = failing(evaluate.thresholds(figures), figures)
+    codes = ("clip-worst-case", "snr-low", "hiss-audible")
+    for code in codes:
+        assert 0 < masks[code].sum() < len(positions), code
+    for t in range(len(positions)):
+        changes = {
+            f"{part.owner}.{part.key}": f"{float(value[0])!r} {_si(part)}"
+            for part, value in zip(parts, evaluate.values(positions[t : t + 1]), strict=True)
+        }
+        found = {f.code for f in compute(chain.with_values(changes)).findings}
+        for code in codes:
+            assert bool(masks[code][t]) == (code in found), (code, t)

@@ -47,7 +47,7 @@ from chainbudget.spread.settings import HeldSettings, held_settings, worst_of_ca
 from chainbudget.stages.base import Environment
 from chainbudget.supplies import KINDS as SUPPLY_KINDS
 from chainbudget.supplies.base import Corners, SpreadThreshold
-from chainbudget.thresholds import SNR_MIN_DB, THIN_HEADROOM_DB
+from chainbudget.thresholds import HISS_SPL_A_LIMIT_DB, SNR_MIN_DB, THIN_HEADROOM_DB
 
 Figures = dict[str, NDArray[np.float64]]
 
@@ -68,6 +68,12 @@ class Threshold:
     #: Another figure that must stay at or above a limit for the code to be drawn (the
     #: worst case over band and controls is flagged only where the reference is clear).
     only_if_at_least: tuple[str, float] | None = None
+    #: The trials above ``limit`` draw the code instead (a hiss level).
+    above: bool = False
+
+    def beyond(self, value: NDArray[np.float64]) -> NDArray[np.bool_]:
+        """The trials on the failing side of the limit."""
+        return value > self.limit if self.above else value < self.limit
 
 
 @dataclass(frozen=True)
@@ -195,6 +201,12 @@ class Evaluator:
         output = f"nodes.{names[-1]}.snr_db" if names else ""
         if output in figures:
             found.append(Threshold(output, SNR_MIN_DB, "snr-low", "warning"))
+        if "hiss_spl_a_db" in figures:
+            found.append(
+                Threshold(
+                    "hiss_spl_a_db", HISS_SPL_A_LIMIT_DB, "hiss-audible", "warning", above=True
+                )
+            )
         for supply in self.chain.supplies:
             kind = SUPPLY_KINDS[supply.kind]
             if not kind.spread_fields(supply):
@@ -369,7 +381,7 @@ def failing(
     for t in thresholds:
         value = figures[t.path]
         tighter = [u.limit for u in thresholds if u.path == t.path and u.limit < t.limit]
-        mask = value < t.limit
+        mask = t.beyond(value)
         if tighter:
             mask &= value >= max(tighter)
         if t.only_if_at_least is not None:

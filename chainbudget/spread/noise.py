@@ -18,6 +18,7 @@ from numpy.typing import NDArray
 from chainbudget.budget.noise_spectra import noise_spectra, unweighted
 from chainbudget.cascade import Cascade
 from chainbudget.chainfile import Chain
+from chainbudget.outputmath import hiss_spl
 from chainbudget.spectrum import zero_celsius_k
 from chainbudget.stages.base import Environment
 from chainbudget.weighting import a_weighting
@@ -31,7 +32,8 @@ def output_noise(
     trials: int,
 ) -> dict[str, NDArray[np.float64]]:
     """The output node's ``noise_vrms``, ``noise_a_vrms``, ``snr_db`` and ``snr_a_db``
-    per trial, shape (T,), keyed by their path in the check JSON.
+    per trial, shape (T,), keyed by their path in the check JSON, and with a loudspeaker
+    sensitivity the hiss SPL at 1 m (``hiss_spl_db``, ``hiss_spl_a_db``).
 
     ``chain`` holds the drawn parts as (T, 1) arrays, ``as_set`` is its cascade with the
     controls as set on ``frequency`` (the reference, then the band grid).
@@ -53,4 +55,10 @@ def output_noise(
     with np.errstate(divide="ignore"):
         found[node + "snr_db"] = 20.0 * np.log10(level / found[node + "noise_vrms"])
         found[node + "snr_a_db"] = 20.0 * np.log10(level / found[node + "noise_a_vrms"])
+    sensitivity = chain.load.sensitivity
+    if sensitivity is not None:  # the hiss at 1 m, as `noise_budget` works it out
+        for key, noise in (("hiss_spl_db", "noise_vrms"), ("hiss_spl_a_db", "noise_a_vrms")):
+            found[key] = np.asarray(
+                hiss_spl(sensitivity, found[node + noise], chain.load.impedance), dtype=float
+            )
     return found

@@ -164,28 +164,30 @@ def _corners(
 def _crossing(
     t: Threshold,
     nominal: float,
-    corner_low: float,
+    corner: float,
     share_failing: float,
     delta: NDArray[np.float64],
     parts: tuple[Part, ...],
 ) -> Crossing:
-    """The part that pulls the figure furthest below the threshold, and the tolerance of it
-    that keeps the corner at the threshold (linear in the part's tolerance)."""
+    """The part that pulls the figure furthest past the threshold (below it, or above an
+    upper limit), and the tolerance of it that keeps the corner at the threshold (linear
+    in the part's tolerance)."""
     pull = np.abs(delta)
     i = int(np.argmax(pull))
     part = parts[i]
-    excess = t.limit - corner_low
+    excess = corner - t.limit if t.above else t.limit - corner
+    inside = nominal <= t.limit if t.above else nominal >= t.limit
     needed = None
     # Linear in each part, the corner lies sum_j |D_j| / 2 from nominal: part i's half.
     half = pull[i] / 2.0
-    if nominal >= t.limit and half > 0.0 and excess < half:
+    if inside and half > 0.0 and excess < half:
         scale = 1.0 - excess / half
         if part.is_beta:
             low, high = (part.low / part.nominal) ** scale, (part.high / part.nominal) ** scale
             needed = f"{low:.3g}x..{high:.3g}x"
         else:
             needed = f"{(part.high / part.nominal - 1.0) * scale * 100.0:.2g} %"
-    return Crossing(t, nominal, corner_low, share_failing, part.label, part.tolerance_text, needed)
+    return Crossing(t, nominal, corner, share_failing, part.label, part.tolerance_text, needed)
 
 
 def run_spread(
@@ -251,14 +253,14 @@ def run_spread(
             errors |= mask
     crossings = []
     for t in thresholds:
-        low = corners[t.path][0]
-        if low < t.limit:
-            share = float(np.mean(samples[t.path] < t.limit))
+        corner = corners[t.path][1 if t.above else 0]
+        if t.beyond(np.asarray(corner)):
+            share = float(np.mean(t.beyond(samples[t.path])))
             toward = np.where(deltas[t.path] != 0.0, deltas[t.path], 0.0)
             crossings.append(
-                _crossing(t, float(centre[t.path][0]), low, share, toward, parts)
+                _crossing(t, float(centre[t.path][0]), corner, share, toward, parts)
                 if n
-                else Crossing(t, float(centre[t.path][0]), low, share, "-", "-", None)
+                else Crossing(t, float(centre[t.path][0]), corner, share, "-", "-", None)
             )
     return SpreadResult(
         trials=trials,
