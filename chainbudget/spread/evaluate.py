@@ -22,7 +22,9 @@ The node figures and the level rules mirror `chainbudget.budget.levels.node_leve
 
 from __future__ import annotations
 
+import os
 from collections.abc import Mapping
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, replace
 from functools import cached_property
 from typing import Any, cast
@@ -52,8 +54,10 @@ from chainbudget.thresholds import HISS_SPL_A_LIMIT_DB, SNR_MIN_DB, THIN_HEADROO
 Figures = dict[str, NDArray[np.float64]]
 
 # Trial-frequency points per batched solve: each point is one stage matrix (n x n complex,
-# n up to 16 in the examples), so a batch's matrices take at most about 130 MB.
-CHUNK_POINTS = 1 << 15
+# n up to 16 in the examples), so a batch's matrices take at most about 70 MB.
+CHUNK_POINTS = 1 << 14
+# Chunks solved at once (threads; memory grows with them).
+WORKERS = max(1, min(4, os.cpu_count() or 1))
 
 
 @dataclass(frozen=True)
@@ -106,7 +110,11 @@ class Evaluator:
         size = self.chunk_trials
         if positions.shape[0] <= size:
             return self._batch(positions)
-        pieces = [self._batch(positions[i : i + size]) for i in range(0, len(positions), size)]
+        batches = [positions[i : i + size] for i in range(0, len(positions), size)]
+        # numpy's batched solves and array arithmetic release the GIL: the chunks run on
+        # the machine's cores side by side (each chunk is independent; order is kept)
+        with ThreadPoolExecutor(max_workers=WORKERS) as pool:
+            pieces = list(pool.map(self._batch, batches))
         return {path: np.concatenate([p[path] for p in pieces]) for path in pieces[0]}
 
     def _batch(self, positions: NDArray[np.float64]) -> Figures:

@@ -39,7 +39,8 @@ from chainbudget.chainfile import Chain, ChainError
 from chainbudget.spread.evaluate import Evaluator, Threshold, failing
 from chainbudget.spread.parts import HeldPart, Part, chain_parts
 
-# Trials per batched solve: a few tens of MB of matrices for the largest example chain.
+# Trials drawn (and reported to the progress bar) at a time; the evaluator solves them in
+# smaller batches over the frequency axis (`chainbudget.spread.evaluate.CHUNK_POINTS`).
 CHUNK_TRIALS = 8192
 # Every figure's trials are kept for the percentiles (8 bytes a figure a trial): past this
 # count the run is refused rather than left to exhaust memory.

@@ -21,6 +21,7 @@ from typing import Any
 import numpy as np
 
 from chainbudget import network
+from chainbudget.spread import evaluate as evaluate_module
 from chainbudget.budget import compute
 from chainbudget.budget.supplies import settle
 from chainbudget.chainfile import load_chain
@@ -35,6 +36,8 @@ REPEATS = 9
 def main() -> None:
     chain_file = Path(sys.argv[1]) if len(sys.argv) > 1 else ROOT / "chains" / "busking_amp.toml"
     trials = int(sys.argv[2]) if len(sys.argv) > 2 else 10_000
+    # one thread, as the baseline solves: the ratio compares like with like
+    evaluate_module.WORKERS = 1
     chain = load_chain(chain_file)
     parts, _ = chain_parts(chain)
     evaluate = Evaluator(chain, tuple(parts), compute(chain), settle(chain, "low").voltages)
