@@ -21,10 +21,10 @@ from typing import Any
 import numpy as np
 
 from chainbudget import network
-from chainbudget.spread import evaluate as evaluate_module
 from chainbudget.budget import compute
 from chainbudget.budget.supplies import settle
 from chainbudget.chainfile import load_chain
+from chainbudget.spread import evaluate as evaluate_module
 from chainbudget.spread.evaluate import Evaluator
 from chainbudget.spread.parts import chain_parts
 from chainbudget.spread.run import CHUNK_TRIALS
