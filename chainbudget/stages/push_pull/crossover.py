@@ -25,7 +25,6 @@ from typing import Any
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
-from scipy.special import lambertw
 
 from chainbudget import outputmath as om
 from chainbudget.kindfigures import KindFigures, figure
@@ -78,16 +77,28 @@ def _w_of_exp(x: NDArray[np.float64]) -> NDArray[np.float64]:
 
     Notes
     -----
-    scipy's lambertw where e^x is finite; beyond, Newton on w + ln w = x from the
-    asymptote x - ln x (Corless et al., "On the Lambert W function", Adv. Comput. Math. 5
-    (1996) 329, from memory)."""
-    small = np.minimum(x, 600.0)
-    w = np.asarray(lambertw(np.exp(small)).real)
-    big = np.maximum(x, 600.0)
-    v = big - np.log(big)
-    for _ in range(8):
-        v = v - (v + np.log(v) - big) / (1.0 + 1.0 / v)
-    return np.asarray(np.where(x > 600.0, v, w))
+    w = W(e^x) solves w + ln w = x (Corless et al., "On the Lambert W function",
+    Adv. Comput. Math. 5 (1996) 329, from memory). In u = ln w that is g(u) = e^u + u - x,
+    increasing and convex, so Newton's method converges from any start, monotonically
+    once an iterate lies right of the root (a step from the left lands right of it):
+    from u = ln(x) for x > e (the asymptote w ~ x) and u = x - 1 below (w ~ e^x, an
+    iterate right of the root where e^x is small), a few steps reach the float's
+    precision. Worked on the array at once: no per-point root finding, and no scipy on the
+    start path (tests/test_crossover.py holds it against ``scipy.special.lambertw``).
+    """
+    x = np.asarray(x, dtype=float)
+    u = np.where(x > np.e, np.log(np.maximum(x, np.e)), x - 1.0)
+    for _ in range(_W_MAX_STEPS):
+        e = np.exp(np.minimum(u, 700.0))
+        step = (e + u - x) / (e + 1.0)
+        u = u - step
+        if not np.any(np.abs(step) > 4.0 * np.finfo(float).eps * np.maximum(1.0, np.abs(u))):
+            break
+    return np.asarray(np.exp(np.minimum(u, 709.0)))
+
+
+# Newton steps at most for `_w_of_exp` (quadratic convergence takes a handful from its start).
+_W_MAX_STEPS = 60
 
 
 def pair_laws(stage: Stage, env: Environment) -> tuple[HalfLaw, HalfLaw]:

@@ -28,7 +28,6 @@ from dataclasses import dataclass
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
-from scipy.optimize import brentq
 
 from chainbudget import outputmath as om
 from chainbudget.kindfigures import KindFigures, figure
@@ -86,6 +85,8 @@ def hot_bias(
     tracking : the fraction k of the output devices' V_BE fall the spreader follows.
     v_t : thermal voltage, V.
     """
+    from scipy.optimize import brentq  # scipy loads only when this runs (start-up)
+
     i_q = laws[0].i_q
     vcc = np.asarray(rails_v, dtype=float)
     p_sig = np.asarray(signal_w, dtype=float)

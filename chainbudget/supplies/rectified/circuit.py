@@ -37,7 +37,6 @@ from collections.abc import Mapping
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.optimize import brentq
 
 from chainbudget import rectifier
 from chainbudget.supplies.base import Supply, SupplyLoad
@@ -254,6 +253,8 @@ def secondary_for_trough(tr: Transformer, load: SupplyLoad, target_v: float) -> 
     """Secondary (V rms, nominal mains, rated load) whose low-line trough under the same
     load is ``target_v`` (the regulation and rating kept), by root finding on the solved
     rectifier (Brent's method; the trough rises with the secondary)."""
+    from scipy.optimize import brentq  # scipy loads only when this runs (start-up)
+
     here = tr.secondary_vrms
 
     def miss(vrms: float) -> float:
@@ -277,6 +278,7 @@ def reservoir_for_trough(tr: Transformer, load: SupplyLoad, target_v: float) -> 
     """Smallest reservoir (F) whose low-line trough under the same load reaches
     ``target_v``, or None when none would (Brent's method in log C; the trough rises with
     C towards the peak the winding's drop leaves)."""
+    from scipy.optimize import brentq  # scipy loads only when this runs (start-up)
 
     def miss(log_c: float) -> float:
         return trough(dataclasses.replace(tr, reservoir_f=math.exp(log_c)), load) - target_v
@@ -302,6 +304,8 @@ def winding_for_trough(tr: Transformer, load: SupplyLoad, target_v: float) -> fl
     """Largest winding resistance (ohm) whose low-line trough under the same load reaches
     ``target_v`` with the reservoir as it is, or None when not even an ideal winding would
     (Brent's method; the trough falls as R_s grows)."""
+    from scipy.optimize import brentq  # scipy loads only when this runs (start-up)
+
     ideal = dataclasses.replace(tr, winding_ohm=0.0, derived=False)
     if trough(ideal, load) < target_v:
         return None
