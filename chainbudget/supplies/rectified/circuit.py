@@ -39,6 +39,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from chainbudget import rectifier
+from chainbudget.roots import bracketed_root
 from chainbudget.supplies.base import Supply, SupplyLoad
 from chainbudget.supplymath import mains_factors
 
@@ -253,8 +254,6 @@ def secondary_for_trough(tr: Transformer, load: SupplyLoad, target_v: float) -> 
     """Secondary (V rms, nominal mains, rated load) whose low-line trough under the same
     load is ``target_v`` (the regulation and rating kept), by root finding on the solved
     rectifier (Brent's method; the trough rises with the secondary)."""
-    from scipy.optimize import brentq  # scipy loads only when this runs (start-up)
-
     here = tr.secondary_vrms
 
     def miss(vrms: float) -> float:
@@ -271,14 +270,13 @@ def secondary_for_trough(tr: Transformer, load: SupplyLoad, target_v: float) -> 
             hi *= 2.0
             if hi > 1e5:
                 return None
-    return float(brentq(miss, lo, hi, xtol=1e-12, rtol=1e-13))
+    return float(bracketed_root(miss, lo, hi, xtol=1e-12, rtol=1e-13))
 
 
 def reservoir_for_trough(tr: Transformer, load: SupplyLoad, target_v: float) -> float | None:
     """Smallest reservoir (F) whose low-line trough under the same load reaches
     ``target_v``, or None when none would (Brent's method in log C; the trough rises with
     C towards the peak the winding's drop leaves)."""
-    from scipy.optimize import brentq  # scipy loads only when this runs (start-up)
 
     def miss(log_c: float) -> float:
         return trough(dataclasses.replace(tr, reservoir_f=math.exp(log_c)), load) - target_v
@@ -297,15 +295,13 @@ def reservoir_for_trough(tr: Transformer, load: SupplyLoad, target_v: float) -> 
             return None
     if miss(lo) >= 0.0:
         return math.exp(lo)
-    return float(math.exp(brentq(miss, lo, hi, xtol=1e-13, rtol=1e-13)))
+    return float(math.exp(bracketed_root(miss, lo, hi, xtol=1e-13, rtol=1e-13)))
 
 
 def winding_for_trough(tr: Transformer, load: SupplyLoad, target_v: float) -> float | None:
     """Largest winding resistance (ohm) whose low-line trough under the same load reaches
     ``target_v`` with the reservoir as it is, or None when not even an ideal winding would
     (Brent's method; the trough falls as R_s grows)."""
-    from scipy.optimize import brentq  # scipy loads only when this runs (start-up)
-
     ideal = dataclasses.replace(tr, winding_ohm=0.0, derived=False)
     if trough(ideal, load) < target_v:
         return None
@@ -318,4 +314,4 @@ def winding_for_trough(tr: Transformer, load: SupplyLoad, target_v: float) -> fl
         hi *= 2.0
         if hi > 1e6:
             return hi
-    return float(brentq(miss, 0.0, hi, xtol=1e-12, rtol=1e-12))
+    return float(bracketed_root(miss, 0.0, hi, xtol=1e-12, rtol=1e-12))
