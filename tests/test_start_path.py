@@ -23,7 +23,15 @@ from chainbudget.cli import app
 ROOT = Path(__file__).resolve().parents[1]
 BUSKING = ROOT / "chains" / "busking_amp.toml"
 # Modules of the analysis and report stack that neither --help nor blocks needs.
-HEAVY = ("chainbudget.budget", "chainbudget.findings", "chainbudget.report", "pint", "pydantic")
+HEAVY = (
+    "chainbudget.budget",
+    "chainbudget.findings",
+    "chainbudget.report",
+    "pint",
+    "pydantic",
+    "scipy",
+    "matplotlib",
+)
 
 
 def _loaded_after(args: list[str], env: dict[str, str] | None = None) -> set[str]:
@@ -60,6 +68,11 @@ def test_check_does_load_the_analysis() -> None:
     assert "chainbudget.budget" in loaded
     assert "pint" in loaded
     assert "pydantic" not in loaded  # the command line is read by cli_coercion
+    # scipy's heavy packages (half the import floor) and matplotlib stay off a check's
+    # path: roots by chainbudget.roots, W(e^x) by Newton, pictures only for plot and html.
+    # (pint itself imports the bare scipy package when it is installed, floor included.)
+    heavy = ("scipy.optimize", "scipy.special", "scipy.linalg", "scipy.integrate", "matplotlib")
+    assert not {m for m in loaded if m.startswith(heavy)}
 
 
 def _answers(args: list[str], plain: bool, monkeypatch: pytest.MonkeyPatch) -> tuple[int, str]:

@@ -91,5 +91,6 @@ def test_every_pot_keeps_every_rotation_however_many_are_swept() -> None:
 
 
 def test_no_coarse_search_finding_for_many_pots() -> None:
+    """The note a coarsened grid used to give has no cause left (its code is retired)."""
     six = compute(chain("".join(BASS.format(name=f"b{i}") for i in range(6))))
     assert "coarse-search" not in {f.code for f in findings(six)}
