@@ -21,9 +21,9 @@ from chainbudget.budget.search import SearchInput, SearchResult, SectionGrid, se
 from chainbudget.budget.segments import map_section, search_port, section_at
 from chainbudget.cascade import (
     Cascade,
+    SectionSolution,
     cascade,
     sections,
-    solve_cascade,
     solve_section,
     stamp_section,
 )
@@ -150,37 +150,38 @@ def positions_as_set(stages: Sequence[Stage]) -> list[dict[str, float]]:
     return [{c.key: c.position for c in KINDS[st.kind].controls(st)} for st in stages]
 
 
-def solve_chain(
+def solve_sections(
     chain: Chain,
-    envs: tuple[Environment, ...],
+    envs: Sequence[Environment],
     frequency: NDArray[np.float64],
     positions: Sequence[Mapping[str, object]],
-) -> Cascade:
-    """Solve every stage (a loop section as one network) and cascade them between the
-    source and the load (its impedance on the frequency axis).
+) -> list[SectionSolution]:
+    """Solve every section of the chain (a stage, or a loop section as one network).
 
     A singular network is an input error: it is reported with the stage (or the loop
     section's first stage) whose network it is.
     """
-    load = load_impedance(chain.load, frequency)
     settings = cast(Sequence[Mapping[str, ArrayLike]], positions)
-    try:
-        return solve_cascade(chain.stages, envs, frequency, settings, chain.source.impedance, load)
-    except SingularNetwork as exc:
-        for section in sections(chain.stages):
-            try:
-                solve_cascade(
-                    chain.stages[section.first : section.last + 1],
-                    envs[section.first : section.last + 1],
-                    frequency,
-                    settings[section.first : section.last + 1],
-                    chain.source.impedance,
-                    load,
-                )
-            except SingularNetwork:
-                stage = chain.stages[section.first]
-                raise ChainFileError(chain.file, stage.path, str(exc)) from None
-        raise ChainFileError(chain.file, "", str(exc)) from None
+    found = []
+    for section in sections(chain.stages):
+        try:
+            found.append(solve_section(chain.stages, envs, frequency, settings, section))
+        except SingularNetwork as exc:
+            stage = chain.stages[section.first]
+            raise ChainFileError(chain.file, stage.path, str(exc)) from None
+    return found
+
+
+def solve_chain(
+    chain: Chain,
+    envs: Sequence[Environment],
+    frequency: NDArray[np.float64],
+    positions: Sequence[Mapping[str, object]],
+) -> Cascade:
+    """Solve every section (`solve_sections`) and cascade them between the source and the
+    load (its impedance on the frequency axis)."""
+    solved = solve_sections(chain, envs, frequency, positions)
+    return cascade(solved, chain.source.impedance, load_impedance(chain.load, frequency))
 
 
 def master_volume(chain: Chain) -> int | None:
@@ -228,9 +229,12 @@ def section_grid(
     section: Section,
     controls: Sequence[SweptControl],
     builts: Sequence[Built],
+    as_set_solution: SectionSolution | None = None,
 ) -> SectionGrid:
     """A section solved over every combination of its own swept controls' rotations, a run
-    of frequencies at a time so that its matrices stay within SECTION_BLOCK entries.
+    of frequencies at a time so that its matrices stay within SECTION_BLOCK entries; a
+    section with none is its solution with every control as set (``as_set_solution`` when
+    given: the nominal solve's, not solved again).
 
     Each stage keeps the build of the nominal solve (``builts``: its limits over the whole
     band)."""
@@ -248,10 +252,13 @@ def section_grid(
         step = max(1, SECTION_BLOCK // (count * n * n))
     else:
         step = n_freq
-    pieces = [
-        solve_section(chain.stages, envs, frequency[i : i + step], settings, section)
-        for i in range(0, n_freq, step)
-    ]
+    if not controls and as_set_solution is not None:
+        pieces = [as_set_solution]
+    else:
+        pieces = [
+            solve_section(chain.stages, envs, frequency[i : i + step], settings, section)
+            for i in range(0, n_freq, step)
+        ]
 
     chunks = [frequency[i : i + step].size for i in range(0, n_freq, step)]
 
@@ -303,11 +310,16 @@ class WorstSearch:
 
 
 def worst_search(
-    chain: Chain, envs: Sequence[Environment], frequency: NDArray[np.float64], nominal: Cascade
+    chain: Chain,
+    envs: Sequence[Environment],
+    frequency: NDArray[np.float64],
+    nominal: Cascade,
+    nominal_sections: Sequence[SectionSolution] | None = None,
 ) -> WorstSearch:
     """Search every combination of the swept controls' rotations for the worst cases
     (`chainbudget.budget.search`), section by section, and solve the chain at the
-    candidate settings the other figures read."""
+    candidate settings the other figures read. ``nominal_sections`` (the sections of
+    ``nominal``, when at hand) serve as the grids of the sections with no swept control."""
     as_set = positions_as_set(chain.stages)
     controls = swept_controls(chain)
     found_sections = sections(chain.stages)
@@ -321,8 +333,9 @@ def worst_search(
             section,
             [sc for sc in controls if sc.stage_index in section],
             builts,
+            None if nominal_sections is None else nominal_sections[u],
         )
-        for section in found_sections
+        for u, section in enumerate(found_sections)
     )
     unit_of = tuple(
         next(u for u, section in enumerate(found_sections) if k in section)
@@ -404,8 +417,9 @@ def analyse(
     voltages = dict(supply_voltages(chain) if voltages is None else voltages)
     envs = environments(chain, corner, voltages)
     as_set = positions_as_set(chain.stages)
-    nominal = solve_chain(chain, envs, frequency, list(as_set))
-    worst = worst_search(chain, envs, frequency, nominal)
+    solved = solve_sections(chain, envs, frequency, list(as_set))
+    nominal = cascade(solved, chain.source.impedance, load_impedance(chain.load, frequency))
+    worst = worst_search(chain, envs, frequency, nominal, solved)
 
     volume_index = master_volume(chain)
     rotations = np.linspace(0.0, 1.0, VOLUME_POINTS)
