@@ -57,15 +57,12 @@ LARGEST = ROOT / "chains" / "busking_amp.toml"
 
 # Earlier trees the ``before`` section compares the largest example's check against.
 BEFORE = {"main at f828a9c": "f828a9c", "before the supplies work (d05204f^1)": "d05204f^1"}
-# Extra environment for a command (an earlier tree on PYTHONPATH), by its first argument's id.
-_ENV: dict[int, dict[str, str]] = {}
 
 
 def _run(args: list[str]) -> tuple[float, float]:
     """Wall time (s) and peak resident memory (MB) of one command."""
-    env = {**os.environ, **_ENV[id(args)]} if id(args) in _ENV else None
     start = time.perf_counter()
-    child = subprocess.Popen(args, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, env=env)
+    child = subprocess.Popen(args, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
     _pid, _status, usage = os.wait4(child.pid, 0)
     return time.perf_counter() - start, usage.ru_maxrss / 1024.0
 
@@ -335,25 +332,29 @@ def before(rounds: int, folder: Path) -> None:
     }
     for name, commit in BEFORE.items():
         tree = _tree(commit, folder)
-        args = [
-            PYTHON,
-            "-c",
-            "import sys; from chainbudget.cli import main; sys.argv[0] = 'chainbudget'; main()",
-            "check",
-            str(tree / "chains" / LARGEST.name),
-            "--format",
-            "json",
-        ]
-        _ENV[id(args)] = {"PYTHONPATH": str(tree)}
+        # The earlier tree first on the path, and not this one's editable install's finder.
+        launch = (
+            "import sys; "
+            "sys.meta_path[:] = [f for f in sys.meta_path if 'editable' not in "
+            "getattr(f, '__module__', '')]; "
+            f"sys.path.insert(0, {str(tree)!r}); "
+        )
         where = subprocess.run(
-            [PYTHON, "-c", "import chainbudget; print(chainbudget.__file__)"],
-            env={**os.environ, "PYTHONPATH": str(tree)},
+            [PYTHON, "-c", launch + "import chainbudget; print(chainbudget.__file__)"],
             capture_output=True,
             text=True,
             check=True,
         ).stdout.strip()
         assert where.startswith(str(tree)), where  # the earlier tree, not this one
-        commands[name] = args
+        commands[name] = [
+            PYTHON,
+            "-c",
+            launch + "from chainbudget.cli import main; sys.argv[0] = 'chainbudget'; main()",
+            "check",
+            str(tree / "chains" / LARGEST.name),
+            "--format",
+            "json",
+        ]
     found = measure(commands, rounds)
     print(f"\nCheck of {LARGEST.name}: earlier trees against this one (median; peak memory)")
     for name, (median, peak) in found.items():
