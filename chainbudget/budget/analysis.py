@@ -113,8 +113,7 @@ class Analysis:
         frequency f, or at ``settings[section, 0]`` at every one (arrays of shape (1, F))."""
         return cascade(
             [section_at(g.solution, settings[j][None, :]) for j, g in enumerate(self.grids)],
-            self.chain.source.impedance,
-            load_impedance(self.chain.load, self.frequency),
+            *chain_ends(self.chain, self.frequency),
         )
 
 
@@ -181,7 +180,14 @@ def solve_chain(
     """Solve every section (`solve_sections`) and cascade them between the source and the
     load (its impedance on the frequency axis)."""
     solved = solve_sections(chain, envs, frequency, positions)
-    return cascade(solved, chain.source.impedance, load_impedance(chain.load, frequency))
+    return cascade(solved, *chain_ends(chain, frequency))
+
+
+def chain_ends(chain: Chain, frequency: NDArray[np.float64]) -> tuple[Complex, Complex]:
+    """The source's and the load's impedances on the frequency axis (ohm): what every
+    cascade of the chain, and the worst-case search, is terminated in."""
+    source = np.broadcast_to(np.asarray(chain.source.impedance, dtype=complex), frequency.shape)
+    return source, np.asarray(load_impedance(chain.load, frequency), dtype=complex)
 
 
 def master_volume(chain: Chain) -> int | None:
@@ -341,15 +347,15 @@ def worst_search(
         next(u for u, section in enumerate(found_sections) if k in section)
         for k in range(len(chain.stages))
     )
-    load = load_impedance(chain.load, frequency)
+    source, load = chain_ends(chain, frequency)
     limited = [k for k, built in enumerate(builts) if built.limits]
     found = search(
         SearchInput(
             grids,
             unit_of,
             tuple(builts),
-            np.broadcast_to(np.asarray(chain.source.impedance, dtype=complex), frequency.shape),
-            np.broadcast_to(1.0 / np.asarray(load, dtype=complex), frequency.shape),
+            source,
+            np.broadcast_to(1.0 / load, frequency.shape),
             math.sqrt(2.0) * chain.source.max_level,
             slice(1, None),
         ),
@@ -361,7 +367,7 @@ def worst_search(
             section_at(g.solution, _section_combos(candidates, controls, section)[:, None])
             for g, section in zip(grids, found_sections, strict=True)
         ],
-        chain.source.impedance,
+        source,
         load,
     )
     return WorstSearch(controls, grids, found, candidates, at_candidates)
@@ -418,7 +424,7 @@ def analyse(
     envs = environments(chain, corner, voltages)
     as_set = positions_as_set(chain.stages)
     solved = solve_sections(chain, envs, frequency, list(as_set))
-    nominal = cascade(solved, chain.source.impedance, load_impedance(chain.load, frequency))
+    nominal = cascade(solved, *chain_ends(chain, frequency))
     worst = worst_search(chain, envs, frequency, nominal, solved)
 
     volume_index = master_volume(chain)
