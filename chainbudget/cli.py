@@ -1,8 +1,8 @@
 """The ``chainbudget`` command: thin; it parses arguments, calls the budget, picks a view.
 
 Each command imports what it uses when it runs: ``--help`` and ``blocks`` start without
-the analysis, the findings and the views (the network solver, scipy, the report stack),
-and ``check`` without matplotlib (docs/performance.md).
+the analysis, the findings, the views and pint, and ``check`` without matplotlib
+(docs/performance.md; tests/test_start_path.py).
 """
 
 from __future__ import annotations
