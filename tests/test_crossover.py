@@ -237,6 +237,9 @@ def test_lambert_w_of_exp_against_scipy() -> None:
     x = np.linspace(-700.0, 700.0, 20001)
     w = _w_of_exp(x)
     assert np.max(np.abs(w / lambertw(np.exp(x)).real - 1.0)) < 1e-13
+    # Started anywhere positive (the last step's answer, or far from it), the same root.
+    start = np.geomspace(1e-30, 1e30, x.size)
+    assert np.max(np.abs(_w_of_exp(x, start) / lambertw(np.exp(x)).real - 1.0)) < 1e-13
     big = np.geomspace(700.0, 1e8, 201)
     wb = _w_of_exp(big)
     assert np.max(np.abs((wb + np.log(wb) - big) / big)) < 1e-14
