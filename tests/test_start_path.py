@@ -200,3 +200,21 @@ def test_check_runs_the_same_when_the_cache_cannot_be_written(tmp_path: Path) ->
     assert blocked.returncode == plain.returncode
     assert blocked.stderr == ""
     assert blocked.stdout == plain.stdout
+
+
+def test_a_cache_written_by_another_pint_is_never_read(
+    fresh_registry: None, tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """The cache holds pickled pint objects, so each pint and Python version has its own
+    folder: another version's files (here garbage under its name) are left alone."""
+    import pint
+
+    monkeypatch.setenv("XDG_CACHE_HOME", str(tmp_path))
+    other = tmp_path / "chainbudget" / "pint-0.1.0-py3.0"
+    other.mkdir(parents=True)
+    (other / "stale.pickle").write_bytes(b"not a pickle of this pint")
+    folder = units.registry_cache_folder()
+    assert folder != other and pint.__version__ in folder.name
+    assert units.registry().cache_folder == folder
+    assert units.parse_quantity("2.2 uF", units.FARAD) == pytest.approx(2.2e-6, rel=1e-15)
+    assert (other / "stale.pickle").read_bytes() == b"not a pickle of this pint"
