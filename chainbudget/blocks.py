@@ -18,6 +18,7 @@ from chainbudget.parts import (
 )
 from chainbudget.stages import KINDS as STAGE_KINDS
 from chainbudget.supplies import KINDS as SUPPLY_KINDS
+from chainbudget.tolerance import TOLERANCE_FIELDS, tolerance_note
 
 
 @dataclass(frozen=True)
@@ -38,6 +39,7 @@ def catalogue() -> dict[str, Entry]:
         Entry("load", "[load]", "the loudspeaker (or line load) at the end", LOAD_FIELDS),
         Entry("opamp", "[opamp.NAME]", "an op-amp part", OPAMP_FIELDS),
         Entry("transistor", "[transistor.NAME]", "a bipolar transistor part", TRANSISTOR_FIELDS),
+        Entry("tolerances", "[tolerances]", "part classes' tolerances (spread)", TOLERANCE_FIELDS),
     ]
     entries += [Entry(k.kind, "[[stage]]", k.summary, k.fields) for k in STAGE_KINDS.values()]
     for k in SUPPLY_KINDS.values():
@@ -126,6 +128,9 @@ def markdown(entries: dict[str, Entry]) -> str:
             for fld in e.fields
         ]
         lines.append("")
+        note = tolerance_note(e.fields) if e.table in ("[[stage]]", "[[supply]]") else None
+        if note is not None:
+            lines += [note.replace("tolerance = {", "`tolerance = {").replace("}:", "}`:"), ""]
         if e.name in ("opamp", "transistor"):
             header, rows = generic_parts(e.name)
             lines += [

@@ -399,11 +399,16 @@ def whole_chain_network(
     positions: Sequence[Mapping[str, ArrayLike]],
     source_impedance: float,
     load_impedance: ArrayLike,
+    *,
+    source_capacitance: float | None = None,
+    source_inductance: float | None = None,
 ) -> tuple[Netlist, list[str]]:
     """One network of the whole chain, source voltage to load, built by the same stages.
 
     ``load_impedance`` is in ohm, a number or an array on the frequency axis (a
-    loudspeaker's impedance, `chainbudget.loudspeaker.load_impedance`).
+    loudspeaker's impedance, `chainbudget.loudspeaker.load_impedance`). A reactive source's
+    ``source_capacitance`` (F) and ``source_inductance`` (H) are stamped as parts in series
+    with the resistor ``source.impedance``, which runs from ``src``.
 
     Returns the netlist (a 1 V source named ``source`` drives node ``src``) and the names of
     the stage output nodes. Used to check the cascade, and for the noise of the whole chain.
@@ -411,8 +416,16 @@ def whole_chain_network(
     """
     net = Netlist(frequency)
     net.voltage_source("src", "0", label="source")
+    reactive = [
+        (value, stamp)
+        for value, stamp in ((source_capacitance, net.capacitor), (source_inductance, net.inductor))
+        if value is not None
+    ]
+    nodes = ["src", *(f"src.{i}" for i in range(len(reactive))), "n0"]
+    net.resistor(nodes[0], nodes[1], max(source_impedance, 1e-9), label="source.impedance")
+    for (value, stamp), a, b in zip(reactive, nodes[1:-1], nodes[2:], strict=True):
+        stamp(a, b, value)
     node = "n0"
-    net.resistor("src", node, max(source_impedance, 1e-9), label="source.impedance")
     outs: list[str] = []
     found = sections(stages)
     for k, (stage, env, pos) in enumerate(zip(stages, envs, positions, strict=True), 1):

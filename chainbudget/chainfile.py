@@ -32,10 +32,20 @@ from chainbudget.parts import (
     OpAmp,
     Transistor,
 )
+from chainbudget.source_network import SOURCE_REACTIVE_FIELDS
 from chainbudget.stages import KINDS as STAGE_KINDS
 from chainbudget.stages.base import Stage
 from chainbudget.supplies import KINDS as SUPPLY_KINDS
 from chainbudget.supplies.base import GROUND_SUPPLY, Supply
+from chainbudget.tolerance import CLASSES as TOLERANCE_CLASSES
+from chainbudget.tolerance import (
+    Bound,
+    Tolerances,
+    read_bound,
+    read_class_defaults,
+    toleranced_fields,
+    write_bound,
+)
 from chainbudget.units import UnitParseError, shown
 
 
@@ -73,13 +83,14 @@ SOURCE_FIELDS = (
     f.Field("level", f.LEVEL, "nominal programme level (sine-equivalent)"),
     f.Field("max_level", f.LEVEL, "hottest level the input must take (default: level)", None),
     f.Field("impedance", f.SOURCE_IMPEDANCE, "source output impedance (resistive)", 0.0),
+    *SOURCE_REACTIVE_FIELDS,
 )
 LOAD_FIELDS = (
     f.Field("impedance", f.LOAD_IMPEDANCE, "nominal load (loudspeaker) impedance"),
     f.Field("sensitivity", f.DECIBELS, "SPL at 1 m for 1 W (enables SPL figures)", None),
     *LOUDSPEAKER_FIELDS,
 )
-TOP_TABLES = ("chain", "source", "load", "opamp", "transistor", "supply", "stage")
+TOP_TABLES = ("chain", "source", "load", "opamp", "transistor", "supply", "stage", "tolerances")
 # Size limits (docs/format.md): the work and memory of a check grow with its frequencies,
 # its stages and its swept pots; past these a file is refused in one line, not run out of
 # memory. The worst-case search grows polynomially with the pots (budget/search.py) except
@@ -107,11 +118,15 @@ class Settings:
 
 @dataclass(frozen=True)
 class Source:
-    """What feeds the first stage: levels as rms V, impedance ohm."""
+    """What feeds the first stage: levels as rms V (open circuit), impedance ohm; optionally
+    a series capacitance (F) and inductance (H), which make it
+    `chainbudget.source_network.source_impedance` at every frequency."""
 
     level: float
     max_level: float
     impedance: float
+    capacitance: float | None = None
+    inductance: float | None = None
 
 
 @dataclass(frozen=True)
@@ -146,6 +161,8 @@ class Chain:
     transistors: Mapping[str, Transistor]
     supplies: tuple[Supply, ...]
     stages: tuple[Stage, ...]
+    #: The parts' tolerances: ``[tolerances]`` and each table's ``tolerance`` overrides.
+    tolerances: Tolerances = Tolerances()
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "opamps", f.frozen(self.opamps))
@@ -270,10 +287,13 @@ class _Reader:
         schema: Iterable[f.Field],
         path: str,
         skip: Iterable[str] = (),
+        after: Iterable[str] = (),
     ) -> dict[str, Any]:
-        """Read ``data`` against ``schema``: unknown keys, missing keys, bad values."""
+        """Read ``data`` against ``schema``: unknown keys, missing keys, bad values.
+        ``skip`` and ``after`` are keys read elsewhere (listed before and after the
+        schema's in an unknown field's message)."""
         schema = tuple(schema)
-        known = [*skip, *(field.key for field in schema)]
+        known = [*skip, *(field.key for field in schema), *after]
         for key in data:
             if key not in known:
                 raise self.error(
@@ -378,7 +398,65 @@ def _settings(reader: _Reader, data: Mapping[str, Any], default_title: str) -> S
     return Settings(**{**values, "title": values["title"] or default_title})
 
 
-def _supplies(reader: _Reader, data: Mapping[str, Any]) -> tuple[Supply, ...]:
+def _entry_tolerances(
+    reader: _Reader,
+    item: Mapping[str, Any],
+    schema: Iterable[f.Field],
+    path: str,
+    owner: tuple[str, str],
+) -> list[tuple[tuple[str, str], str, Bound]]:
+    """A stage's or supply's ``tolerance = { field = "1 %" }``: each key a field of its kind
+    that takes a tolerance (chainbudget/tolerance.py), each value a bound of its class."""
+    if "tolerance" not in item:
+        return []
+    table = reader.table(item["tolerance"], f"{path}.tolerance")
+    takes = toleranced_fields(schema)
+    found: list[tuple[tuple[str, str], str, Bound]] = []
+    for key, value in table.items():
+        where = f"{path}.tolerance.{quoted(key)[1:-1]}"
+        if key not in takes:
+            raise reader.error(
+                where,
+                "no field of this kind that takes a tolerance"
+                + suggest(key, takes)
+                + ("; those that do: " + listing(takes) if takes else "; it has none"),
+            )
+        try:
+            found.append((owner, key, read_bound(value, takes[key])))
+        except UnitParseError as exc:
+            raise reader.error(where, str(exc)) from None
+    return found
+
+
+def _tolerances(
+    reader: _Reader,
+    data: Mapping[str, Any],
+    overrides: list[tuple[tuple[str, str], str, Bound]],
+) -> Tolerances:
+    """The ``[tolerances]`` table's class defaults with the tables' own overrides."""
+    body = reader.table(data.get("tolerances", {}), "tolerances")
+    try:
+        fractions, beta = read_class_defaults(body)
+    except KeyError as exc:
+        key = str(exc.args[0])
+        raise reader.error(
+            f"tolerances.{quoted(key)[1:-1]}",
+            "unknown part class"
+            + suggest(key, TOLERANCE_CLASSES)
+            + "; the classes: "
+            + ", ".join(TOLERANCE_CLASSES),
+        ) from None
+    except UnitParseError as exc:
+        key = next(k for k, v in body.items() if v is exc.given)
+        raise reader.error(f"tolerances.{quoted(key)[1:-1]}", str(exc)) from None
+    return Tolerances(fractions, beta, tuple(overrides))
+
+
+def _supplies(
+    reader: _Reader,
+    data: Mapping[str, Any],
+    overrides: list[tuple[tuple[str, str], str, Bound]],
+) -> tuple[Supply, ...]:
     found: list[Supply] = []
     for index, item in enumerate(reader.named_list(data, "supply"), start=1):
         name, kind = reader.name_and_kind(item, f"supply[{index}]", SUPPLY_KINDS)
@@ -387,7 +465,8 @@ def _supplies(reader: _Reader, data: Mapping[str, Any]) -> tuple[Supply, ...]:
         schema = spec.fields
         if spec.needs_parent:
             schema = (f.Field("from", f.NAME, "the supply this one is fed from"), *schema)
-        values = reader.read(item, schema, path, skip=("name", "kind"))
+        values = reader.read(item, schema, path, skip=("name", "kind"), after=("tolerance",))
+        overrides.extend(_entry_tolerances(reader, item, schema, path, ("supply", name)))
         for key in spec.missing(values):
             raise reader.error(f"{path}.{key}", _missing(schema, key))
         for key, message in spec.problems(values):
@@ -438,6 +517,7 @@ def _stages(
     supplies: tuple[Supply, ...],
     opamps: Mapping[str, OpAmp],
     transistors: Mapping[str, Transistor],
+    overrides: list[tuple[tuple[str, str], str, Bound]],
 ) -> tuple[Stage, ...]:
     found: list[Stage] = []
     rail_names = [rail for s in supplies for rail in SUPPLY_KINDS[s.kind].rails(s)]
@@ -452,7 +532,8 @@ def _stages(
         name, kind = reader.name_and_kind(item, f"stage[{index}]", STAGE_KINDS)
         path = f"stage[{index}] {quoted(name)}"
         spec = STAGE_KINDS[kind]
-        values = reader.read(item, spec.fields, path, skip=("name", "kind"))
+        values = reader.read(item, spec.fields, path, skip=("name", "kind"), after=("tolerance",))
+        overrides.extend(_entry_tolerances(reader, item, spec.fields, path, ("stage", name)))
         for key in spec.missing(values):
             raise reader.error(f"{path}.{key}", _missing(spec.fields, key, " for this topology"))
         if any(s.name == name for s in found):
@@ -568,8 +649,9 @@ def parse_chain(data: Mapping[str, Any], file: str) -> Chain:
     transistors = _parts(
         reader, data, "transistor", TRANSISTOR_FIELDS, Transistor, GENERIC_TRANSISTORS
     )
-    supplies = _supplies(reader, data)
-    stages = _stages(reader, data, supplies, opamps, transistors)
+    overrides: list[tuple[tuple[str, str], str, Bound]] = []
+    supplies = _supplies(reader, data, overrides)
+    stages = _stages(reader, data, supplies, opamps, transistors, overrides)
     for index, key, message in loop_problems(stages):
         raise reader.error(f"{stages[index].path}.{key}", message)
     _swept_pots(reader, stages)
@@ -582,6 +664,7 @@ def parse_chain(data: Mapping[str, Any], file: str) -> Chain:
         transistors=transistors,
         supplies=supplies,
         stages=stages,
+        tolerances=_tolerances(reader, data, overrides),
     )
 
 
@@ -692,14 +775,32 @@ def chain_to_dict(chain: Chain) -> dict[str, Any]:
                 "kind": sp.kind,
                 **({"from": sp.parent} if sp.parent is not None else {}),
                 **_written(sp.values, SUPPLY_KINDS[sp.kind].fields),
+                **_written_tolerances(chain.tolerances, ("supply", sp.name)),
             }
             for sp in chain.supplies
         ]
     data["stage"] = [
-        {"name": st.name, "kind": st.kind, **_written(st.values, STAGE_KINDS[st.kind].fields)}
+        {
+            "name": st.name,
+            "kind": st.kind,
+            **_written(st.values, STAGE_KINDS[st.kind].fields),
+            **_written_tolerances(chain.tolerances, ("stage", st.name)),
+        }
         for st in chain.stages
     ]
+    if not chain.tolerances.is_default():
+        tol = chain.tolerances
+        data["tolerances"] = {
+            **{k: write_bound(v) for k, v in tol.fractions.items()},
+            "beta": write_bound(tol.beta),
+        }
     return data
+
+
+def _written_tolerances(tolerances: Tolerances, owner: tuple[str, str]) -> dict[str, Any]:
+    """A table's own ``tolerance`` overrides as the file holds them (none: no key)."""
+    own = {key: write_bound(bound) for who, key, bound in tolerances.overrides if who == owner}
+    return {"tolerance": own} if own else {}
 
 
 # --- deriving a changed chain ---------------------------------------------------------------

@@ -245,6 +245,12 @@ def blocks(
             *(escape(text) for text in (fld.key, fld.kind.unit, default_text(fld), fld.meaning))
         )
     console.print(table)
+    if e.table in ("[[stage]]", "[[supply]]"):
+        from chainbudget.tolerance import tolerance_note
+
+        note = tolerance_note(e.fields)
+        if note is not None:
+            console.print(escape(note))
     if kind in ("opamp", "transistor"):
         columns, cells = generic_parts(kind)
         shipped = Table(
@@ -437,6 +443,32 @@ def sweep(
         _console().print(sweep_table(info, rows))
     else:
         typer.echo(sweep_text(info, rows, output_format), nl=output_format == "json")
+
+
+@app.command(cls=_Command)
+def spread(
+    file: Annotated[Path, typer.Argument(help="chain file (TOML)")],
+    trials: Annotated[int, typer.Option(help="Monte Carlo trials")] = 10_000,
+    seed: Annotated[int, typer.Option(help="random seed (same seed, same trials)")] = 1,
+    output_format: Annotated[str, typer.Option("--format", "-f", help="table or json")] = "table",
+    plot: Annotated[
+        Path | None, typer.Option("--plot", help="histograms of the key figures (png/svg/pdf)")
+    ] = None,
+    force: Annotated[bool, typer.Option(help="overwrite an existing --plot file")] = False,
+) -> None:
+    """Every figure over the parts' tolerances: Monte Carlo, corners, yield, sensitivity."""
+    from chainbudget.spread.command import spread_command  # loads only on this path
+
+    try:
+        text = spread_command(file, trials, seed, output_format, plot, force)
+    except ChainError as exc:
+        raise _fail(str(exc)) from None
+    except Exception as exc:
+        if _numeric_failure(exc):
+            raise _analysis_failed(file, exc) from None
+        raise
+    if text is not None:
+        typer.echo(text)
 
 
 @app.command(cls=_Command)

@@ -79,6 +79,9 @@ class Field:
     kind: FieldKind
     meaning: str
     default: Any = REQUIRED
+    #: The tolerance class the field's part takes its default from ("pots", "beta"...);
+    #: None: resistances and capacitances by their kind (chainbudget/tolerance.py).
+    tolerance: str | None = None
 
     @property
     def required(self) -> bool:

@@ -109,6 +109,39 @@ class NoiseSource:
     rhs: tuple[tuple[Ref, Complex], ...]
 
 
+@dataclass(frozen=True)
+class RippleSource:
+    """One way supply ripple enters a netlist (the hum budget's injections).
+
+    Attributes
+    ----------
+    label : str
+        Unique name, e.g. ``"pre.opamp.psrr+"``.
+    stage : str
+        The stage it belongs to.
+    path : str
+        What carries the ripple in, for the report (``"V+ pin (PSRR)"``, ``"bias"``).
+    rail : str
+        The stage's rail it comes from, by role: ``"positive"``, ``"negative"`` or
+        ``"bias"`` (the supply its ``bias`` names); the hum budget resolves the role to a
+        supply, and drops a source whose role names none (ground, an ideal bias point).
+    polarity : float
+        +1 or -1: the factor on the rail's ripple as its supply reports it (a magnitude's
+        ripple; a resistor to a negative rail sees it inverted, a PSRR source does not).
+    rhs : tuple of (Ref, ndarray)
+        Where one volt of the rail's ripple enters the right-hand side of the MNA system,
+        with its coefficient on the frequency axis (a current into a node, or a voltage in a
+        branch's equation).
+    """
+
+    label: str
+    stage: str
+    path: str
+    rail: str
+    polarity: float
+    rhs: tuple[tuple[Ref, Complex], ...]
+
+
 @dataclass
 class _Stamp:
     rows: tuple[int, ...]
@@ -131,6 +164,7 @@ class Netlist:
     nodes: dict[str, int] = field(default_factory=dict)
     branches: dict[str, int] = field(default_factory=dict)
     noise: list[NoiseSource] = field(default_factory=list)
+    ripple: list[RippleSource] = field(default_factory=list)
     _stamps: list[_Stamp] = field(default_factory=list)
     _branch_stamps: list[tuple[str, list[tuple[str, float]], list[tuple[str, Complex]]]] = field(
         default_factory=list
@@ -338,6 +372,77 @@ class Netlist:
         rhs = ((branch, np.asarray(coefficient, complex)),)
         self.noise.append(NoiseSource(label, stage, part, kind, self._density(psd), rhs))
 
+    # --- ripple injections (the hum budget) ------------------------------------------------
+    def ripple_current(
+        self,
+        node: str,
+        coefficient: ArrayLike,
+        *,
+        rail: str,
+        label: str,
+        stage: str,
+        path: str,
+        polarity: float = 1.0,
+    ) -> None:
+        """Ripple entering ``node`` as a current of ``coefficient`` A per volt of the rail's
+        ripple (a resistor R to a rippling rail: its Norton form, 1/R, beside the resistor
+        stamped to ground)."""
+        if node == GROUND:
+            return
+        rhs = ((node_ref(node), self._on_axis(coefficient)),)
+        self.ripple.append(RippleSource(label, stage, path, rail, polarity, rhs))
+
+    def ripple_voltage_at(
+        self,
+        branch: Ref,
+        coefficient: ArrayLike,
+        *,
+        rail: str,
+        label: str,
+        stage: str,
+        path: str,
+        polarity: float = 1.0,
+    ) -> None:
+        """Ripple entering the equation of ``branch`` with ``coefficient`` per volt of the
+        rail's ripple (an input-referred source at an op-amp's + input: its open-loop gain
+        times the rejection's factor)."""
+        rhs = ((branch, self._on_axis(coefficient)),)
+        self.ripple.append(RippleSource(label, stage, path, rail, polarity, rhs))
+
+    def _on_axis(self, value: ArrayLike) -> Complex:
+        array = np.asarray(value, complex)
+        return np.broadcast_to(array, np.broadcast_shapes(array.shape, self.frequency.shape))
+
+    def ripple_transfers(self, nodes: list[str]) -> tuple[Complex, Complex]:
+        """Every ripple source's transfer to each of ``nodes``, and the source branch's.
+
+        Returns ``(to_nodes, from_source)``: ``to_nodes`` with shape ``batch + (F, J, R)``,
+        the voltage at node j per volt of ripple on source r's rail; ``from_source`` with
+        shape ``batch + (F, J)``, the voltage at node j per volt of a voltage source named
+        ``source`` where the netlist has one (zeros otherwise).
+
+        Notes
+        -----
+        One batched solve M X = B with a right-hand side per ripple source (and one for the
+        signal source), frequency an array axis: superposition, each source alone with the
+        others (and the signal source) at zero (Ho, Ruehli & Brennan, IEEE Trans. CAS-22
+        (1975) 504).
+        """
+        m = self.matrix()
+        count = len(self.ripple)
+        b = np.zeros((*m.shape[:-1], count + 1), dtype=complex)
+        for r, source in enumerate(self.ripple):
+            for ref, coefficient in source.rhs:
+                index = self.index(ref)
+                if index >= 0:
+                    b[..., index, r] += coefficient
+        if "source" in self.branches:
+            b[..., self.index(branch_ref("source")), count] = 1.0
+        x = _solved(m, b)
+        rows = [self.nodes[name] for name in nodes]
+        picked = x[..., rows, :]
+        return picked[..., :count], picked[..., count]
+
     def _density(self, psd: ArrayLike) -> NDArray[np.float64]:
         density = np.asarray(psd, float)
         return np.broadcast_to(density, np.broadcast_shapes(density.shape, self.frequency.shape))
@@ -350,22 +455,39 @@ class Netlist:
         values += [c for _, _, coefficients in self._branch_stamps for _, c in coefficients]
         shape = np.broadcast_shapes(f_shape, *(np.shape(v) for v in values))
         n = self.size
-        m = np.zeros((*shape, n, n), dtype=complex)
+        # Stamps of one value everywhere go into one N x N matrix; the values that vary (over
+        # frequency, controls or trials) are summed per entry and written into the batch in
+        # one indexed assignment (entry-by-entry writes are strided passes over the batch).
+        fixed = np.zeros((n, n), dtype=complex)
         diagonal = np.arange(len(self.nodes))
-        m[..., diagonal, diagonal] += GMIN
+        fixed[diagonal, diagonal] += GMIN
+        varying: dict[tuple[int, int], Any] = {}
+
+        def add(r: int, c: int, value: Any) -> None:
+            if np.size(value) == 1:
+                fixed[r, c] += np.asarray(value).reshape(())
+            else:
+                varying[(r, c)] = varying.get((r, c), 0.0) + value
+
         for st in self._stamps:
             for r, c, sign in zip(st.rows, st.cols, st.signs, strict=True):
                 if r >= 0 and c >= 0:
-                    m[..., r, c] += sign * st.value
+                    add(r, c, sign * st.value)
         for label, controls, coefficients in self._branch_stamps:
             k = self.index(branch_ref(label))
             for name, sign in controls:
                 if name != GROUND:
-                    m[..., self.nodes[name], k] += sign
-                    m[..., k, self.nodes[name]] += sign
+                    fixed[self.nodes[name], k] += sign
+                    fixed[k, self.nodes[name]] += sign
             for name, coefficient in coefficients:
                 if name != GROUND:
-                    m[..., k, self.nodes[name]] += coefficient
+                    add(k, self.nodes[name], coefficient)
+        m = np.empty((*shape, n, n), dtype=complex)
+        m[...] = fixed
+        if varying:
+            rows, cols = (np.array(index) for index in zip(*varying, strict=True))
+            entries = np.stack([np.broadcast_to(v, shape) for v in varying.values()], axis=-1)
+            m[..., rows, cols] = fixed[rows, cols] + entries
         return m
 
     def solve(self, rhs: ArrayLike) -> Complex:

@@ -25,6 +25,8 @@ OPAMP_FIELDS: tuple[f.Field, ...] = (
     f.Field("supply_current", f.CURRENT, "quiescent current per section", 0.002),
     f.Field("offset_voltage", f.VOLTAGE_OR_ZERO, "input offset voltage (magnitude)", 1e-3),
     f.Field("bias_current", f.CURRENT, "input bias current, each input (magnitude)", 100e-9),
+    f.Field("psrr", f.DECIBELS, "supply rejection at low frequency, each rail pin", 80.0),
+    f.Field("psrr_corner", f.FREQUENCY, "where the supply rejection starts to fall", 100.0),
     f.Field("min_supply", f.POSITIVE_VOLTAGE, "least total supply, rail to rail", None),
     f.Field("max_supply", f.POSITIVE_VOLTAGE, "greatest total supply, rail to rail", None),
     f.Field("description", f.NAME, "what the class stands for", ""),
@@ -58,7 +60,10 @@ class OpAmp:
     ``offset_voltage`` and ``bias_current`` are magnitudes (typical figures): their sign
     is unknown, so the DC figures take the worst of both. The defaults of a part described
     in a chain file without them (1 mV, 100 nA) are those of a general-purpose bipolar
-    op-amp, from memory (common practice, no source).
+    op-amp, from memory (common practice, no source). ``psrr`` (dB) is the power-supply
+    rejection at low frequency, the same for each rail pin, and ``psrr_corner`` (Hz) where
+    it starts to fall at 20 dB/decade; a part described without them gets 80 dB and
+    100 Hz, typical values of a general-purpose op-amp quoted from memory.
     """
 
     name: str
@@ -75,6 +80,8 @@ class OpAmp:
     supply_current: float = 0.002
     offset_voltage: float = 1e-3
     bias_current: float = 100e-9
+    psrr: float = 80.0
+    psrr_corner: float = 100.0
     min_supply: float | None = None
     max_supply: float | None = None
     description: str = ""
@@ -104,7 +111,9 @@ _GENERIC = "Generic class with representative typical values, not any real part.
 # Representative values for each family, set from general experience of the families
 # (common practice, no source; offset voltage and bias current are typical figures of each
 # family quoted from memory); they are demonstration defaults, not a datasheet. None has a
-# second pole: each is taken as compensated to a single pole.
+# second pole: each is taken as compensated to a single pole. The supply rejection (psrr at
+# low frequency, falling from psrr_corner at 20 dB/decade) is a typical value of each
+# family quoted from memory, not a datasheet figure.
 GENERIC_OPAMPS: dict[str, OpAmp] = {
     op.name: op
     for op in (
@@ -122,6 +131,8 @@ GENERIC_OPAMPS: dict[str, OpAmp] = {
             supply_current=0.0015,
             offset_voltage=3e-3,
             bias_current=30e-12,
+            psrr=86.0,
+            psrr_corner=30.0,
             min_supply=10.0,
             max_supply=36.0,
             description="JFET-input general-purpose op-amp. " + _GENERIC,
@@ -140,6 +151,8 @@ GENERIC_OPAMPS: dict[str, OpAmp] = {
             supply_current=0.005,
             offset_voltage=0.5e-3,
             bias_current=200e-9,
+            psrr=100.0,
+            psrr_corner=100.0,
             min_supply=10.0,
             max_supply=36.0,
             description="Low-noise bipolar audio op-amp. " + _GENERIC,
@@ -158,6 +171,8 @@ GENERIC_OPAMPS: dict[str, OpAmp] = {
             supply_current=0.0017,
             offset_voltage=1e-3,
             bias_current=80e-9,
+            psrr=90.0,
+            psrr_corner=10.0,
             min_supply=10.0,
             max_supply=36.0,
             description="Early general-purpose bipolar op-amp. " + _GENERIC,
@@ -176,6 +191,8 @@ GENERIC_OPAMPS: dict[str, OpAmp] = {
             supply_current=0.0001,
             offset_voltage=1e-3,
             bias_current=1e-12,
+            psrr=80.0,
+            psrr_corner=1000.0,
             min_supply=2.7,
             max_supply=6.0,
             description="Low-voltage CMOS rail-to-rail op-amp. " + _GENERIC,

@@ -126,6 +126,13 @@ CAPACITANCE = _range(
     1e-18, 1e3, "nothing outside 1 attofarad to 1 kilofarad is taken",
     units.FARAD,
 )  # fmt: skip
+# A source's series inductance: a dynamic microphone's coil (millihenries) to a magnetic
+# pickup (a few henries; a hot one some 10 H). No spelled-out escape: an inductance outside
+# this is no audio source.
+SOURCE_INDUCTANCE = _range(
+    1e-6, 100.0, "an inductance from 1 uH to 100 H for a source",
+    1e-6, 100.0, "nothing outside 1 uH to 100 H is taken",
+)  # fmt: skip
 # From below the audio band (a subsonic corner) to an op-amp's gain-bandwidth product.
 FREQUENCY = _range(
     0.1, 1e9, "a frequency from 0.1 Hz to 1 GHz",

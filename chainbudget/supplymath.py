@@ -15,7 +15,7 @@ from typing import NamedTuple
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from chainbudget.eseries import largest_at_most
+from chainbudget.eseries import largest_at_most, smallest_at_least
 from chainbudget.rectifier import pulse_response_peak
 
 _SQRT2 = float(np.sqrt(2.0))
@@ -451,3 +451,26 @@ def first_order_lowpass(hz: float, resistance_ohm: float, capacitance_f: float |
     if capacitance_f is None or capacitance_f <= 0.0:
         return 1.0 + 0.0j
     return 1.0 / (1.0 + 2j * np.pi * hz * resistance_ohm * capacitance_f)
+
+
+def capacitor_for_attenuation(
+    attenuation: float, hz: float, resistance_ohm: float, now_f: float | None, series: str = "E6"
+) -> float:
+    """The smallest capacitor of an E series that makes a first-order RC low-pass pass
+    ``attenuation`` times less at ``hz`` than it does with ``now_f`` (None: no capacitor),
+    F.
+
+    Notes
+    -----
+    |1 + j w R C| = N |1 + j w R C_now| gives C = sqrt(N^2 |1 + j w R C_now|^2 - 1)/(w R)
+    (the first-order low-pass, circuit theory); rounded up to the series (IEC 60063).
+    """
+    w = 2.0 * np.pi * hz
+    now = abs(1.0 + 1j * w * resistance_ohm * (now_f or 0.0))
+    wanted = max(attenuation * now, 1.0 + 1e-12)
+    return smallest_at_least(float(np.sqrt(wanted**2 - 1.0) / (w * resistance_ohm)), series)
+
+
+def microfarads(farads: float) -> str:
+    """A capacitor as a chain file writes it, in microfarads (``"470 uF"``)."""
+    return f"{farads * 1e6:.6g} uF"

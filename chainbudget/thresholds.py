@@ -120,3 +120,21 @@ QUIESCENT_HIGH_FRACTION = 2.0
 #: A quiescent current that more than doubles as the heatsink warms is worth knowing: the
 #: idle heat and the crossover figures move with it (ours).
 QUIESCENT_CLIMB_FACTOR = 2.0
+
+# --- hum ---------------------------------------------------------------------------------
+#: Hum at 1 m above about 20 dB(A) SPL is audible in a quiet room: a quiet living room at
+#: night sits near 25-30 dB(A), and a steady tone is heard some way below a broadband
+#: background of that level (common practice, no source).
+HUM_AUDIBLE_SPL_A_DB = 20.0
+#: A remedy aims the dominant path's hum this far under the A-weighted noise floor (and
+#: under the audible threshold), so that hum no longer sets the floor (ours).
+HUM_TARGET_MARGIN_DB = 6.0
+#: The drop a supply filter's resistor may take at the stage's current, as a share of the
+#: rail it filters (common practice, no source: a few percent costs little swing).
+HUM_FILTER_DROP_FRACTION = 0.05
+#: The largest capacitor a filter remedy suggests; past it, a regulator is the better
+#: remedy (ours).
+HUM_FILTER_MAX_CAP_F = 4.7e-3
+#: The ripple rejection a regulator remedy reckons with: about 60 dB at 100 Hz is typical of
+#: a three-terminal linear regulator without a bypassed adjust pin (from memory).
+HUM_REGULATOR_REJECTION_DB = 60.0

@@ -12,7 +12,15 @@ Chains added since have no figures held.
 Changed on purpose since, each by a commit that says why: the ``thin-headroom`` warning on
 ``opamp_into_push_pull``'s driver is gone (the ``drive-shortfall`` error names its cause);
 the kitchen radio's ``divider_suggestion`` is null (a pair worse than the file's own is no
-suggestion).
+suggestion); the busking amp's and the mains practice amp's DC-coupled buffers are built
+at the operating point the DC check finds (the base at the driver's 0.71 V, not at a
+base_bias of 0 V): each emitter sits near 0 V instead of -0.71 V, so the buffer's clip
+level, headroom and dissipation and the driver's clip behind it moved;
+``violin_piezo_preamp``'s piezo is a 1 nF capacitance with 1 kohm of loss in
+series instead of a 470 kohm resistor (a reactive source's noise is 4kT Re Z_S): its noise
+figures, noise sources and ``noise_set_by`` ("buffer", no longer "source") moved, and its
+levels by about 1e-9 relative (a different source impedance against the buffer's floating
+input).
 """
 
 from __future__ import annotations

@@ -284,3 +284,65 @@ def test_loader_rejects_bad_follower_tables(
         chain(follower, transistors={})
     assert f'stage[1] "buf".{key}' in str(caught.value)
     assert message in str(caught.value)
+
+
+def test_dc_coupled_follower_swings_from_the_dc_its_driver_puts_on_its_base() -> None:
+    """Horowitz & Hill 3rd ed. sec. 2.2.3 and 2.2.5: the emitter sits V_BE + I_B R_b below
+    the base, and the upswing ends at V+ - V_CE(sat) - V_E. The base is driven DC-coupled
+    by an op-amp stage held at 5 V DC (a 5 V bias point and a DC gain of one through its
+    ground-leg capacitor), so the emitter rests at 5 - 0.65 - (2 mA/101) x 1 kohm and the
+    clip is 15 - 0.2 - V_E: the operating point the DC check finds, not the follower's own
+    base_bias of 0 V (which would put the emitter at -0.67 V and the clip at 15.47 V);
+    rtol 1e-9."""
+    data = {
+        "chain": {"title": "driven follower", "ambient": T_300K_DEGC, "points_per_decade": 5},
+        "source": {"level": "-10 dBV", "max_level": "0 dBV", "impedance": "0 ohm"},
+        "load": {"impedance": "100 kohm"},
+        "transistor": {"ideal_base": IDEAL_BASE},
+        "opamp": {
+            "wide": {
+                "gbw": "100 gigahertz",
+                "slew_rate": "1000 V/us",
+                "swing_margin": "0 V",
+                "output_current": "1 A",
+            }
+        },
+        "supply": [
+            {"name": "plus", "kind": "dc", "voltage": "15 V"},
+            {"name": "minus", "kind": "dc", "voltage": "15 V"},
+        ],
+        "stage": [
+            {
+                "name": "drv",
+                "kind": "opamp_gain",
+                "topology": "non-inverting",
+                "feedback": "10k",
+                "ground_leg": "10k",
+                "ground_cap": "1000u",
+                "input_cap": "10u",
+                "bias_resistor": "100k",
+                "bias": "5 V",
+                "opamp": "wide",
+                "positive": "plus",
+                "negative": "minus",
+            },
+            {
+                "name": "buf",
+                "kind": "follower",
+                "transistor": "ideal_base",
+                "bias": "current",
+                "current": "2 mA",
+                "compliance": "0.5 V",
+                "base_resistor": "1k",
+                "positive": "plus",
+                "negative": "minus",
+            },
+        ],
+    }
+    analysis = analyse(parse_chain(data, "test.toml"))
+    emitter = 5.0 - 0.65 - 2e-3 / 101.0 * 1e3
+    bias = follower_bias(analysis.chain.stages[1], analysis.envs[1])
+    assert bias.emitter_v == pytest.approx(emitter, rel=1e-9, abs=0)
+    node = node_levels(analysis)[1]
+    assert node.limited_by == "saturation"
+    assert node.clip_vpk == pytest.approx(15.0 - 0.2 - emitter, rel=1e-9, abs=0)

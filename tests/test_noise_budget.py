@@ -297,7 +297,9 @@ opamp = "noisy_input"
 
 def whole_chain_node_psd(chain: Chain) -> np.ndarray:
     """Noise PSD at every stage output from one netlist of the whole chain, its source
-    resistance given its 4kT/R current generator: an independent route to the same figure."""
+    resistance given its 4kT/R current generator (a piezo's capacitance or a pickup's
+    inductance stamped as lossless parts in series after it): an independent route to the
+    same figure."""
     a = analyse(chain)
     net, outs = whole_chain_network(
         chain.stages,
@@ -306,10 +308,14 @@ def whole_chain_node_psd(chain: Chain) -> np.ndarray:
         positions_as_set(chain.stages),
         chain.source.impedance,
         load_impedance(chain.load, a.frequency),
+        source_capacitance=chain.source.capacitance,
+        source_inductance=chain.source.inductance,
     )
     if chain.source.impedance > 0.0:
         psd = 4.0 * BOLTZMANN * a.temperature_k / chain.source.impedance
-        net.current_noise("src", "n0", psd, "source", "source", "impedance", "thermal")
+        reactive = chain.source.capacitance is not None or chain.source.inductance is not None
+        after = "src.0" if reactive else "n0"  # the resistor's far end (whole_chain_network)
+        net.current_noise("src", after, psd, "source", "source", "impedance", "thermal")
     rows = []
     for out in outs:
         _, transfers = net.adjoint_transfer(out)
@@ -319,8 +325,25 @@ def whole_chain_node_psd(chain: Chain) -> np.ndarray:
 
 @pytest.mark.parametrize(
     "chain",
-    [*(load_chain(p) for p in EXAMPLES), chain_of(BACKWARD_CHAIN, "backward.toml")],
-    ids=[*(p.stem for p in EXAMPLES), "backward"],
+    [
+        *(load_chain(p) for p in EXAMPLES),
+        chain_of(BACKWARD_CHAIN, "backward.toml"),
+        # a magnetic pickup, 1 kohm + 2 H in series (demo values), and a piezo with both
+        chain_of(
+            BACKWARD_CHAIN.replace(
+                'impedance = "1 kohm"', 'impedance = "1 kohm"\ninductance = "2 H"'
+            ),
+            "pickup.toml",
+        ),
+        chain_of(
+            BACKWARD_CHAIN.replace(
+                'impedance = "1 kohm"',
+                'impedance = "1 kohm"\ninductance = "2 H"\ncapacitance = "470 pF"',
+            ),
+            "series_lc.toml",
+        ),
+    ],
+    ids=[*(p.stem for p in EXAMPLES), "backward", "pickup", "series_lc"],
 )
 def test_cascade_noise_equals_the_whole_chain_network(chain: Chain) -> None:
     """Per-stage adjoint transfers carried through the cascade against the adjoint solve of

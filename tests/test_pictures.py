@@ -82,6 +82,8 @@ def test_the_response_at_the_bass_extremes_is_the_networks_transfer(violin: Pict
             positions,
             chain.source.impedance,
             chain.load.impedance,
+            source_capacitance=chain.source.capacitance,
+            source_inductance=chain.source.inductance,
         )
         rhs = np.zeros((net.size, 1))
         rhs[net.index(branch_ref("source")), 0] = 1.0

@@ -143,6 +143,7 @@ def test_the_ranges_are_ordered() -> None:
         plausible.VOLTAGE,
         plausible.CURRENT,
         plausible.LEVEL,
+        plausible.SOURCE_INDUCTANCE,
     ):
         assert range_.floor <= range_.low < range_.high <= range_.ceiling
 

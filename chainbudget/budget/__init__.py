@@ -15,9 +15,13 @@ from dataclasses import dataclass, field, fields, replace
 from html import escape
 from typing import Any
 
+import numpy as np
+
 from chainbudget.budget.analysis import SWEEP_POINTS, Analysis, environments
 from chainbudget.budget.currents import StageCurrents, stage_currents
 from chainbudget.budget.dcbias import DcPoint, dc_points
+from chainbudget.budget.hum import HumBudget
+from chainbudget.budget.hum_remedies import hum_with_remedies
 from chainbudget.budget.levels import (
     HeadroomCurves,
     NodeLevels,
@@ -48,6 +52,7 @@ from chainbudget.finding import Finding
 from chainbudget.findings import findings as draw_findings
 from chainbudget.kindfigures import KindFigures
 from chainbudget.network import SingularNetwork
+from chainbudget.source_network import source_impedance
 from chainbudget.stages import KINDS as STAGE_KINDS
 from chainbudget.supplies.base import SupplyBudget
 
@@ -191,6 +196,17 @@ class Budget:
     curves: HeadroomCurves
     noise: NoiseBudget | None = None
     output: OutputFigures | None = None
+    #: The mains ripple at every node and at the loudspeaker (`chainbudget.budget.hum`).
+    hum: HumBudget | None = None
+    #: A reactive source (`chainbudget.source_network`): its series capacitance (F) and
+    #: inductance (H), None when it has none; ``source_impedance_ohm`` is then |Z_S| at the
+    #: reference. The source's level lost to the chain's input at the worst frequency of the
+    #: band (dB, negative) and that frequency (Hz): a piezo's high-pass corner
+    #: 1/(2 pi R_in C), a pickup's low-pass corner R_in/(2 pi L).
+    source_capacitance_f: float | None = None
+    source_inductance_h: float | None = None
+    source_loss_worst_db: float = 0.0
+    source_loss_worst_hz: float = 0.0
     findings: tuple[Finding, ...] = field(default=(), repr=False)
 
     def node(self, name: str) -> NodeBudget:
@@ -287,6 +303,16 @@ def budget_from(analysis: Analysis) -> Budget:
     limited = [k for k, n in enumerate(nodes) if n.headroom_db is not None]
     first_clip = min(limited, key=lambda k: nodes[k].headroom_db or 0.0) if limited else None
     output_index = limited[-1] if limited else None
+    supplies = supply_budgets(analysis)
+    hum = hum_with_remedies(
+        analysis,
+        supplies,
+        None if noise is None else noise.output.noise_a_vrms,
+        [0.0 if n.currents is None else n.currents.nominal_a for n in nodes],
+    )
+    # The frequency of the band where the chain's input takes least of the source's voltage.
+    band = analysis.band_slice
+    worst = (band.start or 0) + int(np.argmin(np.abs(analysis.nominal.v_in[0][..., band])))
     return Budget(
         title=chain.settings.title,
         file=chain.file,
@@ -296,11 +322,11 @@ def budget_from(analysis: Analysis) -> Budget:
         source_level_vrms=chain.source.level,
         source_max_level_vrms=chain.source.max_level,
         load_ohm=chain.load.impedance,
-        source_impedance_ohm=abs(chain.source.impedance),
+        source_impedance_ohm=float(abs(source_impedance(chain.source, analysis.frequency[:1])[0])),
         input_impedance_ohm=float(abs(1.0 / analysis.nominal.input_admittance[..., 0])),
         source_loss_db=float(db(analysis.nominal.v_in[0][..., 0])),
         nodes=nodes,
-        supplies=supply_budgets(analysis),
+        supplies=supplies,
         first_clip=None if first_clip is None else nodes[first_clip].stage,
         output_stage=None if output_index is None else nodes[output_index].stage,
         volume_clip=None if output_index is None else volume_clip_rotation(analysis, output_index),
@@ -316,6 +342,11 @@ def budget_from(analysis: Analysis) -> Budget:
         curves=headroom_curves(analysis),
         noise=noise,
         output=output_figures(analysis),
+        hum=hum,
+        source_capacitance_f=chain.source.capacitance,
+        source_inductance_h=chain.source.inductance,
+        source_loss_worst_db=float(db(analysis.nominal.v_in[0][..., worst])),
+        source_loss_worst_hz=float(analysis.frequency[worst]),
     )
 
 

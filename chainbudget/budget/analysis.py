@@ -16,6 +16,7 @@ from typing import cast
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
+from chainbudget.budget.dcbias import dc_walk
 from chainbudget.budget.rails import stage_rails, supply_voltages
 from chainbudget.budget.search import SearchInput, SearchResult, SectionGrid, search
 from chainbudget.budget.segments import map_section, search_port, section_at
@@ -31,6 +32,7 @@ from chainbudget.chainfile import Chain, ChainFileError
 from chainbudget.loops import Section
 from chainbudget.loudspeaker import load_impedance
 from chainbudget.network import Complex, Netlist, SingularNetwork
+from chainbudget.source_network import source_impedance
 from chainbudget.spectrum import log_frequency_grid, zero_celsius_k
 from chainbudget.stages import KINDS
 from chainbudget.stages.base import Built, Control, Environment, Stage
@@ -125,14 +127,20 @@ def frequency_axis(chain: Chain) -> NDArray[np.float64]:
 
 
 def environments(
-    chain: Chain, corner: str = "nominal", voltages: Mapping[str, Corners] | None = None
+    chain: Chain,
+    corner: str = "nominal",
+    voltages: Mapping[str, Corners] | None = None,
+    dc_inputs: Sequence[float | None] | None = None,
 ) -> tuple[Environment, ...]:
     """Each stage's environment: temperature, parts and rails at a supply corner (of the
-    unloaded tree unless ``voltages`` are given)."""
+    unloaded tree unless ``voltages`` are given), and the DC at its input as the chain's DC
+    walk finds it (`chainbudget.budget.dcbias.dc_walk`), so a DC-coupled stage is built at
+    the operating point the DC check reports. ``dc_inputs`` gives those DCs instead of
+    walking them (the spread holds them at the nominal check's: its parts are arrays)."""
     if voltages is None:
         voltages = supply_voltages(chain)
     temperature = chain.settings.ambient + zero_celsius_k
-    return tuple(
+    envs = tuple(
         Environment(
             temperature,
             chain.opamps,
@@ -142,6 +150,9 @@ def environments(
         )
         for stage in chain.stages
     )
+    if dc_inputs is None:
+        dc_inputs = [point.input_v for point in dc_walk(chain, envs)]
+    return tuple(replace(env, dc_input_v=dc_in) for env, dc_in in zip(envs, dc_inputs, strict=True))
 
 
 def positions_as_set(stages: Sequence[Stage]) -> list[dict[str, float]]:
@@ -185,8 +196,12 @@ def solve_chain(
 
 def chain_ends(chain: Chain, frequency: NDArray[np.float64]) -> tuple[Complex, Complex]:
     """The source's and the load's impedances on the frequency axis (ohm): what every
-    cascade of the chain, and the worst-case search, is terminated in."""
-    source = np.broadcast_to(np.asarray(chain.source.impedance, dtype=complex), frequency.shape)
+    cascade of the chain, and the worst-case search, is terminated in (a reactive source's
+    `chainbudget.source_network.source_impedance`, a loudspeaker's
+    `chainbudget.loudspeaker.load_impedance`)."""
+    source = np.broadcast_to(
+        np.asarray(source_impedance(chain.source, frequency), dtype=complex), frequency.shape
+    )
     return source, np.asarray(load_impedance(chain.load, frequency), dtype=complex)
 
 

@@ -10,12 +10,17 @@ again.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from collections.abc import Sequence
+from dataclasses import dataclass, replace
+from typing import TYPE_CHECKING
 
-from chainbudget.budget.analysis import Analysis
+from chainbudget.chainfile import Chain
 from chainbudget.loops import Section, sections
 from chainbudget.stages import KINDS
-from chainbudget.stages.base import DcWindow
+from chainbudget.stages.base import DcWindow, Environment, Stage
+
+if TYPE_CHECKING:
+    from chainbudget.budget.analysis import Analysis
 
 #: DC potential of the source, V. A source with a DC offset of its own is outside the model:
 #: a signal source is AC-coupled or sits at 0 V (common practice, no source).
@@ -25,6 +30,26 @@ SOURCE_DC_V = 0.0
 LOAD_DC_V = 0.0
 #: A DC this close to the edge of an output's range counts as at the edge (rounding only).
 EDGE_TOLERANCE_V = 1e-9
+
+
+def stages_at_dc(chain: Chain) -> tuple[Stage, ...]:
+    """The chain's stages as DC sees them.
+
+    A capacitive source (a piezo) passes no DC, as a series capacitor does: where the first
+    stage's kind has an ``input_cap`` and it is left out, the source's capacitance stands in
+    for it, so the stage's own DC rules (its bias resistor, the DC resistance its input
+    current meets, a floating + input) apply as they do behind a coupling capacitor.
+    """
+    stages = chain.stages
+    capacitance = chain.source.capacitance
+    if capacitance is None or not stages:
+        return stages
+    first = stages[0]
+    keys = {field.key for field in KINDS[first.kind].fields}
+    if "input_cap" not in keys or first.values.get("input_cap") is not None:
+        return stages
+    seen = replace(first, values={**first.values, "input_cap": capacitance})
+    return (seen, *stages[1:])
 
 
 @dataclass(frozen=True)
@@ -126,21 +151,33 @@ def _clamp(value: float | None, window: DcWindow | None) -> float | None:
 
 
 def dc_points(analysis: Analysis) -> tuple[DcPoint, ...]:
-    """The DC operating point of every stage, from the source (0 V DC) to the load.
+    """The DC operating point of every stage of an analysed chain (`dc_walk`)."""
+    return dc_walk(analysis.chain, analysis.envs)
+
+
+def dc_walk(chain: Chain, envs: Sequence[Environment]) -> tuple[DcPoint, ...]:
+    """The DC operating point of every stage, from the source (0 V DC) to the load, each
+    stage in its environment ``envs[k]``.
 
     Notes
     -----
     Pots at their settings. A node behind an output capacitor sits where the next stage's
     input returns it (`StageKind.dc_rest`), or at 0 V through the load. On split rails every
     bias point is 0 V, so a 0 V source leaves every op-amp node at 0 V. A loop section
-    (`_loop_points`) holds its sensed node where its first stage's feedback puts it.
+    (`_loop_points`) holds its sensed node where its first stage's feedback puts it. A
+    capacitive source (a piezo) passes no DC: the first input rests where its own stage
+    returns it, as behind a series capacitor.
     """
-    stages, envs = analysis.chain.stages, analysis.envs
+    stages = stages_at_dc(chain)
     points: list[DcPoint] = []
     dc_in: float | None = SOURCE_DC_V
+    if chain.source.capacitance is not None and stages:
+        # A piezo blocks DC: the first input rests where its own stage returns it, as behind
+        # a series capacitor.
+        dc_in = KINDS[stages[0].kind].dc_rest(stages[0], envs[0])
     for section in sections(stages):
         if section.is_loop:
-            found = _loop_points(analysis, section, dc_in)
+            found = _loop_points(stages, envs, section, dc_in)
             points += found
             dc_in = found[-1].node_v
             continue
@@ -151,7 +188,7 @@ def dc_points(analysis: Analysis) -> tuple[DcPoint, ...]:
         output = kind.dc_output(stage, env, dc_in)
         node = _clamp(output, window)
         if not kind.output_defined(stage):
-            node = _rest(analysis, k)
+            node = _rest(stages, envs, k)
         points.append(
             DcPoint(
                 stage.name,
@@ -168,16 +205,17 @@ def dc_points(analysis: Analysis) -> tuple[DcPoint, ...]:
     return tuple(points)
 
 
-def _rest(analysis: Analysis, k: int) -> float | None:
+def _rest(stages: Sequence[Stage], envs: Sequence[Environment], k: int) -> float | None:
     """Where the node behind stage k's output capacitor rests: the next stage's input, or
     the load."""
-    stages, envs = analysis.chain.stages, analysis.envs
     if k + 1 >= len(stages):
         return LOAD_DC_V
     return KINDS[stages[k + 1].kind].dc_rest(stages[k + 1], envs[k + 1])
 
 
-def _loop_points(analysis: Analysis, section: Section, dc_in: float | None) -> list[DcPoint]:
+def _loop_points(
+    stages: Sequence[Stage], envs: Sequence[Environment], section: Section, dc_in: float | None
+) -> list[DcPoint]:
     """DC points of a loop section.
 
     Notes
@@ -192,7 +230,6 @@ def _loop_points(analysis: Analysis, section: Section, dc_in: float | None) -> l
     stage sensed inside itself (`StageKind.sense_node`, before its output capacitor) is
     held there, and its output node rests where the load returns it.
     """
-    stages, envs = analysis.chain.stages, analysis.envs
     head = section.first
     inside = list(section.indices)[1:]
     last = stages[section.last]
@@ -216,7 +253,7 @@ def _loop_points(analysis: Analysis, section: Section, dc_in: float | None) -> l
         output = needed[j]
         node = _clamp(output, window)
         if j == section.last and not kind.output_defined(stages[j]):
-            node = _rest(analysis, j)
+            node = _rest(stages, envs, j)
         points.append(
             DcPoint(
                 stages[j].name,
@@ -245,7 +282,7 @@ def dc_errors(analysis: Analysis) -> tuple[float | None, ...]:
     gives the error at the sensed node, its loop gain taking out what the stages inside
     add (their V_BE differences divided by A0 beta); the nodes inside are left unknown.
     """
-    stages, envs = analysis.chain.stages, analysis.envs
+    stages, envs = stages_at_dc(analysis.chain), analysis.envs
     found: list[float | None] = []
     error: float | None = 0.0  # the source sits at 0 V DC, exactly
     for section in sections(stages):

@@ -23,6 +23,7 @@ from chainbudget.loopmath import stability_axis
 from chainbudget.loops import Section, section_of, sections
 from chainbudget.loudspeaker import load_impedance
 from chainbudget.network import GROUND, Complex, Netlist
+from chainbudget.source_network import source_impedance
 from chainbudget.stages import KINDS
 from chainbudget.stages.base import Environment, opamp_part
 
@@ -63,7 +64,7 @@ class LoopSolver:
                 self.envs,
                 frequency,
                 positions_as_set(self.chain.stages),
-                self.chain.source.impedance,
+                source_impedance(self.chain.source, frequency),
                 load_impedance(self.chain.load, frequency),
                 idle=True,
             )

@@ -17,7 +17,8 @@ in the notes of `chainbudget.budget.noise_spectra`.
 
 The source's thermal noise 4 k T Re(Z_S) (Johnson, Phys. Rev. 32, 97 (1928); Nyquist,
 Phys. Rev. 32, 110 (1928)) is in series with the source voltage, so it reaches node j as the
-signal does: |v_out,j| per volt. It is the reference of the noise figure
+signal does: |v_out,j| per volt (a piezo's or a pickup's reactance adds none:
+`chainbudget.source_network`). It is the reference of the noise figure
 NF = 10 log10(S_out / S_out,source) (Friis, Proc. IRE 32 (1944) 419; spot noise figure at one
 frequency).
 """
@@ -42,6 +43,7 @@ from chainbudget.budget.noise_spectra import (
     unweighted,
 )
 from chainbudget.chainfile import Chain
+from chainbudget.source_network import source_resistance
 from chainbudget.units import DBU_REFERENCE_VRMS
 from chainbudget.weighting import a_weighting, itu468_weighting
 
@@ -126,7 +128,12 @@ class SpotNoise:
 
 @dataclass(frozen=True)
 class NoiseBudget:
-    """Every noise figure of a chain (SI units, dB where named; None where undefined)."""
+    """Every noise figure of a chain (SI units, dB where named; None where undefined).
+
+    ``source_resistance_ohm`` is Re Z_S at the reference, the part of the source impedance
+    that is noisy and the reference of ``noise_figure_db`` (None when it is zero: a purely
+    reactive source has no noise of its own to compare with).
+    """
 
     nodes: tuple[NodeNoise, ...]
     source_resistance_ohm: float
@@ -336,7 +343,7 @@ def noise_budget(analysis: Analysis) -> NoiseBudget:
     contributors, stage_shares = _contributors(spectra)
     return NoiseBudget(
         nodes=tuple(nodes),
-        source_resistance_ohm=float(np.real(chain.source.impedance)),
+        source_resistance_ohm=float(source_resistance(chain.source, analysis.frequency[:1])[0]),
         input_noise_vrms=input_noise,
         input_noise_a_vrms=input_noise_a,
         ein_dbu=None if input_noise is None else _db20(input_noise / DBU_REFERENCE_VRMS),

@@ -21,9 +21,12 @@ Z_S,m gives V1 = V2 Z_S,m (A_m D_m - B_m C_m) / (B_m + Z_S,m D_m) at its input (
 V1 = A V2 + B I2, I1 = C V2 + D I2 with V1 = -Z_S I1), which carries a generator's voltage at
 its stage's input further upstream (an op-amp's i_n flowing into a volume pot's wiper).
 
-The source's thermal noise 4 k T Re(Z_S) (Johnson, Phys. Rev. 32, 97 (1928); Nyquist,
+The source's thermal noise 4 k T Re(Z_S(f)) (Johnson, Phys. Rev. 32, 97 (1928); Nyquist,
 Phys. Rev. 32, 110 (1928)) is in series with the source voltage, so it reaches node j as the
-signal does: |v_out,j| per volt. It is the reference of the noise figure
+signal does: |v_out,j| per volt. A reactive source (`chainbudget.source_network`: a piezo's
+series capacitance, a pickup's inductance) counts only its real part; its reactance still
+shapes, through Z_S,k, how every later generator (a bias resistor, an op-amp's i_n) meets
+the input. It is the reference of the noise figure
 NF = 10 log10(S_out / S_out,source) (Friis, Proc. IRE 32 (1944) 419; spot noise figure at one
 frequency).
 """
@@ -41,6 +44,7 @@ from chainbudget.cascade import Cascade, inner_node, stamp_section
 from chainbudget.chainfile import Chain
 from chainbudget.loops import Section
 from chainbudget.network import GROUND, Complex, Netlist
+from chainbudget.source_network import source_resistance
 from chainbudget.spectrum import integrate_psd, thermal_voltage_psd
 from chainbudget.stages import KINDS
 from chainbudget.stages.base import Environment, Stage
@@ -303,8 +307,9 @@ def noise_spectra(
 
     origins: list[NoiseOrigin] = []
     blocks: list[NDArray[np.float64]] = []
-    r_source = float(np.real(chain.source.impedance))
-    if r_source > 0.0:
+    # Nyquist: 4kT Re Z_S(f); a series capacitance or inductance is lossless and adds none.
+    r_source = source_resistance(chain.source, frequency)
+    if np.any(r_source > 0.0):
         origins.append(NoiseOrigin("source.impedance", SOURCE_STAGE, -1, "impedance", "thermal"))
         psd = thermal_voltage_psd(r_source, temperature_k)
         blocks.append((psd * signal**2)[None])

@@ -13,6 +13,9 @@ voltages flow down (a regulator's input is its parent rail's output).
 from __future__ import annotations
 
 from collections.abc import Mapping
+from typing import cast
+
+import numpy as np
 
 from chainbudget.chainfile import Chain
 from chainbudget.stages import KINDS as STAGE_KINDS
@@ -158,7 +161,11 @@ def stage_rails(stage: Stage, voltages: Mapping[str, Corners], corner: str) -> R
     kind = STAGE_KINDS[stage.kind]
 
     def level(name: str) -> float:
-        return 0.0 if name == GROUND_SUPPLY else float(getattr(voltages[name], corner))
+        if name == GROUND_SUPPLY:
+            return 0.0
+        value = getattr(voltages[name], corner)
+        # A rail that varies over a leading trial axis (chainbudget/spread) stays an array.
+        return cast(float, value) if isinstance(value, np.ndarray) else float(value)
 
     positive = level(positive_name)
     negative = -level(negative_name)

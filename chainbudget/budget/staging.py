@@ -8,6 +8,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from chainbudget.budget.analysis import Analysis
+from chainbudget.budget.dcbias import stages_at_dc
 from chainbudget.budget.levels import SQRT2, NodeLevels, clip_source_peak, db, set_point_index
 from chainbudget.budget.rails import stage_rails, supply_voltages
 from chainbudget.stages import KINDS
@@ -147,8 +148,10 @@ def supply_ranges(analysis: Analysis) -> list[SupplyRange]:
 def floating_inputs(analysis: Analysis) -> list[FloatingInput]:
     """Op-amp inputs with no DC path, following DC definition from the source onwards."""
     found = []
-    defined = True  # the source is resistive: it gives the first input a DC path
-    for stage in analysis.chain.stages:
+    # A resistive (or inductive) source gives the first input a DC path; a capacitive one
+    # (a piezo) blocks DC like a series capacitor: the first stage must bias its own input.
+    defined = analysis.chain.source.capacitance is None
+    for stage in stages_at_dc(analysis.chain):
         kind = KINDS[stage.kind]
         found += [FloatingInput(stage.name, pin) for pin in kind.floating_inputs(stage, defined)]
         defined = kind.output_defined(stage)

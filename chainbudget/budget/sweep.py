@@ -84,8 +84,8 @@ def stepped_value(
     as the field reads them), ``linear`` or ``log`` spaced.
 
     Refused: a field that is not a resistor, capacitor or gain of the stage's network, a
-    field of a kind whose model takes one value at a time (follower, push-pull: their bias
-    arithmetic is scalar), and a pot (use `stepped_control`).
+    field of a kind whose model takes one value at a time (push-pull: its bias arithmetic
+    is scalar), and a pot (use `stepped_control`).
     """
     _check_steps(steps)
     name, key = _split(spec, "--value", "FIELD")

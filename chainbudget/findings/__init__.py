@@ -13,7 +13,7 @@ from dataclasses import replace
 from typing import TYPE_CHECKING
 
 from chainbudget.finding import SEVERITIES, Finding
-from chainbudget.findings import dcbias, levels, noise, power
+from chainbudget.findings import dcbias, hum, levels, noise, power
 from chainbudget.stages import KINDS as STAGE_KINDS
 from chainbudget.stages.base import NodeFacts
 from chainbudget.supplies import KINDS as SUPPLY_KINDS
@@ -47,6 +47,7 @@ def kind_rules(budget: Budget) -> list[Finding]:
 RULES: list[Callable[[Budget], list[Finding]]] = [
     levels.rules,
     noise.rules,
+    hum.rules,
     power.rules,
     dcbias.rules,
     kind_rules,

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import math
 from dataclasses import replace
 from typing import TYPE_CHECKING
 
@@ -278,6 +279,8 @@ def _source_loading(budget: Budget) -> list[Finding]:
     """The source loaded by the chain's input below a bridging ratio: level lost before the
     first stage, named with the stage that loads it and, where a gain stage comes later,
     the placement that would cure it."""
+    if budget.source_capacitance_f is not None or budget.source_inductance_h is not None:
+        return _reactive_source_loading(budget)
     z_s, z_in = budget.source_impedance_ohm, budget.input_impedance_ohm
     # (a relative slack of 1e-9 so that an input of exactly ten times is not flagged for a
     # rounding residue of the solve)
@@ -306,5 +309,55 @@ def _source_loading(budget: Budget) -> list[Finding]:
                 "input_ohm": z_in,
                 "loss_db": budget.source_loss_db,
             },
+        )
+    ]
+
+
+def _reactive_source_loading(budget: Budget) -> list[Finding]:
+    """A piezo or pickup source loaded by the chain's input: the level lost at the worst
+    frequency of the band beyond what a bridging input would cost there.
+
+    Notes
+    -----
+    A series capacitance C into an input resistance R_in is a first-order high-pass,
+    corner 1/(2 pi R_in C); a series inductance L a low-pass, corner R_in/(2 pi L) (first-
+    order RC and RL dividers). The bridging rule (`BRIDGING_RATIO`) judged at the worst
+    frequency: a loss of more than 20 log10(r/(r+1)) dB there is flagged.
+    """
+    loss, at = budget.source_loss_worst_db, budget.source_loss_worst_hz
+    allowed = 20.0 * math.log10(BRIDGING_RATIO / (BRIDGING_RATIO + 1.0))
+    if loss >= allowed or not budget.nodes:
+        return []
+    z_in = budget.input_impedance_ohm
+    c, ind = budget.source_capacitance_f, budget.source_inductance_h
+    low, high = budget.band_hz
+    figures = {"loss_db": loss, "at_hz": at, "input_ohm": z_in}
+    if c is not None and at < math.sqrt(low * high):
+        corner = 1.0 / (2.0 * math.pi * z_in * c)
+        needed = 1.0 / (2.0 * math.pi * low * c)
+        cure = (
+            f"its {sig(c, 'F')} and the input's {sig(z_in, 'ohm')} make a high-pass corner "
+            f"near {hertz(corner)}; a capacitive (piezo) source wants an input resistance well "
+            f"above 1/(2 pi f C) = {sig(needed, 'ohm')} at the band's low edge: a larger bias "
+            "resistor or a bootstrapped input (common practice)"
+        )
+    elif ind is not None:
+        corner = z_in / (2.0 * math.pi * ind)
+        needed = 2.0 * math.pi * high * ind
+        cure = (
+            f"its {sig(ind, 'H')} and the input's {sig(z_in, 'ohm')} make a low-pass corner "
+            f"near {hertz(corner)}; an inductive source (pickup) wants an input resistance "
+            f"well above 2 pi f L = {sig(needed, 'ohm')} at the band's high edge"
+        )
+    else:
+        corner, cure = at, "raise the input impedance"
+    return [
+        Finding(
+            "warning",
+            "source-loaded",
+            budget.nodes[0].stage,
+            f"loads the reactive source: {-loss:.1f} dB of its voltage is lost before the "
+            f"first stage at {hertz(at)} (no stage's gain shows it); {cure}",
+            {**figures, "corner_hz": corner},
         )
     ]

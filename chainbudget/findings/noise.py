@@ -27,7 +27,7 @@ def _percent(share: float) -> str:
 
 def _remedy(node: NodeNoise) -> str:
     if node.set_by_index < 0:
-        return "the source's own resistance sets the floor: lower its impedance"
+        return "the source's own resistance sets the floor: lower its resistance"
     return f'quieten "{node.set_by}", which sets the floor,'
 
 

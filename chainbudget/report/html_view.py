@@ -26,6 +26,7 @@ from chainbudget.report.table_view import (
     headroom_table,
     levels_table,
     loading_table,
+    reactive_source_text,
     verdict_lines,
 )
 
@@ -155,7 +156,8 @@ def html_page(budget: Budget, pictures: Sequence[Picture]) -> str:
         f", band {escape(eng(budget.band_hz[0], 'Hz'))} to {escape(eng(budget.band_hz[1], 'Hz'))}"
         f", ambient {budget.ambient_degc:g} degC; source "
         f"{escape(eng(budget.source_level_vrms, 'Vrms'))} nominal, "
-        f"{escape(eng(budget.source_max_level_vrms, 'Vrms'))} max.</p>",
+        f"{escape(eng(budget.source_max_level_vrms, 'Vrms'))} max"
+        f"{escape(reactive_source_text(budget))}.</p>",
         "</header>",
         "<main>",
         f'<section id="verdict"><h2>Verdict</h2><p class="verdict {kind}">{escape(sentence)}</p>',

@@ -12,7 +12,7 @@ from chainbudget.budget import Budget, compute
 from chainbudget.budget.levels import NodeLevels
 from chainbudget.chainfile import Chain
 from chainbudget.findings import Finding
-from chainbudget.report import dcbias, noise, power, supplies
+from chainbudget.report import dcbias, hum, noise, power, supplies
 
 
 def json_ready(value: Any) -> Any:
@@ -59,9 +59,11 @@ NODE_PARTS: list[Callable[[Budget, int], dict[str, Any]]] = [
     noise.node_json,
     power.node_json,
     dcbias.node_json,
+    hum.node_json,
 ]
 TOP_PARTS: list[Callable[[Budget], dict[str, Any]]] = [
     noise.json_part,
+    hum.json_part,
     supplies.json_part,
     power.json_part,
 ]
@@ -98,6 +100,11 @@ def budget_json(budget: Budget, found: list[Finding]) -> dict[str, Any]:
             "impedance_ohm": budget.source_impedance_ohm,
             "input_impedance_ohm": budget.input_impedance_ohm,
             "loss_db": budget.source_loss_db,
+            # A reactive source (docs/format.md): impedance_ohm is |Z_S| at the reference.
+            "capacitance_f": budget.source_capacitance_f,
+            "inductance_h": budget.source_inductance_h,
+            "worst_loss_db": budget.source_loss_worst_db,
+            "worst_loss_hz": budget.source_loss_worst_hz,
         },
         "nodes": nodes,
         "first_clip": budget.first_clip,

@@ -179,7 +179,11 @@ def _figures_table(noise: NoiseBudget, budget: Budget) -> Table:
     add_row(
         table,
         f"noise figure at {eng(noise.noise_figure_hz, 'Hz')} vs "
-        f"{eng(noise.source_resistance_ohm, 'ohm')} source, dB",
+        f"{eng(noise.source_resistance_ohm, 'ohm')} source, dB"
+        if budget.source_capacitance_f is None and budget.source_inductance_h is None
+        # a reactive source: only its real part is noisy, and that is the reference
+        else f"noise figure at {eng(noise.noise_figure_hz, 'Hz')} vs "
+        f"{eng(noise.source_resistance_ohm, 'ohm')} (Re Zs), dB",
         nf,
         "",
     )

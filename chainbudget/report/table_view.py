@@ -17,8 +17,9 @@ from rich.text import Text
 from chainbudget.budget import Budget, NodeBudget
 from chainbudget.finding import SEVERITIES, Finding
 from chainbudget.notation import DASH, decibels, eng, settings_text
-from chainbudget.report import dcbias, noise, power, supplies
+from chainbudget.report import dcbias, hum, noise, power, supplies
 from chainbudget.report.tables import add_row, new_table
+from chainbudget.source_network import describe
 from chainbudget.units import vrms_to_dbu
 
 # Areas of the budget add columns to the node table (NODE_COLUMNS: header, justify and a
@@ -27,7 +28,12 @@ NODE_COLUMNS: list[tuple[str, str, Callable[[Budget, int], str]]] = [
     *noise.NODE_COLUMNS,
     *dcbias.NODE_COLUMNS,
 ]
-TABLES: list[Callable[[Budget], list[Table]]] = [noise.tables, supplies.tables, power.tables]
+TABLES: list[Callable[[Budget], list[Table]]] = [
+    noise.tables,
+    hum.tables,
+    supplies.tables,
+    power.tables,
+]
 
 #: How each severity is marked: its label and its style (the style is dropped under
 #: NO_COLOR or when the output is not a terminal).
@@ -80,6 +86,14 @@ def verdict_lines(budget: Budget, found: list[Finding]) -> list[Text]:
             Text(
                 f"  SNR at the output: {decibels(out.snr_a_db, signed=False)} dB(A), "
                 f"{decibels(out.snr_db, signed=False)} dB unweighted; floor set by {out.set_by}"
+            )
+        )
+    hum = budget.hum
+    if hum is not None and hum.dominant is not None:
+        lines.append(
+            Text(
+                f"  hum: {eng(hum.output_a_vrms, 'V')}(A), {decibels(hum.hum_to_noise_db)} dB "
+                f"re the noise; largest path {hum.dominant.stage} ({hum.dominant.path})"
             )
         )
     out_fig = budget.output
@@ -209,6 +223,16 @@ def loading_table(budget: Budget) -> Table:
     return table
 
 
+def reactive_source_text(budget: Budget) -> str:
+    """ " (1 kohm + 1 nF)": a piezo's or pickup's impedance, its parts in series; else ""."""
+    if budget.source_capacitance_f is None and budget.source_inductance_h is None:
+        return ""
+    resistance = None if budget.noise is None else budget.noise.source_resistance_ohm
+    return (
+        f" ({describe(resistance or 0.0, budget.source_capacitance_f, budget.source_inductance_h)})"
+    )
+
+
 def render(budget: Budget, found: list[Finding], console: Console, brief: bool = False) -> None:
     """Print the report: verdict, findings, cautions, then (unless ``brief``) the tables."""
     title = Text(budget.title, style="bold")
@@ -219,8 +243,8 @@ def render(budget: Budget, found: list[Finding], console: Console, brief: bool =
             f"reference {eng(budget.reference_hz, 'Hz')}, band {eng(budget.band_hz[0], 'Hz')} "
             f"to {eng(budget.band_hz[1], 'Hz')}, ambient {budget.ambient_degc:g} degC; source "
             f"{eng(budget.source_level_vrms, 'Vrms')} nominal, "
-            f"{eng(budget.source_max_level_vrms, 'Vrms')} max; load "
-            f"{eng(budget.load_ohm, 'ohm')}"
+            f"{eng(budget.source_max_level_vrms, 'Vrms')} max{reactive_source_text(budget)}; "
+            f"load {eng(budget.load_ohm, 'ohm')}"
         )
     )
     console.print()

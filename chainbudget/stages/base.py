@@ -74,6 +74,9 @@ class Environment:
     #: Small-signal model at idle instead of at the conduction point: an output pair with
     #: both halves conducting at their quiescent current (kinds without one ignore it).
     idle: bool = False
+    #: DC at the stage's input node as the chain's DC walk finds it (`budget.dcbias`), V;
+    #: None: unknown or not yet walked. A DC-coupled follower's base sits there.
+    dc_input_v: float | None = None
 
 
 @dataclass(frozen=True)
@@ -551,6 +554,58 @@ def inverting_dc_output(env: Environment, dc_gain: float, dc_in: float | None) -
     return rails.bias + dc_gain * (rails.bias - dc_in)
 
 
+def rejection_factor(psrr_db: float, corner_hz: float | None, frequency: ArrayLike) -> Complex:
+    """The share of a rail's ripple that reaches the input: 1/PSRR(f), a real positive
+    magnitude on the frequency axis.
+
+    Notes
+    -----
+    PSRR(f) = 10^(psrr/20) / |1 + j f/f_c|: the rejection at low frequency, falling at
+    20 dB/decade above its corner f_c (the contract's "Extensions: Hum"; the definition of
+    power-supply rejection as the supply change over the input-referred change it causes,
+    Franco, Design with Operational Amplifiers, 4th ed., sec. 5.5, from memory). With no
+    corner it is flat. A data-sheet magnitude, so no phase is given to it.
+    """
+    f = np.asarray(frequency, dtype=float)
+    rise = np.ones_like(f) if corner_hz is None else np.abs(1.0 + 1j * f / corner_hz)
+    return np.asarray(10.0 ** (-psrr_db / 20.0) * rise, dtype=complex)
+
+
+def stamp_opamp_ripple(
+    net: Netlist,
+    stage: str,
+    label: str,
+    part: OpAmp,
+    branch: Ref,
+    gain: Complex,
+    *,
+    plus_at_bias: bool,
+) -> None:
+    """The supply paths of an op-amp: one input-referred source per rail pin, the rail's
+    ripple times 1/PSRR(f) at the + input (`rejection_factor`), and, when its + input sits
+    at the bias point, the bias point's ripple there as it is.
+
+    Both enter the op-amp's equation as its e_n does: a voltage at the + input times the
+    open-loop gain. A pin on ground, or a bias point no supply names, carries no ripple
+    (the hum budget drops those sources). The rail pins take the rail's ripple as its
+    supply reports it, both pins in phase (the contract: all from one rail in phase).
+    """
+    reject = rejection_factor(part.psrr, part.psrr_corner, net.frequency)
+    for pin, rail in (("+", "positive"), ("-", "negative")):
+        net.ripple_voltage_at(
+            branch,
+            gain * reject,
+            rail=rail,
+            label=f"{label}.psrr{pin}",
+            stage=stage,
+            path=f"V{pin} pin (PSRR)",
+        )
+    if plus_at_bias:
+        net.ripple_voltage_at(
+            branch, gain, rail="bias", label=f"{label}.bias", stage=stage, path="bias at + input"
+        )
+
+
 def stamp_opamp(
     net: Netlist,
     stage: Stage,
@@ -593,6 +648,7 @@ def stamp_opamp(
             net.current_noise(
                 node, GROUND, part.noise_current**2, f"{label}.i_n{pin}", stage.name, "opamp", "i_n"
             )
+    stamp_opamp_ripple(net, stage.name, label, part, branch, gain, plus_at_bias=plus == GROUND)
     built.opamps.append((label, part))
     built.probes["out"] = node_ref(out)
     built.probes[f"{label}.current"] = branch_ref(label)
@@ -600,11 +656,13 @@ def stamp_opamp(
     built.output_probe = "out"
     rails = env.rails
     assert rails is not None, "op-amp stages always have rails (the loader sees to it)"
+    # rails may vary over a leading trial axis (chainbudget/spread): element-wise
+    room = np.maximum(np.minimum(rails.up, rails.down) - part.swing_margin, 0.0)
     built.limits += [
         Limit(
             "rails",
             "out",
-            max(min(rails.up, rails.down) - part.swing_margin, 0.0),
+            float(room) if np.ndim(room) == 0 else room,
             f"output swing within {part.swing_margin:g} V of the rails",
         ),
         Limit(

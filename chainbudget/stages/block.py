@@ -6,6 +6,7 @@ import math
 from collections.abc import Mapping
 from typing import Any
 
+import numpy as np
 from numpy.typing import ArrayLike
 
 from chainbudget import fields as f
@@ -34,6 +35,9 @@ class Block(StageKind):
     sec. 1.5): v_out,oc = G v_in, in series with Z_out; Z_in loads the stage before. Its
     ``noise`` is an input-referred voltage density that stands for all its noise; its
     impedances are noiseless. ``max_output`` is the peak voltage at its output terminals.
+    ``psrr``, where given, refers each rail's ripple to its input as v_ripple 10^(-psrr/20)
+    (flat: a measured rejection, applied as a real positive factor); without it the block
+    takes no hum from its rails.
     """
 
     kind = "block"
@@ -52,6 +56,12 @@ class Block(StageKind):
             f.CURRENT,
             "current it draws (from the positive rail; from both on split rails)",
             0.0,
+        ),
+        f.Field(
+            "psrr",
+            f.DECIBELS,
+            "supply rejection, input-referred, each rail pin (none: not modelled)",
+            None,
         ),
         *RAIL_FIELDS,
     )
@@ -94,7 +104,8 @@ class Block(StageKind):
             node_in, GROUND, stage.number("input_impedance"), label=f"{name}.input_impedance"
         )
         # A zero output impedance is stamped as a tiny one (see SOURCE_FLOOR_OHM).
-        z_out = max(stage.number("output_impedance"), SOURCE_FLOOR_OHM)
+        # element-wise: the value may vary over a leading trial axis (chainbudget/spread)
+        z_out = np.maximum(stage.number("output_impedance"), SOURCE_FLOOR_OHM)
         source = f"{name}.source"
         branch = net.vcvs(node_in, GROUND, source, stage.number("gain"), label=f"{name}.gain")
         net.resistor(source, node_out, z_out, label=f"{name}.output_impedance")
@@ -109,6 +120,19 @@ class Block(StageKind):
                 "block",
                 "input-referred",
             )
+        psrr = stage.optional("psrr")
+        if psrr is not None:
+            # Input-referred, one source per rail pin, flat (a measured rejection).
+            reject = 10.0 ** (-psrr / 20.0)
+            for pin, rail in (("+", "positive"), ("-", "negative")):
+                net.ripple_voltage_at(
+                    branch,
+                    stage.number("gain") * reject,
+                    rail=rail,
+                    label=f"{name}.psrr{pin}",
+                    stage=name,
+                    path=f"V{pin} pin (PSRR)",
+                )
         built = Built(probes={"out": node_ref(node_out)}, output_probe="out")
         max_output = stage.optional("max_output")
         if max_output is not None:

@@ -10,6 +10,8 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any
 
+import numpy as np
+
 from chainbudget import outputmath as om
 from chainbudget.fields import listing, quoted, suggest
 from chainbudget.network import GROUND, Netlist, Ref
@@ -19,6 +21,11 @@ from chainbudget.spectrum import shot_current_psd
 # Below this emitter current a transistor is taken as cut off; the model keeps it at this
 # current so the network stays solvable, and the stage's limits report zero swing.
 CUTOFF_A = 1e-9
+
+
+def as_number(value: Any) -> Any:
+    """A float for a 0-d result, the array itself for a batch of trials."""
+    return float(value) if np.ndim(value) == 0 else np.asarray(value, dtype=float)
 
 
 @dataclass(frozen=True)
@@ -62,18 +69,20 @@ def small_signal(part: Transistor, i_e: float, temperature_k: float) -> SmallSig
     temperature; the early effect (r_o) and the junction capacitances are left out, which is
     exact enough through the audio band for a follower.
     """
-    i_e = max(i_e, CUTOFF_A)
+    # Element-wise throughout: beta and the bias current may be arrays over a leading
+    # trial axis (chainbudget/spread); plain floats stay floats.
+    i_e = as_number(np.maximum(i_e, CUTOFF_A))
     vt = float(om.thermal_voltage(temperature_k))
     beta = part.beta
     i_c = beta / (beta + 1.0) * i_e
-    g_m = float(om.transconductance(i_c, vt))
+    g_m = as_number(om.transconductance(i_c, vt))
     return SmallSignal(
         i_e=i_e,
         i_c=i_c,
         i_b=i_e - i_c,
         g_m=g_m,
-        r_pi=float(om.r_pi(beta, g_m)),
-        r_e=float(om.emitter_resistance(i_e, vt)),
+        r_pi=as_number(om.r_pi(beta, g_m)),
+        r_e=as_number(om.emitter_resistance(i_e, vt)),
         r_bb=part.base_resistance,
         beta=beta,
     )
@@ -114,7 +123,7 @@ def stamp_transistor(
     base spreading resistance. r_pi is a dynamic resistance and carries no thermal noise.
     """
     internal_base = base
-    if ss.r_bb > 0.0:
+    if np.any(np.asarray(ss.r_bb) > 0.0):
         internal_base = f"{label}.b'"
         net.resistor(
             base,

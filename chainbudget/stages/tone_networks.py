@@ -48,7 +48,7 @@ def bass_fields(prefix: str) -> tuple[f.Field, ...]:
     """Fields of a bass network, keys prefixed with ``prefix`` (``""`` or ``"bass_"``)."""
     return (
         f.Field(f"{prefix}outer", f.RESISTANCE, "each of the two equal fixed resistors"),
-        f.Field(f"{prefix}pot", f.RESISTANCE, "bass pot track resistance"),
+        f.Field(f"{prefix}pot", f.RESISTANCE, "bass pot track resistance", tolerance="pots"),
         f.Field(
             f"{prefix}position", f.POSITION, "rotation: 0 full cut, 0.5 flat, 1 full boost", 0.5
         ),
@@ -72,7 +72,7 @@ def treble_fields(prefix: str, with_outer: bool) -> tuple[f.Field, ...]:
     )
     return (
         *outer,
-        f.Field(f"{prefix}pot", f.RESISTANCE, "treble pot track resistance"),
+        f.Field(f"{prefix}pot", f.RESISTANCE, "treble pot track resistance", tolerance="pots"),
         f.Field(
             f"{prefix}position", f.POSITION, "rotation: 0 full cut, 0.5 flat, 1 full boost", 0.5
         ),
@@ -189,6 +189,14 @@ def stamp_treble(
     bias_resistor = stage.optional(f"{prefix}bias_resistor")
     if bias_resistor is not None:
         own.resistor(f"{prefix}bias_resistor", summing, "0", bias_resistor)
+        net.ripple_current(
+            summing,
+            1.0 / bias_resistor,
+            rail="bias",
+            label=f"{name}.{prefix}bias_resistor.ripple",
+            stage=name,
+            path=f"{prefix}bias resistor",
+        )
 
 
 TONE_COMMON = (END_RESISTANCE_FIELD, SWEEP_FIELD, OPAMP_FIELD, *RAIL_FIELDS)

@@ -38,7 +38,7 @@ class Volume(StageKind):
     sets_volume = True
     uses_rails = False
     fields = (
-        f.Field("pot", f.RESISTANCE, "track resistance"),
+        f.Field("pot", f.RESISTANCE, "track resistance", tolerance="pots"),
         f.Field("position", f.POSITION, "rotation: 0 silent, 1 full volume", 0.5),
         f.Field("taper", f.TAPER, "pot taper", "log"),
         f.Field(

@@ -16,6 +16,9 @@ from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field, fields
 from typing import Any, ClassVar
 
+import numpy as np
+from numpy.typing import NDArray
+
 from chainbudget import fields as f
 from chainbudget.finding import Finding
 from chainbudget.kindfigures import KindFigures
@@ -181,6 +184,19 @@ class TroughRemedy:
 
 
 @dataclass(frozen=True)
+class RippleRemedy:
+    """One of a supply's own values changed so that it passes less ripple: the field, its
+    new value (SI) and how the file writes it, and the change in its output's ripple at
+    each frequency, ``factor(hz)`` (new over old, complex); ``factor`` None: the kind must
+    be solved again with the new value (a rectifier's reservoir)."""
+
+    key: str
+    value: float
+    written: str
+    factor: Callable[[float], complex] | None = None
+
+
+@dataclass(frozen=True)
 class SupplyContext:
     """What a supply kind is given to work out its own figures: its state and load in the
     solved tree, its parent's, and the ambient temperature (degC)."""
@@ -304,6 +320,27 @@ class SupplyBudget:
 SUPPLY_PARTS = frozenset(item.name for item in fields(SupplyBudget))
 
 
+@dataclass(frozen=True)
+class SpreadThreshold:
+    """A rule's limit on one of a kind's spread figures: the trials where the figure falls
+    below ``limit`` (and not below a tighter threshold of the same figure) draw ``code``."""
+
+    key: str
+    limit: float
+    code: str
+    severity: str
+
+
+@dataclass(frozen=True)
+class SupplySpread:
+    """A supply's figures over a leading trial axis (chainbudget/spread), each of shape
+    (T,); ``rail_low_v`` is its output at low line, what its stages run from, per trial."""
+
+    figures: Mapping[str, NDArray[np.float64]]
+    thresholds: tuple[SpreadThreshold, ...]
+    rail_low_v: NDArray[np.float64] | None
+
+
 class SupplyKind(ABC):
     """A supply kind: its fields, its output under load, its figures and its rules."""
 
@@ -311,6 +348,9 @@ class SupplyKind(ABC):
     summary: ClassVar[str]
     fields: ClassVar[tuple[f.Field, ...]]
     needs_parent: ClassVar[bool] = False
+    #: Its output's ripple is held down by a regulation loop (a rejection), not passed on by
+    #: a filter: feeding a stage from another such supply is no remedy for its hum.
+    regulates: ClassVar[bool] = False
 
     @abstractmethod
     def state(self, supply: Supply, parent: SupplyState | None, load: SupplyLoad) -> SupplyState:
@@ -360,6 +400,25 @@ class SupplyKind(ABC):
         """The kind's findings (and cautions) about one supply (none by default)."""
         return []
 
+    def spread_fields(self, supply: Supply) -> tuple[str, ...]:
+        """The toleranced fields `spread` draws for this supply (none by default: its
+        figures hold their nominal values in every trial)."""
+        return ()
+
+    def spread(
+        self,
+        supply: Supply,
+        drawn: Mapping[str, NDArray[np.float64]],
+        nominal: SupplyBudget,
+        parent_low_v: NDArray[np.float64] | None = None,
+        bounds: Mapping[str, tuple[float, float]] | None = None,
+    ) -> SupplySpread | None:
+        """The kind's figures with ``drawn`` (field -> (T,) values) in place of the file's,
+        about the nominal operating point ``nominal``; ``parent_low_v`` is the parent's
+        low-line trough per trial where the parent spreads it (None: its nominal one);
+        ``bounds`` each drawn field's (low, high). None: the kind spreads nothing."""
+        return None
+
     def trough_remedy(
         self, supply: Supply, trough_v: float, load: SupplyLoad, rail: str | None = None
     ) -> TroughRemedy:
@@ -367,6 +426,14 @@ class SupplyKind(ABC):
         name) to ``trough_v`` under the same load (asked by a child that drops out); the
         default knows no remedy."""
         return TroughRemedy()
+
+    def ripple_remedy(
+        self, supply: Supply, attenuation: float, fundamental_hz: float
+    ) -> RippleRemedy | None:
+        """A value of its own that would lower its output's ripple at ``fundamental_hz`` by
+        ``attenuation`` (a ratio above 1) or as near as it sensibly can; None: the kind has
+        no such value (the default)."""
+        return None
 
     def missing(self, values: Mapping[str, Any]) -> list[str]:
         """Keys that the other values make required."""

@@ -9,6 +9,7 @@ from dataclasses import dataclass
 from chainbudget import fields as f
 from chainbudget.kindfigures import KindFigures, figure
 from chainbudget.supplies.base import (
+    RippleRemedy,
     Supply,
     SupplyContext,
     SupplyKind,
@@ -16,7 +17,12 @@ from chainbudget.supplies.base import (
     SupplyState,
 )
 from chainbudget.supplies.rc_filter import smoothed_trough
-from chainbudget.supplymath import first_order_lowpass, pulsed_sag
+from chainbudget.supplymath import (
+    capacitor_for_attenuation,
+    first_order_lowpass,
+    microfarads,
+    pulsed_sag,
+)
 
 
 @dataclass(frozen=True)
@@ -70,6 +76,19 @@ class Divider(SupplyKind):
 
     def input_load(self, supply: Supply, load: SupplyLoad) -> SupplyLoad:
         return load.scaled(self.ratio(supply))
+
+    def ripple_remedy(
+        self, supply: Supply, attenuation: float, fundamental_hz: float
+    ) -> RippleRemedy:
+        """A larger capacitor across the lower leg (first-order low-pass with R_th)."""
+        r, old = self.thevenin(supply), supply.optional("capacitance")
+        c = capacitor_for_attenuation(attenuation, fundamental_hz, r, old)
+        return RippleRemedy(
+            "capacitance",
+            c,
+            microfarads(c),
+            lambda hz: first_order_lowpass(hz, r, c) / first_order_lowpass(hz, r, old),
+        )
 
     def standing_current(self, supply: Supply, parent: SupplyState) -> float:
         return parent.nominal_v / (supply.number("upper") + supply.number("lower"))

@@ -11,6 +11,7 @@ from chainbudget.finding import Finding
 from chainbudget.kindfigures import KindFigures, figure
 from chainbudget.notation import amps, eng
 from chainbudget.supplies.base import (
+    RippleRemedy,
     Supply,
     SupplyBudget,
     SupplyContext,
@@ -18,7 +19,12 @@ from chainbudget.supplies.base import (
     SupplyLoad,
     SupplyState,
 )
-from chainbudget.supplymath import first_order_lowpass, pulsed_sag
+from chainbudget.supplymath import (
+    capacitor_for_attenuation,
+    first_order_lowpass,
+    microfarads,
+    pulsed_sag,
+)
 
 
 @dataclass(frozen=True)
@@ -72,6 +78,19 @@ class RcFilter(SupplyKind):
 
     def input_load(self, supply: Supply, load: SupplyLoad) -> SupplyLoad:
         return load
+
+    def ripple_remedy(
+        self, supply: Supply, attenuation: float, fundamental_hz: float
+    ) -> RippleRemedy:
+        """A larger capacitor (the resistor, and so the drop, kept)."""
+        r, old = supply.number("resistance"), supply.number("capacitance")
+        c = capacitor_for_attenuation(attenuation, fundamental_hz, r, old)
+        return RippleRemedy(
+            "capacitance",
+            c,
+            microfarads(c),
+            lambda hz: first_order_lowpass(hz, r, c) / first_order_lowpass(hz, r, old),
+        )
 
     def state(self, supply: Supply, parent: SupplyState | None, load: SupplyLoad) -> SupplyState:
         assert parent is not None, "an rc_filter always has a parent (the loader sees to it)"

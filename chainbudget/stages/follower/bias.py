@@ -3,10 +3,13 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
 
 from chainbudget.parts import Transistor
 from chainbudget.stages.base import Environment, Stage
-from chainbudget.stages.hybrid_pi import SmallSignal, small_signal
+from chainbudget.stages.hybrid_pi import SmallSignal, as_number, small_signal
 
 #: Name of the limit on the emitter current (the follower cuts off on the bias side).
 CUT_OFF = "cut-off"
@@ -44,8 +47,15 @@ class FollowerBias:
     small_signal: SmallSignal
 
     @property
-    def cut_off(self) -> bool:
-        return self.i_e <= 0.0 or self.collector_room_v <= 0.0 or self.bias_room_v <= 0.0
+    def cut_off(self) -> Any:
+        """True where the follower has no working current or room (element-wise over a
+        trial axis; a plain bool for one follower)."""
+        off = (
+            (np.asarray(self.i_e) <= 0.0)
+            | (np.asarray(self.collector_room_v) <= 0.0)
+            | (np.asarray(self.bias_room_v) <= 0.0)
+        )
+        return bool(off) if off.ndim == 0 else off
 
 
 def follower_bias(stage: Stage, env: Environment, base_drive: float | None = None) -> FollowerBias:
@@ -60,11 +70,10 @@ def follower_bias(stage: Stage, env: Environment, base_drive: float | None = Non
     current sink I_E is its current. Room before saturation V+ - V_CE(sat) - V_E; room
     towards the bias rail V_E - V- (less the sink's compliance). A PNP follower is the
     mirror image (collector to V-, bias to V+). R_dc is the base resistor, plus the bias
-    resistor when an input capacitor blocks the DC path from the stage before; the stage
-    before is taken as a stiff DC source at ``base_bias``, or at ``base_drive`` when given
-    (the DC the stage before really sits at, for the DC operating-point check). The DC
-    current of the next stage's input is left out (it is AC-coupled or a base current, a
-    few percent of I_E).
+    resistor when an input capacitor blocks the DC path from the stage before. The base
+    is driven from ``base_drive`` when given, else from where the chain's DC walk puts it
+    (`_base_drive`). The DC current of the next stage's input is left out (it is
+    AC-coupled or a base current, a few percent of I_E).
     """
     rails = env.rails
     assert rails is not None, "a follower always has rails (the loader sees to it)"
@@ -74,7 +83,7 @@ def follower_bias(stage: Stage, env: Environment, base_drive: float | None = Non
         (rails.positive, rails.negative) if sign > 0 else (rails.negative, rails.positive)
     )
     if base_drive is None:
-        base_drive = rails.bias
+        base_drive = _base_drive(stage, env)
     r_dc = stage.number("base_resistor")
     if stage.values.get("input_cap") is not None and stage.values.get("bias_resistor"):
         r_dc += stage.number("bias_resistor")
@@ -82,7 +91,7 @@ def follower_bias(stage: Stage, env: Environment, base_drive: float | None = Non
     if stage.values["bias"] == "resistor":
         r_e = stage.number("emitter_resistor")
         i_e = (sign * (base_drive - bias_rail) - part.vbe) / (r_e + r_dc / (beta + 1.0))
-        i_e = max(i_e, 0.0)
+        i_e = as_number(np.maximum(i_e, 0.0))  # element-wise over any trial axis
         compliance = 0.0
     else:
         i_e = stage.number("current")
@@ -97,6 +106,20 @@ def follower_bias(stage: Stage, env: Environment, base_drive: float | None = Non
         bias_room_v=sign * (emitter - bias_rail) - compliance,
         small_signal=small_signal(part, i_e, env.temperature_k),
     )
+
+
+def _base_drive(stage: Stage, env: Environment) -> float:
+    """Where the base is driven from, V: ``base_bias`` when the file gives it (through
+    ``bias_resistor`` behind an input capacitor; DC-coupled, the designer's statement of the
+    DC the stage before sits at). Otherwise DC-coupled, the DC the chain's DC walk finds at
+    the input (`Environment.dc_input_v`), the stage before taken as a stiff DC source; else
+    the default bias point (mid-rail single supply, 0 V split)."""
+    rails = env.rails
+    assert rails is not None
+    walked = env.dc_input_v
+    if stage.values.get("input_cap") is None and stage.optional("base_bias") is None:
+        return rails.bias if walked is None else walked
+    return rails.bias
 
 
 def transistor_part(stage: Stage, env: Environment) -> Transistor:

@@ -5,6 +5,7 @@ from __future__ import annotations
 from collections.abc import Mapping
 from typing import Any
 
+import numpy as np
 from numpy.typing import ArrayLike
 
 from chainbudget import fields as f
@@ -27,6 +28,7 @@ from chainbudget.stages.base import (
 from chainbudget.stages.follower.bias import CUT_OFF, follower_bias, transistor_part
 from chainbudget.stages.follower.figures import FollowerFigures, follower_figures, follower_rules
 from chainbudget.stages.hybrid_pi import (
+    as_number,
     stamp_transistor,
     transistor_problems,
 )
@@ -67,6 +69,7 @@ class Follower(StageKind):
             f.NAME,
             "transistor part (a generic class or a [transistor.NAME])",
             "small_npn",
+            tolerance="beta",
         ),
         f.Field(
             "bias",
@@ -99,8 +102,8 @@ class Follower(StageKind):
         f.Field(
             "base_bias",
             f.VOLTAGE,
-            "quiescent voltage the base is driven from (default: mid-rail single "
-            "supply, 0 V split)",
+            "quiescent voltage the base is driven from (default: behind input_cap "
+            "mid-rail single supply, 0 V split; DC-coupled, the DC of the stage before)",
             None,
         ),
         *_RAILS,
@@ -140,8 +143,17 @@ class Follower(StageKind):
         bias_resistor = stage.optional("bias_resistor")
         if bias_resistor is not None:
             own.resistor("bias_resistor", base, GROUND, bias_resistor)
+            # to the base bias point, a voltage (`base_bias`) no supply names: ideal
+            net.ripple_current(
+                base,
+                1.0 / bias_resistor,
+                rail="bias",
+                label=f"{name}.bias_resistor.ripple",
+                stage=name,
+                path="bias resistor",
+            )
         base_resistor = stage.number("base_resistor")
-        if base_resistor > 0.0:
+        if np.any(np.asarray(base_resistor) > 0.0):
             own.resistor("base_resistor", base, f"{name}.base", base_resistor)
             base = f"{name}.base"
         output_cap = stage.optional("output_cap")
@@ -150,27 +162,42 @@ class Follower(StageKind):
             net, base, emitter, bias.small_signal, label=f"{name}.q", stage=name, temperature_k=t
         )
         if stage.values["bias"] == "resistor":
-            own.resistor("emitter_resistor", emitter, GROUND, stage.number("emitter_resistor"))
+            r_e = stage.number("emitter_resistor")
+            own.resistor("emitter_resistor", emitter, GROUND, r_e)
+            # The emitter resistor returns to the bias rail (NPN: the negative one, whose
+            # ripple a resistor sees inverted; PNP: the positive): its Norton current.
+            npn = bias.polarity > 0
+            net.ripple_current(
+                emitter,
+                1.0 / r_e,
+                rail="negative" if npn else "positive",
+                polarity=-1.0 if npn else 1.0,
+                label=f"{name}.emitter_resistor.ripple",
+                stage=name,
+                path="emitter resistor",
+            )
         if output_cap is not None:
             net.capacitor(emitter, node_out, output_cap)
         part = transistor_part(stage, env)
         rail = "positive" if bias.polarity > 0 else "negative"
-        cut = 0.0 if bias.cut_off else bias.i_e
+        # element-wise: the bias may vary over a leading trial axis (chainbudget/spread)
+        cut = as_number(np.where(bias.cut_off, 0.0, bias.i_e))
+        typical_ma = float(np.median(bias.i_e)) * 1e3
         if stage.values["bias"] == "resistor":
             cut_what = (
-                f"bias current {bias.i_e * 1e3:.3g} mA: cuts off when R_E and the load "
+                f"bias current {typical_ma:.3g} mA: cuts off when R_E and the load "
                 "take it all, I_E (R_E || Z_L)"
             )
         else:
             cut_what = (
-                f"sink current {bias.i_e * 1e3:.3g} mA: cuts off when the load takes "
+                f"sink current {typical_ma:.3g} mA: cuts off when the load takes "
                 "it all, I_bias |Z_L|"
             )
         limits = [
             Limit(
                 "saturation",
                 "emitter",
-                0.0 if bias.cut_off else bias.collector_room_v,
+                as_number(np.where(bias.cut_off, 0.0, bias.collector_room_v)),
                 f"emitter within V_CE(sat) {part.vce_sat:g} V of the {rail} rail",
             ),
             Limit(CUT_OFF, "emitter_current", cut, cut_what, bounds_current=True),
@@ -178,7 +205,10 @@ class Follower(StageKind):
         if stage.values["bias"] == "current":
             limits.append(
                 Limit(
-                    "compliance", "emitter", max(bias.bias_room_v, 0.0), "current sink's compliance"
+                    "compliance",
+                    "emitter",
+                    as_number(np.maximum(bias.bias_room_v, 0.0)),
+                    "current sink's compliance",
                 )
             )
         return Built(
@@ -231,7 +261,7 @@ class Follower(StageKind):
         else:
             low, high = rails.negative + part.vce_sat, rails.positive - compliance
         return DcWindow(
-            follower_bias(stage, env).emitter_v,
+            follower_bias(stage, env, rails.bias).emitter_v,
             low,
             high,
             "couple its base through input_cap with bias_resistor to base_bias, or set "

@@ -5,9 +5,11 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+import numpy as np
+
 from chainbudget.parts import Transistor
 from chainbudget.stages.base import Environment, Stage
-from chainbudget.stages.hybrid_pi import SmallSignal, small_signal
+from chainbudget.stages.hybrid_pi import SmallSignal, as_number, small_signal
 
 
 @dataclass(frozen=True)
@@ -37,7 +39,7 @@ class Half:
     @property
     def swing_v(self) -> float:
         """Peak the emitters may reach from the bias point, V (never below 0)."""
-        return max(self.rail_v - self.drop_v, 0.0)
+        return as_number(np.maximum(self.rail_v - self.drop_v, 0.0))  # over any trial axis
 
     @property
     def beta_total(self) -> float:
@@ -107,13 +109,54 @@ def conduction_current(stage: Stage, env: Environment) -> float:
     i_q = stage.number("quiescent")
     if env.load_impedance is None:
         return i_q
-    swing = min(half.swing_v for half in halves(stage, env))
-    return max(i_q, swing / (stage.number("emitter_resistors") + env.load_impedance))
+    upper, lower = halves(stage, env)
+    swing = np.minimum(upper.swing_v, lower.swing_v)
+    # element-wise: R_E may vary over a leading trial axis (chainbudget/spread)
+    peak = swing / (stage.number("emitter_resistors") + env.load_impedance)
+    return as_number(np.maximum(i_q, peak))
 
 
 def push_pull_model(stage: Stage, env: Environment) -> PushPullModel:
-    """Hybrid-pi parameters of the modelled half, in conduction and at idle."""
-    half = modelled_half(stage, env)
+    """Hybrid-pi parameters of the modelled half, in conduction and at idle.
+
+    With the devices' betas over a leading trial axis (chainbudget/spread) the half of
+    lower gain differs from trial to trial: both halves' models are worked out and each
+    parameter taken from the weaker half of each trial (``half`` is then the upper one,
+    for its structure; both halves must have a driver or neither).
+    """
+    upper, lower = halves(stage, env)
+    weaker_lower = np.asarray(lower.beta_total < upper.beta_total)
+    if weaker_lower.ndim == 0 or (upper.driver is None) != (lower.driver is None):
+        return _half_model(stage, env, modelled_half(stage, env))
+    of_upper, of_lower = _half_model(stage, env, upper), _half_model(stage, env, lower)
+
+    def pick(a: SmallSignal | None, b: SmallSignal | None) -> SmallSignal | None:
+        if a is None or b is None:
+            return None
+        return SmallSignal(
+            *(
+                as_number(np.where(weaker_lower, getattr(b, k), getattr(a, k)))
+                for k in SmallSignal.__dataclass_fields__
+            )
+        )
+
+    output, idle_output = (
+        pick(of_upper.output, of_lower.output),
+        pick(of_upper.idle_output, of_lower.idle_output),
+    )
+    assert output is not None and idle_output is not None
+    return PushPullModel(
+        upper,
+        of_upper.conduction_a,
+        output,
+        pick(of_upper.driver, of_lower.driver),
+        idle_output,
+        pick(of_upper.idle_driver, of_lower.idle_driver),
+    )
+
+
+def _half_model(stage: Stage, env: Environment, half: Half) -> PushPullModel:
+    """The hybrid-pi parameters of ``half``, in conduction and at idle."""
     t = env.temperature_k
     conduction = conduction_current(stage, env)
     output = small_signal(half.output, conduction, t)

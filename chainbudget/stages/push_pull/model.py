@@ -31,7 +31,7 @@ from chainbudget.stages.base import (
     StageContext,
     StageKind,
 )
-from chainbudget.stages.hybrid_pi import stamp_transistor, transistor_problems
+from chainbudget.stages.hybrid_pi import as_number, stamp_transistor, transistor_problems
 from chainbudget.stages.push_pull.crossover import Crossover, crossover_figures
 from chainbudget.stages.push_pull.drive import (
     HandOver,
@@ -117,10 +117,22 @@ class PushPull(StageKind):
     summary = "complementary class-AB output stage driving the load"
     power_stage = True
     fields = (
-        f.Field("upper", f.NAME, "upper (NPN) output transistor", "power_npn"),
-        f.Field("lower", f.NAME, "lower (PNP) output transistor", "power_pnp"),
-        f.Field("driver_upper", f.NAME, "Darlington driver of the upper device (NPN)", None),
-        f.Field("driver_lower", f.NAME, "Darlington driver of the lower device (PNP)", None),
+        f.Field("upper", f.NAME, "upper (NPN) output transistor", "power_npn", tolerance="beta"),
+        f.Field("lower", f.NAME, "lower (PNP) output transistor", "power_pnp", tolerance="beta"),
+        f.Field(
+            "driver_upper",
+            f.NAME,
+            "Darlington driver of the upper device (NPN)",
+            None,
+            tolerance="beta",
+        ),
+        f.Field(
+            "driver_lower",
+            f.NAME,
+            "Darlington driver of the lower device (PNP)",
+            None,
+            tolerance="beta",
+        ),
         f.Field("emitter_resistors", f.RESISTANCE_OR_ZERO, "each output emitter resistor"),
         f.Field("quiescent", f.POSITIVE_CURRENT, "idle current through the pair"),
         f.Field(
@@ -185,7 +197,15 @@ class PushPull(StageKind):
             emitter, current = _stamp_conducting_half(net, stage, env, node_in, junction, own)
         _stamp_output_network(net, stage, junction, node_out, own)
         upper, lower = halves(stage, env)
-        tight = min((upper, lower), key=lambda half: half.swing_v)
+        swing = np.minimum(upper.swing_v, lower.swing_v)  # element-wise over any trial axis
+        if np.ndim(swing) == 0:
+            tight = upper if upper.swing_v <= lower.swing_v else lower
+            why = (
+                f"{tight.side} half: {tight.rail_v:.3g} V rail less "
+                f"{tight.drop_v:.3g} V of V_CE(sat) + V_BE, less I_pk R_E"
+            )
+        else:
+            why = "the tighter half's rail less V_CE(sat) + V_BE, less I_pk R_E"
         return Built(
             probes={
                 "out": node_ref(node_out),
@@ -196,9 +216,8 @@ class PushPull(StageKind):
                 Limit(
                     SWING,
                     "emitter",
-                    tight.swing_v,
-                    f"{tight.side} half: {tight.rail_v:.3g} V rail less "
-                    f"{tight.drop_v:.3g} V of V_CE(sat) + V_BE, less I_pk R_E",
+                    as_number(swing),
+                    why,
                 )
             ],
             output_probe="out",
@@ -341,7 +360,10 @@ def _stamp_conducting_half(
             noise_bias=model.idle_driver,
         )
     r_emitter = stage.number("emitter_resistors")
-    emitter = junction if r_emitter <= 0.0 else f"{name}.emitter"
+    # any(): R_E may be an array over a leading trial axis (chainbudget/spread), all drawn
+    # around a nominal above zero
+    has_emitter_resistor = bool(np.any(np.asarray(r_emitter) > 0.0))
+    emitter = junction if not has_emitter_resistor else f"{name}.emitter"
     current = stamp_transistor(
         net,
         base,
@@ -352,7 +374,7 @@ def _stamp_conducting_half(
         temperature_k=t,
         noise_bias=model.idle_output,
     )
-    if r_emitter > 0.0:
+    if has_emitter_resistor:
         own.resistor("emitter_resistor", emitter, junction, r_emitter)
     return emitter, current
 

@@ -6,14 +6,17 @@ from collections.abc import Mapping
 from typing import Any
 
 from chainbudget import fields as f
+from chainbudget.eseries import largest_at_most, smallest_at_least
 from chainbudget.finding import Finding
 from chainbudget.supplies.base import (
     NO_LOAD,
+    RippleRemedy,
     Supply,
     SupplyBudget,
     SupplyContext,
     SupplyKind,
     SupplyLoad,
+    SupplySpread,
     SupplyState,
     TroughRemedy,
 )
@@ -26,7 +29,13 @@ from chainbudget.supplies.rectified.circuit import (
 )
 from chainbudget.supplies.rectified.figures import RectifiedFigures, rectified_figures
 from chainbudget.supplies.rectified.rules import rectified_rules
+from chainbudget.supplies.rectified.spread import SPREAD_FIELDS, rectified_spread
+from chainbudget.supplymath import microfarads
 from chainbudget.units import UnitParseError, parse_fraction, parse_level
+
+#: The most a reservoir remedy multiplies the reservoir by: past a few times, a filter or a
+#: regulator after it is the cheaper remedy (ours).
+RESERVOIR_MAX_FACTOR = 4.7
 
 
 def _read_tolerance(value: object) -> float:
@@ -136,12 +145,40 @@ class Rectified(SupplyKind):
             for rail, s in solved.items()
         }
 
+    def spread_fields(self, supply: Supply) -> tuple[str, ...]:
+        # a split supply's two rails share one solve; the spread takes single rails only
+        return () if supply.values.get("split") else SPREAD_FIELDS
+
+    def spread(
+        self,
+        supply: Supply,
+        drawn: Mapping[str, Any],
+        nominal: SupplyBudget,
+        parent_low_v: Any = None,
+        bounds: Mapping[str, tuple[float, float]] | None = None,
+    ) -> SupplySpread:
+        return rectified_spread(supply, drawn, nominal, bounds)
+
     def figures(self, context: SupplyContext) -> RectifiedFigures:
         return rectified_figures(context)
 
     def rules(self, supply: SupplyBudget, ambient_degc: float) -> list[Finding]:
         assert isinstance(supply.own, RectifiedFigures)
         return rectified_rules(supply, supply.own)
+
+    def ripple_remedy(
+        self, supply: Supply, attenuation: float, fundamental_hz: float
+    ) -> RippleRemedy | None:
+        """A larger reservoir: the ripple of a capacitor-input rectifier falls about as 1/C
+        (the constant-current estimate I/(2 f C)), so C times the attenuation, at most
+        `RESERVOIR_MAX_FACTOR` times, rounded to E6; its spectrum is solved again."""
+        old = supply.number("reservoir")
+        c = smallest_at_least(old * attenuation, "E6")
+        if c > old * RESERVOIR_MAX_FACTOR:
+            c = largest_at_most(old * RESERVOIR_MAX_FACTOR, "E6")
+        if c <= old:
+            return None
+        return RippleRemedy("reservoir", c, microfarads(c))
 
     def trough_remedy(
         self, supply: Supply, trough_v: float, load: SupplyLoad, rail: str | None = None

@@ -13,10 +13,12 @@ from chainbudget.supplies.base import (
     SupplyContext,
     SupplyKind,
     SupplyLoad,
+    SupplySpread,
     SupplyState,
 )
 from chainbudget.supplies.regulator.figures import RegulatorFigures, regulator_figures
 from chainbudget.supplies.regulator.rules import regulator_rules
+from chainbudget.supplies.regulator.spread import SPREAD_FIELDS, regulator_spread
 from chainbudget.supplymath import adjustable_output, divider_current, ripple_after_regulator
 from chainbudget.units import UnitParseError
 
@@ -40,6 +42,26 @@ def _read_nonzero_voltage(value: object) -> float:
 NONZERO_VOLTAGE = f.FieldKind("V", _read_nonzero_voltage, f.VOLTAGE.write)
 
 
+def rejection_roll_off(
+    factor: float, hz: float, fundamental_hz: float | None, corner_hz: float | None
+) -> float:
+    """The share of the input's ripple at ``hz`` a regulator passes: ``factor`` (its
+    rejection as a ratio, given at the ripple's fundamental) rising at 20 dB/decade above
+    ``corner_hz``, never above 1.
+
+    Notes
+    -----
+    factor |1 + j f/f_c| / |1 + j f_r/f_c|, f_r the fundamental: a first-order roll-off of
+    the rejection (the contract's ``ripple_rejection_corner``), normalised so that the
+    given rejection holds at f_r; a real, positive factor (a data-sheet magnitude). A
+    regulator never adds ripple, so the factor stops at 1.
+    """
+    if corner_hz is None or fundamental_hz is None:
+        return factor
+    rise = abs(1.0 + 1j * hz / corner_hz) / abs(1.0 + 1j * fundamental_hz / corner_hz)
+    return min(factor * rise, 1.0)
+
+
 class Regulator(SupplyKind):
     """Linear series regulator fed from another supply.
 
@@ -60,14 +82,23 @@ class Regulator(SupplyKind):
     of regulation it follows its input less the dropout. Output ripple: input ripple times
     10^(-rejection/20) (:func:`chainbudget.supplymath.ripple_after_regulator`); out of
     regulation the output also dips with the input's troughs, by V_out - (trough - dropout).
+    The rejection holds at the ripple's fundamental; with ``ripple_rejection_corner`` it
+    falls at 20 dB/decade above that corner (`rejection_roll_off`), harmonic by harmonic.
     """
 
     kind = "regulator"
     summary = "linear series regulator, fixed or adjustable (divider)"
     needs_parent = True
+    regulates = True
     fields = (
         f.Field("output", NONZERO_VOLTAGE, "fixed output (with a divider: the target)", None),
-        f.Field("reference", NONZERO_VOLTAGE, "adjustable: output-to-adjust reference", None),
+        f.Field(
+            "reference",
+            NONZERO_VOLTAGE,
+            "adjustable: output-to-adjust reference",
+            None,
+            tolerance="references",
+        ),
         f.Field("adjust_current", f.CURRENT, "adjustable: current out of the adjust pin", 0.0),
         f.Field("upper", f.RESISTANCE, "adjustable: adjust pin to ground", None),
         f.Field("lower", f.RESISTANCE, "adjustable: output to adjust pin (across reference)", None),
@@ -84,6 +115,12 @@ class Regulator(SupplyKind):
             "ripple_rejection",
             f.DECIBELS,
             "ripple rejection at the ripple frequency (twice the mains from a bridge)",
+            None,
+        ),
+        f.Field(
+            "ripple_rejection_corner",
+            f.FREQUENCY,
+            "above it the ripple rejection falls at 20 dB/decade (none: flat)",
             None,
         ),
         f.Field("theta_ja", f.THERMAL_RESISTANCE, "junction to ambient, free air", None),
@@ -182,6 +219,20 @@ class Regulator(SupplyKind):
         assert isinstance(supply.own, RegulatorFigures)
         return regulator_rules(supply, supply.own, ambient_degc)
 
+    def spread_fields(self, supply: Supply) -> tuple[str, ...]:
+        keys = SPREAD_FIELDS if self.adjustable(supply) else ("bleeder",)
+        return tuple(key for key in keys if supply.values.get(key) is not None)
+
+    def spread(
+        self,
+        supply: Supply,
+        drawn: Mapping[str, Any],
+        nominal: SupplyBudget,
+        parent_low_v: Any = None,
+        bounds: Mapping[str, tuple[float, float]] | None = None,
+    ) -> SupplySpread:
+        return regulator_spread(self, supply, drawn, nominal, parent_low_v)
+
     def input_load(self, supply: Supply, load: SupplyLoad) -> SupplyLoad:
         return self.delivered(supply, load).plus(self.own_current(supply))
 
@@ -203,7 +254,10 @@ class Regulator(SupplyKind):
             # in regulation the rejection applies to every harmonic (a real, positive
             # factor: a data-sheet magnitude); out of it the ripple passes unrejected
             factor = float(ripple_after_regulator(1.0, rejection)) if trough >= vout else 1.0
-            harmonics = parent.through(lambda hz: factor)
+            corner = supply.optional("ripple_rejection_corner")
+            harmonics = parent.through(
+                lambda hz: rejection_roll_off(factor, hz, parent.ripple_hz, corner)
+            )
         return SupplyState(
             trough_v=trough,
             nominal_v=follow(parent.nominal_v),

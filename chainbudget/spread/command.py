@@ -1,0 +1,86 @@
+"""The ``spread`` command's body: load, run the Monte Carlo with a progress bar on a
+terminal, print the tables or the JSON, draw the histograms asked for."""
+
+from __future__ import annotations
+
+import json
+import sys
+import time
+from pathlib import Path
+
+from rich.console import Console
+from rich.progress import Progress
+
+from chainbudget.chainfile import ChainError, load_chain
+from chainbudget.spread.run import run_spread
+from chainbudget.spread.view import spread_json, spread_tables
+
+FORMATS = ("table", "json")
+# A progress bar appears when the run is expected to take longer than this, s.
+PROGRESS_AFTER_S = 1.0
+
+
+class _Bar:
+    """A progress bar on stderr, started once the first chunks show the run will take more
+    than PROGRESS_AFTER_S (never on a pipe or file)."""
+
+    def __init__(self) -> None:
+        self.started = time.perf_counter()
+        self.progress: Progress | None = None
+        self.task = 0
+
+    def __call__(self, done: int, total: int) -> None:
+        if self.progress is None:
+            elapsed = time.perf_counter() - self.started
+            expected = elapsed * total / max(done, 1)
+            if done >= total or expected < PROGRESS_AFTER_S or not sys.stderr.isatty():
+                return
+            self.progress = Progress(console=Console(stderr=True), transient=True)
+            self.progress.start()
+            self.task = self.progress.add_task("trials", total=total)
+        self.progress.update(self.task, completed=done)  # type: ignore[arg-type]
+
+    def stop(self) -> None:
+        if self.progress is not None:
+            self.progress.stop()
+
+
+def spread_command(
+    file: Path, trials: int, seed: int, output_format: str, plot: Path | None, force: bool
+) -> str | None:
+    """Run the spread; returns the text to print for JSON (None when tables were printed).
+
+    Raises ChainError (one line, exit 2) for bad input."""
+    if output_format not in FORMATS:
+        raise SpreadUsage(f'--format: got "{output_format}", expected table or json')
+    if plot is not None and plot.exists() and not force:
+        raise SpreadUsage(f"{plot}: already exists; pass --force to overwrite it")
+    chain = load_chain(file)
+    bar = _Bar()
+    try:
+        result = run_spread(chain, trials, seed, bar)
+    finally:
+        bar.stop()
+    if plot is not None:
+        from chainbudget.spread.plot import draw_histograms, picture_format
+
+        try:
+            draw_histograms(result, plot, picture_format(plot))
+        except OSError as exc:
+            raise SpreadUsage(f"{plot}: cannot write ({exc.strerror})") from None
+    title = chain.settings.title
+    if output_format == "json":
+        return json.dumps(spread_json(result, title, chain.file), indent=2, allow_nan=False)
+    Console(highlight=False, no_color=None if sys.stdout.isatty() else True).print(
+        spread_tables(
+            result,
+            title,
+            [f"nodes.{stage.name}." for stage in chain.stages]
+            + [f"supplies.{supply.name}." for supply in chain.supplies],
+        )
+    )
+    return None
+
+
+class SpreadUsage(ValueError, ChainError):
+    """A usage error of the spread command (one line, exit status 2)."""

@@ -1,0 +1,61 @@
+"""Histograms of the figures that matter: those a finding's limit is drawn against, then
+the most spread of the rest (matplotlib, the report pictures' fixed style)."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from chainbudget.report.pictures import style
+from chainbudget.spread.run import SpreadResult
+from chainbudget.spread.view import moving
+
+# Panels in one picture at most.
+MAX_PANELS = 6
+
+
+def key_figures(result: SpreadResult) -> list[str]:
+    """Figures with a rule's limit first, then the moving ones by relative spread."""
+    limited = list(dict.fromkeys(c.threshold.path for c in result.crossings))
+    rest = sorted(
+        (p for p in moving(result) if p not in limited),
+        key=lambda p: (
+            -(result.stats[p]["max"] - result.stats[p]["min"]) / max(abs(result.nominal[p]), 1e-30)
+        ),
+    )
+    return (limited + rest)[:MAX_PANELS]
+
+
+def draw_histograms(result: SpreadResult, target: Path, fmt: str) -> list[str]:
+    """Write one picture of histograms (one panel a figure) with each figure's corners and
+    any limit marked; returns the figures drawn."""
+    paths = key_figures(result)
+    with style.drawing():
+        figure = style.new_figure(9.0, 2.6 * max(1, (len(paths) + 1) // 2))
+        columns = 2 if len(paths) > 1 else 1
+        rows = max(1, (len(paths) + columns - 1) // columns)
+        for i, path in enumerate(paths):
+            axes = figure.add_subplot(rows, columns, i + 1)
+            values = result.samples[path]
+            axes.hist(values, bins=50, color=style.COLOURS[0], gid=f"hist:{path}")
+            lo, hi = result.corners[path]
+            for x in (lo, hi):
+                axes.axvline(x, color=style.COLOURS[1], linestyle="--", gid=f"corner:{path}")
+            for c in result.crossings:
+                if c.threshold.path == path:
+                    axes.axvline(
+                        c.threshold.limit,
+                        color=style.COLOURS[2],
+                        linestyle=":",
+                        gid=f"limit:{path}",
+                    )
+            axes.set_title(path, fontsize="small")
+            axes.set_ylabel("trials")
+        if not paths:
+            figure.text(0.5, 0.5, "no figure moves over the tolerances", ha="center")
+        style.save(figure, target, fmt, "spread")
+    return paths
+
+
+def picture_format(path: Path) -> str:
+    suffix = path.suffix.lower().lstrip(".")
+    return suffix if suffix in ("png", "svg", "pdf") else "png"

@@ -1,0 +1,277 @@
+"""The Monte Carlo of a chain over its parts' tolerances, its corner worst case and the
+sensitivity of every figure to every part.
+
+Notes
+-----
+Trials: each drawn part independently and uniformly within its bounds (beta uniformly in
+log), from ``numpy.random.default_rng(seed)`` (PCG64), drawn chunk by chunk in trial
+order so the same seed gives the same trials whatever the chunk size. Each chunk is one
+batched solve (`chainbudget.spread.evaluate`).
+
+Sensitivity: each part alone at its two bounds, the others at nominal. With the figure
+linear in the part over its range, a uniform draw contributes variance D_i^2 / 12 (D_i
+the figure's change from the low to the high bound; the variance of a uniform
+distribution, any probability text); a part's share is D_i^2 / sum_j D_j^2 (first-order
+variance decomposition, the "delta method"). Beta's log-uniform draw is uniform in log
+beta, where the same argument holds.
+
+Corner worst case: the signs of D_i give, for each figure, the corner that raises it most
+and the one that lowers it most, under the linear model (2 corners instead of 2^n). Each
+corner is then confirmed: every single part is flipped to its other bound, and any flip
+that carries the figure further is kept, until none does (a coordinate search over the
+vertices; exact for a figure monotonic in each part).
+"""
+
+from __future__ import annotations
+
+import math
+import sys
+import time
+from collections.abc import Callable
+from dataclasses import dataclass, field
+
+import numpy as np
+from numpy.typing import NDArray
+
+from chainbudget.budget import Budget, compute
+from chainbudget.budget.supplies import settle
+from chainbudget.chainfile import Chain, ChainError
+from chainbudget.spread.evaluate import Evaluator, Threshold, failing
+from chainbudget.spread.parts import HeldPart, Part, chain_parts
+
+# Trials per batched solve: a few tens of MB of matrices for the largest example chain.
+CHUNK_TRIALS = 8192
+# Every figure's trials are kept for the percentiles (8 bytes a figure a trial): past this
+# count the run is refused rather than left to exhaust memory.
+MAX_TRIALS = 1_000_000
+PERCENTILES = (("p1", 1.0), ("p50", 50.0), ("p99", 99.0))
+# A figure whose parts move it by less than this fraction of itself is not ranked.
+STILL_RTOL = 1e-9
+# Corner confirmation rounds at most (each flips every part once).
+MAX_CONFIRM_ROUNDS = 8
+
+
+class SpreadError(ValueError, ChainError):
+    """A spread that cannot be run as asked (one line, exit status 2)."""
+
+
+@dataclass(frozen=True)
+class Sensitivity:
+    figure: str
+    part: str
+    share: float
+
+
+@dataclass(frozen=True)
+class Crossing:
+    """A figure whose spread crosses a rule's threshold: the trials that cross, the part
+    that moves it most toward the threshold and the tolerance of that part that would keep
+    the corner inside (None: no tolerance of that part alone does)."""
+
+    threshold: Threshold
+    nominal: float
+    corner: float
+    share_failing: float
+    part: str
+    tolerance: str
+    tolerance_needed: str | None
+
+
+@dataclass(frozen=True)
+class SpreadResult:
+    trials: int
+    seed: int
+    parts: tuple[Part, ...]
+    held: tuple[HeldPart, ...]
+    nominal: dict[str, float]
+    samples: dict[str, NDArray[np.float64]]
+    stats: dict[str, dict[str, float]]
+    corners: dict[str, tuple[float, float]]
+    sensitivity: list[Sensitivity]
+    yield_all: float
+    yield_by_code: dict[str, float]
+    severities: dict[str, str]
+    crossings: list[Crossing]
+    nominal_codes: tuple[str, ...]
+    seconds: float
+    #: The nominal check's safety cautions (mains, loudness, heat), shown with the spread.
+    cautions: tuple[str, ...] = ()
+    extra: dict[str, object] = field(default_factory=dict)
+
+    def codes_not_spread(self) -> list[str]:
+        """Codes of the nominal check's findings the spread does not evaluate per trial."""
+        return [c for c in self.nominal_codes if c not in self.yield_by_code]
+
+
+def _stats(values: NDArray[np.float64]) -> dict[str, float]:
+    found = {name: float(np.percentile(values, q)) for name, q in PERCENTILES}
+    found["min"], found["max"] = float(values.min()), float(values.max())
+    return found
+
+
+def _one_at_a_time(n: int) -> NDArray[np.float64]:
+    """2n rows of positions: part i at its low bound (row 2i), then its high (2i + 1)."""
+    rows = np.full((2 * n, n), 0.5)
+    rows[0::2][np.arange(n), np.arange(n)] = 0.0
+    rows[1::2][np.arange(n), np.arange(n)] = 1.0
+    return rows
+
+
+def _corners(
+    evaluate: Evaluator, paths: list[str], deltas: dict[str, NDArray[np.float64]], n: int
+) -> dict[str, tuple[float, float]]:
+    """Each figure's corner worst case (low, high) from its sensitivities' signs, confirmed
+    by single flips (see the module notes)."""
+    if n == 0:
+        return {}
+    # corner[path][0] lowers the figure, [1] raises it
+    vertices = {p: [(deltas[p] < 0).astype(float), (deltas[p] >= 0).astype(float)] for p in paths}
+    order = [(p, side) for p in paths for side in (0, 1)]
+    start = np.array([vertices[p][side] for p, side in order])
+    values = evaluate(start)
+    best = {key: float(values[key[0]][i]) for i, key in enumerate(order)}
+    active = list(order)
+    for _ in range(MAX_CONFIRM_ROUNDS):
+        if not active:
+            break
+        rows = []
+        for p, side in active:
+            flips = np.repeat(vertices[p][side][None, :], n, axis=0)
+            flips[np.arange(n), np.arange(n)] = 1.0 - flips[np.arange(n), np.arange(n)]
+            rows.append(flips)
+        flipped = evaluate(np.concatenate(rows))
+        still = []
+        for a, (p, side) in enumerate(active):
+            got = flipped[p][a * n : (a + 1) * n]
+            i = int(np.argmin(got) if side == 0 else np.argmax(got))
+            better = got[i] < best[(p, side)] if side == 0 else got[i] > best[(p, side)]
+            if better and abs(got[i] - best[(p, side)]) > 1e-12 * (1.0 + abs(got[i])):
+                vertices[p][side] = vertices[p][side].copy()
+                vertices[p][side][i] = 1.0 - vertices[p][side][i]
+                best[(p, side)] = float(got[i])
+                still.append((p, side))
+        active = still
+    return {p: (best[(p, 0)], best[(p, 1)]) for p in paths}
+
+
+def _crossing(
+    t: Threshold,
+    nominal: float,
+    corner_low: float,
+    share_failing: float,
+    delta: NDArray[np.float64],
+    parts: tuple[Part, ...],
+) -> Crossing:
+    """The part that pulls the figure furthest below the threshold, and the tolerance of it
+    that keeps the corner at the threshold (linear in the part's tolerance)."""
+    pull = np.abs(delta)
+    i = int(np.argmax(pull))
+    part = parts[i]
+    excess = t.limit - corner_low
+    needed = None
+    # Linear in each part, the corner lies sum_j |D_j| / 2 from nominal: part i's half.
+    half = pull[i] / 2.0
+    if nominal >= t.limit and half > 0.0 and excess < half:
+        scale = 1.0 - excess / half
+        if part.is_beta:
+            low, high = (part.low / part.nominal) ** scale, (part.high / part.nominal) ** scale
+            needed = f"{low:.3g}x..{high:.3g}x"
+        else:
+            needed = f"{(part.high / part.nominal - 1.0) * scale * 100.0:.2g} %"
+    return Crossing(t, nominal, corner_low, share_failing, part.label, part.tolerance_text, needed)
+
+
+def run_spread(
+    chain: Chain,
+    trials: int,
+    seed: int,
+    progress: Callable[[int, int], None] | None = None,
+) -> SpreadResult:
+    """Monte Carlo, corners, sensitivities and yields of ``chain`` (see the module notes).
+
+    ``progress(done, total)`` is called after each chunk of trials.
+    """
+    if not 1 <= trials <= MAX_TRIALS:
+        raise SpreadError(f"--trials: got {trials}, expected 1 to {MAX_TRIALS}")
+    if not 0 <= seed < 2**63:
+        raise SpreadError(f"--seed: got {seed}, expected 0 to 2**63 - 1")
+    started = time.perf_counter()
+    nominal: Budget = compute(chain)
+    voltages = settle(chain, "low").voltages
+    drawn, held = chain_parts(chain)
+    parts = tuple(drawn)
+    n = len(parts)
+    evaluate = Evaluator(chain, parts, nominal, voltages)
+    centre = evaluate(np.full((1, n), 0.5))
+    paths = sorted(centre)
+    rng = np.random.default_rng(seed)
+    chunks: dict[str, list[NDArray[np.float64]]] = {p: [] for p in paths}
+    done = 0
+    while done < trials:
+        size = min(CHUNK_TRIALS, trials - done)
+        figures = evaluate(rng.random((size, n)))
+        for p in paths:
+            chunks[p].append(figures[p])
+        done += size
+        if progress is not None:
+            progress(done, trials)
+    samples = {p: np.concatenate(chunks[p]) for p in paths}
+    for p, values in samples.items():
+        if not np.all(np.isfinite(values)):
+            raise SpreadError(f"{chain.file}: the figure {p} is not finite in some trials")
+    side = evaluate(_one_at_a_time(n)) if n else {p: np.zeros(0) for p in paths}
+    deltas = {p: side[p][1::2] - side[p][0::2] for p in paths}
+    sensitivity = []
+    for p in paths:
+        total = float(np.sum(deltas[p] ** 2))
+        # a figure the parts move only by round-off (a fixed limit carried through a solve)
+        # has no sensitivity to rank
+        if math.sqrt(total) <= STILL_RTOL * abs(float(centre[p][0])) or total <= 0.0:
+            continue
+        for i in np.argsort(-(deltas[p] ** 2)):
+            share = float(deltas[p][i] ** 2 / total)
+            if share >= 0.01:
+                sensitivity.append(Sensitivity(p, parts[int(i)].label, share))
+    corners = _corners(evaluate, paths, deltas, n)
+    for p in paths:  # no parts move it: its corners are its nominal value
+        corners.setdefault(p, (float(centre[p][0]), float(centre[p][0])))
+    thresholds = evaluate.thresholds(samples)
+    masks = failing(thresholds, samples)
+    severities = {t.code: t.severity for t in thresholds}
+    errors = np.zeros(trials, bool)
+    for code, mask in masks.items():
+        if severities[code] == "error":
+            errors |= mask
+    crossings = []
+    for t in thresholds:
+        low = corners[t.path][0]
+        if low < t.limit:
+            share = float(np.mean(samples[t.path] < t.limit))
+            toward = np.where(deltas[t.path] != 0.0, deltas[t.path], 0.0)
+            crossings.append(
+                _crossing(t, float(centre[t.path][0]), low, share, toward, parts)
+                if n
+                else Crossing(t, float(centre[t.path][0]), low, share, "-", "-", None)
+            )
+    return SpreadResult(
+        trials=trials,
+        seed=seed,
+        parts=parts,
+        held=tuple(held),
+        nominal={p: float(centre[p][0]) for p in paths},
+        samples=samples,
+        stats={p: _stats(samples[p]) for p in paths},
+        corners=corners,
+        sensitivity=sensitivity,
+        yield_all=float(1.0 - errors.mean()),
+        yield_by_code={code: float(1.0 - mask.mean()) for code, mask in sorted(masks.items())},
+        severities=severities,
+        crossings=crossings,
+        nominal_codes=tuple(dict.fromkeys(fi.code for fi in nominal.findings)),
+        seconds=time.perf_counter() - started,
+        cautions=tuple(fi.message for fi in nominal.findings if fi.severity == "caution"),
+    )
+
+
+def stderr_is_terminal() -> bool:
+    return sys.stderr.isatty()

@@ -1,0 +1,263 @@
+"""Views of a spread: the tables (rich, 80 columns) and the JSON (contract keys)."""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from typing import Any
+
+from rich.console import Group
+from rich.text import Text
+
+from chainbudget.notation import eng
+from chainbudget.report.tables import add_row, new_table
+from chainbudget.spread.run import SpreadResult
+
+# Sensitivity rows shown per figure in the table (the JSON has every share of 1 % or more).
+TOP_PARTS = 3
+# A figure whose trials stay within this fraction of its size (or 1e-12 absolute) is not
+# moved by the tolerances: it is left out of the table (kept in the JSON).
+STILL_RTOL = 1e-9
+
+
+#: A figure path's unit suffix and the unit it stands for (the check JSON's key suffixes).
+_UNITS = (
+    ("_db", "dB"),
+    ("_vrms", "Vrms"),
+    ("_vpk", "Vpk"),
+    ("_vpp", "Vpp"),
+    ("_v", "V"),
+    ("_a", "A"),
+    ("_ohm", "ohm"),
+    ("_w", "W"),
+    ("_hz", "Hz"),
+    ("_f", "F"),
+    ("_percent", "%"),
+)
+
+
+def _unit(path: str) -> str:
+    """A figure path's unit from its suffix (``_db``, ``_v``, ``_vrms``...)."""
+    for suffix, unit in _UNITS:
+        if path.endswith(suffix):
+            return unit
+    return ""
+
+
+def shown(path: str, value: float) -> str:
+    unit = _unit(path)
+    if unit == "dB":
+        return f"{value:+.2f} dB" if abs(value) < 1e3 else f"{value:.4g} dB"
+    return eng(value, unit)
+
+
+_PREFIX = {-12: "p", -9: "n", -6: "u", -3: "m", 0: "", 3: "k", 6: "M", 9: "G"}
+
+
+def scaled(path: str, typical: float) -> tuple[float, str]:
+    """The scale and unit a row's numbers are shown in (engineering prefix of ``typical``)."""
+    unit = _unit(path)
+    if unit == "dB" or typical == 0.0 or not math.isfinite(typical):
+        return 1.0, unit
+    exponent = max(-12, min(9, 3 * math.floor(math.log10(abs(typical)) / 3)))
+    return 10.0**exponent, _PREFIX[exponent] + unit
+
+
+def moving(result: SpreadResult) -> list[str]:
+    """Figures the tolerances move (their trials are not all the same)."""
+    found = []
+    for path, stats in result.stats.items():
+        size = max(abs(stats["min"]), abs(stats["max"]))
+        if stats["max"] - stats["min"] > max(STILL_RTOL * size, 1e-12):
+            found.append(path)
+    return found
+
+
+def _short(path: str) -> str:
+    return path.removeprefix("nodes.").removeprefix("supplies.")
+
+
+def _bare(path: str) -> str:
+    """A figure's path without its unit suffix (the unit has its own column)."""
+    short = _short(path)
+    for suffix, _ in _UNITS:
+        if short.endswith(suffix):
+            return short.removesuffix(suffix)
+    return short
+
+
+def _place_and_figure(path: str) -> tuple[str, str]:
+    """Where a figure belongs (``nodes.pre``, ``supplies.raw``...) and its own name without
+    the unit suffix, words spaced (``nominal headroom``)."""
+    place, _, key = _bare(path).rpartition(".")
+    group = path.split(".", 1)[0]
+    if group == "supplies":
+        where = f"supply {place}"  # a supply may share a stage's name
+    else:
+        where = place if group == "nodes" else f"{group}.{place}".rstrip(".")
+    return where, key.replace("_", " ")
+
+
+def _number(unit: str, value: float) -> str:
+    """A figure as the table shows it: dB to two decimals, others to four digits."""
+    return f"{value:+.2f}" if unit == "dB" else f"{value:.4g}"
+
+
+def _in_chain_order(paths: list[str], places: Sequence[str]) -> list[str]:
+    """Figure paths grouped by place in the chain's order (``places``: path prefixes such
+    as ``nodes.pre.``), each place's figures as they came; others after them."""
+
+    def rank(path: str) -> int:
+        return next((i for i, p in enumerate(places) if path.startswith(p)), len(places))
+
+    return sorted(paths, key=rank)  # stable: a place's figures keep their order
+
+
+def spread_tables(result: SpreadResult, title: str, places: Sequence[str] = ()) -> Group:
+    """Figures, yield, sensitivities, threshold crossings and what is not spread; figures
+    grouped by place in the order of ``places`` (path prefixes, the chain's order)."""
+    parts: list[Any] = []
+    head = Text(
+        f"{title}: {result.trials} trials, seed {result.seed}, "
+        f"{len(result.parts)} parts drawn"
+        + (f", {len(result.held)} held at nominal" if result.held else "")
+    )
+    parts.append(head)
+    figures = new_table(
+        "Spread over the parts' tolerances (low, high: the corner worst case)",
+        "at",
+        "figure",
+        "unit",
+        "p1",
+        "p50",
+        "p99",
+        "low",
+        "high",
+        left=("figure", "unit"),
+    )
+    still = _in_chain_order(moving(result), places)
+    last_place = None
+    for path in still:
+        s = result.stats[path]
+        lo, hi = result.corners[path]
+        scale, unit = scaled(path, s["p50"])
+        place, figure = _place_and_figure(path)
+        add_row(
+            figures,
+            place if place != last_place else "",
+            figure,
+            unit,
+            *(_number(unit, v / scale) for v in (s["p1"], s["p50"], s["p99"], lo, hi)),
+        )
+        last_place = place
+    parts.append(figures)
+    yields = new_table(
+        f"Yield: {result.yield_all:.1%} of trials with no error finding",
+        "finding",
+        "severity",
+        "trials without it",
+    )
+    for code, share in result.yield_by_code.items():
+        add_row(yields, code, result.severities[code], f"{share:.1%}")
+    parts.append(yields)
+    sens = new_table("What moves each figure (share of its variance)", "figure", "part", "share")
+    for path in still:
+        rows = [x for x in result.sensitivity if x.figure == path][:TOP_PARTS]
+        for i, row in enumerate(rows):
+            add_row(sens, _short(path) if i == 0 else "", row.part, f"{row.share:.0%}")
+    parts.append(sens)
+    if result.crossings:
+        cross = new_table(
+            "Figures whose spread crosses a finding's limit",
+            "figure",
+            "limit",
+            "trials",
+            "part, now",
+            "inside with",
+        )
+        for c in result.crossings:
+            t = c.threshold
+            add_row(
+                cross,
+                f"{_bare(t.path)}\n{t.code}",
+                shown(t.path, t.limit),
+                f"{c.share_failing:.1%}",
+                f"{c.part}\n{c.tolerance}",
+                c.tolerance_needed if c.tolerance_needed is not None else "none alone",
+            )
+        parts.append(cross)
+    notes = []
+    if result.held:
+        notes.append(
+            "held at nominal: " + "; ".join(f"{h.label} ({h.reason})" for h in result.held)
+        )
+    skipped = result.codes_not_spread()
+    if skipped:
+        notes.append(
+            "the nominal check also finds " + ", ".join(skipped) + ": not evaluated per trial "
+            "(docs/tolerances.md lists what the spread covers)"
+        )
+    notes.append(
+        "corners: the extreme over the bounds (from the sensitivities' signs, confirmed by "
+        "flipping each part); 'inside with': the part's tolerance that keeps the corner "
+        "inside the limit, from the linear sensitivity ('none alone': no tolerance of that "
+        "part does)"
+    )
+    parts += [Text(n) for n in notes]
+    parts += [Text(f"CAUTION: {c}") for c in result.cautions]
+    return Group(*parts)
+
+
+def _finite(value: float) -> float | None:
+    return value if math.isfinite(value) else None
+
+
+def spread_json(result: SpreadResult, title: str, file: str) -> dict[str, Any]:
+    """The contract's keys (trials, seed, figures, yield, yield_by_code, corners,
+    sensitivity) and what the spread drew and held."""
+    return {
+        "title": title,
+        "file": file,
+        "trials": result.trials,
+        "seed": result.seed,
+        "figures": {
+            path: {k: _finite(v) for k, v in stats.items()} for path, stats in result.stats.items()
+        },
+        "nominal": {path: _finite(v) for path, v in result.nominal.items()},
+        "yield": result.yield_all,
+        "yield_by_code": dict(result.yield_by_code),
+        "corners": {
+            path: {"low": _finite(lo), "high": _finite(hi)}
+            for path, (lo, hi) in result.corners.items()
+        },
+        "sensitivity": [
+            {"figure": s.figure, "part": s.part, "share": s.share} for s in result.sensitivity
+        ],
+        "crossings": [
+            {
+                "figure": c.threshold.path,
+                "code": c.threshold.code,
+                "severity": c.threshold.severity,
+                "limit": c.threshold.limit,
+                "nominal": _finite(c.nominal),
+                "corner": _finite(c.corner),
+                "share_failing": c.share_failing,
+                "part": c.part,
+                "tolerance": c.tolerance,
+                "tolerance_needed": c.tolerance_needed,
+            }
+            for c in result.crossings
+        ],
+        "parts": [
+            {
+                "part": p.label,
+                "class": p.part_class,
+                "low": p.low,
+                "high": p.high,
+                "tolerance": p.tolerance_text,
+            }
+            for p in result.parts
+        ],
+        "held": [{"part": h.label, "reason": h.reason} for h in result.held],
+        "codes_not_spread": result.codes_not_spread(),
+    }

@@ -1,0 +1,92 @@
+"""Benchmark: the cost of `spread` against the raw batched solve of its own matrices (run by
+hand; never a timed assertion).
+
+    .venv/bin/python tests/bench/bench_spread.py [CHAIN] [TRIALS]
+
+Runs the spread's Monte Carlo (the chunked trials only: no corners, no sensitivities)
+of CHAIN (default: chains/busking_amp.toml, the largest example) for TRIALS trials (default
+10,000), recording every matrix and right-hand side `chainbudget.network` hands to
+``np.linalg.solve``; then times ``np.linalg.solve`` of exactly those arrays alone. Prints
+both times and their ratio (the spread's target: at most 1.5x). Numbers go in
+docs/performance.md.
+"""
+
+from __future__ import annotations
+
+import sys
+import time
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from chainbudget import network
+from chainbudget.budget import compute
+from chainbudget.budget.supplies import settle
+from chainbudget.chainfile import load_chain
+from chainbudget.spread.evaluate import Evaluator
+from chainbudget.spread.parts import chain_parts
+from chainbudget.spread.run import CHUNK_TRIALS
+
+ROOT = Path(__file__).resolve().parents[2]
+REPEATS = 9
+
+
+def main() -> None:
+    chain_file = Path(sys.argv[1]) if len(sys.argv) > 1 else ROOT / "chains" / "busking_amp.toml"
+    trials = int(sys.argv[2]) if len(sys.argv) > 2 else 10_000
+    chain = load_chain(chain_file)
+    parts, _ = chain_parts(chain)
+    evaluate = Evaluator(chain, tuple(parts), compute(chain), settle(chain, "low").voltages)
+    rng = np.random.default_rng(1)
+    draws = [
+        rng.random((min(CHUNK_TRIALS, trials - s), len(parts)))
+        for s in range(0, trials, CHUNK_TRIALS)
+    ]
+    evaluate(draws[0][:2])  # warm up imports and caches
+
+    def run() -> float:
+        start = time.perf_counter()
+        for d in draws:
+            evaluate(d)
+        return time.perf_counter() - start
+
+    recorded: list[tuple[Any, Any]] = []
+    original = network.np.linalg.solve
+
+    def recording(m: Any, b: Any) -> Any:
+        # the same values, laid out as a plain C-ordered batch: the baseline a hand-written
+        # batched solve would hand to numpy
+        recorded.append((np.ascontiguousarray(m), np.ascontiguousarray(b)))
+        return original(m, b)
+
+    network.np.linalg.solve = recording  # type: ignore[assignment]
+    try:
+        run()
+    finally:
+        network.np.linalg.solve = original  # type: ignore[assignment]
+
+    def raw() -> float:
+        start = time.perf_counter()
+        for m, b in recorded:
+            original(m, b)
+        return time.perf_counter() - start
+
+    # Interleaved, best of REPEATS each: the machine's other load falls on both alike.
+    spread_times, raw_times = [], []
+    for _ in range(REPEATS):
+        spread_times.append(run())
+        raw_times.append(raw())
+    spread_s, raw_s = min(spread_times), min(raw_times)
+    shapes = sorted({np.shape(m) for m, _ in recorded}, key=lambda s: -int(np.prod(s)))[:3]
+    print(f"{chain_file.name}: {trials} trials, {len(parts)} parts drawn")
+    print(f"spread (trials only)      {spread_s * 1e3:9.1f} ms")
+    print(
+        f"np.linalg.solve, same arrays {raw_s * 1e3:6.1f} ms  ({len(recorded)} calls; "
+        f"largest {shapes})"
+    )
+    print(f"ratio                     {spread_s / raw_s:9.2f} x   (target <= 1.5)")
+
+
+if __name__ == "__main__":
+    main()

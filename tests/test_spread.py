@@ -1,0 +1,588 @@
+"""The spread (Monte Carlo over the parts' tolerances), each check against a source outside
+the model: a distribution worked out here by numerical integration, a closed-form bound,
+or an analytic fraction of the trials."""
+
+from __future__ import annotations
+
+import json
+import math
+import subprocess
+import sys
+import tomllib
+from pathlib import Path
+
+import numpy as np
+import pytest
+from scipy import integrate, optimize
+
+from chainbudget.chainfile import parse_chain
+from chainbudget.spread.run import run_spread
+
+ROOT = Path(__file__).resolve().parents[1]
+
+# An idealised op-amp (prefixes written in full to pass plausibility) so that the stage's
+# gain is 1 + Rf/Rg to within parts per million.
+IDEAL = """
+[opamp.ideal]
+gbw = "100 gigahertz"
+slew_rate = "1000 V/us"
+noise_voltage = "1 nV/rtHz"
+noise_current = "0.1 pA/rtHz"
+open_loop_gain = "200 dB"
+output_resistance = "0 ohm"
+swing_margin = "1 V"
+output_current = "1 A"
+supply_current = "1 mA"
+"""
+
+NON_INVERTING = (
+    """
+[chain]
+title = "gain spread"
+[source]
+level = "10 mV"
+impedance = "0 ohm"
+[load]
+impedance = "8 ohm"
+[tolerances]
+resistors = "1 %"
+[[supply]]
+name = "bat"
+kind = "dc"
+voltage = "30 V"
+[[stage]]
+name = "pre"
+kind = "opamp_gain"
+topology = "non-inverting"
+feedback = "9k"
+ground_leg = "1k"
+opamp = "ideal"
+positive = "bat"
+"""
+    + IDEAL
+)
+
+
+def _chain(text: str):  # noqa: ANN202
+    return parse_chain(tomllib.loads(text), "spread.toml")
+
+
+def _gain_cdf(g_db: float, rf: float, rg: float, t: float) -> float:
+    """P(20 log10(1 + Rf/Rg) <= g) for Rf, Rg independent and uniform within +-t: the
+    integral over Rg of P(Rf <= (10^(g/20) - 1) Rg), by scipy.integrate.quad."""
+    ratio = 10.0 ** (g_db / 20.0) - 1.0
+    lo_f, hi_f = rf * (1 - t), rf * (1 + t)
+
+    def inner(r_g: float) -> float:
+        return float(np.clip((ratio * r_g - lo_f) / (hi_f - lo_f), 0.0, 1.0))
+
+    lo_g, hi_g = rg * (1 - t), rg * (1 + t)
+    value, _ = integrate.quad(inner, lo_g, hi_g, limit=200)
+    return value / (hi_g - lo_g)
+
+
+def test_non_inverting_gain_spread_matches_the_exact_distribution() -> None:
+    """Percentiles of 20 log10(1 + Rf/Rg), 1 % resistors: the exact quantiles by numerical
+    integration of the uniform densities (scipy.integrate.quad, root found by brentq),
+    within the sampling error of 20,000 trials (the quantile's standard error
+    sqrt(p(1-p)/N)/f(x); 5 sigma in probability)."""
+    trials = 20_000
+    result = run_spread(_chain(NON_INVERTING), trials, 7)
+    gain = result.samples["nodes.pre.gain_db"]
+    for name, p in (("p1", 0.01), ("p50", 0.5), ("p99", 0.99)):
+        exact = optimize.brentq(lambda g, p=p: _gain_cdf(g, 9e3, 1e3, 0.01) - p, 19.5, 20.5)
+        # The trials' share below the exact quantile is p within sampling error.
+        share = float(np.mean(gain <= exact))
+        assert abs(share - p) < 5.0 * math.sqrt(p * (1 - p) / trials), name
+        assert result.stats["nodes.pre.gain_db"][name] == pytest.approx(exact, abs=0.01)
+    # corners: both resistors at their bounds, 20 log10(1 + 9 (1 +- t)/(1 -+ t))
+    lo, hi = result.corners["nodes.pre.gain_db"]
+    assert lo == pytest.approx(20 * math.log10(1 + 9 * 0.99 / 1.01), abs=1e-4)
+    assert hi == pytest.approx(20 * math.log10(1 + 9 * 1.01 / 0.99), abs=1e-4)
+
+
+REGULATOR = (
+    """
+[chain]
+title = "regulator spread"
+[source]
+level = "10 mV"
+[load]
+impedance = "8 ohm"
+[tolerances]
+resistors = "1 %"
+references = "4 %"
+[[supply]]
+name = "raw"
+kind = "dc"
+voltage = "{raw}"
+[[supply]]
+name = "reg"
+kind = "regulator"
+from = "raw"
+reference = "1.25 V"
+adjust_current = "50 uA"
+upper = "2k2"
+lower = "240R"
+dropout = "2 V"
+min_load = "{min_load}"
+tolerance = {{ upper = "2 %" }}
+[[stage]]
+name = "pre"
+kind = "opamp_gain"
+topology = "non-inverting"
+feedback = "10k"
+ground_leg = "10k"
+opamp = "ideal"
+positive = "reg"
+"""
+    + IDEAL
+)
+
+
+def _vout(vref: float, upper: float, lower: float) -> float:
+    return vref * (1 + upper / lower) + 50e-6 * upper
+
+
+def test_adjustable_regulator_corners_are_the_analytic_bounds() -> None:
+    """Vout = Vref (1 + R2/R1) + Iadj R2 (the adjustable regulator's divider, Horowitz & Hill
+    3rd ed. ch. 9): highest with Vref and R2 high and R1 low, lowest the other way (the
+    formula is monotonic in each part); the Monte Carlo's min/max inside those bounds; its
+    median against a brute-force median of the same formula over 400,000 independent
+    draws, within sampling error."""
+    result = run_spread(_chain(REGULATOR.format(raw="30 V", min_load="0 A")), 20_000, 3)
+    low_bound = _vout(1.25 * 0.96, 2200 * 0.98, 240 * 1.01)
+    high_bound = _vout(1.25 * 1.04, 2200 * 1.02, 240 * 0.99)
+    lo, hi = result.corners["supplies.reg.vout_v"]
+    assert lo == pytest.approx(low_bound, rel=1e-12, abs=0)
+    assert hi == pytest.approx(high_bound, rel=1e-12, abs=0)
+    stats = result.stats["supplies.reg.vout_v"]
+    assert low_bound <= stats["min"] <= stats["max"] <= high_bound
+    rng = np.random.default_rng(12345)
+    n = 400_000
+    brute = _vout(
+        rng.uniform(1.2, 1.3, n), rng.uniform(2156, 2244, n), rng.uniform(237.6, 242.4, n)
+    )
+    for name, q in (("p1", 1), ("p50", 50), ("p99", 99)):
+        # quantile standard error over 20,000 trials is about 0.01 V at the tails here
+        assert stats[name] == pytest.approx(np.percentile(brute, q), abs=0.03), name
+    # the stage on that rail follows it: its swing limit is the rail less the margin
+    clip = result.samples["nodes.pre.clip_vpk"]
+    vout = result.samples["supplies.reg.vout_v"]
+    assert np.allclose(clip, vout / 2 - 1.0, rtol=1e-9, atol=0)
+
+
+def test_yield_against_the_analytic_share_failing_dropout() -> None:
+    """A 15.1 V input and a 2 V dropout: the regulator falls out of regulation where
+    Vout > 13.1 V. With R2, R1 held (0 %) the output is 1.25 (1 + 2200/240) + 0.11 V times
+    the reference's draw, uniform within +-4 %: the share out of regulation is the
+    uniform's share above 14 V (exact), the yield within 5 sigma of it; and every trial is
+    below the regulator's minimum load (a warning) where the divider's 5.2 mA cannot make
+    a 20 mA minimum."""
+    text = (
+        REGULATOR.format(raw="15.1 V", min_load="20 mA")
+        .replace('resistors = "1 %"', 'resistors = "0 %"')
+        .replace('tolerance = { upper = "2 %" }', "")
+    )
+    trials = 20_000
+    result = run_spread(_chain(text), trials, 11)
+    gain = 1 + 2200 / 240
+    vref_fail = (13.1 - 50e-6 * 2200) / gain
+    share = (1.25 * 1.04 - vref_fail) / (1.25 * 0.08)
+    assert 0.05 < share < 0.95
+    sigma = math.sqrt(share * (1 - share) / trials)
+    assert abs((1 - result.yield_by_code["regulator-dropout"]) - share) < 5 * sigma
+    assert abs((1 - result.yield_all) - share) < 5 * sigma
+    assert result.yield_by_code["regulator-min-load"] == 0.0
+
+
+def _run(*args: str) -> subprocess.CompletedProcess[str]:
+    return subprocess.run(
+        [sys.executable, "-m", "chainbudget", *args],
+        capture_output=True,
+        text=True,
+        cwd=ROOT,
+        check=False,
+    )
+
+
+def test_same_seed_same_output_and_another_seed_differs(tmp_path: Path) -> None:
+    """Reproducibility (the contract: trials with a fixed --seed are reproducible), through
+    the real command; the JSON carries the contract's keys and no NaN/Infinity."""
+    chain = tmp_path / "g.toml"
+    chain.write_text(NON_INVERTING)
+    one = _run("spread", str(chain), "--trials", "500", "--seed", "5", "--format", "json")
+    two = _run("spread", str(chain), "--trials", "500", "--seed", "5", "--format", "json")
+    other = _run("spread", str(chain), "--trials", "500", "--seed", "6", "--format", "json")
+    assert one.returncode == 0, one.stderr
+    assert one.stdout == two.stdout
+    assert one.stdout != other.stdout
+    data = json.loads(one.stdout, parse_constant=lambda c: pytest.fail(c))
+    for key in ("trials", "seed", "figures", "yield", "yield_by_code", "corners", "sensitivity"):
+        assert key in data
+    assert set(data["figures"]["nodes.pre.gain_db"]) == {"p1", "p50", "p99", "min", "max"}
+    assert set(data["corners"]["nodes.pre.gain_db"]) == {"low", "high"}
+
+
+@pytest.mark.parametrize(
+    ("edit", "where"),
+    [
+        ('resistors = "1 %"', 'resistors = "1"'),
+        ('resistors = "1 %"', 'resistor = "1 %"'),
+        ('ground_leg = "1k"', 'ground_leg = "1k"\ntolerance = { feedbak = "1 %" }'),
+        ('ground_leg = "1k"', 'ground_leg = "1k"\ntolerance = { feedback = "-5 %" }'),
+    ],
+)
+def test_bad_tolerance_is_one_line_exit_2(tmp_path: Path, edit: str, where: str) -> None:
+    """Bad input never produces a traceback: one line naming file and table path, exit 2."""
+    chain = tmp_path / "bad.toml"
+    chain.write_text(NON_INVERTING.replace(edit, where))
+    done = _run("spread", str(chain), "--trials", "10")
+    assert done.returncode == 2
+    assert done.stdout == ""
+    assert len(done.stderr.strip().splitlines()) == 1
+    assert "bad.toml" in done.stderr and "Traceback" not in done.stderr
+
+
+def test_bad_trials_is_one_line_exit_2(tmp_path: Path) -> None:
+    chain = tmp_path / "g.toml"
+    chain.write_text(NON_INVERTING)
+    done = _run("spread", str(chain), "--trials", "0")
+    assert done.returncode == 2 and len(done.stderr.strip().splitlines()) == 1
+
+
+def test_nominal_spread_figures_are_the_check_figures() -> None:
+    """At the nominal parts, the spread's batched figures are the check's own (one source
+    of truth; the example with a regulator feeding op-amp stages)."""
+    from chainbudget.budget import compute
+    from chainbudget.chainfile import load_chain
+    from chainbudget.report.json_view import budget_json
+
+    chain = load_chain(ROOT / "chains" / "kitchen_radio_mains.toml")
+    result = run_spread(chain, 50, 1)
+    budget = compute(chain)
+    data = json.loads(json.dumps(budget_json(budget, list(budget.findings))))
+    nodes = {n["stage"]: n for n in data["nodes"]}
+    supplies = {s["name"]: s for s in data["supplies"]}
+    for path, value in result.nominal.items():
+        group, name, key = path.split(".")
+        held = (nodes if group == "nodes" else supplies)[name][key]
+        assert value == pytest.approx(held, rel=1e-9, abs=1e-12), path
+
+
+FOLLOWER = (
+    """
+[chain]
+title = "follower spread"
+[source]
+level = "100 mV"
+impedance = "10k"
+[load]
+impedance = "8 ohm"
+[tolerances]
+resistors = "5 %"
+capacitors = "20 %"
+beta = [0.3, 3]
+[transistor.buffer_npn]
+polarity = "npn"
+beta = 150
+vbe = "0.65 V"
+vce_sat = "0.2 V"
+base_resistance = "100 ohm"
+[[supply]]
+name = "bat"
+kind = "dc"
+voltage = "18 V"
+[[stage]]
+name = "pre"
+kind = "opamp_gain"
+topology = "inverting"
+input = "10k"
+feedback = "47k"
+input_cap = "100n"
+opamp = "ideal"
+positive = "bat"
+[[stage]]
+name = "buffer"
+kind = "follower"
+transistor = "buffer_npn"
+bias = "resistor"
+emitter_resistor = "1k"
+base_resistor = "2k2"
+output_cap = "10u"
+positive = "bat"
+[[stage]]
+name = "line"
+kind = "block"
+gain = "0 dB"
+input_impedance = "600 ohm"
+output_impedance = "50 ohm"
+"""
+    + IDEAL
+)
+
+
+def test_batched_trials_equal_the_check_of_each_trial_edited_into_the_file() -> None:
+    """Brute force, one sample at a time: each of a few trials written into the file
+    (`Chain.with_values`) and checked on its own gives the figures the batched trial axis
+    gives (a follower's beta and bias resistors included: the transistor model and the
+    follower's bias taken as arrays), rtol 1e-9."""
+    from chainbudget.budget import compute
+    from chainbudget.budget.supplies import settle
+    from chainbudget.report.json_view import budget_json
+    from chainbudget.spread.evaluate import Evaluator
+    from chainbudget.spread.parts import chain_parts
+
+    chain = _chain(FOLLOWER)
+    parts, held = chain_parts(chain)
+    labels = {p.label for p in parts}
+    assert {"buffer.transistor beta", "buffer.base_resistor", "line.output_impedance"} <= labels
+    assert held == []
+    evaluate = Evaluator(chain, tuple(parts), compute(chain), settle(chain, "low").voltages)
+    positions = np.random.default_rng(2).random((4, len(parts)))
+    batched = evaluate(positions)
+    for t in range(positions.shape[0]):
+        changes: dict[str, object] = {}
+        for part, value in zip(parts, evaluate.values(positions[t : t + 1]), strict=True):
+            if part.is_beta:
+                changes["transistor.buffer_npn.beta"] = float(value[0])
+            else:
+                changes[f"{part.owner}.{part.key}"] = f"{float(value[0])!r} {_si(part)}"
+        edited = chain.with_values(changes)
+        budget = compute(edited)
+        data = json.loads(json.dumps(budget_json(budget, list(budget.findings))))
+        nodes = {n["stage"]: n for n in data["nodes"]}
+        for path, values in batched.items():
+            _, name, key = path.split(".")
+            assert values[t] == pytest.approx(nodes[name][key], rel=1e-9, abs=1e-12), path
+
+
+def _si(part) -> str:  # noqa: ANN001
+    return "F" if part.part_class == "capacitors" else "ohm"
+
+
+def test_small_signal_takes_an_array_beta_element_by_element() -> None:
+    """The hybrid-pi parameters of an array of betas are those of each beta alone
+    (r_pi = (beta + 1) r_e exactly, Horowitz & Hill 3rd ed. sec. 2.3, from memory)."""
+    from dataclasses import replace
+
+    from chainbudget.parts import GENERIC_TRANSISTORS
+    from chainbudget.stages.hybrid_pi import small_signal
+
+    part = GENERIC_TRANSISTORS["small_npn"]
+    betas = np.array([[60.0], [150.0], [400.0]])
+    batch = small_signal(replace(part, beta=betas), 2e-3, 300.0)  # type: ignore[arg-type]
+    for i, beta in enumerate(betas[:, 0]):
+        one = small_signal(replace(part, beta=float(beta)), 2e-3, 300.0)
+        assert batch.r_pi[i, 0] == pytest.approx(one.r_pi, rel=1e-12, abs=0)
+        assert batch.r_pi[i, 0] == pytest.approx((beta + 1) * one.r_e, rel=1e-12, abs=0)
+        assert batch.g_m[i, 0] == pytest.approx(one.g_m, rel=1e-12, abs=0)
+
+
+def test_plot_draws_the_histograms_of_the_trials(tmp_path: Path) -> None:
+    """--plot writes a picture with the gain's histogram; an existing file is kept."""
+    chain = tmp_path / "g.toml"
+    chain.write_text(NON_INVERTING)
+    picture = tmp_path / "spread.svg"
+    done = _run("spread", str(chain), "--trials", "300", "--plot", str(picture))
+    assert done.returncode == 0, done.stderr
+    text = picture.read_text()
+    assert 'id="hist:nodes.pre.gain_db' in text
+    again = _run("spread", str(chain), "--trials", "300", "--plot", str(picture))
+    assert again.returncode == 2 and "--force" in again.stderr
+
+
+def test_interpolated_rectifier_trough_equals_the_direct_solve() -> None:
+    """A chunk of trials solves the rectifier on a grid of reservoir values and interpolates;
+    each trial solved cycle by cycle on its own (a batch under the grid size) agrees to
+    1 uV; the nominal reservoir gives the check's own trough."""
+    from chainbudget.budget import compute
+    from chainbudget.budget.supplies import settle
+    from chainbudget.chainfile import load_chain
+    from chainbudget.spread.evaluate import Evaluator
+    from chainbudget.spread.parts import chain_parts
+
+    chain = load_chain(ROOT / "chains" / "kitchen_radio_mains.toml")
+    parts, _ = chain_parts(chain)
+    assert "raw.reservoir" in {p.label for p in parts}
+    budget = compute(chain)
+    evaluate = Evaluator(chain, tuple(parts), budget, settle(chain, "low").voltages)
+    positions = np.random.default_rng(4).random((200, len(parts)))
+    many = evaluate(positions)["supplies.raw.trough_v"]
+    assert np.ptp(many) > 0.05  # the reservoir's 10 % moves it
+    for t in (0, 57, 199):
+        alone = evaluate(positions[t : t + 1])["supplies.raw.trough_v"][0]
+        assert many[t] == pytest.approx(alone, abs=1e-6)
+    middle = evaluate(np.full((1, len(parts)), 0.5))["supplies.raw.trough_v"][0]
+    assert middle == pytest.approx(budget.supply("raw").trough_v, rel=1e-12, abs=0)
+
+
+@pytest.mark.parametrize("name", sorted(p.name for p in (ROOT / "chains").glob("*.toml")))
+def test_every_example_spreads_into_json_and_80_columns(name: str) -> None:
+    """Every example chain: the JSON holds the contract's keys and no NaN or Infinity, the
+    table reads at 80 columns in ASCII (the house rule for reports)."""
+    import io
+
+    from rich.console import Console
+
+    from chainbudget.chainfile import load_chain
+    from chainbudget.spread.view import spread_json, spread_tables
+
+    chain = load_chain(ROOT / "chains" / name)
+    result = run_spread(chain, 64, 1)
+    text = json.dumps(spread_json(result, chain.settings.title, chain.file), allow_nan=False)
+    data = json.loads(text)
+    for key in ("trials", "seed", "figures", "yield", "yield_by_code", "corners", "sensitivity"):
+        assert key in data
+    for path, (low, high) in result.corners.items():
+        stats = result.stats[path]
+        span = max(abs(low), abs(high), 1e-12) * 1e-9
+        assert low - span <= stats["min"] <= stats["max"] <= high + span, path
+    out = io.StringIO()
+    Console(file=out, width=80, no_color=True, highlight=False).print(
+        spread_tables(result, chain.settings.title)
+    )
+    lines = out.getvalue().splitlines()
+    assert all(len(line.encode()) <= 80 for line in lines)
+
+
+PUSH_PULL = (
+    """
+[chain]
+title = "output pair spread"
+[source]
+level = "300 mV"
+max_level = "1 V"
+impedance = "1k"
+[load]
+impedance = "8 ohm"
+[tolerances]
+resistors = "5 %"
+beta = [0.4, 2.5]
+[transistor.hot_npn]
+polarity = "npn"
+beta = 60
+vbe = "0.7 V"
+vce_sat = "0.5 V"
+base_resistance = "10 ohm"
+[transistor.hot_pnp]
+polarity = "pnp"
+beta = 45
+vbe = "0.7 V"
+vce_sat = "0.5 V"
+base_resistance = "10 ohm"
+[transistor.drive_npn]
+polarity = "npn"
+beta = 150
+vbe = "0.65 V"
+vce_sat = "0.2 V"
+base_resistance = "50 ohm"
+[transistor.drive_pnp]
+polarity = "pnp"
+beta = 120
+vbe = "0.65 V"
+vce_sat = "0.2 V"
+base_resistance = "50 ohm"
+[[supply]]
+name = "plus"
+kind = "dc"
+voltage = "15 V"
+[[supply]]
+name = "minus"
+kind = "dc"
+voltage = "15 V"
+[[stage]]
+name = "pre"
+kind = "opamp_gain"
+topology = "non-inverting"
+feedback = "22k"
+ground_leg = "2k2"
+opamp = "ideal"
+positive = "plus"
+negative = "minus"
+[[stage]]
+name = "output"
+kind = "push_pull"
+upper = "hot_npn"
+lower = "hot_pnp"
+driver_upper = "drive_npn"
+driver_lower = "drive_pnp"
+emitter_resistors = "0R47"
+quiescent = "40 mA"
+positive = "plus"
+negative = "minus"
+"""
+    + IDEAL
+)
+
+
+def test_output_pair_betas_drawn_per_trial_equal_the_check_of_each_trial() -> None:
+    """Brute force, one sample at a time, for the output pair: each trial's four betas and
+    emitter resistors written into the file and checked alone give the batched figures
+    (the half of lower gain chosen per trial), rtol 1e-9."""
+    from chainbudget.budget import compute
+    from chainbudget.budget.supplies import settle
+    from chainbudget.report.json_view import budget_json
+    from chainbudget.spread.evaluate import Evaluator
+    from chainbudget.spread.parts import chain_parts
+
+    chain = _chain(PUSH_PULL)
+    parts, held = chain_parts(chain)
+    betas = {p.label for p in parts if p.is_beta}
+    assert betas == {f"output.{k} beta" for k in ("upper", "lower", "driver_upper", "driver_lower")}
+    assert held == []
+    evaluate = Evaluator(chain, tuple(parts), compute(chain), settle(chain, "low").voltages)
+    positions = np.random.default_rng(9).random((6, len(parts)))
+    batched = evaluate(positions)
+    moved = np.ptp(batched["nodes.pre.zload_ohm"])
+    assert moved > 0.0  # the pair's input impedance follows its betas
+    for t in range(positions.shape[0]):
+        changes: dict[str, object] = {}
+        for part, value in zip(parts, evaluate.values(positions[t : t + 1]), strict=True):
+            if part.is_beta:
+                name = chain.stages[part.index].values[part.key]
+                changes[f"transistor.{name}.beta"] = float(value[0])
+            else:
+                changes[f"{part.owner}.{part.key}"] = f"{float(value[0])!r} {_si(part)}"
+        budget = compute(chain.with_values(changes))
+        data = json.loads(json.dumps(budget_json(budget, list(budget.findings))))
+        nodes = {n["stage"]: n for n in data["nodes"]}
+        for path, values in batched.items():
+            _, name, key = path.split(".")
+            assert values[t] == pytest.approx(nodes[name][key], rel=1e-9, abs=1e-12), path
+
+
+@pytest.mark.parametrize(
+    ("text", "fraction"),
+    [("1 %", 0.01), ("5%", 0.05), ("+/-10 %", 0.10), ("±10 %", 0.10), ("0.1 %", 0.001)],
+)
+def test_the_trades_tolerance_notation(text: str, fraction: float) -> None:
+    """The ways a tolerance is written on parts lists and in catalogues (common practice,
+    no source) all read as the same bound, here through a stage's own override."""
+    chain = _chain(
+        NON_INVERTING.replace(
+            'ground_leg = "1k"', f'ground_leg = "1k"\ntolerance = {{ feedback = "{text}" }}'
+        )
+    )
+    assert chain.tolerances.bound("stage", "pre", "feedback", "resistors") == pytest.approx(
+        fraction, rel=1e-12, abs=0
+    )
+    assert chain.tolerances.bound("stage", "pre", "ground_leg", "resistors") == 0.01
+
+
+def test_beta_is_drawn_uniformly_in_log() -> None:
+    """A log-uniform draw on [0.5 b, 2 b] (the contract): log(beta) is uniform, so a
+    quarter of the trials fall below 0.5 b * 4**0.25 = b/sqrt(2) and half below b, within
+    5 sigma of a binomial share over 40,000 draws."""
+    from chainbudget.spread.parts import Part
+
+    part = Part("stage", 0, "buffer", "transistor", "beta", 100.0, 50.0, 200.0)
+    draws = part.at(np.random.default_rng(8).random(40_000))
+    for below, share in (
+        (100.0 / math.sqrt(2.0), 0.25),
+        (100.0, 0.5),
+        (200.0 / math.sqrt(2.0), 0.75),
+    ):
+        sigma = math.sqrt(share * (1 - share) / draws.size)
+        assert abs(float(np.mean(draws < below)) - share) < 5 * sigma
+    assert draws.min() >= 50.0 and draws.max() <= 200.0
