@@ -22,7 +22,7 @@ from typing import Any
 from chainbudget import ChainError  # the base; importable from here as before
 from chainbudget import fields as f
 from chainbudget.fields import listing, quoted, suggest
-from chainbudget.loops import loop_problems
+from chainbudget.loops import loop_problems, sections
 from chainbudget.loudspeaker import LOUDSPEAKER_FIELDS, load_problems
 from chainbudget.parts import (
     GENERIC_OPAMPS,
@@ -91,11 +91,15 @@ LOAD_FIELDS = (
     *LOUDSPEAKER_FIELDS,
 )
 TOP_TABLES = ("chain", "source", "load", "opamp", "transistor", "supply", "stage", "tolerances")
-# The analysis solves every frequency point for every combination of swept pot rotations
-# at once: these two bounds keep that grid within memory (budget/analysis.py: at least
-# 3 rotations a pot, MAX_COMBINATIONS; the default grid is 120 points in 20 Hz to 20 kHz).
+# Size limits (docs/format.md): the work and memory of a check grow with its frequencies,
+# its stages and its swept pots; past these a file is refused in one line, not run out of
+# memory. The worst-case search grows polynomially with the pots (budget/search.py) except
+# inside a loop section, whose network is solved over every combination of its own pots.
+# The default grid is 121 points in 20 Hz to 20 kHz.
 MAX_BAND_POINTS = 1000
-MAX_SWEPT_POTS = 6
+MAX_STAGES = 64
+MAX_SWEPT_POTS = 32
+MAX_LOOP_SWEPT_POTS = 2
 # A chain file is a page or two of text; past this it is something else (a log, an image, a
 # device such as /dev/zero), read no further.
 MAX_FILE_BYTES = 2**20
@@ -520,6 +524,10 @@ def _stages(
     items = reader.named_list(data, "stage")
     if not items:
         raise reader.error("stage", "a chain needs at least one [[stage]]")
+    if len(items) > MAX_STAGES:
+        raise reader.error(
+            f"stage[{MAX_STAGES + 1}]", f"got {len(items)} stages, expected at most {MAX_STAGES}"
+        )
     for index, item in enumerate(items, start=1):
         name, kind = reader.name_and_kind(item, f"stage[{index}]", STAGE_KINDS)
         path = f"stage[{index}] {quoted(name)}"
@@ -571,21 +579,35 @@ def _stages(
 
 
 def _swept_pots(reader: _Reader, stages: tuple[Stage, ...]) -> None:
-    """Refuse more swept pots than the worst-case search can hold (MAX_SWEPT_POTS)."""
+    """Refuse more swept pots than the worst-case search holds: MAX_SWEPT_POTS in the
+    chain, MAX_LOOP_SWEPT_POTS inside one loop section (`chainbudget.loops.sections`; the
+    loader has checked the loops)."""
     swept = [
-        (stage, control.key)
-        for stage in stages
+        (k, stage, control.key)
+        for k, stage in enumerate(stages)
         for control in STAGE_KINDS[stage.kind].controls(stage)
         if control.sweep
     ]
     if len(swept) > MAX_SWEPT_POTS:
-        stage, key = swept[MAX_SWEPT_POTS]
+        _k, stage, key = swept[MAX_SWEPT_POTS]
         raise reader.error(
             f"{_path(stage)}.sweep",
             f"{len(swept)} pots are swept in the worst-case search, expected at most "
             f"{MAX_SWEPT_POTS}: set sweep = false on the stages whose pots are set once "
             f"(this is the {MAX_SWEPT_POTS + 1}th, {key})",
         )
+    for section in sections(stages):
+        inside = [(stage, key) for k, stage, key in swept if k in section]
+        if len(inside) > MAX_LOOP_SWEPT_POTS:
+            stage, key = inside[MAX_LOOP_SWEPT_POTS]
+            head = stages[section.first].name
+            raise reader.error(
+                f"{_path(stage)}.sweep",
+                f"{len(inside)} pots are swept inside the feedback_from loop of "
+                f"{quoted(head)}, expected at most {MAX_LOOP_SWEPT_POTS} (a loop is searched "
+                f"as one network over every combination of its pots): set sweep = false on "
+                f"the others (this is the {MAX_LOOP_SWEPT_POTS + 1}th, {key})",
+            )
 
 
 def parse_chain(data: Mapping[str, Any], file: str) -> Chain:

@@ -1,4 +1,9 @@
-"""The ``chainbudget`` command: thin; it parses arguments, calls the budget, picks a view."""
+"""The ``chainbudget`` command: thin; it parses arguments, calls the budget, picks a view.
+
+Each command imports what it uses when it runs: ``--help`` and ``blocks`` start without
+the analysis, the findings, the views and pint, and ``check`` without matplotlib
+(docs/performance.md; tests/test_start_path.py).
+"""
 
 from __future__ import annotations
 
@@ -6,24 +11,19 @@ import io
 import json
 import sys
 from pathlib import Path
-from typing import Annotated, Any
+from typing import TYPE_CHECKING, Annotated, Any
 
-import tomli_w
 import typer
-from rich import box
-from rich.console import Console
-from rich.markup import escape
-from rich.table import Table
-from typer.core import TyperCommand, TyperGroup
 
 from chainbudget import __version__
-from chainbudget.blocks import catalogue, default_text, generic_parts
-from chainbudget.budget import Budget, compute
 from chainbudget.chainfile import ChainError, load_chain, one_line
+from chainbudget.cli_coercion import PlainValuesCommand, PlainValuesGroup
 from chainbudget.fields import suggest
-from chainbudget.report import noise as noise_view
-from chainbudget.report.json_view import budget_json, without_nulls
-from chainbudget.report.table_view import render
+
+if TYPE_CHECKING:
+    from rich.console import Console
+
+    from chainbudget.budget import Budget
 
 
 class _FlagsWithoutType:
@@ -37,11 +37,11 @@ class _FlagsWithoutType:
         return params
 
 
-class _Command(_FlagsWithoutType, TyperCommand):
+class _Command(_FlagsWithoutType, PlainValuesCommand):
     pass
 
 
-class _Group(_FlagsWithoutType, TyperGroup):
+class _Group(_FlagsWithoutType, PlainValuesGroup):
     pass
 
 
@@ -77,6 +77,8 @@ def _options(
 def _console() -> Console:
     """A console as wide as the terminal (``COLUMNS`` when not a terminal; 80 by default),
     in colour on a terminal unless ``NO_COLOR`` is set, plain otherwise."""
+    from rich.console import Console
+
     tty = sys.stdout.isatty()
     return Console(no_color=None if tty else True, highlight=False)
 
@@ -130,6 +132,8 @@ def check(
     force: Annotated[bool, typer.Option(help="overwrite an existing --output file")] = False,
 ) -> None:
     """Work out the budget of a chain and report it with its findings."""
+    from chainbudget.budget import compute
+
     if output_format not in CHECK_FORMATS:
         raise _fail(
             f'--format: got "{output_format}", expected table, json, toml or html'
@@ -176,6 +180,12 @@ def _report_text(
 ) -> str:
     """The table, JSON or TOML report as text (the table printed straight to a terminal,
     where it keeps its colours, when ``to_stdout``)."""
+    from rich.console import Console
+
+    from chainbudget.report import noise as noise_view
+    from chainbudget.report.json_view import budget_json, without_nulls
+    from chainbudget.report.table_view import render
+
     found = list(budget.findings)
     if output_format == "table":
         if to_stdout:
@@ -190,6 +200,8 @@ def _report_text(
     data = budget_json(budget, found)
     if output_format == "json":
         return json.dumps(data, indent=2)
+    import tomli_w
+
     return tomli_w.dumps(without_nulls(data))
 
 
@@ -198,6 +210,12 @@ def blocks(
     kind: Annotated[str | None, typer.Argument(help="a stage or supply kind, or a table")] = None,
 ) -> None:
     """List the kinds of stage and supply and the fields of each."""
+    from rich import box
+    from rich.markup import escape
+    from rich.table import Table
+
+    from chainbudget.blocks import catalogue, default_text, generic_parts
+
     entries = catalogue()
     console = _console()
     if kind is None:

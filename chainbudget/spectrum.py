@@ -10,12 +10,14 @@ import math
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
-from scipy import constants
 
-# CODATA values from scipy.constants (k and e are exact in the 2019 SI).
-boltzmann_k: float = float(constants.k)  # J/K
-elementary_charge: float = float(constants.e)  # C
-zero_celsius_k: float = float(constants.zero_Celsius)  # K
+# Exact by definition since the 2019 revision of the SI (SI Brochure, 9th ed., sec. 2.2;
+# CODATA 2018 lists them as exact): written out here rather than read from scipy.constants,
+# whose import costs a command's start-up a tenth of a second (tests/test_spectrum.py holds
+# them against scipy's CODATA tables).
+boltzmann_k: float = 1.380649e-23  # J/K
+elementary_charge: float = 1.602176634e-19  # C
+zero_celsius_k: float = 273.15  # K: 0 degC, by the definition of the Celsius scale
 
 
 def log_frequency_grid(f_lo: float, f_hi: float, points_per_decade: int) -> NDArray[np.float64]:
@@ -172,7 +174,7 @@ def thermal_voltage_psd(resistance_ohm: ArrayLike, temperature_k: ArrayLike) -> 
     -----
     S_v = 4 k T R (Nyquist, Phys. Rev. 32, 110 (1928); e.g. Horowitz & Hill, The Art of
     Electronics, 3rd ed., sec. 8.1.1), valid while h f << k T, i.e. throughout audio.
-    k is the Boltzmann constant from scipy.constants (exact in the 2019 SI).
+    k is the Boltzmann constant, exact in the 2019 SI (`boltzmann_k`).
     """
     k = boltzmann_k
     return np.asarray(
@@ -225,7 +227,8 @@ def shot_current_psd(current_a: ArrayLike) -> NDArray[np.float64]:
     -----
     S_i = 2 q I (Schottky's formula; e.g. Horowitz & Hill, The Art of Electronics,
     3rd ed., sec. 8.1.2), for carriers crossing a barrier independently (junction
-    currents), flat through audio. q is the elementary charge from scipy.constants.
+    currents), flat through audio. q is the elementary charge, exact in the 2019 SI
+    (`elementary_charge`).
     """
     q = elementary_charge
     return np.asarray(2.0 * q * np.abs(np.asarray(current_a, dtype=np.float64)), dtype=np.float64)
@@ -281,6 +284,6 @@ def celsius_to_kelvin(t_degc: ArrayLike) -> NDArray[np.float64]:
     Notes
     -----
     T/K = t/degC + 273.15 (definition of the Celsius scale, SI Brochure 9th ed.);
-    273.15 is scipy.constants.zero_Celsius.
+    273.15 is `zero_celsius_k`.
     """
     return np.asarray(np.asarray(t_degc, dtype=np.float64) + zero_celsius_k, dtype=np.float64)

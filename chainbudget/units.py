@@ -8,13 +8,18 @@ this edge and at the display edge.
 from __future__ import annotations
 
 import math
+import os
 import re
 import reprlib
+import sys
 from dataclasses import dataclass
 from decimal import Decimal
 from functools import lru_cache
+from pathlib import Path
+from typing import TYPE_CHECKING
 
-import pint
+if TYPE_CHECKING:  # pint is imported when the first quantity is read, not at import
+    import pint
 
 from chainbudget import ChainError
 
@@ -53,11 +58,54 @@ class UnitParseError(ValueError, ChainError):
         self.expected = expected
 
 
+def registry_cache_folder() -> Path:
+    """Where pint's parsed unit definitions are kept between runs.
+
+    ``$XDG_CACHE_HOME/chainbudget`` (``~/.cache/chainbudget`` when the variable is unset or
+    not absolute, as the XDG base directory specification says), in a folder named after
+    the pint and Python versions, since the cache holds pickled pint objects.
+    """
+    import pint
+
+    base = os.environ.get("XDG_CACHE_HOME", "")
+    root = Path(base) if os.path.isabs(base) else Path.home() / ".cache"
+    python = f"{sys.version_info.major}.{sys.version_info.minor}"
+    return root / "chainbudget" / f"pint-{pint.__version__}-py{python}"
+
+
 @lru_cache(maxsize=1)
 def registry() -> pint.UnitRegistry:
-    """Return the project's single pint registry (created once, cached)."""
-    reg: pint.UnitRegistry = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
+    """Return the project's single pint registry (created once per process).
+
+    Parsing pint's definition files is most of the registry's cost, so the parsed form is
+    kept in `registry_cache_folder` (pint's ``cache_folder``) and reused on the next run.
+    A cache that cannot be made, written or read never fails the command: the registry is
+    then built without one, and a cache that fails to load is cleared so the next run
+    writes it afresh.
+    """
+    import pint
+
+    folder: Path | None = None
+    try:
+        folder = registry_cache_folder()
+        reg: pint.UnitRegistry = pint.UnitRegistry(
+            cache_folder=folder, autoconvert_offset_to_baseunit=True
+        )
+    except Exception:  # no home, unwritable, a file in the way, a truncated pickle...
+        if folder is not None:
+            _clear_cache(folder)
+        reg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
     return reg
+
+
+def _clear_cache(folder: Path) -> None:
+    """Remove what pint's cache left in ``folder`` (only its own .pickle and .json files)."""
+    try:
+        for entry in folder.iterdir():
+            if entry.suffix in (".pickle", ".json"):
+                entry.unlink()
+    except OSError:
+        pass
 
 
 @dataclass(frozen=True)

@@ -489,7 +489,7 @@ def test_repr_says_what_the_chain_is() -> None:
 
 def test_repr_of_a_large_chain_stays_short() -> None:
     """Forty stages with long names, a long title and a long file name (their pots held
-    out of the worst-case search, which takes at most six)."""
+    out of the worst-case search, which takes at most 32)."""
     stages = "".join(
         f'[[stage]]\nname = "{"volume_control_number_" * 3}{i}"\nkind = "volume"\npot = "10k"\n'
         "sweep = false\n"

@@ -9,6 +9,8 @@ tomllib after tomli-w (the two reference TOML libraries of the stack).
 from __future__ import annotations
 
 import math
+import subprocess
+import sys
 import tomllib
 from dataclasses import replace
 from pathlib import Path
@@ -20,6 +22,9 @@ from hypothesis import strategies as st
 
 from chainbudget import fields as f
 from chainbudget.chainfile import (
+    MAX_LOOP_SWEPT_POTS,
+    MAX_STAGES,
+    MAX_SWEPT_POTS,
     ChainError,
     ChainFileError,
     chain_to_dict,
@@ -486,13 +491,57 @@ def test_too_many_swept_pots(tmp_path: Path) -> None:
     text = FIXTURE.read_text(encoding="utf-8")
     extra = "".join(
         f'\n[[stage]]\nname = "trim{i}"\nkind = "volume"\npot = "10k"\nposition = 0.5\n'
-        for i in range(4)
+        for i in range(MAX_SWEPT_POTS)
     )
     path = tmp_path / "many.toml"
     path.write_text(text + extra, encoding="utf-8")
-    with pytest.raises(ChainFileError, match=r"expected at most 6: set sweep = false") as info:
+    with pytest.raises(ChainFileError, match=r"expected at most 32: set sweep = false") as info:
         load_chain(path)
     assert info.value.path.endswith(".sweep")
+    # Run as a command: one line on stderr, exit status 2, no traceback.
+    done = subprocess.run(
+        [sys.executable, "-m", "chainbudget", "check", str(path)], capture_output=True, text=True
+    )
+    assert done.returncode == 2 and done.stdout == ""
+    assert done.stderr.count("\n") == 1 and "expected at most 32" in done.stderr
+
+
+def test_too_many_stages(tmp_path: Path) -> None:
+    """More stages than MAX_STAGES: one line at the first stage past the limit."""
+    text = FIXTURE.read_text(encoding="utf-8")
+    extra = "".join(
+        f'\n[[stage]]\nname = "buf{i}"\nkind = "block"\ngain = 1\n' for i in range(MAX_STAGES)
+    )
+    path = tmp_path / "long.toml"
+    path.write_text(text + extra, encoding="utf-8")
+    with pytest.raises(ChainFileError, match=r"expected at most 64") as info:
+        load_chain(path)
+    assert info.value.path == "stage[65]"
+
+
+def test_too_many_swept_pots_inside_one_loop(tmp_path: Path) -> None:
+    """A loop section is searched over every combination of its own pots: more than
+    MAX_LOOP_SWEPT_POTS inside one loop is refused at the pot past the limit."""
+    text = FIXTURE.read_text(encoding="utf-8")
+    pots = "".join(
+        f'\n[[stage]]\nname = "in{i}"\nkind = "volume"\npot = "10k"\nposition = 0.5\n'
+        for i in range(MAX_LOOP_SWEPT_POTS + 1)
+    )
+    loop = (
+        '\n[[stage]]\nname = "head"\nkind = "opamp_gain"\ntopology = "non-inverting"\n'
+        'feedback = "10k"\nground_leg = "10k"\nfeedback_from = "tail"\nopamp = "jfet_input"\n'
+        'positive = "plus"\nnegative = "minus"\n'
+        + pots
+        + '\n[[stage]]\nname = "tail"\nkind = "block"\ngain = 1\n'
+        + 'input_impedance = "100k"\noutput_impedance = "10 ohm"\n'
+    )
+    path = tmp_path / "loop.toml"
+    path.write_text(text + loop, encoding="utf-8")
+    with pytest.raises(ChainFileError, match=r"inside the feedback_from loop") as info:
+        load_chain(path)
+    assert (
+        info.value.path == f'stage[{text.count("[[stage]]") + 2 + MAX_LOOP_SWEPT_POTS}] "in2".sweep'
+    )
 
 
 def test_too_dense_a_frequency_grid(tmp_path: Path) -> None:

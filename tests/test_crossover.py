@@ -224,3 +224,22 @@ def test_the_busking_amps_bias_is_named_for_what_it_is() -> None:
     assert high.severity == "note" and high.stage == "output"
     v_t = 1.380649e-23 * (35.0 + 273.15) / 1.602176634e-19
     assert high.figures["optimum_quiescent_a"] == pytest.approx(v_t / 0.22, rel=1e-6, abs=0)
+
+
+def test_lambert_w_of_exp_against_scipy() -> None:
+    """W(e^x) by Newton in ln w against scipy.special.lambertw (an independent
+    implementation) where e^x is finite, and against its defining equation w + ln w = x
+    beyond (Corless et al., Adv. Comput. Math. 5 (1996) 329)."""
+    from scipy.special import lambertw
+
+    from chainbudget.stages.push_pull.crossover import _w_of_exp
+
+    x = np.linspace(-700.0, 700.0, 20001)
+    w = _w_of_exp(x)
+    assert np.max(np.abs(w / lambertw(np.exp(x)).real - 1.0)) < 1e-13
+    # Started anywhere positive (the last step's answer, or far from it), the same root.
+    start = np.geomspace(1e-30, 1e30, x.size)
+    assert np.max(np.abs(_w_of_exp(x, start) / lambertw(np.exp(x)).real - 1.0)) < 1e-13
+    big = np.geomspace(700.0, 1e8, 201)
+    wb = _w_of_exp(big)
+    assert np.max(np.abs((wb + np.log(wb) - big) / big)) < 1e-14

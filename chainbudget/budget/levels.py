@@ -84,19 +84,21 @@ def clip_source_peak(cas: Cascade, k: int) -> tuple[NDArray[np.float64], NDArray
 
 
 def set_point_index(analysis: Analysis, overrides: dict[str, float] | None = None) -> tuple:
-    """Index into the swept grid with every control as set (or as ``overrides`` says)."""
+    """Index into ``analysis.swept`` with every control as set, or with the controls of one
+    stage fully up (``overrides`` of 1.0): the candidates hold no other setting away from
+    the settings as set."""
     overrides = overrides or {}
-    index: list[int | slice] = []
-    for sc in analysis.swept_controls:
-        wanted = overrides.get(sc.control.label, sc.control.position)
-        index.append(int(np.argmin(np.abs(sc.rotations - wanted))))
-    return (*index, slice(None))
+    wanted = [
+        int(np.argmin(np.abs(sc.rotations - overrides.get(sc.control.label, sc.control.position))))
+        for sc in analysis.swept_controls
+    ]
+    return (analysis.candidate_row(wanted), slice(None))
 
 
 def node_levels(analysis: Analysis) -> list[NodeLevels]:
     """Per-stage gain, level, clip level and headroom (nominal and worst case)."""
     chain = analysis.chain
-    nominal, swept = analysis.nominal, analysis.swept
+    nominal = analysis.nominal
     max_peak = SQRT2 * chain.source.max_level
     found: list[NodeLevels] = []
     for k, sol in enumerate(nominal.stages):
@@ -115,7 +117,7 @@ def node_levels(analysis: Analysis) -> list[NodeLevels]:
             nominal_headroom = float(db(peak / (SQRT2 * chain.source.level)))
             limited_by, limit_what = limit.name, limit.what
             by_current = limit.bounds_current
-            worst = _worst_case(analysis, swept, k)
+            worst = _worst_case(analysis, k)
         found.append(
             NodeLevels(
                 stage=sol.stage.name,
@@ -138,49 +140,33 @@ def node_levels(analysis: Analysis) -> list[NodeLevels]:
     return found
 
 
-def _worst_case(analysis: Analysis, swept: Cascade, k: int) -> WorstCase:
-    clip = clip_source_peak(swept, k)
+def _worst_case(analysis: Analysis, k: int) -> WorstCase:
+    """The worst case the search placed (`chainbudget.budget.search`), worked out exactly
+    by the cascade at its setting."""
+    assert analysis.worst is not None
+    found = analysis.worst.nodes[k]
+    assert found is not None
+    rotations = analysis.setting_rotations(found.setting)
+    col = found.frequency_index
+    at_worst = analysis.at_settings(found.setting[:, None])
+    clip = clip_source_peak(at_worst, k)
     assert clip is not None
-    peak, which = clip
-    where = _least_surprising_minimum(analysis, peak)
+    peak, which = (np.broadcast_to(a, at_worst.v_out[k].shape)[0, col] for a in clip)
     # Controls after this node matter only through loading; the search covers them, the
     # report names the settings of this stage and the ones before it.
     stages = analysis.chain.stages
     controls = {
-        (stages[sc.stage_index].name, sc.control.key): float(sc.rotations[where[sc.axis]])
-        if peak.shape[sc.axis] > 1
-        else sc.control.position
+        (stages[sc.stage_index].name, sc.control.key): float(sc.rotations[rotations[sc.axis]])
         for sc in analysis.swept_controls
         if sc.stage_index <= k
     }
-    limit = swept.stages[k].built.limits[int(which[where])]
+    limit = at_worst.stages[k].built.limits[int(which)]
     return WorstCase(
-        headroom_db=float(db(peak[where] / (SQRT2 * analysis.chain.source.max_level))),
-        frequency_hz=float(analysis.frequency[where[-1]]),
+        headroom_db=float(db(peak / (SQRT2 * analysis.chain.source.max_level))),
+        frequency_hz=float(analysis.frequency[col]),
         controls=controls,
         limited_by=limit.name,
     )
-
-
-# Worst cases within this much of the minimum are taken as ties (dB).
-TIE_DB = 0.01
-
-
-def _least_surprising_minimum(analysis: Analysis, peak: NDArray[np.float64]) -> tuple[np.intp, ...]:
-    """Index of the minimum of ``peak``, preferring among near-ties (within TIE_DB) the
-    reference frequency and the settings as set, so that a flat stage reports where the
-    designer is, not an arbitrary point of a plateau."""
-    tied = peak <= peak.min() * 10.0 ** (TIE_DB / 20.0)
-    distance = np.zeros(peak.shape)
-    for sc in analysis.swept_controls:
-        shape = [1] * peak.ndim
-        shape[sc.axis] = peak.shape[sc.axis]
-        if peak.shape[sc.axis] > 1:
-            distance = distance + np.abs(sc.rotations - sc.control.position).reshape(shape)
-    off_reference = np.ones(peak.shape[-1])
-    off_reference[0] = 0.0
-    distance = distance + off_reference
-    return np.unravel_index(int(np.argmin(np.where(tied, distance, np.inf))), peak.shape)
 
 
 @dataclass(frozen=True)
@@ -229,16 +215,21 @@ class HeadroomCurves:
 
 
 def headroom_curves(analysis: Analysis) -> HeadroomCurves:
-    """Headroom against frequency for every node with a limit (band grid only)."""
+    """Headroom against frequency for every node with a limit (band grid only): as set, and
+    the least over every swept control at each frequency, worked out at the combination the
+    search found there."""
     band = analysis.band_slice
     max_peak = SQRT2 * analysis.chain.source.max_level
     curves = []
+    assert analysis.worst is not None
     for k, sol in enumerate(analysis.nominal.stages):
         as_set = clip_source_peak(analysis.nominal, k)
-        swept = clip_source_peak(analysis.swept, k)
-        if as_set is None or swept is None:
+        found = analysis.worst.nodes[k]
+        if as_set is None or found is None:
             continue
-        worst = swept[0].reshape(-1, swept[0].shape[-1]).min(axis=0)
+        least = clip_source_peak(analysis.at_settings(found.curve_settings), k)
+        assert least is not None
+        worst = np.broadcast_to(least[0], (1, analysis.frequency.size))[0]
         curves.append(
             HeadroomCurve(
                 sol.stage.name,

@@ -8,20 +8,16 @@ swept controls are (`chainbudget.budget.analysis`).
 
 Notes
 -----
-The three solves of `chainbudget.budget.analysis.analyse` carry the step axis:
+Two solves of `chainbudget.budget.analysis.analyse` carry the step axis:
 
 - the nominal cascade has shape (S, F): the stepped pot's position, or the stepped part's
   value, is an array of shape (S, 1);
-- the worst-case grid: a stepped pot that the search sweeps anyway keeps its own grid axis,
-  with the union of the rotations every step's search would try (a step's search tries
-  0..1 in ``sweep_points`` rotations, mid rotation and the step's own setting); each step
-  then reads back its own rotations of that axis. Anything else (a part value, a pot the
-  search keeps fixed) puts a leading step axis in front of the grid, in chunks that keep
-  the grid within `MAX_COMBINATIONS` points per frequency, as a plain analysis does;
 - the volume axis takes the step axis in front of its rotations (none when the stepped pot
   is the volume pot itself: that axis turns it through every rotation already).
 
-Each step's `Analysis` is then read out of the batched arrays without solving again. The
+Each step's nominal and volume figures are then read out of the batched arrays without
+solving again; the worst-case search (`chainbudget.budget.analysis.worst_search`), which
+grows only polynomially with the pots, runs on each step's chain as it is read out. The
 supplies' rails under load depend on what the stages draw, so, as
 `chainbudget.budget.supplies.loaded_analysis` does for one chain, each step's loaded rails
 are worked out from its analysis; steps whose rails moved are solved again together,
@@ -38,24 +34,22 @@ import numpy as np
 from numpy.typing import NDArray
 
 from chainbudget.budget.analysis import (
-    MAX_COMBINATIONS,
+    SWEEP_POINTS,
     VOLUME_POINTS,
     Analysis,
-    SweptControl,
     environments,
     frequency_axis,
     master_volume,
     positions_as_set,
     solve_chain,
-    sweep_points,
+    worst_search,
 )
 from chainbudget.budget.rails import supply_voltages
 from chainbudget.budget.supplies import settle
 from chainbudget.cascade import Cascade, StageSolution
 from chainbudget.chainfile import Chain
 from chainbudget.network import TwoPort
-from chainbudget.stages import KINDS
-from chainbudget.stages.base import Built, Control, Stage
+from chainbudget.stages.base import Built, Stage
 from chainbudget.supplies.base import Corners
 
 
@@ -99,34 +93,6 @@ def with_value(chain: Chain, k: int, key: str, value: Any) -> Chain:
     cls = _ArrayStage if isinstance(value, np.ndarray) else Stage
     edited = cls(stage.index, stage.name, stage.kind, {**stage.values, key: value})
     return replace(chain, stages=(*chain.stages[:k], edited, *chain.stages[k + 1 :]))
-
-
-def _control(stage: Stage, key: str) -> Control:
-    return next(c for c in KINDS[stage.kind].controls(stage) if c.key == key)
-
-
-def _rotations(points: int, position: float) -> NDArray[np.float64]:
-    """The rotations the worst-case search tries for a pot set at ``position`` (as
-    `chainbudget.budget.analysis.analyse` builds them)."""
-    return np.unique(np.r_[np.linspace(0.0, 1.0, points), 0.5, position])
-
-
-def _swept_pots(chain: Chain) -> list[tuple[int, Control]]:
-    """The pots the worst-case search sweeps, in the order of its grid axes."""
-    return [
-        (k, control)
-        for k, stage in enumerate(chain.stages)
-        for control in KINDS[stage.kind].controls(stage)
-        if control.sweep
-    ]
-
-
-def _grid_axis(swept_pots: Sequence[tuple[int, Control]], stepped: Stepped) -> int | None:
-    """The grid axis of the stepped pot when the search sweeps it, else None."""
-    for axis, (k, control) in enumerate(swept_pots):
-        if stepped.control and k == stepped.stage_index and control.key == stepped.key:
-            return axis
-    return None
 
 
 # --- reading one step out of batched arrays ----------------------------------------------
@@ -199,16 +165,12 @@ def _restaged(cas: Cascade, stages: Sequence[Stage]) -> Cascade:
     return replace(cas, stages=tuple(replace(sol, stage=stage) for stage, sol in solutions))
 
 
-def _ndim(cas: Cascade) -> int:
-    return int(np.ndim(cas.v_out[0]))
-
-
 # --- the batched solve -------------------------------------------------------------------
 
 
 @dataclass(frozen=True)
 class _Batch:
-    """Steps solved together on the same rails: the three batched cascades and how to read
+    """Steps solved together on the same rails: the two batched cascades and how to read
     one step out of each."""
 
     chain: Chain
@@ -220,11 +182,6 @@ class _Batch:
     voltages: tuple[dict[str, Corners], ...]
     corner: str
     nominal: Cascade
-    swept: Cascade
-    swept_controls: tuple[SweptControl, ...]
-    points: int
-    #: The stepped pot's own grid axis (None: the grid carries a leading step axis).
-    grid_axis: int | None
     volume_index: int | None
     volume_rotations: NDArray[np.float64]
     volume_sweep: Cascade | None
@@ -233,7 +190,7 @@ class _Batch:
     def analysis(self, position: int, grid: bool = True) -> Analysis:
         """The analysis of ``self.steps[position]``, read out of the batched arrays.
 
-        Without ``grid`` only the nominal cascade is read out (the worst-case grid and the
+        Without ``grid`` only the nominal cascade is read out (the worst-case search and the
         volume axis are left out): enough for the stages' rail currents.
         """
         step = self.steps[position]
@@ -251,26 +208,12 @@ class _Batch:
                 nominal,
                 nominal,
                 (),
-                self.points,
+                SWEEP_POINTS,
                 None,
                 self.volume_rotations,
                 None,
             )
-        controls = []
-        for sc in self.swept_controls:
-            control = _control(stages[sc.stage_index], sc.control.key)
-            rotations = sc.rotations
-            if self.grid_axis is not None and sc.axis == self.grid_axis:
-                rotations = _rotations(self.points, control.position)
-            controls.append(SweptControl(sc.stage_index, control, sc.axis, rotations))
-        if not self.swept_controls:
-            swept = nominal
-        elif self.grid_axis is None:
-            swept = _Take(_ndim(self.swept), 0, position).cascade(self.swept, stages)
-        else:
-            union = self.swept_controls[self.grid_axis].rotations
-            own = np.searchsorted(union, controls[self.grid_axis].rotations)
-            swept = _Take(_ndim(self.swept), self.grid_axis, own).cascade(self.swept, stages)
+        worst = worst_search(chain, envs, self.frequency, nominal)
         volume = self.volume_sweep
         if volume is not None:
             volume = (
@@ -284,12 +227,15 @@ class _Batch:
             dict(voltages),
             envs,
             nominal,
-            swept,
-            tuple(controls),
-            self.points,
+            worst.swept,
+            worst.controls,
+            SWEEP_POINTS,
             self.volume_index,
             self.volume_rotations,
             volume,
+            worst.grids,
+            worst.candidates,
+            worst.found,
         )
 
 
@@ -325,34 +271,6 @@ def _solve_batch(
 
     nominal = solve(frequency, 2, lambda _p: None)
 
-    swept_pots = _swept_pots(chain)
-    points = sweep_points(len(swept_pots))
-    grid_axis = _grid_axis(swept_pots, stepped)
-    swept_controls = []
-    for axis, (k, control) in enumerate(swept_pots):
-        rotations = _rotations(points, control.position)
-        if axis == grid_axis:
-            rotations = np.unique(np.r_[rotations, *(_rotations(points, v) for v in values)])
-        swept_controls.append(SweptControl(k, control, axis, rotations))
-    n_axes = len(swept_controls)
-    lead = 0 if grid_axis is not None else 1
-
-    def grid(positions: list[dict[str, Any]]) -> None:
-        for sc in swept_controls:
-            shape = [1] * (n_axes + 1 + lead)
-            shape[sc.axis + lead] = sc.rotations.size
-            positions[sc.stage_index][sc.control.key] = sc.rotations.reshape(shape)
-
-    if not swept_controls:
-        swept = nominal
-    elif grid_axis is not None:
-        # The stepped pot's grid axis already holds every step's rotations: no step axis.
-        positions = [dict(p) for p in as_set]
-        grid(positions)
-        swept = solve_chain(chain, envs, frequency, positions)
-    else:
-        swept = solve(frequency, n_axes + 2, grid)
-
     volume_index = master_volume(chain)
     rotations = np.linspace(0.0, 1.0, VOLUME_POINTS)
     volume_sweep = None
@@ -379,27 +297,11 @@ def _solve_batch(
         tuple(voltages),
         corner,
         nominal,
-        swept,
-        tuple(swept_controls),
-        points,
-        grid_axis,
         volume_index,
         rotations,
         volume_sweep,
         volume_stepped,
     )
-
-
-def _chunks(chain: Chain, stepped: Stepped, steps: Sequence[int]) -> Iterator[list[int]]:
-    """The steps in groups small enough that a grid with a leading step axis stays within
-    `MAX_COMBINATIONS` points per frequency (all at once when the stepped pot has its own
-    grid axis)."""
-    swept = _swept_pots(chain)
-    combinations = (sweep_points(len(swept)) + 2) ** len(swept)
-    own_axis = _grid_axis(swept, stepped) is not None
-    size = len(steps) if own_axis or not swept else max(1, MAX_COMBINATIONS // combinations)
-    for start in range(0, len(steps), size):
-        yield list(steps[start : start + size])
 
 
 def _rails_key(voltages: Mapping[str, Corners], corner: str) -> tuple[tuple[str, float], ...]:
@@ -414,16 +316,15 @@ def loaded_steps(chain: Chain, stepped: Stepped, corner: str = "low") -> Iterato
     `settle`), for every step: solve on the unloaded rails; settle each step's tree; solve
     the steps whose rails moved again, together with the others that moved to the same
     rails.
-    The analyses are yielded one at a time (each step's worst-case grid is a large array).
+    The analyses are yielded one at a time (each step's worst-case search runs as it is
+    read out).
     """
     steps = range(stepped.values.size)
     batches: dict[int, tuple[_Batch, int]] = {}
 
     def solve(group: Sequence[int], voltages: Sequence[dict[str, Corners]]) -> None:
-        by_step = dict(zip(group, voltages, strict=True))
-        for chunk in _chunks(chain, stepped, group):
-            batch = _solve_batch(chain, stepped, chunk, corner, [by_step[s] for s in chunk])
-            batches.update({step: (batch, i) for i, step in enumerate(chunk)})
+        batch = _solve_batch(chain, stepped, list(group), corner, list(voltages))
+        batches.update({step: (batch, i) for i, step in enumerate(group)})
 
     unloaded = supply_voltages(chain)
     solve(steps, [dict(unloaded) for _ in steps])

@@ -114,19 +114,6 @@ def rules(budget: Budget) -> list[Finding]:
                     {"worst_headroom_db": worst.headroom_db, "frequency_hz": worst.frequency_hz},
                 )
             )
-    if budget.sweep_points < budget.full_sweep_points:
-        found.append(
-            Finding(
-                "note",
-                "coarse-search",
-                None,
-                f"with this many swept pots the worst-case search tries {budget.sweep_points} "
-                "rotations of each (plus its setting and mid rotation) instead of "
-                f"{budget.full_sweep_points}; set `sweep = false` on trimmers to search the "
-                "others finer",
-                {"rotations": float(budget.sweep_points)},
-            )
-        )
     found = _merge_carried(found)
     found += _clip_order(budget)
     found += _volume_rotation(budget)

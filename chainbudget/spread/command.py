@@ -72,7 +72,12 @@ def spread_command(
     if output_format == "json":
         return json.dumps(spread_json(result, title, chain.file), indent=2, allow_nan=False)
     Console(highlight=False, no_color=None if sys.stdout.isatty() else True).print(
-        spread_tables(result, title)
+        spread_tables(
+            result,
+            title,
+            [f"nodes.{stage.name}." for stage in chain.stages]
+            + [f"supplies.{supply.name}." for supply in chain.supplies],
+        )
     )
     return None
 

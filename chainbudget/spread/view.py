@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from typing import Any
 
 from rich.console import Group
@@ -19,17 +20,25 @@ TOP_PARTS = 3
 STILL_RTOL = 1e-9
 
 
+#: A figure path's unit suffix and the unit it stands for (the check JSON's key suffixes).
+_UNITS = (
+    ("_db", "dB"),
+    ("_vrms", "Vrms"),
+    ("_vpk", "Vpk"),
+    ("_vpp", "Vpp"),
+    ("_v", "V"),
+    ("_a", "A"),
+    ("_ohm", "ohm"),
+    ("_w", "W"),
+    ("_hz", "Hz"),
+    ("_f", "F"),
+    ("_percent", "%"),
+)
+
+
 def _unit(path: str) -> str:
     """A figure path's unit from its suffix (``_db``, ``_v``, ``_vrms``...)."""
-    for suffix, unit in (
-        ("_db", "dB"),
-        ("_vrms", "Vrms"),
-        ("_vpk", "Vpk"),
-        ("_v", "V"),
-        ("_a", "A"),
-        ("_ohm", "ohm"),
-        ("_w", "W"),
-    ):
+    for suffix, unit in _UNITS:
         if path.endswith(suffix):
             return unit
     return ""
@@ -71,14 +80,42 @@ def _short(path: str) -> str:
 def _bare(path: str) -> str:
     """A figure's path without its unit suffix (the unit has its own column)."""
     short = _short(path)
-    for suffix in ("_db", "_vrms", "_vpk", "_v", "_a", "_ohm", "_w"):
+    for suffix, _ in _UNITS:
         if short.endswith(suffix):
             return short.removesuffix(suffix)
     return short
 
 
-def spread_tables(result: SpreadResult, title: str) -> Group:
-    """Figures, yield, sensitivities, threshold crossings and what is not spread."""
+def _place_and_figure(path: str) -> tuple[str, str]:
+    """Where a figure belongs (``nodes.pre``, ``supplies.raw``...) and its own name without
+    the unit suffix, words spaced (``nominal headroom``)."""
+    place, _, key = _bare(path).rpartition(".")
+    group = path.split(".", 1)[0]
+    if group == "supplies":
+        where = f"supply {place}"  # a supply may share a stage's name
+    else:
+        where = place if group == "nodes" else f"{group}.{place}".rstrip(".")
+    return where, key.replace("_", " ")
+
+
+def _number(unit: str, value: float) -> str:
+    """A figure as the table shows it: dB to two decimals, others to four digits."""
+    return f"{value:+.2f}" if unit == "dB" else f"{value:.4g}"
+
+
+def _in_chain_order(paths: list[str], places: Sequence[str]) -> list[str]:
+    """Figure paths grouped by place in the chain's order (``places``: path prefixes such
+    as ``nodes.pre.``), each place's figures as they came; others after them."""
+
+    def rank(path: str) -> int:
+        return next((i for i, p in enumerate(places) if path.startswith(p)), len(places))
+
+    return sorted(paths, key=rank)  # stable: a place's figures keep their order
+
+
+def spread_tables(result: SpreadResult, title: str, places: Sequence[str] = ()) -> Group:
+    """Figures, yield, sensitivities, threshold crossings and what is not spread; figures
+    grouped by place in the order of ``places`` (path prefixes, the chain's order)."""
     parts: list[Any] = []
     head = Text(
         f"{title}: {result.trials} trials, seed {result.seed}, "
@@ -88,6 +125,7 @@ def spread_tables(result: SpreadResult, title: str) -> Group:
     parts.append(head)
     figures = new_table(
         "Spread over the parts' tolerances (low, high: the corner worst case)",
+        "at",
         "figure",
         "unit",
         "p1",
@@ -95,19 +133,23 @@ def spread_tables(result: SpreadResult, title: str) -> Group:
         "p99",
         "low",
         "high",
-        left=("unit",),
+        left=("figure", "unit"),
     )
-    still = moving(result)
+    still = _in_chain_order(moving(result), places)
+    last_place = None
     for path in still:
         s = result.stats[path]
         lo, hi = result.corners[path]
         scale, unit = scaled(path, s["p50"])
+        place, figure = _place_and_figure(path)
         add_row(
             figures,
-            _bare(path),
+            place if place != last_place else "",
+            figure,
             unit,
-            *(f"{v / scale:.4g}" for v in (s["p1"], s["p50"], s["p99"], lo, hi)),
+            *(_number(unit, v / scale) for v in (s["p1"], s["p50"], s["p99"], lo, hi)),
         )
+        last_place = place
     parts.append(figures)
     yields = new_table(
         f"Yield: {result.yield_all:.1%} of trials with no error finding",

@@ -98,6 +98,20 @@ class OwnParts:
             temperature_k=self.temperature_k,
         )
 
+    def to_bias(self, part: str, node: str, resistance: ArrayLike) -> None:
+        """A resistor from ``node`` to the stage's bias point: AC ground for the signal,
+        and the bias point's ripple entering ``node`` through it as the current
+        v_ripple / R (its Norton form; `Netlist.ripple_current`)."""
+        self.resistor(part, node, GROUND, resistance)
+        self.net.ripple_current(
+            node,
+            1.0 / np.asarray(resistance, dtype=float),
+            rail="bias",
+            label=f"{self.stage}.{part}.ripple",
+            stage=self.stage,
+            path=part.replace("_", " "),
+        )
+
 
 @dataclass(frozen=True)
 class Control:

@@ -106,15 +106,7 @@ class OpAmpGain(StageKind):
                 net.capacitor(node_in, plus, cap_in)
             bias_resistor = stage.optional("bias_resistor")
             if bias_resistor is not None:
-                own.resistor("bias_resistor", plus, GROUND, bias_resistor)
-                net.ripple_current(
-                    plus,
-                    1.0 / bias_resistor,
-                    rail="bias",
-                    label=f"{name}.bias_resistor.ripple",
-                    stage=name,
-                    path="bias resistor",
-                )
+                own.to_bias("bias_resistor", plus, bias_resistor)
             leg_top, ground_cap = GROUND, stage.optional("ground_cap")
             if ground_cap is not None:
                 leg_top = f"{name}.leg"

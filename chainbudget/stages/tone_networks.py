@@ -188,15 +188,7 @@ def stamp_treble(
     own.resistor(f"{prefix}wiper", wiper, summing, stage.number(f"{prefix}wiper") + 1e-6 * pot)
     bias_resistor = stage.optional(f"{prefix}bias_resistor")
     if bias_resistor is not None:
-        own.resistor(f"{prefix}bias_resistor", summing, "0", bias_resistor)
-        net.ripple_current(
-            summing,
-            1.0 / bias_resistor,
-            rail="bias",
-            label=f"{name}.{prefix}bias_resistor.ripple",
-            stage=name,
-            path=f"{prefix}bias resistor",
-        )
+        own.to_bias(f"{prefix}bias_resistor", summing, bias_resistor)
 
 
 TONE_COMMON = (END_RESISTANCE_FIELD, SWEEP_FIELD, OPAMP_FIELD, *RAIL_FIELDS)

@@ -142,16 +142,8 @@ class Follower(StageKind):
             net.capacitor(node_in, base, input_cap)
         bias_resistor = stage.optional("bias_resistor")
         if bias_resistor is not None:
-            own.resistor("bias_resistor", base, GROUND, bias_resistor)
             # to the base bias point, a voltage (`base_bias`) no supply names: ideal
-            net.ripple_current(
-                base,
-                1.0 / bias_resistor,
-                rail="bias",
-                label=f"{name}.bias_resistor.ripple",
-                stage=name,
-                path="bias resistor",
-            )
+            own.to_bias("bias_resistor", base, bias_resistor)
         base_resistor = stage.number("base_resistor")
         if np.any(np.asarray(base_resistor) > 0.0):
             own.resistor("base_resistor", base, f"{name}.base", base_resistor)

@@ -25,7 +25,6 @@ from typing import Any
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
-from scipy.special import lambertw
 
 from chainbudget import outputmath as om
 from chainbudget.kindfigures import KindFigures, figure
@@ -60,34 +59,59 @@ class HalfLaw:
     r_ohm: float
     i_q: float
 
-    def current(self, y: NDArray[np.float64], v_t: float) -> NDArray[np.float64]:
-        """I = u^-1(y), A (the module's notes)."""
+    def current(
+        self, y: NDArray[np.float64], v_t: float, near: NDArray[np.float64] | None = None
+    ) -> NDArray[np.float64]:
+        """I = u^-1(y), A (the module's notes); ``near``, currents close to the answer (the
+        last step of an iteration), start the root finding there."""
         a = self.junctions * v_t
         if self.r_ohm <= 0.0:
             return np.asarray(self.i_q * np.exp(np.minimum(y / a, 700.0)))
         x = np.log(self.r_ohm * self.i_q / a) + (y + self.i_q * self.r_ohm) / a
-        return np.asarray(a / self.r_ohm * _w_of_exp(x))
+        start = None if near is None else near * (self.r_ohm / a)
+        return np.asarray(a / self.r_ohm * _w_of_exp(x, start))
 
     def slope(self, current: NDArray[np.float64], v_t: float) -> NDArray[np.float64]:
         """dI/dy = 1/u'(I), S."""
         return np.asarray(1.0 / (self.junctions * v_t / current + self.r_ohm))
 
 
-def _w_of_exp(x: NDArray[np.float64]) -> NDArray[np.float64]:
+def _w_of_exp(
+    x: NDArray[np.float64], start: NDArray[np.float64] | None = None
+) -> NDArray[np.float64]:
     """W(e^x), the principal Lambert W of e^x, for any real x without overflow.
 
     Notes
     -----
-    scipy's lambertw where e^x is finite; beyond, Newton on w + ln w = x from the
-    asymptote x - ln x (Corless et al., "On the Lambert W function", Adv. Comput. Math. 5
-    (1996) 329, from memory)."""
-    small = np.minimum(x, 600.0)
-    w = np.asarray(lambertw(np.exp(small)).real)
-    big = np.maximum(x, 600.0)
-    v = big - np.log(big)
-    for _ in range(8):
-        v = v - (v + np.log(v) - big) / (1.0 + 1.0 / v)
-    return np.asarray(np.where(x > 600.0, v, w))
+    w = W(e^x) solves w + ln w = x (Corless et al., "On the Lambert W function",
+    Adv. Comput. Math. 5 (1996) 329, from memory). In u = ln w that is g(u) = e^u + u - x,
+    increasing and convex, so Newton's method converges from any start, monotonically
+    once an iterate lies right of the root (a step from the left lands right of it):
+    from u = ln(x) for x > e (the asymptote w ~ x) and u = x - 1 below (w ~ e^x, an
+    iterate right of the root where e^x is small), a few steps reach the float's
+    precision. Worked on the array at once: no per-point root finding, and no scipy on the
+    start path (tests/test_crossover.py holds it against ``scipy.special.lambertw``).
+    ``start`` (values of w near the answer, positive) starts Newton there instead. Every
+    iterate is kept at or below ln max(x, e), which the root never exceeds (w <= x where
+    x > 1, w < e below): far right of the root Newton's steps shrink to one unit each.
+    """
+    x = np.asarray(x, dtype=float)
+    cap = np.log(np.maximum(x, np.e))
+    if start is not None and np.all(np.asarray(start) > 0.0):
+        u = np.minimum(np.log(np.asarray(start, dtype=float)), cap)
+    else:
+        u = np.where(x > np.e, cap, x - 1.0)
+    for _ in range(_W_MAX_STEPS):
+        e = np.exp(np.minimum(u, 700.0))
+        step = (e + u - x) / (e + 1.0)
+        u = np.minimum(u - step, cap)
+        if not np.any(np.abs(step) > 4.0 * np.finfo(float).eps * np.maximum(1.0, np.abs(u))):
+            break
+    return np.asarray(np.exp(np.minimum(u, 709.0)))
+
+
+# Newton steps at most for `_w_of_exp` (quadratic convergence takes a handful from its start).
+_W_MAX_STEPS = 60
 
 
 def pair_laws(stage: Stage, env: Environment) -> tuple[HalfLaw, HalfLaw]:
@@ -122,9 +146,12 @@ def static_output(
     lo, hi = np.minimum(v, 0.0), np.maximum(v, 0.0)
     out = v * r_load / (r_load + 0.5 * (upper.r_ohm + lower.r_ohm))
     scale = float(np.max(np.abs(v), initial=0.0))
+    i_u: NDArray[np.float64] | None = None
+    i_l: NDArray[np.float64] | None = None
     for _ in range(NEWTON_STEPS):
-        i_u = upper.current(v - out, v_t)
-        i_l = lower.current(out - v, v_t)
+        # Each step's currents start the next step's root finding (they move less each time).
+        i_u = upper.current(v - out, v_t, i_u)
+        i_l = lower.current(out - v, v_t, i_l)
         g = i_u - i_l - out / r_load
         lo = np.where(g > 0.0, out, lo)
         hi = np.where(g > 0.0, hi, out)

@@ -28,10 +28,10 @@ from dataclasses import dataclass
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
-from scipy.optimize import brentq
 
 from chainbudget import outputmath as om
 from chainbudget.kindfigures import KindFigures, figure
+from chainbudget.roots import bracketed_root
 from chainbudget.stages.base import StageContext
 from chainbudget.stages.push_pull.crossover import HalfLaw, pair_laws
 from chainbudget.stages.push_pull.halves import halves
@@ -102,7 +102,7 @@ def hot_bias(
         return np.asarray(m_sum * np.log(i / i_q) + (i - i_q) * r_sum - gain * (a_sum + b_sum * i))
 
     def root(top: float) -> float:
-        return float(brentq(lambda i: float(h(i)), i_q, top, xtol=1e-15, rtol=1e-12))
+        return bracketed_root(lambda i: float(h(i)), i_q, top, xtol=1e-15, rtol=1e-12)
 
     stable_r = gain * b_sum
     stable_tracking = None

@@ -37,9 +37,9 @@ from collections.abc import Mapping
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.optimize import brentq
 
 from chainbudget import rectifier
+from chainbudget.roots import bracketed_root
 from chainbudget.supplies.base import Supply, SupplyLoad
 from chainbudget.supplymath import mains_factors
 
@@ -270,7 +270,7 @@ def secondary_for_trough(tr: Transformer, load: SupplyLoad, target_v: float) -> 
             hi *= 2.0
             if hi > 1e5:
                 return None
-    return float(brentq(miss, lo, hi, xtol=1e-12, rtol=1e-13))
+    return float(bracketed_root(miss, lo, hi, xtol=1e-12, rtol=1e-13))
 
 
 def reservoir_for_trough(tr: Transformer, load: SupplyLoad, target_v: float) -> float | None:
@@ -295,7 +295,7 @@ def reservoir_for_trough(tr: Transformer, load: SupplyLoad, target_v: float) -> 
             return None
     if miss(lo) >= 0.0:
         return math.exp(lo)
-    return float(math.exp(brentq(miss, lo, hi, xtol=1e-13, rtol=1e-13)))
+    return float(math.exp(bracketed_root(miss, lo, hi, xtol=1e-13, rtol=1e-13)))
 
 
 def winding_for_trough(tr: Transformer, load: SupplyLoad, target_v: float) -> float | None:
@@ -314,4 +314,4 @@ def winding_for_trough(tr: Transformer, load: SupplyLoad, target_v: float) -> fl
         hi *= 2.0
         if hi > 1e6:
             return hi
-    return float(brentq(miss, 0.0, hi, xtol=1e-12, rtol=1e-12))
+    return float(bracketed_root(miss, 0.0, hi, xtol=1e-12, rtol=1e-12))

@@ -1,0 +1,220 @@
+"""What a command loads before it starts: the cached unit registry and the lazy command line.
+
+Speed itself is measured by ``tests/bench/`` (ratios in one run), never here; these tests
+hold the mechanisms: that ``--help`` and ``blocks`` leave the analysis and the views
+unloaded, and that pint's cache is used when it can be and never fails a command when it
+cannot.
+"""
+
+from __future__ import annotations
+
+import os
+import subprocess
+import sys
+from collections.abc import Iterator
+from pathlib import Path
+
+import pytest
+from typer.testing import CliRunner
+
+from chainbudget import cli_coercion, units
+from chainbudget.cli import app
+
+ROOT = Path(__file__).resolve().parents[1]
+BUSKING = ROOT / "chains" / "busking_amp.toml"
+# Modules of the analysis and report stack that neither --help nor blocks needs.
+HEAVY = (
+    "chainbudget.budget",
+    "chainbudget.findings",
+    "chainbudget.report",
+    "pint",
+    "pydantic",
+    "scipy",
+    "matplotlib",
+)
+
+
+def _loaded_after(args: list[str], env: dict[str, str] | None = None) -> set[str]:
+    """Run the command in a fresh interpreter and list the heavy modules it loaded."""
+    code = (
+        "import sys\n"
+        "from chainbudget.cli import app\n"
+        "try:\n"
+        f"    app({args!r})\n"
+        "except SystemExit:\n"
+        "    pass\n"
+        f"print(sorted(m for m in sys.modules if m.startswith({HEAVY!r})))\n"
+    )
+    done = subprocess.run(
+        [sys.executable, "-c", code], capture_output=True, text=True, check=True, env=env
+    )
+    return set(eval(done.stdout.strip().splitlines()[-1]))
+
+
+def test_help_loads_neither_the_analysis_nor_pint() -> None:
+    assert _loaded_after(["--help"]) == set()
+
+
+def test_blocks_loads_neither_the_analysis_nor_the_views() -> None:
+    loaded = _loaded_after(["blocks"])
+    assert not {m for m in loaded if m.startswith(("chainbudget.budget", "chainbudget.report"))}
+    assert "pint" not in loaded  # the catalogue reads no quantity
+    assert "pydantic" not in loaded  # no argument given, so typer validates nothing
+
+
+def test_check_does_load_the_analysis() -> None:
+    """The probe above would pass vacuously if it saw nothing at all."""
+    loaded = _loaded_after(["check", str(BUSKING)])
+    assert "chainbudget.budget" in loaded
+    assert "pint" in loaded
+    assert "pydantic" not in loaded  # the command line is read by cli_coercion
+    # scipy's heavy packages (half the import floor) and matplotlib stay off a check's
+    # path: roots by chainbudget.roots, W(e^x) by Newton, pictures only for plot and html.
+    # (pint itself imports the bare scipy package when it is installed, floor included.)
+    heavy = ("scipy.optimize", "scipy.special", "scipy.linalg", "scipy.integrate", "matplotlib")
+    assert not {m for m in loaded if m.startswith(heavy)}
+
+
+def _answers(args: list[str], plain: bool, monkeypatch: pytest.MonkeyPatch) -> tuple[int, str]:
+    monkeypatch.setattr(cli_coercion, "_typer_offers_the_hooks", lambda: plain)
+    result = CliRunner().invoke(app, args)
+    return result.exit_code, result.output
+
+
+@pytest.mark.parametrize(
+    "args",
+    [
+        ["check", "{busking}", "--format", "json", "--strict"],
+        ["check", "{busking}", "-f=toml"],
+        ["check", "--format=nope", "{busking}"],
+        ["check", "{missing}"],
+        ["check", "{folder}"],
+        ["check", ""],
+        ["check"],
+        ["check", "{busking}", "--strict=yes"],
+        ["check", "--help"],
+        ["blocks"],
+        ["blocks", "opamp"],
+        ["blocks", "volumes"],
+        ["new", "{busking}"],
+        ["new"],
+        ["plot", "{busking}"],
+        ["plot", "{busking}", "-o", "{folder}/x.txt"],
+        ["--help"],
+        ["no-such-command"],
+    ],
+)
+def test_the_command_line_answers_as_typer_alone_would(
+    args: list[str], tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """Every answer (exit status and text) is the same with typer's own pydantic coercion
+    and with the plain one."""
+    names = {"busking": BUSKING, "missing": tmp_path / "no.toml", "folder": tmp_path}
+    filled = [a.format(**{k: str(v) for k, v in names.items()}) for a in args]
+    assert _answers(filled, True, monkeypatch) == _answers(filled, False, monkeypatch)
+
+
+def test_the_start_path_does_without_scipy_constants() -> None:
+    """k, e and 273.15 are literals (chainbudget.spectrum); scipy.constants is not loaded
+    by the analysis itself (pint may load scipy's top package for its own checks)."""
+    code = (
+        "import sys\n"
+        "from chainbudget.budget import compute\n"
+        "from chainbudget.chainfile import load_chain\n"
+        f"compute(load_chain({str(BUSKING)!r}))\n"
+        "print('scipy.constants' in sys.modules)\n"
+    )
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert done.stdout.strip() == "False"
+
+
+@pytest.fixture
+def fresh_registry() -> Iterator[None]:
+    """Let a test build the process's registry again, and rebuild it afterwards."""
+    units.registry.cache_clear()
+    yield
+    units.registry.cache_clear()
+
+
+def test_the_registry_keeps_its_parsed_definitions_in_the_user_cache(
+    fresh_registry: None, tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    monkeypatch.setenv("XDG_CACHE_HOME", str(tmp_path))
+    folder = units.registry_cache_folder()
+    assert folder.parent == tmp_path / "chainbudget"
+    assert units.registry().cache_folder == folder
+    assert list(folder.glob("*.pickle"))
+    # A second registry reads what the first one wrote.
+    units.registry.cache_clear()
+    assert units.registry().cache_folder == folder
+    assert units.parse_quantity("4k7", units.OHM) == 4700.0
+    assert units.parse_quantity("10 kohm", units.OHM) == pytest.approx(1e4, rel=1e-15)
+
+
+def test_a_relative_xdg_cache_home_is_ignored(
+    monkeypatch: pytest.MonkeyPatch, tmp_path: Path
+) -> None:
+    """The XDG base directory specification: a relative path is invalid and ignored."""
+    monkeypatch.setenv("XDG_CACHE_HOME", "relative/cache")
+    monkeypatch.setenv("HOME", str(tmp_path))
+    assert units.registry_cache_folder().parent == tmp_path / ".cache" / "chainbudget"
+
+
+def test_an_unusable_cache_folder_falls_back_to_no_cache(
+    fresh_registry: None, tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    blocker = tmp_path / "a_file"
+    blocker.write_text("not a folder")
+    monkeypatch.setenv("XDG_CACHE_HOME", str(blocker))
+    assert units.registry().cache_folder is None
+    assert units.parse_quantity("1 kHz", units.HERTZ) == pytest.approx(1e3, rel=1e-15)
+
+
+def test_a_damaged_cache_is_cleared_and_the_registry_built_without_it(
+    fresh_registry: None, tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    monkeypatch.setenv("XDG_CACHE_HOME", str(tmp_path))
+    units.registry()
+    folder = units.registry_cache_folder()
+    pickles = list(folder.glob("*.pickle"))
+    assert pickles
+    for pickle in pickles:  # what a run killed while writing would leave
+        pickle.write_bytes(pickle.read_bytes()[:40])
+    units.registry.cache_clear()
+    assert units.registry().cache_folder is None
+    assert units.parse_quantity("47 nF", units.FARAD) == pytest.approx(47e-9, rel=1e-15)
+    assert not list(folder.glob("*.pickle"))  # cleared: the next run writes it afresh
+    units.registry.cache_clear()
+    assert units.registry().cache_folder == folder
+    assert list(folder.glob("*.pickle"))
+
+
+def test_check_runs_the_same_when_the_cache_cannot_be_written(tmp_path: Path) -> None:
+    """Through the real command: a cache home that is a file changes nothing but speed."""
+    blocker = tmp_path / "a_file"
+    blocker.write_text("not a folder")
+    args = [sys.executable, "-m", "chainbudget", "check", str(BUSKING), "--format", "json"]
+    plain = subprocess.run(args, capture_output=True, text=True, check=False)
+    env = {**os.environ, "XDG_CACHE_HOME": str(blocker)}
+    blocked = subprocess.run(args, capture_output=True, text=True, check=False, env=env)
+    assert blocked.returncode == plain.returncode
+    assert blocked.stderr == ""
+    assert blocked.stdout == plain.stdout
+
+
+def test_a_cache_written_by_another_pint_is_never_read(
+    fresh_registry: None, tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """The cache holds pickled pint objects, so each pint and Python version has its own
+    folder: another version's files (here garbage under its name) are left alone."""
+    import pint
+
+    monkeypatch.setenv("XDG_CACHE_HOME", str(tmp_path))
+    other = tmp_path / "chainbudget" / "pint-0.1.0-py3.0"
+    other.mkdir(parents=True)
+    (other / "stale.pickle").write_bytes(b"not a pickle of this pint")
+    folder = units.registry_cache_folder()
+    assert folder != other and pint.__version__ in folder.name
+    assert units.registry().cache_folder == folder
+    assert units.parse_quantity("2.2 uF", units.FARAD) == pytest.approx(2.2e-6, rel=1e-15)
+    assert (other / "stale.pickle").read_bytes() == b"not a pickle of this pint"
