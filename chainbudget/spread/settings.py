@@ -22,7 +22,8 @@ import numpy as np
 from numpy.typing import NDArray
 
 from chainbudget.budget.analysis import analyse, master_volume, positions_as_set
-from chainbudget.budget.levels import TIE_DB, _least_surprising_minimum, clip_source_peak
+from chainbudget.budget.levels import clip_source_peak
+from chainbudget.budget.ties import TIE_DB
 from chainbudget.chainfile import Chain
 from chainbudget.supplies.base import Corners
 
@@ -62,12 +63,11 @@ def held_settings(chain: Chain, voltages: Mapping[str, Corners]) -> HeldSettings
     """The nominal check's worst setting of each limited node and the volume fully up.
 
     The nominal chain is analysed as `check` analyses it (low line, the settled tree's
-    ``voltages``) and each node's worst case located as `node_levels` locates it
-    (`_least_surprising_minimum`, near-ties going to the settings as set).
+    ``voltages``) and each node's worst setting taken where the check's worst-case search
+    puts it (`chainbudget.budget.search`).
     """
     analysis = analyse(chain, "low", voltages)
     swept = analysis.swept_controls
-    axes = len(swept) + 1
     keys = [(sc.stage_index, sc.control.key) for sc in swept]
     volume = master_volume(chain)
     if volume is not None and (volume, "position") not in keys:
@@ -85,27 +85,20 @@ def held_settings(chain: Chain, voltages: Mapping[str, Corners]) -> HeldSettings
         return rows.index(row)
 
     for k in range(len(chain.stages)):
-        clip = clip_source_peak(analysis.swept, k)
-        if clip is None:
+        found = None if analysis.worst is None else analysis.worst.nodes[k]
+        if clip_source_peak(analysis.swept, k) is None:
             continue
-        peak = clip[0]
-        if peak.ndim != axes:  # no control moves this node
+        if found is None or not swept:  # no control moves this node
             node_rows[k] = ((None, 0.0),)
             continue
-        # the setting at which the check finds this node's worst case
-        where = _least_surprising_minimum(analysis, peak)
-        chosen = {int(np.ravel_multi_index(where[:-1], peak.shape[:-1]))}
-        found = []
-        for flat in sorted(chosen):
-            index = np.unravel_index(flat, peak.shape[:-1])
-            row = list(base)
-            distance = 0.0
-            for sc in swept:
-                if peak.shape[sc.axis] > 1:
-                    row[sc.axis] = float(sc.rotations[index[sc.axis]])
-                    distance += abs(row[sc.axis] - sc.control.position)
-            found.append((row_of(tuple(row)), distance))
-        node_rows[k] = tuple(found)
+        # the setting at which the check's search puts this node's worst case
+        rotations = analysis.setting_rotations(found.setting)
+        row = list(base)
+        distance = 0.0
+        for sc in swept:
+            row[sc.axis] = float(sc.rotations[rotations[sc.axis]])
+            distance += abs(row[sc.axis] - sc.control.position)
+        node_rows[k] = ((row_of(tuple(row)), distance),)
     volume_row = None
     if volume is not None:
         row = list(base)
@@ -122,9 +115,9 @@ def worst_of_candidates(
     """The clip peak the check reports as a node's worst, per trial, from its candidate
     settings: ``peak`` (T, C, F) at C candidates (in the check's grid order) over the
     frequency axis (index 0 the reference), ``distance`` (C,) each candidate's distance
-    from the settings as set. As `_least_surprising_minimum`: among the points within
-    `TIE_DB` of the least, the one nearest the settings as set and the reference, the
-    first in grid order among equals."""
+    from the settings as set. As the check breaks near-ties (`chainbudget.budget.ties`):
+    among the points within `TIE_DB` of the least, the one nearest the settings as set and
+    the reference, the first in grid order among equals."""
     trials, count, points = peak.shape
     tied = peak <= peak.min(axis=(1, 2), keepdims=True) * 10.0 ** (TIE_DB / 20.0)
     off_reference = np.ones(points)
