@@ -9,18 +9,19 @@ iterating over the values (the catalogue of `chainbudget blocks`) loads every ki
 
 from __future__ import annotations
 
-from collections.abc import Iterator, Mapping
+from collections.abc import Iterator, Mapping, MutableMapping
 from importlib import import_module
 from typing import Generic, TypeVar
 
 Kind = TypeVar("Kind")
 
 
-class LazyKinds(Mapping[str, Kind], Generic[Kind]):
+class LazyKinds(MutableMapping[str, Kind], Generic[Kind]):
     """Kind name -> one instance of its class, the class imported on first use.
 
     ``where`` maps each kind name to ``(module, class name)``; the class's own ``kind``
-    attribute must be that name (checked when it is loaded)."""
+    attribute must be that name (checked when it is loaded). A kind made elsewhere can be
+    set (and deleted) as in a dict, as the tests of a new kind do."""
 
     def __init__(self, where: Mapping[str, tuple[str, str]]) -> None:
         self._where = dict(where)
@@ -35,6 +36,14 @@ class LazyKinds(Mapping[str, Kind], Generic[Kind]):
                 raise RuntimeError(f"{module}.{cls} is kind {found.kind!r}, registered as {name!r}")
             self._loaded[name] = found
         return found
+
+    def __setitem__(self, name: str, kind: Kind) -> None:
+        self._loaded[name] = kind
+        self._where.setdefault(name, (type(kind).__module__, type(kind).__qualname__))
+
+    def __delitem__(self, name: str) -> None:
+        del self._where[name]
+        self._loaded.pop(name, None)
 
     def __iter__(self) -> Iterator[str]:
         return iter(self._where)
