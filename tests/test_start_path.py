@@ -276,3 +276,30 @@ def test_a_cache_written_by_another_pint_is_never_read(
     assert units.registry().cache_folder == folder
     assert units.parse_quantity("2.2 uF", units.FARAD) == pytest.approx(2.2e-6, rel=1e-15)
     assert (other / "stale.pickle").read_bytes() == b"not a pickle of this pint"
+
+
+def test_the_command_freezes_what_its_start_up_made() -> None:
+    """``main`` hands the objects of the start-up imports to ``gc.freeze`` (the collector
+    stops scanning them); calling ``app`` in a process of one's own (as the tests here
+    do) leaves the collector alone."""
+    code = (
+        "import gc, sys\n"
+        "from chainbudget.cli import {name}\n"
+        "sys.argv = ['chainbudget', '--help']\n"
+        "try:\n"
+        "    {name}()\n"
+        "except SystemExit:\n"
+        "    pass\n"
+        "print(gc.get_freeze_count())\n"
+    )
+    counts = {}
+    for name in ("main", "app"):
+        done = subprocess.run(
+            [sys.executable, "-c", code.format(name=name)],
+            capture_output=True,
+            text=True,
+            check=True,
+        )
+        counts[name] = int(done.stdout.strip().splitlines()[-1])
+    assert counts["main"] > 10_000  # numpy, typer and the loader at least
+    assert counts["app"] == 0
