@@ -16,7 +16,6 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from chainbudget.eseries import largest_at_most, smallest_at_least
-from chainbudget.rectifier import pulse_response_peak
 
 _SQRT2 = float(np.sqrt(2.0))
 
@@ -441,6 +440,8 @@ def pulsed_sag(
     peak = 1.0
     if capacitance_f is not None and capacitance_f > 0.0:
         tau = 2.0 * np.pi * signal_hz * resistance_ohm * capacitance_f
+        from chainbudget.rectifier import pulse_response_peak  # loaded only where used
+
         peak = float(pulse_response_peak(tau)[0])
     return resistance_ohm * (dc_a + pulse_a * peak)
 

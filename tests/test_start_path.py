@@ -75,6 +75,64 @@ def test_check_does_load_the_analysis() -> None:
     assert not {m for m in loaded if m.startswith(heavy)}
 
 
+def _modules_after(args: list[str], prefix: str) -> set[str]:
+    """Run the command in a fresh interpreter and list the loaded modules under ``prefix``."""
+    code = (
+        "import sys\n"
+        "from chainbudget.cli import app\n"
+        "try:\n"
+        f"    app({args!r})\n"
+        "except SystemExit:\n"
+        "    pass\n"
+        f"print(sorted(m for m in sys.modules if m.startswith({prefix!r})))\n"
+    )
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    return set(eval(done.stdout.strip().splitlines()[-1]))
+
+
+# Kinds the battery-powered busking chain does not name, and the modules only they use.
+UNNAMED_KINDS = (
+    "chainbudget.supplies.rectified",
+    "chainbudget.supplies.regulator",
+    "chainbudget.supplies.rc_filter",
+    "chainbudget.supplies.divider",
+    "chainbudget.rectifier",
+    "chainbudget.stages.block",
+    "chainbudget.stages.tone_bass",
+    "chainbudget.stages.tone_treble",
+)
+
+
+def test_a_check_loads_only_the_kinds_its_chain_names() -> None:
+    """The kind registries import a kind's module on first use (chainbudget.lazykinds): a
+    chain on batteries loads no mains rectifier, regulator or filter supply."""
+    loaded = _modules_after(["check", str(BUSKING), "--format", "json"], "chainbudget.")
+    assert {"chainbudget.supplies.dc", "chainbudget.stages.push_pull"} <= loaded
+    assert not {m for m in loaded if m.startswith(UNNAMED_KINDS)}
+
+
+def test_a_mains_chain_loads_its_rectifier() -> None:
+    """The probe above would pass vacuously if no kind were ever loaded by name."""
+    mains = ROOT / "chains" / "kitchen_radio_mains.toml"
+    loaded = _modules_after(["check", str(mains), "--format", "json"], "chainbudget.")
+    assert {"chainbudget.supplies.rectified", "chainbudget.rectifier"} <= loaded
+
+
+def test_the_kind_registries_name_each_kind_as_its_class_does() -> None:
+    """Every registered name loads a kind whose own ``kind`` is that name, in the order the
+    registry lists them; an unknown name is a KeyError, as a dict's."""
+    from chainbudget.stages import KINDS as STAGE_KINDS
+    from chainbudget.supplies import KINDS as SUPPLY_KINDS
+
+    for registry in (STAGE_KINDS, SUPPLY_KINDS):
+        names = list(registry)
+        assert [kind.kind for kind in registry.values()] == names
+        assert len(registry) == len(names) == len(set(names))
+        assert "no_such_kind" not in registry
+        with pytest.raises(KeyError):
+            registry["no_such_kind"]
+
+
 def _answers(args: list[str], plain: bool, monkeypatch: pytest.MonkeyPatch) -> tuple[int, str]:
     monkeypatch.setattr(cli_coercion, "_typer_offers_the_hooks", lambda: plain)
     result = CliRunner().invoke(app, args)
@@ -218,3 +276,30 @@ def test_a_cache_written_by_another_pint_is_never_read(
     assert units.registry().cache_folder == folder
     assert units.parse_quantity("2.2 uF", units.FARAD) == pytest.approx(2.2e-6, rel=1e-15)
     assert (other / "stale.pickle").read_bytes() == b"not a pickle of this pint"
+
+
+def test_the_command_freezes_what_its_start_up_made() -> None:
+    """``main`` hands the objects of the start-up imports to ``gc.freeze`` (the collector
+    stops scanning them); calling ``app`` in a process of one's own (as the tests here
+    do) leaves the collector alone."""
+    code = (
+        "import gc, sys\n"
+        "from chainbudget.cli import {name}\n"
+        "sys.argv = ['chainbudget', '--help']\n"
+        "try:\n"
+        "    {name}()\n"
+        "except SystemExit:\n"
+        "    pass\n"
+        "print(gc.get_freeze_count())\n"
+    )
+    counts = {}
+    for name in ("main", "app"):
+        done = subprocess.run(
+            [sys.executable, "-c", code.format(name=name)],
+            capture_output=True,
+            text=True,
+            check=True,
+        )
+        counts[name] = int(done.stdout.strip().splitlines()[-1])
+    assert counts["main"] > 10_000  # numpy, typer and the loader at least
+    assert counts["app"] == 0

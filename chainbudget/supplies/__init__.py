@@ -1,14 +1,19 @@
-"""Supply kinds: one module each; this registry maps the contract's kind names to them."""
+"""Supply kinds: one module each; this registry maps the contract's kind names to them.
+
+Each kind's module is imported when a chain first names the kind (`chainbudget.lazykinds`).
+"""
 
 from __future__ import annotations
 
+from chainbudget.lazykinds import LazyKinds
 from chainbudget.supplies.base import SupplyKind
-from chainbudget.supplies.dc import DcSupply
-from chainbudget.supplies.divider import Divider
-from chainbudget.supplies.rc_filter import RcFilter
-from chainbudget.supplies.rectified import Rectified
-from chainbudget.supplies.regulator import Regulator
 
-KINDS: dict[str, SupplyKind] = {
-    kind.kind: kind for kind in (DcSupply(), Rectified(), Regulator(), RcFilter(), Divider())
-}
+KINDS: LazyKinds[SupplyKind] = LazyKinds(
+    {
+        "dc": ("chainbudget.supplies.dc", "DcSupply"),
+        "rectified": ("chainbudget.supplies.rectified", "Rectified"),
+        "regulator": ("chainbudget.supplies.regulator", "Regulator"),
+        "rc_filter": ("chainbudget.supplies.rc_filter", "RcFilter"),
+        "divider": ("chainbudget.supplies.divider", "Divider"),
+    }
+)

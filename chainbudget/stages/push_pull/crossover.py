@@ -102,16 +102,28 @@ def _w_of_exp(
     else:
         u = np.where(x > np.e, cap, x - 1.0)
     for _ in range(_W_MAX_STEPS):
-        e = np.exp(np.minimum(u, 700.0))
-        step = (e + u - x) / (e + 1.0)
-        u = np.minimum(u - step, cap)
-        if not np.any(np.abs(step) > 4.0 * np.finfo(float).eps * np.maximum(1.0, np.abs(u))):
+        # The same operations as e = exp(min(u, 700)), step = (e + u - x)/(e + 1), written
+        # into the arrays in place (the solve runs some thousand times per check).
+        e = np.minimum(u, 700.0)
+        np.exp(e, out=e)
+        step = e + u
+        step -= x
+        e += 1.0
+        step /= e
+        u = u - step
+        np.minimum(u, cap, out=u)
+        bound = np.abs(u)
+        np.maximum(bound, 1.0, out=bound)
+        bound *= _W_TOLERANCE
+        if not np.any(np.abs(step) > bound):
             break
     return np.asarray(np.exp(np.minimum(u, 709.0)))
 
 
 # Newton steps at most for `_w_of_exp` (quadratic convergence takes a handful from its start).
 _W_MAX_STEPS = 60
+#: A step below this times max(1, |u|) is the float's rounding: the solve has converged.
+_W_TOLERANCE = 4.0 * np.finfo(float).eps
 
 
 def pair_laws(stage: Stage, env: Environment) -> tuple[HalfLaw, HalfLaw]:
