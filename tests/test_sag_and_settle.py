@@ -311,3 +311,59 @@ def test_a_supply_that_cannot_hold_its_load_reports_the_collapse() -> None:
     tr_peak = math.sqrt(2.0) * 19.8 * 0.9 - 1.8
     # about: the op-amp on the working rail draws a little more than on the dead one
     assert held.supply("raw").trough_v == pytest.approx(0.5 * tr_peak, rel=0.01)
+
+
+def test_a_winding_that_never_reaches_the_diode_drop_at_low_line_collapses_at_once(
+    tmp_path: Path,
+) -> None:
+    """The shed amp's supply as a fuzzed file had it: 680 % regulation and a 150 V bridge
+    drop on a 15 V secondary (10 % mains). The winding's open-circuit peak is sqrt(2) x 15
+    x 7.8 x 0.9 = 148.9 V at low line, under the drop, so the diodes never conduct there
+    (182 V at high line, so the loader takes it). The tree cannot settle at low line: the
+    check must say so (supply-collapse) and finish, not search a shut bracket for ever.
+    Through the real command, in a subprocess with a time limit."""
+    import subprocess
+    import sys
+
+    path = tmp_path / "dry.toml"
+    text = (ROOT / "chains" / "shed_amp_mains.toml").read_text()
+    path.write_text(
+        text.replace('regulation = "10 %"', 'regulation = "680 %"').replace(
+            'bridge_drop = "1.8 V"', 'bridge_drop = "150 V"'
+        )
+    )
+    done = subprocess.run(
+        [sys.executable, "-m", "chainbudget", "check", str(path)],
+        capture_output=True,
+        text=True,
+        timeout=120,
+        check=False,
+    )
+    assert done.returncode == 1, done.stderr
+    assert "Traceback" not in done.stderr
+    assert "supply-collapse" in done.stdout
+
+
+def test_a_bridge_drop_over_the_windings_highest_peak_is_refused(tmp_path: Path) -> None:
+    """The same supply with a 40 V drop: over the highest peak the winding ever reaches
+    (sqrt(2) x 18 x 1.1 x 1.1 = 30.8 V, high line and no load) the diodes would never
+    conduct: one line naming the field and that peak, exit 2 (the real command)."""
+    import subprocess
+    import sys
+
+    path = tmp_path / "dead.toml"
+    path.write_text(
+        COLLAPSE.format(reservoir="4700 uF").replace(
+            'secondary = "18 V"', 'secondary = "18 V"\nbridge_drop = "40 V"'
+        )
+    )
+    done = subprocess.run(
+        [sys.executable, "-m", "chainbudget", "check", str(path)],
+        capture_output=True,
+        text=True,
+        timeout=120,
+        check=False,
+    )
+    assert done.returncode == 2
+    lines = done.stderr.strip().splitlines()
+    assert len(lines) == 1 and '"raw".bridge_drop' in lines[0] and "30.8 V" in lines[0]

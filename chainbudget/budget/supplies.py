@@ -203,11 +203,14 @@ def settle(
         x, y, loads, states, gap = x_new, y_new, loads_new, states_new, gap_new
     # each rail's own bracketed root, in turn
     while gap > RAIL_TOLERANCE_V and tree.evaluations < MAX_EVALUATIONS:
+        spent = tree.evaluations
         for rail in rails:
             if abs(y[rail] - x[rail]) <= RAIL_TOLERANCE_V:
                 continue
             x, y, loads, states = _settle_one(tree, states, x, y, loads, rail, ceiling[rail])
         gap = residual(x, y)
+        if tree.evaluations == spent:
+            break  # every unsettled rail's bracket has shut: no steady point to find
     return SettledTree(
         tone_hz=tone,
         corner=corner,

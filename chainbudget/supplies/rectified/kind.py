@@ -2,12 +2,14 @@
 
 from __future__ import annotations
 
+import math
 from collections.abc import Mapping
 from typing import Any
 
 from chainbudget import fields as f
 from chainbudget.eseries import largest_at_most, smallest_at_least
 from chainbudget.finding import Finding
+from chainbudget.notation import eng
 from chainbudget.supplies.base import (
     NO_LOAD,
     RippleRemedy,
@@ -114,6 +116,24 @@ class Rectified(SupplyKind):
     def problems(self, values: Mapping[str, Any]) -> list[tuple[str, str]]:
         if values.get("split") and values.get("half_wave"):
             return [("split", "a centre-tapped supply charges on both half cycles; drop half_wave")]
+        drop, secondary = values.get("bridge_drop"), values.get("secondary")
+        if drop is not None and secondary is not None:
+            # the highest the winding ever reaches: high line, no load (open circuit)
+            peak = (
+                math.sqrt(2.0)
+                * float(secondary)
+                * (1.0 + float(values.get("regulation") or 0.0))
+                * (1.0 + float(values.get("mains_tolerance") or 0.0))
+            )
+            if float(drop) >= peak:
+                return [
+                    (
+                        "bridge_drop",
+                        f"got {eng(float(drop), 'V')}, expected less than the winding's "
+                        f"highest peak ({eng(peak, 'V')} at high line, no load): the diodes "
+                        "would never conduct",
+                    )
+                ]
         return []
 
     def rails(self, supply: Supply) -> tuple[str, ...]:
