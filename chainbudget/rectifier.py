@@ -73,6 +73,8 @@ PHASES = 4
 HARMONICS = 8
 # Below this decay rate per radian the conductance's exponential is taken as linear.
 _A_MIN = 1e-9
+# Above this kappa = 1/(omega R_s C) a winding is taken as ideal (no resistance).
+_KAPPA_IDEAL = 1e12
 # Grid of the event search: a geometric start (short conduction) and an even spread.
 _GEOMETRIC = np.array([1e-12, 1e-10, 1e-8, 1e-6, 1e-5, 1e-4, 1e-3, 3e-3])
 _EVEN = np.linspace(0.0, 1.0, 97)[1:]
@@ -213,7 +215,10 @@ class _Batch:
         omega = TWO_PI * line_hz
         self.V = peak_v
         self.Vd = drop_v
-        self.ideal = resistance_ohm <= 0.0
+        # a winding that would charge the reservoir within 1/_KAPPA_IDEAL of a radian is
+        # taken as ideal (the reservoir follows the source): the same answer to within
+        # round-off, and its exponentials stay finite
+        self.ideal = resistance_ohm * TWO_PI * line_hz * reservoir_f <= 1.0 / _KAPPA_IDEAL
         self.R = np.where(self.ideal, 1.0, resistance_ohm)
         self.wC = omega * reservoir_f
         self.lam = 1.0 / self.wC

@@ -367,3 +367,22 @@ def test_a_bridge_drop_over_the_windings_highest_peak_is_refused(tmp_path: Path)
     assert done.returncode == 2
     lines = done.stderr.strip().splitlines()
     assert len(lines) == 1 and '"raw".bridge_drop' in lines[0] and "30.8 V" in lines[0]
+
+
+def test_a_vanishing_winding_resistance_is_the_ideal_winding_without_overflow() -> None:
+    """A fuzzed file's regulation of 1e-299 % makes R_s about 1e-300 ohm: kappa =
+    1/(omega R_s C) overflows. Physically the reservoir then follows the winding, the ideal
+    source (R_s = 0, regulation 0 %): the same trough to round-off, and no numpy warning
+    (a warning becomes an error here)."""
+    import warnings
+
+    text = (ROOT / "chains" / "shed_amp_mains.toml").read_text()
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        tiny_text = text.replace('regulation = "10 %"', 'regulation = "1e-299 %"')
+        ideal_text = text.replace('regulation = "10 %"', 'regulation = "0 %"')
+        tiny = compute(parse_chain(tomllib.loads(tiny_text), "t"))
+        ideal = compute(parse_chain(tomllib.loads(ideal_text), "t"))
+    assert tiny.supply("raw").trough_v == pytest.approx(
+        ideal.supply("raw").trough_v, rel=1e-12, abs=0
+    )
