@@ -15,6 +15,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from fuzzkit import run_command
 from scipy.integrate import solve_ivp
 from scipy.optimize import brentq
 
@@ -322,50 +323,30 @@ def test_a_winding_that_never_reaches_the_diode_drop_at_low_line_collapses_at_on
     (182 V at high line, so the loader takes it). The tree cannot settle at low line: the
     check must say so (supply-collapse) and finish, not search a shut bracket for ever.
     Through the real command, in a subprocess with a time limit."""
-    import subprocess
-    import sys
-
-    path = tmp_path / "dry.toml"
     text = (ROOT / "chains" / "shed_amp_mains.toml").read_text()
-    path.write_text(
+    status, out, err = run_command(
         text.replace('regulation = "10 %"', 'regulation = "680 %"').replace(
             'bridge_drop = "1.8 V"', 'bridge_drop = "150 V"'
-        )
+        ),
+        tmp_path,
     )
-    done = subprocess.run(
-        [sys.executable, "-m", "chainbudget", "check", str(path)],
-        capture_output=True,
-        text=True,
-        timeout=120,
-        check=False,
-    )
-    assert done.returncode == 1, done.stderr
-    assert "Traceback" not in done.stderr
-    assert "supply-collapse" in done.stdout
+    assert status == 1, err
+    assert "Traceback" not in err
+    assert "supply-collapse" in out
 
 
 def test_a_bridge_drop_over_the_windings_highest_peak_is_refused(tmp_path: Path) -> None:
     """The same supply with a 40 V drop: over the highest peak the winding ever reaches
     (sqrt(2) x 18 x 1.1 x 1.1 = 30.8 V, high line and no load) the diodes would never
     conduct: one line naming the field and that peak, exit 2 (the real command)."""
-    import subprocess
-    import sys
-
-    path = tmp_path / "dead.toml"
-    path.write_text(
+    status, _, err = run_command(
         COLLAPSE.format(reservoir="4700 uF").replace(
             'secondary = "18 V"', 'secondary = "18 V"\nbridge_drop = "40 V"'
-        )
+        ),
+        tmp_path,
     )
-    done = subprocess.run(
-        [sys.executable, "-m", "chainbudget", "check", str(path)],
-        capture_output=True,
-        text=True,
-        timeout=120,
-        check=False,
-    )
-    assert done.returncode == 2
-    lines = done.stderr.strip().splitlines()
+    assert status == 2
+    lines = err.strip().splitlines()
     assert len(lines) == 1 and '"raw".bridge_drop' in lines[0] and "30.8 V" in lines[0]
 
 
