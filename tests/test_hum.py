@@ -21,7 +21,7 @@ import pytest
 from typer.testing import CliRunner
 
 from chainbudget.budget import Budget, compute
-from chainbudget.budget.hum import hum_budget, solve_hum
+from chainbudget.budget.hum import HumBudget, hum_budget, solve_hum
 from chainbudget.budget.supplies import loaded_analysis, supply_budgets
 from chainbudget.chainfile import Chain, load_chain, parse_chain
 from chainbudget.cli import app
@@ -76,6 +76,14 @@ def with_ripple(
         else s
         for s in supplies
     ]
+
+
+def hum_with_ripple(chain: Chain, rail: str, hz: float, harmonics: list[complex]) -> HumBudget:
+    """The hum budget of ``chain`` with ``rail`` given a ripple spectrum of our choosing."""
+    analysis = loaded_analysis(chain)
+    supplies = with_ripple(supply_budgets(analysis), rail, hz, harmonics)
+    hum, _ = hum_budget(analysis, supplies, None)
+    return hum
 
 
 def db20(x: float) -> float:
@@ -149,10 +157,7 @@ def test_an_op_amp_follower_passes_its_rail_ripple_over_its_psrr(fundamental_hz:
     above the 100 Hz corner, |1 + j f/f_c|. The follower's gain (1 + 10/1e7) and its 120 dB
     loop give the last 1e-5."""
     chain = chain_of(FOLLOWER)
-    analysis = loaded_analysis(chain)
-    ripple = [1.0 + 0.0j] * 8
-    supplies = with_ripple(supply_budgets(analysis), "plus", fundamental_hz, ripple)
-    hum, _ = hum_budget(analysis, supplies, None)
+    hum = hum_with_ripple(chain, "plus", fundamental_hz, [1.0 + 0.0j] * 8)
     assert [p.path for p in hum.paths] == ["V+ pin (PSRR)"]
     for n, harmonic in enumerate(hum.harmonics, start=1):
         f = n * fundamental_hz
@@ -522,9 +527,7 @@ psrr = "60 dB"
 positive = "plus"
 """
     )
-    analysis = loaded_analysis(chain)
-    supplies = with_ripple(supply_budgets(analysis), "plus", 100.0, [2.0 + 0.0j])
-    hum, _ = hum_budget(analysis, supplies, None)
+    hum = hum_with_ripple(chain, "plus", 100.0, [2.0 + 0.0j])
     expected = 2.0 * 1e-3 * 10.0 * 8.0 / 8.1 / math.sqrt(2.0)
     assert db20(hum.output_vrms) == pytest.approx(db20(expected), abs=1e-4)
     assert [p.path for p in hum.paths] == ["V+ pin (PSRR)"]
@@ -568,9 +571,7 @@ positive = "plus"
 bias = "half"
 """
     )
-    analysis = loaded_analysis(chain)
-    supplies = with_ripple(supply_budgets(analysis), "half", 100.0, [0.01 + 0.0j])
-    hum, _ = hum_budget(analysis, supplies, None)
+    hum = hum_with_ripple(chain, "half", 100.0, [0.01 + 0.0j])
     x, pot, r_s, r_i = 0.3, 10e3, 1e3, 10e3
     lower, upper = x * pot, (1.0 - x) * pot + r_s
     r_th = lower * upper / (lower + upper)
