@@ -655,6 +655,18 @@ def _json_figure(data: dict, path: str) -> float:  # type: ignore[type-arg]
     if group == "supplies":
         name, key = rest
         return float(next(s for s in data["supplies"] if s["name"] == name)[key])
+    if group == "loop":
+        name, key = rest
+        return float(next(e for e in data["loop"] if e["stage"] == name)[key])
+    if path == "noise.late_stage_share_margin":  # the figure noise-set-late is judged by
+        shares = {s["stage"]: s["share"] for s in data["noise"]["stage_shares"]}
+        head = data["nodes"][0]["stage"]
+        first = shares.get(head, 0.0)
+        later = [v for name, v in shares.items() if name not in ("source", head)]
+        return max(later) - first
+    if rest[:1] == ["stage_shares"]:
+        _, name, key = rest
+        return float(next(s for s in data["noise"]["stage_shares"] if s["stage"] == name)[key])
     return float(data[group][rest[0]] if rest else data[group])
 
 

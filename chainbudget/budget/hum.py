@@ -43,7 +43,7 @@ from chainbudget.chainfile import Chain
 from chainbudget.loudspeaker import load_impedance
 from chainbudget.network import Complex, RippleSource
 from chainbudget.stages import KINDS as STAGE_KINDS
-from chainbudget.stages.base import Stage
+from chainbudget.stages.base import Environment, Stage
 from chainbudget.supplies.base import GROUND_SUPPLY, SupplyBudget
 from chainbudget.weighting import a_weighting
 
@@ -197,7 +197,15 @@ def solve_hum(
 
     Returns None for the field when no rail any source names carries mains ripple.
     """
-    chain = analysis.chain
+    return hum_field(analysis.chain, analysis.envs, supplies)
+
+
+def hum_field(
+    chain: Chain, envs: Sequence[Environment], supplies: Sequence[SupplyBudget]
+) -> tuple[HumField | None, tuple[str, ...]]:
+    """`solve_hum` for a chain and its stages' environments: parts given as arrays over
+    leading batch axes (the spread's trials, (T, 1)) put those axes in the field's
+    ``at_nodes`` (R, J, T, H) and ``gain`` (T, H)."""
     stages = chain.stages
     by_rail = {s.name: s for s in supplies}
     # The axis: every harmonic of every rail with mains ripple.
@@ -208,7 +216,7 @@ def solve_hum(
     load = load_impedance(chain.load, frequency)
     net, outs = whole_chain_network(
         stages,
-        analysis.envs,
+        envs,
         frequency,
         positions_as_set(stages),
         float(np.real(chain.source.impedance)),
@@ -226,7 +234,7 @@ def solve_hum(
             kept.append((r, source, rail))
         elif source.rail == "bias" and rail_of(stage, "negative") is None:
             ideal[stage.name] = None  # single supply, its bias point named after no supply
-    transfers, from_source = net.ripple_transfers(outs)  # (H, J, R), (H, J)
+    transfers, from_source = net.ripple_transfers(outs)  # batch + (H, J, R), (H, J)
     spectra = {rail: dict(by_rail[rail].ripple_harmonics) for _, _, rail in kept}
     # each kept source's rail ripple on the harmonic axis, (H, R_kept)
     ripple = np.array(
@@ -237,10 +245,10 @@ def solve_hum(
         dtype=complex,
     ).reshape(frequency.size, len(kept))
     columns = [r for r, _, _ in kept]
-    at_nodes = np.transpose(transfers[:, :, columns] * ripple[:, None, :], (2, 1, 0))
+    at_nodes = np.moveaxis(transfers[..., columns] * ripple[:, None, :], (-1, -2, -3), (0, 1, -1))
     roots = tuple(root_of(chain, rail) for _, _, rail in kept)
     sources = tuple((source, rail, index[source.stage]) for _, source, rail in kept)
-    hum = HumField(frequency, at_nodes, roots, sources, from_source[:, -1])
+    hum = HumField(frequency, at_nodes, roots, sources, from_source[..., -1])
     return hum, tuple(ideal)
 
 

@@ -43,7 +43,9 @@ from chainbudget.loudspeaker import is_reactive, load_impedance
 from chainbudget.network import SingularNetwork
 from chainbudget.outputmath import sine_power, spl_at_1m
 from chainbudget.source_network import source_impedance
-from chainbudget.spread.noise import output_noise
+from chainbudget.spread.hum import hum_figures, hum_thresholds
+from chainbudget.spread.loops import loop_figures, loop_thresholds
+from chainbudget.spread.noise import LATE_SHARE_PATH, output_noise
 from chainbudget.spread.parts import Part, with_beta
 from chainbudget.spread.settings import HeldSettings, held_settings, worst_of_candidates
 from chainbudget.stages.base import Environment
@@ -173,7 +175,10 @@ class Evaluator:
         figures.update(_reference_figures(self.chain, as_set, trials))
         figures.update(_band_figures(self.chain, held, as_set, settings, trials))
         figures.update(_output_figures(self.chain, held, as_set, settings, trials))
-        figures.update(output_noise(chain, tuple(envs), frequency, as_set, trials))
+        noise = output_noise(chain, tuple(envs), frequency, as_set, trials)
+        figures.update(noise)
+        figures.update(hum_figures(chain, envs, self.nominal, noise, trials))
+        figures.update(loop_figures(chain, envs, self.nominal, trials))
         return figures
 
     def thresholds(self, figures: Mapping[str, Any]) -> list[Threshold]:
@@ -215,6 +220,12 @@ class Evaluator:
                     "hiss_spl_a_db", HISS_SPL_A_LIMIT_DB, "hiss-audible", "warning", above=True
                 )
             )
+        for path, limit, code, severity in loop_thresholds(figures):
+            found.append(Threshold(path, limit, code, severity))
+        for path, limit, code, severity in hum_thresholds(figures):
+            found.append(Threshold(path, limit, code, severity, above=True))
+        if LATE_SHARE_PATH in figures:
+            found.append(Threshold(LATE_SHARE_PATH, 0.0, "noise-set-late", "note", above=True))
         for supply in self.chain.supplies:
             kind = SUPPLY_KINDS[supply.kind]
             if not kind.spread_fields(supply):

@@ -1,4 +1,4 @@
-"""The output noise and SNR of a batch of trials, through the check's own noise machinery.
+"""The noise of a batch of trials at every node, through the check's own noise machinery.
 
 Notes
 -----
@@ -6,8 +6,18 @@ Notes
 with the parts as arrays: a batch of T trials solves each stage's adjoint network once
 for every trial and frequency (matrices (T, F, n, n)), and the spectra come out
 (S, K, T, F). The band figures integrate them over the band grid (index 0 of the axis is
-the reference) as `chainbudget.budget.noise.noise_budget` does: unweighted and
-A-weighted (IEC 61672-1), SNR the nominal level at the reference over the rms noise.
+the reference) as `chainbudget.budget.noise.noise_budget` does: at every node unweighted,
+A-weighted (IEC 61672-1) and ITU-R BS.468 weighted, the density at the reference, SNR the
+nominal level at the reference over the rms noise; for the chain the input-referred noise
+(the output PSD over |v_out|^2 before integrating) and its EIN re 0.7746 V, the spot
+noise figure at the reference (Friis, Proc. IRE 32 (1944) 419), the dynamic range (the
+output's sine-equivalent clip over its noise) and each stage's share of the output noise
+power (the sum of its generators' band powers over the total).
+
+``noise-set-late`` (`chainbudget.findings.noise`) is drawn where a stage after the first
+gives more of the output noise power than the first does: per trial the figure
+``noise.late_stage_share_margin`` = max over later stages of their share minus the first
+stage's share (not a key of the check JSON; the check's rule is this figure over 0).
 """
 
 from __future__ import annotations
@@ -15,13 +25,23 @@ from __future__ import annotations
 import numpy as np
 from numpy.typing import NDArray
 
-from chainbudget.budget.noise_spectra import noise_spectra, unweighted
+from chainbudget.budget.levels import SQRT2, clip_source_peak
+from chainbudget.budget.noise_spectra import NoiseSpectra, noise_spectra, unweighted
 from chainbudget.cascade import Cascade
 from chainbudget.chainfile import Chain
 from chainbudget.outputmath import hiss_spl
 from chainbudget.spectrum import zero_celsius_k
 from chainbudget.stages.base import Environment
-from chainbudget.weighting import a_weighting
+from chainbudget.units import DBU_REFERENCE_VRMS
+from chainbudget.weighting import a_weighting, itu468_weighting
+
+#: The figure ``noise-set-late`` is judged by (see the module notes).
+LATE_SHARE_PATH = "noise.late_stage_share_margin"
+
+
+def _db20(ratio: NDArray[np.float64]) -> NDArray[np.float64]:
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.asarray(20.0 * np.log10(ratio), dtype=float)
 
 
 def output_noise(
@@ -31,9 +51,13 @@ def output_noise(
     as_set: Cascade,
     trials: int,
 ) -> dict[str, NDArray[np.float64]]:
-    """The output node's ``noise_vrms``, ``noise_a_vrms``, ``snr_db`` and ``snr_a_db``
-    per trial, shape (T,), keyed by their path in the check JSON, and with a loudspeaker
-    sensitivity the hiss SPL at 1 m (``hiss_spl_db``, ``hiss_spl_a_db``).
+    """Every node's ``noise_vrms``, ``noise_a_vrms``, ``noise_468_vrms``,
+    ``noise_density_v_rthz``, ``snr_db`` and ``snr_a_db`` per trial, shape (T,), keyed by their
+    path in the check JSON; the chain's input-referred noise, EIN, noise figure and
+    dynamic range (top-level keys), each stage's share of the output noise power
+    (``noise.stage_shares.STAGE.share``), the figure ``noise-set-late`` is judged by, and
+    with a loudspeaker sensitivity the hiss SPL at 1 m (``hiss_spl_db``,
+    ``hiss_spl_a_db``).
 
     ``chain`` holds the drawn parts as (T, 1) arrays, ``as_set`` is its cascade with the
     controls as set on ``frequency`` (the reference, then the band grid).
@@ -46,19 +70,96 @@ def output_noise(
         chain.settings.ambient + zero_celsius_k,
         slice(1, None),
     )
-    psd = np.broadcast_to(spectra.node_psd[-1], (trials, frequency.size))
+    shape = (trials, frequency.size)
+    psd = np.stack([np.broadcast_to(p, shape) for p in spectra.node_psd])  # (K, T, F)
+    signal = np.stack([np.broadcast_to(s, shape) for s in spectra.signal])
     flat = spectra.integrate(psd, unweighted)
     weighted = spectra.integrate(psd, a_weighting)
-    level = chain.source.level * np.broadcast_to(spectra.signal[-1], psd.shape)[:, 0]
-    node = f"nodes.{chain.stages[-1].name}."
-    found = {node + "noise_vrms": np.sqrt(flat), node + "noise_a_vrms": np.sqrt(weighted)}
-    with np.errstate(divide="ignore"):
-        found[node + "snr_db"] = 20.0 * np.log10(level / found[node + "noise_vrms"])
-        found[node + "snr_a_db"] = 20.0 * np.log10(level / found[node + "noise_a_vrms"])
+    itu = spectra.integrate(psd, itu468_weighting)
+    found: dict[str, NDArray[np.float64]] = {}
+    for k, stage in enumerate(chain.stages):
+        node = f"nodes.{stage.name}."
+        level = chain.source.level * signal[k, :, 0]
+        found[node + "noise_vrms"] = np.sqrt(flat[k])
+        found[node + "noise_a_vrms"] = np.sqrt(weighted[k])
+        found[node + "noise_468_vrms"] = np.sqrt(itu[k])
+        found[node + "noise_density_v_rthz"] = np.sqrt(psd[k, :, 0])
+        found[node + "snr_db"] = _db20(level / np.sqrt(flat[k]))
+        found[node + "snr_a_db"] = _db20(level / np.sqrt(weighted[k]))
+    out = f"nodes.{chain.stages[-1].name}."
+    found.update(_chain_figures(chain, spectra, psd[-1], signal[-1], as_set, trials))
+    found.update(_stage_shares(chain, spectra, trials))
     sensitivity = chain.load.sensitivity
     if sensitivity is not None:  # the hiss at 1 m, as `noise_budget` works it out
         for key, noise in (("hiss_spl_db", "noise_vrms"), ("hiss_spl_a_db", "noise_a_vrms")):
             found[key] = np.asarray(
-                hiss_spl(sensitivity, found[node + noise], chain.load.impedance), dtype=float
+                hiss_spl(sensitivity, found[out + noise], chain.load.impedance), dtype=float
             )
+    return found
+
+
+def _chain_figures(
+    chain: Chain,
+    spectra: NoiseSpectra,
+    out_psd: NDArray[np.float64],
+    gain: NDArray[np.float64],
+    as_set: Cascade,
+    trials: int,
+) -> dict[str, NDArray[np.float64]]:
+    """Input-referred noise, EIN, noise figure and dynamic range per trial, as
+    `chainbudget.budget.noise.noise_budget` works them out (a figure the check leaves
+    undefined for the nominal parts is left out)."""
+    found: dict[str, NDArray[np.float64]] = {}
+    if np.all(gain[:, spectra.band] > 0.0):
+        referred = out_psd / gain**2
+        input_vrms = np.sqrt(spectra.integrate(referred, unweighted))
+        input_a_vrms = np.sqrt(spectra.integrate(referred, a_weighting))
+        found["input_noise_vrms"] = input_vrms
+        found["input_noise_a_vrms"] = input_a_vrms
+        found["ein_dbu"] = _db20(input_vrms / DBU_REFERENCE_VRMS)
+        found["ein_a_dbu"] = _db20(input_a_vrms / DBU_REFERENCE_VRMS)
+    if spectra.origins and spectra.origins[0].stage_index == -1:
+        source_psd = np.broadcast_to(spectra.contribution[0, -1], out_psd.shape)[:, 0]
+        if np.all(source_psd > 0.0):
+            found["noise_figure_db"] = 10.0 * np.log10(out_psd[:, 0] / source_psd)
+    # the output's sine-equivalent clip with the controls as set (`output_clip_vrms`)
+    peaks = [clip_source_peak(as_set, k) for k in range(len(chain.stages))]
+    limited = [np.broadcast_to(p[0], (trials, gain.shape[1]))[:, 0] for p in peaks if p]
+    if limited:
+        clip = np.min(limited, axis=0) * gain[:, 0] / SQRT2
+        flat = spectra.integrate(out_psd, unweighted)
+        weighted = spectra.integrate(out_psd, a_weighting)
+        found["dynamic_range_db"] = _db20(clip / np.sqrt(flat))
+        found["dynamic_range_a_db"] = _db20(clip / np.sqrt(weighted))
+    return found
+
+
+def _stage_shares(
+    chain: Chain, spectra: NoiseSpectra, trials: int
+) -> dict[str, NDArray[np.float64]]:
+    """Each stage's (and the source's) share of the output noise power, unweighted and
+    A-weighted, and the margin ``noise-set-late`` is judged by (module notes)."""
+    shape = (trials, spectra.frequency.size)
+    out = np.stack([np.broadcast_to(c, shape) for c in spectra.contribution[:, -1]])
+    flat = spectra.integrate(out, unweighted)  # (S, T)
+    weighted = spectra.integrate(out, a_weighting)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        share = np.where(flat.sum(axis=0) > 0.0, flat / flat.sum(axis=0), 0.0)
+        share_a = np.where(weighted.sum(axis=0) > 0.0, weighted / weighted.sum(axis=0), 0.0)
+    owner = np.array([o.stage_index for o in spectra.origins], dtype=int)
+    found: dict[str, NDArray[np.float64]] = {}
+    by_stage: dict[int, NDArray[np.float64]] = {}
+    for origin in spectra.origins:
+        index = origin.stage_index
+        if index in by_stage:
+            continue
+        mine = owner == index
+        by_stage[index] = share[mine].sum(axis=0)
+        path = f"noise.stage_shares.{origin.stage}."
+        found[path + "share"] = by_stage[index]
+        found[path + "share_a"] = share_a[mine].sum(axis=0)
+    later = [s for i, s in by_stage.items() if i > 0]
+    if len(chain.stages) >= 2 and later:
+        first = by_stage.get(0, np.zeros(trials))
+        found[LATE_SHARE_PATH] = np.max(later, axis=0) - first
     return found

@@ -1,0 +1,89 @@
+"""The op-amp loops of a batch of trials: loop gain, unity-gain frequency and phase margin
+of every op-amp loop with the drawn feedback parts.
+
+Notes
+-----
+`chainbudget.budget.loops.LoopSolver` works out Bode's return ratio of each op-amp's
+controlled source in its section terminated as the chain terminates it (Bode, Network
+Analysis and Feedback Amplifier Design, 1945, ch. 4); with the drawn parts as (T, 1)
+arrays its one solve on the stability axis (the reference to a hundred times the fastest
+op-amp, `chainbudget.loopmath.stability_axis`; the op-amps are not drawn, so the axis is
+the nominal check's) gives T per trial, (T, F). `chainbudget.loopmath.crossings` reads
+the loop gain at the reference, the unity-gain frequency and the phase margin of each row,
+as `chainbudget.stages.opamp_loop.loop_figures` does for the check.
+
+Which stages have a loop is read from the nominal check (a stage whose own figures hold an
+op-amp loop); a loop round later stages (the check JSON's ``loop[]``) is keyed
+``loop.STAGE.KEY``. Its closed-loop gain, output impedance and damping factor are not
+spread (docs/tolerances.md).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping, Sequence
+
+import numpy as np
+from numpy.typing import NDArray
+
+from chainbudget.budget import Budget
+from chainbudget.budget.loops import LoopSolver
+from chainbudget.chainfile import Chain
+from chainbudget.loopmath import crossings
+from chainbudget.stages.base import Environment
+from chainbudget.stages.opamp_loop import GlobalLoop, OwnLoop
+from chainbudget.thresholds import PHASE_MARGIN_ERROR_DEG, PHASE_MARGIN_WARN_DEG
+
+Figures = dict[str, NDArray[np.float64]]
+
+KEYS = ("loop_gain_db", "unity_gain_hz", "phase_margin_deg")
+
+
+def _loops(nominal: Budget) -> list[tuple[int, str, OwnLoop | GlobalLoop]]:
+    """Each op-amp loop of the nominal check: its stage index, its JSON prefix, figures."""
+    found = []
+    for k, node in enumerate(nominal.nodes):
+        for own in node.own:
+            if isinstance(own, OwnLoop):
+                found.append((k, f"nodes.{node.stage}.", own))
+            elif isinstance(own, GlobalLoop):
+                found.append((k, f"loop.{own.stage}.", own))
+    return found
+
+
+def loop_figures(
+    chain: Chain, envs: Sequence[Environment], nominal: Budget, trials: int
+) -> Figures:
+    """Each op-amp loop's ``loop_gain_db``, ``unity_gain_hz`` and ``phase_margin_deg`` per
+    trial, shape (T,), keyed by their path in the check JSON (a figure the nominal check
+    leaves undefined, a loop that never falls through unity gain, is left out).
+
+    ``chain`` and ``envs`` hold the drawn parts as (T, 1) arrays."""
+    loops = _loops(nominal)
+    if not loops:
+        return {}
+    solver = LoopSolver(chain, envs, chain.settings.reference)
+    axis = solver.stability_axis()
+    found: Figures = {}
+    for k, prefix, own in loops:
+        t = solver.return_ratio(k, axis)
+        if t is None:
+            continue
+        rows = np.broadcast_to(t, (trials, axis.size))
+        figures = crossings(axis, rows)
+        values = (figures.loop_gain_db, figures.unity_gain_hz, figures.phase_margin_deg)
+        for key, value in zip(KEYS, values, strict=True):
+            if getattr(own, key) is not None:
+                found[prefix + key] = np.asarray(value, dtype=float)
+    return found
+
+
+def loop_thresholds(figures: Mapping[str, object]) -> list[tuple[str, float, str, str]]:
+    """The phase-margin rule's limits (`chainbudget.stages.opamp_loop.loop_rules`) as
+    (path, limit, code, severity), each drawn below its limit: under 45 deg a warning,
+    under 20 deg an error (the tighter limit alone)."""
+    found = []
+    for path in figures:
+        if path.endswith(".phase_margin_deg"):
+            found.append((path, PHASE_MARGIN_WARN_DEG, "phase-margin", "warning"))
+            found.append((path, PHASE_MARGIN_ERROR_DEG, "phase-margin", "error"))
+    return found
