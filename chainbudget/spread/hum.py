@@ -20,6 +20,7 @@ per trial (`supplies.NAME.ripple_vpp`), but not the harmonics the hum is summed 
 from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
+from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
@@ -36,7 +37,7 @@ Figures = dict[str, NDArray[np.float64]]
 
 
 def _power_sum(
-    phasors: NDArray[np.complex128], roots: Sequence[str], weights: NDArray[np.float64]
+    phasors: NDArray[Any], roots: Sequence[str], weights: NDArray[np.float64]
 ) -> NDArray[np.float64]:
     """Mean-square hum per trial, V^2, of peak phasors (R, T, H): complex sums within each
     root, powers across roots and harmonics (`chainbudget.budget.hum.power_sum`)."""

@@ -40,7 +40,7 @@ KEYS = ("loop_gain_db", "unity_gain_hz", "phase_margin_deg")
 
 def _loops(nominal: Budget) -> list[tuple[int, str, OwnLoop | GlobalLoop]]:
     """Each op-amp loop of the nominal check: its stage index, its JSON prefix, figures."""
-    found = []
+    found: list[tuple[int, str, OwnLoop | GlobalLoop]] = []
     for k, node in enumerate(nominal.nodes):
         for own in node.own:
             if isinstance(own, OwnLoop):
