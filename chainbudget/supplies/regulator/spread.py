@@ -63,7 +63,7 @@ def regulator_spread(
     external_idle = nominal.load.idle_a - own.divider_a - own.bleeder_a
     trough = own.input_min_v if parent_low_v is None else np.asarray(parent_low_v, dtype=float)
     dropout = own.dropout_v
-    size = max(np.size(vout), np.size(divider_a), np.size(bleeder_a))
+    size = max(np.size(vout), np.size(divider_a), np.size(bleeder_a), np.size(trough))
     figures: dict[str, NDArray[np.float64]] = {
         "vout_v": np.broadcast_to(vout, (size,)).astype(float),
         "dropout_margin_v": np.broadcast_to(trough - vout - dropout, (size,)).astype(float),
