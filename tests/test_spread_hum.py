@@ -144,3 +144,147 @@ def _hum_on_nominal_ripple(chain: Chain, nominal, budget) -> dict[str, float]:  
     for stage, vrms in zip(chain.stages, hum.node_vrms, strict=True):
         found[f"nodes.{stage.name}.hum_vrms"] = vrms
     return found
+
+
+# One non-inverting stage on a raw rectified rail (its reservoir held: the ripple the
+# spread holds), the op-amp ideal but for its supply rejection, single supply with an
+# ideal bias point: the hum enters at the V+ pin alone.
+PSRR_STAGE = """
+[chain]
+title = "hum through the noise gain"
+[source]
+level = "10 mV"
+impedance = "0 ohm"
+[load]
+impedance = "10k"
+sensitivity = "90 dB"
+[tolerances]
+resistors = "5 %"
+[[supply]]
+name = "raw"
+kind = "rectified"
+secondary = "15 V"
+mains_tolerance = "10 %"
+line_frequency = "50 Hz"
+bridge_drop = "1.8 V"
+reservoir = "1000 uF"
+regulation = "12 %"
+rated_current = "0.5 A"
+tolerance = { reservoir = "0 %" }
+[[stage]]
+name = "pre"
+kind = "opamp_gain"
+topology = "non-inverting"
+feedback = "9k"
+ground_leg = "1k"
+opamp = "ideal"
+positive = "raw"
+[opamp.ideal]
+gbw = "100 gigahertz"
+slew_rate = "1000 V/us"
+noise_voltage = "1 nV/rtHz"
+open_loop_gain = "200 dB"
+output_resistance = "0 ohm"
+swing_margin = "1 V"
+output_current = "1 A"
+supply_current = "1 mA"
+psrr = "60 dB"
+psrr_corner = "200 Hz"
+"""
+
+
+def test_hum_of_each_trial_is_the_rail_ripple_over_the_psrr_times_the_noise_gain() -> None:
+    """A supply-rejection source is an input-referred voltage at the + input, amplified by
+    the noise gain 1 + Rf/Rg (Franco, Design with Operational Amplifiers, 4th ed., sec. 5.5,
+    from memory): per harmonic |v_out| = |v_rail| / PSRR(f) (1 + Rf/Rg), PSRR(f) =
+    10^(60/20) / |1 + j f / 200 Hz|, harmonics adding as powers, v_rms^2 = sum |v|^2 / 2;
+    A-weighting per IEC 61672-1 Annex E (the closed form written here); each trial's drawn
+    Rf, Rg; rtol 1e-6 (the op-amp's 200 dB open-loop gain)."""
+    chain = _chain(PSRR_STAGE)
+    parts, evaluate = _evaluator(chain)
+    positions = np.random.default_rng(7).random((16, len(parts)))
+    figures = evaluate(positions)
+    values = dict(zip([p.key for p in parts], evaluate.values(positions), strict=True))
+    noise_gain = 1.0 + values["feedback"] / values["ground_leg"]
+    ripple = evaluate.nominal.supply("raw").ripple_harmonics
+    assert len(ripple) >= 3
+    f = np.array([hz for hz, _ in ripple])
+    v = np.abs(np.array([vpk for _, vpk in ripple]))
+    per_volt = v * np.abs(1.0 + 1j * f / 200.0) / 10.0 ** (60.0 / 20.0)
+
+    def a_weight(hz: np.ndarray) -> np.ndarray:  # IEC 61672-1 Annex E, 0 dB at 1 kHz
+        f1, f2, f3, f4 = 20.598997, 107.65265, 737.86223, 12194.217
+        r = (
+            f4**2
+            * hz**4
+            / ((hz**2 + f1**2) * np.sqrt((hz**2 + f2**2) * (hz**2 + f3**2)) * (hz**2 + f4**2))
+        )
+        return r * 10 ** (2.0 / 20.0)
+
+    flat = np.sqrt(np.sum(per_volt**2) / 2.0) * noise_gain
+    weighted = np.sqrt(np.sum((per_volt * a_weight(f)) ** 2) / 2.0) * noise_gain
+    assert np.ptp(noise_gain) > 0.05
+    assert figures["hum.output_vrms"] == pytest.approx(flat, rel=1e-6)
+    assert figures["nodes.pre.hum_vrms"] == pytest.approx(flat, rel=1e-6)
+    assert figures["hum.output_a_vrms"] == pytest.approx(weighted, rel=1e-4)
+    # at 1 m: L = 90 dB + 20 log10(V / sqrt(1 W x 10 kohm)), the definition of sensitivity
+    spl = 90.0 + 20.0 * np.log10(weighted / math.sqrt(10e3))
+    assert figures["hum.spl_a_db"] == pytest.approx(spl, abs=1e-3)
+
+
+# The same stage on a clean rail with a single-pole op-amp: A(f) = A0 / (1 + j f A0/GBW).
+LOOP_STAGE = """
+[chain]
+title = "one loop"
+[source]
+level = "10 mV"
+impedance = "0 ohm"
+[load]
+impedance = "10k"
+[tolerances]
+resistors = "5 %"
+[[supply]]
+name = "bat"
+kind = "dc"
+voltage = "30 V"
+[[stage]]
+name = "pre"
+kind = "opamp_gain"
+topology = "non-inverting"
+feedback = "9k"
+ground_leg = "1k"
+opamp = "slow"
+positive = "bat"
+[opamp.slow]
+gbw = "1 MHz"
+slew_rate = "1 V/us"
+open_loop_gain = "100 dB"
+output_resistance = "0 ohm"
+swing_margin = "1 V"
+output_current = "0.1 A"
+supply_current = "1 mA"
+"""
+
+
+def test_loop_figures_of_each_trial_are_the_single_pole_closed_forms() -> None:
+    """Loop gain, unity-gain frequency and phase margin of a non-inverting stage with a
+    single-pole op-amp, per trial, against the closed forms of T = A(f) beta with
+    beta = Rg/(Rf + Rg) (Franco, Design with Operational Amplifiers, 4th ed., sec. 8.1, from
+    memory): |T(f_ref)| = A0 beta / |1 + j f_ref A0/GBW|, f_u = (GBW/A0) sqrt((A0 beta)^2 - 1),
+    margin = 180 deg - atan(f_u A0/GBW); loop gain to 1e-5 dB (the model's floors on an
+    ideal termination leave parts in 1e7), the crossing within the interpolation of the
+    stability axis (rtol 1e-4, 0.01 deg)."""
+    chain = _chain(LOOP_STAGE)
+    parts, evaluate = _evaluator(chain)
+    positions = np.random.default_rng(8).random((16, len(parts)))
+    figures = evaluate(positions)
+    values = dict(zip([p.key for p in parts], evaluate.values(positions), strict=True))
+    beta = values["ground_leg"] / (values["feedback"] + values["ground_leg"])
+    a0, gbw, f_ref = 1e5, 1e6, 1e3
+    gain_db = 20.0 * np.log10(a0 * beta / np.abs(1.0 + 1j * f_ref * a0 / gbw))
+    unity = gbw / a0 * np.sqrt((a0 * beta) ** 2 - 1.0)
+    margin = 180.0 - np.degrees(np.arctan(unity * a0 / gbw))
+    assert np.ptp(beta) > 0.005
+    assert figures["nodes.pre.loop_gain_db"] == pytest.approx(gain_db, rel=0, abs=1e-5)
+    assert figures["nodes.pre.unity_gain_hz"] == pytest.approx(unity, rel=1e-4)
+    assert figures["nodes.pre.phase_margin_deg"] == pytest.approx(margin, rel=0, abs=1e-2)
