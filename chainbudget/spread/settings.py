@@ -15,17 +15,25 @@ figure is at most the check's margin above it.
 
 from __future__ import annotations
 
+import itertools
+import math
 from collections.abc import Mapping
 from dataclasses import dataclass
 
 import numpy as np
 from numpy.typing import NDArray
 
-from chainbudget.budget.analysis import analyse, master_volume, positions_as_set
+from chainbudget.budget.analysis import Analysis, analyse, master_volume, positions_as_set
 from chainbudget.budget.levels import clip_source_peak
+from chainbudget.budget.search import NodeWorst
 from chainbudget.budget.ties import TIE_DB
 from chainbudget.chainfile import Chain
+from chainbudget.loops import section_of, sections
 from chainbudget.supplies.base import Corners
+
+# Candidate settings per node from the product of each control's few values at most
+# (each distinct setting of a section is one more batched solve of it per chunk).
+MAX_PRODUCT = 256
 
 
 @dataclass(frozen=True)
@@ -91,14 +99,15 @@ def held_settings(chain: Chain, voltages: Mapping[str, Corners]) -> HeldSettings
         if found is None or not swept:  # no control moves this node
             node_rows[k] = ((None, 0.0),)
             continue
-        # the setting at which the check's search puts this node's worst case
-        rotations = analysis.setting_rotations(found.setting)
-        row = list(base)
-        distance = 0.0
-        for sc in swept:
-            row[sc.axis] = float(sc.rotations[rotations[sc.axis]])
-            distance += abs(row[sc.axis] - sc.control.position)
-        node_rows[k] = ((row_of(tuple(row)), distance),)
+        candidates = []
+        for rotations in node_candidates(analysis, k, found):
+            row = list(base)
+            distance = 0.0
+            for sc in swept:
+                row[sc.axis] = float(sc.rotations[rotations[sc.axis]])
+                distance += abs(row[sc.axis] - sc.control.position)
+            candidates.append((row_of(tuple(row)), distance))
+        node_rows[k] = tuple(candidates)
     volume_row = None
     if volume is not None:
         row = list(base)
@@ -107,6 +116,42 @@ def held_settings(chain: Chain, voltages: Mapping[str, Corners]) -> HeldSettings
     if not rows:
         keys = []
     return HeldSettings(tuple(keys), tuple(rows), node_rows, volume_row)
+
+
+def node_candidates(analysis: Analysis, k: int, found: NodeWorst) -> list[tuple[int, ...]]:
+    """The settings (a rotation index per swept control) at which the spread looks for node
+    ``k``'s worst case in every trial, in the check's grid order (ascending rotation
+    indices).
+
+    The controls that shape the node, those of its own section and the sections before it,
+    each take its end stops, its setting as set and its rotation at the nominal check's
+    worst: every combination of them (at most `MAX_PRODUCT`; past it, the nominal worst
+    with each control moved alone to those values). The controls after the node's section
+    (which reach it only through the load they present) stay at the nominal worst's
+    rotations: the check's tie-break keeps them there unless they move its clip level by
+    more than `chainbudget.budget.ties.TIE_DB`.
+    """
+    swept = analysis.swept_controls
+    worst = analysis.setting_rotations(found.setting)
+    last = section_of(sections(analysis.chain.stages), k).last
+    values = []
+    for sc in swept:
+        if sc.stage_index > last:
+            values.append([worst[sc.axis]])
+            continue
+        as_set = int(np.flatnonzero(sc.rotations == sc.control.position)[0])
+        values.append(sorted({0, sc.rotations.size - 1, as_set, worst[sc.axis]}))
+    ordered: dict[tuple[int, ...], None] = {worst: None}
+    if math.prod(len(v) for v in values) <= MAX_PRODUCT:
+        for combo in itertools.product(*values):
+            ordered[tuple(int(i) for i in combo)] = None
+    else:
+        for sc, options in zip(swept, values, strict=True):
+            for option in options:
+                moved = list(worst)
+                moved[sc.axis] = option
+                ordered[tuple(moved)] = None
+    return sorted(ordered)
 
 
 def worst_of_candidates(

@@ -1,0 +1,52 @@
+"""The spread's worst case over the controls, per trial: a chain whose tone stage has its
+bass and treble boosts within a fraction of a dB of each other, so that the parts'
+tolerances move the worst setting from one boost to the other. Brute force: each trial
+written into the file and checked alone (the check's own search over every rotation)."""
+
+from __future__ import annotations
+
+import json
+
+import numpy as np
+import pytest
+from test_spread import TONE_AND_VOLUME, _chain, _json_figure, _si
+
+# bass boost (1 + 100k/20k at its end stop, at 20 Hz) and treble boost (at 20 kHz) within
+# 0.2 dB of each other at the nominal parts: the nominal worst is the bass boost.
+TWO_BOOSTS = TONE_AND_VOLUME.replace('bass_outer = "47k"', 'bass_outer = "20k"')
+
+
+def test_worst_headroom_of_each_trial_is_the_checks_worst_over_every_rotation() -> None:
+    """For a dozen trials, the batched worst headroom of every node (over the band and the
+    spread's candidate settings) equals the check of that trial written into the file
+    (its search over every rotation of every swept control), rtol 1e-9; and the trials
+    include some whose worst setting is not the nominal check's (the treble boost)."""
+    from chainbudget.budget import compute
+    from chainbudget.budget.supplies import settle
+    from chainbudget.report.json_view import budget_json
+    from chainbudget.spread.evaluate import Evaluator
+    from chainbudget.spread.parts import chain_parts
+
+    chain = _chain(TWO_BOOSTS)
+    parts, _ = chain_parts(chain)
+    nominal = compute(chain)
+    assert nominal.node("tone").worst.controls[("tone", "bass_position")] == 1.0
+    evaluate = Evaluator(chain, tuple(parts), nominal, settle(chain, "low").voltages)
+    positions = np.random.default_rng(21).random((12, len(parts)))
+    batched = evaluate(positions)
+    paths = [p for p in batched if p.endswith(".worst_headroom_db")]
+    assert "nodes.tone.worst_headroom_db" in paths
+    moved = 0
+    for t in range(len(positions)):
+        changes = {
+            f"{part.owner}.{part.key}": f"{float(value[0])!r} {_si(part)}"
+            for part, value in zip(parts, evaluate.values(positions[t : t + 1]), strict=True)
+        }
+        budget = compute(chain.with_values(changes))
+        worst = budget.node("tone").worst.controls
+        moved += worst != nominal.node("tone").worst.controls
+        data = json.loads(json.dumps(budget_json(budget, list(budget.findings))))
+        for path in paths:
+            held = _json_figure(data, path)
+            assert batched[path][t] == pytest.approx(held, rel=1e-9, abs=1e-12), (path, t)
+    assert 0 < moved < len(positions)
