@@ -11,11 +11,11 @@ A-weighted (IEC 61672-1) and ITU-R BS.468 weighted, the density at the reference
 nominal level at the reference over the rms noise; for the chain the input-referred noise
 (the output PSD over |v_out|^2 before integrating) and its EIN re 0.7746 V, the spot
 noise figure at the reference (Friis, Proc. IRE 32 (1944) 419), the dynamic range (the
-output's sine-equivalent clip over its noise) and each stage's share of the output noise
-power (the sum of its generators' band powers over the total).
+output's sine-equivalent clip over its noise).
 
 ``noise-set-late`` (`chainbudget.findings.noise`) is drawn where a stage after the first
-gives more of the output noise power than the first does: per trial the figure
+gives more of the output noise power than the first does (a stage's share: the sum of
+its generators' band powers over the total): per trial the figure
 ``noise.late_stage_share_margin`` = max over later stages of their share minus the first
 stage's share (not a key of the check JSON; the check's rule is this figure over 0).
 """
@@ -54,8 +54,7 @@ def output_noise(
     """Every node's ``noise_vrms``, ``noise_a_vrms``, ``noise_468_vrms``,
     ``noise_density_v_rthz``, ``snr_db`` and ``snr_a_db`` per trial, shape (T,), keyed by their
     path in the check JSON; the chain's input-referred noise, EIN, noise figure and
-    dynamic range (top-level keys), each stage's share of the output noise power
-    (``noise.stage_shares.STAGE.share``), the figure ``noise-set-late`` is judged by, and
+    dynamic range (top-level keys), the figure ``noise-set-late`` is judged by, and
     with a loudspeaker sensitivity the hiss SPL at 1 m (``hiss_spl_db``,
     ``hiss_spl_a_db``).
 
@@ -137,15 +136,14 @@ def _chain_figures(
 def _stage_shares(
     chain: Chain, spectra: NoiseSpectra, trials: int
 ) -> dict[str, NDArray[np.float64]]:
-    """Each stage's (and the source's) share of the output noise power, unweighted and
-    A-weighted, and the margin ``noise-set-late`` is judged by (module notes)."""
+    """The margin ``noise-set-late`` is judged by (module notes), from each stage's share
+    of the output noise power (the shares themselves are not spread figures: a share near
+    zero would lead the report's ranking by relative spread)."""
     shape = (trials, spectra.frequency.size)
     out = np.stack([np.broadcast_to(c, shape) for c in spectra.contribution[:, -1]])
     flat = spectra.integrate(out, unweighted)  # (S, T)
-    weighted = spectra.integrate(out, a_weighting)
     with np.errstate(divide="ignore", invalid="ignore"):
         share = np.where(flat.sum(axis=0) > 0.0, flat / flat.sum(axis=0), 0.0)
-        share_a = np.where(weighted.sum(axis=0) > 0.0, weighted / weighted.sum(axis=0), 0.0)
     owner = np.array([o.stage_index for o in spectra.origins], dtype=int)
     found: dict[str, NDArray[np.float64]] = {}
     by_stage: dict[int, NDArray[np.float64]] = {}
@@ -155,9 +153,6 @@ def _stage_shares(
             continue
         mine = owner == index
         by_stage[index] = share[mine].sum(axis=0)
-        path = f"noise.stage_shares.{origin.stage}."
-        found[path + "share"] = by_stage[index]
-        found[path + "share_a"] = share_a[mine].sum(axis=0)
     later = [s for i, s in by_stage.items() if i > 0]
     if len(chain.stages) >= 2 and later:
         first = by_stage.get(0, np.zeros(trials))

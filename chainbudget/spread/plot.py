@@ -17,12 +17,18 @@ def key_figures(result: SpreadResult) -> list[str]:
     """Figures with a rule's limit first, then the moving ones by relative spread."""
     limited = list(dict.fromkeys(c.threshold.path for c in result.crossings))
     rest = sorted(
-        (p for p in moving(result) if p not in limited),
-        key=lambda p: (
-            -(result.stats[p]["max"] - result.stats[p]["min"]) / max(abs(result.nominal[p]), 1e-30)
-        ),
+        (p for p in moving(result) if p not in limited), key=lambda p: -_relative_spread(result, p)
     )
     return (limited + rest)[:MAX_PANELS]
+
+
+def _relative_spread(result: SpreadResult, path: str) -> float:
+    """A figure's spread over its nominal value; a level in dB as the ratio it spans (its
+    nominal in dB is no scale: 0 dB would rank first)."""
+    span = result.stats[path]["max"] - result.stats[path]["min"]
+    if path.endswith(("_db", "_dbu")):
+        return float(10.0 ** (span / 20.0) - 1.0)
+    return span / max(abs(result.nominal[path]), 1e-30)
 
 
 def draw_histograms(result: SpreadResult, target: Path, fmt: str) -> list[str]:
