@@ -288,3 +288,33 @@ def test_loop_figures_of_each_trial_are_the_single_pole_closed_forms() -> None:
     assert figures["nodes.pre.loop_gain_db"] == pytest.approx(gain_db, rel=0, abs=1e-5)
     assert figures["nodes.pre.unity_gain_hz"] == pytest.approx(unity, rel=1e-4)
     assert figures["nodes.pre.phase_margin_deg"] == pytest.approx(margin, rel=0, abs=1e-2)
+
+
+def test_loop_figures_on_the_reduced_axis_equal_those_on_the_whole_axis(
+    monkeypatch: pytest.MonkeyPatch,
+) -> None:
+    """The trials' loops are solved first on a reduced stability axis; with no window
+    round the nominal crossings (every crossing then between coarse points, so the reduced
+    axis cannot stand for the whole one) the figures come from the whole axis, and both
+    give the same figures (the whole axis being the check's own): rtol 1e-12."""
+    from chainbudget.spread import loops
+
+    chain = _chain(KITCHEN_HELD_RIPPLE)
+    parts, evaluate = _evaluator(chain)
+    positions = np.random.default_rng(4).random((6, len(parts)))
+    first = evaluate(positions)  # through the reduced axis
+    calls: list[bool] = []
+    original = loops._same_as_full
+
+    def spy(kept: np.ndarray, t: np.ndarray) -> bool:
+        calls.append(original(kept, t))
+        return calls[-1]
+
+    monkeypatch.setattr(loops, "_same_as_full", spy)
+    monkeypatch.setattr(loops, "WINDOW", 1.0)
+    whole = evaluate(positions)
+    assert calls and not all(calls)  # the whole axis was used
+    paths = [p for p in whole if p.endswith(("loop_gain_db", "unity_gain_hz", "margin_deg"))]
+    assert len(paths) == 6
+    for path in paths:
+        assert first[path] == pytest.approx(whole[path], rel=1e-12, abs=0), path

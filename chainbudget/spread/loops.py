@@ -36,6 +36,11 @@ from chainbudget.thresholds import PHASE_MARGIN_ERROR_DEG, PHASE_MARGIN_WARN_DEG
 Figures = dict[str, NDArray[np.float64]]
 
 KEYS = ("loop_gain_db", "unity_gain_hz", "phase_margin_deg")
+# The reduced stability axis (`reduced_axis`): every this-many points of the whole axis
+# (40 a decade: a point every 0.1 decade), and the whole axis within this factor of each
+# loop's nominal unity-gain frequency.
+COARSE_STRIDE = 4
+WINDOW = 10.0**0.5
 
 
 def _loops(nominal: Budget) -> list[tuple[int, str, OwnLoop | GlobalLoop]]:
@@ -57,15 +62,22 @@ def loop_figures(
     trial, shape (T,), keyed by their path in the check JSON (a figure the nominal check
     leaves undefined, a loop that never falls through unity gain, is left out).
 
-    ``chain`` and ``envs`` hold the drawn parts as (T, 1) arrays."""
+    ``chain`` and ``envs`` hold the drawn parts as (T, 1) arrays. The return ratios are
+    solved on `reduced_axis` first and on the whole stability axis only where that cannot
+    stand for it (`_same_as_full`)."""
     loops = _loops(nominal)
     if not loops:
         return {}
     solver = LoopSolver(chain, envs, chain.settings.reference)
-    axis = solver.stability_axis()
+    full = solver.stability_axis()
+    kept = reduced_axis(full, [own.unity_gain_hz for _, _, own in loops])
+    ratios = [solver.return_ratio(k, full[kept]) for k, _, _ in loops]
+    if not all(t is None or _same_as_full(kept, np.asarray(t)) for t in ratios):
+        kept = np.arange(full.size)
+        ratios = [solver.return_ratio(k, full) for k, _, _ in loops]
+    axis = full[kept]
     found: Figures = {}
-    for k, prefix, own in loops:
-        t = solver.return_ratio(k, axis)
+    for (_, prefix, own), t in zip(loops, ratios, strict=True):
         if t is None:
             continue
         rows = np.broadcast_to(t, (trials, axis.size))
@@ -75,6 +87,41 @@ def loop_figures(
             if getattr(own, key) is not None:
                 found[prefix + key] = np.asarray(value, dtype=float)
     return found
+
+
+def reduced_axis(full: NDArray[np.float64], unity_hz: Sequence[float | None]) -> NDArray[np.intp]:
+    """Indices of the stability axis the trials are solved on first: the reference (index
+    0), every `COARSE_STRIDE`-th point, and every point within `WINDOW` (a factor either
+    way) of each loop's nominal unity-gain frequency, where the crossing of every trial
+    lies unless its parts move it by more than that factor."""
+    keep = np.zeros(full.size, bool)
+    keep[0] = True
+    keep[::COARSE_STRIDE] = True
+    keep[-1] = True
+    for unity in unity_hz:
+        if unity is not None:
+            keep |= (full >= unity / WINDOW) & (full <= unity * WINDOW)
+    return np.flatnonzero(keep)
+
+
+def _same_as_full(kept: NDArray[np.intp], t: NDArray[np.complex128]) -> bool:
+    """True when the figures read from the reduced axis are those of the whole axis: every
+    trial's first fall through |T| = 1 lies between two points that are neighbours on the
+    whole axis (so its interpolation is the same), no point before it is under 1 (no earlier
+    fall the coarse points could hide; common practice, no source: a loop gain that dips
+    under 1 and climbs back between points 1/10 decade apart is not one a designer
+    builds), and the unwrapped phase moves by under 90 deg between kept points (so that
+    unwrapping the reduced axis gives the whole axis's phase)."""
+    rows = t.reshape(-1, kept.size)
+    above = np.abs(rows) >= 1.0
+    falls = above[:, :-1] & ~above[:, 1:]
+    first = np.argmax(falls, axis=1)
+    found = falls.any(axis=1)
+    neighbours = kept[first + 1] - kept[first] == 1
+    before = np.arange(kept.size)[None, :] <= first[:, None]
+    no_dip = np.all(above | ~before, axis=1)
+    steps = np.abs(np.diff(np.unwrap(np.angle(rows), axis=1), axis=1))
+    return bool(np.all(~found | (neighbours & no_dip)) and np.all(steps < np.pi / 2.0))
 
 
 def loop_thresholds(figures: Mapping[str, object]) -> list[tuple[str, float, str, str]]:
