@@ -23,10 +23,17 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from chainbudget.budget.analysis import Analysis, analyse, master_volume, positions_as_set
+from chainbudget.budget.analysis import (
+    Analysis,
+    analyse,
+    master_volume,
+    positions_as_set,
+    solve_chain,
+)
 from chainbudget.budget.levels import clip_source_peak
 from chainbudget.budget.search import NodeWorst
 from chainbudget.budget.ties import TIE_DB
+from chainbudget.cascade import Cascade
 from chainbudget.chainfile import Chain
 from chainbudget.loops import section_of, sections
 from chainbudget.supplies.base import Corners
@@ -34,6 +41,10 @@ from chainbudget.supplies.base import Corners
 # Candidate settings per node from the product of each control's few values at most
 # (each distinct setting of a section is one more batched solve of it per chunk).
 MAX_PRODUCT = 256
+# Candidates whose least clip level at the nominal parts lies more than this above the
+# node's worst are not searched (dB): tolerances of a few per cent move a boost's clip
+# level by a fraction of that.
+PRUNE_DB = 3.0
 
 
 @dataclass(frozen=True)
@@ -85,6 +96,17 @@ def held_settings(chain: Chain, voltages: Mapping[str, Corners]) -> HeldSettings
     rows: list[tuple[float, ...]] = []
     node_rows: dict[int, tuple[tuple[int | None, float], ...]] = {}
 
+    solved: dict[tuple[float, ...], Cascade] = {}
+
+    def nominal_at(row: tuple[float, ...]) -> Cascade:
+        """The nominal chain solved at one row of settings (each row once)."""
+        if row not in solved:
+            positions = [dict(p) for p in as_set]
+            for (k, key), value in zip(keys, row, strict=True):
+                positions[k][key] = value
+            solved[row] = solve_chain(chain, analysis.envs, analysis.frequency, positions)
+        return solved[row]
+
     def row_of(row: tuple[float, ...]) -> int | None:
         if row == base:
             return None
@@ -99,15 +121,24 @@ def held_settings(chain: Chain, voltages: Mapping[str, Corners]) -> HeldSettings
         if found is None or not swept:  # no control moves this node
             node_rows[k] = ((None, 0.0),)
             continue
-        candidates = []
+        worst = analysis.setting_rotations(found.setting)
+        tried = []
         for rotations in node_candidates(analysis, k, found):
             row = list(base)
             distance = 0.0
             for sc in swept:
                 row[sc.axis] = float(sc.rotations[rotations[sc.axis]])
                 distance += abs(row[sc.axis] - sc.control.position)
-            candidates.append((row_of(tuple(row)), distance))
-        node_rows[k] = tuple(candidates)
+            least = float(np.min(clip_source_peak(nominal_at(tuple(row)), k)[0]))  # type: ignore[index]
+            tried.append((tuple(row), distance, least, rotations == worst))
+        # a setting whose least clip level at the nominal parts lies more than PRUNE_DB
+        # above the node's worst is left out: no trial's parts move it that far
+        floor = min(least for _, _, least, _ in tried) * 10.0 ** (PRUNE_DB / 20.0)
+        node_rows[k] = tuple(
+            (row_of(row), distance)
+            for row, distance, least, is_worst in tried
+            if is_worst or least <= floor
+        )
     volume_row = None
     if volume is not None:
         row = list(base)
