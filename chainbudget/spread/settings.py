@@ -1,16 +1,18 @@
-"""The control settings the spread holds fixed per trial: the nominal check's worst-case
-setting of each limited node, and the master volume fully up (the output power).
+"""The control settings the spread searches per trial: each limited node's candidate
+settings for its worst case, and the master volume fully up (the output power).
 
 Notes
 -----
 The check finds each node's worst headroom over the band and every swept control
-(`chainbudget.budget.levels.node_levels`: a grid of rotations, one solve). Carrying that
-grid through every trial would multiply the trial axis by up to 30,000 settings; the
-spread instead takes, for each node, the setting at which the nominal check found its
-worst case and holds it fixed in every trial, searching only the frequency axis per
-trial. Exact wherever a trial's worst setting is the nominal one (tolerances of a few
-per cent rarely move a pot's worst rotation to another grid point); otherwise the spread
-figure is at most the check's margin above it.
+(`chainbudget.budget.search`: every rotation of every swept control). Carrying that grid
+through every trial would multiply the trial axis by up to 30,000 settings; the spread
+instead solves every trial at a few candidate settings of each node (`node_candidates`:
+the controls that shape it at their end stops, as set and at the nominal worst, in
+combination) and takes the least over them and the band, with the check's tie-break
+(`worst_of_candidates`). Exact wherever a trial's worst point lies at one of those
+settings (a tone control's worst is a boost at an end stop, and tolerances move it from
+one boost to another); otherwise the spread figure is at most the check's margin above
+it.
 """
 
 from __future__ import annotations
@@ -160,7 +162,8 @@ def node_candidates(analysis: Analysis, k: int, found: NodeWorst) -> list[tuple[
     with each control moved alone to those values). The controls after the node's section
     (which reach it only through the load they present) stay at the nominal worst's
     rotations: the check's tie-break keeps them there unless they move its clip level by
-    more than `chainbudget.budget.ties.TIE_DB`.
+    more than `chainbudget.budget.ties.TIE_DB`. `held_settings` then drops those more than
+    `PRUNE_DB` above the node's worst at the nominal parts.
     """
     swept = analysis.swept_controls
     worst = analysis.setting_rotations(found.setting)
