@@ -175,7 +175,7 @@ class Evaluator:
         figures.update(_reference_figures(self.chain, as_set, trials))
         figures.update(_band_figures(self.chain, held, as_set, settings, trials))
         figures.update(_output_figures(self.chain, held, as_set, settings, trials))
-        noise = output_noise(chain, tuple(envs), frequency, as_set, trials)
+        noise = output_noise(chain, tuple(envs), frequency, as_set, trials, self.nominal)
         figures.update(noise)
         figures.update(hum_figures(chain, envs, self.nominal, noise, trials))
         figures.update(loop_figures(chain, envs, self.nominal, trials))

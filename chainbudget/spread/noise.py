@@ -25,6 +25,7 @@ from __future__ import annotations
 import numpy as np
 from numpy.typing import NDArray
 
+from chainbudget.budget import Budget
 from chainbudget.budget.levels import SQRT2, clip_source_peak
 from chainbudget.budget.noise_spectra import NoiseSpectra, noise_spectra, unweighted
 from chainbudget.cascade import Cascade
@@ -50,6 +51,7 @@ def output_noise(
     frequency: NDArray[np.float64],
     as_set: Cascade,
     trials: int,
+    nominal: Budget | None = None,
 ) -> dict[str, NDArray[np.float64]]:
     """Every node's ``noise_vrms``, ``noise_a_vrms``, ``noise_468_vrms``,
     ``noise_density_v_rthz``, ``snr_db`` and ``snr_a_db`` per trial, shape (T,), keyed by their
@@ -59,7 +61,9 @@ def output_noise(
     ``hiss_spl_a_db``).
 
     ``chain`` holds the drawn parts as (T, 1) arrays, ``as_set`` is its cascade with the
-    controls as set on ``frequency`` (the reference, then the band grid).
+    controls as set on ``frequency`` (the reference, then the band grid). With the
+    ``nominal`` check, a figure it leaves undefined (an SNR of a node without noise, an
+    input-referred noise where the gain vanishes) is left out.
     """
     spectra = noise_spectra(
         chain,
@@ -88,6 +92,8 @@ def output_noise(
     out = f"nodes.{chain.stages[-1].name}."
     found.update(_chain_figures(chain, spectra, psd[-1], signal[-1], as_set, trials))
     found.update(_stage_shares(chain, spectra, trials))
+    if nominal is not None:  # the figures the nominal check leaves undefined (no noise)
+        found = {path: v for path, v in found.items() if _defined(nominal, path)}
     sensitivity = chain.load.sensitivity
     if sensitivity is not None:  # the hiss at 1 m, as `noise_budget` works it out
         for key, noise in (("hiss_spl_db", "noise_vrms"), ("hiss_spl_a_db", "noise_a_vrms")):
@@ -95,6 +101,22 @@ def output_noise(
                 hiss_spl(sensitivity, found[out + noise], chain.load.impedance), dtype=float
             )
     return found
+
+
+def _defined(nominal: Budget, path: str) -> bool:
+    """Whether the nominal check gives the figure at ``path`` a value."""
+    noise = nominal.noise
+    if noise is None:
+        return False
+    group, *rest = path.split(".")
+    if group == "nodes":
+        name, key = rest
+        node = next(n for n in noise.nodes if n.stage == name)
+        field = "density_v_rthz" if key == "noise_density_v_rthz" else key
+        return getattr(node, field) is not None
+    if group == "noise":
+        return True
+    return getattr(noise, path) is not None
 
 
 def _chain_figures(
