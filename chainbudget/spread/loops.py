@@ -37,10 +37,10 @@ Figures = dict[str, NDArray[np.float64]]
 
 KEYS = ("loop_gain_db", "unity_gain_hz", "phase_margin_deg")
 # The reduced stability axis (`reduced_axis`): every this-many points of the whole axis
-# (40 a decade: a point every 0.1 decade), and the whole axis within this factor of each
+# (40 a decade: a point every 0.2 decade), and the whole axis within this factor of each
 # loop's nominal unity-gain frequency.
-COARSE_STRIDE = 4
-WINDOW = 10.0**0.5
+COARSE_STRIDE = 8
+WINDOW = 10.0**0.25
 
 
 def _loops(nominal: Budget) -> list[tuple[int, str, OwnLoop | GlobalLoop]]:
@@ -109,7 +109,7 @@ def _same_as_full(kept: NDArray[np.intp], t: NDArray[np.complex128]) -> bool:
     trial's first fall through |T| = 1 lies between two points that are neighbours on the
     whole axis (so its interpolation is the same), no point before it is under 1 (no earlier
     fall the coarse points could hide; common practice, no source: a loop gain that dips
-    under 1 and climbs back between points 1/10 decade apart is not one a designer
+    under 1 and climbs back between points 1/5 decade apart is not one a designer
     builds), and the unwrapped phase moves by under 90 deg between kept points (so that
     unwrapping the reduced axis gives the whole axis's phase)."""
     rows = t.reshape(-1, kept.size)
