@@ -178,11 +178,17 @@ def test_yield_against_the_analytic_share_failing_dropout() -> None:
     the reference's draw, uniform within +-4 %: the share out of regulation is the
     uniform's share above 14 V (exact), the yield within 5 sigma of it; and every trial is
     below the regulator's minimum load (a warning) where the divider's 5.2 mA cannot make
-    a 20 mA minimum."""
+    a 20 mA minimum. The stage is AC-coupled about its bias point into a line input, so
+    that no trial draws a DC error (each trial's DC is spread too)."""
     text = (
         REGULATOR.format(raw="15.1 V", min_load="20 mA")
         .replace('resistors = "1 %"', 'resistors = "0 %"')
         .replace('tolerance = { upper = "2 %" }', "")
+        .replace('impedance = "8 ohm"', 'impedance = "10k"')
+        .replace(
+            'ground_leg = "10k"',
+            'ground_leg = "10k"\ninput_cap = "1u"\nbias_resistor = "100k"\nground_cap = "47u"',
+        )
     )
     trials = 20_000
     result = run_spread(_chain(text), trials, 11)

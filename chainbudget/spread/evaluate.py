@@ -43,6 +43,8 @@ from chainbudget.loudspeaker import is_reactive, load_impedance
 from chainbudget.network import SingularNetwork
 from chainbudget.outputmath import sine_power, spl_at_1m
 from chainbudget.source_network import source_impedance
+from chainbudget.spread.dc import dc_figures, walked
+from chainbudget.spread.flags import flag_parts, is_flag
 from chainbudget.spread.noise import output_noise
 from chainbudget.spread.parts import Part, with_beta
 from chainbudget.spread.settings import HeldSettings, held_settings, worst_of_candidates
@@ -104,18 +106,21 @@ class Evaluator:
         that memory stays bounded however fine the chain's grid is."""
         return max(1, CHUNK_POINTS // frequency_axis(self.chain).size)
 
-    def __call__(self, positions: NDArray[np.float64]) -> Figures:
+    def __call__(self, positions: NDArray[np.float64], flags: bool = False) -> Figures:
         """Every spread figure, shape (T,), for part positions of shape (T, n), solved
-        `chunk_trials` at a time."""
+        `chunk_trials` at a time; with ``flags``, the per-trial rule flags beside them
+        (`chainbudget.spread.flags`)."""
         size = self.chunk_trials
         if positions.shape[0] <= size:
-            return self._batch(positions)
-        batches = [positions[i : i + size] for i in range(0, len(positions), size)]
-        # numpy's batched solves and array arithmetic release the GIL: the chunks run on
-        # the machine's cores side by side (each chunk is independent; order is kept)
-        with ThreadPoolExecutor(max_workers=WORKERS) as pool:
-            pieces = list(pool.map(self._batch, batches))
-        return {path: np.concatenate([p[path] for p in pieces]) for path in pieces[0]}
+            found = self._batch(positions)
+        else:
+            batches = [positions[i : i + size] for i in range(0, len(positions), size)]
+            # numpy's batched solves and array arithmetic release the GIL: the chunks run
+            # on the machine's cores side by side (each chunk is independent; order kept)
+            with ThreadPoolExecutor(max_workers=WORKERS) as pool:
+                pieces = list(pool.map(self._batch, batches))
+            found = {path: np.concatenate([p[path] for p in pieces]) for path in pieces[0]}
+        return found if flags else {p: v for p, v in found.items() if not is_flag(p)}
 
     def _batch(self, positions: NDArray[np.float64]) -> Figures:
         """Every spread figure for one batch of trials (one solve of each kind)."""
@@ -159,14 +164,15 @@ class Evaluator:
                 betas.setdefault(part.index, []).append((name, column))
             else:
                 chain = with_value(chain, part.index, part.key, column)
-        # DC operating points held at the nominal check's (DC is not spread)
-        dc_inputs = [
-            node.dc.input_v if node.dc is not None else None for node in self.nominal.nodes
-        ]
-        envs = list(environments(chain, "low", voltages, dc_inputs))
+        envs = list(environments(chain, "low", voltages, [None] * len(chain.stages)))
         for k, drawn_betas in betas.items():
             for name, column in drawn_betas:
                 envs[k] = with_beta(envs[k], name, column)
+        # each trial's own DC walk: a DC-coupled stage is built at its trial's DC
+        points, walked_envs = walked(chain, envs)
+        envs = list(walked_envs)
+        offset = None if self.nominal.output is None else self.nominal.output.offset_v
+        figures.update(dc_figures(chain, envs, points, trials, offset))
         frequency = frequency_axis(self.chain)
         settings = self.settings
         as_set, held = _solve_as_set_and_held(chain, tuple(envs), frequency, settings)
@@ -215,6 +221,11 @@ class Evaluator:
                     "hiss_spl_a_db", HISS_SPL_A_LIMIT_DB, "hiss-audible", "warning", above=True
                 )
             )
+        # the rules worked out per trial in the batch (`chainbudget.spread.flags`)
+        for path in figures:
+            if is_flag(path):
+                severity, code = flag_parts(path)
+                found.append(Threshold(path, 0.5, code, severity, above=True))
         for supply in self.chain.supplies:
             kind = SUPPLY_KINDS[supply.kind]
             if not kind.spread_fields(supply):
@@ -388,10 +399,17 @@ def failing(
             clipped_nominal[t.path.rsplit(".", 1)[0]] = figures[t.path] < t.limit
     for t in thresholds:
         value = figures[t.path]
-        tighter = [u.limit for u in thresholds if u.path == t.path and u.limit < t.limit]
         mask = t.beyond(value)
+        # a tighter limit on the same side: below a lower one, above a higher one
+        tighter = [
+            u.limit
+            for u in thresholds
+            if u.path == t.path
+            and u.above == t.above
+            and (u.limit > t.limit if t.above else u.limit < t.limit)
+        ]
         if tighter:
-            mask &= value >= max(tighter)
+            mask &= value <= min(tighter) if t.above else value >= max(tighter)
         if t.only_if_at_least is not None:
             other, floor = t.only_if_at_least
             mask &= figures[other] >= floor
