@@ -44,7 +44,9 @@ from chainbudget.network import SingularNetwork
 from chainbudget.outputmath import sine_power, spl_at_1m
 from chainbudget.source_network import source_impedance
 from chainbudget.spread.dc import dc_figures, walked
+from chainbudget.spread.drive import drive_figures
 from chainbudget.spread.flags import flag_parts, is_flag
+from chainbudget.spread.heat import heat_figures
 from chainbudget.spread.noise import output_noise
 from chainbudget.spread.parts import Part, with_beta
 from chainbudget.spread.settings import HeldSettings, held_settings, worst_of_candidates
@@ -180,7 +182,21 @@ class Evaluator:
         figures.update(_band_figures(self.chain, held, as_set, settings, trials))
         figures.update(_output_figures(self.chain, held, as_set, settings, trials))
         figures.update(output_noise(chain, tuple(envs), frequency, as_set, trials))
+        hot_envs = self._hot_envs(chain, betas)
+        figures.update(drive_figures(chain, as_set, held, settings, envs, hot_envs, trials))
+        figures.update(heat_figures(chain, hot_envs, trials))
         return figures
+
+    def _hot_envs(
+        self, chain: Chain, betas: Mapping[int, list[tuple[str, NDArray[np.float64]]]]
+    ) -> tuple[Environment, ...]:
+        """Each stage's environment at high line (the nominal check's rails), with the
+        drawn betas and the trial's DC walked there: where the check works out heat."""
+        envs = list(environments(chain, "high", self.voltages, [None] * len(chain.stages)))
+        for k, drawn_betas in betas.items():
+            for name, column in drawn_betas:
+                envs[k] = with_beta(envs[k], name, column)
+        return walked(chain, envs)[1]
 
     def thresholds(self, figures: Mapping[str, Any]) -> list[Threshold]:
         """The rules' limits on the figures spread covers."""

@@ -16,13 +16,14 @@ figure is at most the check's margin above it.
 from __future__ import annotations
 
 from collections.abc import Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 from numpy.typing import NDArray
 
-from chainbudget.budget.analysis import analyse, master_volume, positions_as_set
-from chainbudget.budget.levels import clip_source_peak
+from chainbudget.budget.analysis import Analysis, analyse, master_volume, positions_as_set
+from chainbudget.budget.levels import SQRT2, clip_source_peak
+from chainbudget.budget.power import voltage_clip_source_peak
 from chainbudget.budget.ties import TIE_DB
 from chainbudget.chainfile import Chain
 from chainbudget.supplies.base import Corners
@@ -45,6 +46,9 @@ class HeldSettings:
     rows: tuple[tuple[float, ...], ...]
     node_rows: dict[int, tuple[tuple[int | None, float], ...]]
     volume_row: int | None
+    #: Each op-amp's (stage index, label) setting of its largest output current over the
+    #: band in the nominal check (`chainbudget.budget.power.opamp_drives`; None: as set).
+    current_rows: dict[tuple[int, str], int | None] = field(default_factory=dict)
 
     @property
     def stages(self) -> frozenset[int]:
@@ -99,6 +103,12 @@ def held_settings(chain: Chain, voltages: Mapping[str, Corners]) -> HeldSettings
             row[sc.axis] = float(sc.rotations[rotations[sc.axis]])
             distance += abs(row[sc.axis] - sc.control.position)
         node_rows[k] = ((row_of(tuple(row)), distance),)
+    current_rows: dict[tuple[int, str], int | None] = {}
+    for (k, label), rotations in opamp_current_settings(analysis).items():
+        row = list(base)
+        for sc in swept:
+            row[sc.axis] = float(sc.rotations[rotations[sc.axis]])
+        current_rows[(k, label)] = row_of(tuple(row))
     volume_row = None
     if volume is not None:
         row = list(base)
@@ -106,7 +116,25 @@ def held_settings(chain: Chain, voltages: Mapping[str, Corners]) -> HeldSettings
         volume_row = row_of(tuple(row))
     if not rows:
         keys = []
-    return HeldSettings(tuple(keys), tuple(rows), node_rows, volume_row)
+    return HeldSettings(tuple(keys), tuple(rows), node_rows, volume_row, current_rows)
+
+
+def opamp_current_settings(analysis: Analysis) -> dict[tuple[int, str], tuple[int, ...]]:
+    """Each op-amp's (stage index, label) rotation indices of the setting at which the
+    nominal check finds its largest output current over the band (its ``worst_a``: the
+    current at ``max_level`` or at the stage's voltage clip, whichever is lower)."""
+    max_peak = SQRT2 * analysis.chain.source.max_level
+    swept = analysis.swept
+    found: dict[tuple[int, str], tuple[int, ...]] = {}
+    for k, sol in enumerate(swept.stages):
+        for label, _ in sol.built.opamps:
+            level = np.minimum(max_peak, voltage_clip_source_peak(swept, k))
+            asked = np.abs(np.broadcast_to(swept.probe(k, f"{label}.current"), level.shape))
+            band = (asked * level)[..., analysis.band_slice]
+            at = np.unravel_index(int(np.argmax(band)), band.shape)
+            candidate = int(at[0]) if band.ndim > 1 else 0
+            found[(k, label)] = tuple(int(i) for i in analysis.candidates[candidate])
+    return found
 
 
 def worst_of_candidates(
