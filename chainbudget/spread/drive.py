@@ -88,9 +88,19 @@ def drive_figures(
     for k, stage in enumerate(chain.stages):
         if stage.kind == "follower":
             figures.update(_follower(chain, as_set, envs[k], hot_envs[k], k, trials))
-        elif stage.kind == "push_pull" and k > 0:
-            figures.update(_hand_over(chain, as_set, k, trials))
+        elif stage.kind == "push_pull":
+            if k > 0:
+                figures.update(_hand_over(chain, as_set, k, trials))
+            figures.update(_output_bias(stage.name, stage.optional("output_cap"), envs[k], trials))
     return figures
+
+
+def _output_bias(name: str, output_cap: float | None, env: Environment, trials: int) -> Figures:
+    """``dc-on-load``: a single-supply pair without an output capacitor rests at its bias
+    point, across the load (`chainbudget.stages.push_pull.drive.output_bias`)."""
+    bias = 0.0 if env.rails is None else env.rails.bias
+    on_load = output_cap is None and np.abs(np.asarray(bias)) > 1e-9
+    return {flag_key("error", "dc-on-load", name): as_flag(on_load, trials)}
 
 
 def _opamps(

@@ -39,6 +39,7 @@ from chainbudget.budget.steps import with_value
 from chainbudget.cascade import Cascade, sections, solve_section
 from chainbudget.cascade import cascade as join_cascade
 from chainbudget.chainfile import Chain
+from chainbudget.findings import SUPERSEDES
 from chainbudget.loudspeaker import is_reactive, load_impedance
 from chainbudget.network import SingularNetwork
 from chainbudget.outputmath import sine_power, spl_at_1m
@@ -184,7 +185,7 @@ class Evaluator:
         figures.update(output_noise(chain, tuple(envs), frequency, as_set, trials))
         hot_envs = self._hot_envs(chain, betas)
         figures.update(drive_figures(chain, as_set, held, settings, envs, hot_envs, trials))
-        figures.update(heat_figures(chain, hot_envs, trials))
+        figures.update(heat_figures(chain, envs, hot_envs, trials))
         return figures
 
     def _hot_envs(
@@ -406,31 +407,58 @@ def failing(
     """Per finding code, the trials that draw it (any node or supply).
 
     A figure's thresholds nest: a trial below the tightest draws only that code (the rules'
-    ``elif``); a node clipped at the nominal level draws ``clip-nominal`` alone.
+    ``elif``); a node clipped at the nominal level draws ``clip-nominal`` alone; a code
+    that names the cause of others on the same stage (`chainbudget.findings.SUPERSEDES`)
+    hides them in the trials that draw it.
     """
+    drawn = [(t, _drawn(t, thresholds, figures)) for t in thresholds]
+    causes: dict[tuple[str, str], NDArray[np.bool_]] = {}
+    for t, mask in drawn:
+        key = (_stage_of(t.path), t.code)
+        causes[key] = causes.get(key, np.zeros(mask.shape, bool)) | mask
     by_code: dict[str, NDArray[np.bool_]] = {}
-    clipped_nominal: dict[str, NDArray[np.bool_]] = {}
-    for t in thresholds:
-        if t.code == "clip-nominal":
-            clipped_nominal[t.path.rsplit(".", 1)[0]] = figures[t.path] < t.limit
-    for t in thresholds:
-        value = figures[t.path]
-        mask = t.beyond(value)
-        # a tighter limit on the same side: below a lower one, above a higher one
-        tighter = [
-            u.limit
-            for u in thresholds
-            if u.path == t.path
-            and u.above == t.above
-            and (u.limit > t.limit if t.above else u.limit < t.limit)
-        ]
-        if tighter:
-            mask &= value <= min(tighter) if t.above else value >= max(tighter)
-        if t.only_if_at_least is not None:
-            other, floor = t.only_if_at_least
-            mask &= figures[other] >= floor
-        owner = t.path.rsplit(".", 1)[0]
-        if t.code != "clip-nominal" and owner in clipped_nominal:
-            mask &= ~clipped_nominal[owner]
-        by_code[t.code] = by_code.get(t.code, np.zeros(value.shape, bool)) | mask
+    for t, mask in drawn:
+        where = _stage_of(t.path)
+        for cause, hidden in SUPERSEDES.items():
+            if t.code in hidden and (where, cause) in causes:
+                mask = mask & ~causes[(where, cause)]
+        by_code[t.code] = by_code.get(t.code, np.zeros(mask.shape, bool)) | mask
     return by_code
+
+
+def _stage_of(path: str) -> str:
+    """The stage a figure or flag belongs to, as the findings name it (``nodes.pre.
+    headroom_db``: ``pre``; a flag: the place its key names); a supply's figures are kept
+    apart (a supply may share a stage's name)."""
+    if is_flag(path):
+        return path.rsplit(":", 1)[-1]
+    group, _, rest = path.partition(".")
+    name = rest.split(".", 1)[0] if "." in rest else ""
+    return name if group == "nodes" else f"{group}:{name}"
+
+
+def _drawn(
+    t: Threshold, thresholds: list[Threshold], figures: Mapping[str, NDArray[np.float64]]
+) -> NDArray[np.bool_]:
+    """The trials that draw one threshold's code, nested with the other thresholds."""
+    value = figures[t.path]
+    mask = t.beyond(value)
+    # a tighter limit on the same side: below a lower one, above a higher one
+    tighter = [
+        u.limit
+        for u in thresholds
+        if u.path == t.path
+        and u.above == t.above
+        and (u.limit > t.limit if t.above else u.limit < t.limit)
+    ]
+    if tighter:
+        mask &= value <= min(tighter) if t.above else value >= max(tighter)
+    if t.only_if_at_least is not None:
+        other, floor = t.only_if_at_least
+        mask &= figures[other] >= floor
+    owner = t.path.rsplit(".", 1)[0]
+    if t.code != "clip-nominal":
+        for u in thresholds:  # a node clipped at the nominal level draws that alone
+            if u.code == "clip-nominal" and u.path.rsplit(".", 1)[0] == owner:
+                mask &= ~(figures[u.path] < u.limit)
+    return mask
