@@ -8,6 +8,7 @@ from __future__ import annotations
 import json
 import math
 import tomllib
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -15,7 +16,7 @@ from scipy import constants, integrate
 
 from chainbudget.budget import compute
 from chainbudget.budget.supplies import settle
-from chainbudget.chainfile import parse_chain
+from chainbudget.chainfile import load_chain, parse_chain
 from chainbudget.report.json_view import budget_json
 from chainbudget.spread.evaluate import Evaluator, failing
 from chainbudget.spread.flags import flag_parts, is_flag
@@ -363,3 +364,27 @@ def test_quiescent_low_yield_against_the_analytic_share() -> None:
     assert 0.2 < share < 0.8
     sigma = math.sqrt(share * (1 - share) / trials)
     assert abs((1.0 - result.yield_by_code["quiescent-low"]) - share) < 5 * sigma
+
+
+ROOT = Path(__file__).resolve().parents[1]
+
+
+@pytest.mark.parametrize("name", sorted(p.name for p in (ROOT / "chains").glob("*.toml")))
+def test_every_example_at_nominal_draws_the_codes_the_check_finds(name: str) -> None:
+    """Every example at its nominal parts (one trial at the centre of every bound): each
+    code the spread evaluates per trial is drawn exactly when the check finds it (the
+    check's own rules as the reference), and the new figures equal the check JSON's."""
+    chain = load_chain(ROOT / "chains" / name)
+    parts, _ = chain_parts(chain)
+    budget = compute(chain)
+    evaluate = Evaluator(chain, tuple(parts), budget, settle(chain, "low").voltages)
+    figures = evaluate(np.full((1, len(parts)), 0.5), flags=True)
+    masks = failing(evaluate.thresholds(figures), figures)
+    found = {f.code for f in budget.findings}
+    for code, mask in masks.items():
+        assert bool(mask[0]) == (code in found), code
+    data = json.loads(json.dumps(budget_json(budget, list(budget.findings))))
+    for path, values in figures.items():
+        if not is_flag(path):
+            held = _json_figure(data, path)
+            assert values[0] == pytest.approx(held, rel=1e-9, abs=1e-12), path

@@ -66,6 +66,7 @@ def heat_figures(
     if not chain.stages or chain.stages[-1].kind != "push_pull":
         return figures
     stage, env = chain.stages[-1], hot_envs[-1]
+    figures.update(_turn_on(stage, env, trials))
     worst = _worst_dissipation(chain, stage, env, trials)
     figures["output.device_dissipation_w"] = worst.hot_w
     junction = _junction(stage, chain.settings.ambient, worst.hot_w, worst.pair_w)
@@ -82,6 +83,17 @@ def heat_figures(
     )
     figures.update(_thermal_loop(chain, stage, envs[-1], env, worst, trials))
     return figures
+
+
+def _turn_on(stage: Stage, hot_env: Environment, trials: int) -> Figures:
+    """``turn-on-thump``: a single-supply pair's output capacitor charging to the
+    mid-point through the loudspeaker at switch-on
+    (`chainbudget.stages.push_pull.drive.turn_on`, at high line)."""
+    rails = hot_env.rails
+    if stage.optional("output_cap") is None or rails is None:
+        return {}
+    thump = (np.asarray(rails.negative) == 0.0) & (np.asarray(rails.bias) > 0.0)
+    return {flag_key("note", "turn-on-thump", stage.name): as_flag(thump, trials)}
 
 
 def _optimum(stage: Stage, env: Environment, trials: int) -> Figures:
