@@ -1,5 +1,6 @@
 """The control settings the spread holds fixed per trial: the nominal check's worst-case
-setting of each limited node, and the master volume fully up (the output power).
+setting of each limited node, the setting of each op-amp's largest output current, and the
+master volume fully up (the output power).
 
 Notes
 -----
