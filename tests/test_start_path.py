@@ -90,6 +90,25 @@ def _modules_after(args: list[str], prefix: str) -> set[str]:
     return set(eval(done.stdout.strip().splitlines()[-1]))
 
 
+@pytest.mark.parametrize(
+    "args",
+    [["--format", "json"], ["--format", "toml"], [], ["--noise-detail"]],
+    ids=["json", "toml", "table", "detail"],
+)
+def test_a_check_that_prints_no_styles_loads_no_rich(args: list[str]) -> None:
+    """The JSON and TOML views read the report's areas, which build their tables as plain
+    data (chainbudget/report/layout.py); a table on a pipe is drawn by
+    chainbudget/report/plain_text.py. rich loads only for a terminal (tests/test_plain_text.py
+    holds the two drawings equal)."""
+    loaded = _modules_after(["check", str(BUSKING), *args], "rich")
+    assert loaded == set()
+
+
+def test_the_rich_probe_sees_rich_where_it_draws() -> None:
+    """The probe above would pass vacuously if it never saw rich: blocks draws with it."""
+    assert "rich.table" in _modules_after(["blocks"], "rich")
+
+
 # Kinds the battery-powered busking chain does not name, and the modules only they use.
 UNNAMED_KINDS = (
     "chainbudget.supplies.rectified",
