@@ -25,7 +25,7 @@ from rich.console import Console
 
 from chainbudget.budget import Budget, compute
 from chainbudget.chainfile import load_chain
-from chainbudget.report.layout import BLANK, Block, Grid, Line, ReportTable, line
+from chainbudget.report.layout import BLANK, Drawn, Grid, Line, ReportTable, line
 from chainbudget.report.plain_text import plain_text, wrap
 from chainbudget.report.rich_view import print_blocks
 from chainbudget.report.table_view import report_blocks
@@ -38,7 +38,7 @@ EXAMPLES = sorted((ROOT / "chains").glob("*.toml"))
 WIDTHS = (80, 100, 160)
 
 
-def rich_text(blocks: Sequence[Block], width: int) -> str:
+def rich_text(blocks: Sequence[Drawn], width: int) -> str:
     """What rich prints for the blocks on a console of ``width`` that does not style."""
     out = io.StringIO()
     print_blocks(blocks, Console(file=out, width=width, no_color=True, highlight=False))
@@ -123,7 +123,7 @@ _BLOCKS = st.lists(
 
 @settings(max_examples=400)
 @given(blocks=_BLOCKS, width=st.integers(20, 200))
-def test_any_blocks_are_drawn_as_rich_draws_them(blocks: list[Block], width: int) -> None:
+def test_any_blocks_are_drawn_as_rich_draws_them(blocks: list[Drawn], width: int) -> None:
     """Column widths (collapsed, reduced, spread out to the title), wrapping, folding,
     justification and the header's alignment, whatever the cells hold."""
     text = plain_text(blocks, width)

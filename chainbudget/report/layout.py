@@ -67,4 +67,4 @@ class Grid:
 
 
 #: What the report is made of, in the order it is drawn.
-Block = Line | ReportTable | Grid
+Drawn = Line | ReportTable | Grid

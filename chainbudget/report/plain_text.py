@@ -26,7 +26,7 @@ from __future__ import annotations
 import re
 from collections.abc import Iterable, Sequence
 
-from chainbudget.report.layout import Block, Grid, ReportTable
+from chainbudget.report.layout import Drawn, Grid, ReportTable
 from chainbudget.report.tables import TITLE_WIDTH
 
 #: Below this width rich draws the report (columns of a cell or less).
@@ -315,7 +315,7 @@ def grid_lines(grid: Grid, width: int) -> list[str]:
     return ["".join(cells) for cells in drawn]
 
 
-def _texts(blocks: Iterable[Block]) -> Iterable[str]:
+def _texts(blocks: Iterable[Drawn]) -> Iterable[str]:
     for block in blocks:
         if isinstance(block, ReportTable):
             yield block.title
@@ -330,12 +330,12 @@ def _texts(blocks: Iterable[Block]) -> Iterable[str]:
             yield block.plain
 
 
-def drawable(blocks: Sequence[Block]) -> bool:
+def drawable(blocks: Sequence[Drawn]) -> bool:
     """Whether every text is printable ASCII (with line breaks): one character, one column."""
     return all(_DRAWABLE.fullmatch(text) for text in _texts(blocks))
 
 
-def plain_text(blocks: Sequence[Block], width: int) -> str | None:
+def plain_text(blocks: Sequence[Drawn], width: int) -> str | None:
     """The blocks as the text rich prints on a console of ``width`` columns without styles;
     None when this cannot draw them (rich then does)."""
     if width < MIN_WIDTH or not drawable(blocks):

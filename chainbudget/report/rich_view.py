@@ -14,7 +14,7 @@ from rich.console import Console
 from rich.table import Table
 from rich.text import Text
 
-from chainbudget.report.layout import Block, Grid, Line, ReportTable
+from chainbudget.report.layout import Drawn, Grid, Line, ReportTable
 from chainbudget.report.tables import TITLE_WIDTH
 
 #: A rule under the header and nothing else, in plain ASCII.
@@ -56,7 +56,7 @@ def rich_grid(grid: Grid) -> Table:
     return drawn
 
 
-def print_blocks(blocks: Iterable[Block], console: Console) -> None:
+def print_blocks(blocks: Iterable[Drawn], console: Console) -> None:
     """Print each block on the console (an empty line prints as one)."""
     for block in blocks:
         if isinstance(block, ReportTable):

@@ -18,7 +18,7 @@ from chainbudget.budget import Budget, NodeBudget
 from chainbudget.finding import SEVERITIES, Finding
 from chainbudget.notation import DASH, decibels, eng, settings_text
 from chainbudget.report import dcbias, hum, noise, power, supplies
-from chainbudget.report.layout import BLANK, Block, Grid, Line, ReportTable, line
+from chainbudget.report.layout import BLANK, Drawn, Grid, Line, ReportTable, line
 from chainbudget.report.tables import add_row, new_table
 from chainbudget.source_network import describe
 from chainbudget.units import vrms_to_dbu
@@ -236,11 +236,11 @@ def reactive_source_text(budget: Budget) -> str:
 
 def report_blocks(
     budget: Budget, found: list[Finding], brief: bool = False, noise_detail: bool = False
-) -> list[Block]:
+) -> list[Drawn]:
     """The report: verdict, findings, cautions, then (unless ``brief``) the tables, and the
     noise's spectral detail when asked for."""
     title = Line(((budget.title, ""), (f"  ({budget.file})", "")), "bold")
-    blocks: list[Block] = [
+    blocks: list[Drawn] = [
         title,
         line(
             f"reference {eng(budget.reference_hz, 'Hz')}, band {eng(budget.band_hz[0], 'Hz')} "

@@ -17,7 +17,7 @@ import sys
 from collections.abc import Sequence
 from typing import Any
 
-from chainbudget.report.layout import Block
+from chainbudget.report.layout import Drawn
 from chainbudget.report.plain_text import plain_text
 
 #: The width of a report written to a file.
@@ -59,7 +59,7 @@ def plain_stdout() -> bool:
     )
 
 
-def shown(blocks: Sequence[Block], to_stdout: bool = True) -> str:
+def shown(blocks: Sequence[Drawn], to_stdout: bool = True) -> str:
     """The blocks as text to print, or "" once rich has printed them on the terminal; for a
     file (``to_stdout`` false), plain text 80 columns wide."""
     if not to_stdout:

@@ -7,7 +7,7 @@ from collections.abc import Sequence
 from typing import Any
 
 from chainbudget.notation import eng
-from chainbudget.report.layout import Block, line
+from chainbudget.report.layout import Drawn, line
 from chainbudget.report.tables import add_row, new_table
 from chainbudget.spread.run import SpreadResult
 
@@ -111,10 +111,10 @@ def _in_chain_order(paths: list[str], places: Sequence[str]) -> list[str]:
     return sorted(paths, key=rank)  # stable: a place's figures keep their order
 
 
-def spread_tables(result: SpreadResult, title: str, places: Sequence[str] = ()) -> list[Block]:
+def spread_tables(result: SpreadResult, title: str, places: Sequence[str] = ()) -> list[Drawn]:
     """Figures, yield, sensitivities, threshold crossings and what is not spread; figures
     grouped by place in the order of ``places`` (path prefixes, the chain's order)."""
-    parts: list[Block] = []
+    parts: list[Drawn] = []
     head = line(
         f"{title}: {result.trials} trials, seed {result.seed}, "
         f"{len(result.parts)} parts drawn"
