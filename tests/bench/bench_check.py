@@ -1,7 +1,7 @@
 """Benchmark: the command's time as ratios measured in one run (run by hand, not collected).
 
     .venv/bin/python tests/bench/bench_check.py [--rounds N]
-        [--only start,pots,stages,points,before]
+        [--only start,pots,stages,points,before,report]
 
 Machines are noisy and absolute times do not compare between runs, so everything here is a
 ratio of medians taken in the same run, the runs of a comparison alternating so that any
@@ -18,7 +18,9 @@ drift of the machine falls on all of them alike:
   same command on earlier commits of the project (``git archive`` of each into a temporary
   folder, run with the same Python and libraries; each commit's own copy of the example):
   main at f828a9c (the tree this work started from) and the last main commit before the
-  supplies work was merged (d05204f^1).
+  supplies work was merged (d05204f^1);
+* report: ``check`` of the largest example as a table on a pipe and as JSON, on this tree
+  and on the tree before the report was drawn without rich (8d6eb65), against the floor.
 
 For pots, stages and points a second ratio is of the work alone, without the start-up: the
 median of five budgets of the chain worked out in one process (``--compute FILE`` runs
@@ -57,6 +59,8 @@ LARGEST = ROOT / "chains" / "busking_amp.toml"
 
 # Earlier trees the ``before`` section compares the largest example's check against.
 BEFORE = {"main at f828a9c": "f828a9c", "before the supplies work (d05204f^1)": "d05204f^1"}
+# The tree before the report was drawn without rich (the ``report`` section).
+REPORT_BEFORE = "8d6eb65"
 
 
 def _run(args: list[str]) -> tuple[float, float]:
@@ -326,35 +330,39 @@ def _tree(commit: str, folder: Path) -> Path:
     return target
 
 
+def _earlier(tree: Path, args: list[str]) -> list[str]:
+    """The command ``chainbudget ARGS`` run from an earlier tree written out by `_tree`."""
+    # The earlier tree first on the path, and not this one's editable install's finder.
+    launch = (
+        "import sys; "
+        "sys.meta_path[:] = [f for f in sys.meta_path if 'editable' not in "
+        "getattr(f, '__module__', '')]; "
+        f"sys.path.insert(0, {str(tree)!r}); "
+    )
+    where = subprocess.run(
+        [PYTHON, "-c", launch + "import chainbudget; print(chainbudget.__file__)"],
+        capture_output=True,
+        text=True,
+        check=True,
+    ).stdout.strip()
+    assert where.startswith(str(tree)), where  # the earlier tree, not this one
+    return [
+        PYTHON,
+        "-c",
+        launch + "from chainbudget.cli import main; sys.argv[0] = 'chainbudget'; main()",
+        *args,
+    ]
+
+
 def before(rounds: int, folder: Path) -> None:
     commands: dict[str, list[str]] = {
         "this tree": [PYTHON, "-m", "chainbudget", "check", str(LARGEST), "--format", "json"]
     }
     for name, commit in BEFORE.items():
         tree = _tree(commit, folder)
-        # The earlier tree first on the path, and not this one's editable install's finder.
-        launch = (
-            "import sys; "
-            "sys.meta_path[:] = [f for f in sys.meta_path if 'editable' not in "
-            "getattr(f, '__module__', '')]; "
-            f"sys.path.insert(0, {str(tree)!r}); "
+        commands[name] = _earlier(
+            tree, ["check", str(tree / "chains" / LARGEST.name), "--format", "json"]
         )
-        where = subprocess.run(
-            [PYTHON, "-c", launch + "import chainbudget; print(chainbudget.__file__)"],
-            capture_output=True,
-            text=True,
-            check=True,
-        ).stdout.strip()
-        assert where.startswith(str(tree)), where  # the earlier tree, not this one
-        commands[name] = [
-            PYTHON,
-            "-c",
-            launch + "from chainbudget.cli import main; sys.argv[0] = 'chainbudget'; main()",
-            "check",
-            str(tree / "chains" / LARGEST.name),
-            "--format",
-            "json",
-        ]
     found = measure(commands, rounds)
     print(f"\nCheck of {LARGEST.name}: earlier trees against this one (median; peak memory)")
     for name, (median, peak) in found.items():
@@ -364,12 +372,32 @@ def before(rounds: int, folder: Path) -> None:
         )
 
 
+def report_views(rounds: int, folder: Path) -> None:
+    """The table (on a pipe: stdout is /dev/null) and the JSON of the largest example, on
+    this tree and on the tree before the report's plain-text drawing (REPORT_BEFORE), all
+    alternating with the floor."""
+    tree = _tree(REPORT_BEFORE, folder)
+    chain = str(tree / "chains" / LARGEST.name)
+    floor = "floor: import numpy, pint; registry"
+    commands: dict[str, list[str]] = {floor: FLOOR}
+    for view, extra in (("table", []), ("json", ["--format", "json"])):
+        here = [PYTHON, "-m", "chainbudget", "check", str(LARGEST), *extra]
+        commands[f"{view}: this tree"] = here
+        commands[f"{view}: {REPORT_BEFORE}"] = _earlier(tree, ["check", chain, *extra])
+    found = measure(commands, rounds)
+    report(f"Check of {LARGEST.name} by view", found, floor)
+    for view in ("table", "json"):
+        ratio = found[f"{view}: this tree"][0] / found[f"{view}: {REPORT_BEFORE}"][0]
+        print(f"  {view}: this tree / {REPORT_BEFORE}: {ratio:5.2f}x")
+
+
 SECTIONS: dict[str, Callable[[int, Path], None]] = {
     "start": start,
     "pots": pots,
     "stages": stages,
     "points": points,
     "before": before,
+    "report": report_views,
 }
 
 
