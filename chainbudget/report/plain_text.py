@@ -26,7 +26,7 @@ from __future__ import annotations
 import re
 from collections.abc import Iterable, Sequence
 
-from chainbudget.report.layout import Drawn, Grid, ReportTable
+from chainbudget.report.layout import Drawn, Grid, Line, ReportTable
 from chainbudget.report.tables import TITLE_WIDTH
 
 #: Below this width rich draws the report (columns of a cell or less).
@@ -242,45 +242,67 @@ def _column_widths(
 
 
 def _cell_lines(
-    text: str, width: int, right: int, justify: str, overflow: str, no_wrap: bool
-) -> list[str]:
+    cell: str | Line,
+    width: int,
+    right: int,
+    justify: str,
+    overflow: str,
+    no_wrap: bool,
+    styles: Styles | None,
+) -> list[tuple[str, str]]:
+    """A cell's lines at its column's width, each as its text and its right padding."""
     inner = width - right
     if inner < 1:
         raise _NotDrawn
+    pad = " " * right
+    if isinstance(cell, Line) and styles is not None:
+        if justify != "left":
+            raise _NotDrawn
+        text, spans = _spans_of(cell)
+        lines = []
+        for piece, piece_spans in wrap_styled(text, spans, inner, justify, overflow, no_wrap):
+            if cell.style:  # the cell's own style covers its line, padding and all
+                piece_spans = [(0, len(piece), cell.style), *piece_spans]
+            lines.append((styles.render(piece, piece_spans), pad))
+        return lines
+    plain = cell.plain if isinstance(cell, Line) else cell
     return [
-        _truncate(piece, inner, "crop", pad=True) + " " * right
-        for piece in wrap(text, inner, justify, overflow, no_wrap)
+        (_truncate(piece, inner, "crop", pad=True), pad)
+        for piece in wrap(plain, inner, justify, overflow, no_wrap)
     ]
 
 
 def _rows(
-    rows: Sequence[Sequence[str]],
+    rows: Sequence[Sequence[str | Line]],
     widths: Sequence[int],
     justify: Sequence[str],
     overflow: Sequence[str],
     no_wrap: Sequence[bool],
     header: bool,
-) -> list[list[str]]:
-    """Each row's lines, its cells side by side (a list of cell texts per line); a header's
-    cells sit at the bottom of their row, others at the top."""
+    styles: Styles | None = None,
+) -> list[list[tuple[str, str]]]:
+    """Each row's lines, its cells side by side (a cell's text and its padding per line); a
+    header's cells sit at the bottom of their row, others at the top."""
     last = len(widths) - 1
     drawn = []
     for row in rows:
         cells = [
-            _cell_lines(text, width, 0 if k == last else 1, justify[k], overflow[k], no_wrap[k])
+            _cell_lines(
+                text, width, 0 if k == last else 1, justify[k], overflow[k], no_wrap[k], styles
+            )
             for k, (text, width) in enumerate(zip(row, widths, strict=True))
         ]
         height = max(len(cell) for cell in cells)
         for k, cell in enumerate(cells):
-            blank = [" " * widths[k]] * (height - len(cell))
+            blank = [(" " * widths[k], "")] * (height - len(cell))
             cells[k] = blank + cell if header else cell + blank
         drawn += [[cell[n] for cell in cells] for n in range(height)]
     return drawn
 
 
-def table_lines(table: ReportTable, width: int) -> list[str]:
-    """A table at a console of ``width`` columns: title, header, rule, rows, and the blank
-    edge rows above the header and below the last row."""
+def table_lines(table: ReportTable, width: int, styles: Styles | None = None) -> list[str]:
+    """A table at a console of ``width`` columns: title, header (bold where styled), rule,
+    rows, and the blank edge rows above the header and below the last row."""
     count = len(table.headers)
     extra = 2 + count - 1
     pads = [0 if k == count - 1 else 1 for k in range(count)]
@@ -298,21 +320,185 @@ def table_lines(table: ReportTable, width: int) -> list[str]:
     lines.append(" " * table_width)
     overflow, no_wrap = ["fold"] * count, [False] * count
     for cells in _rows([table.headers], widths, table.justify, overflow, no_wrap, header=True):
-        lines.append(" " + " ".join(cells) + " ")
+        if styles is not None:  # the header's text and its padding, each in bold
+            cells = [
+                (styles.whole(text, HEADER_STYLE), styles.whole(pad, HEADER_STYLE))
+                for text, pad in cells
+            ]
+        lines.append(" " + " ".join(text + pad for text, pad in cells) + " ")
     lines.append(" " + "-".join("-" * w for w in widths) + " ")
     for cells in _rows(table.rows, widths, table.justify, overflow, no_wrap, header=False):
-        lines.append(" " + " ".join(cells) + " ")
+        lines.append(" " + " ".join(text + pad for text, pad in cells) + " ")
     lines.append(" " * table_width)
     return lines
 
 
-def grid_lines(grid: Grid, width: int) -> list[str]:
+def grid_lines(grid: Grid, width: int, styles: Styles | None = None) -> list[str]:
     """The findings' grid: marks, then the texts folded at what is left."""
-    rows = [(mark.plain, body.plain) for mark, body in grid.rows]
-    columns = [[mark for mark, _ in rows], [body for _, body in rows]]
+    columns = [[mark.plain for mark, _ in grid.rows], [body.plain for _, body in grid.rows]]
     widths = _column_widths(columns, [1, 0], [True, False], width, None, 0)
-    drawn = _rows(rows, widths, ["left", "left"], ["ellipsis", "fold"], [True, False], False)
-    return ["".join(cells) for cells in drawn]
+    drawn = _rows(
+        grid.rows, widths, ["left", "left"], ["ellipsis", "fold"], [True, False], False, styles
+    )
+    return ["".join(text + pad for text, pad in cells) for cells in drawn]
+
+
+# ---- styles, as rich writes them on a terminal --------------------------------------------
+
+#: The style rich's default theme gives a table's header ("table.header").
+HEADER_STYLE = "bold"
+#: SGR codes of the styles the report uses (ECMA-48 sec. 8.3.117): attributes, then the
+#: eight standard foreground colours.
+_ATTRIBUTES = {"bold": "1"}
+_COLOURS = {
+    "black": "30",
+    "red": "31",
+    "green": "32",
+    "yellow": "33",
+    "blue": "34",
+    "magenta": "35",
+    "cyan": "36",
+    "white": "37",
+}
+
+StyleSpan = tuple[int, int, str]
+
+
+class Styles:
+    """How styles are written: rich's escape codes (a style's attributes, then its colour;
+    colours left out under ``NO_COLOR``), each run of text between two style boundaries
+    wrapped on its own, as rich writes it."""
+
+    def __init__(self, colour: bool) -> None:
+        self.colour = colour
+        self._codes: dict[tuple[str, ...], str] = {}
+
+    @staticmethod
+    def known(style: str) -> bool:
+        return all(word in _ATTRIBUTES or word in _COLOURS for word in style.split())
+
+    def codes(self, styles: tuple[str, ...]) -> str:
+        """The SGR parameters of styles laid one over the other (the last colour wins)."""
+        found = self._codes.get(styles)
+        if found is None:
+            words = [word for style in styles for word in style.split()]
+            params = [_ATTRIBUTES[a] for a in _ATTRIBUTES if a in words]
+            colours = [_COLOURS[w] for w in words if w in _COLOURS]
+            if colours and self.colour:
+                params.append(colours[-1])
+            found = self._codes[styles] = ";".join(params)
+        return found
+
+    def whole(self, text: str, style: str) -> str:
+        """The text in one style."""
+        return self.render(text, [(0, len(text), style)])
+
+    def render(self, text: str, spans: Sequence[StyleSpan]) -> str:
+        """The text with its spans' styles: a run between any two boundaries of spans in
+        the style of every span over it."""
+        if not spans or not text:
+            return text
+        bounds = sorted({0, len(text), *(s for s, _e, _st in spans), *(e for _s, e, _st in spans)})
+        out = []
+        for start, end in zip(bounds, bounds[1:], strict=False):
+            over = tuple(style for s, e, style in spans if s <= start and end <= e)
+            codes = self.codes(over) if over else ""
+            run = text[start:end]
+            out.append(f"\x1b[{codes}m{run}\x1b[0m" if codes else run)
+        return "".join(out)
+
+
+def _spans_of(line: Line) -> tuple[str, list[StyleSpan]]:
+    """A line's text and its spans' styles (the line's own style is not among them)."""
+    spans = []
+    offset = 0
+    for text, style in line.spans:
+        if style:
+            spans.append((offset, offset + len(text), style))
+        offset += len(text)
+    return line.plain, spans
+
+
+def _clipped(spans: Sequence[StyleSpan], start: int, end: int) -> list[StyleSpan]:
+    """The spans over ``[start, end)``, counted from ``start``."""
+    return [
+        (max(s, start) - start, min(e, end) - start, style)
+        for s, e, style in spans
+        if min(e, end) > max(s, start)
+    ]
+
+
+def _trimmed(spans: Sequence[StyleSpan], length: int) -> list[StyleSpan]:
+    """The spans of a text cut to ``length``."""
+    return [(s, min(e, length), style) for s, e, style in spans if s < length]
+
+
+def wrap_styled(
+    text: str,
+    spans: Sequence[StyleSpan],
+    width: int,
+    justify: str,
+    overflow: str,
+    no_wrap: bool = False,
+) -> list[tuple[str, list[StyleSpan]]]:
+    """`wrap` keeping each line's styles (justified ``left`` or ``default`` only)."""
+    lines = []
+    position = 0
+    for paragraph in text.split("\n"):
+        own = _clipped(spans, position, position + len(paragraph))
+        position += len(paragraph) + 1
+        cuts = [0, len(paragraph)]
+        if not no_wrap:
+            cuts[1:1] = _break_offsets(paragraph, width, overflow == "fold")
+        for start, end in zip(cuts, cuts[1:], strict=False):
+            piece, piece_spans = paragraph[start:end], _clipped(own, start, end)
+            if not no_wrap and len(piece) > width:
+                space = _TRAILING_SPACE.search(piece)
+                if space is not None:
+                    piece = piece[: len(piece) - min(len(space.group(0)), len(piece) - width)]
+                    piece_spans = _trimmed(piece_spans, len(piece))
+            for pad in (True, False) if justify == "left" else (False,):
+                cut = _truncate(piece, width, overflow, pad=pad)
+                if len(piece) > width:  # cut: the spans go with the text cut off
+                    piece_spans = _trimmed(piece_spans, len(cut))
+                piece = cut
+            lines.append((piece, piece_spans))
+    return lines
+
+
+def styled_text(blocks: Sequence[Drawn], width: int, colour: bool) -> str | None:
+    """The blocks as rich prints them on a terminal of ``width`` columns (styles as escape
+    codes; colours only when ``colour``); None when this cannot draw them."""
+    if width < MIN_WIDTH or not drawable(blocks):
+        return None
+    styles = Styles(colour)
+    for block in blocks:
+        lines = [block] if isinstance(block, Line) else []
+        if isinstance(block, Grid):
+            lines = [cell for row in block.rows for cell in row]
+        styled = [line.style for line in lines] + [s for line in lines for _t, s in line.spans]
+        if not all(Styles.known(style) for style in styled):
+            return None
+    out: list[str] = []
+    try:
+        for block in blocks:
+            if isinstance(block, ReportTable):
+                out += table_lines(block, width, styles)
+            elif isinstance(block, Grid):
+                out += grid_lines(block, width, styles)
+            elif block.spans:
+                text, spans = _spans_of(block)
+                if block.style:
+                    spans = [(0, len(text), block.style), *spans]
+                out += [
+                    styles.render(piece, piece_spans)
+                    for piece, piece_spans in wrap_styled(text, spans, width, "default", "fold")
+                ]
+            else:
+                out.append("")
+    except _NotDrawn:
+        return None
+    return "".join(text + "\n" for text in out)
 
 
 def _texts(blocks: Iterable[Drawn]) -> Iterable[str]:

@@ -1,11 +1,12 @@
-"""Where the report's blocks go: plain text wherever nothing would be styled (a pipe, a
-file, ``--output``), drawn by `plain_text` without loading rich; rich on a terminal, which
-takes styles and colours (unless ``NO_COLOR``).
+"""Where the report's blocks go, drawn by `plain_text` without loading rich: plain text
+wherever nothing is styled (a pipe, a file, ``--output``), and on a terminal the same text
+with rich's escape codes for its styles and colours (colours left out under ``NO_COLOR``).
 
-The plain text is the text rich prints there: the same width (``COLUMNS`` when it is a
-number, else the size of the terminal on stdin, stdout or stderr, else 80) and the same
-characters. Whatever may change how rich prints (``FORCE_COLOR``, ``TTY_COMPATIBLE``, a
-notebook, Windows' console) is left to rich itself.
+Either is the text rich prints there: the same width (``COLUMNS`` when it is a number, else
+the size of the terminal on stdin, stdout or stderr, else 80) and the same characters and
+codes (tests/test_plain_text.py). Whatever may change how rich prints (``FORCE_COLOR``,
+``TTY_COMPATIBLE``, a dumb terminal, a notebook, Windows' console), and anything
+`plain_text` does not draw, is left to rich itself (`rich_view`).
 """
 
 from __future__ import annotations
@@ -18,7 +19,7 @@ from collections.abc import Sequence
 from typing import Any
 
 from chainbudget.report.layout import Drawn
-from chainbudget.report.plain_text import plain_text
+from chainbudget.report.plain_text import plain_text, styled_text
 
 #: The width of a report written to a file.
 FILE_WIDTH = 80
@@ -48,19 +49,30 @@ def _is_terminal(stream: Any) -> bool:
         return False
 
 
-def plain_stdout() -> bool:
-    """Whether rich would print on stdout without any style: not a terminal, and nothing
-    that makes rich decide otherwise."""
-    return not (
+def _rich_decides() -> bool:
+    """Settings under which rich's own rules decide how it prints."""
+    return (
         sys.platform == "win32"
         or hasattr(builtins, "get_ipython")
         or any(name in os.environ for name in RICH_DECIDES)
-        or _is_terminal(sys.stdout)
     )
 
 
+def plain_stdout() -> bool:
+    """Whether rich would print on stdout without any style: not a terminal, and nothing
+    that makes rich decide otherwise."""
+    return not (_rich_decides() or _is_terminal(sys.stdout))
+
+
+def styled_stdout() -> bool:
+    """Whether rich would style stdout with the escape codes `styled_text` writes: a
+    terminal that is not dumb, and nothing that makes rich decide otherwise."""
+    dumb = os.environ.get("TERM", "").lower() in ("dumb", "unknown")
+    return not (_rich_decides() or dumb) and _is_terminal(sys.stdout)
+
+
 def shown(blocks: Sequence[Drawn], to_stdout: bool = True) -> str:
-    """The blocks as text to print, or "" once rich has printed them on the terminal; for a
+    """The blocks as text to print on stdout (or "" once rich has printed them there); for a
     file (``to_stdout`` false), plain text 80 columns wide."""
     if not to_stdout:
         text = plain_text(blocks, FILE_WIDTH)
@@ -75,6 +87,10 @@ def shown(blocks: Sequence[Drawn], to_stdout: bool = True) -> str:
         return console.file.getvalue()  # type: ignore[attr-defined]
     if plain_stdout():
         text = plain_text(blocks, console_width())
+        if text is not None:
+            return text
+    elif styled_stdout():
+        text = styled_text(blocks, console_width(), os.environ.get("NO_COLOR", "") == "")
         if text is not None:
             return text
     from rich.console import Console
