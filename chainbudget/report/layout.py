@@ -3,8 +3,9 @@ the findings' grid of a mark beside a wrapped text.
 
 Plain data without any drawing library: the areas of the report build these, so that the
 JSON and TOML views (which share the areas' modules) never load rich. `plain_text` draws
-them as plain text (a pipe, a file), `rich_view` hands them to rich (a colour terminal),
-`html_view` writes the tables as HTML.
+them as rich would (plain on a pipe or in a file, with escape codes on a terminal),
+`rich_view` hands them to rich (whatever `plain_text` leaves), `html_view` writes the tables
+as HTML.
 """
 
 from __future__ import annotations

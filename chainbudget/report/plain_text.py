@@ -1,10 +1,12 @@
-"""The report's blocks (`layout`) drawn as plain text, without rich.
+"""The report's blocks (`layout`) drawn as rich draws them, without rich.
 
-A pipe or a file gets the same characters rich gave them (tests/test_plain_text.py holds
-the two equal on every example at several widths), in a fraction of the time: this draws
-only what the report uses, text of single-width characters, where rich's general layout
-measures every cell of every table through its renderable protocol several times and loads
-some forty modules first. It follows rich's rules (rich 13-15; MIT licence):
+A pipe or a file gets the same characters rich gave them (`plain_text`), a terminal the same
+with rich's escape codes for the styles (`styled_text`); tests/test_plain_text.py holds each
+equal to rich on every example at several widths and on random blocks (so a rich that
+draws differently shows there). This takes a fraction of rich's time: it draws only what
+the report uses, text of single-width characters, where rich's general layout measures
+every cell of every table through its renderable protocol several times and loads some
+forty modules first. It follows rich's rules (as rich 15 draws; rich is MIT-licensed):
 
 * a line of text wraps at word boundaries (a word keeps the spaces after it; a word wider
   than the line is folded), keeping the spaces at a break unless they pass the width;
@@ -15,10 +17,13 @@ some forty modules first. It follows rich's rules (rich 13-15; MIT licence):
 * a cell is padded one space on its right except in the last column; the table has an
   edge of one space each side, two spaces between columns and a rule of ``-`` under the
   header; headers sit at the bottom of their row, cells at the top; a table's title wraps
-  at the table's width, filled with spaces to it.
+  at the table's width, filled with spaces to it;
+* on a terminal, each run of text between two boundaries of styles is written in its own
+  escape codes (ECMA-48 SGR: bold, then the colour), a table's headers in bold.
 
-`plain_text` returns None for what it does not draw (a character that is not printable
-ASCII, a width under `MIN_WIDTH`), which rich then draws instead.
+Both return None for what they do not draw (a character that is not printable ASCII, a
+width under `MIN_WIDTH`, a style other than bold and the standard colours), which rich then
+draws instead.
 """
 
 from __future__ import annotations

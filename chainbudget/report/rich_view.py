@@ -1,8 +1,8 @@
-"""The report's blocks (`layout`) as rich renderables: what a colour terminal is shown.
+"""The report's blocks (`layout`) as rich renderables, the reference `plain_text` is held to.
 
 Every title and cell is handed to rich as a `rich.text.Text`, never as markup (the chain
-file's names could hold ``[...]``). Imported only where rich draws: a terminal that takes
-styles, or text `plain_text` cannot draw (see `terminal`).
+file's names could hold ``[...]``). Imported only where rich draws: what `plain_text` does
+not (see `terminal`), and the tests.
 """
 
 from __future__ import annotations

@@ -19,8 +19,9 @@ drift of the machine falls on all of them alike:
   folder, run with the same Python and libraries; each commit's own copy of the example):
   main at f828a9c (the tree this work started from) and the last main commit before the
   supplies work was merged (d05204f^1);
-* report: ``check`` of the largest example as a table on a pipe and as JSON, on this tree
-  and on the tree before the report was drawn without rich (8d6eb65), against the floor.
+* report: ``check`` of the largest example as a table on a pipe, as JSON and as a table in
+  a pseudo-terminal (in colour), on this tree and on the tree before the report was drawn
+  without rich (8d6eb65), against the floor.
 
 For pots, stages and points a second ratio is of the work alone, without the start-up: the
 median of five budgets of the chain worked out in one process (``--compute FILE`` runs
@@ -63,8 +64,33 @@ BEFORE = {"main at f828a9c": "f828a9c", "before the supplies work (d05204f^1)": 
 REPORT_BEFORE = "8d6eb65"
 
 
+#: Marks a command run with a pseudo-terminal as its stdin, stdout and stderr (a designer's
+#: terminal; POSIX), its output read and dropped.
+IN_TERMINAL = "<in a terminal>"
+
+
+def _run_in_terminal(args: list[str]) -> tuple[float, float]:
+    import pty
+
+    leader, follower = pty.openpty()
+    start = time.perf_counter()
+    child = subprocess.Popen(args, stdin=follower, stdout=follower, stderr=follower)
+    os.close(follower)
+    while True:
+        try:
+            if not os.read(leader, 65536):
+                break
+        except OSError:  # the child closed its end
+            break
+    _pid, _status, usage = os.wait4(child.pid, 0)
+    os.close(leader)
+    return time.perf_counter() - start, usage.ru_maxrss / 1024.0
+
+
 def _run(args: list[str]) -> tuple[float, float]:
     """Wall time (s) and peak resident memory (MB) of one command."""
+    if args[0] == IN_TERMINAL:
+        return _run_in_terminal(args[1:])
     start = time.perf_counter()
     child = subprocess.Popen(args, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
     _pid, _status, usage = os.wait4(child.pid, 0)
@@ -373,20 +399,21 @@ def before(rounds: int, folder: Path) -> None:
 
 
 def report_views(rounds: int, folder: Path) -> None:
-    """The table (on a pipe: stdout is /dev/null) and the JSON of the largest example, on
-    this tree and on the tree before the report's plain-text drawing (REPORT_BEFORE), all
-    alternating with the floor."""
+    """The table (on a pipe: stdout is /dev/null; and in a pseudo-terminal, in colour) and
+    the JSON of the largest example, on this tree and on the tree before the report was
+    drawn without rich (REPORT_BEFORE), all alternating with the floor."""
     tree = _tree(REPORT_BEFORE, folder)
     chain = str(tree / "chains" / LARGEST.name)
     floor = "floor: import numpy, pint; registry"
     commands: dict[str, list[str]] = {floor: FLOOR}
-    for view, extra in (("table", []), ("json", ["--format", "json"])):
+    views = (("table", [], []), ("json", ["--format", "json"], []), ("terminal", [], [IN_TERMINAL]))
+    for view, extra, where in views:
         here = [PYTHON, "-m", "chainbudget", "check", str(LARGEST), *extra]
-        commands[f"{view}: this tree"] = here
-        commands[f"{view}: {REPORT_BEFORE}"] = _earlier(tree, ["check", chain, *extra])
+        commands[f"{view}: this tree"] = [*where, *here]
+        commands[f"{view}: {REPORT_BEFORE}"] = [*where, *_earlier(tree, ["check", chain, *extra])]
     found = measure(commands, rounds)
     report(f"Check of {LARGEST.name} by view", found, floor)
-    for view in ("table", "json"):
+    for view, _extra, _where in views:
         ratio = found[f"{view}: this tree"][0] / found[f"{view}: {REPORT_BEFORE}"][0]
         print(f"  {view}: this tree / {REPORT_BEFORE}: {ratio:5.2f}x")
 
