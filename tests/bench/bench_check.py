@@ -40,6 +40,7 @@ import compileall
 import io
 import os
 import platform
+import resource
 import statistics
 import subprocess
 import sys
@@ -69,7 +70,7 @@ REPORT_BEFORE = "8d6eb65"
 IN_TERMINAL = "<in a terminal>"
 
 
-def _run_in_terminal(args: list[str]) -> tuple[float, float]:
+def _run_in_terminal(args: list[str]) -> tuple[float, float, float]:
     import pty
 
     leader, follower = pty.openpty()
@@ -84,30 +85,43 @@ def _run_in_terminal(args: list[str]) -> tuple[float, float]:
             break
     _pid, _status, usage = os.wait4(child.pid, 0)
     os.close(leader)
-    return time.perf_counter() - start, usage.ru_maxrss / 1024.0
+    return _usage(start, usage)
 
 
-def _run(args: list[str]) -> tuple[float, float]:
-    """Wall time (s) and peak resident memory (MB) of one command."""
+def _usage(start: float, usage: resource.struct_rusage) -> tuple[float, float, float]:
+    """Wall time (s), peak resident memory (MB) and CPU time (s, user and system)."""
+    return time.perf_counter() - start, usage.ru_maxrss / 1024.0, usage.ru_utime + usage.ru_stime
+
+
+def _run(args: list[str]) -> tuple[float, float, float]:
+    """Wall time (s), peak resident memory (MB) and CPU time (s) of one command."""
     if args[0] == IN_TERMINAL:
         return _run_in_terminal(args[1:])
     start = time.perf_counter()
     child = subprocess.Popen(args, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
     _pid, _status, usage = os.wait4(child.pid, 0)
-    return time.perf_counter() - start, usage.ru_maxrss / 1024.0
+    return _usage(start, usage)
 
 
-def measure(commands: dict[str, list[str]], rounds: int) -> dict[str, tuple[float, float]]:
-    """Median time and peak memory of each command, the commands alternating each round."""
+def measure(
+    commands: dict[str, list[str]], rounds: int, cpu: dict[str, float] | None = None
+) -> dict[str, tuple[float, float]]:
+    """Median time and peak memory of each command, the commands alternating each round;
+    each one's median CPU time (user and system, less sensitive to other jobs on the
+    machine than the wall time) into ``cpu`` when given."""
     times: dict[str, list[float]] = {name: [] for name in commands}
     peaks: dict[str, float] = dict.fromkeys(commands, 0.0)
+    spents: dict[str, list[float]] = {name: [] for name in commands}
     for args in commands.values():  # one warm-up each (caches, bytecode)
         _run(args)
     for _ in range(rounds):
         for name, args in commands.items():
-            took, peak = _run(args)
+            took, peak, spent = _run(args)
             times[name].append(took)
+            spents[name].append(spent)
             peaks[name] = max(peaks[name], peak)
+    if cpu is not None:
+        cpu.update({name: statistics.median(spents[name]) for name in commands})
     return {name: (statistics.median(times[name]), peaks[name]) for name in commands}
 
 
@@ -406,16 +420,25 @@ def report_views(rounds: int, folder: Path) -> None:
     chain = str(tree / "chains" / LARGEST.name)
     floor = "floor: import numpy, pint; registry"
     commands: dict[str, list[str]] = {floor: FLOOR}
-    views = (("table", [], []), ("json", ["--format", "json"], []), ("terminal", [], [IN_TERMINAL]))
+    views: tuple[tuple[str, list[str], list[str]], ...] = (
+        ("table", [], []),
+        ("json", ["--format", "json"], []),
+        ("terminal", [], [IN_TERMINAL]),
+    )
     for view, extra, where in views:
         here = [PYTHON, "-m", "chainbudget", "check", str(LARGEST), *extra]
         commands[f"{view}: this tree"] = [*where, *here]
         commands[f"{view}: {REPORT_BEFORE}"] = [*where, *_earlier(tree, ["check", chain, *extra])]
-    found = measure(commands, rounds)
+    cpu: dict[str, float] = {}
+    found = measure(commands, rounds, cpu)
     report(f"Check of {LARGEST.name} by view", found, floor)
+    print("  CPU time (user and system), ratio to the floor's:")
+    for name, spent in cpu.items():
+        print(f"  {name:34s} {spent / cpu[floor]:6.2f}x   {spent * 1e3:8.0f} ms")
     for view, _extra, _where in views:
-        ratio = found[f"{view}: this tree"][0] / found[f"{view}: {REPORT_BEFORE}"][0]
-        print(f"  {view}: this tree / {REPORT_BEFORE}: {ratio:5.2f}x")
+        ours, theirs = f"{view}: this tree", f"{view}: {REPORT_BEFORE}"
+        ratio, cpu_ratio = found[ours][0] / found[theirs][0], cpu[ours] / cpu[theirs]
+        print(f"  {view}: this tree / {REPORT_BEFORE}: {ratio:5.2f}x (CPU time {cpu_ratio:5.2f}x)")
 
 
 SECTIONS: dict[str, Callable[[int, Path], None]] = {
