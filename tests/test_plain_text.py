@@ -152,7 +152,7 @@ def _grids(draw: st.DrawFn) -> Grid:
 _BLOCKS = st.lists(st.one_of(_tables(), _grids(), _LINES, st.just(BLANK)), min_size=1, max_size=4)
 
 
-@settings(max_examples=400)
+@settings(max_examples=250)
 @given(blocks=_BLOCKS, width=st.integers(20, 200))
 def test_any_blocks_are_drawn_as_rich_draws_them(blocks: list[Drawn], width: int) -> None:
     """Column widths (collapsed, reduced, spread out to the title), wrapping, folding,
@@ -162,7 +162,7 @@ def test_any_blocks_are_drawn_as_rich_draws_them(blocks: list[Drawn], width: int
         assert text == rich_text(blocks, width)
 
 
-@settings(max_examples=300)
+@settings(max_examples=200)
 @given(blocks=_BLOCKS, width=st.integers(20, 200), colour=st.booleans())
 def test_any_styled_blocks_are_written_as_rich_writes_them(
     blocks: list[Drawn], width: int, colour: bool
