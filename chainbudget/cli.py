@@ -178,9 +178,9 @@ def check(
 def _report_text(
     budget: Budget, output_format: str, noise_detail: bool, brief: bool, to_stdout: bool
 ) -> str:
-    """The table, JSON or TOML report as text (the table printed straight to a terminal,
-    where it keeps its colours, when ``to_stdout``; plain text anywhere else, rich not
-    loaded)."""
+    """The table, JSON or TOML report as text (the table with a terminal's styles when
+    ``to_stdout``, drawn without rich; "" where rich printed it itself,
+    chainbudget/report/terminal.py)."""
     found = list(budget.findings)
     if output_format == "table":
         from chainbudget.report.table_view import report_blocks
