@@ -75,7 +75,7 @@ def test_check_does_load_the_analysis() -> None:
     assert not {m for m in loaded if m.startswith(heavy)}
 
 
-def _modules_after(args: list[str], prefix: str) -> set[str]:
+def _modules_after(args: list[str], prefix: str, env: dict[str, str] | None = None) -> set[str]:
     """Run the command in a fresh interpreter and list the loaded modules under ``prefix``."""
     code = (
         "import sys\n"
@@ -86,7 +86,9 @@ def _modules_after(args: list[str], prefix: str) -> set[str]:
         "    pass\n"
         f"print(sorted(m for m in sys.modules if m.startswith({prefix!r})))\n"
     )
-    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    done = subprocess.run(
+        [sys.executable, "-c", code], capture_output=True, text=True, check=True, env=env
+    )
     return set(eval(done.stdout.strip().splitlines()[-1]))
 
 
@@ -100,7 +102,9 @@ def test_a_check_that_prints_no_styles_loads_no_rich(args: list[str]) -> None:
     data (chainbudget/report/layout.py); a table on a pipe is drawn by
     chainbudget/report/plain_text.py. rich loads only for a terminal (tests/test_plain_text.py
     holds the two drawings equal)."""
-    loaded = _modules_after(["check", str(BUSKING), *args], "rich")
+    # settings that hand the choice of styles to rich itself are not set here
+    env = {k: v for k, v in os.environ.items() if k not in ("FORCE_COLOR", "TTY_COMPATIBLE")}
+    loaded = _modules_after(["check", str(BUSKING), *args], "rich", env)
     assert loaded == set()
 
 
