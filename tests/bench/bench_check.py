@@ -21,7 +21,8 @@ drift of the machine falls on all of them alike:
   supplies work was merged (d05204f^1);
 * report: ``check`` of the largest example as a table on a pipe, as JSON and as a table in
   a pseudo-terminal (in colour), on this tree and on the tree before the report was drawn
-  without rich (8d6eb65), against the floor.
+  without rich (8d6eb65), against the floor; then the report alone (the import of the
+  report stack and the drawing, timed inside a fresh process once the budget is made).
 
 For pots, stages and points a second ratio is of the work alone, without the start-up: the
 median of five budgets of the chain worked out in one process (``--compute FILE`` runs
@@ -370,9 +371,10 @@ def _tree(commit: str, folder: Path) -> Path:
     return target
 
 
-def _earlier(tree: Path, args: list[str]) -> list[str]:
-    """The command ``chainbudget ARGS`` run from an earlier tree written out by `_tree`."""
-    # The earlier tree first on the path, and not this one's editable install's finder.
+def _launch(tree: Path) -> str:
+    """Python statements that make the interpreter import chainbudget from an earlier tree
+    written out by `_tree` (first on the path, and not this one's editable install's
+    finder)."""
     launch = (
         "import sys; "
         "sys.meta_path[:] = [f for f in sys.meta_path if 'editable' not in "
@@ -386,10 +388,15 @@ def _earlier(tree: Path, args: list[str]) -> list[str]:
         check=True,
     ).stdout.strip()
     assert where.startswith(str(tree)), where  # the earlier tree, not this one
+    return launch
+
+
+def _earlier(tree: Path, args: list[str]) -> list[str]:
+    """The command ``chainbudget ARGS`` run from an earlier tree written out by `_tree`."""
     return [
         PYTHON,
         "-c",
-        launch + "from chainbudget.cli import main; sys.argv[0] = 'chainbudget'; main()",
+        _launch(tree) + "from chainbudget.cli import main; sys.argv[0] = 'chainbudget'; main()",
         *args,
     ]
 
@@ -439,6 +446,46 @@ def report_views(rounds: int, folder: Path) -> None:
         ours, theirs = f"{view}: this tree", f"{view}: {REPORT_BEFORE}"
         ratio, cpu_ratio = found[ours][0] / found[theirs][0], cpu[ours] / cpu[theirs]
         print(f"  {view}: this tree / {REPORT_BEFORE}: {ratio:5.2f}x (CPU time {cpu_ratio:5.2f}x)")
+    report_alone(rounds, tree)
+
+
+# The report alone, in a fresh process once the budget is worked out: the command's own
+# ``_report_text`` (the import of the report stack, the drawing, the writing to stdout).
+REPORT_ALONE = (
+    "import sys, time\n"
+    "from chainbudget.budget import compute\n"
+    "from chainbudget.chainfile import load_chain\n"
+    "from chainbudget import cli\n"
+    "budget = compute(load_chain(sys.argv[1]))\n"
+    "start = time.perf_counter()\n"
+    "sys.stdout.write(cli._report_text(budget, sys.argv[2], False, False, True))\n"
+    "sys.stdout.flush()\n"
+    "sys.stderr.write(repr(time.perf_counter() - start))\n"
+)
+
+
+def report_alone(rounds: int, tree: Path) -> None:
+    """The report's own time (table on a pipe, JSON) on this tree and on ``tree``, the
+    processes alternating."""
+    launch = _launch(tree)
+    runs = {
+        f"{view} alone: {where}": [PYTHON, "-c", code, str(path), view]
+        for view in ("table", "json")
+        for where, code, path in (
+            ("this tree", "import sys\n" + REPORT_ALONE, LARGEST),
+            (REPORT_BEFORE, launch + "\n" + REPORT_ALONE, tree / "chains" / LARGEST.name),
+        )
+    }
+    times: dict[str, list[float]] = {name: [] for name in runs}
+    for _ in range(rounds):
+        for name, args in runs.items():
+            done = subprocess.run(
+                args, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True, check=True
+            )
+            times[name].append(float(done.stderr.strip().splitlines()[-1]))
+    print("\n  The report alone, after the budget (median of the rounds):")
+    for name, found in times.items():
+        print(f"  {name:34s} {statistics.median(found) * 1e3:8.1f} ms")
 
 
 SECTIONS: dict[str, Callable[[int, Path], None]] = {
