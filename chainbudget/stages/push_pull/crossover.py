@@ -36,13 +36,19 @@ from chainbudget.stages.push_pull.halves import halves
 SAMPLES = 512
 #: Harmonics reported, 2 to this one (the contract's "at least 20").
 HARMONICS = 20
-#: Newton steps (each kept inside a shrinking bracket) of the output per sample, at most;
-#: they stop when no sample moves by more than `CONVERGED` of the drive's peak.
+#: Newton steps (each kept inside a shrinking bracket) of the output per sample, at most.
+#: They stop once every sample's step is within `ROUNDING_ULPS` units in the last place of
+#: the drive's peak (the float's rounding: quadratic convergence reaches it in a handful),
+#: or once the largest step, already under `SETTLED` of the peak, no longer halves (what is
+#: left is the rounding of the currents, which no further step removes).
 NEWTON_STEPS = 40
-CONVERGED = 1e-13
+ROUNDING_ULPS = 8.0
+SETTLED = 1e-10
 #: Drive-amplitude corrections so that the fundamental at the load is the level asked for,
-#: at most (they stop within `CONVERGED` of it).
+#: at most. They stop once every level is within `LEVEL_TOLERANCE` of it (relative), or once
+#: the largest miss no longer shrinks (the rounding of the solve and the transform).
 LEVEL_STEPS = 12
+LEVEL_TOLERANCE = 1e-12
 #: Harmonics below this (dB re the fundamental) are rounding, not distortion: the even ones
 #: of a symmetric pair. They are reported as none (null in the JSON).
 HARMONIC_FLOOR_DB = -200.0
@@ -158,8 +164,10 @@ def static_output(
     lo, hi = np.minimum(v, 0.0), np.maximum(v, 0.0)
     out = v * r_load / (r_load + 0.5 * (upper.r_ohm + lower.r_ohm))
     scale = float(np.max(np.abs(v), initial=0.0))
+    rounding = ROUNDING_ULPS * float(np.spacing(scale))
     i_u: NDArray[np.float64] | None = None
     i_l: NDArray[np.float64] | None = None
+    last = np.inf
     for _ in range(NEWTON_STEPS):
         # Each step's currents start the next step's root finding (they move less each time).
         i_u = upper.current(v - out, v_t, i_u)
@@ -169,11 +177,15 @@ def static_output(
         hi = np.where(g > 0.0, hi, out)
         slope = upper.slope(i_u, v_t) + lower.slope(i_l, v_t) + 1.0 / r_load
         step = out + g / slope
-        moved = np.where((step > lo) & (step < hi), step, 0.5 * (lo + hi))
-        done = bool(np.all(np.abs(moved - out) <= CONVERGED * scale))
+        # A step may land on the bracket's end (a step of the rounding, with g's sign from
+        # the rounding too): that is converged, not a cue to bisect.
+        inside = (step >= lo) & (step <= hi)
+        moved = np.where(inside, step, 0.5 * (lo + hi))
+        largest = float(np.max(np.abs(moved - out), initial=0.0))
         out = moved
-        if done:
+        if largest <= rounding or (last <= SETTLED * scale and largest > 0.5 * last):
             break
+        last = largest
     return np.asarray(out)
 
 
@@ -207,8 +219,10 @@ def harmonics(
     Notes
     -----
     One cycle of a sine drive, `SAMPLES` points, through `static_output`; harmonics by the
-    discrete Fourier transform (amplitude 2|X_n|/N). The drive amplitude is corrected
-    `LEVEL_STEPS` times by the ratio of the fundamental asked for to the one obtained. THD
+    discrete Fourier transform (amplitude 2|X_n|/N). The drive amplitude is corrected until
+    the fundamental is the level asked for to `LEVEL_TOLERANCE` (or no longer comes closer):
+    first by the ratio of the fundamental asked for to the one obtained, then by the secant
+    through the last two drives (`_next_drive`), at most `LEVEL_STEPS` times. THD
     = sqrt(sum_{n=2..20} H_n^2)/H_1 (IEC 60268-3's definition over the harmonics, from
     memory). Inside a loop each harmonic is divided by |1 + T(n f)| (the distortion an
     output stage generates, reduced by the loop's return difference at its frequency).
@@ -217,14 +231,26 @@ def harmonics(
     phase = 2.0 * np.pi * np.arange(SAMPLES) / SAMPLES
     drive = target.copy()
     spectrum = np.zeros((target.size, SAMPLES // 2 + 1), complex)
+    missed = np.inf
+    before: tuple[NDArray[np.float64], NDArray[np.float64]] | None = None
     for _ in range(LEVEL_STEPS):
         out = static_output(drive[:, None] * np.sin(phase), upper, lower, r_load, v_t)
-        spectrum = np.fft.rfft(out, axis=-1) * 2.0 / SAMPLES
-        fundamental = np.abs(spectrum[:, 1])
+        found = np.fft.rfft(out, axis=-1) * 2.0 / SAMPLES
+        fundamental = np.abs(found[:, 1])
         ratio = np.where(fundamental > 0.0, target / fundamental, 1.0)
-        if np.all(np.abs(ratio - 1.0) <= CONVERGED):
+        miss = float(np.max(np.abs(ratio - 1.0), initial=0.0))
+        if miss >= missed:  # the rounding: the last drive's spectrum is as good
             break
-        drive = drive * ratio
+        spectrum, missed = found, miss
+        if miss <= LEVEL_TOLERANCE:
+            break
+        drive, before = (
+            _next_drive(drive, fundamental, target, ratio, before),
+            (
+                drive,
+                fundamental,
+            ),
+        )
     amplitude = np.abs(spectrum[:, 1 : HARMONICS + 1])
     factor = np.ones(HARMONICS) if loop_factor is None else np.asarray(loop_factor, float)
     # The fundamental stays the level asked for (the loop supplies the drive for it); each
@@ -253,6 +279,28 @@ def harmonics(
         )
         for i in range(target.size)
     ]
+
+
+def _next_drive(
+    drive: NDArray[np.float64],
+    fundamental: NDArray[np.float64],
+    target: NDArray[np.float64],
+    ratio: NDArray[np.float64],
+    before: tuple[NDArray[np.float64], NDArray[np.float64]] | None,
+) -> NDArray[np.float64]:
+    """The next drive amplitude: the secant through the last two (drive, fundamental)
+    pairs where there are two and they differ, else the drive scaled by the ratio of the
+    fundamental asked for to the one obtained (the transfer is near proportional)."""
+    scaled = drive * ratio
+    if before is None:
+        return scaled
+    last_drive, last_fundamental = before
+    rise = fundamental - last_fundamental
+    run = drive - last_drive
+    with np.errstate(divide="ignore", invalid="ignore"):
+        secant = drive + (target - fundamental) * run / rise
+    usable = (rise != 0.0) & np.isfinite(secant) & (secant > 0.0)
+    return np.asarray(np.where(usable, secant, scaled))
 
 
 @dataclass(frozen=True)
