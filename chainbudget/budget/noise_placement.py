@@ -20,7 +20,7 @@ from chainbudget.budget.segments import map_section
 from chainbudget.cascade import Cascade, Injection, SectionSolution, cascade
 from chainbudget.chainfile import Chain
 from chainbudget.loops import Section, sections
-from chainbudget.network import TwoPort
+from chainbudget.network import Complex, TwoPort
 from chainbudget.stages import KINDS
 
 # A stage with more voltage gain than this at the reference is a gain stage (a factor of 2;
@@ -118,9 +118,14 @@ def _as_set_sections(analysis: Analysis) -> list[SectionSolution] | None:
     section sweeps nothing). None when the analysis holds no grids."""
     if len(analysis.grids) != len(sections(analysis.chain.stages)):
         return None
-    return [
-        map_section([grid.solution], lambda x, c=grid.set_combo: x[0][c]) for grid in analysis.grids
-    ]
+    found = []
+    for grid in analysis.grids:
+
+        def at_setting(arrays: list[Complex], combo: int = grid.set_combo) -> Complex:
+            return arrays[0][combo]
+
+        found.append(map_section([grid.solution], at_setting))
+    return found
 
 
 def _renumbered(solution: SectionSolution, first: int) -> SectionSolution:
