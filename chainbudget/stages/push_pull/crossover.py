@@ -21,7 +21,7 @@ op-amp or a follower: its output impedance over the devices' current gain is mil
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Any
+from typing import Any, cast
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -69,13 +69,22 @@ class HalfLaw:
         self, y: NDArray[np.float64], v_t: float, near: NDArray[np.float64] | None = None
     ) -> NDArray[np.float64]:
         """I = u^-1(y), A (the module's notes); ``near``, currents close to the answer (the
-        last step of an iteration), start the root finding there."""
+        last step of an iteration), start the root finding there. ``r_ohm`` and ``i_q`` may
+        be arrays broadcasting against ``y`` (the spread's trials), R = 0 in some of them."""
         a = self.junctions * v_t
-        if self.r_ohm <= 0.0:
+        r = np.asarray(self.r_ohm, dtype=float)
+        if not np.any(r > 0.0):
             return np.asarray(self.i_q * np.exp(np.minimum(y / a, 700.0)))
-        x = np.log(self.r_ohm * self.i_q / a) + (y + self.i_q * self.r_ohm) / a
-        start = None if near is None else near * (self.r_ohm / a)
-        return np.asarray(a / self.r_ohm * _w_of_exp(x, start))
+        resistive = np.all(r > 0.0)
+        if not resistive:
+            r = np.where(r > 0.0, r, 1.0)  # those trials take the exponential below
+        x = np.log(r * self.i_q / a) + (y + self.i_q * r) / a
+        start = None if near is None else near * (r / a)
+        found = np.asarray(a / r * _w_of_exp(x, start))
+        if resistive:
+            return found
+        exponential = self.i_q * np.exp(np.minimum(y / a, 700.0))
+        return np.asarray(np.where(np.asarray(self.r_ohm) > 0.0, found, exponential))
 
     def slope(self, current: NDArray[np.float64], v_t: float) -> NDArray[np.float64]:
         """dI/dy = 1/u'(I), S."""
@@ -202,6 +211,78 @@ class Distortion:
     harmonics_db: tuple[float, ...]
 
 
+def _on_samples(law: HalfLaw) -> HalfLaw:
+    """A law whose arrays (one value per trial) take one more axis, the samples'."""
+
+    def trailing(value: float) -> float:
+        return value if np.ndim(value) == 0 else cast(float, np.asarray(value)[..., None])
+
+    return HalfLaw(law.junctions, trailing(law.r_ohm), trailing(law.i_q))
+
+
+def harmonic_amplitudes(
+    levels_vpk: ArrayLike, upper: HalfLaw, lower: HalfLaw, r_load: float, v_t: float
+) -> NDArray[np.float64]:
+    """Peak amplitudes of harmonics 1 to `HARMONICS` at the load (V) of the static transfer
+    driven so that the fundamental is ``levels_vpk`` (any shape; the result has one more
+    axis, the harmonics). The laws' ``r_ohm`` and ``i_q`` may be arrays broadcasting
+    against the levels' shape (the spread's trials): every level of every trial is solved
+    in the same array operations.
+
+    Notes
+    -----
+    One cycle of a sine drive, `SAMPLES` points, through `static_output`; harmonics by the
+    discrete Fourier transform (amplitude 2|X_n|/N). The drive amplitude is corrected until
+    the fundamental is the level asked for to `LEVEL_TOLERANCE` (or no longer comes closer):
+    first by the ratio of the fundamental asked for to the one obtained, then by the secant
+    through the last two drives (`_next_drive`), at most `LEVEL_STEPS` times.
+    """
+    target = np.asarray(levels_vpk, dtype=float)
+    up, lo = _on_samples(upper), _on_samples(lower)
+    phase = 2.0 * np.pi * np.arange(SAMPLES) / SAMPLES
+    drive = target.copy()
+    spectrum = np.zeros((*target.shape, SAMPLES // 2 + 1), complex)
+    missed = np.inf
+    before: tuple[NDArray[np.float64], NDArray[np.float64]] | None = None
+    for _ in range(LEVEL_STEPS):
+        out = static_output(drive[..., None] * np.sin(phase), up, lo, r_load, v_t)
+        found = np.fft.rfft(out, axis=-1) * 2.0 / SAMPLES
+        fundamental = np.abs(found[..., 1])
+        ratio = np.where(fundamental > 0.0, target / fundamental, 1.0)
+        miss = float(np.max(np.abs(ratio - 1.0), initial=0.0))
+        if miss >= missed:  # the rounding: the last drive's spectrum is as good
+            break
+        spectrum, missed = found, miss
+        if miss <= LEVEL_TOLERANCE:
+            break
+        drive, before = _next_drive(drive, fundamental, target, ratio, before), (drive, fundamental)
+    return np.asarray(np.abs(spectrum[..., 1 : HARMONICS + 1]))
+
+
+def closed_loop(
+    amplitude: NDArray[np.float64], loop_factor: ArrayLike | None
+) -> NDArray[np.float64]:
+    """Harmonic amplitudes (last axis 1 to `HARMONICS`) inside a loop of return difference
+    ``loop_factor`` = |1 + T(n f)| (last axis n = 1..`HARMONICS`, broadcasting; None: open
+    loop). The fundamental stays the level asked for (the loop supplies the drive for it);
+    each harmonic the pair generates is divided by the loop's return difference at its own
+    frequency."""
+    if loop_factor is None:
+        return amplitude
+    factor = np.asarray(loop_factor, dtype=float)
+    closed = np.array(
+        np.broadcast_to(amplitude, np.broadcast_shapes(amplitude.shape, factor.shape))
+    )
+    closed[..., 1:] = closed[..., 1:] / factor[..., 1:]
+    return closed
+
+
+def thd_of(amplitude: NDArray[np.float64]) -> NDArray[np.float64]:
+    """THD = sqrt(sum_{n=2..20} H_n^2)/H_1 over the last axis (harmonics 1 to `HARMONICS`),
+    a fraction (IEC 60268-3's definition over the harmonics, from memory)."""
+    return np.asarray(np.sqrt(np.sum(amplitude[..., 1:] ** 2, axis=-1)) / amplitude[..., 0])
+
+
 def harmonics(
     levels_vpk: ArrayLike,
     upper: HalfLaw,
@@ -218,56 +299,20 @@ def harmonics(
 
     Notes
     -----
-    One cycle of a sine drive, `SAMPLES` points, through `static_output`; harmonics by the
-    discrete Fourier transform (amplitude 2|X_n|/N). The drive amplitude is corrected until
-    the fundamental is the level asked for to `LEVEL_TOLERANCE` (or no longer comes closer):
-    first by the ratio of the fundamental asked for to the one obtained, then by the secant
-    through the last two drives (`_next_drive`), at most `LEVEL_STEPS` times. THD
-    = sqrt(sum_{n=2..20} H_n^2)/H_1 (IEC 60268-3's definition over the harmonics, from
-    memory). Inside a loop each harmonic is divided by |1 + T(n f)| (the distortion an
-    output stage generates, reduced by the loop's return difference at its frequency).
+    The harmonics of `harmonic_amplitudes`, THD by `thd_of`. Inside a loop each harmonic
+    is divided by |1 + T(n f)| (`closed_loop`: the distortion an output stage generates,
+    reduced by the loop's return difference at its frequency).
     """
     target = np.atleast_1d(np.asarray(levels_vpk, dtype=float))
-    phase = 2.0 * np.pi * np.arange(SAMPLES) / SAMPLES
-    drive = target.copy()
-    spectrum = np.zeros((target.size, SAMPLES // 2 + 1), complex)
-    missed = np.inf
-    before: tuple[NDArray[np.float64], NDArray[np.float64]] | None = None
-    for _ in range(LEVEL_STEPS):
-        out = static_output(drive[:, None] * np.sin(phase), upper, lower, r_load, v_t)
-        found = np.fft.rfft(out, axis=-1) * 2.0 / SAMPLES
-        fundamental = np.abs(found[:, 1])
-        ratio = np.where(fundamental > 0.0, target / fundamental, 1.0)
-        miss = float(np.max(np.abs(ratio - 1.0), initial=0.0))
-        if miss >= missed:  # the rounding: the last drive's spectrum is as good
-            break
-        spectrum, missed = found, miss
-        if miss <= LEVEL_TOLERANCE:
-            break
-        drive, before = (
-            _next_drive(drive, fundamental, target, ratio, before),
-            (
-                drive,
-                fundamental,
-            ),
-        )
-    amplitude = np.abs(spectrum[:, 1 : HARMONICS + 1])
-    factor = np.ones(HARMONICS) if loop_factor is None else np.asarray(loop_factor, float)
-    # The fundamental stays the level asked for (the loop supplies the drive for it); each
-    # harmonic the pair generates is divided by the loop's return difference at its own
-    # frequency.
-    closed = amplitude.copy()
-    closed[:, 1:] = amplitude[:, 1:] / factor[1:]
-
-    def thd(h: NDArray[np.float64]) -> NDArray[np.float64]:
-        return np.asarray(np.sqrt(np.sum(h[:, 1:] ** 2, axis=1)) / h[:, 0])
+    amplitude = harmonic_amplitudes(target, upper, lower, r_load, v_t)
+    closed = closed_loop(amplitude, loop_factor)
 
     def db(h: NDArray[np.float64]) -> NDArray[np.float64]:
         with np.errstate(divide="ignore"):
             found = 20.0 * np.log10(h[:, 1:] / h[:, :1])
         return np.asarray(np.where(found < HARMONIC_FLOOR_DB, -np.inf, found))
 
-    open_thd, closed_thd = thd(amplitude), thd(closed)
+    open_thd, closed_thd = thd_of(amplitude), thd_of(closed)
     open_db, closed_db = db(amplitude), db(closed)
     return [
         Distortion(
