@@ -127,9 +127,12 @@ def _w_of_exp(
         step /= e
         u = u - step
         np.minimum(u, cap, out=u)
+        # Newton's next error is at most half this step squared (g''/2g' = e^u/(2(e^u + 1))
+        # < 1/2): once that is within the rounding, u is the root to the float's precision.
         bound = np.abs(u)
         np.maximum(bound, 1.0, out=bound)
-        bound *= _W_TOLERANCE
+        bound *= 2.0 * _W_TOLERANCE
+        np.sqrt(bound, out=bound)
         if not np.any(np.abs(step) > bound):
             break
     return np.asarray(np.exp(np.minimum(u, 709.0)))
@@ -137,7 +140,7 @@ def _w_of_exp(
 
 # Newton steps at most for `_w_of_exp` (quadratic convergence takes a handful from its start).
 _W_MAX_STEPS = 60
-#: A step below this times max(1, |u|) is the float's rounding: the solve has converged.
+#: An error below this times max(1, |u|) is the float's rounding: the solve has converged.
 _W_TOLERANCE = 4.0 * np.finfo(float).eps
 
 
@@ -169,13 +172,44 @@ def static_output(
     on g, each kept inside that bracket (halving it where a step would leave), converge to
     the root of every sample together.
     """
-    v = np.asarray(v_in, dtype=float)
+    return _solved_output(np.asarray(v_in, dtype=float), upper, lower, r_load, v_t).out
+
+
+@dataclass(frozen=True)
+class _Solved:
+    """`static_output`'s answer with the halves' currents of its last step (A, within that
+    step of the answer), which start the next solve of a drive close to this one."""
+
+    out: NDArray[np.float64]
+    i_u: NDArray[np.float64]
+    i_l: NDArray[np.float64]
+
+
+def _solved_output(
+    v: NDArray[np.float64],
+    upper: HalfLaw,
+    lower: HalfLaw,
+    r_load: float,
+    v_t: float,
+    near: _Solved | None = None,
+    scale_by: NDArray[np.float64] | float = 1.0,
+) -> _Solved:
+    """`static_output` of ``v``; ``near`` (the solve of a drive ``scale_by`` times smaller,
+    sample by sample) starts the Newton steps at its output so scaled and its currents."""
     lo, hi = np.minimum(v, 0.0), np.maximum(v, 0.0)
-    out = v * r_load / (r_load + 0.5 * (upper.r_ohm + lower.r_ohm))
+    if near is None:
+        out = v * r_load / (r_load + 0.5 * (upper.r_ohm + lower.r_ohm))
+        i_u: NDArray[np.float64] | None = None
+        i_l: NDArray[np.float64] | None = None
+    else:
+        out = np.clip(near.out * scale_by, lo, hi)
+        i_u, i_l = near.i_u, near.i_l
     scale = float(np.max(np.abs(v), initial=0.0))
     rounding = ROUNDING_ULPS * float(np.spacing(scale))
-    i_u: NDArray[np.float64] | None = None
-    i_l: NDArray[np.float64] | None = None
+    # Newton's next error is at most e^2 |g''|/(2|g'|) <= e^2/(2 m V_T) (each half's
+    # dI/dy = 1/(m V_T/I + R) changes at most by itself over m V_T): a Newton step of all
+    # samples below this leaves an error within the rounding (a factor 4 to spare).
+    quadratic = float(np.sqrt(0.5 * min(upper.junctions, lower.junctions) * v_t * rounding))
     last = np.inf
     for _ in range(NEWTON_STEPS):
         # Each step's currents start the next step's root finding (they move less each time).
@@ -194,8 +228,12 @@ def static_output(
         out = moved
         if largest <= rounding or (last <= SETTLED * scale and largest > 0.5 * last):
             break
+        # Newton's steps, not halvings (a sample at 0 V has a bracket of one point)
+        if largest <= quadratic and not np.any(~inside & (hi > lo)):
+            break
         last = largest
-    return np.asarray(out)
+    assert i_u is not None and i_l is not None  # NEWTON_STEPS >= 1
+    return _Solved(np.asarray(out), i_u, i_l)
 
 
 @dataclass(frozen=True)
@@ -239,14 +277,16 @@ def harmonic_amplitudes(
     """
     target = np.asarray(levels_vpk, dtype=float)
     up, lo = _on_samples(upper), _on_samples(lower)
-    phase = 2.0 * np.pi * np.arange(SAMPLES) / SAMPLES
+    wave, cycle = _quarter_wave(SAMPLES)
     drive = target.copy()
     spectrum = np.zeros((*target.shape, SAMPLES // 2 + 1), complex)
     missed = np.inf
     before: tuple[NDArray[np.float64], NDArray[np.float64]] | None = None
+    solved: _Solved | None = None
+    step: NDArray[np.float64] | float = 1.0
     for _ in range(LEVEL_STEPS):
-        out = static_output(drive[..., None] * np.sin(phase), up, lo, r_load, v_t)
-        found = np.fft.rfft(out, axis=-1) * 2.0 / SAMPLES
+        solved = _solved_output(drive[..., None] * wave, up, lo, r_load, v_t, solved, step)
+        found = np.fft.rfft(solved.out[..., cycle], axis=-1) * 2.0 / SAMPLES
         fundamental = np.abs(found[..., 1])
         ratio = np.where(fundamental > 0.0, target / fundamental, 1.0)
         miss = float(np.max(np.abs(ratio - 1.0), initial=0.0))
@@ -255,8 +295,27 @@ def harmonic_amplitudes(
         spectrum, missed = found, miss
         if miss <= LEVEL_TOLERANCE:
             break
-        drive, before = _next_drive(drive, fundamental, target, ratio, before), (drive, fundamental)
+        moved = _next_drive(drive, fundamental, target, ratio, before)
+        before, step, drive = (drive, fundamental), (moved / drive)[..., None], moved
     return np.asarray(np.abs(spectrum[..., 1 : HARMONICS + 1]))
+
+
+def _quarter_wave(samples: int) -> tuple[NDArray[np.float64], NDArray[np.intp]]:
+    """The distinct values of one cycle of a unit sine on ``samples`` points, and where
+    each point of the cycle takes its value from: sin(2 pi j/N) for j = 0..N/4 and their
+    negatives (a sine's quarter-wave symmetry, N a multiple of 4), so the static transfer
+    is solved on N/2 + 2 drive values instead of N."""
+    if samples % 4:
+        return np.sin(2.0 * np.pi * np.arange(samples) / samples), np.arange(samples)
+    quarter = samples // 4
+    rising = np.sin(2.0 * np.pi * np.arange(quarter + 1) / samples)
+    j = np.arange(samples)
+    # 0..N/4 rises, N/4..N/2 falls back (sin(pi - x) = sin x), then the negatives
+    within = np.where(
+        j % (samples // 2) <= quarter, j % (samples // 2), samples // 2 - j % (samples // 2)
+    )
+    where = np.where(j < samples // 2, within, quarter + 1 + within)
+    return np.concatenate([rising, -rising]), where.astype(np.intp)
 
 
 def closed_loop(
