@@ -277,13 +277,53 @@ def harmonic_amplitudes(
     """
     target = np.asarray(levels_vpk, dtype=float)
     up, lo = _on_samples(upper), _on_samples(lower)
+    start = None
+    if target.ndim >= 2 and target.shape[0] > SEEDED_BATCH:
+        # Many trials of nearby parts: the first one solved alone starts them all (its
+        # drive per volt of fundamental, its output per volt of drive, its currents).
+        first = _first_trial(up), _first_trial(lo)
+        seed_drive, seed = _levels_solved(target[:1], *first, r_load, v_t)[1:]
+        start = seed_drive / target[:1], seed, seed_drive
+    spectrum = _levels_solved(target, up, lo, r_load, v_t, start)[0]
+    return np.asarray(np.abs(spectrum[..., 1 : HARMONICS + 1]))
+
+
+#: A leading batch axis longer than this (the spread's trials) is started from its first.
+SEEDED_BATCH = 1
+
+
+def _first_trial(law: HalfLaw) -> HalfLaw:
+    """A law of the first trial alone (its arrays' leading axis cut to one)."""
+
+    def first(value: float) -> float:
+        return value if np.ndim(value) == 0 else cast(float, np.asarray(value)[:1])
+
+    return HalfLaw(law.junctions, first(law.r_ohm), first(law.i_q))
+
+
+def _levels_solved(
+    target: NDArray[np.float64],
+    up: HalfLaw,
+    lo: HalfLaw,
+    r_load: float,
+    v_t: float,
+    start: tuple[NDArray[np.float64], _Solved, NDArray[np.float64]] | None = None,
+) -> tuple[NDArray[np.complex128], NDArray[np.float64], _Solved]:
+    """The spectrum (2|X_n|/N, n = 0..N/2) of the static transfer's output with the
+    fundamental at ``target``, the drive that gives it and the last solve (the notes of
+    `harmonic_amplitudes`). ``start`` (drive per volt of fundamental, a solve and its
+    drive, of nearby parts) starts the drive and the Newton steps there."""
     wave, cycle = _quarter_wave(SAMPLES)
     drive = target.copy()
+    solved: _Solved | None = None
+    step: NDArray[np.float64] | float = 1.0
+    if start is not None:
+        per_volt, solved, seed_drive = start
+        drive = target * per_volt
+        step = (drive / seed_drive)[..., None]
     spectrum = np.zeros((*target.shape, SAMPLES // 2 + 1), complex)
     missed = np.inf
     before: tuple[NDArray[np.float64], NDArray[np.float64]] | None = None
-    solved: _Solved | None = None
-    step: NDArray[np.float64] | float = 1.0
     for _ in range(LEVEL_STEPS):
         solved = _solved_output(drive[..., None] * wave, up, lo, r_load, v_t, solved, step)
         found = np.fft.rfft(solved.out[..., cycle], axis=-1) * 2.0 / SAMPLES
@@ -297,7 +337,8 @@ def harmonic_amplitudes(
             break
         moved = _next_drive(drive, fundamental, target, ratio, before)
         before, step, drive = (drive, fundamental), (moved / drive)[..., None], moved
-    return np.asarray(np.abs(spectrum[..., 1 : HARMONICS + 1]))
+    assert solved is not None  # LEVEL_STEPS >= 1
+    return spectrum, drive, solved
 
 
 def _quarter_wave(samples: int) -> tuple[NDArray[np.float64], NDArray[np.intp]]:
