@@ -283,7 +283,8 @@ def harmonic_amplitudes(
         # drive per volt of fundamental, its output per volt of drive, its currents).
         first = _first_trial(up), _first_trial(lo)
         seed_drive, seed = _levels_solved(target[:1], *first, r_load, v_t)[1:]
-        start = seed_drive / target[:1], seed, seed_drive
+        if np.all(target[:1] > 0.0) and np.all(seed_drive > 0.0):  # else start cold
+            start = seed_drive / target[:1], seed, seed_drive
     spectrum = _levels_solved(target, up, lo, r_load, v_t, start)[0]
     return np.asarray(np.abs(spectrum[..., 1 : HARMONICS + 1]))
 
