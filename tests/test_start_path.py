@@ -66,7 +66,8 @@ def test_check_does_load_the_analysis() -> None:
     """The probe above would pass vacuously if it saw nothing at all."""
     loaded = _loaded_after(["check", str(BUSKING)])
     assert "chainbudget.budget" in loaded
-    assert "pint" in loaded
+    # every value of the example is in a unit `units.KNOWN_UNITS` reads as pint would
+    assert not {m for m in loaded if m.startswith(("pint", "scipy"))}
     assert "pydantic" not in loaded  # the command line is read by cli_coercion
     # scipy's heavy packages (half the import floor) and matplotlib stay off a check's
     # path: roots by chainbudget.roots, W(e^x) by Newton, pictures only for plot and html.
@@ -247,11 +248,32 @@ def test_a_damaged_cache_is_cleared_and_the_registry_built_without_it(
     assert list(folder.glob("*.pickle"))
 
 
+def _busking_in_a_rarer_unit(tmp_path: Path) -> Path:
+    """The busking chain with its op-amp's slew rate in MV/s, a unit only pint reads."""
+    text = BUSKING.read_text(encoding="utf-8")
+    assert 'slew_rate = "10 V/us"' in text
+    chain = tmp_path / "busking_mv_per_s.toml"
+    chain.write_text(text.replace('slew_rate = "10 V/us"', 'slew_rate = "10 MV/s"'), "utf-8")
+    return chain
+
+
+def test_a_value_in_a_unit_outside_the_table_is_read_by_pint(tmp_path: Path) -> None:
+    """The probe above would pass vacuously if pint were never reached; the same chain
+    with one value in a rarer unit loads pint and checks to the same report."""
+    chain = _busking_in_a_rarer_unit(tmp_path)
+    assert "pint" in _loaded_after(["check", str(chain)])
+    args = [sys.executable, "-m", "chainbudget", "check", "--format", "json"]
+    rare = subprocess.run([*args, str(chain)], capture_output=True, text=True, check=False)
+    plain = subprocess.run([*args, str(BUSKING)], capture_output=True, text=True, check=False)
+    assert rare.stdout.replace(str(chain), str(BUSKING)) == plain.stdout
+
+
 def test_check_runs_the_same_when_the_cache_cannot_be_written(tmp_path: Path) -> None:
     """Through the real command: a cache home that is a file changes nothing but speed."""
     blocker = tmp_path / "a_file"
     blocker.write_text("not a folder")
-    args = [sys.executable, "-m", "chainbudget", "check", str(BUSKING), "--format", "json"]
+    chain = _busking_in_a_rarer_unit(tmp_path)  # so that pint and its cache are used
+    args = [sys.executable, "-m", "chainbudget", "check", str(chain), "--format", "json"]
     plain = subprocess.run(args, capture_output=True, text=True, check=False)
     env = {**os.environ, "XDG_CACHE_HOME": str(blocker)}
     blocked = subprocess.run(args, capture_output=True, text=True, check=False, env=env)
