@@ -22,7 +22,9 @@ the same solution (`SectionSolution`).
 
 from __future__ import annotations
 
-from collections.abc import Mapping, Sequence
+from collections.abc import Hashable, Iterator, Mapping, Sequence
+from contextlib import contextmanager
+from contextvars import ContextVar
 from dataclasses import dataclass, field, replace
 
 import numpy as np
@@ -118,16 +120,69 @@ class Cascade:
         return g1 * self.v_in[section.first] + g2 * self.v_out[section.last]
 
 
+# The stages solved so far within `solving_once`, by what their solve depends on.
+_SOLVED: ContextVar[dict[Hashable, StageSolution] | None] = ContextVar("solved", default=None)
+
+
+@contextmanager
+def solving_once() -> Iterator[None]:
+    """Within the block, a stage solved again with equal parts, environment, frequencies
+    and control positions is the first solve's solution (a check solves the same stage
+    in several passes: the power tree's settling, the analysis, the supplies' sag, the
+    noise what-ifs). A solve with any array parameter (a spread's trials) or
+    array-valued environment is not kept."""
+    token = _SOLVED.set({})
+    try:
+        yield
+    finally:
+        _SOLVED.reset(token)
+
+
+def _as_key(value: object) -> Hashable:
+    """An array as its exact contents (shape, type and bytes); anything else as itself."""
+    if isinstance(value, np.ndarray):
+        return (value.shape, value.dtype.str, value.tobytes())
+    return value  # type: ignore[return-value]
+
+
+def _solve_key(
+    stage: Stage,
+    env: Environment,
+    frequency: NDArray[np.float64],
+    positions: Mapping[str, ArrayLike],
+) -> Hashable | None:
+    """What a stage's solve depends on, or None when some of it cannot be compared."""
+    key = (
+        stage,
+        env,
+        _as_key(np.asarray(frequency)),
+        tuple(sorted((name, _as_key(value)) for name, value in positions.items())),
+    )
+    try:
+        hash(key)
+    except TypeError:  # an array among the stage's values or the environment's rails
+        return None
+    return key
+
+
 def solve_stage(
     stage: Stage,
     env: Environment,
     frequency: NDArray[np.float64],
     positions: Mapping[str, ArrayLike],
 ) -> StageSolution:
-    """Build a stage's network alone and reduce it to a two-port with its probes."""
+    """Build a stage's network alone and reduce it to a two-port with its probes (once per
+    `solving_once` block for the same inputs)."""
+    solved = _SOLVED.get()
+    key = None if solved is None else _solve_key(stage, env, frequency, positions)
+    if solved is not None and key is not None and key in solved:
+        return solved[key]
     net = Netlist(frequency)
     built = KINDS[stage.kind].build(net, stage, env, "in", "out", positions)
-    return StageSolution(stage, two_port(net, "in", "out", built.probes), built)
+    solution = StageSolution(stage, two_port(net, "in", "out", built.probes), built)
+    if solved is not None and key is not None:
+        solved[key] = solution
+    return solution
 
 
 def inner_node(k: int) -> str:

@@ -9,14 +9,18 @@ Brennan, IEEE Trans. CAS-22 (1975) 504), which needs no two-port algebra at all.
 from __future__ import annotations
 
 from collections.abc import Mapping
+from dataclasses import replace
 
 import numpy as np
 import pytest
 from numpy.typing import ArrayLike
-from stagekit import environment, make_stage, near_ideal_opamp, positions_as_set
+from stagekit import environment, make_stage, near_ideal_opamp, positions_as_set, unloaded_gain
 
-from chainbudget.cascade import cascade, solve_stage, whole_chain_network
+from chainbudget.budget.steps import _ArrayStage
+from chainbudget.cascade import cascade, solve_stage, solving_once, whole_chain_network
+from chainbudget.fields import FrozenMapping
 from chainbudget.network import SOURCE_FLOOR_OHM, branch_ref, node_ref
+from chainbudget.stages.base import Stage
 
 FREQUENCY = np.logspace(1, 5, 17)  # 10 Hz .. 100 kHz
 SOURCE_OHM, LOAD_OHM = 1e3, 600.0
@@ -152,3 +156,53 @@ def test_cascade_loading_is_exact_for_a_resistive_pair() -> None:
     np.testing.assert_allclose(1.0 / chain.load_admittance[0], 1e3, rtol=1e-9)
     np.testing.assert_allclose(chain.output_impedance[0], 1e3, rtol=1e-9)
     np.testing.assert_allclose(1.0 / chain.input_admittance, 10e3, rtol=1e-9)
+
+
+# --- a stage solved once per check ---------------------------------------------------------
+
+
+def replace_value(stage: Stage, key: str, value: object) -> Stage:
+    """The stage with one value changed, as the loader holds it (a float: a hashable
+    mapping) or as a spread or sweep steps it (an array, `chainbudget.budget.steps`)."""
+    if isinstance(value, np.ndarray):
+        return _ArrayStage(stage.index, stage.name, stage.kind, {**stage.values, key: value})
+    return Stage(stage.index, stage.name, stage.kind, FrozenMapping({**stage.values, key: value}))
+
+
+# The environment as a chain gives it: its parts libraries in hashable mappings.
+LOADED_ENV = replace(
+    ENV, opamps=FrozenMapping(ENV.opamps), transistors=FrozenMapping(ENV.transistors)
+)
+
+
+def test_a_stage_solved_again_in_one_check_is_the_first_solve() -> None:
+    """Within `solving_once` equal inputs give the one solution; any input that differs
+    (the frequencies, a part value) is solved anew and agrees with a solve outside the
+    block (no stale answer)."""
+    stage, env = STAGES[0], LOADED_ENV
+    at = positions_as_set(stage)
+    with solving_once():
+        first = solve_stage(stage, env, FREQUENCY, at)
+        assert solve_stage(stage, env, FREQUENCY.copy(), dict(at)) is first
+        other_band = solve_stage(stage, env, FREQUENCY[:5], at)
+        other_part = solve_stage(replace_value(stage, "feedback", 47e3), env, FREQUENCY, at)
+    assert solve_stage(stage, env, FREQUENCY, at) is not first  # outside: no keeping
+    plain_band = solve_stage(stage, env, FREQUENCY[:5], at)
+    plain_part = solve_stage(replace_value(stage, "feedback", 47e3), env, FREQUENCY, at)
+    assert other_band is not first and other_part is not first
+    np.testing.assert_array_equal(unloaded_gain(other_band), unloaded_gain(plain_band))
+    np.testing.assert_array_equal(unloaded_gain(other_part), unloaded_gain(plain_part))
+
+
+def test_a_solve_with_array_parts_is_not_kept() -> None:
+    """A spread's trials ride as array parts: such a solve cannot be compared, so each one
+    is solved (and answers as one value at a time would)."""
+    stage = replace_value(STAGES[0], "feedback", np.array([[22e3], [47e3]]))
+    env = LOADED_ENV
+    at = positions_as_set(STAGES[0])
+    with solving_once():
+        one = solve_stage(stage, env, FREQUENCY, at)
+        two = solve_stage(stage, env, FREQUENCY, at)
+    assert one is not two
+    single = solve_stage(replace_value(STAGES[0], "feedback", 47e3), env, FREQUENCY, at)
+    np.testing.assert_allclose(unloaded_gain(two)[1], unloaded_gain(single), rtol=1e-14)
