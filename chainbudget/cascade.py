@@ -142,7 +142,7 @@ def _as_key(value: object) -> Hashable:
     """An array as its exact contents (shape, type and bytes); anything else as itself."""
     if isinstance(value, np.ndarray):
         return (value.shape, value.dtype.str, value.tobytes())
-    return value  # type: ignore[return-value]
+    return value
 
 
 def _solve_key(
