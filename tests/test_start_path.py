@@ -302,8 +302,8 @@ def test_a_cache_written_by_another_pint_is_never_read(
 
 def test_the_command_freezes_what_its_start_up_made() -> None:
     """``main`` hands the objects of the start-up imports to ``gc.freeze`` (the collector
-    stops scanning them); calling ``app`` in a process of one's own (as the tests here
-    do) leaves the collector alone."""
+    stops scanning them) and collects the young generation less often; calling ``app`` in
+    a process of one's own (as the tests here do) leaves the collector alone."""
     code = (
         "import gc, sys\n"
         "from chainbudget.cli import {name}\n"
@@ -312,9 +312,9 @@ def test_the_command_freezes_what_its_start_up_made() -> None:
         "    {name}()\n"
         "except SystemExit:\n"
         "    pass\n"
-        "print(gc.get_freeze_count())\n"
+        "print(gc.get_freeze_count(), gc.get_threshold()[0])\n"
     )
-    counts = {}
+    counts, thresholds = {}, {}
     for name in ("main", "app"):
         done = subprocess.run(
             [sys.executable, "-c", code.format(name=name)],
@@ -322,6 +322,9 @@ def test_the_command_freezes_what_its_start_up_made() -> None:
             text=True,
             check=True,
         )
-        counts[name] = int(done.stdout.strip().splitlines()[-1])
+        count, threshold = done.stdout.strip().splitlines()[-1].split()
+        counts[name], thresholds[name] = int(count), int(threshold)
     assert counts["main"] > 10_000  # numpy, typer and the loader at least
     assert counts["app"] == 0
+    # the young generation collected every 50,000 allocations in the command, not 700
+    assert thresholds == {"main": 50_000, "app": 700}
