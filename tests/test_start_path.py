@@ -76,6 +76,12 @@ def test_check_does_load_the_analysis() -> None:
     assert not {m for m in loaded if m.startswith(heavy)}
 
 
+def test_a_count_on_the_command_line_is_read_without_pydantic() -> None:
+    """``--trials`` and ``--seed`` are counts: read as typer would, without pydantic."""
+    args = ["spread", str(BUSKING), "--trials", "2", "--seed", "5", "--format", "json"]
+    assert "pydantic" not in _loaded_after(args)
+
+
 def _modules_after(args: list[str], prefix: str) -> set[str]:
     """Run the command in a fresh interpreter and list the loaded modules under ``prefix``."""
     code = (
@@ -161,6 +167,13 @@ def _answers(args: list[str], plain: bool, monkeypatch: pytest.MonkeyPatch) -> t
         ["plot", "{busking}", "-o", "{folder}/x.txt"],
         ["--help"],
         ["no-such-command"],
+        ["spread", "{busking}", "--trials", "3", "--seed", "007", "--format", "json"],
+        ["spread", "{busking}", "--trials", "x"],
+        ["spread", "{busking}", "--trials", "0"],
+        ["spread", "{busking}", "--trials", "+3"],
+        ["spread", "{busking}", "--trials", "1e3"],
+        ["spread", "{busking}", "--seed", "-1", "--trials", "2"],
+        ["spread", "{busking}", "--trials", "٣"],
     ],
 )
 def test_the_command_line_answers_as_typer_alone_would(
