@@ -23,7 +23,6 @@ from typing import Any
 
 import typer.core
 
-
 # A whole number as a command line writes it most: ASCII digits alone (anything else, a
 # sign, a space, "1e3", goes to typer's own coercion and its messages).
 _DIGITS = re.compile(r"[0-9]+")
