@@ -120,18 +120,29 @@ class Cascade:
         return g1 * self.v_in[section.first] + g2 * self.v_out[section.last]
 
 
-# The stages solved so far within `solving_once`, by what their solve depends on.
-_SOLVED: ContextVar[dict[Hashable, StageSolution] | None] = ContextVar("solved", default=None)
+@dataclass
+class _Solved:
+    """What `solving_once` keeps: each stage's solution by everything its solve depends
+    on, and each two-port by what its network depends on (the rails left out for a kind
+    whose network does not change with them, `StageKind.network_uses_rails`)."""
+
+    solutions: dict[Hashable, StageSolution] = field(default_factory=dict)
+    ports: dict[Hashable, TwoPort] = field(default_factory=dict)
+
+
+_SOLVED: ContextVar[_Solved | None] = ContextVar("solved", default=None)
 
 
 @contextmanager
 def solving_once() -> Iterator[None]:
     """Within the block, a stage solved again with equal parts, environment, frequencies
-    and control positions is the first solve's solution (a check solves the same stage
-    in several passes: the power tree's settling, the analysis, the supplies' sag, the
-    noise what-ifs). A solve with any array parameter (a spread's trials) or
-    array-valued environment is not kept."""
-    token = _SOLVED.set({})
+    and control positions is the first solve's solution, and a stage whose network does
+    not depend on its rails reuses its two-port at other rails (only its build, which
+    sets its swing limits, is done again). A check solves the same stage in several
+    passes: the power tree's settling, the analysis, the supplies' sag, the noise
+    what-ifs. A solve with any array parameter (a spread's trials) or array-valued
+    environment is not kept."""
+    token = _SOLVED.set(_Solved())
     try:
         yield
     finally:
@@ -173,15 +184,25 @@ def solve_stage(
 ) -> StageSolution:
     """Build a stage's network alone and reduce it to a two-port with its probes (once per
     `solving_once` block for the same inputs)."""
+    kind = KINDS[stage.kind]
     solved = _SOLVED.get()
-    key = None if solved is None else _solve_key(stage, env, frequency, positions)
-    if solved is not None and key is not None and key in solved:
-        return solved[key]
+    key = network = None
+    if solved is not None:
+        key = _solve_key(stage, env, frequency, positions)
+        if key in solved.solutions:
+            return solved.solutions[key]
+        network = key
+        if key is not None and not kind.network_uses_rails:
+            network = _solve_key(stage, replace(env, rails=None), frequency, positions)
     net = Netlist(frequency)
-    built = KINDS[stage.kind].build(net, stage, env, "in", "out", positions)
-    solution = StageSolution(stage, two_port(net, "in", "out", built.probes), built)
+    built = kind.build(net, stage, env, "in", "out", positions)
+    port = None if solved is None else solved.ports.get(network)
+    if port is None:
+        port = two_port(net, "in", "out", built.probes)
+    solution = StageSolution(stage, port, built)
     if solved is not None and key is not None:
-        solved[key] = solution
+        solved.solutions[key] = solution
+        solved.ports[network] = port
     return solution
 
 

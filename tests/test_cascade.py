@@ -10,6 +10,7 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import replace
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -19,9 +20,11 @@ from stagekit import environment, make_stage, near_ideal_opamp, positions_as_set
 from chainbudget.budget.steps import _ArrayStage
 from chainbudget.cascade import cascade, solve_stage, solving_once, whole_chain_network
 from chainbudget.fields import FrozenMapping
-from chainbudget.network import SOURCE_FLOOR_OHM, branch_ref, node_ref
+from chainbudget.network import SOURCE_FLOOR_OHM, Complex, branch_ref, node_ref
+from chainbudget.stages import KINDS as STAGE_KINDS
 from chainbudget.stages.base import Stage
 
+ROOT = Path(__file__).resolve().parents[1]
 FREQUENCY = np.logspace(1, 5, 17)  # 10 Hz .. 100 kHz
 SOURCE_OHM, LOAD_OHM = 1e3, 600.0
 
@@ -206,3 +209,81 @@ def test_a_solve_with_array_parts_is_not_kept() -> None:
     assert one is not two
     single = solve_stage(replace_value(STAGES[0], "feedback", 47e3), env, FREQUENCY, at)
     np.testing.assert_allclose(unloaded_gain(two)[1], unloaded_gain(single), rtol=1e-14)
+
+
+def _every_example_stage() -> list[tuple[str, int, str]]:
+    """Each stage on rails of every example chain: its file, index and kind."""
+    from chainbudget.chainfile import load_chain
+
+    found = []
+    for path in sorted((ROOT / "chains").glob("*.toml")):
+        chain = load_chain(path)
+        found += [
+            (path.name, k, stage.kind)
+            for k, stage in enumerate(chain.stages)
+            if STAGE_KINDS[stage.kind].uses_rails  # a volume pot or a block has none
+        ]
+    return found
+
+
+def _two_port_at_rails(
+    name: str, k: int, shift: float, changes: Mapping[str, object] | None = None
+) -> list[Complex]:
+    """Stage k of an example (with ``changes``) solved alone (no keeping) at its rails
+    widened by ``shift`` volts each way, the bias point moved by half of it: every array
+    of its two-port."""
+    from chainbudget.budget.analysis import environments, positions_as_set
+    from chainbudget.chainfile import load_chain
+
+    chain = load_chain(ROOT / "chains" / name).with_values(changes or {})
+    env = environments(chain)[k]
+    assert env.rails is not None
+    rails = replace(
+        env.rails,
+        positive=env.rails.positive + shift,
+        negative=env.rails.negative - shift,
+        bias=env.rails.bias + shift / 2,
+    )
+    frequency = np.logspace(1, 5, 9)
+    stage = chain.stages[k]
+    port = solve_stage(
+        stage, replace(env, rails=rails), frequency, positions_as_set(chain.stages)[k]
+    ).two_port
+    arrays = [port.a, port.b, port.c, port.d]
+    arrays += [np.asarray(g) for pair in port.probes.values() for g in pair]
+    return arrays
+
+
+@pytest.mark.parametrize(
+    ("name", "k"),
+    [
+        (name, k)
+        for name, k, kind in _every_example_stage()
+        if not STAGE_KINDS[kind].network_uses_rails
+    ],
+)
+def test_a_kind_whose_network_ignores_its_rails_solves_the_same_at_any_rails(
+    name: str, k: int
+) -> None:
+    """`StageKind.network_uses_rails` lets a check reuse a two-port at other rails: the
+    claim held against solves at rails 3 V wider (and the bias point moved), brute force."""
+    here, there = _two_port_at_rails(name, k, 0.0), _two_port_at_rails(name, k, 3.0)
+    assert all(np.array_equal(a, b) for a, b in zip(here, there, strict=True))
+
+
+def test_the_kinds_that_make_no_such_claim_do_move_with_their_rails() -> None:
+    """The probe above is not blind: each kind that keeps the flag (a transistor's operating
+    point, hence its gm, can follow its rails) moves with them in some example."""
+    # every example's follower sinks a set current; one on an emitter resistor to its
+    # negative rail draws (V_B - V_BE - V_-)/R_E, and its gm follows (Horowitz & Hill)
+    resistor_bias = {"buffer.bias": "resistor", "buffer.emitter_resistor": "1k"}
+    cases = [(name, k, kind, None) for name, k, kind in _every_example_stage()]
+    cases.append(("busking_amp.toml", 4, "follower", resistor_bias))
+    moved: dict[str, bool] = {}
+    for name, k, kind, changes in cases:
+        if STAGE_KINDS[kind].network_uses_rails:
+            here = _two_port_at_rails(name, k, 0.0, changes)
+            there = _two_port_at_rails(name, k, 3.0, changes)
+            differs = not all(np.array_equal(a, b) for a, b in zip(here, there, strict=True))
+            moved[kind] = moved.get(kind, False) or differs
+    assert moved == {"follower": True, "push_pull": True}
