@@ -104,6 +104,10 @@ class Cascade:
     #: Each section's own two-port, in the order of ``sections`` (a loop's carries the
     #: ``node{k}`` and ``link{k}`` probes of the stages inside it).
     section_ports: tuple[TwoPort, ...] = ()
+    #: Each stage's clip once worked out (`chainbudget.budget.levels.clip_source_peak`):
+    #: levels, staging, currents, power and the supplies all read it. Not an init field,
+    #: so a cascade made with `dataclasses.replace` starts with none.
+    clips: dict[int, object] = field(default_factory=dict, init=False, compare=False, repr=False)
 
     def section_port(self, section: Section) -> TwoPort:
         """The two-port of one of ``sections``."""

@@ -287,3 +287,19 @@ def test_the_kinds_that_make_no_such_claim_do_move_with_their_rails() -> None:
             differs = not all(np.array_equal(a, b) for a, b in zip(here, there, strict=True))
             moved[kind] = moved.get(kind, False) or differs
     assert moved == {"follower": True, "push_pull": True}
+
+
+def test_a_node_clip_is_worked_out_once_per_cascade_and_never_carried_over() -> None:
+    """`clip_source_peak` keeps each stage's clip on its cascade; a cascade made from it
+    with `dataclasses.replace` (other stages, other clips) starts with none."""
+    from chainbudget.budget.levels import clip_source_peak
+    from chainbudget.budget.supplies import loaded_analysis
+    from chainbudget.chainfile import load_chain
+
+    chain = load_chain(ROOT / "chains" / "busking_amp.toml")
+    nominal = loaded_analysis(chain, corner="low").nominal
+    limited = next(k for k, sol in enumerate(nominal.stages) if sol.built.limits)
+    first = clip_source_peak(nominal, limited)
+    assert first is not None and clip_source_peak(nominal, limited) is first
+    assert not first[0].flags.writeable  # shared, so no figure may change it in place
+    assert replace(nominal, v_out=nominal.v_out).clips == {}
