@@ -46,6 +46,7 @@ from chainbudget.source_network import source_impedance
 from chainbudget.spread.noise import output_noise
 from chainbudget.spread.parts import Part, with_beta
 from chainbudget.spread.settings import HeldSettings, held_settings, worst_of_candidates
+from chainbudget.spread.thd import thd_figures
 from chainbudget.stages.base import Environment
 from chainbudget.supplies import KINDS as SUPPLY_KINDS
 from chainbudget.supplies.base import Corners, SpreadThreshold
@@ -174,6 +175,7 @@ class Evaluator:
         figures.update(_band_figures(self.chain, held, as_set, settings, trials))
         figures.update(_output_figures(self.chain, held, as_set, settings, trials))
         figures.update(output_noise(chain, tuple(envs), frequency, as_set, trials))
+        figures.update(thd_figures(chain, envs, as_set, self.nominal, trials))
         return figures
 
     def thresholds(self, figures: Mapping[str, Any]) -> list[Threshold]:
