@@ -669,6 +669,8 @@ def _json_figure(data: dict, path: str) -> float:  # type: ignore[type-arg]
     """A spread figure's value in the check JSON (``nodes.NAME.KEY``, ``output.KEY`` or a
     top-level key such as ``hiss_spl_a_db``)."""
     group, *rest = path.split(".")
+    if group == "output" and rest[0].endswith("_percent") and "thd_" in rest[0]:
+        return float(_thd_entry(data["output"], rest[0]))
     if group == "nodes":
         name, key = rest
         return float(next(n for n in data["nodes"] if n["stage"] == name)[key])
@@ -679,6 +681,25 @@ def _json_figure(data: dict, path: str) -> float:  # type: ignore[type-arg]
         place, name, key = rest
         return float(next(d for d in data["drive"][place] if d["stage"] == name)[key])
     return float(data[group][rest[0]] if rest else data[group])
+
+
+def _thd_entry(output: dict, key: str) -> float:  # type: ignore[type-arg]
+    """A THD figure of the check JSON's ``output.thd`` list (the reachable ones of the
+    nominal level, 1 W and 1 dB below clip, in that order), found by its level:
+    ``thd_one_watt_percent`` is the entry at sqrt(R_L) Vrms, ``open_loop_thd_...`` its open
+    loop figure; 1 dB below clip is always reachable, so always the last entry."""
+    open_loop = key.startswith("open_loop_")
+    level = key.removeprefix("open_loop_").removeprefix("thd_").removesuffix("_percent")
+    wanted = {
+        "nominal": output["nominal_vpk"] / math.sqrt(2.0),
+        "one_watt": math.sqrt(output["load_ohm"]),
+    }
+    entries = output["thd"]
+    if level in wanted:
+        entry = next(e for e in entries if math.isclose(e["level_vrms"], wanted[level]))
+    else:
+        entry = entries[-1]
+    return float(entry["open_loop_thd_percent" if open_loop else "thd_percent"])
 
 
 @pytest.mark.parametrize("text", [TONE_AND_VOLUME, FOLLOWER], ids=["tone-volume", "follower"])
@@ -802,3 +823,50 @@ def test_per_trial_findings_over_band_and_noise_are_the_check_findings_of_each_t
         found = {f.code for f in compute(chain.with_values(changes)).findings}
         for code in codes:
             assert bool(masks[code][t]) == (code in found), (code, t)
+
+
+# The output pair inside the op-amp's loop (its feedback taken from the load side).
+PUSH_PULL_IN_LOOP = PUSH_PULL.replace(
+    'ground_leg = "2k2"\n', 'ground_leg = "2k2"\nfeedback_from = "output"\n', 1
+)
+
+
+@pytest.mark.parametrize("text", [PUSH_PULL, PUSH_PULL_IN_LOOP], ids=["open", "in-loop"])
+def test_thd_of_each_trial_equals_the_check_of_that_trial(text: str) -> None:
+    """Brute force, one sample at a time: each trial's emitter resistors and four betas
+    written into the file (`Chain.with_values`) and checked alone give the batched THD at
+    each level the check reports (nominal, 1 W, 1 dB below clip), rtol 1e-9; inside the
+    loop the closed-loop THD (each trial's own return difference) and the open loop's.
+    The parts move every THD figure."""
+    from chainbudget.budget import compute
+    from chainbudget.budget.supplies import settle
+    from chainbudget.report.json_view import budget_json
+    from chainbudget.spread.evaluate import Evaluator
+    from chainbudget.spread.parts import chain_parts
+
+    chain = _chain(text)
+    parts, _ = chain_parts(chain)
+    evaluate = Evaluator(chain, tuple(parts), compute(chain), settle(chain, "low").voltages)
+    positions = np.random.default_rng(11).random((5, len(parts)))
+    batched = evaluate(positions)
+    levels = ("nominal", "one_watt", "below_clip")
+    paths = [f"output.thd_{level}_percent" for level in levels]
+    if text is PUSH_PULL_IN_LOOP:
+        paths += [f"output.open_loop_thd_{level}_percent" for level in levels]
+    assert sorted(p for p in batched if "thd" in p) == sorted(paths)
+    for path in paths:
+        assert np.ptp(batched[path]) > 0.01 * np.mean(batched[path]), path
+    for t in range(positions.shape[0]):
+        changes: dict[str, object] = {}
+        for part, value in zip(parts, evaluate.values(positions[t : t + 1]), strict=True):
+            if part.is_beta:
+                name = chain.stages[part.index].values[part.key]
+                changes[f"transistor.{name}.beta"] = float(value[0])
+            else:
+                changes[f"{part.owner}.{part.key}"] = f"{float(value[0])!r} {_si(part)}"
+        budget = compute(chain.with_values(changes))
+        data = json.loads(json.dumps(budget_json(budget, list(budget.findings))))
+        assert len(data["output"]["thd"]) == 3  # every level within reach in each trial
+        for path in paths:
+            held = _json_figure(data, path)
+            assert batched[path][t] == pytest.approx(held, rel=1e-9, abs=0), (path, t)

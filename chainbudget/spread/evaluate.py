@@ -51,6 +51,7 @@ from chainbudget.spread.heat import heat_figures
 from chainbudget.spread.noise import output_noise
 from chainbudget.spread.parts import Part, with_beta
 from chainbudget.spread.settings import HeldSettings, held_settings, worst_of_candidates
+from chainbudget.spread.thd import thd_figures
 from chainbudget.stages.base import Environment
 from chainbudget.supplies import KINDS as SUPPLY_KINDS
 from chainbudget.supplies.base import Corners, SpreadThreshold
@@ -183,6 +184,7 @@ class Evaluator:
         figures.update(_band_figures(self.chain, held, as_set, settings, trials))
         figures.update(_output_figures(self.chain, held, as_set, settings, trials))
         figures.update(output_noise(chain, tuple(envs), frequency, as_set, trials))
+        figures.update(thd_figures(chain, envs, as_set, self.nominal, trials))
         hot_envs = self._hot_envs(chain, betas)
         figures.update(drive_figures(chain, as_set, held, settings, envs, hot_envs, trials))
         figures.update(heat_figures(chain, envs, hot_envs, trials))

@@ -19,7 +19,10 @@ Corner worst case: the signs of D_i give, for each figure, the corner that raise
 and the one that lowers it most, under the linear model (2 corners instead of 2^n). Each
 corner is then confirmed: every single part is flipped to its other bound, and any flip
 that carries the figure further is kept, until none does (a coordinate search over the
-vertices; exact for a figure monotonic in each part).
+vertices; exact for a figure monotonic in each part). A figure that is not (the output
+stage's THD against its emitter resistors: least near Oliver's optimum I_q R_E = V_T) may
+reach further inside the bounds; where the trials go beyond the corners found, their
+extremes stand for the worst case instead.
 """
 
 from __future__ import annotations
@@ -248,8 +251,9 @@ def run_spread(
     corners = _corners(evaluate, paths, deltas, n)
     for p in paths:  # no parts move it: its corners are its nominal value
         corners.setdefault(p, (float(centre[p][0]), float(centre[p][0])))
-        # a figure not monotonic in its parts (a DC's magnitude passing through zero) can
-        # reach its extreme inside the bounds: a trial beyond the vertices found widens them
+        # a figure not monotonic in its parts (a DC's magnitude passing through zero, THD
+        # against R_E about Oliver's optimum) can reach its extreme inside the bounds: a
+        # trial beyond the vertices found widens them
         low, high = corners[p]
         corners[p] = (min(low, float(samples[p].min())), max(high, float(samples[p].max())))
     thresholds = evaluate.thresholds(drawn_rules)

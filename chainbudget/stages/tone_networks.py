@@ -202,6 +202,7 @@ class FeedbackTone(StageKind):
     ``stamp_networks``; the op-amp, its + input at the bias point, is common.
     """
 
+    network_uses_rails = False
     uses_opamp = True
     pots: ClassVar[tuple[str, ...]]
 
