@@ -22,7 +22,9 @@ the same solution (`SectionSolution`).
 
 from __future__ import annotations
 
-from collections.abc import Mapping, Sequence
+from collections.abc import Hashable, Iterator, Mapping, Sequence
+from contextlib import contextmanager
+from contextvars import ContextVar
 from dataclasses import dataclass, field, replace
 
 import numpy as np
@@ -102,6 +104,10 @@ class Cascade:
     #: Each section's own two-port, in the order of ``sections`` (a loop's carries the
     #: ``node{k}`` and ``link{k}`` probes of the stages inside it).
     section_ports: tuple[TwoPort, ...] = ()
+    #: Each stage's clip once worked out (`chainbudget.budget.levels.clip_source_peak`):
+    #: levels, staging, currents, power and the supplies all read it. Not an init field,
+    #: so a cascade made with `dataclasses.replace` starts with none.
+    clips: dict[int, object] = field(default_factory=dict, init=False, compare=False, repr=False)
 
     def section_port(self, section: Section) -> TwoPort:
         """The two-port of one of ``sections``."""
@@ -118,16 +124,90 @@ class Cascade:
         return g1 * self.v_in[section.first] + g2 * self.v_out[section.last]
 
 
+@dataclass
+class _Solved:
+    """What `solving_once` keeps: each stage's solution by everything its solve depends
+    on, and each two-port by what its network depends on (the rails left out for a kind
+    whose network does not change with them, `StageKind.network_uses_rails`)."""
+
+    solutions: dict[Hashable, StageSolution] = field(default_factory=dict)
+    ports: dict[Hashable, TwoPort] = field(default_factory=dict)
+
+
+_SOLVED: ContextVar[_Solved | None] = ContextVar("solved", default=None)
+
+
+@contextmanager
+def solving_once() -> Iterator[None]:
+    """Within the block, a stage solved again with equal parts, environment, frequencies
+    and control positions is the first solve's solution, and a stage whose network does
+    not depend on its rails reuses its two-port at other rails (only its build, which
+    sets its swing limits, is done again). A check solves the same stage in several
+    passes: the power tree's settling, the analysis, the supplies' sag, the noise
+    what-ifs. A solve with any array parameter (a spread's trials) or array-valued
+    environment is not kept."""
+    token = _SOLVED.set(_Solved())
+    try:
+        yield
+    finally:
+        _SOLVED.reset(token)
+
+
+def _as_key(value: object) -> Hashable:
+    """An array as its exact contents (shape, type and bytes); anything else as itself."""
+    if isinstance(value, np.ndarray):
+        return (value.shape, value.dtype.str, value.tobytes())
+    return value
+
+
+def _solve_key(
+    stage: Stage,
+    env: Environment,
+    frequency: NDArray[np.float64],
+    positions: Mapping[str, ArrayLike],
+) -> Hashable | None:
+    """What a stage's solve depends on, or None when some of it cannot be compared."""
+    key = (
+        stage,
+        env,
+        _as_key(np.asarray(frequency)),
+        tuple(sorted((name, _as_key(value)) for name, value in positions.items())),
+    )
+    try:
+        hash(key)
+    except TypeError:  # an array among the stage's values or the environment's rails
+        return None
+    return key
+
+
 def solve_stage(
     stage: Stage,
     env: Environment,
     frequency: NDArray[np.float64],
     positions: Mapping[str, ArrayLike],
 ) -> StageSolution:
-    """Build a stage's network alone and reduce it to a two-port with its probes."""
+    """Build a stage's network alone and reduce it to a two-port with its probes (once per
+    `solving_once` block for the same inputs)."""
+    kind = KINDS[stage.kind]
+    solved = _SOLVED.get()
+    key = network = None
+    if solved is not None:
+        key = _solve_key(stage, env, frequency, positions)
+        if key in solved.solutions:
+            return solved.solutions[key]
+        network = key
+        if key is not None and not kind.network_uses_rails:
+            network = _solve_key(stage, replace(env, rails=None), frequency, positions)
     net = Netlist(frequency)
-    built = KINDS[stage.kind].build(net, stage, env, "in", "out", positions)
-    return StageSolution(stage, two_port(net, "in", "out", built.probes), built)
+    built = kind.build(net, stage, env, "in", "out", positions)
+    port = None if solved is None else solved.ports.get(network)
+    if port is None:
+        port = two_port(net, "in", "out", built.probes)
+    solution = StageSolution(stage, port, built)
+    if solved is not None and key is not None:
+        solved.solutions[key] = solution
+        solved.ports[network] = port
+    return solution
 
 
 def inner_node(k: int) -> str:

@@ -2,11 +2,12 @@
 
 typer (0.2x) checks every command-line value with a pydantic ``TypeAdapter``, built when the
 command runs; importing pydantic and building the adapters costs a start-up about as much as
-numpy's import (docs/performance.md). The values of this command line are paths and short
-strings and flags, so `PlainValuesCommand` and `PlainValuesGroup` give each such parameter a
-coercion that does what typer's own does for what a command line gives it (``Path(text)``
-then typer's own path checks; the text itself for a ``str``; a flag's bool as it is) and
-hand anything else to typer's own coercion.
+numpy's import (docs/performance.md). The values of this command line are paths, short
+strings, flags and counts, so `PlainValuesCommand` and `PlainValuesGroup` give each such
+parameter a coercion that does what typer's own does for what a command line gives it
+(``Path(text)`` then typer's own path checks; the text itself for a ``str``; a flag's bool
+as it is; ASCII digits as the ``int`` they spell) and hand anything else to typer's own
+coercion.
 
 It leans on two things typer does not promise (a parameter's ``_runtime_param`` slot, which
 typer fills lazily, and ``typer._param_types.coerce_cli_path``); if either is missing the
@@ -16,15 +17,20 @@ parameters are left as typer made them, which is slower and otherwise the same.
 
 from __future__ import annotations
 
+import re
 from pathlib import Path
 from typing import Any
 
 import typer.core
 
+# A whole number as a command line writes it most: ASCII digits alone (anything else, a
+# sign, a space, "1e3", goes to typer's own coercion and its messages).
+_DIGITS = re.compile(r"[0-9]+")
+
 
 class PlainValue:
-    """typer's coercion of one ``str``, ``Path`` or ``bool`` parameter, for what the command
-    line gives it."""
+    """typer's coercion of one ``str``, ``Path``, ``bool`` or ``int`` parameter, for what
+    the command line gives it."""
 
     def __init__(self, annotation: type, parameter_info: Any, descriptor: Any) -> None:
         self.annotation = annotation
@@ -41,6 +47,8 @@ class PlainValue:
         if isinstance(value, str) and not (param.multiple or param.nargs == -1):
             if self.annotation is str:
                 return value
+            if self.annotation is int and _DIGITS.fullmatch(value):
+                return int(value)
             if self.annotation is Path:
                 from typer._param_types import coerce_cli_path
 
@@ -68,15 +76,15 @@ def _typer_offers_the_hooks() -> bool:
 
 
 def _give_plain_values(params: list[Any]) -> None:
-    """Fill the coercion slot of each ``str``, ``Path`` and ``bool`` parameter that typer
-    has left empty."""
+    """Fill the coercion slot of each ``str``, ``Path``, ``bool`` and ``int`` parameter that
+    typer has left empty."""
     if not _typer_offers_the_hooks():
         return
     for param in params:
         descriptor = getattr(param, "type_descriptor", None)
         if descriptor is None or getattr(param, "_runtime_param", "absent") is not None:
             continue  # not the typer this was written for: leave the parameter alone
-        if descriptor.annotation in (str, Path, bool) and descriptor.file_annotation is None:
+        if descriptor.annotation in (str, Path, bool, int) and descriptor.file_annotation is None:
             param._runtime_param = PlainValue(
                 descriptor.annotation, descriptor.parameter_info, descriptor
             )

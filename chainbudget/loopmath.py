@@ -61,6 +61,9 @@ def crossings(frequency: ArrayLike, t: ArrayLike) -> Crossings:
     m_lo, m_hi = at(log_m, 0), at(log_m, 1)
     with np.errstate(invalid="ignore", divide="ignore"):
         share = np.where(m_lo != m_hi, m_lo / (m_lo - m_hi), 0.0)
+    # A row that never falls through unity has no crossing: its "share" is between two
+    # arbitrary points and may be huge, so it is not carried into exp (an overflow).
+    share = np.where(found, share, 0.0)
     unity = np.exp(at(log_f, 0) + share * (at(log_f, 1) - at(log_f, 0)))
     angle = at(phase, 0) + share * (at(phase, 1) - at(phase, 0))
     margin = 180.0 + np.degrees(angle)

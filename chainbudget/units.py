@@ -2,7 +2,9 @@
 
 The one pint registry of the project lives here. Everything downstream of the loader works
 in SI floats (V, ohm, A, F, Hz, s, W, K/W; degC for temperatures), so pint appears only at
-this edge and at the display edge.
+this edge and at the display edge. The units chain files write most (`KNOWN_UNITS`) are
+converted here by pint's own factors without importing pint, which is then loaded only for
+a value in any other unit.
 """
 
 from __future__ import annotations
@@ -248,6 +250,42 @@ def _fold(unit: str) -> str:
 _AMBIGUOUS_FARAD_RE = re.compile(r"^(?:mfd|MFD|Mfd|mf|MF|Mf)$")
 
 
+# The units chain files write most, each as the normalised text pint reads and the factor
+# pint converts it to the field's SI unit by: pint's prefixes are these float literals
+# (pint's default_en.txt, e.g. "micro- = 1e-6") and it converts a magnitude by one
+# multiplication with the unit's factor, so ``number * factor`` here is pint's answer to
+# the last bit (held against pint itself for every entry, tests/test_units.py). A value in
+# any other unit goes to pint; pint is then imported (about a third of a second here),
+# which a chain written in these units never needs.
+_SI_PREFIXES = {"p": 1e-12, "n": 1e-9, "u": 1e-6, "m": 1e-3, "": 1.0, "k": 1e3, "M": 1e6}
+_SI_PREFIXES |= {"G": 1e9}
+_PLAIN_SYMBOLS = {"ohm": "ohm", "farad": "F", "hertz": "Hz", "volt": "V", "ampere": "A"}
+_PLAIN_SYMBOLS |= {"watt": "W", "henry": "H"}
+KNOWN_UNITS: dict[str, dict[str, float]] = {
+    si: {prefix + symbol: factor for prefix, factor in _SI_PREFIXES.items()}
+    for si, symbol in _PLAIN_SYMBOLS.items()
+}
+KNOWN_UNITS["volt / second"] = {"V/us": 1e6, "V/ms": 1e3, "V/s": 1.0}
+KNOWN_UNITS["volt / hertz ** 0.5"] = {
+    p + "V/(Hz**0.5)": _SI_PREFIXES[p] for p in ("p", "n", "u", "m", "")
+}
+KNOWN_UNITS["ampere / hertz ** 0.5"] = {
+    p + "A/(Hz**0.5)": _SI_PREFIXES[p] for p in ("p", "n", "u", "")
+} | {"fA/(Hz**0.5)": 1e-15}
+KNOWN_UNITS["kelvin / watt"] = {"K/W": 1.0}
+KNOWN_UNITS["ampere * hour"] = {"Ah": 1.0, "mAh": 1e-3}
+KNOWN_UNITS["dimensionless"] = {"percent": 0.01}
+
+
+def _in_si(number: float, unit: str, dimension: Dimension) -> float | None:
+    """The quantity in SI: from `KNOWN_UNITS` when the unit is there, else through pint;
+    None when neither reads it as ``dimension``."""
+    factor = KNOWN_UNITS.get(dimension.si_unit, {}).get(unit)
+    if factor is not None:
+        return number * factor
+    return _with_pint(number, unit, dimension)
+
+
 def _with_pint(number: float, unit: str, dimension: Dimension) -> float | None:
     """The quantity in SI, or None when pint cannot read it as ``dimension``."""
     try:
@@ -371,9 +409,9 @@ def parse_quantity(value: object, dimension: Dimension) -> float:
                 'a capacitance in "uF" (microfarad) or "mF" (millifarad): "mf" has meant either',
             )
         unit = _normalise_unit_text(written, dimension)
-        result = _with_pint(number, unit, dimension)
+        result = _in_si(number, unit, dimension)
         if result is None and _fold(unit) != unit:
-            result = _with_pint(number, _fold(unit), dimension)
+            result = _in_si(number, _fold(unit), dimension)
         if result is None:
             raise UnitParseError(value, expected)
     if not math.isfinite(result):
@@ -399,6 +437,9 @@ def parse_temperature(value: object) -> float:
     unit = match.group(2)
     if _CELSIUS_RE.match(unit):
         unit = "degC"
+        celsius = float(match.group(1))  # as pint reads degC in degC: unchanged
+        if math.isfinite(celsius) and celsius >= -ABSOLUTE_ZERO_KELVIN_IN_DEGC:
+            return celsius
     elif _FAHRENHEIT_RE.match(unit):
         unit = "degF"
     try:

@@ -692,7 +692,9 @@ def run_case(text: str, file: str = FILE, seconds: float = 60.0, table: bool = T
     from chainbudget import ChainError
     from chainbudget.budget import compute
     from chainbudget.chainfile import loads_chain
-    from chainbudget.report.table_view import render
+    from chainbudget.report.plain_text import plain_text
+    from chainbudget.report.rich_view import print_blocks
+    from chainbudget.report.table_view import report_blocks
 
     with warnings.catch_warnings():
         warnings.simplefilter("error")
@@ -714,8 +716,13 @@ def run_case(text: str, file: str = FILE, seconds: float = 60.0, table: bool = T
 
                 json.dumps(json_ready(data), allow_nan=False)  # what the command prints
                 if table:
-                    console = Console(file=io.StringIO(), width=80, no_color=True)
-                    render(budget, list(budget.findings), console)
+                    # drawn by rich and without it (on a pipe): the same text
+                    blocks = report_blocks(budget, list(budget.findings), noise_detail=True)
+                    out = io.StringIO()
+                    print_blocks(blocks, Console(file=out, width=80, no_color=True))
+                    plain = plain_text(blocks, 80)
+                    if plain is not None and plain != out.getvalue():
+                        return Outcome("plain-text-differs", f"{plain!r:.300}")
         except Hang as exc:
             return Outcome("hang", str(exc))
         except RecursionError as exc:

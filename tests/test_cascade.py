@@ -9,15 +9,22 @@ Brennan, IEEE Trans. CAS-22 (1975) 504), which needs no two-port algebra at all.
 from __future__ import annotations
 
 from collections.abc import Mapping
+from dataclasses import replace
+from pathlib import Path
 
 import numpy as np
 import pytest
 from numpy.typing import ArrayLike
-from stagekit import environment, make_stage, near_ideal_opamp, positions_as_set
+from stagekit import environment, make_stage, near_ideal_opamp, positions_as_set, unloaded_gain
 
-from chainbudget.cascade import cascade, solve_stage, whole_chain_network
-from chainbudget.network import SOURCE_FLOOR_OHM, branch_ref, node_ref
+from chainbudget.budget.steps import _ArrayStage
+from chainbudget.cascade import cascade, solve_stage, solving_once, whole_chain_network
+from chainbudget.fields import FrozenMapping
+from chainbudget.network import SOURCE_FLOOR_OHM, Complex, branch_ref, node_ref
+from chainbudget.stages import KINDS as STAGE_KINDS
+from chainbudget.stages.base import Stage
 
+ROOT = Path(__file__).resolve().parents[1]
 FREQUENCY = np.logspace(1, 5, 17)  # 10 Hz .. 100 kHz
 SOURCE_OHM, LOAD_OHM = 1e3, 600.0
 
@@ -152,3 +159,147 @@ def test_cascade_loading_is_exact_for_a_resistive_pair() -> None:
     np.testing.assert_allclose(1.0 / chain.load_admittance[0], 1e3, rtol=1e-9)
     np.testing.assert_allclose(chain.output_impedance[0], 1e3, rtol=1e-9)
     np.testing.assert_allclose(1.0 / chain.input_admittance, 10e3, rtol=1e-9)
+
+
+# --- a stage solved once per check ---------------------------------------------------------
+
+
+def replace_value(stage: Stage, key: str, value: object) -> Stage:
+    """The stage with one value changed, as the loader holds it (a float: a hashable
+    mapping) or as a spread or sweep steps it (an array, `chainbudget.budget.steps`)."""
+    if isinstance(value, np.ndarray):
+        return _ArrayStage(stage.index, stage.name, stage.kind, {**stage.values, key: value})
+    return Stage(stage.index, stage.name, stage.kind, FrozenMapping({**stage.values, key: value}))
+
+
+# The environment as a chain gives it: its parts libraries in hashable mappings.
+LOADED_ENV = replace(
+    ENV, opamps=FrozenMapping(ENV.opamps), transistors=FrozenMapping(ENV.transistors)
+)
+
+
+def test_a_stage_solved_again_in_one_check_is_the_first_solve() -> None:
+    """Within `solving_once` equal inputs give the one solution; any input that differs
+    (the frequencies, a part value) is solved anew and agrees with a solve outside the
+    block (no stale answer)."""
+    stage, env = STAGES[0], LOADED_ENV
+    at = positions_as_set(stage)
+    with solving_once():
+        first = solve_stage(stage, env, FREQUENCY, at)
+        assert solve_stage(stage, env, FREQUENCY.copy(), dict(at)) is first
+        other_band = solve_stage(stage, env, FREQUENCY[:5], at)
+        other_part = solve_stage(replace_value(stage, "feedback", 47e3), env, FREQUENCY, at)
+    assert solve_stage(stage, env, FREQUENCY, at) is not first  # outside: no keeping
+    plain_band = solve_stage(stage, env, FREQUENCY[:5], at)
+    plain_part = solve_stage(replace_value(stage, "feedback", 47e3), env, FREQUENCY, at)
+    assert other_band is not first and other_part is not first
+    np.testing.assert_array_equal(unloaded_gain(other_band), unloaded_gain(plain_band))
+    np.testing.assert_array_equal(unloaded_gain(other_part), unloaded_gain(plain_part))
+
+
+def test_a_solve_with_array_parts_is_not_kept() -> None:
+    """A spread's trials ride as array parts: such a solve cannot be compared, so each one
+    is solved (and answers as one value at a time would)."""
+    stage = replace_value(STAGES[0], "feedback", np.array([[22e3], [47e3]]))
+    env = LOADED_ENV
+    at = positions_as_set(STAGES[0])
+    with solving_once():
+        one = solve_stage(stage, env, FREQUENCY, at)
+        two = solve_stage(stage, env, FREQUENCY, at)
+    assert one is not two
+    single = solve_stage(replace_value(STAGES[0], "feedback", 47e3), env, FREQUENCY, at)
+    np.testing.assert_allclose(unloaded_gain(two)[1], unloaded_gain(single), rtol=1e-14)
+
+
+def _every_example_stage() -> list[tuple[str, int, str]]:
+    """Each stage on rails of every example chain: its file, index and kind."""
+    from chainbudget.chainfile import load_chain
+
+    found = []
+    for path in sorted((ROOT / "chains").glob("*.toml")):
+        chain = load_chain(path)
+        found += [
+            (path.name, k, stage.kind)
+            for k, stage in enumerate(chain.stages)
+            if STAGE_KINDS[stage.kind].uses_rails  # a volume pot or a block has none
+        ]
+    return found
+
+
+def _two_port_at_rails(
+    name: str, k: int, shift: float, changes: Mapping[str, object] | None = None
+) -> list[Complex]:
+    """Stage k of an example (with ``changes``) solved alone (no keeping) at its rails
+    widened by ``shift`` volts each way, the bias point moved by half of it: every array
+    of its two-port."""
+    from chainbudget.budget.analysis import environments, positions_as_set
+    from chainbudget.chainfile import load_chain
+
+    chain = load_chain(ROOT / "chains" / name).with_values(changes or {})
+    env = environments(chain)[k]
+    assert env.rails is not None
+    rails = replace(
+        env.rails,
+        positive=env.rails.positive + shift,
+        negative=env.rails.negative - shift,
+        bias=env.rails.bias + shift / 2,
+    )
+    frequency = np.logspace(1, 5, 9)
+    stage = chain.stages[k]
+    port = solve_stage(
+        stage, replace(env, rails=rails), frequency, positions_as_set(chain.stages)[k]
+    ).two_port
+    arrays = [port.a, port.b, port.c, port.d]
+    arrays += [np.asarray(g) for pair in port.probes.values() for g in pair]
+    return arrays
+
+
+@pytest.mark.parametrize(
+    ("name", "k"),
+    [
+        (name, k)
+        for name, k, kind in _every_example_stage()
+        if not STAGE_KINDS[kind].network_uses_rails
+    ],
+)
+def test_a_kind_whose_network_ignores_its_rails_solves_the_same_at_any_rails(
+    name: str, k: int
+) -> None:
+    """`StageKind.network_uses_rails` lets a check reuse a two-port at other rails: the
+    claim held against solves at rails 3 V wider (and the bias point moved), brute force."""
+    here, there = _two_port_at_rails(name, k, 0.0), _two_port_at_rails(name, k, 3.0)
+    assert all(np.array_equal(a, b) for a, b in zip(here, there, strict=True))
+
+
+def test_the_kinds_that_make_no_such_claim_do_move_with_their_rails() -> None:
+    """The probe above is not blind: each kind that keeps the flag (a transistor's operating
+    point, hence its gm, can follow its rails) moves with them in some example."""
+    # every example's follower sinks a set current; one on an emitter resistor to its
+    # negative rail draws (V_B - V_BE - V_-)/R_E, and its gm follows (Horowitz & Hill)
+    resistor_bias = {"buffer.bias": "resistor", "buffer.emitter_resistor": "1k"}
+    cases = [(name, k, kind, None) for name, k, kind in _every_example_stage()]
+    cases.append(("busking_amp.toml", 4, "follower", resistor_bias))
+    moved: dict[str, bool] = {}
+    for name, k, kind, changes in cases:
+        if STAGE_KINDS[kind].network_uses_rails:
+            here = _two_port_at_rails(name, k, 0.0, changes)
+            there = _two_port_at_rails(name, k, 3.0, changes)
+            differs = not all(np.array_equal(a, b) for a, b in zip(here, there, strict=True))
+            moved[kind] = moved.get(kind, False) or differs
+    assert moved == {"follower": True, "push_pull": True}
+
+
+def test_a_node_clip_is_worked_out_once_per_cascade_and_never_carried_over() -> None:
+    """`clip_source_peak` keeps each stage's clip on its cascade; a cascade made from it
+    with `dataclasses.replace` (other stages, other clips) starts with none."""
+    from chainbudget.budget.levels import clip_source_peak
+    from chainbudget.budget.supplies import loaded_analysis
+    from chainbudget.chainfile import load_chain
+
+    chain = load_chain(ROOT / "chains" / "busking_amp.toml")
+    nominal = loaded_analysis(chain, corner="low").nominal
+    limited = next(k for k, sol in enumerate(nominal.stages) if sol.built.limits)
+    first = clip_source_peak(nominal, limited)
+    assert first is not None and clip_source_peak(nominal, limited) is first
+    assert not first[0].flags.writeable  # shared, so no figure may change it in place
+    assert replace(nominal, v_out=nominal.v_out).clips == {}

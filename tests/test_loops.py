@@ -525,3 +525,18 @@ def test_an_opamp_driving_a_cable_directly_and_its_isolating_resistor(tmp_path: 
     after = check_json(fixed)
     assert not [f for f in after["findings"] if f["code"] == "phase-margin"]
     assert after["nodes"][0]["phase_margin_deg"] == pytest.approx(own.remedy.margin_deg, abs=0.5)
+
+
+def test_a_loop_that_never_falls_through_unity_has_no_crossing_and_no_overflow() -> None:
+    """A return ratio above unity all along the axis (a fuzzed op-amp far faster than the
+    axis) whose magnitude barely changes between two points: no unity-gain frequency, no
+    margin, and (pytest turns warnings into errors) no overflow on the way."""
+    from chainbudget.loopmath import crossings
+
+    frequency = np.geomspace(1e3, 1e8, 6)
+    flat = np.full(6, 1e3 + 0j)
+    flat[1] *= 1.0 - 1e-12  # log|T| all but equal: the would-be share is ~7e12
+    found = crossings(frequency, np.stack([flat, 10.0 / (1.0 + 1j * frequency / 1e4)]))
+    assert np.isnan(found.unity_gain_hz[0]) and np.isnan(found.phase_margin_deg[0])
+    # the second loop does cross: 10/|1 + j f/10k| = 1 at f = sqrt(99) x 10 kHz (closed form)
+    assert 7e4 < found.unity_gain_hz[1] < 1.3e5

@@ -555,3 +555,82 @@ def test_table_shows_the_noise_figures_and_detail_lists_spectral_contributors() 
     detail = runner.invoke(app, ["check", str(DEMO), "--noise-detail"])
     for label in ("Noise at 100 Hz", "Noise at 1 kHz", "Noise at 10 kHz"):
         assert label in detail.output
+
+
+LOOP_AFTER_VOLUME = (
+    HEAD
+    + """
+[source]
+level = "100 mV"
+impedance = "10k"
+[load]
+impedance = "10k"
+[[stage]]
+name = "volume"
+kind = "volume"
+pot = "10k"
+taper = "log"
+position = 0.5
+[[stage]]
+name = "pre"
+kind = "opamp_gain"
+topology = "non-inverting"
+feedback = "100k"
+ground_leg = "2k2"
+feedback_from = "buf"
+opamp = "legacy_bipolar"
+positive = "rail"
+[[stage]]
+name = "buf"
+kind = "block"
+gain = "0 dB"
+input_impedance = "20 kohm"
+output_impedance = "100 ohm"
+noise = "20 nV/rtHz"
+"""
+)
+POST = """
+[[stage]]
+name = "post"
+kind = "block"
+gain = "0 dB"
+input_impedance = "10 kohm"
+output_impedance = "100 ohm"
+noise = "5 nV/rtHz"
+"""
+
+
+@pytest.mark.parametrize("swept", [True, False], ids=["volume-swept", "volume-fixed"])
+def test_placement_reuses_the_solved_sections_and_equals_the_chain_built_moved(
+    swept: bool, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """The what-if joins the sections the analysis solved in the new order (a loop section
+    renumbered behind the moved pot) instead of solving the chain again: its moved SNR
+    equals that of the chain written with the volume after the loop, solved from its own
+    text, abs 1e-9 dB; nothing is solved again (the solve is made to fail)."""
+    volume = "" if swept else "sweep = false\n"
+    text = LOOP_AFTER_VOLUME.replace("position = 0.5\n", f"position = 0.5\n{volume}") + POST
+    chain = chain_of(text)
+    analysis = analyse(chain)
+    spectra = noise_spectra(
+        chain,
+        analysis.envs,
+        analysis.frequency,
+        analysis.nominal,
+        analysis.temperature_k,
+        analysis.band_slice,
+    )
+    from chainbudget.budget import noise_placement
+
+    def no_solve(*_args: object, **_kwargs: object) -> None:
+        raise AssertionError("the moved chain was solved again")
+
+    monkeypatch.setattr(noise_placement, "solve_chain", no_solve)
+    (cost,) = noise_placement.placement_costs(analysis, spectra)
+    assert (cost.stage, cost.main_stage) == ("volume", "pre")
+    blocks = text.split("[[stage]]")
+    moved_text = "[[stage]]".join([blocks[0], blocks[2], blocks[3], blocks[1], blocks[4]])
+    monkeypatch.undo()
+    moved = budget_of(chain_of(moved_text, "moved.toml"))
+    assert cost.moved_snr_db == pytest.approx(moved.output.snr_db, rel=0, abs=1e-9)
+    assert cost.lift_db > 10.0  # a 10k pot's noise ahead of 33 dB of gain, not after it

@@ -66,7 +66,8 @@ def test_check_does_load_the_analysis() -> None:
     """The probe above would pass vacuously if it saw nothing at all."""
     loaded = _loaded_after(["check", str(BUSKING)])
     assert "chainbudget.budget" in loaded
-    assert "pint" in loaded
+    # every value of the example is in a unit `units.KNOWN_UNITS` reads as pint would
+    assert not {m for m in loaded if m.startswith(("pint", "scipy"))}
     assert "pydantic" not in loaded  # the command line is read by cli_coercion
     # scipy's heavy packages (half the import floor) and matplotlib stay off a check's
     # path: roots by chainbudget.roots, W(e^x) by Newton, pictures only for plot and html.
@@ -75,7 +76,13 @@ def test_check_does_load_the_analysis() -> None:
     assert not {m for m in loaded if m.startswith(heavy)}
 
 
-def _modules_after(args: list[str], prefix: str) -> set[str]:
+def test_a_count_on_the_command_line_is_read_without_pydantic() -> None:
+    """``--trials`` and ``--seed`` are counts: read as typer would, without pydantic."""
+    args = ["spread", str(BUSKING), "--trials", "2", "--seed", "5", "--format", "json"]
+    assert "pydantic" not in _loaded_after(args)
+
+
+def _modules_after(args: list[str], prefix: str, env: dict[str, str] | None = None) -> set[str]:
     """Run the command in a fresh interpreter and list the loaded modules under ``prefix``."""
     code = (
         "import sys\n"
@@ -86,8 +93,31 @@ def _modules_after(args: list[str], prefix: str) -> set[str]:
         "    pass\n"
         f"print(sorted(m for m in sys.modules if m.startswith({prefix!r})))\n"
     )
-    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    done = subprocess.run(
+        [sys.executable, "-c", code], capture_output=True, text=True, check=True, env=env
+    )
     return set(eval(done.stdout.strip().splitlines()[-1]))
+
+
+@pytest.mark.parametrize(
+    "args",
+    [["--format", "json"], ["--format", "toml"], [], ["--noise-detail"]],
+    ids=["json", "toml", "table", "detail"],
+)
+def test_a_check_that_prints_no_styles_loads_no_rich(args: list[str]) -> None:
+    """The JSON and TOML views read the report's areas, which build their tables as plain
+    data (chainbudget/report/layout.py); a table on a pipe is drawn by
+    chainbudget/report/plain_text.py. rich loads only for a terminal (tests/test_plain_text.py
+    holds the two drawings equal)."""
+    # settings that hand the choice of styles to rich itself are not set here
+    env = {k: v for k, v in os.environ.items() if k not in ("FORCE_COLOR", "TTY_COMPATIBLE")}
+    loaded = _modules_after(["check", str(BUSKING), *args], "rich", env)
+    assert loaded == set()
+
+
+def test_the_rich_probe_sees_rich_where_it_draws() -> None:
+    """The probe above would pass vacuously if it never saw rich: blocks draws with it."""
+    assert "rich.table" in _modules_after(["blocks"], "rich")
 
 
 # Kinds the battery-powered busking chain does not name, and the modules only they use.
@@ -160,6 +190,13 @@ def _answers(args: list[str], plain: bool, monkeypatch: pytest.MonkeyPatch) -> t
         ["plot", "{busking}", "-o", "{folder}/x.txt"],
         ["--help"],
         ["no-such-command"],
+        ["spread", "{busking}", "--trials", "3", "--seed", "007", "--format", "json"],
+        ["spread", "{busking}", "--trials", "x"],
+        ["spread", "{busking}", "--trials", "0"],
+        ["spread", "{busking}", "--trials", "+3"],
+        ["spread", "{busking}", "--trials", "1e3"],
+        ["spread", "{busking}", "--seed", "-1", "--trials", "2"],
+        ["spread", "{busking}", "--trials", "٣"],
     ],
 )
 def test_the_command_line_answers_as_typer_alone_would(
@@ -247,11 +284,32 @@ def test_a_damaged_cache_is_cleared_and_the_registry_built_without_it(
     assert list(folder.glob("*.pickle"))
 
 
+def _busking_in_a_rarer_unit(tmp_path: Path) -> Path:
+    """The busking chain with its op-amp's slew rate in MV/s, a unit only pint reads."""
+    text = BUSKING.read_text(encoding="utf-8")
+    assert 'slew_rate = "10 V/us"' in text
+    chain = tmp_path / "busking_mv_per_s.toml"
+    chain.write_text(text.replace('slew_rate = "10 V/us"', 'slew_rate = "10 MV/s"'), "utf-8")
+    return chain
+
+
+def test_a_value_in_a_unit_outside_the_table_is_read_by_pint(tmp_path: Path) -> None:
+    """The probe above would pass vacuously if pint were never reached; the same chain
+    with one value in a rarer unit loads pint and checks to the same report."""
+    chain = _busking_in_a_rarer_unit(tmp_path)
+    assert "pint" in _loaded_after(["check", str(chain)])
+    args = [sys.executable, "-m", "chainbudget", "check", "--format", "json"]
+    rare = subprocess.run([*args, str(chain)], capture_output=True, text=True, check=False)
+    plain = subprocess.run([*args, str(BUSKING)], capture_output=True, text=True, check=False)
+    assert rare.stdout.replace(str(chain), str(BUSKING)) == plain.stdout
+
+
 def test_check_runs_the_same_when_the_cache_cannot_be_written(tmp_path: Path) -> None:
     """Through the real command: a cache home that is a file changes nothing but speed."""
     blocker = tmp_path / "a_file"
     blocker.write_text("not a folder")
-    args = [sys.executable, "-m", "chainbudget", "check", str(BUSKING), "--format", "json"]
+    chain = _busking_in_a_rarer_unit(tmp_path)  # so that pint and its cache are used
+    args = [sys.executable, "-m", "chainbudget", "check", str(chain), "--format", "json"]
     plain = subprocess.run(args, capture_output=True, text=True, check=False)
     env = {**os.environ, "XDG_CACHE_HOME": str(blocker)}
     blocked = subprocess.run(args, capture_output=True, text=True, check=False, env=env)
@@ -280,8 +338,8 @@ def test_a_cache_written_by_another_pint_is_never_read(
 
 def test_the_command_freezes_what_its_start_up_made() -> None:
     """``main`` hands the objects of the start-up imports to ``gc.freeze`` (the collector
-    stops scanning them); calling ``app`` in a process of one's own (as the tests here
-    do) leaves the collector alone."""
+    stops scanning them) and collects the young generation less often; calling ``app`` in
+    a process of one's own (as the tests here do) leaves the collector alone."""
     code = (
         "import gc, sys\n"
         "from chainbudget.cli import {name}\n"
@@ -290,9 +348,9 @@ def test_the_command_freezes_what_its_start_up_made() -> None:
         "    {name}()\n"
         "except SystemExit:\n"
         "    pass\n"
-        "print(gc.get_freeze_count())\n"
+        "print(gc.get_freeze_count(), gc.get_threshold()[0])\n"
     )
-    counts = {}
+    counts, thresholds = {}, {}
     for name in ("main", "app"):
         done = subprocess.run(
             [sys.executable, "-c", code.format(name=name)],
@@ -300,6 +358,9 @@ def test_the_command_freezes_what_its_start_up_made() -> None:
             text=True,
             check=True,
         )
-        counts[name] = int(done.stdout.strip().splitlines()[-1])
+        count, threshold = done.stdout.strip().splitlines()[-1].split()
+        counts[name], thresholds[name] = int(count), int(threshold)
     assert counts["main"] > 10_000  # numpy, typer and the loader at least
     assert counts["app"] == 0
+    # the young generation collected every 50,000 allocations in the command, not 700
+    assert thresholds == {"main": 50_000, "app": 700}

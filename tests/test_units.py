@@ -468,3 +468,57 @@ def test_any_text_is_a_value_or_a_unit_parse_error(text: str) -> None:
             parse(text)
         except UnitParseError:
             pass
+
+
+# --- the units read without pint ---------------------------------------------------------
+
+_KNOWN = [(si, unit) for si, table in units.KNOWN_UNITS.items() for unit in table]
+
+
+@pytest.mark.parametrize(("si", "unit"), _KNOWN)
+@given(
+    number=st.floats(min_value=-1e6, max_value=1e6, allow_nan=False, allow_infinity=False)
+    | st.sampled_from([4.7, 2.2, 0.1, 0.47, 6.8, 33.0, 1e-3, 470.0])
+)
+def test_a_known_unit_reads_as_pint_reads_it_to_the_last_bit(
+    si: str, unit: str, number: float
+) -> None:
+    """Pint is the reference: the table answers exactly as pint's own conversion would."""
+    expected = float(units.registry().Quantity(number, unit).to(si).magnitude)
+    assert number * units.KNOWN_UNITS[si][unit] == expected
+
+
+@pytest.mark.parametrize(
+    ("text", "dimension"),
+    [
+        ("4.7 kOhm", units.OHM),
+        ("2.2 uF", units.FARAD),
+        ("100 nF", units.FARAD),
+        ("1 kHz", units.HERTZ),
+        ("7 V/us", units.SLEW),
+        ("4.5 nV/rtHz", units.NOISE_VOLTAGE),
+        ("0.7 pA/√Hz", units.NOISE_CURRENT),
+        ("2.5 K/W", units.THERMAL_RESISTANCE),
+        ("2.2 Ah", units.CHARGE),
+        ("25 mA", units.AMPERE),
+    ],
+)
+def test_a_value_in_a_known_unit_equals_the_pint_reading(
+    text: str, dimension: units.Dimension
+) -> None:
+    """The whole reading (spelling normalised, then the table) against the same text read
+    with the table emptied, that is by pint alone."""
+    fast = units.parse_quantity(text, dimension)
+    saved = dict(units.KNOWN_UNITS)
+    units.KNOWN_UNITS.clear()
+    try:
+        assert units.parse_quantity(text, dimension) == fast
+    finally:
+        units.KNOWN_UNITS.update(saved)
+
+
+@given(st.floats(min_value=-273.15, max_value=1e4, allow_nan=False))
+def test_a_celsius_temperature_reads_as_pint_reads_it(celsius: float) -> None:
+    text = f"{celsius!r} degC"
+    expected = float(units.registry().Quantity(celsius, "degC").to("degC").magnitude)
+    assert units.parse_temperature(text) == expected

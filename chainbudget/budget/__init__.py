@@ -47,6 +47,7 @@ from chainbudget.budget.staging import (
     volume_reach,
 )
 from chainbudget.budget.supplies import loaded_analysis, supply_budgets
+from chainbudget.cascade import solving_once
 from chainbudget.chainfile import Chain, ChainFileError
 from chainbudget.finding import Finding
 from chainbudget.findings import findings as draw_findings
@@ -265,7 +266,8 @@ def compute(chain: Chain) -> Budget:
     tree (`chainbudget.budget.supplies.loaded_analysis`): the swing limits a build must meet.
     """
     try:
-        budget = budget_from(loaded_analysis(chain, corner="low"))
+        with solving_once():
+            budget = budget_from(loaded_analysis(chain, corner="low"))
     except SingularNetwork as exc:  # the whole chain's network (noise): no one stage to name
         raise ChainFileError(chain.file, "stage", f"the chain's {exc}") from None
     return replace(budget, findings=tuple(draw_findings(budget)))

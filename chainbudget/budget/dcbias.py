@@ -12,7 +12,9 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass, replace
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, cast
+
+import numpy as np
 
 from chainbudget.chainfile import Chain
 from chainbudget.loops import Section, sections
@@ -145,9 +147,12 @@ class DcPoint:
 
 
 def _clamp(value: float | None, window: DcWindow | None) -> float | None:
+    """``value`` held within the window; element-wise where the parts are arrays over a
+    trial axis (`chainbudget.spread.dc`), a plain float otherwise."""
     if value is None or window is None:
         return value
-    return min(max(value, window.low_v), window.high_v)
+    held = np.minimum(np.maximum(value, window.low_v), window.high_v)
+    return float(held) if np.ndim(held) == 0 else cast(float, held)
 
 
 def dc_points(analysis: Analysis) -> tuple[DcPoint, ...]:
@@ -282,7 +287,13 @@ def dc_errors(analysis: Analysis) -> tuple[float | None, ...]:
     gives the error at the sensed node, its loop gain taking out what the stages inside
     add (their V_BE differences divided by A0 beta); the nodes inside are left unknown.
     """
-    stages, envs = stages_at_dc(analysis.chain), analysis.envs
+    return dc_error_walk(analysis.chain, analysis.envs)
+
+
+def dc_error_walk(chain: Chain, envs: Sequence[Environment]) -> tuple[float | None, ...]:
+    """`dc_errors` of ``chain`` with each stage in its environment ``envs[k]`` (the parts
+    may be arrays over a trial axis)."""
+    stages = stages_at_dc(chain)
     found: list[float | None] = []
     error: float | None = 0.0  # the source sits at 0 V DC, exactly
     for section in sections(stages):

@@ -13,6 +13,7 @@ min_l(L_l/|q_l|) / (sqrt(2) V_max), in dB.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import cast
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -72,15 +73,22 @@ def clip_source_peak(cas: Cascade, k: int) -> tuple[NDArray[np.float64], NDArray
     """Source open-circuit peak voltage at which stage k reaches its tightest limit.
 
     Returns the peak (shape ``batch + (F,)``) and the index of the binding limit, or None
-    for a stage that declares no limit.
+    for a stage that declares no limit. Worked out once per cascade and stage (read-only
+    arrays: every figure that needs a node's clip shares them).
     """
+    if k in cas.clips:
+        return cast(tuple[NDArray[np.float64], NDArray[np.intp]] | None, cas.clips[k])
     limits = cas.stages[k].built.limits
-    if not limits:
-        return None
-    with np.errstate(divide="ignore"):
-        peaks = [np.asarray(lim.peak) / np.abs(cas.probe(k, lim.probe)) for lim in limits]
-    stacked = np.stack(np.broadcast_arrays(*peaks))
-    return stacked.min(axis=0), stacked.argmin(axis=0)
+    found = None
+    if limits:
+        with np.errstate(divide="ignore"):
+            peaks = [np.asarray(lim.peak) / np.abs(cas.probe(k, lim.probe)) for lim in limits]
+        stacked = np.stack(np.broadcast_arrays(*peaks))
+        peak, binding = stacked.min(axis=0), stacked.argmin(axis=0)
+        peak.flags.writeable = binding.flags.writeable = False
+        found = (peak, binding)
+    cas.clips[k] = found
+    return found
 
 
 def set_point_index(analysis: Analysis, overrides: dict[str, float] | None = None) -> tuple:

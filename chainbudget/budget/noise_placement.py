@@ -1,5 +1,11 @@
 """What placing an attenuating stage ahead of the main gain costs in output SNR: the chain
-solved again with the stage moved, and both output SNRs compared."""
+with the stage moved, and both output SNRs compared.
+
+Moving a stage changes no section's own network (each stage keeps its parts, rails and
+controls as set; a pot is never moved into or out of a loop): the sections the analysis
+solved are joined again in the new order (`chainbudget.cascade.cascade`), and only what
+the order changes is worked out again, the cascade's terminations and the noise each stage
+meets through them (`chainbudget.budget.noise_spectra`)."""
 
 from __future__ import annotations
 
@@ -8,9 +14,13 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from chainbudget.budget.analysis import Analysis, positions_as_set, solve_chain
+from chainbudget.budget.analysis import Analysis, chain_ends, positions_as_set, solve_chain
 from chainbudget.budget.noise_spectra import NoiseSpectra, noise_spectra, unweighted
-from chainbudget.loops import Section
+from chainbudget.budget.segments import map_section
+from chainbudget.cascade import Cascade, Injection, SectionSolution, cascade
+from chainbudget.chainfile import Chain
+from chainbudget.loops import Section, sections
+from chainbudget.network import Complex, TwoPort
 from chainbudget.stages import KINDS
 
 # A stage with more voltage gain than this at the reference is a gain stage (a factor of 2;
@@ -79,7 +89,9 @@ def placement_costs(analysis: Analysis, spectra: NoiseSpectra) -> list[Placement
         order = [*range(v), *range(v + 1, main + 1), v, *range(main + 1, len(stages))]
         moved = replace(chain, stages=tuple(stages[k] for k in order))
         envs = tuple(analysis.envs[k] for k in order)
-        cas = solve_chain(moved, envs, analysis.frequency, positions_as_set(moved.stages))
+        cas = _moved_cascade(analysis, moved, order)
+        if cas is None:  # no solved sections at hand: solve the moved chain
+            cas = solve_chain(moved, envs, analysis.frequency, positions_as_set(moved.stages))
         moved_spectra = noise_spectra(
             moved, envs, analysis.frequency, cas, analysis.temperature_k, analysis.band_slice
         )
@@ -98,3 +110,64 @@ def placement_costs(analysis: Analysis, spectra: NoiseSpectra) -> list[Placement
             )
         )
     return found
+
+
+def _as_set_sections(analysis: Analysis) -> list[SectionSolution] | None:
+    """Each section of the chain with its controls as set, as the analysis solved it: the
+    setting's combination of each section's grid (the nominal solve itself where the
+    section sweeps nothing). None when the analysis holds no grids."""
+    if len(analysis.grids) != len(sections(analysis.chain.stages)):
+        return None
+    found = []
+    for grid in analysis.grids:
+
+        def at_setting(arrays: list[Complex], combo: int = grid.set_combo) -> Complex:
+            return arrays[0][combo]
+
+        found.append(map_section([grid.solution], at_setting))
+    return found
+
+
+def _renumbered(solution: SectionSolution, first: int) -> SectionSolution:
+    """A solved section moved to start at stage ``first``: its network is the same, only
+    the stage indices its loop's probes and injections are keyed by move with it."""
+    old = solution.section
+    shift = first - old.first
+    if shift == 0:
+        return solution
+    section = Section(first, old.last + shift)
+    if not old.is_loop:
+        return replace(solution, section=section)
+
+    def key(name: str) -> str:
+        for prefix in ("node", "link"):
+            if name.startswith(prefix) and name[len(prefix) :].isdigit():
+                return f"{prefix}{int(name[len(prefix) :]) + shift}"
+        return name
+
+    tp = solution.two_port
+    probes = {key(name): pair for name, pair in tp.probes.items()}
+    injections: dict[int, Injection] = {k + shift: i for k, i in solution.injections.items()}
+    return replace(
+        solution,
+        section=section,
+        two_port=TwoPort(tp.a, tp.b, tp.c, tp.d, probes),
+        injections=injections,
+    )
+
+
+def _moved_cascade(analysis: Analysis, moved: Chain, order: list[int]) -> Cascade | None:
+    """The moved chain's cascade joined from the sections the analysis solved (stage
+    ``order[j]`` of the chain is stage j of ``moved``); None when they are not at hand or
+    the move would split a section (the caller then solves the moved chain)."""
+    solved = _as_set_sections(analysis)
+    if solved is None:
+        return None
+    by_first = {sol.section.first: sol for sol in solved}
+    found = []
+    for section in sections(moved.stages):
+        sol = by_first.get(order[section.first])
+        if sol is None or [order[j] for j in section.indices] != list(sol.section.indices):
+            return None
+        found.append(_renumbered(sol, section.first))
+    return cascade(found, *chain_ends(moved, analysis.frequency))

@@ -205,7 +205,7 @@ def _reactive_corner(chain: Chain, output_cap: float, z_out: complex) -> float |
     return float(f[np.flatnonzero(down)[-1]])
 
 
-def _voltage_clip_source_peak(cas: Cascade, k: int) -> NDArray[np.float64]:
+def voltage_clip_source_peak(cas: Cascade, k: int) -> NDArray[np.float64]:
     """Source peak at which stage k reaches its tightest limit other than a current limit,
     on the cascade's full shape (inf where it has none)."""
     shape = np.shape(cas.v_out[k])
@@ -234,7 +234,7 @@ def opamp_drives(analysis: Analysis) -> list[OpAmpDrive]:
             probe = f"{label}.current"
             per_volt = _at_reference(analysis.nominal.probe(k, probe))
             swept = analysis.swept
-            level = np.minimum(max_peak, _voltage_clip_source_peak(swept, k))
+            level = np.minimum(max_peak, voltage_clip_source_peak(swept, k))
             asked = np.abs(np.broadcast_to(swept.probe(k, probe), level.shape)) * level
             band = asked[..., analysis.band_slice]
             at = np.unravel_index(int(np.argmax(band)), band.shape)

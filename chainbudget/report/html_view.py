@@ -2,7 +2,7 @@
 
 Inline CSS, the pictures as inline SVG, no script and nothing fetched from the network: the
 page reads the same offline, printed or mailed. It holds the verdict, the safety cautions,
-the findings, every table of the terminal report (the same `rich` tables, as HTML tables)
+the findings, every table of the terminal report (the same tables, as HTML tables)
 and the pictures with their one-line summaries. No date is written, so the same chain gives
 the same page.
 """
@@ -12,13 +12,11 @@ from __future__ import annotations
 from collections.abc import Sequence
 from html import escape
 
-from rich.table import Table
-from rich.text import Text
-
 from chainbudget import __version__
 from chainbudget.budget import Budget
 from chainbudget.finding import Finding
 from chainbudget.notation import eng
+from chainbudget.report.layout import ReportTable
 from chainbudget.report.pictures import Picture
 from chainbudget.report.pictures.style import svg_markup
 from chainbudget.report.table_view import (
@@ -56,34 +54,21 @@ footer { margin-top: 2em; font-size: 0.8em; color: #555; }
 """
 
 
-def _plain(cell: object) -> str:
-    """A rich cell as plain text (its markup resolved as the terminal shows it)."""
-    if isinstance(cell, Text):
-        return cell.plain
-    if isinstance(cell, str):
-        return Text.from_markup(cell).plain
-    return str(cell)
-
-
-def table_html(table: Table) -> str:
-    """A rich table as an HTML table: its title the caption, right-justified columns as
+def table_html(table: ReportTable) -> str:
+    """A report table as an HTML table: its title the caption, right-justified columns as
     numbers."""
-    numeric = [' class="num"' if column.justify == "right" else "" for column in table.columns]
+    numeric = [' class="num"' if justify == "right" else "" for justify in table.justify]
     head = "".join(
-        f'<th scope="col"{num}>{escape(_plain(column.header))}</th>'
-        for column, num in zip(table.columns, numeric, strict=True)
+        f'<th scope="col"{num}>{escape(header)}</th>'
+        for header, num in zip(table.headers, numeric, strict=True)
     )
-    columns = [list(column.cells) for column in table.columns]
     rows = [
         "<tr>"
-        + "".join(
-            f"<td{num}>{escape(_plain(cell))}</td>"
-            for cell, num in zip(cells, numeric, strict=True)
-        )
+        + "".join(f"<td{num}>{escape(cell)}</td>" for cell, num in zip(cells, numeric, strict=True))
         + "</tr>"
-        for cells in zip(*columns, strict=True)
+        for cells in table.rows
     ]
-    caption = f"<caption>{escape(_plain(table.title))}</caption>" if table.title else ""
+    caption = f"<caption>{escape(table.title)}</caption>" if table.title else ""
     return f"<table>{caption}<thead><tr>{head}</tr></thead><tbody>{''.join(rows)}</tbody></table>"
 
 

@@ -4,11 +4,10 @@ from __future__ import annotations
 
 from typing import Any
 
-from rich.table import Table
-
 from chainbudget.budget import Budget
 from chainbudget.budget.hum import HumBudget
 from chainbudget.notation import decibels, eng
+from chainbudget.report.layout import ReportTable
 from chainbudget.report.tables import add_row, new_table
 
 #: Paths listed in the table (the JSON lists every one).
@@ -75,7 +74,7 @@ def json_part(budget: Budget) -> dict[str, Any]:
 # --- tables ----------------------------------------------------------------------------------
 
 
-def _figures_table(hum: HumBudget, budget: Budget) -> Table:
+def _figures_table(hum: HumBudget, budget: Budget) -> ReportTable:
     table = new_table(
         "Hum: mains ripple at the output (nominal line and load; A: IEC 61672-1)",
         "figure",
@@ -101,7 +100,7 @@ def _figures_table(hum: HumBudget, budget: Budget) -> Table:
     return table
 
 
-def _paths_table(hum: HumBudget) -> Table:
+def _paths_table(hum: HumBudget) -> ReportTable:
     table = new_table(
         "Hum by path: each alone at the output",
         "stage",
@@ -116,7 +115,7 @@ def _paths_table(hum: HumBudget) -> Table:
     return table
 
 
-def _spread_table(hum: HumBudget, budget: Budget) -> Table:
+def _spread_table(hum: HumBudget, budget: Budget) -> ReportTable:
     """Hum at each node beside its harmonics at the output (two lists side by side)."""
     table = new_table(
         "Hum at each node, and at the output by harmonic",
@@ -143,7 +142,7 @@ def _spread_table(hum: HumBudget, budget: Budget) -> Table:
     return table
 
 
-def tables(budget: Budget) -> list[Table]:
+def tables(budget: Budget) -> list[ReportTable]:
     """The hum figures, its paths, and the hum at each node and harmonic (none when no rail
     carries mains ripple)."""
     hum = _hum(budget)

@@ -6,14 +6,13 @@ from __future__ import annotations
 from collections.abc import Iterable
 from typing import Any
 
-from rich.table import Table
-
 from chainbudget.kindfigures import KindFigures
 from chainbudget.notation import figure_text
+from chainbudget.report.layout import ReportTable
 from chainbudget.report.tables import add_row, new_table
 
 
-def figures_table(title: str, figures: Iterable[KindFigures]) -> Table | None:
+def figures_table(title: str, figures: Iterable[KindFigures]) -> ReportTable | None:
     """One two-column table (figure, value) of one stage's or supply's own figures; the
     figures that are not known (None) are left out."""
     table = new_table(title, "figure", "value")

@@ -5,11 +5,10 @@ from __future__ import annotations
 from collections.abc import Callable
 from typing import Any
 
-from rich.table import Table
-
 from chainbudget.budget import Budget
 from chainbudget.budget.noise import NoiseBudget
 from chainbudget.notation import DASH, decibels, eng
+from chainbudget.report.layout import ReportTable
 from chainbudget.report.tables import add_row, new_table
 
 
@@ -132,7 +131,7 @@ NODE_COLUMNS: list[tuple[str, str, Callable[[Budget, int], str]]] = [
 ]
 
 
-def _figures_table(noise: NoiseBudget, budget: Budget) -> Table:
+def _figures_table(noise: NoiseBudget, budget: Budget) -> ReportTable:
     table = new_table(
         f"Noise over {eng(budget.band_hz[0], 'Hz')} to {eng(budget.band_hz[1], 'Hz')} "
         "(controls as set; A: IEC 61672-1)",
@@ -190,7 +189,7 @@ def _figures_table(noise: NoiseBudget, budget: Budget) -> Table:
     return table
 
 
-def contributors_table(noise: NoiseBudget) -> Table:
+def contributors_table(noise: NoiseBudget) -> ReportTable:
     """The ten largest noise sources at the output, ranked by share of the noise power."""
     table = new_table(
         "Largest noise sources at the output (share of band noise power)",
@@ -215,7 +214,7 @@ def contributors_table(noise: NoiseBudget) -> Table:
     return table
 
 
-def tables(budget: Budget) -> list[Table]:
+def tables(budget: Budget) -> list[ReportTable]:
     """The chain's noise figures and its ranked contributors."""
     noise = budget.noise
     if noise is None:
@@ -223,7 +222,7 @@ def tables(budget: Budget) -> list[Table]:
     return [_figures_table(noise, budget), contributors_table(noise)]
 
 
-def detail_tables(budget: Budget) -> list[Table]:
+def detail_tables(budget: Budget) -> list[ReportTable]:
     """Spectral detail (``check --noise-detail``): at each listed frequency the output noise
     density, its input-referred value and the largest contributors."""
     noise = budget.noise

@@ -7,12 +7,11 @@ import math
 from dataclasses import asdict
 from typing import Any
 
-from rich.table import Table
-
 from chainbudget.budget import Budget
 from chainbudget.budget.power import OutputFigures
 from chainbudget.notation import DASH, eng
 from chainbudget.report.kinds import figures_table, place
+from chainbudget.report.layout import ReportTable
 from chainbudget.report.tables import add_row, new_table
 
 # The contract's keys of the ``output`` object; a kind's figures fill the ones it knows.
@@ -71,7 +70,7 @@ def _db(value: float | None) -> str:
     return f"{value:.1f} dB" if math.isfinite(value) else "no limit given"
 
 
-def output_table(out: OutputFigures) -> Table:
+def output_table(out: OutputFigures) -> ReportTable:
     table = new_table(
         f"Output into {eng(out.load_ohm, 'ohm')} (reference frequency; sine)",
         "figure",
@@ -121,7 +120,7 @@ def output_table(out: OutputFigures) -> Table:
     return table
 
 
-def drive_table(budget: Budget) -> Table | None:
+def drive_table(budget: Budget) -> ReportTable | None:
     ops = [op for node in budget.nodes for op in node.opamps]
     if not ops:
         return None
@@ -150,7 +149,7 @@ def drive_table(budget: Budget) -> Table | None:
     return table
 
 
-def currents_table(budget: Budget) -> Table | None:
+def currents_table(budget: Budget) -> ReportTable | None:
     currents = [n.currents for n in budget.nodes if n.currents is not None]
     if not any(c.idle_a or c.clip_a for c in currents):
         return None
@@ -162,10 +161,10 @@ def currents_table(budget: Budget) -> Table | None:
     return table
 
 
-def tables(budget: Budget) -> list[Table]:
+def tables(budget: Budget) -> list[ReportTable]:
     """Output (when the chain ends in a power stage or the load has a sensitivity), each
     stage kind's own figures, op-amp drive and stage currents."""
-    found: list[Table] = []
+    found: list[ReportTable] = []
     out = budget.output
     if out is not None and (out.power_stage or out.max_spl_db is not None):
         found.append(output_table(out))

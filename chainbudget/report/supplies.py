@@ -5,11 +5,10 @@ from __future__ import annotations
 
 from typing import Any
 
-from rich.table import Table
-
 from chainbudget.budget import Budget
 from chainbudget.notation import DASH, eng
 from chainbudget.report.kinds import figures_table
+from chainbudget.report.layout import ReportTable
 from chainbudget.report.tables import add_row, new_table
 from chainbudget.supplies.base import SupplyBudget
 
@@ -66,7 +65,7 @@ def _range(low: float | None, high: float | None) -> str:
     return f"{low:.3g}..{high:.3g} V"
 
 
-def tables(budget: Budget) -> list[Table]:
+def tables(budget: Budget) -> list[ReportTable]:
     """The supplies' voltages and loads (two tables, to read at 80 columns), then each
     supply's own figures."""
     if not budget.supplies:

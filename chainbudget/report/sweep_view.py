@@ -1,4 +1,4 @@
-"""A sweep as a table (rich), CSV or JSON: one row per step of the swept control or value."""
+"""A sweep as a table, CSV or JSON: one row per step of the swept control or value."""
 
 from __future__ import annotations
 
@@ -9,11 +9,10 @@ from collections.abc import Sequence
 from dataclasses import asdict, dataclass
 from typing import Any
 
-from rich.table import Table
-
 from chainbudget.budget.sweep import SweepRow
 from chainbudget.notation import DASH, decibels, eng
 from chainbudget.report.json_view import json_ready
+from chainbudget.report.layout import ReportTable
 from chainbudget.report.tables import add_row, new_table
 
 # The columns of the CSV and the keys of each JSON step, in order.
@@ -49,7 +48,7 @@ def _value_text(info: SweepInfo, value: float) -> str:
     return eng(value, info.unit)
 
 
-def sweep_table(info: SweepInfo, rows: Sequence[SweepRow]) -> Table:
+def sweep_table(info: SweepInfo, rows: Sequence[SweepRow]) -> ReportTable:
     """One row per step: the value and the chain's key figures there."""
     what = "rotation" if info.control else "value"
     table = new_table(

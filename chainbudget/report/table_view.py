@@ -1,26 +1,30 @@
-"""The budget as a terminal report (rich), verdict first.
+"""The budget as a terminal report, verdict first.
 
 Order: the chain's title and conditions; the verdict (counts by severity, the stage that
 clips first and by how much, the SNR, the output power and each supply's state); the
 findings, coloured by severity; the safety cautions; then, unless ``brief``, every table.
 Every table reads at 80 columns: wide ones are split, cells wrap and never crop.
+
+The report is built as plain blocks (`layout`); `terminal.shown` draws them (plain text
+on a pipe or in a file, rich on a colour terminal), `render` on a given rich console.
 """
 
 from __future__ import annotations
 
 from collections.abc import Callable
-
-from rich.console import Console
-from rich.table import Table
-from rich.text import Text
+from typing import TYPE_CHECKING
 
 from chainbudget.budget import Budget, NodeBudget
 from chainbudget.finding import SEVERITIES, Finding
 from chainbudget.notation import DASH, decibels, eng, settings_text
 from chainbudget.report import dcbias, hum, noise, power, supplies
+from chainbudget.report.layout import BLANK, Drawn, Grid, Line, ReportTable, line
 from chainbudget.report.tables import add_row, new_table
 from chainbudget.source_network import describe
 from chainbudget.units import vrms_to_dbu
+
+if TYPE_CHECKING:
+    from rich.console import Console
 
 # Areas of the budget add columns to the node table (NODE_COLUMNS: header, justify and a
 # cell function of (budget, k)) and tables of their own (TABLES).
@@ -28,7 +32,7 @@ NODE_COLUMNS: list[tuple[str, str, Callable[[Budget, int], str]]] = [
     *noise.NODE_COLUMNS,
     *dcbias.NODE_COLUMNS,
 ]
-TABLES: list[Callable[[Budget], list[Table]]] = [
+TABLES: list[Callable[[Budget], list[ReportTable]]] = [
     noise.tables,
     hum.tables,
     supplies.tables,
@@ -49,11 +53,11 @@ def _plural(n: int, word: str) -> str:
     return f"{n} {word}" + ("" if n == 1 else "s")
 
 
-def verdict_lines(budget: Budget, found: list[Finding]) -> list[Text]:
+def verdict_lines(budget: Budget, found: list[Finding]) -> list[Line]:
     """The verdict: counts by severity, then one line each for the first stage to clip, the
     noise, the output and every supply."""
     counts = {severity: sum(fi.severity == severity for fi in found) for severity in SEVERITIES}
-    head = Text("Verdict: ", style="bold")
+    spans = [("Verdict: ", "")]
     parts = [
         (_plural(counts["error"], "error"), "bold red" if counts["error"] else "green"),
         (_plural(counts["warning"], "warning"), "yellow" if counts["warning"] else ""),
@@ -61,12 +65,12 @@ def verdict_lines(budget: Budget, found: list[Finding]) -> list[Text]:
         (_plural(counts["caution"], "caution"), "magenta" if counts["caution"] else ""),
     ]
     for i, (text, style) in enumerate(parts):
-        head.append(("" if i == 0 else ", ") + text, style=style)
-    lines = [head]
+        spans.append((("" if i == 0 else ", ") + text, style))
+    lines = [Line(tuple(spans), "bold")]
     if budget.first_clip is not None:
         node = budget.node(budget.first_clip)
         lines.append(
-            Text(
+            line(
                 f"  first to clip at max_level: {node.stage} ({node.levels.limited_by}), "
                 f"{decibels(node.headroom_db)} dB at {eng(budget.reference_hz, 'Hz')}"
             )
@@ -75,7 +79,7 @@ def verdict_lines(budget: Budget, found: list[Finding]) -> list[Text]:
     if ahead:
         worst = min(ahead, key=lambda n: n.worst_headroom_db or 0.0)
         lines.append(
-            Text(
+            line(
                 f"  worst over band and controls: {worst.stage}, "
                 f"{decibels(worst.worst_headroom_db)} dB"
             )
@@ -83,7 +87,7 @@ def verdict_lines(budget: Budget, found: list[Finding]) -> list[Text]:
     if budget.noise is not None:
         out = budget.noise.output
         lines.append(
-            Text(
+            line(
                 f"  SNR at the output: {decibels(out.snr_a_db, signed=False)} dB(A), "
                 f"{decibels(out.snr_db, signed=False)} dB unweighted; floor set by {out.set_by}"
             )
@@ -91,7 +95,7 @@ def verdict_lines(budget: Budget, found: list[Finding]) -> list[Text]:
     hum = budget.hum
     if hum is not None and hum.dominant is not None:
         lines.append(
-            Text(
+            line(
                 f"  hum: {eng(hum.output_a_vrms, 'V')}(A), {decibels(hum.hum_to_noise_db)} dB "
                 f"re the noise; largest path {hum.dominant.stage} ({hum.dominant.path})"
             )
@@ -105,13 +109,13 @@ def verdict_lines(budget: Budget, found: list[Finding]) -> list[Text]:
             if out_fig.clip_stage is not None
             else "no stage declares an output limit"
         )
-        lines.append(Text(f"  maximum output: {power_text}"))
+        lines.append(line(f"  maximum output: {power_text}"))
     for s in budget.supplies:
         told = [fi for fi in found if fi.supply == s.name and fi.severity != "caution"]
         worst_told = min(told, key=lambda fi: SEVERITIES.index(fi.severity), default=None)
         state = "ok" if worst_told is None else f"{worst_told.severity}: {worst_told.code}"
         lines.append(
-            Text(
+            line(
                 f"  supply {s.name} ({s.kind}): {eng(s.vout_v, 'V')}, "
                 f"{eng(s.output_min_v, 'V')} to {eng(s.output_max_v, 'V')}; {state}"
             )
@@ -119,27 +123,24 @@ def verdict_lines(budget: Budget, found: list[Finding]) -> list[Text]:
     return lines
 
 
-def findings_table(found: list[Finding], severities: tuple[str, ...]) -> Table | None:
+def findings_table(found: list[Finding], severities: tuple[str, ...]) -> Grid | None:
     """The findings of the given severities: a mark column and the text, wrapped."""
     shown = [fi for fi in found if fi.severity in severities]
     if not shown:
         return None
-    table = Table.grid(padding=(0, 1))
-    table.add_column(no_wrap=True)
-    table.add_column(overflow="fold")
+    rows = []
     for fi in shown:
         label, style = SEVERITY_STYLE[fi.severity]
         about = fi.stage or fi.supply
-        body = Text()
-        body.append(fi.code, style="bold")
+        body = [(fi.code, "bold")]
         if about:
-            body.append(f" [{about}]")
-        body.append(f": {fi.message}")
-        table.add_row(Text(label, style=style), body)
-    return table
+            body.append((f" [{about}]", ""))
+        body.append((f": {fi.message}", ""))
+        rows.append((line(label, style), Line(tuple(body))))
+    return Grid(tuple(rows))
 
 
-def levels_table(budget: Budget) -> Table:
+def levels_table(budget: Budget) -> ReportTable:
     """Gain staging at the reference with the controls as set."""
     table = new_table(
         "Levels at the reference, controls as set",
@@ -184,7 +185,7 @@ def _where(budget: Budget, n: NodeBudget) -> str:
     )
 
 
-def headroom_table(budget: Budget) -> Table:
+def headroom_table(budget: Budget) -> ReportTable:
     """Headroom of max_level: at the reference as set, and the worst over band and controls
     (behind the volume: how far the volume may turn instead)."""
     table = new_table(
@@ -203,7 +204,7 @@ def headroom_table(budget: Budget) -> Table:
     return table
 
 
-def loading_table(budget: Budget) -> Table:
+def loading_table(budget: Budget) -> ReportTable:
     """One row per node: output impedance, what it drives, and each area's node columns."""
     table = new_table(
         "Nodes: impedances, noise and DC (controls as set)",
@@ -233,38 +234,44 @@ def reactive_source_text(budget: Budget) -> str:
     )
 
 
-def render(budget: Budget, found: list[Finding], console: Console, brief: bool = False) -> None:
-    """Print the report: verdict, findings, cautions, then (unless ``brief``) the tables."""
-    title = Text(budget.title, style="bold")
-    title.append(f"  ({budget.file})", style="")
-    console.print(title)
-    console.print(
-        Text(
+def report_blocks(
+    budget: Budget, found: list[Finding], brief: bool = False, noise_detail: bool = False
+) -> list[Drawn]:
+    """The report: verdict, findings, cautions, then (unless ``brief``) the tables, and the
+    noise's spectral detail when asked for."""
+    title = Line(((budget.title, ""), (f"  ({budget.file})", "")), "bold")
+    blocks: list[Drawn] = [
+        title,
+        line(
             f"reference {eng(budget.reference_hz, 'Hz')}, band {eng(budget.band_hz[0], 'Hz')} "
             f"to {eng(budget.band_hz[1], 'Hz')}, ambient {budget.ambient_degc:g} degC; source "
             f"{eng(budget.source_level_vrms, 'Vrms')} nominal, "
             f"{eng(budget.source_max_level_vrms, 'Vrms')} max{reactive_source_text(budget)}; "
             f"load {eng(budget.load_ohm, 'ohm')}"
-        )
-    )
-    console.print()
-    for line in verdict_lines(budget, found):
-        console.print(line)
+        ),
+        BLANK,
+        *verdict_lines(budget, found),
+    ]
     told = findings_table(found, ("error", "warning", "note"))
     if told is not None:
-        console.print()
-        console.print(Text("Findings", style="bold"))
-        console.print(told)
+        blocks += [BLANK, line("Findings", "bold"), told]
     cautions = findings_table(found, ("caution",))
     if cautions is not None:
-        console.print()
-        console.print(Text("Cautions (safety)", style="bold"))
-        console.print(cautions)
+        blocks += [BLANK, line("Cautions (safety)", "bold"), cautions]
     if brief:
-        return
-    console.print()
-    for table in (levels_table(budget), headroom_table(budget), loading_table(budget)):
-        console.print(table)
+        return blocks
+    blocks.append(BLANK)
+    blocks += [levels_table(budget), headroom_table(budget), loading_table(budget)]
     for tables in TABLES:
-        for table in tables(budget):
-            console.print(table)
+        blocks += tables(budget)
+    if noise_detail:
+        blocks += noise.detail_tables(budget)
+    return blocks
+
+
+def render(budget: Budget, found: list[Finding], console: Console, brief: bool = False) -> None:
+    """Print the report on a rich console: verdict, findings, cautions, then (unless
+    ``brief``) the tables."""
+    from chainbudget.report.rich_view import print_blocks
+
+    print_blocks(report_blocks(budget, found, brief), console)

@@ -7,13 +7,15 @@ import json
 import sys
 import time
 from pathlib import Path
-
-from rich.console import Console
-from rich.progress import Progress
+from typing import TYPE_CHECKING
 
 from chainbudget.chainfile import ChainError, load_chain
+from chainbudget.report.terminal import shown
 from chainbudget.spread.run import run_spread
 from chainbudget.spread.view import spread_json, spread_tables
+
+if TYPE_CHECKING:
+    from rich.progress import Progress
 
 FORMATS = ("table", "json")
 # A progress bar appears when the run is expected to take longer than this, s.
@@ -35,6 +37,9 @@ class _Bar:
             expected = elapsed * total / max(done, 1)
             if done >= total or expected < PROGRESS_AFTER_S or not sys.stderr.isatty():
                 return
+            from rich.console import Console
+            from rich.progress import Progress
+
             self.progress = Progress(console=Console(stderr=True), transient=True)
             self.progress.start()
             self.task = self.progress.add_task("trials", total=total)
@@ -48,7 +53,8 @@ class _Bar:
 def spread_command(
     file: Path, trials: int, seed: int, output_format: str, plot: Path | None, force: bool
 ) -> str | None:
-    """Run the spread; returns the text to print for JSON (None when tables were printed).
+    """Run the spread; returns the text to print (None when rich printed the tables on a
+    terminal).
 
     Raises ChainError (one line, exit 2) for bad input."""
     if output_format not in FORMATS:
@@ -71,7 +77,7 @@ def spread_command(
     title = chain.settings.title
     if output_format == "json":
         return json.dumps(spread_json(result, title, chain.file), indent=2, allow_nan=False)
-    Console(highlight=False, no_color=None if sys.stdout.isatty() else True).print(
+    text = shown(
         spread_tables(
             result,
             title,
@@ -79,7 +85,7 @@ def spread_command(
             + [f"supplies.{supply.name}." for supply in chain.supplies],
         )
     )
-    return None
+    return text.removesuffix("\n") if text else None  # the command adds the last break
 
 
 class SpreadUsage(ValueError, ChainError):

@@ -39,15 +39,21 @@ from chainbudget.budget.steps import with_value
 from chainbudget.cascade import Cascade, sections, solve_section
 from chainbudget.cascade import cascade as join_cascade
 from chainbudget.chainfile import Chain
+from chainbudget.findings import SUPERSEDES
 from chainbudget.loudspeaker import is_reactive, load_impedance
 from chainbudget.network import SingularNetwork
 from chainbudget.outputmath import sine_power, spl_at_1m
 from chainbudget.source_network import source_impedance
+from chainbudget.spread.dc import dc_figures, walked
+from chainbudget.spread.drive import drive_figures
+from chainbudget.spread.flags import flag_parts, is_flag
+from chainbudget.spread.heat import heat_figures
 from chainbudget.spread.hum import hum_figures, hum_thresholds
 from chainbudget.spread.loops import loop_figures, loop_thresholds
 from chainbudget.spread.noise import LATE_SHARE_PATH, output_noise
 from chainbudget.spread.parts import Part, with_beta
 from chainbudget.spread.settings import HeldSettings, held_settings, worst_of_candidates
+from chainbudget.spread.thd import thd_figures
 from chainbudget.stages.base import Environment
 from chainbudget.supplies import KINDS as SUPPLY_KINDS
 from chainbudget.supplies.base import Corners, SpreadThreshold
@@ -106,18 +112,21 @@ class Evaluator:
         that memory stays bounded however fine the chain's grid is."""
         return max(1, CHUNK_POINTS // frequency_axis(self.chain).size)
 
-    def __call__(self, positions: NDArray[np.float64]) -> Figures:
+    def __call__(self, positions: NDArray[np.float64], flags: bool = False) -> Figures:
         """Every spread figure, shape (T,), for part positions of shape (T, n), solved
-        `chunk_trials` at a time."""
+        `chunk_trials` at a time; with ``flags``, the per-trial rule flags beside them
+        (`chainbudget.spread.flags`)."""
         size = self.chunk_trials
         if positions.shape[0] <= size:
-            return self._batch(positions)
-        batches = [positions[i : i + size] for i in range(0, len(positions), size)]
-        # numpy's batched solves and array arithmetic release the GIL: the chunks run on
-        # the machine's cores side by side (each chunk is independent; order is kept)
-        with ThreadPoolExecutor(max_workers=WORKERS) as pool:
-            pieces = list(pool.map(self._batch, batches))
-        return {path: np.concatenate([p[path] for p in pieces]) for path in pieces[0]}
+            found = self._batch(positions)
+        else:
+            batches = [positions[i : i + size] for i in range(0, len(positions), size)]
+            # numpy's batched solves and array arithmetic release the GIL: the chunks run
+            # on the machine's cores side by side (each chunk is independent; order kept)
+            with ThreadPoolExecutor(max_workers=WORKERS) as pool:
+                pieces = list(pool.map(self._batch, batches))
+            found = {path: np.concatenate([p[path] for p in pieces]) for path in pieces[0]}
+        return found if flags else {p: v for p, v in found.items() if not is_flag(p)}
 
     def _batch(self, positions: NDArray[np.float64]) -> Figures:
         """Every spread figure for one batch of trials (one solve of each kind)."""
@@ -161,14 +170,15 @@ class Evaluator:
                 betas.setdefault(part.index, []).append((name, column))
             else:
                 chain = with_value(chain, part.index, part.key, column)
-        # DC operating points held at the nominal check's (DC is not spread)
-        dc_inputs = [
-            node.dc.input_v if node.dc is not None else None for node in self.nominal.nodes
-        ]
-        envs = list(environments(chain, "low", voltages, dc_inputs))
+        envs = list(environments(chain, "low", voltages, [None] * len(chain.stages)))
         for k, drawn_betas in betas.items():
             for name, column in drawn_betas:
                 envs[k] = with_beta(envs[k], name, column)
+        # each trial's own DC walk: a DC-coupled stage is built at its trial's DC
+        points, walked_envs = walked(chain, envs)
+        envs = list(walked_envs)
+        offset = None if self.nominal.output is None else self.nominal.output.offset_v
+        figures.update(dc_figures(chain, envs, points, trials, offset))
         frequency = frequency_axis(self.chain)
         settings = self.settings
         as_set, held = _solve_as_set_and_held(chain, tuple(envs), frequency, settings)
@@ -179,7 +189,22 @@ class Evaluator:
         figures.update(noise)
         figures.update(hum_figures(chain, envs, self.nominal, noise, trials))
         figures.update(loop_figures(chain, envs, self.nominal, trials))
+        figures.update(thd_figures(chain, envs, as_set, self.nominal, trials))
+        hot_envs = self._hot_envs(chain, betas)
+        figures.update(drive_figures(chain, as_set, held, settings, envs, hot_envs, trials))
+        figures.update(heat_figures(chain, envs, hot_envs, trials))
         return figures
+
+    def _hot_envs(
+        self, chain: Chain, betas: Mapping[int, list[tuple[str, NDArray[np.float64]]]]
+    ) -> tuple[Environment, ...]:
+        """Each stage's environment at high line (the nominal check's rails), with the
+        drawn betas and the trial's DC walked there: where the check works out heat."""
+        envs = list(environments(chain, "high", self.voltages, [None] * len(chain.stages)))
+        for k, drawn_betas in betas.items():
+            for name, column in drawn_betas:
+                envs[k] = with_beta(envs[k], name, column)
+        return walked(chain, envs)[1]
 
     def thresholds(self, figures: Mapping[str, Any]) -> list[Threshold]:
         """The rules' limits on the figures spread covers."""
@@ -226,6 +251,11 @@ class Evaluator:
             found.append(Threshold(path, limit, code, severity, above=True))
         if LATE_SHARE_PATH in figures:
             found.append(Threshold(LATE_SHARE_PATH, 0.0, "noise-set-late", "note", above=True))
+        # the rules worked out per trial in the batch (`chainbudget.spread.flags`)
+        for path in figures:
+            if is_flag(path):
+                severity, code = flag_parts(path)
+                found.append(Threshold(path, 0.5, code, severity, above=True))
         for supply in self.chain.supplies:
             kind = SUPPLY_KINDS[supply.kind]
             if not kind.spread_fields(supply):
@@ -390,24 +420,58 @@ def failing(
     """Per finding code, the trials that draw it (any node or supply).
 
     A figure's thresholds nest: a trial below the tightest draws only that code (the rules'
-    ``elif``); a node clipped at the nominal level draws ``clip-nominal`` alone.
+    ``elif``); a node clipped at the nominal level draws ``clip-nominal`` alone; a code
+    that names the cause of others on the same stage (`chainbudget.findings.SUPERSEDES`)
+    hides them in the trials that draw it.
     """
+    drawn = [(t, _drawn(t, thresholds, figures)) for t in thresholds]
+    causes: dict[tuple[str, str], NDArray[np.bool_]] = {}
+    for t, mask in drawn:
+        key = (_stage_of(t.path), t.code)
+        causes[key] = causes.get(key, np.zeros(mask.shape, bool)) | mask
     by_code: dict[str, NDArray[np.bool_]] = {}
-    clipped_nominal: dict[str, NDArray[np.bool_]] = {}
-    for t in thresholds:
-        if t.code == "clip-nominal":
-            clipped_nominal[t.path.rsplit(".", 1)[0]] = figures[t.path] < t.limit
-    for t in thresholds:
-        value = figures[t.path]
-        tighter = [u.limit for u in thresholds if u.path == t.path and u.limit < t.limit]
-        mask = t.beyond(value)
-        if tighter:
-            mask &= value >= max(tighter)
-        if t.only_if_at_least is not None:
-            other, floor = t.only_if_at_least
-            mask &= figures[other] >= floor
-        owner = t.path.rsplit(".", 1)[0]
-        if t.code != "clip-nominal" and owner in clipped_nominal:
-            mask &= ~clipped_nominal[owner]
-        by_code[t.code] = by_code.get(t.code, np.zeros(value.shape, bool)) | mask
+    for t, mask in drawn:
+        where = _stage_of(t.path)
+        for cause, hidden in SUPERSEDES.items():
+            if t.code in hidden and (where, cause) in causes:
+                mask = mask & ~causes[(where, cause)]
+        by_code[t.code] = by_code.get(t.code, np.zeros(mask.shape, bool)) | mask
     return by_code
+
+
+def _stage_of(path: str) -> str:
+    """The stage a figure or flag belongs to, as the findings name it (``nodes.pre.
+    headroom_db``: ``pre``; a flag: the place its key names); a supply's figures are kept
+    apart (a supply may share a stage's name)."""
+    if is_flag(path):
+        return path.rsplit(":", 1)[-1]
+    group, _, rest = path.partition(".")
+    name = rest.split(".", 1)[0] if "." in rest else ""
+    return name if group == "nodes" else f"{group}:{name}"
+
+
+def _drawn(
+    t: Threshold, thresholds: list[Threshold], figures: Mapping[str, NDArray[np.float64]]
+) -> NDArray[np.bool_]:
+    """The trials that draw one threshold's code, nested with the other thresholds."""
+    value = figures[t.path]
+    mask = t.beyond(value)
+    # a tighter limit on the same side: below a lower one, above a higher one
+    tighter = [
+        u.limit
+        for u in thresholds
+        if u.path == t.path
+        and u.above == t.above
+        and (u.limit > t.limit if t.above else u.limit < t.limit)
+    ]
+    if tighter:
+        mask &= value <= min(tighter) if t.above else value >= max(tighter)
+    if t.only_if_at_least is not None:
+        other, floor = t.only_if_at_least
+        mask &= figures[other] >= floor
+    owner = t.path.rsplit(".", 1)[0]
+    if t.code != "clip-nominal":
+        for u in thresholds:  # a node clipped at the nominal level draws that alone
+            if u.code == "clip-nominal" and u.path.rsplit(".", 1)[0] == owner:
+                mask &= ~(figures[u.path] < u.limit)
+    return mask

@@ -1,5 +1,6 @@
-"""The control settings the spread searches per trial: each limited node's candidate
-settings for its worst case, and the master volume fully up (the output power).
+"""The control settings the spread searches or holds per trial: each limited node's
+candidate settings for its worst case, the setting of each op-amp's largest output current,
+and the master volume fully up (the output power).
 
 Notes
 -----
@@ -20,7 +21,7 @@ from __future__ import annotations
 import itertools
 import math
 from collections.abc import Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 from numpy.typing import NDArray
@@ -32,7 +33,8 @@ from chainbudget.budget.analysis import (
     positions_as_set,
     solve_chain,
 )
-from chainbudget.budget.levels import clip_source_peak
+from chainbudget.budget.levels import SQRT2, clip_source_peak
+from chainbudget.budget.power import voltage_clip_source_peak
 from chainbudget.budget.search import NodeWorst
 from chainbudget.budget.ties import TIE_DB
 from chainbudget.cascade import Cascade
@@ -66,6 +68,9 @@ class HeldSettings:
     rows: tuple[tuple[float, ...], ...]
     node_rows: dict[int, tuple[tuple[int | None, float], ...]]
     volume_row: int | None
+    #: Each op-amp's (stage index, label) setting of its largest output current over the
+    #: band in the nominal check (`chainbudget.budget.power.opamp_drives`; None: as set).
+    current_rows: dict[tuple[int, str], int | None] = field(default_factory=dict)
 
     @property
     def stages(self) -> frozenset[int]:
@@ -141,6 +146,12 @@ def held_settings(chain: Chain, voltages: Mapping[str, Corners]) -> HeldSettings
             for row, distance, least, is_worst in tried
             if is_worst or least <= floor
         )
+    current_rows: dict[tuple[int, str], int | None] = {}
+    for (k, label), rotations in opamp_current_settings(analysis).items():
+        row = list(base)
+        for sc in swept:
+            row[sc.axis] = float(sc.rotations[rotations[sc.axis]])
+        current_rows[(k, label)] = row_of(tuple(row))
     volume_row = None
     if volume is not None:
         row = list(base)
@@ -148,7 +159,25 @@ def held_settings(chain: Chain, voltages: Mapping[str, Corners]) -> HeldSettings
         volume_row = row_of(tuple(row))
     if not rows:
         keys = []
-    return HeldSettings(tuple(keys), tuple(rows), node_rows, volume_row)
+    return HeldSettings(tuple(keys), tuple(rows), node_rows, volume_row, current_rows)
+
+
+def opamp_current_settings(analysis: Analysis) -> dict[tuple[int, str], tuple[int, ...]]:
+    """Each op-amp's (stage index, label) rotation indices of the setting at which the
+    nominal check finds its largest output current over the band (its ``worst_a``: the
+    current at ``max_level`` or at the stage's voltage clip, whichever is lower)."""
+    max_peak = SQRT2 * analysis.chain.source.max_level
+    swept = analysis.swept
+    found: dict[tuple[int, str], tuple[int, ...]] = {}
+    for k, sol in enumerate(swept.stages):
+        for label, _ in sol.built.opamps:
+            level = np.minimum(max_peak, voltage_clip_source_peak(swept, k))
+            asked = np.abs(np.broadcast_to(swept.probe(k, f"{label}.current"), level.shape))
+            band = (asked * level)[..., analysis.band_slice]
+            at = np.unravel_index(int(np.argmax(band)), band.shape)
+            candidate = int(at[0]) if band.ndim > 1 else 0
+            found[(k, label)] = tuple(int(i) for i in analysis.candidates[candidate])
+    return found
 
 
 def node_candidates(analysis: Analysis, k: int, found: NodeWorst) -> list[tuple[int, ...]]:

@@ -1,4 +1,4 @@
-"""Views of a spread: the tables (rich, 80 columns) and the JSON (contract keys)."""
+"""Views of a spread: the tables (80 columns) and the JSON (contract keys)."""
 
 from __future__ import annotations
 
@@ -6,10 +6,8 @@ import math
 from collections.abc import Sequence
 from typing import Any
 
-from rich.console import Group
-from rich.text import Text
-
 from chainbudget.notation import eng
+from chainbudget.report.layout import Drawn, line
 from chainbudget.report.tables import add_row, new_table
 from chainbudget.spread.run import SpreadResult
 
@@ -113,11 +111,11 @@ def _in_chain_order(paths: list[str], places: Sequence[str]) -> list[str]:
     return sorted(paths, key=rank)  # stable: a place's figures keep their order
 
 
-def spread_tables(result: SpreadResult, title: str, places: Sequence[str] = ()) -> Group:
+def spread_tables(result: SpreadResult, title: str, places: Sequence[str] = ()) -> list[Drawn]:
     """Figures, yield, sensitivities, threshold crossings and what is not spread; figures
     grouped by place in the order of ``places`` (path prefixes, the chain's order)."""
-    parts: list[Any] = []
-    head = Text(
+    parts: list[Drawn] = []
+    head = line(
         f"{title}: {result.trials} trials, seed {result.seed}, "
         f"{len(result.parts)} parts drawn"
         + (f", {len(result.held)} held at nominal" if result.held else "")
@@ -203,9 +201,9 @@ def spread_tables(result: SpreadResult, title: str, places: Sequence[str] = ()) 
         "inside the limit, from the linear sensitivity ('none alone': no tolerance of that "
         "part does)"
     )
-    parts += [Text(n) for n in notes]
-    parts += [Text(f"CAUTION: {c}") for c in result.cautions]
-    return Group(*parts)
+    parts += [line(n) for n in notes]
+    parts += [line(f"CAUTION: {c}") for c in result.cautions]
+    return parts
 
 
 def _finite(value: float) -> float | None:

@@ -321,6 +321,12 @@ class StageKind(ABC):
     summary: ClassVar[str]
     fields: ClassVar[tuple[f.Field, ...]]
     uses_rails: ClassVar[bool] = True
+    #: Whether the stage's small-signal network changes with its rails' voltages (a
+    #: transistor's operating point does; an op-amp's feedback network does not: there the
+    #: rails set only the swing limits). A network that does not is solved once for all the
+    #: rails a check tries (`chainbudget.cascade.solving_once`); tests/test_cascade.py holds
+    #: each kind's claim against solves at other rails.
+    network_uses_rails: ClassVar[bool] = True
     uses_opamp: ClassVar[bool] = False
     #: A passive network that loses level (a volume or tone stage): placing it ahead of the
     #: main gain lifts the noise floor.

@@ -41,6 +41,7 @@ class Block(StageKind):
     """
 
     kind = "block"
+    network_uses_rails = False
     summary = "measured or datasheet black box (gain, impedances, noise, limit)"
     uses_rails = False
     fields = (

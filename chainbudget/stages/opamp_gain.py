@@ -53,6 +53,7 @@ class OpAmpGain(StageKind):
     """
 
     kind = "opamp_gain"
+    network_uses_rails = False
     summary = "op-amp gain stage, non-inverting or inverting"
     uses_opamp = True
     fields = (

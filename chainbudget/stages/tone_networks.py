@@ -15,6 +15,7 @@ from abc import abstractmethod
 from collections.abc import Mapping
 from typing import ClassVar
 
+import numpy as np
 from numpy.typing import ArrayLike
 
 from chainbudget import fields as f
@@ -201,6 +202,7 @@ class FeedbackTone(StageKind):
     ``stamp_networks``; the op-amp, its + input at the bias point, is common.
     """
 
+    network_uses_rails = False
     uses_opamp = True
     pots: ClassVar[tuple[str, ...]]
 
@@ -226,7 +228,10 @@ class FeedbackTone(StageKind):
         return None if env.rails is None else env.rails.bias
 
     def dc_window(self, stage: Stage, env: Environment) -> DcWindow:
-        bias = "its bias point" if env.rails is None else f"{env.rails.bias:.3g} V"
+        # the text names one value where the rails vary over trials (chainbudget/spread)
+        bias = (
+            "its bias point" if env.rails is None else f"{float(np.median(env.rails.bias)):.3g} V"
+        )
         return opamp_dc_window(
             stage,
             env,

@@ -33,6 +33,7 @@ class Volume(StageKind):
     """
 
     kind = "volume"
+    network_uses_rails = False
     summary = "passive volume pot, optional series and shunt resistors"
     attenuates = True
     sets_volume = True

@@ -1,7 +1,7 @@
 """Benchmark: the command's time as ratios measured in one run (run by hand, not collected).
 
     .venv/bin/python tests/bench/bench_check.py [--rounds N]
-        [--only start,pots,stages,points,before]
+        [--only start,pots,stages,points,before,report]
 
 Machines are noisy and absolute times do not compare between runs, so everything here is a
 ratio of medians taken in the same run, the runs of a comparison alternating so that any
@@ -18,7 +18,11 @@ drift of the machine falls on all of them alike:
   same command on earlier commits of the project (``git archive`` of each into a temporary
   folder, run with the same Python and libraries; each commit's own copy of the example):
   main at f828a9c (the tree this work started from) and the last main commit before the
-  supplies work was merged (d05204f^1).
+  supplies work was merged (d05204f^1);
+* report: ``check`` of the largest example as a table on a pipe, as JSON and as a table in
+  a pseudo-terminal (in colour), on this tree and on the tree before the report was drawn
+  without rich (8d6eb65), against the floor; then the report alone (the import of the
+  report stack and the drawing, timed inside a fresh process once the budget is made).
 
 For pots, stages and points a second ratio is of the work alone, without the start-up: the
 median of five budgets of the chain worked out in one process (``--compute FILE`` runs
@@ -37,6 +41,7 @@ import compileall
 import io
 import os
 import platform
+import resource
 import statistics
 import subprocess
 import sys
@@ -57,27 +62,67 @@ LARGEST = ROOT / "chains" / "busking_amp.toml"
 
 # Earlier trees the ``before`` section compares the largest example's check against.
 BEFORE = {"main at f828a9c": "f828a9c", "before the supplies work (d05204f^1)": "d05204f^1"}
+# The tree before the report was drawn without rich (the ``report`` section).
+REPORT_BEFORE = "8d6eb65"
 
 
-def _run(args: list[str]) -> tuple[float, float]:
-    """Wall time (s) and peak resident memory (MB) of one command."""
+#: Marks a command run with a pseudo-terminal as its stdin, stdout and stderr (a designer's
+#: terminal; POSIX), its output read and dropped.
+IN_TERMINAL = "<in a terminal>"
+
+
+def _run_in_terminal(args: list[str]) -> tuple[float, float, float]:
+    import pty
+
+    leader, follower = pty.openpty()
+    start = time.perf_counter()
+    child = subprocess.Popen(args, stdin=follower, stdout=follower, stderr=follower)
+    os.close(follower)
+    while True:
+        try:
+            if not os.read(leader, 65536):
+                break
+        except OSError:  # the child closed its end
+            break
+    _pid, _status, usage = os.wait4(child.pid, 0)
+    os.close(leader)
+    return _usage(start, usage)
+
+
+def _usage(start: float, usage: resource.struct_rusage) -> tuple[float, float, float]:
+    """Wall time (s), peak resident memory (MB) and CPU time (s, user and system)."""
+    return time.perf_counter() - start, usage.ru_maxrss / 1024.0, usage.ru_utime + usage.ru_stime
+
+
+def _run(args: list[str]) -> tuple[float, float, float]:
+    """Wall time (s), peak resident memory (MB) and CPU time (s) of one command."""
+    if args[0] == IN_TERMINAL:
+        return _run_in_terminal(args[1:])
     start = time.perf_counter()
     child = subprocess.Popen(args, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
     _pid, _status, usage = os.wait4(child.pid, 0)
-    return time.perf_counter() - start, usage.ru_maxrss / 1024.0
+    return _usage(start, usage)
 
 
-def measure(commands: dict[str, list[str]], rounds: int) -> dict[str, tuple[float, float]]:
-    """Median time and peak memory of each command, the commands alternating each round."""
+def measure(
+    commands: dict[str, list[str]], rounds: int, cpu: dict[str, float] | None = None
+) -> dict[str, tuple[float, float]]:
+    """Median time and peak memory of each command, the commands alternating each round;
+    each one's median CPU time (user and system, less sensitive to other jobs on the
+    machine than the wall time) into ``cpu`` when given."""
     times: dict[str, list[float]] = {name: [] for name in commands}
     peaks: dict[str, float] = dict.fromkeys(commands, 0.0)
+    spents: dict[str, list[float]] = {name: [] for name in commands}
     for args in commands.values():  # one warm-up each (caches, bytecode)
         _run(args)
     for _ in range(rounds):
         for name, args in commands.items():
-            took, peak = _run(args)
+            took, peak, spent = _run(args)
             times[name].append(took)
+            spents[name].append(spent)
             peaks[name] = max(peaks[name], peak)
+    if cpu is not None:
+        cpu.update({name: statistics.median(spents[name]) for name in commands})
     return {name: (statistics.median(times[name]), peaks[name]) for name in commands}
 
 
@@ -326,35 +371,45 @@ def _tree(commit: str, folder: Path) -> Path:
     return target
 
 
+def _launch(tree: Path) -> str:
+    """Python statements that make the interpreter import chainbudget from an earlier tree
+    written out by `_tree` (first on the path, and not this one's editable install's
+    finder)."""
+    launch = (
+        "import sys; "
+        "sys.meta_path[:] = [f for f in sys.meta_path if 'editable' not in "
+        "getattr(f, '__module__', '')]; "
+        f"sys.path.insert(0, {str(tree)!r}); "
+    )
+    where = subprocess.run(
+        [PYTHON, "-c", launch + "import chainbudget; print(chainbudget.__file__)"],
+        capture_output=True,
+        text=True,
+        check=True,
+    ).stdout.strip()
+    assert where.startswith(str(tree)), where  # the earlier tree, not this one
+    return launch
+
+
+def _earlier(tree: Path, args: list[str]) -> list[str]:
+    """The command ``chainbudget ARGS`` run from an earlier tree written out by `_tree`."""
+    return [
+        PYTHON,
+        "-c",
+        _launch(tree) + "from chainbudget.cli import main; sys.argv[0] = 'chainbudget'; main()",
+        *args,
+    ]
+
+
 def before(rounds: int, folder: Path) -> None:
     commands: dict[str, list[str]] = {
         "this tree": [PYTHON, "-m", "chainbudget", "check", str(LARGEST), "--format", "json"]
     }
     for name, commit in BEFORE.items():
         tree = _tree(commit, folder)
-        # The earlier tree first on the path, and not this one's editable install's finder.
-        launch = (
-            "import sys; "
-            "sys.meta_path[:] = [f for f in sys.meta_path if 'editable' not in "
-            "getattr(f, '__module__', '')]; "
-            f"sys.path.insert(0, {str(tree)!r}); "
+        commands[name] = _earlier(
+            tree, ["check", str(tree / "chains" / LARGEST.name), "--format", "json"]
         )
-        where = subprocess.run(
-            [PYTHON, "-c", launch + "import chainbudget; print(chainbudget.__file__)"],
-            capture_output=True,
-            text=True,
-            check=True,
-        ).stdout.strip()
-        assert where.startswith(str(tree)), where  # the earlier tree, not this one
-        commands[name] = [
-            PYTHON,
-            "-c",
-            launch + "from chainbudget.cli import main; sys.argv[0] = 'chainbudget'; main()",
-            "check",
-            str(tree / "chains" / LARGEST.name),
-            "--format",
-            "json",
-        ]
     found = measure(commands, rounds)
     print(f"\nCheck of {LARGEST.name}: earlier trees against this one (median; peak memory)")
     for name, (median, peak) in found.items():
@@ -364,12 +419,82 @@ def before(rounds: int, folder: Path) -> None:
         )
 
 
+def report_views(rounds: int, folder: Path) -> None:
+    """The table (on a pipe: stdout is /dev/null; and in a pseudo-terminal, in colour) and
+    the JSON of the largest example, on this tree and on the tree before the report was
+    drawn without rich (REPORT_BEFORE), all alternating with the floor."""
+    tree = _tree(REPORT_BEFORE, folder)
+    chain = str(tree / "chains" / LARGEST.name)
+    floor = "floor: import numpy, pint; registry"
+    commands: dict[str, list[str]] = {floor: FLOOR}
+    views: tuple[tuple[str, list[str], list[str]], ...] = (
+        ("table", [], []),
+        ("json", ["--format", "json"], []),
+        ("terminal", [], [IN_TERMINAL]),
+    )
+    for view, extra, where in views:
+        here = [PYTHON, "-m", "chainbudget", "check", str(LARGEST), *extra]
+        commands[f"{view}: this tree"] = [*where, *here]
+        commands[f"{view}: {REPORT_BEFORE}"] = [*where, *_earlier(tree, ["check", chain, *extra])]
+    cpu: dict[str, float] = {}
+    found = measure(commands, rounds, cpu)
+    report(f"Check of {LARGEST.name} by view", found, floor)
+    print("  CPU time (user and system), ratio to the floor's:")
+    for name, spent in cpu.items():
+        print(f"  {name:34s} {spent / cpu[floor]:6.2f}x   {spent * 1e3:8.0f} ms")
+    for view, _extra, _where in views:
+        ours, theirs = f"{view}: this tree", f"{view}: {REPORT_BEFORE}"
+        ratio, cpu_ratio = found[ours][0] / found[theirs][0], cpu[ours] / cpu[theirs]
+        print(f"  {view}: this tree / {REPORT_BEFORE}: {ratio:5.2f}x (CPU time {cpu_ratio:5.2f}x)")
+    report_alone(rounds, tree)
+
+
+# The report alone, in a fresh process once the budget is worked out: the command's own
+# ``_report_text`` (the import of the report stack, the drawing, the writing to stdout).
+REPORT_ALONE = (
+    "import sys, time\n"
+    "from chainbudget.budget import compute\n"
+    "from chainbudget.chainfile import load_chain\n"
+    "from chainbudget import cli\n"
+    "budget = compute(load_chain(sys.argv[1]))\n"
+    "start = time.perf_counter()\n"
+    "sys.stdout.write(cli._report_text(budget, sys.argv[2], False, False, True))\n"
+    "sys.stdout.flush()\n"
+    "sys.stderr.write(repr(time.perf_counter() - start))\n"
+)
+
+
+def report_alone(rounds: int, tree: Path) -> None:
+    """The report's own time (table on a pipe, JSON) on this tree and on ``tree``, the
+    processes alternating."""
+    launch = _launch(tree)
+    runs = {
+        f"{view} alone: {where}": [PYTHON, "-c", code, str(path), view]
+        for view in ("table", "json")
+        for where, code, path in (
+            ("this tree", "import sys\n" + REPORT_ALONE, LARGEST),
+            (REPORT_BEFORE, launch + "\n" + REPORT_ALONE, tree / "chains" / LARGEST.name),
+        )
+    }
+    times: dict[str, list[float]] = {name: [] for name in runs}
+    for _ in range(rounds):
+        for name, args in runs.items():
+            done = subprocess.run(
+                args, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True, check=True
+            )
+            times[name].append(float(done.stderr.strip().splitlines()[-1]))
+    print("\n  The report alone, after the budget (median of the rounds):")
+    for name, found in times.items():
+        print(f"  {name:34s} {statistics.median(found) * 1e3:8.1f} ms")
+
+
 SECTIONS: dict[str, Callable[[int, Path], None]] = {
     "start": start,
     "pots": pots,
     "stages": stages,
     "points": points,
     "before": before,
+    "report": report_views,
 }
 
 

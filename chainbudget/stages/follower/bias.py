@@ -85,8 +85,9 @@ def follower_bias(stage: Stage, env: Environment, base_drive: float | None = Non
     if base_drive is None:
         base_drive = _base_drive(stage, env)
     r_dc = stage.number("base_resistor")
-    if stage.values.get("input_cap") is not None and stage.values.get("bias_resistor"):
-        r_dc += stage.number("bias_resistor")
+    # `is not None`: the resistor may be an array over trials (chainbudget/spread)
+    if stage.values.get("input_cap") is not None and stage.values.get("bias_resistor") is not None:
+        r_dc = r_dc + stage.number("bias_resistor")  # never in place: it may be a drawn array
     beta = part.beta
     if stage.values["bias"] == "resistor":
         r_e = stage.number("emitter_resistor")

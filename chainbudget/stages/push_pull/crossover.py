@@ -21,7 +21,7 @@ op-amp or a follower: its output impedance over the devices' current gain is mil
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Any
+from typing import Any, cast
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -36,13 +36,19 @@ from chainbudget.stages.push_pull.halves import halves
 SAMPLES = 512
 #: Harmonics reported, 2 to this one (the contract's "at least 20").
 HARMONICS = 20
-#: Newton steps (each kept inside a shrinking bracket) of the output per sample, at most;
-#: they stop when no sample moves by more than `CONVERGED` of the drive's peak.
+#: Newton steps (each kept inside a shrinking bracket) of the output per sample, at most.
+#: They stop once every sample's step is within `ROUNDING_ULPS` units in the last place of
+#: the drive's peak (the float's rounding: quadratic convergence reaches it in a handful),
+#: or once the largest step, already under `SETTLED` of the peak, no longer halves (what is
+#: left is the rounding of the currents, which no further step removes).
 NEWTON_STEPS = 40
-CONVERGED = 1e-13
+ROUNDING_ULPS = 8.0
+SETTLED = 1e-10
 #: Drive-amplitude corrections so that the fundamental at the load is the level asked for,
-#: at most (they stop within `CONVERGED` of it).
+#: at most. They stop once every level is within `LEVEL_TOLERANCE` of it (relative), or once
+#: the largest miss no longer shrinks (the rounding of the solve and the transform).
 LEVEL_STEPS = 12
+LEVEL_TOLERANCE = 1e-12
 #: Harmonics below this (dB re the fundamental) are rounding, not distortion: the even ones
 #: of a symmetric pair. They are reported as none (null in the JSON).
 HARMONIC_FLOOR_DB = -200.0
@@ -63,13 +69,22 @@ class HalfLaw:
         self, y: NDArray[np.float64], v_t: float, near: NDArray[np.float64] | None = None
     ) -> NDArray[np.float64]:
         """I = u^-1(y), A (the module's notes); ``near``, currents close to the answer (the
-        last step of an iteration), start the root finding there."""
+        last step of an iteration), start the root finding there. ``r_ohm`` and ``i_q`` may
+        be arrays broadcasting against ``y`` (the spread's trials), R = 0 in some of them."""
         a = self.junctions * v_t
-        if self.r_ohm <= 0.0:
+        r = np.asarray(self.r_ohm, dtype=float)
+        if not np.any(r > 0.0):
             return np.asarray(self.i_q * np.exp(np.minimum(y / a, 700.0)))
-        x = np.log(self.r_ohm * self.i_q / a) + (y + self.i_q * self.r_ohm) / a
-        start = None if near is None else near * (self.r_ohm / a)
-        return np.asarray(a / self.r_ohm * _w_of_exp(x, start))
+        resistive = np.all(r > 0.0)
+        if not resistive:
+            r = np.where(r > 0.0, r, 1.0)  # those trials take the exponential below
+        x = np.log(r * self.i_q / a) + (y + self.i_q * r) / a
+        start = None if near is None else near * (r / a)
+        found = np.asarray(a / r * _w_of_exp(x, start))
+        if resistive:
+            return found
+        exponential = self.i_q * np.exp(np.minimum(y / a, 700.0))
+        return np.asarray(np.where(np.asarray(self.r_ohm) > 0.0, found, exponential))
 
     def slope(self, current: NDArray[np.float64], v_t: float) -> NDArray[np.float64]:
         """dI/dy = 1/u'(I), S."""
@@ -112,9 +127,12 @@ def _w_of_exp(
         step /= e
         u = u - step
         np.minimum(u, cap, out=u)
+        # Newton's next error is at most half this step squared (g''/2g' = e^u/(2(e^u + 1))
+        # < 1/2): once that is within the rounding, u is the root to the float's precision.
         bound = np.abs(u)
         np.maximum(bound, 1.0, out=bound)
-        bound *= _W_TOLERANCE
+        bound *= 2.0 * _W_TOLERANCE
+        np.sqrt(bound, out=bound)
         if not np.any(np.abs(step) > bound):
             break
     return np.asarray(np.exp(np.minimum(u, 709.0)))
@@ -122,7 +140,7 @@ def _w_of_exp(
 
 # Newton steps at most for `_w_of_exp` (quadratic convergence takes a handful from its start).
 _W_MAX_STEPS = 60
-#: A step below this times max(1, |u|) is the float's rounding: the solve has converged.
+#: An error below this times max(1, |u|) is the float's rounding: the solve has converged.
 _W_TOLERANCE = 4.0 * np.finfo(float).eps
 
 
@@ -154,12 +172,45 @@ def static_output(
     on g, each kept inside that bracket (halving it where a step would leave), converge to
     the root of every sample together.
     """
-    v = np.asarray(v_in, dtype=float)
+    return _solved_output(np.asarray(v_in, dtype=float), upper, lower, r_load, v_t).out
+
+
+@dataclass(frozen=True)
+class _Solved:
+    """`static_output`'s answer with the halves' currents of its last step (A, within that
+    step of the answer), which start the next solve of a drive close to this one."""
+
+    out: NDArray[np.float64]
+    i_u: NDArray[np.float64]
+    i_l: NDArray[np.float64]
+
+
+def _solved_output(
+    v: NDArray[np.float64],
+    upper: HalfLaw,
+    lower: HalfLaw,
+    r_load: float,
+    v_t: float,
+    near: _Solved | None = None,
+    scale_by: NDArray[np.float64] | float = 1.0,
+) -> _Solved:
+    """`static_output` of ``v``; ``near`` (the solve of a drive ``scale_by`` times smaller,
+    sample by sample) starts the Newton steps at its output so scaled and its currents."""
     lo, hi = np.minimum(v, 0.0), np.maximum(v, 0.0)
-    out = v * r_load / (r_load + 0.5 * (upper.r_ohm + lower.r_ohm))
+    if near is None:
+        out = v * r_load / (r_load + 0.5 * (upper.r_ohm + lower.r_ohm))
+        i_u: NDArray[np.float64] | None = None
+        i_l: NDArray[np.float64] | None = None
+    else:
+        out = np.clip(near.out * scale_by, lo, hi)
+        i_u, i_l = near.i_u, near.i_l
     scale = float(np.max(np.abs(v), initial=0.0))
-    i_u: NDArray[np.float64] | None = None
-    i_l: NDArray[np.float64] | None = None
+    rounding = ROUNDING_ULPS * float(np.spacing(scale))
+    # Newton's next error is at most e^2 |g''|/(2|g'|) <= e^2/(2 m V_T) (each half's
+    # dI/dy = 1/(m V_T/I + R) changes at most by itself over m V_T): a Newton step of all
+    # samples below this leaves an error within the rounding (a factor 4 to spare).
+    quadratic = float(np.sqrt(0.5 * min(upper.junctions, lower.junctions) * v_t * rounding))
+    last = np.inf
     for _ in range(NEWTON_STEPS):
         # Each step's currents start the next step's root finding (they move less each time).
         i_u = upper.current(v - out, v_t, i_u)
@@ -169,12 +220,20 @@ def static_output(
         hi = np.where(g > 0.0, hi, out)
         slope = upper.slope(i_u, v_t) + lower.slope(i_l, v_t) + 1.0 / r_load
         step = out + g / slope
-        moved = np.where((step > lo) & (step < hi), step, 0.5 * (lo + hi))
-        done = bool(np.all(np.abs(moved - out) <= CONVERGED * scale))
+        # A step may land on the bracket's end (a step of the rounding, with g's sign from
+        # the rounding too): that is converged, not a cue to bisect.
+        inside = (step >= lo) & (step <= hi)
+        moved = np.where(inside, step, 0.5 * (lo + hi))
+        largest = float(np.max(np.abs(moved - out), initial=0.0))
         out = moved
-        if done:
+        if largest <= rounding or (last <= SETTLED * scale and largest > 0.5 * last):
             break
-    return np.asarray(out)
+        # Newton's steps, not halvings (a sample at 0 V has a bracket of one point)
+        if largest <= quadratic and not np.any(~inside & (hi > lo)):
+            break
+        last = largest
+    assert i_u is not None and i_l is not None  # NEWTON_STEPS >= 1
+    return _Solved(np.asarray(out), i_u, i_l)
 
 
 @dataclass(frozen=True)
@@ -188,6 +247,141 @@ class Distortion:
     open_harmonics_db: tuple[float, ...]
     thd: float
     harmonics_db: tuple[float, ...]
+
+
+def _on_samples(law: HalfLaw) -> HalfLaw:
+    """A law whose arrays (one value per trial) take one more axis, the samples'."""
+
+    def trailing(value: float) -> float:
+        return value if np.ndim(value) == 0 else cast(float, np.asarray(value)[..., None])
+
+    return HalfLaw(law.junctions, trailing(law.r_ohm), trailing(law.i_q))
+
+
+def harmonic_amplitudes(
+    levels_vpk: ArrayLike, upper: HalfLaw, lower: HalfLaw, r_load: float, v_t: float
+) -> NDArray[np.float64]:
+    """Peak amplitudes of harmonics 1 to `HARMONICS` at the load (V) of the static transfer
+    driven so that the fundamental is ``levels_vpk`` (any shape; the result has one more
+    axis, the harmonics). The laws' ``r_ohm`` and ``i_q`` may be arrays broadcasting
+    against the levels' shape (the spread's trials): every level of every trial is solved
+    in the same array operations.
+
+    Notes
+    -----
+    One cycle of a sine drive, `SAMPLES` points, through `static_output`; harmonics by the
+    discrete Fourier transform (amplitude 2|X_n|/N). The drive amplitude is corrected until
+    the fundamental is the level asked for to `LEVEL_TOLERANCE` (or no longer comes closer):
+    first by the ratio of the fundamental asked for to the one obtained, then by the secant
+    through the last two drives (`_next_drive`), at most `LEVEL_STEPS` times.
+    """
+    target = np.asarray(levels_vpk, dtype=float)
+    up, lo = _on_samples(upper), _on_samples(lower)
+    start = None
+    if target.ndim >= 2 and target.shape[0] > SEEDED_BATCH:
+        # Many trials of nearby parts: the first one solved alone starts them all (its
+        # drive per volt of fundamental, its output per volt of drive, its currents).
+        first = _first_trial(up), _first_trial(lo)
+        seed_drive, seed = _levels_solved(target[:1], *first, r_load, v_t)[1:]
+        if np.all(target[:1] > 0.0) and np.all(seed_drive > 0.0):  # else start cold
+            start = seed_drive / target[:1], seed, seed_drive
+    spectrum = _levels_solved(target, up, lo, r_load, v_t, start)[0]
+    return np.asarray(np.abs(spectrum[..., 1 : HARMONICS + 1]))
+
+
+#: A leading batch axis longer than this (the spread's trials) is started from its first.
+SEEDED_BATCH = 1
+
+
+def _first_trial(law: HalfLaw) -> HalfLaw:
+    """A law of the first trial alone (its arrays' leading axis cut to one)."""
+
+    def first(value: float) -> float:
+        return value if np.ndim(value) == 0 else cast(float, np.asarray(value)[:1])
+
+    return HalfLaw(law.junctions, first(law.r_ohm), first(law.i_q))
+
+
+def _levels_solved(
+    target: NDArray[np.float64],
+    up: HalfLaw,
+    lo: HalfLaw,
+    r_load: float,
+    v_t: float,
+    start: tuple[NDArray[np.float64], _Solved, NDArray[np.float64]] | None = None,
+) -> tuple[NDArray[np.complex128], NDArray[np.float64], _Solved]:
+    """The spectrum (2|X_n|/N, n = 0..N/2) of the static transfer's output with the
+    fundamental at ``target``, the drive that gives it and the last solve (the notes of
+    `harmonic_amplitudes`). ``start`` (drive per volt of fundamental, a solve and its
+    drive, of nearby parts) starts the drive and the Newton steps there."""
+    wave, cycle = _quarter_wave(SAMPLES)
+    drive = target.copy()
+    solved: _Solved | None = None
+    step: NDArray[np.float64] | float = 1.0
+    if start is not None:
+        per_volt, solved, seed_drive = start
+        drive = target * per_volt
+        step = (drive / seed_drive)[..., None]
+    spectrum = np.zeros((*target.shape, SAMPLES // 2 + 1), complex)
+    missed = np.inf
+    before: tuple[NDArray[np.float64], NDArray[np.float64]] | None = None
+    for _ in range(LEVEL_STEPS):
+        solved = _solved_output(drive[..., None] * wave, up, lo, r_load, v_t, solved, step)
+        found = np.fft.rfft(solved.out[..., cycle], axis=-1) * 2.0 / SAMPLES
+        fundamental = np.abs(found[..., 1])
+        ratio = np.where(fundamental > 0.0, target / fundamental, 1.0)
+        miss = float(np.max(np.abs(ratio - 1.0), initial=0.0))
+        if miss >= missed:  # the rounding: the last drive's spectrum is as good
+            break
+        spectrum, missed = found, miss
+        if miss <= LEVEL_TOLERANCE:
+            break
+        moved = _next_drive(drive, fundamental, target, ratio, before)
+        before, step, drive = (drive, fundamental), (moved / drive)[..., None], moved
+    assert solved is not None  # LEVEL_STEPS >= 1
+    return spectrum, drive, solved
+
+
+def _quarter_wave(samples: int) -> tuple[NDArray[np.float64], NDArray[np.intp]]:
+    """The distinct values of one cycle of a unit sine on ``samples`` points, and where
+    each point of the cycle takes its value from: sin(2 pi j/N) for j = 0..N/4 and their
+    negatives (a sine's quarter-wave symmetry, N a multiple of 4), so the static transfer
+    is solved on N/2 + 2 drive values instead of N."""
+    if samples % 4:
+        return np.sin(2.0 * np.pi * np.arange(samples) / samples), np.arange(samples)
+    quarter = samples // 4
+    rising = np.sin(2.0 * np.pi * np.arange(quarter + 1) / samples)
+    j = np.arange(samples)
+    # 0..N/4 rises, N/4..N/2 falls back (sin(pi - x) = sin x), then the negatives
+    within = np.where(
+        j % (samples // 2) <= quarter, j % (samples // 2), samples // 2 - j % (samples // 2)
+    )
+    where = np.where(j < samples // 2, within, quarter + 1 + within)
+    return np.concatenate([rising, -rising]), where.astype(np.intp)
+
+
+def closed_loop(
+    amplitude: NDArray[np.float64], loop_factor: ArrayLike | None
+) -> NDArray[np.float64]:
+    """Harmonic amplitudes (last axis 1 to `HARMONICS`) inside a loop of return difference
+    ``loop_factor`` = |1 + T(n f)| (last axis n = 1..`HARMONICS`, broadcasting; None: open
+    loop). The fundamental stays the level asked for (the loop supplies the drive for it);
+    each harmonic the pair generates is divided by the loop's return difference at its own
+    frequency."""
+    if loop_factor is None:
+        return amplitude
+    factor = np.asarray(loop_factor, dtype=float)
+    closed = np.array(
+        np.broadcast_to(amplitude, np.broadcast_shapes(amplitude.shape, factor.shape))
+    )
+    closed[..., 1:] = closed[..., 1:] / factor[..., 1:]
+    return closed
+
+
+def thd_of(amplitude: NDArray[np.float64]) -> NDArray[np.float64]:
+    """THD = sqrt(sum_{n=2..20} H_n^2)/H_1 over the last axis (harmonics 1 to `HARMONICS`),
+    a fraction (IEC 60268-3's definition over the harmonics, from memory)."""
+    return np.asarray(np.sqrt(np.sum(amplitude[..., 1:] ** 2, axis=-1)) / amplitude[..., 0])
 
 
 def harmonics(
@@ -206,42 +400,20 @@ def harmonics(
 
     Notes
     -----
-    One cycle of a sine drive, `SAMPLES` points, through `static_output`; harmonics by the
-    discrete Fourier transform (amplitude 2|X_n|/N). The drive amplitude is corrected
-    `LEVEL_STEPS` times by the ratio of the fundamental asked for to the one obtained. THD
-    = sqrt(sum_{n=2..20} H_n^2)/H_1 (IEC 60268-3's definition over the harmonics, from
-    memory). Inside a loop each harmonic is divided by |1 + T(n f)| (the distortion an
-    output stage generates, reduced by the loop's return difference at its frequency).
+    The harmonics of `harmonic_amplitudes`, THD by `thd_of`. Inside a loop each harmonic
+    is divided by |1 + T(n f)| (`closed_loop`: the distortion an output stage generates,
+    reduced by the loop's return difference at its frequency).
     """
     target = np.atleast_1d(np.asarray(levels_vpk, dtype=float))
-    phase = 2.0 * np.pi * np.arange(SAMPLES) / SAMPLES
-    drive = target.copy()
-    spectrum = np.zeros((target.size, SAMPLES // 2 + 1), complex)
-    for _ in range(LEVEL_STEPS):
-        out = static_output(drive[:, None] * np.sin(phase), upper, lower, r_load, v_t)
-        spectrum = np.fft.rfft(out, axis=-1) * 2.0 / SAMPLES
-        fundamental = np.abs(spectrum[:, 1])
-        ratio = np.where(fundamental > 0.0, target / fundamental, 1.0)
-        if np.all(np.abs(ratio - 1.0) <= CONVERGED):
-            break
-        drive = drive * ratio
-    amplitude = np.abs(spectrum[:, 1 : HARMONICS + 1])
-    factor = np.ones(HARMONICS) if loop_factor is None else np.asarray(loop_factor, float)
-    # The fundamental stays the level asked for (the loop supplies the drive for it); each
-    # harmonic the pair generates is divided by the loop's return difference at its own
-    # frequency.
-    closed = amplitude.copy()
-    closed[:, 1:] = amplitude[:, 1:] / factor[1:]
-
-    def thd(h: NDArray[np.float64]) -> NDArray[np.float64]:
-        return np.asarray(np.sqrt(np.sum(h[:, 1:] ** 2, axis=1)) / h[:, 0])
+    amplitude = harmonic_amplitudes(target, upper, lower, r_load, v_t)
+    closed = closed_loop(amplitude, loop_factor)
 
     def db(h: NDArray[np.float64]) -> NDArray[np.float64]:
         with np.errstate(divide="ignore"):
             found = 20.0 * np.log10(h[:, 1:] / h[:, :1])
         return np.asarray(np.where(found < HARMONIC_FLOOR_DB, -np.inf, found))
 
-    open_thd, closed_thd = thd(amplitude), thd(closed)
+    open_thd, closed_thd = thd_of(amplitude), thd_of(closed)
     open_db, closed_db = db(amplitude), db(closed)
     return [
         Distortion(
@@ -253,6 +425,28 @@ def harmonics(
         )
         for i in range(target.size)
     ]
+
+
+def _next_drive(
+    drive: NDArray[np.float64],
+    fundamental: NDArray[np.float64],
+    target: NDArray[np.float64],
+    ratio: NDArray[np.float64],
+    before: tuple[NDArray[np.float64], NDArray[np.float64]] | None,
+) -> NDArray[np.float64]:
+    """The next drive amplitude: the secant through the last two (drive, fundamental)
+    pairs where there are two and they differ, else the drive scaled by the ratio of the
+    fundamental asked for to the one obtained (the transfer is near proportional)."""
+    scaled = drive * ratio
+    if before is None:
+        return scaled
+    last_drive, last_fundamental = before
+    rise = fundamental - last_fundamental
+    run = drive - last_drive
+    with np.errstate(divide="ignore", invalid="ignore"):
+        secant = drive + (target - fundamental) * run / rise
+    usable = (rise != 0.0) & np.isfinite(secant) & (secant > 0.0)
+    return np.asarray(np.where(usable, secant, scaled))
 
 
 @dataclass(frozen=True)

@@ -1,0 +1,143 @@
+"""The output stage's THD for a batch of trials: the push-pull crossover's static transfer
+(`chainbudget.stages.push_pull.crossover`) with the drawn parts as arrays over the trials.
+
+Notes
+-----
+As the check works it out for a push-pull stage that drives the load
+(`chainbudget.stages.push_pull.crossover`): each half's junction law u(I) = m V_T ln(I/I_q)
++ (I - I_q) R with R = R_E + r_bb'/(beta + 1) (+ the driver's r_bb' over both betas)
+(`pair_laws`), the drawn emitter resistors and betas as (T, 1) arrays; the fundamental at
+three levels per trial, the nominal output level with the controls as set, 1 W into the
+nominal load and 1 dB below the chain's clip (the first stage to reach its limit, the
+controls as set), each worked out from the trial's own cascade; inside a loop each harmonic
+divided by the trial's own return difference |1 + T(n f)| at its frequency (the loop's
+network solved with the parts as arrays on the harmonics' frequencies). Every level of every
+trial goes through `harmonic_amplitudes` as one array (trials x levels x samples): no loop
+over trials. THD = sqrt(sum_{n=2..20} H_n^2)/H_1 (IEC 60268-3's definition over the
+harmonics, from memory).
+
+The figures are those of the levels the nominal check reports (a level the chain cannot
+reach with its nominal parts is left out). A trial whose clip falls below the nominal level
+or 1 W still gets the crossover's THD there (the static transfer has no clip of its own);
+the check of that build leaves the entry out. No finding is drawn from THD, so no
+threshold goes with these figures.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+import numpy as np
+from numpy.typing import NDArray
+
+from chainbudget.budget import Budget
+from chainbudget.budget.levels import SQRT2, clip_source_peak
+from chainbudget.budget.loops import LoopSolver
+from chainbudget.cascade import Cascade
+from chainbudget.chainfile import Chain
+from chainbudget.loops import section_of, sections
+from chainbudget.outputmath import thermal_voltage
+from chainbudget.stages.base import Environment
+from chainbudget.stages.push_pull.crossover import (
+    BELOW_CLIP_DB,
+    HARMONICS,
+    Crossover,
+    closed_loop,
+    harmonic_amplitudes,
+    pair_laws,
+    thd_of,
+)
+
+#: The levels the check reports THD at: each one's name in the figure paths and the field
+#: of `Crossover` that says whether the nominal check reaches it.
+LEVELS = (
+    ("nominal", "thd_nominal"),
+    ("one_watt", "thd_one_watt"),
+    ("below_clip", "thd_below_clip"),
+)
+
+
+def thd_paths(nominal: Budget) -> list[tuple[str, str]]:
+    """The levels the nominal check reports THD at, each with its figure's path
+    (``output.thd_nominal_percent``...); empty when the last stage reports none."""
+    if not nominal.nodes:
+        return []
+    own = nominal.nodes[-1].figures(Crossover)
+    if not isinstance(own, Crossover) or not own.thd:
+        return []
+    return [(level, f"output.{field}_percent") for level, field in LEVELS if getattr(own, field)]
+
+
+def _per_trial(value: object, trials: int) -> NDArray[np.float64]:
+    """A figure as a (T,) array (one no trial moves broadcast)."""
+    flat = np.asarray(value, dtype=float).reshape(-1)
+    return np.broadcast_to(flat, (trials,)) if flat.size == 1 else flat.reshape(trials)
+
+
+def _levels_vpk(chain: Chain, as_set: Cascade, level: str, trials: int) -> NDArray[np.float64]:
+    """A THD level of every trial, the fundamental's peak at the load (V)."""
+    last = len(chain.stages) - 1
+    gain = _per_trial(np.abs(np.asarray(as_set.v_out[last])[..., 0]), trials)
+    if level == "nominal":
+        return SQRT2 * chain.source.level * gain
+    if level == "one_watt":
+        return np.full(trials, float(np.sqrt(2.0 * chain.load.impedance)))
+    peaks = []
+    for k in range(last + 1):
+        clip = clip_source_peak(as_set, k)
+        if clip is not None:
+            peaks.append(_per_trial(np.asarray(clip[0])[..., 0], trials))
+    return np.asarray(np.min(peaks, axis=0) * gain * 10.0 ** (-BELOW_CLIP_DB / 20.0))
+
+
+def _loop_factor(
+    chain: Chain, envs: Sequence[Environment], trials: int
+) -> NDArray[np.float64] | None:
+    """|1 + T(n f)| of the loop round the output stage at harmonics n = 1..`HARMONICS`
+    of the reference, shape (T, 1, HARMONICS); None outside a loop (or a loop without an
+    op-amp)."""
+    last = len(chain.stages) - 1
+    section = section_of(sections(chain.stages), last)
+    if not section.first < last:
+        return None
+    reference = chain.settings.reference
+    solver = LoopSolver(chain, envs, reference)
+    harmonics_hz = np.arange(1.0, HARMONICS + 1.0, dtype=np.float64) * reference
+    ratio = solver.return_ratio(section.first, harmonics_hz)
+    if ratio is None:
+        return None
+    factor = np.abs(1.0 + np.asarray(ratio))
+    return np.broadcast_to(factor.reshape(-1, HARMONICS), (trials, HARMONICS))[:, None, :]
+
+
+def thd_figures(
+    chain: Chain,
+    envs: Sequence[Environment],
+    as_set: Cascade,
+    nominal: Budget,
+    trials: int,
+) -> dict[str, NDArray[np.float64]]:
+    """The output stage's THD (percent) at each level the nominal check reports, and open
+    loop where the stage sits in a loop, each of shape (T,): ``chain`` and ``envs`` carry
+    the trials' parts as (T, 1) arrays, ``as_set`` is the chain solved with the controls
+    as set over them."""
+    paths = thd_paths(nominal)
+    if not paths:
+        return {}
+    last = len(chain.stages) - 1
+    env = envs[last]
+    upper, lower = pair_laws(chain.stages[last], env)
+    v_t = float(thermal_voltage(env.temperature_k))
+    levels = np.stack([_levels_vpk(chain, as_set, level, trials) for level, _ in paths], axis=1)
+    amplitude = harmonic_amplitudes(levels, upper, lower, chain.load.impedance, v_t)
+    factor = _loop_factor(chain, envs, trials)
+    closed = thd_of(closed_loop(amplitude, factor))
+    figures = {}
+    for j, (_, path) in enumerate(paths):
+        figures[path] = _per_trial(100.0 * closed[..., j], trials).copy()
+    if factor is not None:
+        open_loop = thd_of(amplitude)
+        for j, (_, path) in enumerate(paths):
+            key = path.replace("output.thd_", "output.open_loop_thd_")
+            figures[key] = _per_trial(100.0 * open_loop[..., j], trials).copy()
+    return figures
