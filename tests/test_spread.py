@@ -16,6 +16,7 @@ import pytest
 from scipy import integrate, optimize
 
 from chainbudget.chainfile import parse_chain
+from chainbudget.spread.flags import flag_parts, is_flag
 from chainbudget.spread.run import run_spread
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -394,14 +395,14 @@ def test_small_signal_takes_an_array_beta_element_by_element() -> None:
 
 def test_plot_draws_the_histograms_of_the_trials(tmp_path: Path) -> None:
     """--plot writes a picture with the histograms of the figures the parts move most (the
-    stage's output level, which follows its gain, among them); an existing file is kept."""
+    stage's gain among them); an existing file is kept."""
     chain = tmp_path / "g.toml"
     chain.write_text(NON_INVERTING)
     picture = tmp_path / "spread.svg"
     done = _run("spread", str(chain), "--trials", "300", "--plot", str(picture))
     assert done.returncode == 0, done.stderr
     text = picture.read_text()
-    assert 'id="hist:nodes.pre.level_vrms' in text
+    assert 'id="hist:nodes.pre.gain_db' in text
     again = _run("spread", str(chain), "--trials", "300", "--plot", str(picture))
     assert again.returncode == 2 and "--force" in again.stderr
 
@@ -680,12 +681,10 @@ def _json_figure(data: dict, path: str) -> float:  # type: ignore[type-arg]
     if group == "loop":
         name, key = rest
         return float(next(e for e in data["loop"] if e["stage"] == name)[key])
-    if path == "noise.late_stage_share_margin":  # the figure noise-set-late is judged by
-        shares = {s["stage"]: s["share"] for s in data["noise"]["stage_shares"]}
-        head = data["nodes"][0]["stage"]
-        first = shares.get(head, 0.0)
-        later = [v for name, v in shares.items() if name not in ("source", head)]
-        return max(later) - first
+    if is_flag(path):  # a rule worked out per trial: whether the check finds its code
+        severity, code = flag_parts(path)
+        found = [f for f in data["findings"] if f["code"] == code]
+        return float(any(f["severity"] == severity for f in found))
     if rest[:1] == ["stage_shares"]:
         _, name, key = rest
         return float(next(s for s in data["noise"]["stage_shares"] if s["stage"] == name)[key])

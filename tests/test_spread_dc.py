@@ -13,6 +13,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 from scipy import constants, integrate
+from test_spread import _json_figure, _si
 
 from chainbudget.budget import compute
 from chainbudget.budget.supplies import settle
@@ -142,10 +143,6 @@ def _chain(text: str):  # noqa: ANN202
     return parse_chain(tomllib.loads(text), "spread_dc.toml")
 
 
-def _si(part) -> str:  # noqa: ANN001
-    return "F" if part.part_class == "capacitors" else "ohm"
-
-
 def _changes(chain, parts, evaluate, positions, t) -> dict[str, object]:  # noqa: ANN001
     """Trial t's drawn parts as edits of the file (`Chain.with_values`)."""
     changes: dict[str, object] = {}
@@ -156,21 +153,6 @@ def _changes(chain, parts, evaluate, positions, t) -> dict[str, object]:  # noqa
         else:
             changes[f"{part.owner}.{part.key}"] = f"{float(value[0])!r} {_si(part)}"
     return changes
-
-
-def _json_figure(data: dict, path: str) -> float:  # type: ignore[type-arg]
-    """A spread figure's value in the check JSON."""
-    group, *rest = path.split(".")
-    if group == "nodes":
-        name, key = rest
-        return float(next(n for n in data["nodes"] if n["stage"] == name)[key])
-    if group == "drive":
-        place, name, key = rest
-        return float(next(d for d in data["drive"][place] if d["stage"] == name)[key])
-    if group == "supplies":
-        name, key = rest
-        return float(next(s for s in data["supplies"] if s["name"] == name)[key])
-    return float(data[group][rest[0]] if rest else data[group])
 
 
 NEW_FIGURES = (

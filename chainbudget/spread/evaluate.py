@@ -50,7 +50,7 @@ from chainbudget.spread.flags import flag_parts, is_flag
 from chainbudget.spread.heat import heat_figures
 from chainbudget.spread.hum import hum_figures, hum_thresholds
 from chainbudget.spread.loops import loop_figures, loop_thresholds
-from chainbudget.spread.noise import LATE_SHARE_PATH, output_noise
+from chainbudget.spread.noise import output_noise
 from chainbudget.spread.parts import Part, with_beta
 from chainbudget.spread.settings import HeldSettings, held_settings, worst_of_candidates
 from chainbudget.spread.thd import thd_figures
@@ -249,8 +249,6 @@ class Evaluator:
             found.append(Threshold(path, limit, code, severity))
         for path, limit, code, severity in hum_thresholds(figures):
             found.append(Threshold(path, limit, code, severity, above=True))
-        if LATE_SHARE_PATH in figures:
-            found.append(Threshold(LATE_SHARE_PATH, 0.0, "noise-set-late", "note", above=True))
         # the rules worked out per trial in the batch (`chainbudget.spread.flags`)
         for path in figures:
             if is_flag(path):

@@ -15,9 +15,10 @@ output's sine-equivalent clip over its noise).
 
 ``noise-set-late`` (`chainbudget.findings.noise`) is drawn where a stage after the first
 gives more of the output noise power than the first does (a stage's share: the sum of
-its generators' band powers over the total): per trial the figure
-``noise.late_stage_share_margin`` = max over later stages of their share minus the first
-stage's share (not a key of the check JSON; the check's rule is this figure over 0).
+its generators' band powers over the total): per trial a flag
+(`chainbudget.spread.flags`) of whether the largest later stage's share exceeds the first
+stage's, as the check's rule has it. The shares are not spread figures (a share near zero
+would lead the report's ranking by relative spread).
 """
 
 from __future__ import annotations
@@ -32,12 +33,13 @@ from chainbudget.cascade import Cascade
 from chainbudget.chainfile import Chain
 from chainbudget.outputmath import hiss_spl
 from chainbudget.spectrum import zero_celsius_k
+from chainbudget.spread.flags import as_flag, flag_key, is_flag
 from chainbudget.stages.base import Environment
 from chainbudget.units import DBU_REFERENCE_VRMS
 from chainbudget.weighting import a_weighting, itu468_weighting
 
-#: The figure ``noise-set-late`` is judged by (see the module notes).
-LATE_SHARE_PATH = "noise.late_stage_share_margin"
+#: The flag of ``noise-set-late`` (see the module notes).
+LATE_FLAG = flag_key("note", "noise-set-late", "output")
 
 
 def _db20(ratio: NDArray[np.float64]) -> NDArray[np.float64]:
@@ -56,7 +58,7 @@ def output_noise(
     """Every node's ``noise_vrms``, ``noise_a_vrms``, ``noise_468_vrms``,
     ``noise_density_v_rthz``, ``snr_db`` and ``snr_a_db`` per trial, shape (T,), keyed by their
     path in the check JSON; the chain's input-referred noise, EIN, noise figure and
-    dynamic range (top-level keys), the figure ``noise-set-late`` is judged by, and
+    dynamic range (top-level keys), the flag of ``noise-set-late``, and
     with a loudspeaker sensitivity the hiss SPL at 1 m (``hiss_spl_db``,
     ``hiss_spl_a_db``).
 
@@ -114,7 +116,7 @@ def _defined(nominal: Budget, path: str) -> bool:
         node = next(n for n in noise.nodes if n.stage == name)
         field = "density_v_rthz" if key == "noise_density_v_rthz" else key
         return getattr(node, field) is not None
-    if group == "noise":
+    if is_flag(path):
         return True
     return getattr(noise, path) is not None
 
@@ -158,9 +160,8 @@ def _chain_figures(
 def _stage_shares(
     chain: Chain, spectra: NoiseSpectra, trials: int
 ) -> dict[str, NDArray[np.float64]]:
-    """The margin ``noise-set-late`` is judged by (module notes), from each stage's share
-    of the output noise power (the shares themselves are not spread figures: a share near
-    zero would lead the report's ranking by relative spread)."""
+    """Whether ``noise-set-late`` is drawn in each trial (module notes), from each stage's
+    share of the output noise power."""
     shape = (trials, spectra.frequency.size)
     out = np.stack([np.broadcast_to(c, shape) for c in spectra.contribution[:, -1]])
     flat = spectra.integrate(out, unweighted)  # (S, T)
@@ -178,5 +179,5 @@ def _stage_shares(
     later = [s for i, s in by_stage.items() if i > 0]
     if len(chain.stages) >= 2 and later:
         first = by_stage.get(0, np.zeros(trials))
-        found[LATE_SHARE_PATH] = np.max(later, axis=0) - first
+        found[LATE_FLAG] = as_flag(np.max(later, axis=0) > first, trials)
     return found
