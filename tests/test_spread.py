@@ -881,3 +881,24 @@ def test_thd_of_each_trial_equals_the_check_of_that_trial(text: str) -> None:
         for path in paths:
             held = _json_figure(data, path)
             assert batched[path][t] == pytest.approx(held, rel=1e-9, abs=0), (path, t)
+
+
+@pytest.mark.parametrize(
+    ("path", "unit"),
+    [
+        ("nodes.pre.noise_density_v_rthz", "V/rtHz"),
+        ("nodes.pre.phase_margin_deg", "deg"),
+        ("output.junction_degc", "degC"),
+        ("ein_a_dbu", "dBu"),
+        ("nodes.pre.noise_vrms", "Vrms"),
+        ("nodes.pre.dc_v", "V"),
+    ],
+)
+def test_the_spread_table_names_each_figure_s_unit_from_its_check_json_suffix(
+    path: str, unit: str
+) -> None:
+    from chainbudget.spread.view import _unit, scaled
+
+    assert _unit(path) == unit
+    # decibels, angles and temperatures take no SI prefix
+    assert scaled(path, 1234.0)[1] == (unit if unit in ("dBu", "deg", "degC") else "k" + unit)

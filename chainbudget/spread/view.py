@@ -21,6 +21,10 @@ STILL_RTOL = 1e-9
 #: A figure path's unit suffix and the unit it stands for (the check JSON's key suffixes).
 _UNITS = (
     ("_db", "dB"),
+    ("_dbu", "dBu"),
+    ("_v_rthz", "V/rtHz"),
+    ("_degc", "degC"),
+    ("_deg", "deg"),
     ("_vrms", "Vrms"),
     ("_vpk", "Vpk"),
     ("_vpp", "Vpp"),
@@ -44,18 +48,20 @@ def _unit(path: str) -> str:
 
 def shown(path: str, value: float) -> str:
     unit = _unit(path)
-    if unit == "dB":
-        return f"{value:+.2f} dB" if abs(value) < 1e3 else f"{value:.4g} dB"
+    if unit in _PLAIN_UNITS:
+        return f"{value:+.2f} {unit}" if abs(value) < 1e3 else f"{value:.4g} {unit}"
     return eng(value, unit)
 
 
 _PREFIX = {-12: "p", -9: "n", -6: "u", -3: "m", 0: "", 3: "k", 6: "M", 9: "G"}
+#: Units shown without an SI prefix: levels in decibels, angles and temperatures.
+_PLAIN_UNITS = frozenset({"dB", "dBu", "deg", "degC"})
 
 
 def scaled(path: str, typical: float) -> tuple[float, str]:
     """The scale and unit a row's numbers are shown in (engineering prefix of ``typical``)."""
     unit = _unit(path)
-    if unit == "dB" or typical == 0.0 or not math.isfinite(typical):
+    if unit in _PLAIN_UNITS or typical == 0.0 or not math.isfinite(typical):
         return 1.0, unit
     exponent = max(-12, min(9, 3 * math.floor(math.log10(abs(typical)) / 3)))
     return 10.0**exponent, _PREFIX[exponent] + unit
@@ -98,7 +104,7 @@ def _place_and_figure(path: str) -> tuple[str, str]:
 
 def _number(unit: str, value: float) -> str:
     """A figure as the table shows it: dB to two decimals, others to four digits."""
-    return f"{value:+.2f}" if unit == "dB" else f"{value:.4g}"
+    return f"{value:+.2f}" if unit in ("dB", "dBu") else f"{value:.4g}"
 
 
 def _in_chain_order(paths: list[str], places: Sequence[str]) -> list[str]:
