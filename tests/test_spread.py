@@ -15,7 +15,7 @@ import numpy as np
 import pytest
 from scipy import integrate, optimize
 
-from chainbudget.chainfile import parse_chain
+from chainbudget.chainfile import Chain, parse_chain
 from chainbudget.spread.flags import flag_parts, is_flag
 from chainbudget.spread.run import run_spread
 
@@ -375,6 +375,21 @@ def _si(part) -> str:  # noqa: ANN001
     return "F" if part.part_class == "capacitors" else "ohm"
 
 
+def trial_changes(chain: Chain, parts, values) -> dict[str, object]:  # noqa: ANN001
+    """One trial's drawn parts (``values``: each part's value, shape (1,)) as edits of the
+    file, for checking that trial alone (`Chain.with_values`)."""
+    changes: dict[str, object] = {}
+    for part, value in zip(parts, values, strict=True):
+        if part.is_beta:
+            name = chain.stages[part.index].values[part.key]
+            changes[f"transistor.{name}.beta"] = float(value[0])
+        elif part.part_class == "references":
+            changes[f"{part.table}.{part.owner}.{part.key}"] = f"{float(value[0])!r} V"
+        else:
+            changes[f"{part.table}.{part.owner}.{part.key}"] = f"{float(value[0])!r} {_si(part)}"
+    return changes
+
+
 def test_small_signal_takes_an_array_beta_element_by_element() -> None:
     """The hybrid-pi parameters of an array of betas are those of each beta alone
     (r_pi = (beta + 1) r_e exactly, Horowitz & Hill 3rd ed. sec. 2.3, from memory)."""
@@ -552,13 +567,7 @@ def test_output_pair_betas_drawn_per_trial_equal_the_check_of_each_trial() -> No
     moved = np.ptp(batched["nodes.pre.zload_ohm"])
     assert moved > 0.0  # the pair's input impedance follows its betas
     for t in range(positions.shape[0]):
-        changes: dict[str, object] = {}
-        for part, value in zip(parts, evaluate.values(positions[t : t + 1]), strict=True):
-            if part.is_beta:
-                name = chain.stages[part.index].values[part.key]
-                changes[f"transistor.{name}.beta"] = float(value[0])
-            else:
-                changes[f"{part.owner}.{part.key}"] = f"{float(value[0])!r} {_si(part)}"
+        changes = trial_changes(chain, parts, evaluate.values(positions[t : t + 1]))
         budget = compute(chain.with_values(changes))
         data = json.loads(json.dumps(budget_json(budget, list(budget.findings))))
         for path, values in batched.items():
@@ -746,13 +755,7 @@ def test_band_noise_and_power_of_each_trial_equal_the_check_of_that_trial(text: 
     for path in new:
         assert np.ptp(batched[path]) > 0.0 or path.startswith(fixed), path
     for t in range(positions.shape[0]):
-        changes: dict[str, object] = {}
-        for part, value in zip(parts, evaluate.values(positions[t : t + 1]), strict=True):
-            if part.is_beta:
-                name = chain.stages[part.index].values[part.key]
-                changes[f"transistor.{name}.beta"] = float(value[0])
-            else:
-                changes[f"{part.owner}.{part.key}"] = f"{float(value[0])!r} {_si(part)}"
+        changes = trial_changes(chain, parts, evaluate.values(positions[t : t + 1]))
         budget = compute(chain.with_values(changes))
         for node in nominal.nodes:  # the premise: each trial's worst setting is nominal's
             if node.worst is not None:
@@ -868,13 +871,7 @@ def test_thd_of_each_trial_equals_the_check_of_that_trial(text: str) -> None:
     for path in paths:
         assert np.ptp(batched[path]) > 0.01 * np.mean(batched[path]), path
     for t in range(positions.shape[0]):
-        changes: dict[str, object] = {}
-        for part, value in zip(parts, evaluate.values(positions[t : t + 1]), strict=True):
-            if part.is_beta:
-                name = chain.stages[part.index].values[part.key]
-                changes[f"transistor.{name}.beta"] = float(value[0])
-            else:
-                changes[f"{part.owner}.{part.key}"] = f"{float(value[0])!r} {_si(part)}"
+        changes = trial_changes(chain, parts, evaluate.values(positions[t : t + 1]))
         budget = compute(chain.with_values(changes))
         data = json.loads(json.dumps(budget_json(budget, list(budget.findings))))
         assert len(data["output"]["thd"]) == 3  # every level within reach in each trial

@@ -13,7 +13,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 from scipy import constants, integrate
-from test_spread import _json_figure, _si
+from test_spread import _json_figure, trial_changes
 
 from chainbudget.budget import compute
 from chainbudget.budget.supplies import settle
@@ -143,18 +143,6 @@ def _chain(text: str):  # noqa: ANN202
     return parse_chain(tomllib.loads(text), "spread_dc.toml")
 
 
-def _changes(chain, parts, evaluate, positions, t) -> dict[str, object]:  # noqa: ANN001
-    """Trial t's drawn parts as edits of the file (`Chain.with_values`)."""
-    changes: dict[str, object] = {}
-    for part, value in zip(parts, evaluate.values(positions[t : t + 1]), strict=True):
-        if part.is_beta:
-            name = chain.stages[part.index].values[part.key]
-            changes[f"transistor.{name}.beta"] = float(value[0])
-        else:
-            changes[f"{part.owner}.{part.key}"] = f"{float(value[0])!r} {_si(part)}"
-    return changes
-
-
 NEW_FIGURES = (
     "nodes.pre.dc_v",
     "nodes.buffer.dc_v",
@@ -206,7 +194,9 @@ def test_dc_drive_and_heat_of_each_trial_equal_the_check_of_that_trial() -> None
     assert 0 < errors["dc-into-load"].sum() < len(positions)
     assert masks["dc-into-load"].all()
     for t in range(len(positions)):
-        budget = compute(chain.with_values(_changes(chain, parts, evaluate, positions, t)))
+        budget = compute(
+            chain.with_values(trial_changes(chain, parts, evaluate.values(positions[t : t + 1])))
+        )
         data = json.loads(json.dumps(budget_json(budget, list(budget.findings))))
         for path, values in figures.items():
             if is_flag(path):

@@ -9,7 +9,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from test_spread import _chain, _json_figure, _si
+from test_spread import _chain, _json_figure, trial_changes
 
 from chainbudget.chainfile import Chain
 
@@ -42,19 +42,6 @@ def _evaluator(chain: Chain):  # noqa: ANN202
 
     parts, _ = chain_parts(chain)
     return parts, Evaluator(chain, tuple(parts), compute(chain), settle(chain, "low").voltages)
-
-
-def _changes(chain: Chain, parts, values) -> dict[str, object]:  # noqa: ANN001
-    changes: dict[str, object] = {}
-    for part, value in zip(parts, values, strict=True):
-        if part.is_beta:
-            name = chain.stages[part.index].values[part.key]
-            changes[f"transistor.{name}.beta"] = float(value[0])
-        elif part.part_class == "references":
-            changes[f"{part.table}.{part.owner}.{part.key}"] = f"{float(value[0])!r} V"
-        else:
-            changes[f"{part.table}.{part.owner}.{part.key}"] = f"{float(value[0])!r} {_si(part)}"
-    return changes
 
 
 def _in_db(path: str) -> bool:
@@ -94,7 +81,7 @@ def test_hum_noise_and_loops_of_each_trial_equal_the_check_of_that_trial() -> No
         assert np.ptp(batched[path]) > 0.0, path
     for t in range(len(positions)):
         values = evaluate.values(positions[t : t + 1])
-        edited = chain.with_values(_changes(chain, parts, values))
+        edited = chain.with_values(trial_changes(chain, parts, values))
         budget = compute(edited)
         data = json.loads(json.dumps(budget_json(budget, list(budget.findings))))
         held_ripple = _hum_on_nominal_ripple(edited, evaluate.nominal, budget)
