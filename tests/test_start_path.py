@@ -34,8 +34,11 @@ HEAVY = (
 )
 
 
-def _loaded_after(args: list[str], env: dict[str, str] | None = None) -> set[str]:
-    """Run the command in a fresh interpreter and list the heavy modules it loaded."""
+def _modules_after(
+    args: list[str], prefix: str | tuple[str, ...], env: dict[str, str] | None = None
+) -> set[str]:
+    """Run the command in a fresh interpreter and list the loaded modules under ``prefix``
+    (one prefix or several)."""
     code = (
         "import sys\n"
         "from chainbudget.cli import app\n"
@@ -43,12 +46,17 @@ def _loaded_after(args: list[str], env: dict[str, str] | None = None) -> set[str
         f"    app({args!r})\n"
         "except SystemExit:\n"
         "    pass\n"
-        f"print(sorted(m for m in sys.modules if m.startswith({HEAVY!r})))\n"
+        f"print(sorted(m for m in sys.modules if m.startswith({prefix!r})))\n"
     )
     done = subprocess.run(
         [sys.executable, "-c", code], capture_output=True, text=True, check=True, env=env
     )
     return set(eval(done.stdout.strip().splitlines()[-1]))
+
+
+def _loaded_after(args: list[str], env: dict[str, str] | None = None) -> set[str]:
+    """Run the command in a fresh interpreter and list the heavy modules it loaded."""
+    return _modules_after(args, HEAVY, env)
 
 
 def test_help_loads_neither_the_analysis_nor_pint() -> None:
@@ -80,23 +88,6 @@ def test_a_count_on_the_command_line_is_read_without_pydantic() -> None:
     """``--trials`` and ``--seed`` are counts: read as typer would, without pydantic."""
     args = ["spread", str(BUSKING), "--trials", "2", "--seed", "5", "--format", "json"]
     assert "pydantic" not in _loaded_after(args)
-
-
-def _modules_after(args: list[str], prefix: str, env: dict[str, str] | None = None) -> set[str]:
-    """Run the command in a fresh interpreter and list the loaded modules under ``prefix``."""
-    code = (
-        "import sys\n"
-        "from chainbudget.cli import app\n"
-        "try:\n"
-        f"    app({args!r})\n"
-        "except SystemExit:\n"
-        "    pass\n"
-        f"print(sorted(m for m in sys.modules if m.startswith({prefix!r})))\n"
-    )
-    done = subprocess.run(
-        [sys.executable, "-c", code], capture_output=True, text=True, check=True, env=env
-    )
-    return set(eval(done.stdout.strip().splitlines()[-1]))
 
 
 @pytest.mark.parametrize(
