@@ -22,17 +22,17 @@ from __future__ import annotations
 
 import argparse
 import compileall
-import io
 import json
 import os
 import platform
 import statistics
 import subprocess
 import sys
-import tarfile
 import tempfile
 import time
 from pathlib import Path
+
+from bench_check import _tree as archived_tree  # this folder is the script's path
 
 ROOT = Path(__file__).resolve().parents[2]
 PYTHON = sys.executable
@@ -53,17 +53,9 @@ def _launch(tree: Path) -> str:
 
 
 def _tree(commit: str, folder: Path) -> Path:
-    """The project at ``commit``, written out into ``folder`` (``git archive``)."""
-    archive = subprocess.run(
-        ["git", "-C", str(ROOT), "archive", "--format=tar", commit],
-        capture_output=True,
-        check=True,
-    ).stdout
-    target = folder / commit.replace("^", "_")
-    target.mkdir()
-    with tarfile.open(fileobj=io.BytesIO(archive)) as tar:
-        tar.extractall(target, filter="data")
-    compileall.compile_dir(target / "chainbudget", quiet=1)
+    """The project at ``commit``, written out into ``folder`` (`bench_check._tree`), and
+    checked to import from there."""
+    target = archived_tree(commit, folder)
     where = subprocess.run(
         [PYTHON, "-c", _launch(target) + "import chainbudget; print(chainbudget.__file__)"],
         capture_output=True,
