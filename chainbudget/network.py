@@ -456,8 +456,7 @@ class Netlist:
         shape = np.broadcast_shapes(f_shape, *(np.shape(v) for v in values))
         n = self.size
         # Stamps of one value everywhere go into one N x N matrix; the values that vary (over
-        # frequency, controls or trials) are summed per entry and written into the batch in
-        # one indexed assignment (entry-by-entry writes are strided passes over the batch).
+        # frequency, controls or trials) are summed per entry and written into the batch.
         fixed = np.zeros((n, n), dtype=complex)
         diagonal = np.arange(len(self.nodes))
         fixed[diagonal, diagonal] += GMIN
@@ -482,13 +481,18 @@ class Netlist:
             for name, coefficient in coefficients:
                 if name != GROUND:
                     add(k, self.nodes[name], coefficient)
-        m = np.empty((*shape, n, n), dtype=complex)
-        m[...] = fixed
-        if varying:
-            rows, cols = (np.array(index) for index in zip(*varying, strict=True))
-            entries = np.stack([np.broadcast_to(v, shape) for v in varying.values()], axis=-1)
-            m[..., rows, cols] = fixed[rows, cols] + entries
-        return m
+        # Laid out entry-major, (N, N) + batch, so that the fill and each varying entry's
+        # write are contiguous passes; handed back as the batch-major view numpy's solve
+        # takes (its solve copies each matrix into its own buffer either way).
+        # An MNA matrix is sparse: start from zeros (pages the system hands over zeroed)
+        # and write only the entries that are not.
+        m = np.zeros((n, n, *shape), dtype=complex)
+        for r, c in zip(*np.nonzero(fixed), strict=True):
+            if (r, c) not in varying:
+                m[r, c] = fixed[r, c]
+        for (r, c), value in varying.items():
+            m[r, c] = fixed[r, c] + value
+        return np.moveaxis(m, (0, 1), (-2, -1))
 
     def solve(self, rhs: ArrayLike) -> Complex:
         """Solve the network for right-hand sides ``rhs`` of shape ``(..., N, K)``."""
