@@ -27,6 +27,8 @@ _SERIES_HUNDREDTHS: dict[str, tuple[int, ...]] = {
 # Relative slack when comparing a computed value against a series value, so that arithmetic
 # residue (4699.999999999 for 4.7 kohm) does not skip the value it stands for.
 _MATCH_RTOL = 1e-9
+#: The same slack, for code that must know where a rounding to the series changes.
+MATCH_RTOL = _MATCH_RTOL
 
 
 def _hundredths(name: str) -> NDArray[np.int64]:

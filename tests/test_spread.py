@@ -684,6 +684,12 @@ def _json_figure(data: dict, path: str) -> float:  # type: ignore[type-arg]
     if group == "nodes":
         name, key = rest
         return float(next(n for n in data["nodes"] if n["stage"] == name)[key])
+    if group == "supplies" and rest[1:2] == ["ripple_harmonics"]:  # NAME.ripple_harmonics.HZ.vpk
+        name, _, hz, key = rest
+        supply = next(s for s in data["supplies"] if s["name"] == name)
+        return float(next(h for h in supply["ripple_harmonics"] if _hz_key(h["hz"]) == hz)[key])
+    if group == "hum" and rest[0] in ("by_rail", "by_path", "harmonics"):
+        return _hum_entry(data["hum"], rest)
     if group == "supplies":
         name, key = rest
         return float(next(s for s in data["supplies"] if s["name"] == name)[key])
@@ -701,6 +707,22 @@ def _json_figure(data: dict, path: str) -> float:  # type: ignore[type-arg]
         place, name, key = rest
         return float(next(d for d in data["drive"][place] if d["stage"] == name)[key])
     return float(data[group][rest[0]] if rest else data[group])
+
+
+def _hz_key(hz: float) -> str:
+    """A harmonic's frequency as a spread figure's path names it (``100``, ``33_4``)."""
+    return f"{hz:g}".replace(".", "_")
+
+
+def _hum_entry(hum: dict, rest: list[str]) -> float:  # type: ignore[type-arg]
+    """An entry of the check JSON's ``hum.by_rail`` (``by_rail.SUPPLY.KEY``), ``by_path``
+    (``by_path.STAGE.PATH.KEY``) or ``harmonics`` (``harmonics.HZ.KEY``)."""
+    place, *name, key = rest
+    if place == "by_rail":
+        return float(next(e for e in hum["by_rail"] if [e["supply"]] == name)[key])
+    if place == "by_path":
+        return float(next(e for e in hum["by_path"] if [e["stage"], e["path"]] == name)[key])
+    return float(next(e for e in hum["harmonics"] if [_hz_key(e["hz"])] == name)[key])
 
 
 def _thd_entry(output: dict, key: str) -> float:  # type: ignore[type-arg]
@@ -889,13 +911,19 @@ def test_thd_of_each_trial_equals_the_check_of_that_trial(text: str) -> None:
         ("ein_a_dbu", "dBu"),
         ("nodes.pre.noise_vrms", "Vrms"),
         ("nodes.pre.dc_v", "V"),
+        # an entry of a list, its key a unit alone
+        ("hum.by_path.pre.V+ pin (PSRR).vrms", "Vrms"),
+        ("hum.harmonics.100.a_vrms", "Vrms"),
+        ("supplies.raw.ripple_harmonics.100.vpk", "Vpk"),
     ],
 )
 def test_the_spread_table_names_each_figure_s_unit_from_its_check_json_suffix(
     path: str, unit: str
 ) -> None:
-    from chainbudget.spread.view import _unit, scaled
+    from chainbudget.spread.view import _place_and_figure, _unit, scaled
 
     assert _unit(path) == unit
+    place, figure = _place_and_figure(path)
+    assert figure and not place.startswith("hum.hum")  # each row names its place once
     # decibels, angles and temperatures take no SI prefix
     assert scaled(path, 1234.0)[1] == (unit if unit in ("dBu", "deg", "degC") else "k" + unit)

@@ -1,5 +1,6 @@
-"""The spread of the hum, the noise at every node and the op-amp loops: brute force, one
-trial at a time through the real check, and closed forms of a textbook stage."""
+"""The spread of the hum, the rails' ripple, the noise at every node and the op-amp loops:
+brute force, one trial at a time through the real check, closed forms of a textbook
+stage, and a rectifier solved here by solve_ivp."""
 
 from __future__ import annotations
 
@@ -9,15 +10,18 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from test_spread import _chain, _json_figure, trial_changes
+from numpy.typing import NDArray
+from test_spread import _chain, _hz_key, _json_figure, trial_changes
 
 from chainbudget.chainfile import Chain
+from chainbudget.spread.flags import flag_key, is_flag
 
 ROOT = Path(__file__).resolve().parents[1]
 
-# The kitchen radio with its reservoir held exact: the spread holds each rail's ripple
-# spectrum at the nominal check's (docs/tolerances.md), so a brute force that draws the
-# reservoir would move the ripple the spread holds.
+# The kitchen radio with its reservoir held exact, so that the rails' ripple is the
+# nominal check's and the hum of a trial can be set against the check's hum budget on that
+# ripple: the stages' transfers alone (the ripple per trial is tested below, on a chain
+# whose reservoir alone is drawn).
 KITCHEN = (ROOT / "chains" / "kitchen_radio_mains.toml").read_text()
 # The regulator's parts held too: a drawn output moves its bleeder's and the stages'
 # currents, and with them the raw rail's load and ripple, which the spread (settling the
@@ -130,6 +134,15 @@ def _hum_on_nominal_ripple(chain: Chain, nominal, budget) -> dict[str, float]:  
     }
     for stage, vrms in zip(chain.stages, hum.node_vrms, strict=True):
         found[f"nodes.{stage.name}.hum_vrms"] = vrms
+    for rail in hum.by_rail:
+        found[f"hum.by_rail.{rail.supply}.vrms"] = rail.vrms
+        found[f"hum.by_rail.{rail.supply}.a_vrms"] = rail.a_vrms
+    for one in hum.paths:
+        found[f"hum.by_path.{one.stage}.{one.path}.vrms"] = one.vrms
+        found[f"hum.by_path.{one.stage}.{one.path}.a_vrms"] = one.a_vrms
+    for harmonic in hum.harmonics:
+        found[f"hum.harmonics.{_hz_key(harmonic.hz)}.vrms"] = harmonic.vrms
+        found[f"hum.harmonics.{_hz_key(harmonic.hz)}.a_vrms"] = harmonic.a_vrms
     return found
 
 
@@ -305,3 +318,340 @@ def test_loop_figures_on_the_reduced_axis_equal_those_on_the_whole_axis(
     assert len(paths) == 6
     for path in paths:
         assert first[path] == pytest.approx(whole[path], rel=1e-12, abs=0), path
+
+
+# A rectified rail whose reservoir alone is drawn (20 %; every other part held): its ripple
+# reaches one op-amp's V+ pin through an rc_filter; a fixed regulator off the same rail
+# (nothing of its own drawn) sits 80 mV above its dropout at the nominal reservoir, so the
+# smallest reservoirs take it out of regulation and its ripple then passes unrejected; a
+# divider off the regulator biases both op-amps. The op-amps' supply rejection puts the hum
+# 1 dB over the A-weighted noise at the nominal reservoir: the reservoir's spread carries
+# trials across hum-over-noise, and out of regulation across hum-audible and
+# regulator-dropout, the dominant path moving from the filtered V+ pin to the bias point.
+DRAWN_RESERVOIR = """
+[chain]
+title = "hum on a drawn reservoir"
+band = ["20 Hz", "20 kHz"]
+reference = "1 kHz"
+[source]
+level = "20 mV"
+max_level = "40 mV"
+impedance = "1k"
+[load]
+impedance = "8 ohm"
+sensitivity = "90 dB"
+[tolerances]
+resistors = "0 %"
+capacitors = "0 %"
+pots = "0 %"
+references = "0 %"
+[[supply]]
+name = "raw"
+kind = "rectified"
+secondary = "15 V"
+mains_tolerance = "10 %"
+line_frequency = "50 Hz"
+bridge_drop = "1.8 V"
+reservoir = "2200 uF"
+regulation = "12 %"
+rated_current = "0.5 A"
+tolerance = { reservoir = "20 %" }
+[[supply]]
+name = "clean"
+kind = "regulator"
+from = "raw"
+output = "13.45 V"
+dropout = "2 V"
+ripple_rejection = "60 dB"
+ripple_rejection_corner = "300 Hz"
+[[supply]]
+name = "quiet"
+kind = "rc_filter"
+from = "raw"
+resistance = "47 ohm"
+capacitance = "470 uF"
+[[supply]]
+name = "mid"
+kind = "divider"
+from = "clean"
+upper = "10k"
+lower = "10k"
+capacitance = "10 uF"
+[[stage]]
+name = "pre"
+kind = "opamp_gain"
+topology = "inverting"
+input = "10k"
+feedback = "47k"
+input_cap = "2u2"
+opamp = "leaky"
+positive = "quiet"
+bias = "mid"
+[[stage]]
+name = "drive"
+kind = "opamp_gain"
+topology = "non-inverting"
+feedback = "10k"
+ground_leg = "10k"
+ground_cap = "100u"
+input_cap = "1u"
+bias_resistor = "100k"
+opamp = "leaky"
+positive = "clean"
+bias = "mid"
+[[stage]]
+name = "amp"
+kind = "block"
+gain = "26 dB"
+input_impedance = "20k"
+output_impedance = "0.05 ohm"
+max_output = "6 V"
+supply_current = "0.25 A"
+positive = "raw"
+[opamp.leaky]
+gbw = "10 MHz"
+slew_rate = "10 V/us"
+noise_voltage = "10 nV/rtHz"
+noise_current = "0.1 pA/rtHz"
+open_loop_gain = "110 dB"
+output_resistance = "50 ohm"
+swing_margin = "1.5 V"
+output_current = "20 mA"
+supply_current = "2 mA"
+psrr = "66 dB"
+psrr_corner = "100 Hz"
+"""
+
+HUM_CODES = (
+    "regulator-dropout",
+    "hum-over-noise",
+    "hum-audible",
+    "hum-dominant-path",
+    "hum-remedy",
+)
+
+
+def _follows_the_ripple(path: str) -> bool:
+    """The figures a trial's ripple alone moves: the hum and the rails' ripple spectra (the
+    nominal load's, which the trial's own tree does not change)."""
+    return _is_hum(path) or ".ripple_harmonics." in path
+
+
+def test_ripple_and_hum_of_each_trial_equal_the_check_of_that_trial() -> None:
+    """Brute force, one sample at a time: eight of 24 trials of a drawn reservoir, each
+    written into the file (`Chain.with_values`) and checked on its own. Solved alone
+    (directly), the trial's every figure equals the check's at rtol 1e-9 (hum in dB,
+    1e-8 dB): the rails' troughs and ripple (the rectifier's, the rc_filter's, the
+    regulator's with its rejection, the divider's), their spectra, the hum at every node,
+    by root supply, by path and by harmonic. Out of regulation the check's tree moves its
+    heaviest load and its bias point with the regulator's output, which the spread holds
+    (docs/tolerances.md): there the hum and the spectra (at the nominal load) still agree at
+    rtol 1e-9 and the rest within 0.1 %. The batch of 24 takes the rectifier from its grid
+    of 17 reservoir values: within rtol 1e-8 (abs 1 nV) of each trial solved alone. The
+    per-trial codes (regulator-dropout, hum-over-noise, hum-audible, hum-dominant-path with
+    its stage, hum-remedy) are the check's of each trial; each is drawn by some trials and
+    not by others, and the dominant path by the spread's figures is the check's."""
+    from chainbudget.budget import compute
+    from chainbudget.report.json_view import budget_json
+    from chainbudget.spread.evaluate import failing
+
+    chain = _chain(DRAWN_RESERVOIR)
+    parts, evaluate = _evaluator(chain)
+    assert [p.label for p in parts] == ["raw.reservoir"]
+    positions = np.linspace(0.01, 0.99, 24)[:, None]
+    batched = evaluate(positions, flags=True)
+    masks = failing(evaluate.thresholds(batched), batched)
+    for code in HUM_CODES:
+        assert 0 < masks[code].sum() < len(positions), code
+    figures = [p for p in batched if not is_flag(p)]
+    for key in (
+        "supplies.clean.ripple_vpp",
+        "supplies.quiet.trough_v",
+        "supplies.mid.ripple_harmonics.100.vpk",
+        "hum.by_rail.raw.a_vrms",
+        "hum.by_path.pre.bias at + input.a_vrms",
+        "hum.harmonics.200.vrms",
+    ):
+        assert np.ptp(batched[key]) > 0.0, key
+    by_path = [p for p in figures if p.startswith("hum.by_path.") and p.endswith(".a_vrms")]
+    out_of_regulation = 0
+    for t in range(0, len(positions), 3):
+        alone = evaluate(positions[t : t + 1], flags=True)
+        for path, values in batched.items():
+            assert values[t] == pytest.approx(alone[path][0], rel=1e-8, abs=1e-9), (path, t)
+        edited = chain.with_values(
+            trial_changes(chain, parts, evaluate.values(positions[t : t + 1]))
+        )
+        budget = compute(edited)
+        data = json.loads(json.dumps(budget_json(budget, list(budget.findings))))
+        regulating = alone["supplies.clean.dropout_margin_v"][0] >= 0.0
+        out_of_regulation += not regulating
+        for path in figures:
+            want, got = _json_figure(data, path), alone[path][0]
+            if not regulating and not _follows_the_ripple(path):
+                assert got == pytest.approx(want, rel=1e-3, abs=1e-9), (path, t)
+            elif _in_db(path) and want > 0.0:
+                assert 20 * math.log10(got) == pytest.approx(20 * math.log10(want), abs=1e-8)
+            else:
+                assert got == pytest.approx(want, rel=1e-9, abs=1e-12), (path, t)
+        codes = {f.code for f in budget.findings}
+        for code in HUM_CODES:
+            assert bool(masks[code][t]) == (code in codes), (code, t)
+        dominant = [f.stage for f in budget.findings if f.code == "hum-dominant-path"]
+        for stage in ("pre", "drive"):
+            flag = batched[flag_key("note", "hum-dominant-path", stage)][t]
+            assert bool(flag) == (dominant == [stage]), (stage, t)
+        first = data["hum"]["by_path"][0]
+        largest = max(by_path, key=lambda p: alone[p][0])
+        assert largest == f"hum.by_path.{first['stage']}.{first['path']}.a_vrms", t
+    assert out_of_regulation == 1  # the first trial's reservoir takes the regulator out
+
+
+# One bridge rectifier with a constant load (a block stage): its winding resistance given,
+# its open circuit the secondary (no regulation), so that the circuit is written out below.
+RECTIFIER_ALONE = """
+[chain]
+title = "a rectifier and its reservoir"
+[source]
+level = "10 mV"
+impedance = "1k"
+[load]
+impedance = "8 ohm"
+[tolerances]
+resistors = "0 %"
+capacitors = "20 %"
+[[supply]]
+name = "raw"
+kind = "rectified"
+secondary = "15 V"
+mains_tolerance = "10 %"
+line_frequency = "50 Hz"
+bridge_drop = "1.8 V"
+reservoir = "2200 uF"
+winding_resistance = "2 ohm"
+[[stage]]
+name = "amp"
+kind = "block"
+gain = "20 dB"
+input_impedance = "20k"
+output_impedance = "0.1 ohm"
+max_output = "5 V"
+supply_current = "0.3 A"
+positive = "raw"
+"""
+
+
+def _periodic_rectifier(
+    peak: float, drop: float, r_s: float, c: float, load_a: float, line_hz: float
+) -> tuple[float, NDArray]:
+    """The periodic state of a full-wave capacitor-input rectifier written out here:
+    C dv/dt = max(e - v, 0)/R_s - I, e = V |sin(2 pi f t)| - V_d (ideal diodes with a fixed
+    drop, Kirchhoff's current law at the reservoir), solved by scipy's solve_ivp over one
+    ripple period T = 1/(2 f) and shot for v(T) = v(0) by Brent's method; returns the
+    ripple peak-to-peak and the reservoir's voltage on 2^14 even points of the period,
+    starting at the line's zero crossing."""
+    from scipy import integrate, optimize
+
+    omega = 2.0 * math.pi * line_hz
+    period = 1.0 / (2.0 * line_hz)
+
+    def slope(t: float, v: NDArray) -> NDArray:
+        e = peak * abs(math.sin(omega * t)) - drop
+        return (max(e - v[0], 0.0) / r_s - load_a) / c * np.ones(1)
+
+    def run(v0: float, dense: bool = False):  # noqa: ANN202
+        return integrate.solve_ivp(
+            slope,
+            (0.0, period),
+            [v0],
+            method="DOP853",
+            rtol=1e-11,
+            atol=1e-11,
+            max_step=period / 200,
+            dense_output=dense,
+        )
+
+    # v(T) - v(0) falls through zero between the open circuit and the constant-current trough
+    top = peak - drop
+    low = top - 4.0 * load_a / (2.0 * line_hz * c)
+    v0 = optimize.brentq(lambda v: run(v).y[0, -1] - v, low, top, xtol=1e-12)
+    solved = run(v0, dense=True)
+    t = np.arange(2**14) * period / 2**14
+    v = solved.sol(t)[0]
+    fine = np.linspace(0.0, period, 200001)
+    values = solved.sol(fine)[0]
+    return float(values.max() - values.min()), v
+
+
+def test_ripple_per_trial_against_a_rectifier_solved_here_and_the_constant_current_rule() -> None:
+    """The ripple of each trial's drawn reservoir (a batch of 25, from the grid of 17
+    solves) against the circuit solved here by solve_ivp and shooting
+    (`_periodic_rectifier`): the peak-to-peak at low line (0.9 x the open-circuit peak),
+    rtol 1e-7 (the extremes, where v' = 0, read on a 200,001-point grid of the dense
+    output), and each harmonic's magnitude at nominal line,
+    |a_k| = 2 |mean(v exp(-j k 2 pi t / T))| on 2^14 points (the rectangle rule on a
+    periodic function), within 1e-8 of the fundamental. The load is the check's (a
+    block's constant current: no pulses). And the handbook's rule: Vpp ~ I/(2 f C) for a
+    full-wave rectifier (Horowitz & Hill, The Art of Electronics, 3rd ed., sec. 9.5.2,
+    from memory), a bound the ripple stays under as the reservoir recharges over part of
+    each half cycle (here within 40 % of it, the 2 ohm winding stretching the recharge),
+    falling as 1/C within 1 % across the trials (Vpp C the same in every one)."""
+    chain = _chain(RECTIFIER_ALONE)
+    parts, evaluate = _evaluator(chain)
+    assert [p.label for p in parts] == ["raw.reservoir"]
+    positions = np.linspace(0.0, 1.0, 25)[:, None]
+    figures = evaluate(positions)
+    reservoir = evaluate.values(positions)[0]
+    load = evaluate.nominal.supply("raw").load
+    assert load.heaviest_pulse_a == 0.0 and load.nominal_pulse_a == 0.0
+    peak = math.sqrt(2.0) * 15.0
+    fundamental = None
+    for t in (0, 7, 12, 24):
+        c = float(reservoir[t])
+        vpp, _ = _periodic_rectifier(0.9 * peak, 1.8, 2.0, c, load.heaviest_a, 50.0)
+        assert figures["supplies.raw.ripple_vpp"][t] == pytest.approx(vpp, rel=1e-7), t
+        _, v = _periodic_rectifier(peak, 1.8, 2.0, c, load.nominal_a, 50.0)
+        turn = 2.0 * math.pi * np.arange(v.size) / v.size
+        for k in range(1, 9):
+            a_k = 2.0 * abs(np.mean(v * np.exp(-1j * k * turn)))
+            if k == 1:
+                fundamental = a_k
+            got = figures[f"supplies.raw.ripple_harmonics.{100 * k}.vpk"][t]
+            assert got == pytest.approx(a_k, rel=0, abs=1e-8 * fundamental), (t, k)
+    rule = load.heaviest_a / (2.0 * 50.0 * reservoir)
+    ratio = figures["supplies.raw.ripple_vpp"] / rule
+    assert np.all((ratio > 0.6) & (ratio < 1.0))
+    assert np.ptp(ratio) / np.mean(ratio) < 0.01
+    assert np.ptp(figures["supplies.raw.ripple_vpp"]) > 0.3 * np.mean(
+        figures["supplies.raw.ripple_vpp"]
+    )
+
+
+def test_the_filter_remedy_reach_is_where_the_check_stops_finding_it(
+    monkeypatch: pytest.MonkeyPatch,
+) -> None:
+    """Where the supply filter is the only remedy the check would find for a path (no
+    supply has a value of its own to change, the stage is on a regulator's rail), its
+    reach is the attenuation at which the check's filter capacitor passes
+    HUM_FILTER_MAX_CAP_F: the check finds the filter just under it and not just over."""
+    from chainbudget.budget import compute
+    from chainbudget.budget import hum_remedies as hr
+    from chainbudget.budget.hum import hum_budget
+    from chainbudget.budget.supplies import loaded_analysis
+    from chainbudget.supplies import KINDS as SUPPLY_KINDS
+
+    chain = _chain(DRAWN_RESERVOIR)
+    budget = compute(chain)
+    for name in ("rectified", "rc_filter", "divider"):
+        monkeypatch.setattr(type(SUPPLY_KINDS[name]), "ripple_remedy", lambda *args: None)
+    assert budget.hum is not None
+    path = next(p for p in budget.hum.paths if p.stage == "drive" and p.supply == "clean")
+    currents = [0.0 if n.currents is None else n.currents.nominal_a for n in budget.nodes]
+    reach = hr.remedy_reach(chain, budget.supplies, currents, path)
+    assert 10.0 < reach < math.inf
+    _, field = hum_budget(loaded_analysis(chain, corner="low"), budget.supplies, None)
+    ctx = hr._Context(chain, {s.name: s for s in budget.supplies}, field, currents)
+    assert hr._rc_filter(ctx, path, reach * (1 - 1e-6)) is not None
+    assert hr._rc_filter(ctx, path, reach * (1 + 1e-6)) is None
+    other = next(p for p in budget.hum.paths if p.stage == "pre" and p.supply == "quiet")
+    assert hr.remedy_reach(chain, budget.supplies, currents, other) == math.inf  # a regulator

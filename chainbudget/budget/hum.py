@@ -201,11 +201,19 @@ def solve_hum(
 
 
 def hum_field(
-    chain: Chain, envs: Sequence[Environment], supplies: Sequence[SupplyBudget]
+    chain: Chain,
+    envs: Sequence[Environment],
+    supplies: Sequence[SupplyBudget],
+    ripple: Mapping[str, tuple[NDArray[np.float64], Complex]] | None = None,
 ) -> tuple[HumField | None, tuple[str, ...]]:
     """`solve_hum` for a chain and its stages' environments: parts given as arrays over
     leading batch axes (the spread's trials, (T, 1)) put those axes in the field's
-    ``at_nodes`` (R, J, T, H) and ``gain`` (T, H)."""
+    ``at_nodes`` (R, J, T, H) and ``gain`` (T, H).
+
+    ``ripple`` gives some rails' ripple in place of their supplies' (the spread's trials):
+    by rail, the harmonics' frequencies (K,) (each one of the supplies' own) and their
+    complex peak amplitudes (T, K); the transfers are the same, the phasors at the nodes
+    are the transfers times each trial's ripple."""
     stages = chain.stages
     by_rail = {s.name: s for s in supplies}
     # The axis: every harmonic of every rail with mains ripple.
@@ -236,20 +244,44 @@ def hum_field(
             ideal[stage.name] = None  # single supply, its bias point named after no supply
     transfers, from_source = net.ripple_transfers(outs)  # batch + (H, J, R), (H, J)
     spectra = {rail: dict(by_rail[rail].ripple_harmonics) for _, _, rail in kept}
-    # each kept source's rail ripple on the harmonic axis, (H, R_kept)
-    ripple = np.array(
-        [
-            [source.polarity * spectra[rail].get(float(hz), 0j) for _, source, rail in kept]
-            for hz in frequency
-        ],
-        dtype=complex,
-    ).reshape(frequency.size, len(kept))
+    given = ripple or {}
+    # each kept source's rail ripple on the harmonic axis, (..., H, R_kept)
+    on_axis = [
+        source.polarity
+        * (
+            _on_harmonic_axis(frequency, *given[rail])
+            if rail in given
+            else np.array([spectra[rail].get(float(hz), 0j) for hz in frequency], dtype=complex)
+        )
+        for _, source, rail in kept
+    ]
+    rails_ripple = (
+        np.stack(np.broadcast_arrays(*on_axis), axis=-1)
+        if on_axis
+        else np.zeros((frequency.size, 0), dtype=complex)
+    )
     columns = [r for r, _, _ in kept]
-    at_nodes = np.moveaxis(transfers[..., columns] * ripple[:, None, :], (-1, -2, -3), (0, 1, -1))
+    at_nodes = np.moveaxis(
+        transfers[..., columns] * rails_ripple[..., :, None, :], (-1, -2, -3), (0, 1, -1)
+    )
     roots = tuple(root_of(chain, rail) for _, _, rail in kept)
     sources = tuple((source, rail, index[source.stage]) for _, source, rail in kept)
     hum = HumField(frequency, at_nodes, roots, sources, from_source[..., -1])
     return hum, tuple(ideal)
+
+
+def _on_harmonic_axis(
+    frequency: NDArray[np.float64], hz: NDArray[np.float64], amplitude: Complex
+) -> Complex:
+    """A rail's harmonics (``hz`` (K,), ``amplitude`` (..., K)) placed on the field's
+    harmonic axis (H,), zero where the rail has none."""
+    placed = np.zeros(np.shape(amplitude)[:-1] + (frequency.size,), dtype=complex)
+    index = np.searchsorted(frequency, hz)
+    assert np.all(index < frequency.size) and np.allclose(frequency[index], hz, rtol=1e-12), (
+        "a rail's harmonic off the field's axis"
+    )
+    placed[..., index] = amplitude
+    return placed
 
 
 def _db20(ratio: float) -> float | None:

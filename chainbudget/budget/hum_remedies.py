@@ -42,7 +42,7 @@ from chainbudget.budget.hum import (
 )
 from chainbudget.budget.rails import rail_owners, rails_of
 from chainbudget.chainfile import Chain
-from chainbudget.eseries import largest_at_most, smallest_at_least
+from chainbudget.eseries import MATCH_RTOL, largest_at_most, smallest_at_least
 from chainbudget.network import Complex, RippleSource
 from chainbudget.notation import amps, eng, sig
 from chainbudget.supplies import KINDS as SUPPLY_KINDS
@@ -62,6 +62,8 @@ CAPACITOR_SERIES = "E6"
 #: The least attenuation a remedy aims for on the dominant path (6 dB): below it a change
 #: is not worth a part.
 LEAST_ATTENUATION = 2.0
+#: The target's margin under its bound as a ratio of voltages.
+TARGET_FACTOR = 10.0 ** (-HUM_TARGET_MARGIN_DB / 20.0)
 
 
 def hum_with_remedies(
@@ -99,20 +101,74 @@ def target_a_vrms(chain: Chain, noise_a_vrms: float | None) -> float | None:
     bounds = []
     if noise_a_vrms is not None and noise_a_vrms > 0.0:
         bounds.append(noise_a_vrms)
-    sensitivity = chain.load.sensitivity
-    if sensitivity is not None:
-        at_one_volt = float(om.hiss_spl(sensitivity, 1.0, chain.load.impedance))
-        bounds.append(10.0 ** ((HUM_AUDIBLE_SPL_A_DB - at_one_volt) / 20.0))
+    audible = audible_a_vrms(chain)
+    if audible is not None:
+        bounds.append(audible)
     if not bounds:
         return None
-    return min(bounds) * 10.0 ** (-HUM_TARGET_MARGIN_DB / 20.0)
+    return min(bounds) * TARGET_FACTOR
+
+
+def audible_a_vrms(chain: Chain) -> float | None:
+    """The A-weighted output hum that reaches `HUM_AUDIBLE_SPL_A_DB` at 1 m with the load's
+    sensitivity, V rms (None without one): L = sensitivity + 20 log10(V / sqrt(1 W Z))
+    solved for V."""
+    sensitivity = chain.load.sensitivity
+    if sensitivity is None:
+        return None
+    at_one_volt = float(om.hiss_spl(sensitivity, 1.0, chain.load.impedance))
+    return float(10.0 ** ((HUM_AUDIBLE_SPL_A_DB - at_one_volt) / 20.0))
+
+
+def remedy_reach(
+    chain: Chain,
+    supplies: Sequence[SupplyBudget],
+    stage_currents_a: Sequence[float],
+    path: HumPath,
+) -> float:
+    """The largest attenuation ``path`` may need (as `hum_with_remedies` works it out when
+    the path dominates) with at least one remedy still found: infinite when one is found
+    whatever the need (a value of the path's own supply or of its root, a regulator in
+    front of the stage), the supply filter's limit where only the filter is (its capacitor
+    grows with the need up to `HUM_FILTER_MAX_CAP_F`), zero when none is.
+
+    Each shipped kind's own remedy (`SupplyKind.ripple_remedy`) is found for every need
+    from `LEAST_ATTENUATION` up or for none (a rectifier's reservoir, capped at
+    `chainbudget.supplies.rectified.kind.RESERVOIR_MAX_FACTOR` times, always grows it); it
+    is asked at both ends to be sure."""
+    ctx = _Context(chain, {s.name: s for s in supplies}, None, stage_currents_a)
+    fixed = [(_own_remedy_found(ctx, path.supply)), _regulator_fits(ctx, path)]
+    root_rail = ctx.top(path.supply)
+    if root_rail != path.supply:
+        fixed.append(_own_remedy_found(ctx, root_rail))
+    if any(fixed):
+        return math.inf
+    filter_parts = _filter_parts(ctx, path)
+    if filter_parts is None:
+        return 0.0
+    _, r, _ = filter_parts
+    w = 2.0 * math.pi * ctx.fundamental(path.supply)
+    # smallest_at_least(x) <= C_max exactly where x <= (the series' largest value not above
+    # C_max) / (1 - its matching slack): x = sqrt(N^2 - 1)/(w R) solved for N
+    largest = largest_at_most(HUM_FILTER_MAX_CAP_F, CAPACITOR_SERIES) / (1.0 - MATCH_RTOL)
+    return math.sqrt(1.0 + (w * r * largest) ** 2)
+
+
+def _own_remedy_found(ctx: _Context, rail: str) -> bool:
+    """Whether the rail's own supply has a value to change at every need (both ends)."""
+    supply = rail_owners(ctx.chain)[rail]
+    kind = SUPPLY_KINDS[supply.kind]
+    fundamental = ctx.fundamental(rail)
+    ends = [kind.ripple_remedy(supply, need, fundamental) for need in (LEAST_ATTENUATION, 1e9)]
+    return all(remedy is not None for remedy in ends)
 
 
 @dataclasses.dataclass(frozen=True)
 class _Context:
     chain: Chain
     supplies: dict[str, SupplyBudget]
-    hum: HumField
+    #: The solved phasors (None where only whether a remedy is found is asked).
+    hum: HumField | None
     currents_a: Sequence[float]
 
     def descends(self, rail: str, ancestor: str) -> bool:
@@ -140,6 +196,7 @@ class _Context:
     ) -> tuple[float, float]:
         """The output hum with the sources ``reached`` picks scaled by ``factor(f)``."""
         hum = self.hum
+        assert hum is not None
         scale = np.ones((len(hum.sources), hum.frequency.size), dtype=complex)
         for i, (source, rail, k) in enumerate(hum.sources):
             if reached(source, rail, k):
@@ -179,6 +236,7 @@ def _supply_remedy(ctx: _Context, rail: str, need: float) -> HumRemedy | None:
     if remedy is None:
         return None
     hum = ctx.hum
+    assert hum is not None
     scale = np.ones((len(hum.sources), hum.frequency.size), dtype=complex)
     ratios: dict[str, dict[float, complex]] = {}
     if remedy.factor is None:
@@ -245,10 +303,10 @@ def _stage_reached(
     return reached
 
 
-def _rc_filter(ctx: _Context, path: HumPath, need: float) -> HumRemedy | None:
-    """An rc_filter between each rippling rail and the stage: R from the drop the stage's
-    current may take (`HUM_FILTER_DROP_FRACTION` of the rail), C for the attenuation
-    needed at the ripple's fundamental."""
+def _filter_parts(ctx: _Context, path: HumPath) -> tuple[dict[str, str], float, float] | None:
+    """The rails (by role) a supply filter in front of the path's stage goes on, its
+    resistor (from the drop the stage's current may take, `HUM_FILTER_DROP_FRACTION` of
+    the rail) and that current; None where no filter fits."""
     roles = _stage_rails(ctx, path)
     if path.role not in roles:
         return None
@@ -257,6 +315,16 @@ def _rc_filter(ctx: _Context, path: HumPath, need: float) -> HumRemedy | None:
     if current <= 0.0 or rail_v <= 0.0:
         return None
     r = largest_at_most(HUM_FILTER_DROP_FRACTION * rail_v / current, RESISTOR_SERIES)
+    return roles, r, current
+
+
+def _rc_filter(ctx: _Context, path: HumPath, need: float) -> HumRemedy | None:
+    """An rc_filter between each rippling rail and the stage (`_filter_parts`), C for the
+    attenuation needed at the ripple's fundamental."""
+    fitted = _filter_parts(ctx, path)
+    if fitted is None:
+        return None
+    roles, r, current = fitted
     w = 2.0 * math.pi * ctx.fundamental(path.supply)
     c = smallest_at_least(math.sqrt(need**2 - 1.0) / (w * r), CAPACITOR_SERIES)
     if c > HUM_FILTER_MAX_CAP_F:
@@ -287,13 +355,20 @@ def _new_supply_name(chain: Chain, wanted: str) -> str:
     return name
 
 
+def _regulator_fits(ctx: _Context, path: HumPath) -> bool:
+    """Whether a regulator can go in front of the path's stage: the path's rail is one of
+    the stage's rippling rails and none of them is a regulator's already."""
+    roles = _stage_rails(ctx, path)
+    return path.role in roles and not any(
+        SUPPLY_KINDS[ctx.supplies[r].kind].regulates for r in roles.values()
+    )
+
+
 def _regulator(ctx: _Context, path: HumPath, need: float) -> HumRemedy | None:
     """A regulator between each rippling rail and the stage, when none is a regulator's."""
-    roles = _stage_rails(ctx, path)
-    if path.role not in roles or any(
-        SUPPLY_KINDS[ctx.supplies[r].kind].regulates for r in roles.values()
-    ):
+    if not _regulator_fits(ctx, path):
         return None
+    roles = _stage_rails(ctx, path)
     factor = 10.0 ** (-HUM_REGULATOR_REJECTION_DB / 20.0)
     expected = ctx.scaled(
         _stage_reached(path, roles), lambda f: np.full(f.shape, factor, dtype=complex)

@@ -207,14 +207,15 @@ def _reactive_corner(chain: Chain, output_cap: float, z_out: complex) -> float |
 
 def voltage_clip_source_peak(cas: Cascade, k: int) -> NDArray[np.float64]:
     """Source peak at which stage k reaches its tightest limit other than a current limit,
-    on the cascade's full shape (inf where it has none)."""
-    shape = np.shape(cas.v_out[k])
-    peak = np.full(shape, np.inf)
+    on the cascade's full shape (inf where it has none), or wider where a limit has a
+    leading trial axis the cascade has not (a spread rail under a stage with no part
+    drawn)."""
+    peak = np.full(np.shape(cas.v_out[k]), np.inf)
     with np.errstate(divide="ignore"):
         for limit in cas.stages[k].built.limits:
             if not limit.bounds_current:
                 bound = np.asarray(limit.peak) / np.abs(cas.probe(k, limit.probe))
-                peak = np.minimum(peak, np.broadcast_to(bound, shape))
+                peak = np.minimum(peak, bound)
     return peak
 
 

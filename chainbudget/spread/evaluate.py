@@ -48,7 +48,13 @@ from chainbudget.spread.dc import dc_figures, walked
 from chainbudget.spread.drive import drive_figures
 from chainbudget.spread.flags import flag_parts, is_flag
 from chainbudget.spread.heat import heat_figures
-from chainbudget.spread.hum import hum_figures, hum_thresholds
+from chainbudget.spread.hum import (
+    HumRemedyReach,
+    harmonic_key,
+    hum_figures,
+    hum_thresholds,
+    remedy_reach_of,
+)
 from chainbudget.spread.loops import loop_figures, loop_thresholds
 from chainbudget.spread.noise import output_noise
 from chainbudget.spread.parts import Part, with_beta
@@ -56,7 +62,7 @@ from chainbudget.spread.settings import HeldSettings, held_settings, worst_of_ca
 from chainbudget.spread.thd import thd_figures
 from chainbudget.stages.base import Environment
 from chainbudget.supplies import KINDS as SUPPLY_KINDS
-from chainbudget.supplies.base import Corners, SpreadThreshold
+from chainbudget.supplies.base import Corners, RippleSpread, SpreadThreshold
 from chainbudget.thresholds import HISS_SPL_A_LIMIT_DB, SNR_MIN_DB, THIN_HEADROOM_DB
 
 Figures = dict[str, NDArray[np.float64]]
@@ -135,6 +141,9 @@ class Evaluator:
         figures: Figures = {}
         voltages = dict(self.voltages)
         lows: dict[str, NDArray[np.float64]] = {}
+        # each spread rail's mains ripple per trial (the rails below and the hum take it)
+        ripples: dict[str, RippleSpread] = {}
+        spread_names: set[str] = set()
         for j in _parents_first(self.chain):
             supply = self.chain.supplies[j]
             drawn = {
@@ -143,17 +152,29 @@ class Evaluator:
                 if p.table == "supply" and p.index == j
             }
             kind = SUPPLY_KINDS[supply.kind]
-            if not kind.spread_fields(supply):
+            # a supply with nothing of its own drawn still follows a spread parent
+            if not kind.spread_fields(supply) and supply.parent not in spread_names:
                 continue
             parent = None if supply.parent is None else lows.get(supply.parent)
             bounds = {
                 p.key: (p.low, p.high) for p in self.parts if p.table == "supply" and p.index == j
             }
-            spread = kind.spread(supply, drawn, self.nominal.supply(supply.name), parent, bounds)
+            spread = kind.spread(
+                supply,
+                drawn,
+                self.nominal.supply(supply.name),
+                parent,
+                bounds,
+                self._parent_ripple(supply.parent, ripples),
+            )
             if spread is None:
                 continue
+            spread_names.add(supply.name)
             for key, array in spread.figures.items():
                 figures[f"supplies.{supply.name}.{key}"] = _trials(array, trials)
+            if spread.ripple is not None:
+                ripples[supply.name] = spread.ripple
+                figures.update(_ripple_figures(supply.name, spread.ripple, trials))
             if spread.rail_low_v is not None and supply.name in voltages:
                 lows[supply.name] = _trials(spread.rail_low_v, trials)
                 rail = lows[supply.name].reshape(trials, 1)
@@ -187,13 +208,32 @@ class Evaluator:
         figures.update(_output_figures(self.chain, held, as_set, settings, trials))
         noise = output_noise(chain, tuple(envs), frequency, as_set, trials, self.nominal)
         figures.update(noise)
-        figures.update(hum_figures(chain, envs, self.nominal, noise, trials))
+        figures.update(
+            hum_figures(chain, envs, self.nominal, noise, trials, ripples, self.hum_remedies)
+        )
         figures.update(loop_figures(chain, envs, self.nominal, trials))
         figures.update(thd_figures(chain, envs, as_set, self.nominal, trials))
         hot_envs = self._hot_envs(chain, betas)
         figures.update(drive_figures(chain, as_set, held, settings, envs, hot_envs, trials))
         figures.update(heat_figures(chain, envs, hot_envs, trials))
         return figures
+
+    def _parent_ripple(
+        self, parent: str | None, ripples: Mapping[str, RippleSpread]
+    ) -> RippleSpread | None:
+        """A supply's parent's ripple: per trial where the parent is spread, else the
+        nominal check's (None for a root)."""
+        if parent is None:
+            return None
+        if parent in ripples:
+            return ripples[parent]
+        return RippleSpread.of(self.nominal.supply(parent).state)
+
+    @cached_property
+    def hum_remedies(self) -> HumRemedyReach:
+        """How far each hum path's remedies reach (`chainbudget.spread.hum`), worked out
+        once from the nominal check."""
+        return remedy_reach_of(self.chain, self.nominal)
 
     def _hot_envs(
         self, chain: Chain, betas: Mapping[int, list[tuple[str, NDArray[np.float64]]]]
@@ -255,14 +295,19 @@ class Evaluator:
                 severity, code = flag_parts(path)
                 found.append(Threshold(path, 0.5, code, severity, above=True))
         for supply in self.chain.supplies:
-            kind = SUPPLY_KINDS[supply.kind]
-            if not kind.spread_fields(supply):
+            # a supply spread in the batch (its own parts or its parent's): its figures
+            if not any(p.startswith(f"supplies.{supply.name}.") for p in figures):
                 continue
+            kind = SUPPLY_KINDS[supply.kind]
             nominal = self.nominal.supply(supply.name)
             spread = kind.spread(supply, {}, nominal)
             if spread is None:
                 continue
-            found += [_supply_threshold(supply.name, t) for t in spread.thresholds]
+            found += [
+                _supply_threshold(supply.name, t)
+                for t in spread.thresholds
+                if f"supplies.{supply.name}.{t.key}" in figures
+            ]
         return found
 
 
@@ -398,6 +443,18 @@ def _parents_first(chain: Chain) -> list[int]:
         if len(order) == before:  # a parent that is no supply's name (the loader refuses it)
             order += [j for j in range(len(chain.supplies)) if j not in order]
     return order
+
+
+def _ripple_figures(name: str, ripple: RippleSpread, trials: int) -> Figures:
+    """A supply's ripple spectrum per trial as the check JSON's ``ripple_harmonics``
+    carries it, each harmonic's magnitude under ``supplies.NAME.ripple_harmonics.HZ.vpk``
+    (`harmonic_key`)."""
+    found: Figures = {}
+    magnitude = np.abs(ripple.harmonics_vpk)
+    for k, hz in enumerate(ripple.frequency):
+        key = f"supplies.{name}.ripple_harmonics.{harmonic_key(float(hz))}.vpk"
+        found[key] = _trials(magnitude[..., k], trials)
+    return found
 
 
 def _supply_threshold(name: str, threshold: SpreadThreshold) -> Threshold:

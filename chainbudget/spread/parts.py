@@ -148,5 +148,7 @@ def chain_parts(chain: Chain) -> tuple[list[Part], list[HeldPart]]:
             if key in spread:
                 drawn.append(part)
             else:
-                held.append(HeldPart(part.label, f"the {supply.kind} supply is not spread"))
+                held.append(
+                    HeldPart(part.label, f"the {supply.kind} supply's own parts are not drawn")
+                )
     return drawn, held

@@ -38,10 +38,18 @@ _UNITS = (
 )
 
 
+#: The keys of a listed entry of the check JSON (``hum.by_path.STAGE.PATH.vrms``,
+#: ``supplies.NAME.ripple_harmonics.HZ.vpk``) that are a unit alone, and the figure each
+#: stands for in the table.
+_ENTRY_KEYS = {"vrms": "hum", "a_vrms": "hum a", "vpk": "ripple"}
+
+
 def _unit(path: str) -> str:
-    """A figure path's unit from its suffix (``_db``, ``_v``, ``_vrms``...)."""
+    """A figure path's unit from its suffix (``_db``, ``_v``, ``_vrms``...) or, for a
+    listed entry's key that is a unit alone, from that key (``vrms``)."""
+    key = path.rsplit(".", 1)[-1]
     for suffix, unit in _UNITS:
-        if path.endswith(suffix):
+        if path.endswith(suffix) or key == suffix[1:]:
             return unit
     return ""
 
@@ -94,11 +102,15 @@ def _place_and_figure(path: str) -> tuple[str, str]:
     """Where a figure belongs (``nodes.pre``, ``supplies.raw``...) and its own name without
     the unit suffix, words spaced (``nominal headroom``)."""
     place, _, key = _bare(path).rpartition(".")
+    entry_key = path.rsplit(".", 1)[-1]
+    if entry_key in _ENTRY_KEYS:  # a listed entry's own key: the place is all before it
+        place, key = _short(path).rpartition(".")[0], _ENTRY_KEYS[entry_key]
     group = path.split(".", 1)[0]
     if group == "supplies":
         where = f"supply {place}"  # a supply may share a stage's name
     else:
-        where = place if group == "nodes" else f"{group}.{place}".rstrip(".")
+        # a chain-wide figure (``ein_dbu``) is its own place; the others name theirs
+        where = place or group
     return where, key.replace("_", " ")
 
 

@@ -332,13 +332,51 @@ class SpreadThreshold:
 
 
 @dataclass(frozen=True)
+class RippleSpread:
+    """A rail's mains ripple over a leading trial axis (chainbudget/spread).
+
+    ``vpp`` is its peak-to-peak at low line and the heaviest load (`SupplyState.ripple_vpp`),
+    shape (T,) or one value for every trial (None: not known); ``harmonics_vpk`` its
+    spectrum at nominal line and load (`SupplyState.harmonics_vpk`), complex V peak, shape
+    (T, K) or (K,), the k-th at k times ``ripple_hz``.
+    """
+
+    ripple_hz: float | None
+    vpp: NDArray[np.float64] | None
+    harmonics_vpk: NDArray[np.complex128]
+
+    @classmethod
+    def of(cls, state: SupplyState) -> RippleSpread:
+        """The ripple of a supply's nominal state, the same in every trial."""
+        vpp = None if state.ripple_vpp is None else np.asarray(state.ripple_vpp, dtype=float)
+        harmonics = np.asarray(state.harmonics_vpk, dtype=complex).reshape(-1)
+        return cls(state.ripple_hz, vpp, harmonics)
+
+    @property
+    def frequency(self) -> NDArray[np.float64]:
+        """The harmonics' frequencies, Hz, (K,): computed as `SupplyState.ripple_harmonics`
+        computes them, so that they match the nominal check's exactly."""
+        count = self.harmonics_vpk.shape[-1]
+        if self.ripple_hz is None:
+            return np.zeros(0)
+        return np.array([k * self.ripple_hz for k in range(1, count + 1)], dtype=float)
+
+    def through(self, gain: Callable[[float], complex | float]) -> NDArray[np.complex128]:
+        """The harmonics passed by a network of complex gain ``gain(hz)``, per trial."""
+        factor = np.array([gain(float(hz)) for hz in self.frequency], dtype=complex)
+        return np.asarray(self.harmonics_vpk * factor, dtype=complex)
+
+
+@dataclass(frozen=True)
 class SupplySpread:
     """A supply's figures over a leading trial axis (chainbudget/spread), each of shape
-    (T,); ``rail_low_v`` is its output at low line, what its stages run from, per trial."""
+    (T,); ``rail_low_v`` is its output at low line, what its stages run from, per trial;
+    ``ripple`` its mains ripple per trial (None: the nominal check's)."""
 
     figures: Mapping[str, NDArray[np.float64]]
     thresholds: tuple[SpreadThreshold, ...]
     rail_low_v: NDArray[np.float64] | None
+    ripple: RippleSpread | None = None
 
 
 class SupplyKind(ABC):
@@ -412,11 +450,17 @@ class SupplyKind(ABC):
         nominal: SupplyBudget,
         parent_low_v: NDArray[np.float64] | None = None,
         bounds: Mapping[str, tuple[float, float]] | None = None,
+        parent_ripple: RippleSpread | None = None,
     ) -> SupplySpread | None:
         """The kind's figures with ``drawn`` (field -> (T,) values) in place of the file's,
         about the nominal operating point ``nominal``; ``parent_low_v`` is the parent's
         low-line trough per trial where the parent spreads it (None: its nominal one);
-        ``bounds`` each drawn field's (low, high). None: the kind spreads nothing."""
+        ``bounds`` each drawn field's (low, high); ``parent_ripple`` the parent's ripple
+        (per trial where the parent spreads it, else its nominal one; None for a root or
+        where only the rules' limits are asked for). None: the kind spreads nothing.
+
+        A kind is asked even with nothing of its own drawn when its parent is spread: its
+        output follows the parent's trough and ripple per trial."""
         return None
 
     def trough_remedy(

@@ -4,19 +4,26 @@ lower one: a bias reference for single-supply stages (a stage's ``bias`` may nam
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass
+
+import numpy as np
+from numpy.typing import NDArray
 
 from chainbudget import fields as f
 from chainbudget.kindfigures import KindFigures, figure
 from chainbudget.supplies.base import (
     RippleRemedy,
+    RippleSpread,
     Supply,
+    SupplyBudget,
     SupplyContext,
     SupplyKind,
     SupplyLoad,
+    SupplySpread,
     SupplyState,
 )
-from chainbudget.supplies.rc_filter import smoothed_trough
+from chainbudget.supplies.rc_filter import ripple_spread, smoothed_trough
 from chainbudget.supplymath import (
     capacitor_for_attenuation,
     first_order_lowpass,
@@ -118,6 +125,25 @@ class Divider(SupplyKind):
             ripple_hz=parent.ripple_hz,
             harmonics_vpk=parent.through(lambda hz: self.gain(supply, hz)),
         )
+
+    def spread(
+        self,
+        supply: Supply,
+        drawn: Mapping[str, NDArray[np.float64]],
+        nominal: SupplyBudget,
+        parent_low_v: NDArray[np.float64] | None = None,
+        bounds: Mapping[str, tuple[float, float]] | None = None,
+        parent_ripple: RippleSpread | None = None,
+    ) -> SupplySpread | None:
+        """Its parent's ripple per trial passed as `state` passes the nominal one (its own
+        parts held): what a bias point named after it carries. Its level (the bias point
+        the stages' DC takes) is the nominal check's: the check sets a bias point from the
+        settled tree, not from the divider's trough."""
+        if parent_ripple is None:
+            return None
+        ripple = ripple_spread(lambda hz: self.gain(supply, hz), parent_ripple, self.ratio(supply))
+        figures = {} if ripple.vpp is None else {"ripple_vpp": np.asarray(ripple.vpp, dtype=float)}
+        return SupplySpread(figures, (), None, ripple)
 
     def figures(self, context: SupplyContext) -> DividerFigures:
         supply, parent = context.supply, context.parent_state

@@ -4,7 +4,12 @@ decoupling filter)."""
 from __future__ import annotations
 
 import math
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
 
 from chainbudget import fields as f
 from chainbudget.finding import Finding
@@ -12,11 +17,13 @@ from chainbudget.kindfigures import KindFigures, figure
 from chainbudget.notation import amps, eng
 from chainbudget.supplies.base import (
     RippleRemedy,
+    RippleSpread,
     Supply,
     SupplyBudget,
     SupplyContext,
     SupplyKind,
     SupplyLoad,
+    SupplySpread,
     SupplyState,
 )
 from chainbudget.supplymath import (
@@ -49,8 +56,26 @@ def smoothed_trough(parent: SupplyState, gain: float) -> float:
     fundamental, a sine about the mean: an approximation on the safe side for the sawtooth
     of a reservoir, whose fundamental is a little smaller than half its peak-to-peak).
     """
-    ripple = parent.ripple_vpp or 0.0
-    return parent.trough_v + 0.5 * ripple * (1.0 - gain)
+    return float(smoothed_troughs(parent.trough_v, parent.ripple_vpp or 0.0, gain))
+
+
+def smoothed_troughs(trough_v: ArrayLike, ripple_vpp: ArrayLike, gain: float) -> NDArray[Any]:
+    """`smoothed_trough` of a parent's trough and peak-to-peak ripple given as arrays (the
+    spread's trials), V."""
+    trough, ripple = np.asarray(trough_v, dtype=float), np.asarray(ripple_vpp, dtype=float)
+    return np.asarray(trough + 0.5 * ripple * (1.0 - gain), dtype=float)
+
+
+def ripple_spread(
+    gain: Callable[[float], complex], parent: RippleSpread, scale: float = 1.0
+) -> RippleSpread:
+    """A parent's ripple per trial passed by a first-order network of complex gain
+    ``gain(hz)`` (an RC filter, a divider's capacitor), as `RcFilter.state` passes the
+    nominal one: each harmonic times the gain, the peak-to-peak times ``scale`` (a
+    divider's ratio) and the gain's magnitude at the fundamental over ``scale``."""
+    fundamental = 1.0 if parent.ripple_hz is None else abs(gain(parent.ripple_hz)) / scale
+    vpp = None if parent.vpp is None else scale * parent.vpp * fundamental
+    return RippleSpread(parent.ripple_hz, vpp, parent.through(gain))
 
 
 class RcFilter(SupplyKind):
@@ -115,6 +140,38 @@ class RcFilter(SupplyKind):
             ripple_hz=parent.ripple_hz,
             harmonics_vpk=parent.through(lambda hz: self.gain(supply, hz)),
         )
+
+    def spread(
+        self,
+        supply: Supply,
+        drawn: Mapping[str, NDArray[np.float64]],
+        nominal: SupplyBudget,
+        parent_low_v: NDArray[np.float64] | None = None,
+        bounds: Mapping[str, tuple[float, float]] | None = None,
+        parent_ripple: RippleSpread | None = None,
+    ) -> SupplySpread | None:
+        """Its parent's trough and ripple per trial passed as `state` passes the nominal
+        ones (its own parts held): the ripple harmonic by harmonic, the trough smoothed
+        (`smoothed_trough`) less the nominal sag of the load's crest."""
+        if parent_ripple is None:
+            return None
+        ripple = ripple_spread(lambda hz: self.gain(supply, hz), parent_ripple)
+        figures: dict[str, NDArray[np.float64]] = {}
+        if ripple.vpp is not None:
+            figures["ripple_vpp"] = np.asarray(ripple.vpp, dtype=float)
+        low = None
+        own = nominal.own
+        if parent_low_v is not None and isinstance(own, RcFilterFigures):
+            fundamental = (
+                1.0
+                if parent_ripple.ripple_hz is None
+                else abs(self.gain(supply, parent_ripple.ripple_hz))
+            )
+            vpp = 0.0 if parent_ripple.vpp is None else parent_ripple.vpp
+            trough = smoothed_troughs(parent_low_v, vpp, fundamental) - own.crest_drop_v
+            low = np.maximum(trough, 0.0)
+            figures["trough_v"] = low
+        return SupplySpread(figures, (), low, ripple)
 
     def figures(self, context: SupplyContext) -> RcFilterFigures:
         supply, load, parent = context.supply, context.load, context.parent_state

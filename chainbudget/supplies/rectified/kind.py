@@ -13,6 +13,7 @@ from chainbudget.notation import eng
 from chainbudget.supplies.base import (
     NO_LOAD,
     RippleRemedy,
+    RippleSpread,
     Supply,
     SupplyBudget,
     SupplyContext,
@@ -176,6 +177,7 @@ class Rectified(SupplyKind):
         nominal: SupplyBudget,
         parent_low_v: Any = None,
         bounds: Mapping[str, tuple[float, float]] | None = None,
+        parent_ripple: RippleSpread | None = None,
     ) -> SupplySpread:
         return rectified_spread(supply, drawn, nominal, bounds)
 

@@ -8,6 +8,7 @@ from typing import Any
 from chainbudget import fields as f
 from chainbudget.finding import Finding
 from chainbudget.supplies.base import (
+    RippleSpread,
     Supply,
     SupplyBudget,
     SupplyContext,
@@ -230,8 +231,9 @@ class Regulator(SupplyKind):
         nominal: SupplyBudget,
         parent_low_v: Any = None,
         bounds: Mapping[str, tuple[float, float]] | None = None,
+        parent_ripple: RippleSpread | None = None,
     ) -> SupplySpread:
-        return regulator_spread(self, supply, drawn, nominal, parent_low_v)
+        return regulator_spread(self, supply, drawn, nominal, parent_low_v, parent_ripple)
 
     def input_load(self, supply: Supply, load: SupplyLoad) -> SupplyLoad:
         return self.delivered(supply, load).plus(self.own_current(supply))

@@ -12,6 +12,12 @@ operating point's (the tree as settled for the nominal parts): the regulator's o
 changes by micro- to milliamperes over its tolerances, which moves a rectifier's trough by
 far less than the reference's spread moves the output. Out of regulation the output follows the
 input's trough less the dropout, as `Regulator.state` has it.
+
+The output's ripple per trial follows the parent's (per trial where the parent spreads
+it) as `Regulator.state` passes it: in regulation each harmonic times the rejection
+10^(-rejection/20), rolled off above its corner (`rejection_roll_off`), a real factor;
+out of regulation unrejected. Its peak-to-peak: the input's times the rejection, plus the
+dip V_out - (trough - dropout) out of regulation (zero in regulation).
 """
 
 from __future__ import annotations
@@ -22,9 +28,15 @@ from typing import TYPE_CHECKING
 import numpy as np
 from numpy.typing import NDArray
 
-from chainbudget.supplies.base import SpreadThreshold, Supply, SupplyBudget, SupplySpread
+from chainbudget.supplies.base import (
+    RippleSpread,
+    SpreadThreshold,
+    Supply,
+    SupplyBudget,
+    SupplySpread,
+)
 from chainbudget.supplies.regulator.figures import MATCH_RTOL, RegulatorFigures
-from chainbudget.supplymath import adjustable_output, divider_current
+from chainbudget.supplymath import adjustable_output, divider_current, ripple_after_regulator
 from chainbudget.thresholds import THIN_DROPOUT_MARGIN_V
 
 if TYPE_CHECKING:
@@ -39,8 +51,11 @@ def regulator_spread(
     drawn: Mapping[str, NDArray[np.float64]],
     nominal: SupplyBudget,
     parent_low_v: NDArray[np.float64] | None = None,
+    parent_ripple: RippleSpread | None = None,
 ) -> SupplySpread:
-    """Output, divider and bleeder currents, dropout and minimum-load margins per trial."""
+    """Output, divider and bleeder currents, dropout and minimum-load margins per trial, and
+    the output's ripple (``ripple_vpp`` and the spectrum) where the regulator passes its
+    parent's ``parent_ripple`` (a ripple rejection given)."""
     own = nominal.own
     assert isinstance(own, RegulatorFigures)
 
@@ -85,5 +100,34 @@ def regulator_spread(
                 "min_load_margin_a", -MATCH_RTOL * min_load, "regulator-min-load", "warning"
             )
         )
-    rail = np.minimum(figures["vout_v"], trough - dropout)
-    return SupplySpread(figures, tuple(thresholds), np.maximum(rail, 0.0))
+    rail = np.maximum(np.minimum(figures["vout_v"], trough - dropout), 0.0)
+    ripple = _ripple(supply, parent_ripple, figures["vout_v"], rail)
+    if ripple is not None and ripple.vpp is not None:
+        figures["ripple_vpp"] = np.broadcast_to(ripple.vpp, (size,)).astype(float)
+    return SupplySpread(figures, tuple(thresholds), rail, ripple)
+
+
+def _ripple(
+    supply: Supply,
+    parent: RippleSpread | None,
+    vout: NDArray[np.float64],
+    rail: NDArray[np.float64],
+) -> RippleSpread | None:
+    """The output's ripple per trial (module notes); None without a rejection or a parent's
+    ripple, as `Regulator.state` has none then."""
+    rejection = supply.optional("ripple_rejection")
+    if rejection is None or parent is None or parent.vpp is None:
+        return None
+    # imported here: the kind's module imports this one
+    from chainbudget.supplies.regulator.kind import rejection_roll_off
+
+    factor = float(ripple_after_regulator(1.0, rejection))
+    # the rail's trough is V_out in regulation, the input's trough less the dropout out of it
+    regulating = rail >= vout
+    vpp = parent.vpp * factor + (vout - rail)
+    corner = supply.optional("ripple_rejection_corner")
+    rejected = parent.through(lambda hz: rejection_roll_off(factor, hz, parent.ripple_hz, corner))
+    harmonics = np.where(regulating[..., None], rejected, parent.harmonics_vpk)
+    if not harmonics.size:
+        return RippleSpread(None, vpp, harmonics)
+    return RippleSpread(parent.ripple_hz, vpp, harmonics)
