@@ -42,14 +42,15 @@ from chainbudget.chainfile import Chain
 from chainbudget.findings import SUPERSEDES
 from chainbudget.loudspeaker import is_reactive, load_impedance
 from chainbudget.network import SingularNetwork
-from chainbudget.outputmath import sine_power, spl_at_1m
+from chainbudget.outputmath import damping_factor, sine_power, spl_at_1m
 from chainbudget.source_network import source_impedance
 from chainbudget.spread.dc import dc_figures, walked
 from chainbudget.spread.drive import drive_figures
 from chainbudget.spread.flags import flag_parts, is_flag
 from chainbudget.spread.heat import heat_figures
 from chainbudget.spread.hum import hum_figures, hum_thresholds
-from chainbudget.spread.loops import loop_figures, loop_thresholds
+from chainbudget.spread.idle import crossover_idle_figures, idle_cascade, needs_idle
+from chainbudget.spread.loops import closed_loop_figures, loop_figures, loop_thresholds
 from chainbudget.spread.noise import output_noise
 from chainbudget.spread.parts import Part, with_beta
 from chainbudget.spread.settings import HeldSettings, held_settings, worst_of_candidates
@@ -184,11 +185,16 @@ class Evaluator:
         as_set, held = _solve_as_set_and_held(chain, tuple(envs), frequency, settings)
         figures.update(_reference_figures(self.chain, as_set, trials))
         figures.update(_band_figures(self.chain, held, as_set, settings, trials))
-        figures.update(_output_figures(self.chain, held, as_set, settings, trials))
+        output = self.nominal.output
+        damping_held = output is not None and bool(np.isfinite(output.damping_factor))
+        figures.update(_output_figures(self.chain, held, as_set, settings, trials, damping_held))
         noise = output_noise(chain, tuple(envs), frequency, as_set, trials, self.nominal)
         figures.update(noise)
         figures.update(hum_figures(chain, envs, self.nominal, noise, trials))
         figures.update(loop_figures(chain, envs, self.nominal, trials))
+        idle = idle_cascade(chain, envs) if needs_idle(self.nominal) else None
+        figures.update(closed_loop_figures(chain, as_set, idle, self.nominal, trials))
+        figures.update(crossover_idle_figures(as_set, idle, self.nominal, trials))
         figures.update(thd_figures(chain, envs, as_set, self.nominal, trials))
         hot_envs = self._hot_envs(chain, betas)
         figures.update(drive_figures(chain, as_set, held, settings, envs, hot_envs, trials))
@@ -351,11 +357,19 @@ def _band_figures(
 
 
 def _output_figures(
-    chain: Chain, held: list[Cascade], as_set: Cascade, settings: HeldSettings, trials: int
+    chain: Chain,
+    held: list[Cascade],
+    as_set: Cascade,
+    settings: HeldSettings,
+    trials: int,
+    damping_held: bool = True,
 ) -> Figures:
     """Output power at the reference frequency as `chainbudget.budget.power.output_figures`
     works it out: the tightest stage's clip peak carried to the load with the volume fully
-    up (`clip_power_w`), the nominal level with the controls as set (`nominal_power_w`)."""
+    up (`clip_power_w`), the nominal level with the controls as set (`nominal_power_w`),
+    and the damping factor |Z_L|/|Z_out| of the nominal load rating over the last stage's
+    output impedance at the reference (`damping_factor`; `chainbudget.outputmath`), where
+    ``damping_held`` (the nominal check's is finite: an output of no impedance has none)."""
     last = len(chain.stages) - 1
     z_load: complex | float = chain.load.impedance
     if is_reactive(chain.load):
@@ -363,6 +377,11 @@ def _output_figures(
     figures: Figures = {}
     nominal_vpk = SQRT2 * chain.source.level * np.abs(as_set.v_out[last][..., 0])
     figures["output.nominal_power_w"] = _trials(sine_power(nominal_vpk, z_load), trials)
+    z_out = as_set.output_impedance[last][..., 0]
+    if damping_held:
+        figures["output.damping_factor"] = _trials(
+            damping_factor(chain.load.impedance, z_out), trials
+        )
     # the volume fully up: its row of the held settings (no volume: the controls as set)
     row = settings.volume_row
     cascade = as_set if row is None else held[row]
