@@ -47,6 +47,7 @@ from chainbudget.source_network import source_impedance
 from chainbudget.spread.dc import dc_figures, walked
 from chainbudget.spread.drive import drive_figures
 from chainbudget.spread.flags import flag_parts, is_flag
+from chainbudget.spread.heap import keep_freed_memory
 from chainbudget.spread.heat import heat_figures
 from chainbudget.spread.hum import hum_figures, hum_thresholds
 from chainbudget.spread.loops import loop_figures, loop_thresholds
@@ -96,6 +97,10 @@ class Evaluator:
     parts: tuple[Part, ...]
     nominal: Budget
     voltages: Mapping[str, Corners]
+
+    def __post_init__(self) -> None:
+        # batches of trials make and free large arrays: keep their pages for the next one
+        keep_freed_memory()
 
     def values(self, positions: NDArray[np.float64]) -> list[NDArray[np.float64]]:
         """Each part's value per trial from positions (T, n) in 0..1."""
