@@ -484,8 +484,7 @@ class Netlist:
         # Laid out entry-major, (N, N) + batch, so that the fill and each varying entry's
         # write are contiguous passes; handed back as the batch-major view numpy's solve
         # takes (its solve copies each matrix into its own buffer either way).
-        # An MNA matrix is sparse: start from zeros (pages the system hands over zeroed)
-        # and write only the entries that are not.
+        # An MNA matrix is mostly zeros: a zero fill, then only the entries that are not.
         m = np.zeros((n, n, *shape), dtype=complex)
         for r, c in zip(*np.nonzero(fixed), strict=True):
             if (r, c) not in varying:
