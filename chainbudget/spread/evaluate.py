@@ -36,7 +36,7 @@ from chainbudget.budget import Budget
 from chainbudget.budget.analysis import environments, frequency_axis, positions_as_set, solve_chain
 from chainbudget.budget.levels import DB_FLOOR, SQRT2, clip_source_peak, db
 from chainbudget.budget.steps import with_value
-from chainbudget.cascade import Cascade, sections, solve_section
+from chainbudget.cascade import Cascade, Joins, sections, solve_section
 from chainbudget.cascade import cascade as join_cascade
 from chainbudget.chainfile import Chain
 from chainbudget.findings import SUPERSEDES
@@ -316,6 +316,7 @@ def _solve_as_set_and_held(
     load = load_impedance(chain.load, frequency)
     units = sections(chain.stages)
     solved: dict[tuple[int, tuple[object, ...]], Any] = {}
+    joins = Joins()  # the settings share most sections: their terminations, once
 
     def solve(positions: list[dict[str, float]]) -> Cascade:
         found = []
@@ -324,7 +325,7 @@ def _solve_as_set_and_held(
             if key not in solved:
                 solved[key] = solve_section(chain.stages, envs, frequency, positions, unit)
             found.append(solved[key])
-        return join_cascade(found, source, load)
+        return join_cascade(found, source, load, joins)
 
     try:
         as_set = solve(as_set_positions)
