@@ -36,17 +36,18 @@ from chainbudget.budget import Budget
 from chainbudget.budget.analysis import environments, frequency_axis, positions_as_set, solve_chain
 from chainbudget.budget.levels import DB_FLOOR, SQRT2, clip_source_peak, db
 from chainbudget.budget.steps import with_value
-from chainbudget.cascade import Cascade, sections, solve_section
+from chainbudget.cascade import Cascade, Joins, sections, solve_section
 from chainbudget.cascade import cascade as join_cascade
 from chainbudget.chainfile import Chain
 from chainbudget.findings import SUPERSEDES
 from chainbudget.loudspeaker import is_reactive, load_impedance
-from chainbudget.network import SingularNetwork
+from chainbudget.network import SingularNetwork, keeping_matrices
 from chainbudget.outputmath import damping_factor, sine_power, spl_at_1m
 from chainbudget.source_network import source_impedance
 from chainbudget.spread.dc import dc_figures, walked
 from chainbudget.spread.drive import drive_figures
 from chainbudget.spread.flags import flag_parts, is_flag
+from chainbudget.spread.heap import keep_freed_memory
 from chainbudget.spread.heat import heat_figures
 from chainbudget.spread.hum import hum_figures, hum_thresholds
 from chainbudget.spread.idle import crossover_idle_figures, idle_cascade, needs_idle
@@ -98,6 +99,10 @@ class Evaluator:
     nominal: Budget
     voltages: Mapping[str, Corners]
 
+    def __post_init__(self) -> None:
+        # batches of trials make and free large arrays: keep their pages for the next one
+        keep_freed_memory()
+
     def values(self, positions: NDArray[np.float64]) -> list[NDArray[np.float64]]:
         """Each part's value per trial from positions (T, n) in 0..1."""
         return [part.at(positions[:, i]) for i, part in enumerate(self.parts)]
@@ -119,15 +124,21 @@ class Evaluator:
         (`chainbudget.spread.flags`)."""
         size = self.chunk_trials
         if positions.shape[0] <= size:
-            found = self._batch(positions)
+            found = self._kept_batch(positions)
         else:
             batches = [positions[i : i + size] for i in range(0, len(positions), size)]
             # numpy's batched solves and array arithmetic release the GIL: the chunks run
             # on the machine's cores side by side (each chunk is independent; order kept)
             with ThreadPoolExecutor(max_workers=WORKERS) as pool:
-                pieces = list(pool.map(self._batch, batches))
+                pieces = list(pool.map(self._kept_batch, batches))
             found = {path: np.concatenate([p[path] for p in pieces]) for path in pieces[0]}
         return found if flags else {p: v for p, v in found.items() if not is_flag(p)}
+
+    def _kept_batch(self, positions: NDArray[np.float64]) -> Figures:
+        """`_batch`, each solve's matrix array kept for the next batch in this thread (a
+        thread solves the same netlists batch after batch: `network.keeping_matrices`)."""
+        with keeping_matrices():
+            return self._batch(positions)
 
     def _batch(self, positions: NDArray[np.float64]) -> Figures:
         """Every spread figure for one batch of trials (one solve of each kind)."""
@@ -311,6 +322,7 @@ def _solve_as_set_and_held(
     load = load_impedance(chain.load, frequency)
     units = sections(chain.stages)
     solved: dict[tuple[int, tuple[object, ...]], Any] = {}
+    joins = Joins()  # the settings share most sections: their terminations, once
 
     def solve(positions: list[dict[str, float]]) -> Cascade:
         found = []
@@ -319,7 +331,7 @@ def _solve_as_set_and_held(
             if key not in solved:
                 solved[key] = solve_section(chain.stages, envs, frequency, positions, unit)
             found.append(solved[key])
-        return join_cascade(found, source, load)
+        return join_cascade(found, source, load, joins)
 
     try:
         as_set = solve(as_set_positions)
