@@ -26,6 +26,7 @@ from collections.abc import Hashable, Iterator, Mapping, Sequence
 from contextlib import contextmanager
 from contextvars import ContextVar
 from dataclasses import dataclass, field, replace
+from typing import cast
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -331,29 +332,78 @@ def _as_section(solution: StageSolution | SectionSolution, k: int) -> SectionSol
     return SectionSolution(Section(k, k), solution.two_port, (solution,))
 
 
+class Joins:
+    """The terminations worked out while joining cascades that share sections (the
+    controls' settings of one batch): a section's input admittance under a load, its output
+    impedance from a source and its voltage ratio under a load, each kept by the identity
+    of the section's two-port and of the termination (itself a kept result, or the chain's
+    end), so a tail or a head two cascades share is worked out once."""
+
+    def __init__(self) -> None:
+        # the key objects are held with the result, so their identities stay theirs
+        self._found: dict[tuple[str, int, int], tuple[object, object, Complex]] = {}
+
+    def of(self, what: str, port: TwoPort, termination: Complex) -> Complex:
+        key = (what, id(port), id(termination))
+        found = self._found.get(key)
+        if found is None:
+            value = getattr(port, what)(termination)
+            found = (port, termination, value)
+            self._found[key] = found
+        return found[2]
+
+    def end(self, what: str, impedance: ArrayLike) -> Complex:
+        """The chain's source impedance (``what`` "source") or its load's admittance
+        ("load") as an array, the same array for the same end."""
+        key = (what, id(impedance), 0)
+        found = self._found.get(key)
+        if found is None:
+            value = _admittance(impedance) if what == "load" else _complex(impedance)
+            found = (impedance, None, value)
+            self._found[key] = found
+        return found[2]
+
+
+def _admittance(impedance: ArrayLike) -> Complex:
+    return np.asarray(1.0 / np.asarray(impedance, dtype=complex), dtype=complex)
+
+
+def _complex(impedance: ArrayLike) -> Complex:
+    return np.asarray(impedance, dtype=complex)
+
+
+def _uncached(what: str, port: TwoPort, termination: Complex) -> Complex:
+    return cast(Complex, getattr(port, what)(termination))
+
+
 def cascade(
     solutions: Sequence[StageSolution | SectionSolution],
     source_impedance: ArrayLike,
     load_impedance: ArrayLike,
+    joins: Joins | None = None,
 ) -> Cascade:
     """Join solved stages (or sections) between a source impedance and a load impedance
-    (ohm; either may be an array on the frequency axis)."""
+    (ohm; either may be an array on the frequency axis); ``joins`` keeps terminations for
+    other cascades of the same sections and ends (the same objects)."""
     units: list[SectionSolution] = []
     for solution in solutions:
         units.append(_as_section(solution, units[-1].section.last + 1 if units else 0))
+    term = _uncached if joins is None else joins.of
     n_units = len(units)
     unit_loads: list[Complex] = [np.asarray(0j)] * n_units
-    y: Complex = np.asarray(1.0 / np.asarray(load_impedance, dtype=complex), dtype=complex)
+    y = _admittance(load_impedance) if joins is None else joins.end("load", load_impedance)
     for u in range(n_units - 1, -1, -1):
         unit_loads[u] = y
-        y = units[u].two_port.input_admittance(y)
+        y = term("input_admittance", units[u].two_port, y)
     input_admittance = y
-    z_source = np.asarray(source_impedance, dtype=complex)
+    z_source = (
+        _complex(source_impedance) if joins is None else joins.end("source", source_impedance)
+    )
     unit_sources: list[Complex] = []
     unit_outputs: list[Complex] = []
     for unit in units:
         unit_sources.append(z_source)
-        z_source = unit.two_port.output_impedance(z_source)
+        z_source = term("output_impedance", unit.two_port, z_source)
         unit_outputs.append(z_source)
     v = 1.0 / (1.0 + unit_sources[0] * input_admittance)
     v_in: list[Complex] = []
@@ -362,7 +412,7 @@ def cascade(
     sources: list[Complex] = []
     outputs: list[Complex] = []
     for unit, y_load, z_s, z_out in zip(units, unit_loads, unit_sources, unit_outputs, strict=True):
-        ratio = unit.two_port.voltage_ratio(y_load)
+        ratio = term("voltage_ratio", unit.two_port, y_load)
         if not unit.section.is_loop:
             v_in.append(v)
             v = v * ratio

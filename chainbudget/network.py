@@ -16,7 +16,9 @@ one row and one column.
 
 from __future__ import annotations
 
-from collections.abc import Mapping, Sequence
+import threading
+from collections.abc import Iterator, Mapping, Sequence
+from contextlib import contextmanager
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -61,6 +63,94 @@ def _solved(m: Complex, b: Complex) -> Complex:
             "its network has no single solution (a node shorted or cut off, most likely by a "
             "value far outside its range)"
         ) from None
+
+
+@dataclass(frozen=True)
+class _Entries:
+    """A stamped matrix before it is laid out: its batch ``shape``, the N x N ``fixed``
+    values (the same over the whole batch) and the ``varying`` entries' arrays, by (row,
+    column), each broadcasting against ``shape`` (its fixed value is added to it)."""
+
+    shape: tuple[int, ...]
+    fixed: NDArray[np.complex128]
+    varying: dict[tuple[int, int], Any]
+
+    def write(self, m: NDArray[np.complex128]) -> set[int]:
+        """Write every entry that is not zero into ``m``, laid out entry-major, (N, N) +
+        batch, whose other entries are zero; return the flat indices r N + c written."""
+        n = self.fixed.shape[0]
+        written = set()
+        for r, c in zip(*np.nonzero(self.fixed), strict=True):
+            if (r, c) not in self.varying:
+                m[r, c] = self.fixed[r, c]
+                written.add(int(r) * n + int(c))
+        for (r, c), value in self.varying.items():
+            m[r, c] = self.fixed[r, c] + value
+            written.add(r * n + c)
+        return written
+
+
+class _Scratch(threading.local):
+    """Each thread's arrays for the matrices it solves, one per shape, kept between
+    solves (up to `SCRATCH_BYTES` a thread, the least recently used dropped first).
+
+    Notes
+    -----
+    A matrix is laid out entry-major, (N, N) + batch, so that each entry's write is one
+    contiguous pass; it is handed to the solve as the batch-major view numpy takes (its
+    solve copies each matrix into its own buffer either way). An MNA matrix is mostly
+    zeros (each element stamps a handful of entries): an array kept from the last matrix
+    of the same shape is already zero wherever neither matrix has an entry, so only the
+    entries the last one wrote and this one does not are cleared. That saves a zero fill
+    of the whole batch, tens of megabytes, for every solve of a batch of trials.
+    """
+
+    def __init__(self) -> None:
+        self.kept: dict[tuple[int, ...], tuple[NDArray[np.complex128], set[int]]] = {}
+        #: Within `keeping_matrices` (a batch of trials): only there are arrays kept.
+        self.depth = 0
+
+    def matrix(self, n: int, entries: _Entries) -> Complex:
+        key = (n, *entries.shape)
+        if self.depth == 0:
+            self.kept.clear()
+            m = np.zeros((n, n, *entries.shape), dtype=complex)
+            entries.write(m)
+            return np.moveaxis(m, (0, 1), (-2, -1))
+        found = self.kept.pop(key, None)
+        if found is None:
+            m = np.zeros((n, n, *entries.shape), dtype=complex)
+            before: set[int] = set()
+        else:
+            m, before = found
+        written = entries.write(m)
+        flat = m.reshape(n * n, -1)
+        for index in before - written:
+            flat[index] = 0.0
+        self.kept[key] = (m, written)  # now the most recently used
+        while sum(a.nbytes for a, _ in self.kept.values()) > SCRATCH_BYTES and self.kept:
+            del self.kept[next(iter(self.kept))]
+        return np.moveaxis(m, (0, 1), (-2, -1))
+
+
+@contextmanager
+def keeping_matrices() -> Iterator[None]:
+    """Within this, the solves of this thread keep their matrix arrays for the next one of
+    the same shape (`_Scratch`): for batches of trials, whose every solve would otherwise
+    zero tens of megabytes. Outside it (a check) nothing is kept; the first solve there
+    lets go of what was."""
+    _SCRATCH.depth += 1
+    try:
+        yield
+    finally:
+        _SCRATCH.depth -= 1
+
+
+#: The scratch matrices a thread keeps, bytes at most: the few largest of a batch of
+#: trials (`chainbudget.spread.evaluate.CHUNK_POINTS` points of matrices up to 16 x 16
+#: take about 70 MB each).
+SCRATCH_BYTES = 160 << 20
+_SCRATCH = _Scratch()
 
 
 @dataclass(frozen=True)
@@ -428,7 +518,7 @@ class Netlist:
         others (and the signal source) at zero (Ho, Ruehli & Brennan, IEEE Trans. CAS-22
         (1975) 504).
         """
-        m = self.matrix()
+        m = self._solving_matrix()
         count = len(self.ripple)
         b = np.zeros((*m.shape[:-1], count + 1), dtype=complex)
         for r, source in enumerate(self.ripple):
@@ -449,14 +539,29 @@ class Netlist:
 
     # --- assembly and solution ------------------------------------------------------
     def matrix(self) -> Complex:
-        """The stamped MNA matrix, shape ``batch + (F, N, N)``."""
+        """The stamped MNA matrix, shape ``batch + (F, N, N)`` (a new array)."""
+        entries = self._entries()
+        n = self.size
+        m = np.zeros((n, n, *entries.shape), dtype=complex)
+        entries.write(m)
+        return np.moveaxis(m, (0, 1), (-2, -1))
+
+    def _solving_matrix(self, without_controls_of: str | None = None) -> Complex:
+        """The stamped matrix for a solve made at once: written into this thread's scratch
+        array of its shape (`_Scratch`), valid until the next call; ``without_controls_of``
+        leaves that controlled source's controls out (`return_ratio`)."""
+        entries = self._entries(without_controls_of)
+        return _SCRATCH.matrix(self.size, entries)
+
+    def _entries(self, without_controls_of: str | None = None) -> _Entries:
+        """The matrix's entries: one N x N matrix of the values that are the same over the
+        whole batch and, per entry whose value varies (over frequency, controls or trials),
+        its array."""
         f_shape = self.frequency.shape
         values = [st.value for st in self._stamps]
         values += [c for _, _, coefficients in self._branch_stamps for _, c in coefficients]
         shape = np.broadcast_shapes(f_shape, *(np.shape(v) for v in values))
         n = self.size
-        # Stamps of one value everywhere go into one N x N matrix; the values that vary (over
-        # frequency, controls or trials) are summed per entry and written into the batch.
         fixed = np.zeros((n, n), dtype=complex)
         diagonal = np.arange(len(self.nodes))
         fixed[diagonal, diagonal] += GMIN
@@ -478,25 +583,16 @@ class Netlist:
                 if name != GROUND:
                     fixed[self.nodes[name], k] += sign
                     fixed[k, self.nodes[name]] += sign
+            if label == without_controls_of:
+                continue
             for name, coefficient in coefficients:
                 if name != GROUND:
                     add(k, self.nodes[name], coefficient)
-        # Laid out entry-major, (N, N) + batch, so that the fill and each varying entry's
-        # write are contiguous passes; handed back as the batch-major view numpy's solve
-        # takes (its solve copies each matrix into its own buffer either way).
-        # An MNA matrix is sparse: start from zeros (pages the system hands over zeroed)
-        # and write only the entries that are not.
-        m = np.zeros((n, n, *shape), dtype=complex)
-        for r, c in zip(*np.nonzero(fixed), strict=True):
-            if (r, c) not in varying:
-                m[r, c] = fixed[r, c]
-        for (r, c), value in varying.items():
-            m[r, c] = fixed[r, c] + value
-        return np.moveaxis(m, (0, 1), (-2, -1))
+        return _Entries(shape, fixed, varying)
 
     def solve(self, rhs: ArrayLike) -> Complex:
         """Solve the network for right-hand sides ``rhs`` of shape ``(..., N, K)``."""
-        m = self.matrix()
+        m = self._solving_matrix()
         b = np.asarray(rhs, dtype=complex)
         b = np.broadcast_to(b, (*m.shape[:-2], *b.shape[-2:]))
         return _solved(m, b)
@@ -517,12 +613,9 @@ class Netlist:
         A(s)(v+ - v-) in a negative-feedback loop, T = A beta at low frequency, and the
         closed-loop figures are their open-loop values over (1 + T).
         """
-        m = self.matrix()
+        m = self._solving_matrix(without_controls_of=label)
         k = self.index(branch_ref(label))
         controls = next(c for name, _, c in self._branch_stamps if name == label)
-        for node_name, coefficient in controls:
-            if node_name != GROUND:
-                m[..., k, self.nodes[node_name]] -= coefficient
         e = np.zeros(m.shape[:-1], dtype=complex)
         e[..., k] = 1.0
         x = np.linalg.solve(m, e[..., None])[..., 0]
@@ -552,7 +645,7 @@ class Netlist:
     def adjoint_transfers(self, output_nodes: Sequence[str]) -> list[tuple[Complex, list[Complex]]]:
         """`adjoint_transfer` to each of several nodes from one assembly of the matrix and
         one solve with a right-hand side per node (the same adjoint method)."""
-        m = self.matrix()
+        m = self._solving_matrix()
         e = np.zeros((*m.shape[:-1], len(output_nodes)), dtype=complex)
         for j, node in enumerate(output_nodes):
             e[..., self.nodes[node], j] = 1.0

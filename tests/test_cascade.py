@@ -20,7 +20,7 @@ from stagekit import environment, make_stage, near_ideal_opamp, positions_as_set
 from chainbudget.budget.steps import _ArrayStage
 from chainbudget.cascade import cascade, solve_stage, solving_once, whole_chain_network
 from chainbudget.fields import FrozenMapping
-from chainbudget.network import SOURCE_FLOOR_OHM, Complex, branch_ref, node_ref
+from chainbudget.network import SOURCE_FLOOR_OHM, Complex, TwoPort, branch_ref, node_ref
 from chainbudget.stages import KINDS as STAGE_KINDS
 from chainbudget.stages.base import Stage
 
@@ -303,3 +303,50 @@ def test_a_node_clip_is_worked_out_once_per_cascade_and_never_carried_over() -> 
     assert first is not None and clip_source_peak(nominal, limited) is first
     assert not first[0].flags.writeable  # shared, so no figure may change it in place
     assert replace(nominal, v_out=nominal.v_out).clips == {}
+
+
+def test_cascades_joined_with_kept_terminations_equal_those_joined_alone(
+    monkeypatch: pytest.MonkeyPatch,
+) -> None:
+    """Two settings of the tone stage (the sections before and after it shared, as the
+    spread joins its settings, `cascade.Joins`): every figure of each cascade equals the
+    one joined alone, to the bit, the shared head and tail are worked out once (the same
+    arrays), and each agrees with the whole-chain network (rtol 1e-9, `_compare`)."""
+    from chainbudget.cascade import Joins
+
+    envs = [ENV] * len(STAGES)
+    as_set = [positions_as_set(stage) for stage in STAGES]
+    other = list(as_set)
+    other[2] = {"bass_position": 0.1, "treble_position": 0.9}
+    solved = [
+        solve_stage(stage, env, FREQUENCY, pos)
+        for stage, env, pos in zip(STAGES, envs, as_set, strict=True)
+    ]
+    moved = list(solved)
+    moved[2] = solve_stage(STAGES[2], ENV, FREQUENCY, other[2])
+    alone = [cascade(s, SOURCE_OHM, LOAD_OHM) for s in (solved, moved)]
+    worked: list[str] = []
+    for what in ("input_admittance", "output_impedance", "voltage_ratio"):
+        original = getattr(TwoPort, what)
+
+        def counted(self: TwoPort, z: ArrayLike, _f=original, _w=what) -> Complex:  # type: ignore[no-untyped-def]
+            worked.append(_w)
+            return _f(self, z)  # type: ignore[no-any-return]
+
+        monkeypatch.setattr(TwoPort, what, counted)
+    joins = Joins()
+    kept = [cascade(s, SOURCE_OHM, LOAD_OHM, joins) for s in (solved, moved)]
+    for a, b in zip(kept, alone, strict=True):
+        for name in ("v_in", "v_out", "load_admittance", "source_impedance", "output_impedance"):
+            for x, y in zip(getattr(a, name), getattr(b, name), strict=True):
+                np.testing.assert_array_equal(x, y)
+        np.testing.assert_array_equal(a.input_admittance, b.input_admittance)
+    # The first cascade works out each termination of each stage; the second only those
+    # that see the moved tone stage (index 2): the admittances looking in at stages 2, 1,
+    # 0 (the tail after it is shared), the output impedances of stages 2 onwards (the
+    # head before it is shared) and the ratios of stages 0 to 2 (their loads moved).
+    n = len(STAGES)
+    assert worked.count("input_admittance") == n + 3
+    assert worked.count("output_impedance") == n + (n - 2)
+    assert worked.count("voltage_ratio") == n + 3
+    _compare(other)

@@ -681,6 +681,8 @@ def _json_figure(data: dict, path: str) -> float:  # type: ignore[type-arg]
     group, *rest = path.split(".")
     if group == "output" and rest[0].endswith("_percent") and "thd_" in rest[0]:
         return float(_thd_entry(data["output"], rest[0]))
+    if group == "output" and "_harmonic_" in rest[0]:
+        return _harmonic_entry(data["output"], rest[0])
     if group == "nodes":
         name, key = rest
         return float(next(n for n in data["nodes"] if n["stage"] == name)[key])
@@ -732,16 +734,35 @@ def _thd_entry(output: dict, key: str) -> float:  # type: ignore[type-arg]
     loop figure; 1 dB below clip is always reachable, so always the last entry."""
     open_loop = key.startswith("open_loop_")
     level = key.removeprefix("open_loop_").removeprefix("thd_").removesuffix("_percent")
+    entry = _thd_level(output, level)
+    return float(entry["open_loop_thd_percent" if open_loop else "thd_percent"])
+
+
+def _thd_level(output: dict, level: str) -> dict:  # type: ignore[type-arg]
+    """The check JSON's ``output.thd`` entry at a level (``nominal``, ``one_watt``,
+    ``below_clip``; see `_thd_entry`)."""
     wanted = {
         "nominal": output["nominal_vpk"] / math.sqrt(2.0),
         "one_watt": math.sqrt(output["load_ohm"]),
     }
     entries = output["thd"]
     if level in wanted:
-        entry = next(e for e in entries if math.isclose(e["level_vrms"], wanted[level]))
-    else:
-        entry = entries[-1]
-    return float(entry["open_loop_thd_percent" if open_loop else "thd_percent"])
+        return dict(next(e for e in entries if math.isclose(e["level_vrms"], wanted[level])))
+    return dict(entries[-1])
+
+
+# The check JSON's null harmonic: below this (dB re the fundamental) the check reports none;
+# the spread's figure reads the floor itself there (docs/tolerances.md).
+HARMONIC_FLOOR_DB = -200.0
+
+
+def _harmonic_entry(output: dict, key: str) -> float:  # type: ignore[type-arg]
+    """A harmonic of the check JSON's ``output.thd`` entry at a level
+    (``thd_LEVEL_harmonic_N_db``: that entry's ``harmonics_db[N - 2]``), its null (none,
+    below the floor) as the floor."""
+    head, n = key.removesuffix("_db").rsplit("_harmonic_", 1)
+    value = _thd_level(output, head.removeprefix("thd_"))["harmonics_db"][int(n) - 2]
+    return HARMONIC_FLOOR_DB if value is None else float(value)
 
 
 @pytest.mark.parametrize("text", [TONE_AND_VOLUME, FOLLOWER], ids=["tone-volume", "follower"])
@@ -889,7 +910,8 @@ def test_thd_of_each_trial_equals_the_check_of_that_trial(text: str) -> None:
     paths = [f"output.thd_{level}_percent" for level in levels]
     if text is PUSH_PULL_IN_LOOP:
         paths += [f"output.open_loop_thd_{level}_percent" for level in levels]
-    assert sorted(p for p in batched if "thd" in p) == sorted(paths)
+    # the harmonics at each level beside them: tests/test_spread_thd_loops.py
+    assert sorted(p for p in batched if "thd" in p and "_harmonic_" not in p) == sorted(paths)
     for path in paths:
         assert np.ptp(batched[path]) > 0.01 * np.mean(batched[path]), path
     for t in range(positions.shape[0]):

@@ -36,17 +36,18 @@ from chainbudget.budget import Budget
 from chainbudget.budget.analysis import environments, frequency_axis, positions_as_set, solve_chain
 from chainbudget.budget.levels import DB_FLOOR, SQRT2, clip_source_peak, db
 from chainbudget.budget.steps import with_value
-from chainbudget.cascade import Cascade, sections, solve_section
+from chainbudget.cascade import Cascade, Joins, sections, solve_section
 from chainbudget.cascade import cascade as join_cascade
 from chainbudget.chainfile import Chain
 from chainbudget.findings import SUPERSEDES
 from chainbudget.loudspeaker import is_reactive, load_impedance
-from chainbudget.network import SingularNetwork
-from chainbudget.outputmath import sine_power, spl_at_1m
+from chainbudget.network import SingularNetwork, keeping_matrices
+from chainbudget.outputmath import damping_factor, sine_power, spl_at_1m
 from chainbudget.source_network import source_impedance
 from chainbudget.spread.dc import dc_figures, walked
 from chainbudget.spread.drive import drive_figures
 from chainbudget.spread.flags import flag_parts, is_flag
+from chainbudget.spread.heap import keep_freed_memory
 from chainbudget.spread.heat import heat_figures
 from chainbudget.spread.hum import (
     HumRemedyReach,
@@ -55,7 +56,8 @@ from chainbudget.spread.hum import (
     hum_thresholds,
     remedy_reach_of,
 )
-from chainbudget.spread.loops import loop_figures, loop_thresholds
+from chainbudget.spread.idle import crossover_idle_figures, idle_cascade, needs_idle
+from chainbudget.spread.loops import closed_loop_figures, loop_figures, loop_thresholds
 from chainbudget.spread.noise import output_noise
 from chainbudget.spread.parts import Part, with_beta
 from chainbudget.spread.settings import HeldSettings, held_settings, worst_of_candidates
@@ -103,6 +105,10 @@ class Evaluator:
     nominal: Budget
     voltages: Mapping[str, Corners]
 
+    def __post_init__(self) -> None:
+        # batches of trials make and free large arrays: keep their pages for the next one
+        keep_freed_memory()
+
     def values(self, positions: NDArray[np.float64]) -> list[NDArray[np.float64]]:
         """Each part's value per trial from positions (T, n) in 0..1."""
         return [part.at(positions[:, i]) for i, part in enumerate(self.parts)]
@@ -124,15 +130,21 @@ class Evaluator:
         (`chainbudget.spread.flags`)."""
         size = self.chunk_trials
         if positions.shape[0] <= size:
-            found = self._batch(positions)
+            found = self._kept_batch(positions)
         else:
             batches = [positions[i : i + size] for i in range(0, len(positions), size)]
             # numpy's batched solves and array arithmetic release the GIL: the chunks run
             # on the machine's cores side by side (each chunk is independent; order kept)
             with ThreadPoolExecutor(max_workers=WORKERS) as pool:
-                pieces = list(pool.map(self._batch, batches))
+                pieces = list(pool.map(self._kept_batch, batches))
             found = {path: np.concatenate([p[path] for p in pieces]) for path in pieces[0]}
         return found if flags else {p: v for p, v in found.items() if not is_flag(p)}
+
+    def _kept_batch(self, positions: NDArray[np.float64]) -> Figures:
+        """`_batch`, each solve's matrix array kept for the next batch in this thread (a
+        thread solves the same netlists batch after batch: `network.keeping_matrices`)."""
+        with keeping_matrices():
+            return self._batch(positions)
 
     def _batch(self, positions: NDArray[np.float64]) -> Figures:
         """Every spread figure for one batch of trials (one solve of each kind)."""
@@ -205,13 +217,18 @@ class Evaluator:
         as_set, held = _solve_as_set_and_held(chain, tuple(envs), frequency, settings)
         figures.update(_reference_figures(self.chain, as_set, trials))
         figures.update(_band_figures(self.chain, held, as_set, settings, trials))
-        figures.update(_output_figures(self.chain, held, as_set, settings, trials))
+        output = self.nominal.output
+        damping_held = output is not None and bool(np.isfinite(output.damping_factor))
+        figures.update(_output_figures(self.chain, held, as_set, settings, trials, damping_held))
         noise = output_noise(chain, tuple(envs), frequency, as_set, trials, self.nominal)
         figures.update(noise)
         figures.update(
             hum_figures(chain, envs, self.nominal, noise, trials, ripples, self.hum_remedies)
         )
         figures.update(loop_figures(chain, envs, self.nominal, trials))
+        idle = idle_cascade(chain, envs) if needs_idle(self.nominal) else None
+        figures.update(closed_loop_figures(chain, as_set, idle, self.nominal, trials))
+        figures.update(crossover_idle_figures(as_set, idle, self.nominal, trials))
         figures.update(thd_figures(chain, envs, as_set, self.nominal, trials))
         hot_envs = self._hot_envs(chain, betas)
         figures.update(drive_figures(chain, as_set, held, settings, envs, hot_envs, trials))
@@ -350,6 +367,7 @@ def _solve_as_set_and_held(
     load = load_impedance(chain.load, frequency)
     units = sections(chain.stages)
     solved: dict[tuple[int, tuple[object, ...]], Any] = {}
+    joins = Joins()  # the settings share most sections: their terminations, once
 
     def solve(positions: list[dict[str, float]]) -> Cascade:
         found = []
@@ -358,7 +376,7 @@ def _solve_as_set_and_held(
             if key not in solved:
                 solved[key] = solve_section(chain.stages, envs, frequency, positions, unit)
             found.append(solved[key])
-        return join_cascade(found, source, load)
+        return join_cascade(found, source, load, joins)
 
     try:
         as_set = solve(as_set_positions)
@@ -396,11 +414,19 @@ def _band_figures(
 
 
 def _output_figures(
-    chain: Chain, held: list[Cascade], as_set: Cascade, settings: HeldSettings, trials: int
+    chain: Chain,
+    held: list[Cascade],
+    as_set: Cascade,
+    settings: HeldSettings,
+    trials: int,
+    damping_held: bool = True,
 ) -> Figures:
     """Output power at the reference frequency as `chainbudget.budget.power.output_figures`
     works it out: the tightest stage's clip peak carried to the load with the volume fully
-    up (`clip_power_w`), the nominal level with the controls as set (`nominal_power_w`)."""
+    up (`clip_power_w`), the nominal level with the controls as set (`nominal_power_w`),
+    and the damping factor |Z_L|/|Z_out| of the nominal load rating over the last stage's
+    output impedance at the reference (`damping_factor`; `chainbudget.outputmath`), where
+    ``damping_held`` (the nominal check's is finite: an output of no impedance has none)."""
     last = len(chain.stages) - 1
     z_load: complex | float = chain.load.impedance
     if is_reactive(chain.load):
@@ -408,6 +434,11 @@ def _output_figures(
     figures: Figures = {}
     nominal_vpk = SQRT2 * chain.source.level * np.abs(as_set.v_out[last][..., 0])
     figures["output.nominal_power_w"] = _trials(sine_power(nominal_vpk, z_load), trials)
+    z_out = as_set.output_impedance[last][..., 0]
+    if damping_held:
+        figures["output.damping_factor"] = _trials(
+            damping_factor(chain.load.impedance, z_out), trials
+        )
     # the volume fully up: its row of the held settings (no volume: the controls as set)
     row = settings.volume_row
     cascade = as_set if row is None else held[row]

@@ -14,8 +14,20 @@ as `chainbudget.stages.opamp_loop.loop_figures` does for the check.
 
 Which stages have a loop is read from the nominal check (a stage whose own figures hold an
 op-amp loop); a loop round later stages (the check JSON's ``loop[]``) is keyed
-``loop.STAGE.KEY``. Its closed-loop gain, output impedance and damping factor are not
-spread (docs/tolerances.md).
+``loop.STAGE.KEY``.
+
+A loop round later stages also carries its closed-loop figures (`closed_loop_figures`), as
+`chainbudget.stages.opamp_loop.loop_figures` works them out: the closed-loop gain
+|V_out(last) / V_in(first)| of its section, the closed-loop output impedance at the sensed
+stage's output with the load removed (the section's two-port output impedance from its
+source impedance: Blackman's Z_ol/(1 + T), docs/power.md) and, where that stage drives the
+load, the damping factor R_L/|Z_out| (the nominal load over it, common practice), each in
+conduction and at idle, and the gain step idle over conduction. They are read at the
+reference frequency: in conduction from the cascade the trials solve anyway (the chain with
+the controls as set), at idle from the chain at idle (`chainbudget.spread.idle`: one solve
+at the reference alone, which the push-pull stages' idle figures share); a few divisions
+per trial. A figure the nominal check leaves undefined is left out. The isolation remedy (a
+text naming a network) is the nominal check's.
 """
 
 from __future__ import annotations
@@ -27,8 +39,11 @@ from numpy.typing import NDArray
 
 from chainbudget.budget import Budget
 from chainbudget.budget.loops import LoopSolver
+from chainbudget.cascade import Cascade
 from chainbudget.chainfile import Chain
 from chainbudget.loopmath import crossings
+from chainbudget.loops import section_of, sections
+from chainbudget.spread.idle import at_reference
 from chainbudget.stages.base import Environment
 from chainbudget.stages.opamp_loop import GlobalLoop, OwnLoop
 from chainbudget.thresholds import PHASE_MARGIN_ERROR_DEG, PHASE_MARGIN_WARN_DEG
@@ -85,6 +100,47 @@ def loop_figures(
         values = (figures.loop_gain_db, figures.unity_gain_hz, figures.phase_margin_deg)
         for key, value in zip(KEYS, values, strict=True):
             if getattr(own, key) is not None:
+                found[prefix + key] = np.asarray(value, dtype=float)
+    return found
+
+
+def closed_loop_figures(
+    chain: Chain, as_set: Cascade, idle: Cascade | None, nominal: Budget, trials: int
+) -> Figures:
+    """Each loop round later stages' ``closed_loop_gain_db``, ``closed_loop_zout_ohm``,
+    ``damping_factor`` and their ``idle_`` counterparts and ``idle_gain_step_db`` per trial,
+    shape (T,), keyed ``loop.STAGE.KEY`` (the module's notes): ``as_set`` is the trials'
+    chain with the controls as set, ``idle`` the same at idle (None: no loop round later
+    stages in the nominal check). A damping factor the nominal check leaves out (the loop
+    does not drive the load) is left out."""
+    found: Figures = {}
+    if idle is None:
+        return found
+    units = sections(chain.stages)
+    load_ohm = chain.load.impedance
+    for k, prefix, own in _loops(nominal):
+        if not isinstance(own, GlobalLoop):
+            continue
+        section = section_of(units, k)
+        first, last = section.first, section.last
+        gain = at_reference(as_set.v_out[last], trials) / at_reference(as_set.v_in[first], trials)
+        idle_gain = at_reference(idle.v_out[last], trials) / at_reference(idle.v_in[first], trials)
+        zout = at_reference(as_set.output_impedance[last], trials)
+        idle_zout = at_reference(idle.output_impedance[last], trials)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            values = {
+                "closed_loop_gain_db": 20.0 * np.log10(gain),
+                "closed_loop_zout_ohm": zout,
+                "damping_factor": load_ohm / zout,
+                "idle_closed_loop_zout_ohm": idle_zout,
+                "idle_damping_factor": load_ohm / idle_zout,
+                "idle_gain_step_db": 20.0 * np.log10(idle_gain / gain),
+            }
+        for key, value in values.items():
+            held = getattr(own, key)
+            # the check's None (no damping factor where the loop does not drive the load)
+            # or a gain it cannot give (no signal into the loop: a volume at its stop)
+            if held is not None and np.isfinite(held):
                 found[prefix + key] = np.asarray(value, dtype=float)
     return found
 

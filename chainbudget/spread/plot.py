@@ -7,17 +7,20 @@ from pathlib import Path
 
 from chainbudget.report.pictures import style
 from chainbudget.spread.run import SpreadResult
-from chainbudget.spread.view import moving
+from chainbudget.spread.view import is_harmonic, moving
 
 # Panels in one picture at most.
 MAX_PANELS = 6
 
 
 def key_figures(result: SpreadResult) -> list[str]:
-    """Figures with a rule's limit first, then the moving ones by relative spread."""
+    """Figures with a rule's limit first, then the moving ones by relative spread (not the
+    harmonics of THD: a harmonic the drawn betas raise from the check's floor, -200 dB,
+    spans decades of ratio and would take every panel; THD itself stands for them)."""
     limited = list(dict.fromkeys(c.threshold.path for c in result.crossings))
     rest = sorted(
-        (p for p in moving(result) if p not in limited), key=lambda p: -_relative_spread(result, p)
+        (p for p in moving(result) if p not in limited and not is_harmonic(p)),
+        key=lambda p: -_relative_spread(result, p),
     )
     return (limited + rest)[:MAX_PANELS]
 

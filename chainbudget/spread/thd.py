@@ -14,7 +14,12 @@ divided by the trial's own return difference |1 + T(n f)| at its frequency (the 
 network solved with the parts as arrays on the harmonics' frequencies). Every level of every
 trial goes through `harmonic_amplitudes` as one array (trials x levels x samples): no loop
 over trials. THD = sqrt(sum_{n=2..20} H_n^2)/H_1 (IEC 60268-3's definition over the
-harmonics, from memory).
+harmonics, from memory). Each harmonic n = 2..20 at each level is a figure of its own, in
+dB re the fundamental (the closed-loop one, as the check's ``harmonics_db``), read from the
+same amplitudes: one division and a logarithm per trial. Below `HARMONIC_FLOOR_DB` the
+check reports none (null: the even harmonics of a symmetric pair, which drawn betas of
+unequal halves make real); a trial there reads the floor itself, so every trial has a
+finite figure and a trial at the floor is one the check of that build reports null.
 
 The figures are those of the levels the nominal check reports (a level the chain cannot
 reach with its nominal parts is left out). A trial whose clip falls below the nominal level
@@ -40,6 +45,7 @@ from chainbudget.outputmath import thermal_voltage
 from chainbudget.stages.base import Environment
 from chainbudget.stages.push_pull.crossover import (
     BELOW_CLIP_DB,
+    HARMONIC_FLOOR_DB,
     HARMONICS,
     Crossover,
     closed_loop,
@@ -66,6 +72,21 @@ def thd_paths(nominal: Budget) -> list[tuple[str, str]]:
     if not isinstance(own, Crossover) or not own.thd:
         return []
     return [(level, f"output.{field}_percent") for level, field in LEVELS if getattr(own, field)]
+
+
+def harmonic_path(level: str, n: int) -> str:
+    """The figure path of harmonic ``n`` at a THD level (``output.thd_one_watt_harmonic_3_db``:
+    the check JSON's ``output.thd`` entry at that level, ``harmonics_db[n - 2]``)."""
+    return f"output.thd_{level}_harmonic_{n}_db"
+
+
+def harmonics_db(amplitude: NDArray[np.float64]) -> NDArray[np.float64]:
+    """Harmonics 2 to `HARMONICS` in dB re the fundamental (last axis of ``amplitude``: 1 to
+    `HARMONICS`), as `chainbudget.stages.push_pull.crossover.harmonics` gives them, with a
+    harmonic below `HARMONIC_FLOOR_DB` (the check's null) at the floor."""
+    with np.errstate(divide="ignore"):
+        found = 20.0 * np.log10(amplitude[..., 1:] / amplitude[..., :1])
+    return np.asarray(np.maximum(found, HARMONIC_FLOOR_DB))
 
 
 def _per_trial(value: object, trials: int) -> NDArray[np.float64]:
@@ -118,9 +139,9 @@ def thd_figures(
     trials: int,
 ) -> dict[str, NDArray[np.float64]]:
     """The output stage's THD (percent) at each level the nominal check reports, and open
-    loop where the stage sits in a loop, each of shape (T,): ``chain`` and ``envs`` carry
-    the trials' parts as (T, 1) arrays, ``as_set`` is the chain solved with the controls
-    as set over them."""
+    loop where the stage sits in a loop, and each harmonic's level in dB (`harmonic_path`),
+    each of shape (T,): ``chain`` and ``envs`` carry the trials' parts as (T, 1) arrays,
+    ``as_set`` is the chain solved with the controls as set over them."""
     paths = thd_paths(nominal)
     if not paths:
         return {}
@@ -131,10 +152,15 @@ def thd_figures(
     levels = np.stack([_levels_vpk(chain, as_set, level, trials) for level, _ in paths], axis=1)
     amplitude = harmonic_amplitudes(levels, upper, lower, chain.load.impedance, v_t)
     factor = _loop_factor(chain, envs, trials)
-    closed = thd_of(closed_loop(amplitude, factor))
+    closed_amplitude = closed_loop(amplitude, factor)
+    closed = thd_of(closed_amplitude)
     figures = {}
     for j, (_, path) in enumerate(paths):
         figures[path] = _per_trial(100.0 * closed[..., j], trials).copy()
+    in_db = harmonics_db(closed_amplitude)
+    for j, (level, _) in enumerate(paths):
+        for n in range(2, HARMONICS + 1):
+            figures[harmonic_path(level, n)] = _per_trial(in_db[..., j, n - 2], trials).copy()
     if factor is not None:
         open_loop = thd_of(amplitude)
         for j, (_, path) in enumerate(paths):

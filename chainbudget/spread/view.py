@@ -75,6 +75,12 @@ def scaled(path: str, typical: float) -> tuple[float, str]:
     return 10.0**exponent, _PREFIX[exponent] + unit
 
 
+def is_harmonic(path: str) -> bool:
+    """A harmonic of THD (``output.thd_LEVEL_harmonic_N_db``): nineteen a level, in the JSON
+    only (the table and the pictures show THD itself, which sums them)."""
+    return path.startswith("output.thd_") and "_harmonic_" in path
+
+
 def moving(result: SpreadResult) -> list[str]:
     """Figures the tolerances move (their trials are not all the same)."""
     found = []
@@ -151,7 +157,7 @@ def spread_tables(result: SpreadResult, title: str, places: Sequence[str] = ()) 
         "high",
         left=("figure", "unit"),
     )
-    still = _in_chain_order(moving(result), places)
+    still = _in_chain_order([p for p in moving(result) if not is_harmonic(p)], places)
     last_place = None
     for path in still:
         s = result.stats[path]
@@ -203,6 +209,12 @@ def spread_tables(result: SpreadResult, title: str, places: Sequence[str] = ()) 
             )
         parts.append(cross)
     notes = []
+    harmonics = sum(1 for p in result.stats if is_harmonic(p))
+    if harmonics:
+        notes.append(
+            f"the harmonics of THD at each level ({harmonics} figures, "
+            "output.thd_LEVEL_harmonic_N_db) are in the JSON"
+        )
     if result.held:
         notes.append(
             "held at nominal: " + "; ".join(f"{h.label} ({h.reason})" for h in result.held)

@@ -386,6 +386,9 @@ def _stamp_idle_pair(
     (the bias spreader a short to the signal); returns the upper emitter and its current."""
     name, t = stage.name, env.temperature_k
     r_emitter = stage.number("emitter_resistors")
+    # any(): R_E may be an array over a leading trial axis (chainbudget/spread), as in
+    # `_stamp_conducting_half`
+    has_emitter_resistor = bool(np.any(np.asarray(r_emitter) > 0.0))
     found: list[tuple[str, Ref]] = []
     for half, model in zip(halves(stage, env), idle_models(stage, env), strict=True):
         label = f"{name}.{half.side}"
@@ -401,11 +404,11 @@ def _stamp_idle_pair(
                 stage=name,
                 temperature_k=t,
             )
-        emitter = junction if r_emitter <= 0.0 else f"{label}.emitter"
+        emitter = junction if not has_emitter_resistor else f"{label}.emitter"
         current = stamp_transistor(
             net, base, emitter, model.output, label=f"{label}.output", stage=name, temperature_k=t
         )
-        if r_emitter > 0.0:
+        if has_emitter_resistor:
             own.resistor(f"{half.side}.emitter_resistor", emitter, junction, r_emitter)
         found.append((emitter, current))
     return found[0]
