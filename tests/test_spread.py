@@ -15,6 +15,7 @@ import numpy as np
 import pytest
 from scipy import integrate, optimize
 
+from chainbudget.budget import Budget
 from chainbudget.chainfile import Chain, parse_chain
 from chainbudget.spread.flags import flag_parts, is_flag
 from chainbudget.spread.run import run_spread
@@ -358,7 +359,7 @@ def test_batched_trials_equal_the_check_of_each_trial_edited_into_the_file() -> 
         for path, values in batched.items():
             if _ideal_opamp_current(path):
                 continue
-            held = _json_figure(data, path)
+            held = _json_figure(data, path, budget)
             assert values[t] == pytest.approx(held, rel=1e-9, abs=1e-12), path
 
 
@@ -573,7 +574,7 @@ def test_output_pair_betas_drawn_per_trial_equal_the_check_of_each_trial() -> No
         for path, values in batched.items():
             if _ideal_opamp_current(path):
                 continue
-            held = _json_figure(data, path)
+            held = _json_figure(data, path, budget)
             assert values[t] == pytest.approx(held, rel=1e-9, abs=1e-12), path
 
 
@@ -675,9 +676,17 @@ max_output = "6 V"
 )
 
 
-def _json_figure(data: dict, path: str) -> float:  # type: ignore[type-arg]
-    """A spread figure's value in the check JSON (``nodes.NAME.KEY``, ``output.KEY`` or a
-    top-level key such as ``hiss_spl_a_db``)."""
+def _json_figure(
+    data: dict,  # type: ignore[type-arg]
+    path: str,
+    budget: Budget | None = None,
+) -> float:
+    """A spread figure's value in the check JSON (``nodes.NAME.KEY``, ``output.KEY``,
+    ``noise_sources.LABEL.KEY``, ``noise.stage_shares.NAME.KEY`` or a top-level key such as
+    ``hiss_spl_a_db``). The spread follows the generators the nominal check lists among its
+    ten largest; a trial's check that ranks one of them lower does not list it in its JSON,
+    and its value is read from that check's ``budget`` (the full list the JSON's ten are
+    written from)."""
     group, *rest = path.split(".")
     if group == "output" and rest[0].endswith("_percent") and "thd_" in rest[0]:
         return float(_thd_entry(data["output"], rest[0]))
@@ -702,9 +711,16 @@ def _json_figure(data: dict, path: str) -> float:  # type: ignore[type-arg]
         severity, code = flag_parts(path)
         found = [f for f in data["findings"] if f["code"] == code]
         return float(any(f["severity"] == severity for f in found))
-    if rest[:1] == ["stage_shares"]:
+    if group == "noise" and rest[0] in ("stage_shares", "placement"):
         _, name, key = rest
-        return float(next(s for s in data["noise"]["stage_shares"] if s["stage"] == name)[key])
+        return float(next(s for s in data["noise"][rest[0]] if s["stage"] == name)[key])
+    if group == "noise_sources":  # noise_sources.LABEL.KEY, a label holding dots
+        label, key = ".".join(rest[:-1]), rest[-1]
+        listed = [c for c in data["noise_sources"] if c["label"] == label]
+        if listed:
+            return float(listed[0][key])
+        assert budget is not None and budget.noise is not None, f"{label} is not listed"
+        return float(getattr(next(c for c in budget.noise.contributors if c.label == label), key))
     if group == "drive":  # drive.followers.NAME.KEY, drive.handovers.NAME.KEY
         place, name, key = rest
         return float(next(d for d in data["drive"][place] if d["stage"] == name)[key])
@@ -807,7 +823,7 @@ def test_band_noise_and_power_of_each_trial_equal_the_check_of_that_trial(text: 
         for path in batched:
             if _ideal_opamp_current(path):
                 continue
-            held = _json_figure(data, path)
+            held = _json_figure(data, path, budget)
             if path.endswith(("_vrms", "_rthz")):  # tiny voltages: compared in dB
                 got, want = 20 * math.log10(batched[path][t]), 20 * math.log10(held)
                 assert got == pytest.approx(want, rel=0, abs=1e-8), path

@@ -201,7 +201,7 @@ def test_dc_drive_and_heat_of_each_trial_equal_the_check_of_that_trial() -> None
         for path, values in figures.items():
             if is_flag(path):
                 continue
-            held_value = _json_figure(data, path)
+            held_value = _json_figure(data, path, budget)
             assert values[t] == pytest.approx(held_value, rel=1e-9, abs=1e-12), path
         found = {f.code for f in budget.findings}
         found_errors = {f.code for f in budget.findings if f.severity == "error"}

@@ -43,7 +43,7 @@ from chainbudget.budget.analysis import positions_as_set
 from chainbudget.cascade import Cascade, inner_node, stamp_section
 from chainbudget.chainfile import Chain
 from chainbudget.loops import Section
-from chainbudget.network import GROUND, Complex, Netlist
+from chainbudget.network import GROUND, Complex, Netlist, TwoPort
 from chainbudget.source_network import source_resistance
 from chainbudget.spectrum import integrate_psd, thermal_voltage_psd
 from chainbudget.stages import KINDS
@@ -74,6 +74,58 @@ class NoiseOrigin:
 
 
 @dataclass(frozen=True)
+class UnitNoise:
+    """How one unit's (a stage's, or a loop section's) generators met its ports, as solved:
+    what moving the unit elsewhere in the chain needs (`UnitNoise.out_under`).
+
+    Attributes
+    ----------
+    section : Section
+        The unit.
+    psd : ndarray, shape (S_u, ..., F)
+        Each generator's PSD, V^2/Hz or A^2/Hz.
+    to_out, to_in : ndarray, shape (S_u, ..., F), complex
+        Each generator's transfer to the unit's output and input node voltages under the
+        terminations it was solved with.
+    source_impedance, load_admittance : ndarray, complex
+        Those terminations: Z_S at the input (floored as stamped) and Y_L at the output.
+    """
+
+    section: Section
+    psd: NDArray[np.float64]
+    to_out: Complex
+    to_in: Complex
+    source_impedance: Complex
+    load_admittance: Complex
+
+    def out_under(
+        self, port: TwoPort, source_impedance: Complex, load_admittance: Complex
+    ) -> Complex:
+        """Each generator's transfer to the unit's output node under other terminations,
+        (S_u, ..., F), from the transfers as solved: no new solve.
+
+        Notes
+        -----
+        A linear two-port with sources inside obeys V1 = A V2 + B I2 + e, I1 = C V2 +
+        D I2 + i (chain parameters, I2 leaving port 2; the sources referred to the input
+        as a series voltage e and a shunt current i: Rothe & Dahlke, Proc. IRE 44 (1956)
+        811, from memory). As solved, I1 = -V1/Z_S0 and I2 = Y_L0 V2 give e and i from
+        (V1_0, V2_0); under (Z_S, Y_L) the same relations give
+        V2 = [V2_0 (A + B Y_L0 + Z_S (C + D Y_L0)) - V1_0 (1 - Z_S/Z_S0)]
+        / (A + B Y_L + Z_S (C + D Y_L)),
+        exact by superposition (the rest of the chain meets the unit only at its ports).
+        """
+        z = _floored(np.asarray(source_impedance, complex))
+        y = np.asarray(load_admittance, complex)
+        z0, y0 = self.source_impedance, self.load_admittance
+        a, b, c, d = port.a, port.b, port.c, port.d
+        as_solved = a + b * y0 + z * (c + d * y0)
+        return (self.to_out * as_solved - self.to_in * (1.0 - z / z0)) / (
+            a + b * y + z * (c + d * y)
+        )
+
+
+@dataclass(frozen=True)
 class NoiseSpectra:
     """Every generator's noise PSD at every node (controls as set).
 
@@ -89,6 +141,11 @@ class NoiseSpectra:
         PSD at the output node of stage k due to generator s, V^2/Hz.
     signal : ndarray, shape (K, F)
         |v_out| of each node per volt of source open-circuit voltage.
+    units : tuple of UnitNoise
+        Each unit's generators at its ports as solved (what moving a stage needs), in the
+        order of ``origins``.
+    source_psd : ndarray, shape (F,), or None
+        The source impedance's thermal noise (generator 0 when given), V^2/Hz.
 
     Parts given as arrays over leading batch axes (the spread's trials) put those axes
     before F: ``contribution`` (S, K, T, F), ``signal`` (K, T, F).
@@ -99,6 +156,8 @@ class NoiseSpectra:
     origins: tuple[NoiseOrigin, ...]
     contribution: NDArray[np.float64]
     signal: NDArray[np.float64]
+    units: tuple[UnitNoise, ...] = ()
+    source_psd: NDArray[np.float64] | None = None
 
     @property
     def node_psd(self) -> NDArray[np.float64]:
@@ -318,12 +377,14 @@ def noise_spectra(
 
     origins: list[NoiseOrigin] = []
     blocks: list[NDArray[np.float64]] = []
+    solved: list[UnitNoise] = []
+    source_psd = None
     # Nyquist: 4kT Re Z_S(f); a series capacitance or inductance is lossless and adds none.
     r_source = source_resistance(chain.source, frequency)
     if np.any(r_source > 0.0):
         origins.append(NoiseOrigin("source.impedance", SOURCE_STAGE, -1, "impedance", "thermal"))
-        psd = thermal_voltage_psd(r_source, temperature_k)
-        blocks.append((psd * signal**2)[None])
+        source_psd = thermal_voltage_psd(r_source, temperature_k)
+        blocks.append((source_psd * signal**2)[None])
     positions = positions_as_set(stages)
     for u, unit in enumerate(units):
         k = unit.first
@@ -349,6 +410,16 @@ def noise_spectra(
             to_nodes = to_out[:, None]
         if not found:
             continue
+        solved.append(
+            UnitNoise(
+                unit,
+                psd,
+                to_nodes[:, -1],
+                to_in,
+                _floored(np.asarray(nominal.source_impedance[k], complex)),
+                np.asarray(nominal.load_admittance[unit.last], complex),
+            )
+        )
         voltage = np.zeros((len(found), n, *shape), dtype=complex)
         voltage[:, unit.first : unit.last + 1] = to_nodes
         for later in units[u + 1 :]:
@@ -367,4 +438,6 @@ def noise_spectra(
     contribution = (
         np.concatenate(blocks, axis=0) if blocks else np.zeros((0, n, *shape), dtype=float)
     )
-    return NoiseSpectra(frequency, band, tuple(origins), contribution, signal)
+    return NoiseSpectra(
+        frequency, band, tuple(origins), contribution, signal, tuple(solved), source_psd
+    )

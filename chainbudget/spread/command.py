@@ -81,7 +81,13 @@ def spread_command(
         spread_tables(
             result,
             title,
-            [f"nodes.{stage.name}." for stage in chain.stages]
+            # the source's share of the noise first, then each stage's figures together
+            ["noise.stage_shares.source."]
+            + [
+                f"{group}.{stage.name}."
+                for stage in chain.stages
+                for group in ("nodes", "noise.stage_shares", "noise.placement")
+            ]
             + [f"supplies.{supply.name}." for supply in chain.supplies],
         )
     )

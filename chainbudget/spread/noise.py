@@ -13,12 +13,17 @@ nominal level at the reference over the rms noise; for the chain the input-refer
 noise figure at the reference (Friis, Proc. IRE 32 (1944) 419), the dynamic range (the
 output's sine-equivalent clip over its noise).
 
+The noise budget's detail per trial, from the same spectra: each generator's band noise
+at the output and its share of the output noise power, unweighted and A-weighted, for the
+generators the nominal check lists (its ten largest, ``noise_sources`` in the check JSON),
+and each stage's share (the sum of its generators'; ``noise.stage_shares``). The
+spectral detail at single frequencies (``noise.spectrum``) is not spread.
+
 ``noise-set-late`` (`chainbudget.findings.noise`) is drawn where a stage after the first
-gives more of the output noise power than the first does (a stage's share: the sum of
-its generators' band powers over the total): per trial a flag
+gives more of the output noise power than the first does: per trial a flag
 (`chainbudget.spread.flags`) of whether the largest later stage's share exceeds the first
-stage's, as the check's rule has it. The shares are not spread figures (a share near zero
-would lead the report's ranking by relative spread).
+stage's, as the check's rule has it. ``noise-attenuator-before-gain`` and the lift it is
+judged by come from `chainbudget.spread.noise_placement`, from the same solved spectra.
 """
 
 from __future__ import annotations
@@ -34,6 +39,7 @@ from chainbudget.chainfile import Chain
 from chainbudget.outputmath import hiss_spl
 from chainbudget.spectrum import zero_celsius_k
 from chainbudget.spread.flags import as_flag, flag_key, is_flag
+from chainbudget.spread.noise_placement import placement_figures
 from chainbudget.stages.base import Environment
 from chainbudget.units import DBU_REFERENCE_VRMS
 from chainbudget.weighting import a_weighting, itu468_weighting
@@ -60,7 +66,9 @@ def output_noise(
     path in the check JSON; the chain's input-referred noise, EIN, noise figure and
     dynamic range (top-level keys), the flag of ``noise-set-late``, and
     with a loudspeaker sensitivity the hiss SPL at 1 m (``hiss_spl_db``,
-    ``hiss_spl_a_db``).
+    ``hiss_spl_a_db``). With the ``nominal`` check, the contributors' and stages' parts of
+    the output noise it lists, the placement lifts and the flags of
+    ``noise-attenuator-before-gain`` (module notes).
 
     ``chain`` holds the drawn parts as (T, 1) arrays, ``as_set`` is its cascade with the
     controls as set on ``frequency`` (the reference, then the band grid). With the
@@ -93,9 +101,12 @@ def output_noise(
         found[node + "snr_a_db"] = _db20(level / np.sqrt(weighted[k]))
     out = f"nodes.{chain.stages[-1].name}."
     found.update(_chain_figures(chain, spectra, psd[-1], signal[-1], as_set, trials))
-    found.update(_stage_shares(chain, spectra, trials))
+    found.update(_stage_shares(chain, spectra, trials, nominal))
     if nominal is not None:  # the figures the nominal check leaves undefined (no noise)
         found = {path: v for path, v in found.items() if _defined(nominal, path)}
+        snr = found.get(out + "snr_db")
+        if snr is not None:
+            found.update(placement_figures(chain, spectra, as_set, snr, trials, nominal))
     sensitivity = chain.load.sensitivity
     if sensitivity is not None:  # the hiss at 1 m, as `noise_budget` works it out
         for key, noise in (("hiss_spl_db", "noise_vrms"), ("hiss_spl_a_db", "noise_a_vrms")):
@@ -116,7 +127,7 @@ def _defined(nominal: Budget, path: str) -> bool:
         node = next(n for n in noise.nodes if n.stage == name)
         field = "density_v_rthz" if key == "noise_density_v_rthz" else key
         return getattr(node, field) is not None
-    if is_flag(path):
+    if is_flag(path) or group in ("noise_sources", "noise"):  # made from its own lists
         return True
     return getattr(noise, path) is not None
 
@@ -158,26 +169,48 @@ def _chain_figures(
 
 
 def _stage_shares(
-    chain: Chain, spectra: NoiseSpectra, trials: int
+    chain: Chain, spectra: NoiseSpectra, trials: int, nominal: Budget | None = None
 ) -> dict[str, NDArray[np.float64]]:
-    """Whether ``noise-set-late`` is drawn in each trial (module notes), from each stage's
-    share of the output noise power."""
+    """Each contributor's and each stage's part of the output noise per trial, as
+    `chainbudget.budget.noise.noise_budget` works them out (a generator's band power at
+    the output and its share of the total, unweighted and A-weighted; a stage's share the
+    sum of its generators'), for the contributors and stages the ``nominal`` check lists
+    (``noise_sources.LABEL.noise_vrms``, ``.share``, ``.share_a``;
+    ``noise.stage_shares.STAGE.share``, ``.share_a``), and whether ``noise-set-late`` is
+    drawn in each trial (module notes)."""
     shape = (trials, spectra.frequency.size)
     out = np.stack([np.broadcast_to(c, shape) for c in spectra.contribution[:, -1]])
     flat = spectra.integrate(out, unweighted)  # (S, T)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        share = np.where(flat.sum(axis=0) > 0.0, flat / flat.sum(axis=0), 0.0)
+    weighted = spectra.integrate(out, a_weighting)
+    share, share_a = _share(flat), _share(weighted)
     owner = np.array([o.stage_index for o in spectra.origins], dtype=int)
     found: dict[str, NDArray[np.float64]] = {}
-    by_stage: dict[int, NDArray[np.float64]] = {}
-    for origin in spectra.origins:
-        index = origin.stage_index
-        if index in by_stage:
-            continue
-        mine = owner == index
-        by_stage[index] = share[mine].sum(axis=0)
+    noise = None if nominal is None else nominal.noise
+    if noise is not None:
+        labels = [o.label for o in spectra.origins]
+        for listed in noise.top_contributors:
+            if labels.count(listed.label) != 1:  # a label two generators share: no path
+                continue
+            s = labels.index(listed.label)
+            path = f"noise_sources.{listed.label}."
+            found[path + "noise_vrms"] = np.sqrt(flat[s])
+            found[path + "share"] = share[s]
+            found[path + "share_a"] = share_a[s]
+        for stage in noise.stage_shares:
+            mine = owner == stage.stage_index
+            path = f"noise.stage_shares.{stage.stage}."
+            found[path + "share"] = share[mine].sum(axis=0)
+            found[path + "share_a"] = share_a[mine].sum(axis=0)
+    by_stage = {int(i): share[owner == i].sum(axis=0) for i in dict.fromkeys(owner.tolist())}
     later = [s for i, s in by_stage.items() if i > 0]
     if len(chain.stages) >= 2 and later:
         first = by_stage.get(0, np.zeros(trials))
         found[LATE_FLAG] = as_flag(np.max(later, axis=0) > first, trials)
     return found
+
+
+def _share(power: NDArray[np.float64]) -> NDArray[np.float64]:
+    """Each generator's share of the total power per trial (S, T); 0 where there is none."""
+    total = power.sum(axis=0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.where(total > 0.0, power / total, 0.0)

@@ -7,7 +7,7 @@ from pathlib import Path
 
 from chainbudget.report.pictures import style
 from chainbudget.spread.run import SpreadResult
-from chainbudget.spread.view import is_harmonic, moving
+from chainbudget.spread.view import is_harmonic, is_share, moving
 
 # Panels in one picture at most.
 MAX_PANELS = 6
@@ -27,8 +27,16 @@ def key_figures(result: SpreadResult) -> list[str]:
 
 def _relative_spread(result: SpreadResult, path: str) -> float:
     """A figure's spread over its nominal value; a level in dB as the ratio it spans (its
-    nominal in dB is no scale: 0 dB would rank first)."""
+    nominal in dB is no scale: 0 dB would rank first); a share of the output noise power
+    by its span itself (a fraction of the whole already: a small share would lead by its
+    relative spread), and a generator's noise at the output by what it moves the output's
+    noise by (its relative spread times its share: d V_out / V_out = share d v / v)."""
     span = result.stats[path]["max"] - result.stats[path]["min"]
+    if is_share(path):
+        return span
+    if path.startswith("noise_sources.") and path.endswith(".noise_vrms"):
+        share = result.nominal.get(path.removesuffix("noise_vrms") + "share", 0.0)
+        return span / max(abs(result.nominal[path]), 1e-30) * share
     if path.endswith(("_db", "_dbu")):
         return float(10.0 ** (span / 20.0) - 1.0)
     return span / max(abs(result.nominal[path]), 1e-30)

@@ -43,10 +43,22 @@ _UNITS = (
 #: stands for in the table.
 _ENTRY_KEYS = {"vrms": "hum", "a_vrms": "hum a", "vpk": "ripple"}
 
+#: The noise budget's shares (``noise_sources.LABEL.share``, ``noise.stage_shares.NAME.
+#: share_a``): fractions of the output noise power, shown in per cent.
+_SHARES = (".share", ".share_a")
+
+
+def is_share(path: str) -> bool:
+    """Whether a figure is a share of the output noise power (a fraction, no unit)."""
+    return path.startswith(("noise_sources.", "noise.stage_shares.")) and path.endswith(_SHARES)
+
 
 def _unit(path: str) -> str:
     """A figure path's unit from its suffix (``_db``, ``_v``, ``_vrms``...) or, for a
-    listed entry's key that is a unit alone, from that key (``vrms``)."""
+    listed entry's key that is a unit alone, from that key (``vrms``); a share of the
+    noise power has none (``share_a`` is A-weighted, not amperes)."""
+    if is_share(path):
+        return ""
     key = path.rsplit(".", 1)[-1]
     for suffix, unit in _UNITS:
         if path.endswith(suffix) or key == suffix[1:]:
@@ -67,7 +79,10 @@ _PLAIN_UNITS = frozenset({"dB", "dBu", "deg", "degC"})
 
 
 def scaled(path: str, typical: float) -> tuple[float, str]:
-    """The scale and unit a row's numbers are shown in (engineering prefix of ``typical``)."""
+    """The scale and unit a row's numbers are shown in (engineering prefix of ``typical``;
+    a share of the noise power in per cent)."""
+    if is_share(path):
+        return 0.01, "%"
     unit = _unit(path)
     if unit in _PLAIN_UNITS or typical == 0.0 or not math.isfinite(typical):
         return 1.0, unit
@@ -98,15 +113,35 @@ def _short(path: str) -> str:
 def _bare(path: str) -> str:
     """A figure's path without its unit suffix (the unit has its own column)."""
     short = _short(path)
+    if is_share(path):
+        return short
     for suffix, _ in _UNITS:
         if short.endswith(suffix):
             return short.removesuffix(suffix)
     return short
 
 
+#: The noise budget's figures of a stage or a generator: the group their path starts
+#: with and the words the table names each of their keys with.
+_NOISE_PARTS = {
+    "noise.stage_shares.": {"share": "stage noise share", "share_a": "stage noise share a"},
+    "noise.placement.": {"lift_db": "snr lift if moved"},
+    "noise_sources.": {
+        "noise_vrms": "noise at output",
+        "share": "noise share",
+        "share_a": "noise share a",
+    },
+}
+
+
 def _place_and_figure(path: str) -> tuple[str, str]:
     """Where a figure belongs (``nodes.pre``, ``supplies.raw``...) and its own name without
-    the unit suffix, words spaced (``nominal headroom``)."""
+    the unit suffix, words spaced (``nominal headroom``); the noise budget's figures of a
+    stage or a generator at that stage or generator (``volume``, ``makeup.feedback``)."""
+    for group, names in _NOISE_PARTS.items():
+        if path.startswith(group):
+            place, _, key = path.removeprefix(group).rpartition(".")
+            return place, names.get(key, key.replace("_", " "))
     place, _, key = _bare(path).rpartition(".")
     entry_key = path.rsplit(".", 1)[-1]
     if entry_key in _ENTRY_KEYS:  # a listed entry's own key: the place is all before it
