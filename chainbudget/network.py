@@ -16,9 +16,7 @@ one row and one column.
 
 from __future__ import annotations
 
-import threading
-from collections.abc import Iterator, Mapping, Sequence
-from contextlib import contextmanager
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -75,82 +73,14 @@ class _Entries:
     fixed: NDArray[np.complex128]
     varying: dict[tuple[int, int], Any]
 
-    def write(self, m: NDArray[np.complex128]) -> set[int]:
+    def write(self, m: NDArray[np.complex128]) -> None:
         """Write every entry that is not zero into ``m``, laid out entry-major, (N, N) +
-        batch, whose other entries are zero; return the flat indices r N + c written."""
-        n = self.fixed.shape[0]
-        written = set()
+        batch, whose other entries are zero."""
         for r, c in zip(*np.nonzero(self.fixed), strict=True):
             if (r, c) not in self.varying:
                 m[r, c] = self.fixed[r, c]
-                written.add(int(r) * n + int(c))
         for (r, c), value in self.varying.items():
             m[r, c] = self.fixed[r, c] + value
-            written.add(r * n + c)
-        return written
-
-
-class _Scratch(threading.local):
-    """Each thread's arrays for the matrices it solves, one per shape, kept between
-    solves (up to `SCRATCH_BYTES` a thread, the least recently used dropped first).
-
-    Notes
-    -----
-    A matrix is laid out entry-major, (N, N) + batch, so that each entry's write is one
-    contiguous pass; it is handed to the solve as the batch-major view numpy takes (its
-    solve copies each matrix into its own buffer either way). An MNA matrix is mostly
-    zeros (each element stamps a handful of entries): an array kept from the last matrix
-    of the same shape is already zero wherever neither matrix has an entry, so only the
-    entries the last one wrote and this one does not are cleared. That saves a zero fill
-    of the whole batch, tens of megabytes, for every solve of a batch of trials.
-    """
-
-    def __init__(self) -> None:
-        self.kept: dict[tuple[int, ...], tuple[NDArray[np.complex128], set[int]]] = {}
-        #: Within `keeping_matrices` (a batch of trials): only there are arrays kept.
-        self.depth = 0
-
-    def matrix(self, n: int, entries: _Entries) -> Complex:
-        key = (n, *entries.shape)
-        if self.depth == 0:
-            self.kept.clear()
-            m = np.zeros((n, n, *entries.shape), dtype=complex)
-            entries.write(m)
-            return np.moveaxis(m, (0, 1), (-2, -1))
-        found = self.kept.pop(key, None)
-        if found is None:
-            m = np.zeros((n, n, *entries.shape), dtype=complex)
-            before: set[int] = set()
-        else:
-            m, before = found
-        written = entries.write(m)
-        flat = m.reshape(n * n, -1)
-        for index in before - written:
-            flat[index] = 0.0
-        self.kept[key] = (m, written)  # now the most recently used
-        while sum(a.nbytes for a, _ in self.kept.values()) > SCRATCH_BYTES and self.kept:
-            del self.kept[next(iter(self.kept))]
-        return np.moveaxis(m, (0, 1), (-2, -1))
-
-
-@contextmanager
-def keeping_matrices() -> Iterator[None]:
-    """Within this, the solves of this thread keep their matrix arrays for the next one of
-    the same shape (`_Scratch`): for batches of trials, whose every solve would otherwise
-    zero tens of megabytes. Outside it (a check) nothing is kept; the first solve there
-    lets go of what was."""
-    _SCRATCH.depth += 1
-    try:
-        yield
-    finally:
-        _SCRATCH.depth -= 1
-
-
-#: The scratch matrices a thread keeps, bytes at most: the few largest of a batch of
-#: trials (`chainbudget.spread.evaluate.CHUNK_POINTS` points of matrices up to 16 x 16
-#: take about 70 MB each).
-SCRATCH_BYTES = 160 << 20
-_SCRATCH = _Scratch()
 
 
 @dataclass(frozen=True)
@@ -518,7 +448,7 @@ class Netlist:
         others (and the signal source) at zero (Ho, Ruehli & Brennan, IEEE Trans. CAS-22
         (1975) 504).
         """
-        m = self._solving_matrix()
+        m = self.matrix()
         count = len(self.ripple)
         b = np.zeros((*m.shape[:-1], count + 1), dtype=complex)
         for r, source in enumerate(self.ripple):
@@ -538,20 +468,19 @@ class Netlist:
         return np.broadcast_to(density, np.broadcast_shapes(density.shape, self.frequency.shape))
 
     # --- assembly and solution ------------------------------------------------------
-    def matrix(self) -> Complex:
-        """The stamped MNA matrix, shape ``batch + (F, N, N)`` (a new array)."""
-        entries = self._entries()
+    def matrix(self, without_controls_of: str | None = None) -> Complex:
+        """The stamped MNA matrix, shape ``batch + (F, N, N)`` (a new array);
+        ``without_controls_of`` leaves that controlled source's controls out
+        (`return_ratio`).
+
+        Laid out entry-major, (N, N) + batch, so that each entry's write is one contiguous
+        pass, and handed back as the batch-major view numpy's solve takes (its solve copies
+        each matrix into its own buffer either way)."""
+        entries = self._entries(without_controls_of)
         n = self.size
         m = np.zeros((n, n, *entries.shape), dtype=complex)
         entries.write(m)
         return np.moveaxis(m, (0, 1), (-2, -1))
-
-    def _solving_matrix(self, without_controls_of: str | None = None) -> Complex:
-        """The stamped matrix for a solve made at once: written into this thread's scratch
-        array of its shape (`_Scratch`), valid until the next call; ``without_controls_of``
-        leaves that controlled source's controls out (`return_ratio`)."""
-        entries = self._entries(without_controls_of)
-        return _SCRATCH.matrix(self.size, entries)
 
     def _entries(self, without_controls_of: str | None = None) -> _Entries:
         """The matrix's entries: one N x N matrix of the values that are the same over the
@@ -592,7 +521,7 @@ class Netlist:
 
     def solve(self, rhs: ArrayLike) -> Complex:
         """Solve the network for right-hand sides ``rhs`` of shape ``(..., N, K)``."""
-        m = self._solving_matrix()
+        m = self.matrix()
         b = np.asarray(rhs, dtype=complex)
         b = np.broadcast_to(b, (*m.shape[:-2], *b.shape[-2:]))
         return _solved(m, b)
@@ -613,7 +542,7 @@ class Netlist:
         A(s)(v+ - v-) in a negative-feedback loop, T = A beta at low frequency, and the
         closed-loop figures are their open-loop values over (1 + T).
         """
-        m = self._solving_matrix(without_controls_of=label)
+        m = self.matrix(without_controls_of=label)
         k = self.index(branch_ref(label))
         controls = next(c for name, _, c in self._branch_stamps if name == label)
         e = np.zeros(m.shape[:-1], dtype=complex)
@@ -645,7 +574,7 @@ class Netlist:
     def adjoint_transfers(self, output_nodes: Sequence[str]) -> list[tuple[Complex, list[Complex]]]:
         """`adjoint_transfer` to each of several nodes from one assembly of the matrix and
         one solve with a right-hand side per node (the same adjoint method)."""
-        m = self._solving_matrix()
+        m = self.matrix()
         e = np.zeros((*m.shape[:-1], len(output_nodes)), dtype=complex)
         for j, node in enumerate(output_nodes):
             e[..., self.nodes[node], j] = 1.0

@@ -243,31 +243,3 @@ def test_a_singular_network_is_an_input_error() -> None:
     assert isinstance(info.value, ChainError) and isinstance(info.value, ValueError)
     with pytest.raises(SingularNetwork):
         net.adjoint_transfer("a")
-
-
-def test_a_kept_matrix_array_leaves_no_entry_of_the_last_network() -> None:
-    """Solves reuse each thread's matrix array of a shape (`network._Scratch`): a dense
-    ladder solved, then a sparse one of the same size and batch, must give the sparse
-    one's own answer (its hand solution: a 1 V source on a divider of R1 and R2 gives
-    R2/(R1 + R2) at the tap), not one disturbed by the ladder's entries left behind."""
-    trials = np.linspace(1.0, 2.0, 5)[:, None]
-
-    def ladder(net: Netlist) -> None:
-        for a, b in (("in", "a"), ("a", "b"), ("b", "c"), ("c", "out")):
-            net.resistor(a, b, 1e3 * trials, label=f"r{a}{b}")
-            net.capacitor(b, GROUND, 1e-9 * trials)
-
-    dense = Netlist(FREQUENCY)
-    ladder(dense)
-    sparse = Netlist(FREQUENCY)
-    sparse.resistor("in", "out", 3e3 * trials, label="top")
-    sparse.resistor("out", GROUND, 1e3, label="bottom")
-    for name in ("a", "b", "c"):  # the same size: three nodes held by a resistor alone
-        sparse.resistor(name, GROUND, 1e3, label=f"hold{name}")
-    assert sparse.size == dense.size
-    _driven(dense)
-    x = _driven(sparse)
-    expected = 1e3 / (1e3 + 3e3 * trials)
-    np.testing.assert_allclose(_node(sparse, x, "out"), np.broadcast_to(expected, (5, 61)))
-    # and the kept array holds exactly what a new one does
-    np.testing.assert_array_equal(sparse._solving_matrix(), sparse.matrix())

@@ -41,7 +41,7 @@ from chainbudget.cascade import cascade as join_cascade
 from chainbudget.chainfile import Chain
 from chainbudget.findings import SUPERSEDES
 from chainbudget.loudspeaker import is_reactive, load_impedance
-from chainbudget.network import SingularNetwork, keeping_matrices
+from chainbudget.network import SingularNetwork
 from chainbudget.outputmath import damping_factor, sine_power, spl_at_1m
 from chainbudget.source_network import source_impedance
 from chainbudget.spread.dc import dc_figures, walked
@@ -130,21 +130,15 @@ class Evaluator:
         (`chainbudget.spread.flags`)."""
         size = self.chunk_trials
         if positions.shape[0] <= size:
-            found = self._kept_batch(positions)
+            found = self._batch(positions)
         else:
             batches = [positions[i : i + size] for i in range(0, len(positions), size)]
             # numpy's batched solves and array arithmetic release the GIL: the chunks run
             # on the machine's cores side by side (each chunk is independent; order kept)
             with ThreadPoolExecutor(max_workers=WORKERS) as pool:
-                pieces = list(pool.map(self._kept_batch, batches))
+                pieces = list(pool.map(self._batch, batches))
             found = {path: np.concatenate([p[path] for p in pieces]) for path in pieces[0]}
         return found if flags else {p: v for p, v in found.items() if not is_flag(p)}
-
-    def _kept_batch(self, positions: NDArray[np.float64]) -> Figures:
-        """`_batch`, each solve's matrix array kept for the next batch in this thread (a
-        thread solves the same netlists batch after batch: `network.keeping_matrices`)."""
-        with keeping_matrices():
-            return self._batch(positions)
 
     def _batch(self, positions: NDArray[np.float64]) -> Figures:
         """Every spread figure for one batch of trials (one solve of each kind)."""
