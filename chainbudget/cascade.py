@@ -22,7 +22,7 @@ the same solution (`SectionSolution`).
 
 from __future__ import annotations
 
-from collections.abc import Hashable, Iterator, Mapping, Sequence
+from collections.abc import Callable, Hashable, Iterator, Mapping, Sequence
 from contextlib import contextmanager
 from contextvars import ContextVar
 from dataclasses import dataclass, field, replace
@@ -341,27 +341,27 @@ class Joins:
 
     def __init__(self) -> None:
         # the key objects are held with the result, so their identities stay theirs
-        self._found: dict[tuple[str, int, int], tuple[object, object, Complex]] = {}
+        self._found: dict[tuple[str, int, int], tuple[tuple[object, ...], Complex]] = {}
 
-    def of(self, what: str, port: TwoPort, termination: Complex) -> Complex:
-        key = (what, id(port), id(termination))
+    def _kept(
+        self, key: tuple[str, int, int], holders: tuple[object, ...], work: Callable[[], Complex]
+    ) -> Complex:
         found = self._found.get(key)
         if found is None:
-            value = getattr(port, what)(termination)
-            found = (port, termination, value)
+            found = (holders, work())
             self._found[key] = found
-        return found[2]
+        return found[1]
+
+    def of(self, what: str, port: TwoPort, termination: Complex) -> Complex:
+        """``port``'s ``what`` (a `TwoPort` method's name) under ``termination``."""
+        key = (what, id(port), id(termination))
+        return self._kept(key, (port, termination), lambda: _uncached(what, port, termination))
 
     def end(self, what: str, impedance: ArrayLike) -> Complex:
         """The chain's source impedance (``what`` "source") or its load's admittance
         ("load") as an array, the same array for the same end."""
-        key = (what, id(impedance), 0)
-        found = self._found.get(key)
-        if found is None:
-            value = _admittance(impedance) if what == "load" else _complex(impedance)
-            found = (impedance, None, value)
-            self._found[key] = found
-        return found[2]
+        convert = _admittance if what == "load" else _complex
+        return self._kept((what, id(impedance), 0), (impedance,), lambda: convert(impedance))
 
 
 def _admittance(impedance: ArrayLike) -> Complex:

@@ -64,26 +64,6 @@ def _solved(m: Complex, b: Complex) -> Complex:
 
 
 @dataclass(frozen=True)
-class _Entries:
-    """A stamped matrix before it is laid out: its batch ``shape``, the N x N ``fixed``
-    values (the same over the whole batch) and the ``varying`` entries' arrays, by (row,
-    column), each broadcasting against ``shape`` (its fixed value is added to it)."""
-
-    shape: tuple[int, ...]
-    fixed: NDArray[np.complex128]
-    varying: dict[tuple[int, int], Any]
-
-    def write(self, m: NDArray[np.complex128]) -> None:
-        """Write every entry that is not zero into ``m``, laid out entry-major, (N, N) +
-        batch, whose other entries are zero."""
-        for r, c in zip(*np.nonzero(self.fixed), strict=True):
-            if (r, c) not in self.varying:
-                m[r, c] = self.fixed[r, c]
-        for (r, c), value in self.varying.items():
-            m[r, c] = self.fixed[r, c] + value
-
-
-@dataclass(frozen=True)
 class Ref:
     """An unknown of the MNA system: a node voltage or a branch current, by name.
 
@@ -469,23 +449,8 @@ class Netlist:
 
     # --- assembly and solution ------------------------------------------------------
     def matrix(self, without_controls_of: str | None = None) -> Complex:
-        """The stamped MNA matrix, shape ``batch + (F, N, N)`` (a new array);
-        ``without_controls_of`` leaves that controlled source's controls out
-        (`return_ratio`).
-
-        Laid out entry-major, (N, N) + batch, so that each entry's write is one contiguous
-        pass, and handed back as the batch-major view numpy's solve takes (its solve copies
-        each matrix into its own buffer either way)."""
-        entries = self._entries(without_controls_of)
-        n = self.size
-        m = np.zeros((n, n, *entries.shape), dtype=complex)
-        entries.write(m)
-        return np.moveaxis(m, (0, 1), (-2, -1))
-
-    def _entries(self, without_controls_of: str | None = None) -> _Entries:
-        """The matrix's entries: one N x N matrix of the values that are the same over the
-        whole batch and, per entry whose value varies (over frequency, controls or trials),
-        its array."""
+        """The stamped MNA matrix, shape ``batch + (F, N, N)``; ``without_controls_of``
+        leaves that controlled source's controls out (`return_ratio`)."""
         f_shape = self.frequency.shape
         values = [st.value for st in self._stamps]
         values += [c for _, _, coefficients in self._branch_stamps for _, c in coefficients]
@@ -517,7 +482,17 @@ class Netlist:
             for name, coefficient in coefficients:
                 if name != GROUND:
                     add(k, self.nodes[name], coefficient)
-        return _Entries(shape, fixed, varying)
+        # Laid out entry-major, (N, N) + batch, so that each entry's write is one contiguous
+        # pass over the batch (an MNA matrix is mostly zeros: only the others are written),
+        # and handed back as the batch-major view numpy's solve takes (its solve copies each
+        # matrix into its own buffer either way).
+        m = np.zeros((n, n, *shape), dtype=complex)
+        for r, c in zip(*np.nonzero(fixed), strict=True):
+            if (r, c) not in varying:
+                m[r, c] = fixed[r, c]
+        for (r, c), value in varying.items():
+            m[r, c] = fixed[r, c] + value
+        return np.moveaxis(m, (0, 1), (-2, -1))
 
     def solve(self, rhs: ArrayLike) -> Complex:
         """Solve the network for right-hand sides ``rhs`` of shape ``(..., N, K)``."""
