@@ -186,11 +186,13 @@ def solve_stage(
     env: Environment,
     frequency: NDArray[np.float64],
     positions: Mapping[str, ArrayLike],
+    points: NDArray[np.intp] | None = None,
 ) -> StageSolution:
     """Build a stage's network alone and reduce it to a two-port with its probes (once per
-    `solving_once` block for the same inputs)."""
+    `solving_once` block for the same inputs); ``points`` as `Netlist` takes them (solved
+    at those frequency indices only; such a solve is not kept)."""
     kind = KINDS[stage.kind]
-    solved = _SOLVED.get()
+    solved = None if points is not None else _SOLVED.get()
     key = network = None
     if solved is not None:
         key = _solve_key(stage, env, frequency, positions)
@@ -199,7 +201,7 @@ def solve_stage(
         network = key
         if key is not None and not kind.network_uses_rails:
             network = _solve_key(stage, replace(env, rails=None), frequency, positions)
-    net = Netlist(frequency)
+    net = Netlist(frequency, points)
     built = kind.build(net, stage, env, "in", "out", positions)
     port = None if solved is None else solved.ports.get(network)
     if port is None:
@@ -266,8 +268,10 @@ def solve_section(
     section: Section,
     *,
     idle: bool = False,
+    points: NDArray[np.intp] | None = None,
 ) -> SectionSolution:
-    """Build a section as one network and reduce it to a two-port.
+    """Build a section as one network and reduce it to a two-port (``points``: solved at
+    those frequency indices only, as `Netlist` takes them).
 
     Notes
     -----
@@ -281,9 +285,9 @@ def solve_section(
     if not section.is_loop:
         k = section.first
         env = replace(envs[k], idle=True) if idle else envs[k]
-        sol = solve_stage(stages[k], env, frequency, positions[k])
+        sol = solve_stage(stages[k], env, frequency, positions[k], points)
         return SectionSolution(section, sol.two_port, (sol,))
-    net = Netlist(frequency)
+    net = Netlist(frequency, points)
     builts = stamp_section(net, stages, envs, positions, section, "in", "out", idle=idle)
     inner = list(section.indices)[:-1]
     k1 = net.index(net.voltage_source("in", GROUND, label="port.in"))

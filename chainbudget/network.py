@@ -63,6 +63,18 @@ def _solved(m: Complex, b: Complex) -> Complex:
         ) from None
 
 
+def _on_points(size: int, at: NDArray[np.intp] | None) -> Any:
+    """A function giving an element value at the frequency indices ``at`` (a value on the
+    frequency axis of ``size`` points; one constant over it, as it is)."""
+
+    def pick(value: Any) -> Any:
+        if at is None or np.ndim(value) == 0 or np.shape(value)[-1] != size:
+            return value
+        return np.asarray(value)[..., at]
+
+    return pick
+
+
 @dataclass(frozen=True)
 class Ref:
     """An unknown of the MNA system: a node voltage or a branch current, by name.
@@ -158,9 +170,15 @@ class Netlist:
     ----------
     frequency : array_like
         Frequencies, Hz, shape ``(F,)``.
+    points : array of int, optional
+        Where on the frequency axis `solve` is needed (ascending indices, the first 0):
+        the matrix is assembled and solved there only, and every other point takes the
+        solution at index 0 (a placeholder the caller masks out; the spread's held
+        settings, `chainbudget.spread.settings`). None: every point.
     """
 
     frequency: NDArray[np.float64]
+    points: NDArray[np.intp] | None = None
     nodes: dict[str, int] = field(default_factory=dict)
     branches: dict[str, int] = field(default_factory=dict)
     noise: list[NoiseSource] = field(default_factory=list)
@@ -448,12 +466,18 @@ class Netlist:
         return np.broadcast_to(density, np.broadcast_shapes(density.shape, self.frequency.shape))
 
     # --- assembly and solution ------------------------------------------------------
-    def matrix(self, without_controls_of: str | None = None) -> Complex:
+    def matrix(
+        self, without_controls_of: str | None = None, at: NDArray[np.intp] | None = None
+    ) -> Complex:
         """The stamped MNA matrix, shape ``batch + (F, N, N)``; ``without_controls_of``
-        leaves that controlled source's controls out (`return_ratio`)."""
+        leaves that controlled source's controls out (`return_ratio`); ``at`` assembles it
+        at those indices of the frequency axis only (``batch + (len(at), N, N)``)."""
         f_shape = self.frequency.shape
-        values = [st.value for st in self._stamps]
-        values += [c for _, _, coefficients in self._branch_stamps for _, c in coefficients]
+        pick = _on_points(f_shape[-1], at)
+        values = [pick(st.value) for st in self._stamps]
+        values += [pick(c) for _, _, coefficients in self._branch_stamps for _, c in coefficients]
+        if at is not None:
+            f_shape = (len(at),)
         shape = np.broadcast_shapes(f_shape, *(np.shape(v) for v in values))
         n = self.size
         fixed = np.zeros((n, n), dtype=complex)
@@ -467,19 +491,22 @@ class Netlist:
             else:
                 varying[(r, c)] = varying.get((r, c), 0.0) + value
 
+        stamp_values = iter(values)
         for st in self._stamps:
+            value = next(stamp_values)
             for r, c, sign in zip(st.rows, st.cols, st.signs, strict=True):
                 if r >= 0 and c >= 0:
-                    add(r, c, sign * st.value)
+                    add(r, c, sign * value)
         for label, controls, coefficients in self._branch_stamps:
             k = self.index(branch_ref(label))
             for name, sign in controls:
                 if name != GROUND:
                     fixed[self.nodes[name], k] += sign
                     fixed[k, self.nodes[name]] += sign
+            picked = [(name, next(stamp_values)) for name, _ in coefficients]
             if label == without_controls_of:
                 continue
-            for name, coefficient in coefficients:
+            for name, coefficient in picked:
                 if name != GROUND:
                     add(k, self.nodes[name], coefficient)
         # Laid out entry-major, (N, N) + batch, so that each entry's write is one contiguous
@@ -495,11 +522,18 @@ class Netlist:
         return np.moveaxis(m, (0, 1), (-2, -1))
 
     def solve(self, rhs: ArrayLike) -> Complex:
-        """Solve the network for right-hand sides ``rhs`` of shape ``(..., N, K)``."""
-        m = self.matrix()
+        """Solve the network for right-hand sides ``rhs`` of shape ``(..., N, K)``; with
+        ``points``, at those frequencies only, every other point holding the solution at
+        the axis' first."""
+        m = self.matrix(at=self.points)
         b = np.asarray(rhs, dtype=complex)
         b = np.broadcast_to(b, (*m.shape[:-2], *b.shape[-2:]))
-        return _solved(m, b)
+        x = _solved(m, b)
+        if self.points is None:
+            return x
+        spread = np.zeros(self.frequency.shape[-1], dtype=np.intp)
+        spread[self.points] = np.arange(len(self.points))
+        return np.take(x, spread, axis=-3)
 
     def return_ratio(self, label: str) -> Complex:
         """Bode's return ratio of the controlled source ``label`` (a `vcvs` or `opamp`).

@@ -123,6 +123,30 @@ def test_batch_axes_broadcast_with_frequency() -> None:
             np.testing.assert_allclose(out[i, j], _freqs([1.0], [r * c, 1.0]), rtol=1e-7)
 
 
+def test_solving_at_some_points_gives_those_points_exactly() -> None:
+    """``Netlist(points=...)`` assembles and solves at those frequency indices only: there
+    the node voltages equal the closed form, every other point holds the first point's
+    solution (the placeholder the spread masks out). The network: a VCVS whose gain is on
+    the frequency axis, g(f) = 1/(1 + j f/f0), driving an RC low-pass whose resistor is
+    batched, so H = g(f)/(1 + s R C) (scipy.signal.freqs for the RC, the pole by hand);
+    rtol 1e-7."""
+    resistors = np.array([1e3, 47e3])
+    c, f0 = 15.9e-9, 3e3
+    gain = 1.0 / (1.0 + 1j * FREQUENCY / f0)
+    points = np.array([0, 7, 30, 60])
+    net = Netlist(FREQUENCY, points)
+    net.vcvs("in", GROUND, "buf", gain, label="e")
+    net.resistor("buf", "out", resistors[:, None], label="r")
+    net.capacitor("out", GROUND, c)
+    out = _node(net, _driven(net), "out")
+    assert out.shape == (2, FREQUENCY.size)
+    for i, r in enumerate(resistors):
+        expected = gain * _freqs([1.0], [r * c, 1.0])
+        np.testing.assert_allclose(out[i, points], expected[points], rtol=1e-7)
+        others = np.setdiff1d(np.arange(FREQUENCY.size), points)
+        np.testing.assert_array_equal(out[i, others], out[i, 0])
+
+
 def test_series_and_shunt_two_ports_have_textbook_chain_parameters() -> None:
     """Series impedance Z: [[1, Z], [0, 1]]; shunt admittance Y: [[1, 0], [Y, 1]]
     (Pozar, Microwave Engineering, 4th ed., Table 4.1); atol 1e-9 relative to scale."""

@@ -50,3 +50,40 @@ def test_worst_headroom_of_each_trial_is_the_checks_worst_over_every_rotation() 
             held = _json_figure(data, path)
             assert batched[path][t] == pytest.approx(held, rel=1e-9, abs=1e-12), (path, t)
     assert 0 < moved < len(positions)
+
+
+@pytest.mark.parametrize("chain_file", ["kitchen_radio_mains.toml", "busking_amp.toml", None])
+def test_held_settings_solved_at_their_points_only_change_no_figure(chain_file: str | None) -> None:
+    """The held settings are solved only at the frequency points within `PRUNE_DB` of a
+    node's worst (or of an op-amp's largest current): every figure of 40 trials equals
+    the one with every held setting solved on the whole axis, to the bit where the same
+    matrices are solved (rtol 1e-12); and the pruning does leave points out. An
+    independent brute force of the same claim: the whole-axis solve is the plain one."""
+    from dataclasses import replace
+    from pathlib import Path
+
+    from chainbudget.budget import compute
+    from chainbudget.budget.analysis import frequency_axis
+    from chainbudget.budget.supplies import settle
+    from chainbudget.chainfile import load_chain
+    from chainbudget.spread.evaluate import Evaluator
+    from chainbudget.spread.parts import chain_parts
+
+    if chain_file is None:
+        chain = _chain(TWO_BOOSTS)
+    else:
+        chain = load_chain(Path(__file__).resolve().parents[1] / "chains" / chain_file)
+    parts, _ = chain_parts(chain)
+    voltages = settle(chain, "low").voltages
+    pruned = Evaluator(chain, tuple(parts), compute(chain), voltages)
+    whole = Evaluator(chain, tuple(parts), pruned.nominal, voltages)
+    settings = pruned.settings
+    size = frequency_axis(chain).size
+    assert settings.row_points
+    assert sum(len(p) for p in settings.row_points) < len(settings.rows) * size
+    whole.__dict__["settings"] = replace(settings, row_points=())  # the cached property
+    positions = np.random.default_rng(5).random((40, len(parts)))
+    got, expected = pruned(positions, flags=True), whole(positions, flags=True)
+    assert got.keys() == expected.keys()
+    for path, values in expected.items():
+        np.testing.assert_allclose(got[path], values, rtol=1e-12, atol=0, err_msg=path)

@@ -40,6 +40,7 @@ from chainbudget.cascade import Cascade, Joins, sections, solve_section
 from chainbudget.cascade import cascade as join_cascade
 from chainbudget.chainfile import Chain
 from chainbudget.findings import SUPERSEDES
+from chainbudget.loops import Section
 from chainbudget.loudspeaker import is_reactive, load_impedance
 from chainbudget.network import SingularNetwork
 from chainbudget.outputmath import damping_factor, sine_power, spl_at_1m
@@ -355,7 +356,9 @@ def _solve_as_set_and_held(
 ) -> tuple[Cascade, list[Cascade]]:
     """The chain solved with the controls as set, and at each held setting. A section
     (a stage, or a loop solved as one network) is solved once for each distinct setting
-    of its own controls and serves every cascade that has it."""
+    of its own controls and serves every cascade that has it; at a held setting, only at
+    the points some row with that setting looks at (`HeldSettings.row_points`: elsewhere
+    the held cascades carry placeholders, which the figures mask out)."""
     as_set_positions = positions_as_set(chain.stages)
     source = source_impedance(chain.source, frequency)
     load = load_impedance(chain.load, frequency)
@@ -363,12 +366,30 @@ def _solve_as_set_and_held(
     solved: dict[tuple[int, tuple[object, ...]], Any] = {}
     joins = Joins()  # the settings share most sections: their terminations, once
 
+    def key_of(unit: Section, positions: list[dict[str, float]]) -> tuple[int, tuple[object, ...]]:
+        return (unit.first, tuple(tuple(sorted(positions[k].items())) for k in unit.indices))
+
+    held_positions = [settings.positions(chain, row) for row in range(len(settings.rows))]
+    # each moved section's points: those of every row that has its setting
+    wanted: dict[tuple[int, tuple[object, ...]], set[int]] = {}
+    if settings.row_points:
+        for row, positions in enumerate(held_positions):
+            for unit in units:
+                points = settings.row_points[row]
+                wanted.setdefault(key_of(unit, positions), set()).update(points.tolist())
+    for unit in units:  # the settings as set: solved on the whole axis
+        wanted.pop(key_of(unit, as_set_positions), None)
+
     def solve(positions: list[dict[str, float]]) -> Cascade:
         found = []
         for unit in units:
-            key = (unit.first, tuple(tuple(sorted(positions[k].items())) for k in unit.indices))
+            key = key_of(unit, positions)
             if key not in solved:
-                solved[key] = solve_section(chain.stages, envs, frequency, positions, unit)
+                at = wanted.get(key)
+                points = None if at is None else np.array(sorted(at), dtype=np.intp)
+                solved[key] = solve_section(
+                    chain.stages, envs, frequency, positions, unit, points=points
+                )
             found.append(solved[key])
         return join_cascade(found, source, load, joins)
 
@@ -377,7 +398,7 @@ def _solve_as_set_and_held(
     except SingularNetwork:  # the check's message, naming the stage
         solve_chain(chain, envs, frequency, as_set_positions)
         raise
-    return as_set, [solve(settings.positions(chain, row)) for row in range(len(settings.rows))]
+    return as_set, [solve(positions) for positions in held_positions]
 
 
 def _at_row(array: Any, trials: int) -> NDArray[Any]:
@@ -400,7 +421,10 @@ def _band_figures(
         for row, _ in settings.node_rows[k]:
             clip = clip_source_peak(as_set if row is None else held[row], k)
             assert clip is not None
-            peaks.append(_at_row(clip[0], trials))
+            peak = _at_row(clip[0], trials)
+            if row is not None:  # the points the row is not solved at: none to search
+                peak = np.where(settings.solved_at(row, peak.shape[-1]), peak, np.inf)
+            peaks.append(peak)
         distance = np.array([d for _, d in settings.node_rows[k]])
         worst = worst_of_candidates(np.stack(peaks, axis=1), distance)
         figures[f"nodes.{sol.stage.name}.worst_headroom_db"] = _trials(db(worst / max_peak), trials)

@@ -13,7 +13,10 @@ combination) and takes the least over them and the band, with the check's tie-br
 (`worst_of_candidates`). Exact wherever a trial's worst point lies at one of those
 settings (a tone control's worst is a boost at an end stop, and tolerances move it from
 one boost to another); otherwise the spread figure is at most the check's margin above
-it.
+it. A candidate is solved only at the frequency points where its clip level at the
+nominal parts lies within `PRUNE_DB` of the node's worst (`HeldSettings.row_points`: a
+boost's few points near its shelf, not the whole band), for the same reason a candidate
+further above is dropped; an op-amp's current setting is solved on the whole axis.
 """
 
 from __future__ import annotations
@@ -45,10 +48,12 @@ from chainbudget.supplies.base import Corners
 # Candidate settings per node from the product of each control's few values at most
 # (each distinct setting of a section is one more batched solve of it per chunk).
 MAX_PRODUCT = 256
-# Candidates whose least clip level at the nominal parts lies more than this above the
-# node's worst are not searched (dB): tolerances of a few per cent move a boost's clip
-# level by a fraction of that.
-PRUNE_DB = 3.0
+# Candidates, and points of them, whose clip level at the nominal parts lies more than
+# this above the node's worst are not searched (dB): the parts' tolerances move a node's
+# worst by a fraction of that (the bench amplifier's driver, with 20 % pots, by about
+# +/-1 dB over its trials; a point 1.4 dB above its nominal worst was its worst in one
+# trial of 40, so the margin is kept at four times that).
+PRUNE_DB = 6.0
 
 
 @dataclass(frozen=True)
@@ -71,6 +76,18 @@ class HeldSettings:
     #: Each op-amp's (stage index, label) setting of its largest output current over the
     #: band in the nominal check (`chainbudget.budget.power.opamp_drives`; None: as set).
     current_rows: dict[tuple[int, str], int | None] = field(default_factory=dict)
+    #: Each row's frequency indices where some figure looks (ascending, the reference 0
+    #: first): a node's candidate at the points within `PRUNE_DB` of the node's worst, an
+    #: op-amp's current setting on the whole axis, the volume row at the reference. The
+    #: rows are solved there only (`chainbudget.network.Netlist`'s ``points``); empty:
+    #: every row on the whole axis.
+    row_points: tuple[NDArray[np.intp], ...] = ()
+
+    def solved_at(self, row: int, size: int) -> NDArray[np.bool_]:
+        """Which of the ``size`` frequency points row ``row`` is solved at."""
+        mask = np.zeros(size, dtype=bool)
+        mask[self.row_points[row] if self.row_points else slice(None)] = True
+        return mask
 
     @property
     def stages(self) -> frozenset[int]:
@@ -114,11 +131,17 @@ def held_settings(chain: Chain, voltages: Mapping[str, Corners]) -> HeldSettings
             solved[row] = solve_chain(chain, analysis.envs, analysis.frequency, positions)
         return solved[row]
 
-    def row_of(row: tuple[float, ...]) -> int | None:
+    # each row's points where some figure looks (the reference always)
+    points: dict[tuple[float, ...], set[int]] = {}
+
+    def row_of(row: tuple[float, ...], looks: NDArray[np.bool_] | None = None) -> int | None:
         if row == base:
             return None
         if row not in rows:
             rows.append(row)
+        found = points.setdefault(row, {0})
+        if looks is not None:
+            found.update(int(i) for i in np.flatnonzero(looks))
         return rows.index(row)
 
     for k in range(len(chain.stages)):
@@ -136,30 +159,34 @@ def held_settings(chain: Chain, voltages: Mapping[str, Corners]) -> HeldSettings
             for sc in swept:
                 row[sc.axis] = float(sc.rotations[rotations[sc.axis]])
                 distance += abs(row[sc.axis] - sc.control.position)
-            least = float(np.min(clip_source_peak(nominal_at(tuple(row)), k)[0]))  # type: ignore[index]
-            tried.append((tuple(row), distance, least, rotations == worst))
-        # a setting whose least clip level at the nominal parts lies more than PRUNE_DB
-        # above the node's worst is left out: no trial's parts move it that far
-        floor = min(least for _, _, least, _ in tried) * 10.0 ** (PRUNE_DB / 20.0)
+            peak = np.asarray(clip_source_peak(nominal_at(tuple(row)), k)[0])  # type: ignore[index]
+            tried.append((tuple(row), distance, peak, rotations == worst))
+        # a setting, or a point of it, whose clip level at the nominal parts lies more than
+        # PRUNE_DB above the node's worst is left out: no trial's parts move it that far
+        floor = min(float(np.min(peak)) for _, _, peak, _ in tried) * 10.0 ** (PRUNE_DB / 20.0)
         node_rows[k] = tuple(
-            (row_of(row), distance)
-            for row, distance, least, is_worst in tried
-            if is_worst or least <= floor
+            (row_of(row, peak <= floor), distance)
+            for row, distance, peak, is_worst in tried
+            if is_worst or float(np.min(peak)) <= floor
         )
     current_rows: dict[tuple[int, str], int | None] = {}
     for (k, label), rotations in opamp_current_settings(analysis).items():
         row = list(base)
         for sc in swept:
             row[sc.axis] = float(sc.rotations[rotations[sc.axis]])
-        current_rows[(k, label)] = row_of(tuple(row))
+        # on the whole axis: an op-amp's current over the band can move by more than
+        # PRUNE_DB with the parts (with an ideal op-amp it is the small difference of two
+        # large terms), so no point of it is left out
+        current_rows[(k, label)] = row_of(tuple(row), np.ones(analysis.frequency.size, bool))
     volume_row = None
     if volume is not None:
         row = list(base)
         row[keys.index((volume, "position"))] = 1.0
-        volume_row = row_of(tuple(row))
+        volume_row = row_of(tuple(row))  # the output power: at the reference only
     if not rows:
         keys = []
-    return HeldSettings(tuple(keys), tuple(rows), node_rows, volume_row, current_rows)
+    row_points = tuple(np.array(sorted(points[row]), dtype=np.intp) for row in rows)
+    return HeldSettings(tuple(keys), tuple(rows), node_rows, volume_row, current_rows, row_points)
 
 
 def opamp_current_settings(analysis: Analysis) -> dict[tuple[int, str], tuple[int, ...]]:
