@@ -23,10 +23,10 @@ The node figures and the level rules mirror `chainbudget.budget.levels.node_leve
 from __future__ import annotations
 
 import os
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, replace
-from functools import cached_property
+from functools import cache, cached_property, partial
 from typing import Any, cast
 
 import numpy as np
@@ -73,8 +73,29 @@ Figures = dict[str, NDArray[np.float64]]
 # Trial-frequency points per batched solve: each point is one stage matrix (n x n complex,
 # n up to 16 in the examples), so a batch's matrices take at most about 70 MB.
 CHUNK_POINTS = 1 << 14
+# The steps of `Evaluator._batch` after the supplies and the DC walk, in order: each gives
+# a family of figures, and a corner row asks for the one its figure comes from.
+STEPS = frozenset(
+    (
+        "reference",
+        "band",
+        "output",
+        "noise",
+        "hum",
+        "loops",
+        "closed_loops",
+        "crossover",
+        "thd",
+        "drive",
+        "heat",
+    )
+)
 # Chunks solved at once (threads; memory grows with them).
 WORKERS = max(1, min(4, os.cpu_count() or 1))
+
+
+# No held settings: the controls as set only (a step that reads no held setting).
+_NO_HELD = HeldSettings((), (), {}, None)
 
 
 @dataclass(frozen=True)
@@ -125,24 +146,35 @@ class Evaluator:
         that memory stays bounded however fine the chain's grid is."""
         return max(1, CHUNK_POINTS // frequency_axis(self.chain).size)
 
-    def __call__(self, positions: NDArray[np.float64], flags: bool = False) -> Figures:
+    def __call__(
+        self,
+        positions: NDArray[np.float64],
+        flags: bool = False,
+        steps: frozenset[str] | None = None,
+    ) -> Figures:
         """Every spread figure, shape (T,), for part positions of shape (T, n), solved
         `chunk_trials` at a time; with ``flags``, the per-trial rule flags beside them
-        (`chainbudget.spread.flags`)."""
+        (`chainbudget.spread.flags`); with ``steps``, those `_batch` names only."""
         size = self.chunk_trials
+        batch = partial(self._batch, steps=steps)
         if positions.shape[0] <= size:
-            found = self._batch(positions)
+            found = batch(positions)
         else:
             batches = [positions[i : i + size] for i in range(0, len(positions), size)]
             # numpy's batched solves and array arithmetic release the GIL: the chunks run
             # on the machine's cores side by side (each chunk is independent; order kept)
             with ThreadPoolExecutor(max_workers=WORKERS) as pool:
-                pieces = list(pool.map(self._batch, batches))
+                pieces = list(pool.map(batch, batches))
             found = {path: np.concatenate([p[path] for p in pieces]) for path in pieces[0]}
         return found if flags else {p: v for p, v in found.items() if not is_flag(p)}
 
-    def _batch(self, positions: NDArray[np.float64]) -> Figures:
-        """Every spread figure for one batch of trials (one solve of each kind)."""
+    def _batch(
+        self, positions: NDArray[np.float64], steps: frozenset[str] | None = None
+    ) -> Figures:
+        """Every spread figure for one batch of trials (one solve of each kind); with
+        ``steps``, the supplies' and DC figures and those of the `STEPS` named only (the
+        others' solves left out: `steps_of` says which step gives a figure). Only
+        ``{"supplies"}``: the supplies' figures alone."""
         trials = positions.shape[0]
         values = self.values(positions)
         figures: Figures = {}
@@ -187,6 +219,8 @@ class Evaluator:
                 rail = lows[supply.name].reshape(trials, 1)
                 # an array rail: `chainbudget.budget.rails.stage_rails` keeps it one
                 voltages[supply.name] = replace(voltages[supply.name], low=cast(float, rail))
+        if steps is not None and steps <= {"supplies"}:
+            return figures
         chain = self.chain
         betas: dict[int, list[tuple[str, NDArray[np.float64]]]] = {}
         for part, value in zip(self.parts, values, strict=True):
@@ -209,26 +243,67 @@ class Evaluator:
         figures.update(dc_figures(chain, envs, points, trials, offset))
         frequency = frequency_axis(self.chain)
         settings = self.settings
-        as_set, held = _solve_as_set_and_held(chain, tuple(envs), frequency, settings)
-        figures.update(_reference_figures(self.chain, as_set, trials))
-        figures.update(_band_figures(self.chain, held, as_set, settings, trials))
-        output = self.nominal.output
-        damping_held = output is not None and bool(np.isfinite(output.damping_factor))
-        figures.update(_output_figures(self.chain, held, as_set, settings, trials, damping_held))
-        noise = output_noise(chain, tuple(envs), frequency, as_set, trials, self.nominal)
-        figures.update(noise)
-        figures.update(
-            hum_figures(chain, envs, self.nominal, noise, trials, ripples, self.hum_remedies)
+        nominal = self.nominal
+        wanted = STEPS if steps is None else steps
+        # each solve once, and only for the steps asked for (a corner row asks for one)
+        with_held = bool(wanted & {"band", "output", "drive"})
+        cascades = cache(
+            lambda: _solve_as_set_and_held(
+                chain, tuple(envs), frequency, settings if with_held else _NO_HELD
+            )
         )
-        figures.update(loop_figures(chain, envs, self.nominal, trials))
-        idle = idle_cascade(chain, envs) if needs_idle(self.nominal) else None
-        figures.update(closed_loop_figures(chain, as_set, idle, self.nominal, trials))
-        figures.update(crossover_idle_figures(as_set, idle, self.nominal, trials))
-        figures.update(thd_figures(chain, envs, as_set, self.nominal, trials))
-        hot_envs = self._hot_envs(chain, betas)
-        figures.update(drive_figures(chain, as_set, held, settings, envs, hot_envs, trials))
-        figures.update(heat_figures(chain, envs, hot_envs, trials))
+
+        def as_set() -> Cascade:
+            return cascades()[0]
+
+        def held() -> list[Cascade]:
+            return cascades()[1]
+
+        noise = cache(
+            lambda: output_noise(chain, tuple(envs), frequency, as_set(), trials, nominal)
+        )
+        idle = cache(lambda: idle_cascade(chain, envs) if needs_idle(nominal) else None)
+        hot_envs = cache(lambda: self._hot_envs(chain, betas))
+        output = nominal.output
+        damping_held = output is not None and bool(np.isfinite(output.damping_factor))
+        step_figures: dict[str, Callable[[], Figures]] = {
+            "reference": lambda: _reference_figures(self.chain, as_set(), trials),
+            "band": lambda: _band_figures(self.chain, held(), as_set(), settings, trials),
+            "output": lambda: _output_figures(
+                self.chain, held(), as_set(), settings, trials, damping_held
+            ),
+            "noise": noise,
+            "hum": lambda: hum_figures(
+                chain, envs, nominal, noise(), trials, ripples, self.hum_remedies
+            ),
+            "loops": lambda: loop_figures(chain, envs, nominal, trials),
+            "closed_loops": lambda: closed_loop_figures(chain, as_set(), idle(), nominal, trials),
+            "crossover": lambda: crossover_idle_figures(as_set(), idle(), nominal, trials),
+            "thd": lambda: thd_figures(chain, envs, as_set(), nominal, trials),
+            "drive": lambda: drive_figures(
+                chain, as_set(), held(), settings, envs, hot_envs(), trials
+            ),
+            "heat": lambda: heat_figures(chain, envs, hot_envs(), trials),
+        }
+        for step, work in step_figures.items():
+            if step in wanted:
+                figures.update(work())
         return figures
+
+    @cached_property
+    def steps_of(self) -> dict[str, str]:
+        """The step of `_batch` that works out each figure (``supplies``, ``dc``, or one of
+        `STEPS`), from one evaluation at the nominal parts."""
+        centre = np.full((1, len(self.parts)), 0.5)
+        found: dict[str, str] = {}
+        seen: set[str] = set()
+        for step in ("supplies", "dc", *STEPS):
+            got = self._batch(centre, frozenset((step,)))
+            for path in got:
+                if path not in seen:
+                    found[path] = step
+                    seen.add(path)
+        return found
 
     def _parent_ripple(
         self, parent: str | None, ripples: Mapping[str, RippleSpread]
