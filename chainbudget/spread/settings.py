@@ -16,7 +16,7 @@ one boost to another); otherwise the spread figure is at most the check's margin
 it. A candidate is solved only at the frequency points where its clip level at the
 nominal parts lies within `PRUNE_DB` of the node's worst (`HeldSettings.row_points`: a
 boost's few points near its shelf, not the whole band), for the same reason a candidate
-further above is dropped; an op-amp's current setting is solved on the whole axis.
+further above is dropped; an op-amp's current setting likewise near its largest current.
 """
 
 from __future__ import annotations
@@ -43,6 +43,7 @@ from chainbudget.budget.ties import TIE_DB
 from chainbudget.cascade import Cascade
 from chainbudget.chainfile import Chain
 from chainbudget.loops import section_of, sections
+from chainbudget.network import SOURCE_FLOOR_OHM
 from chainbudget.supplies.base import Corners
 
 # Candidate settings per node from the product of each control's few values at most
@@ -78,7 +79,8 @@ class HeldSettings:
     current_rows: dict[tuple[int, str], int | None] = field(default_factory=dict)
     #: Each row's frequency indices where some figure looks (ascending, the reference 0
     #: first): a node's candidate at the points within `PRUNE_DB` of the node's worst, an
-    #: op-amp's current setting on the whole axis, the volume row at the reference. The
+    #: op-amp's current setting within `PRUNE_DB` of its largest current (an ideal
+    #: op-amp's: the whole axis), the volume row at the reference. The
     #: rows are solved there only (`chainbudget.network.Netlist`'s ``points``); empty:
     #: every row on the whole axis.
     row_points: tuple[NDArray[np.intp], ...] = ()
@@ -170,14 +172,17 @@ def held_settings(chain: Chain, voltages: Mapping[str, Corners]) -> HeldSettings
             if is_worst or float(np.min(peak)) <= floor
         )
     current_rows: dict[tuple[int, str], int | None] = {}
-    for (k, label), rotations in opamp_current_settings(analysis).items():
+    for (k, label), found_at in opamp_current_settings(analysis).items():
         row = list(base)
         for sc in swept:
-            row[sc.axis] = float(sc.rotations[rotations[sc.axis]])
-        # on the whole axis: an op-amp's current over the band can move by more than
-        # PRUNE_DB with the parts (with an ideal op-amp it is the small difference of two
-        # large terms), so no point of it is left out
-        current_rows[(k, label)] = row_of(tuple(row), np.ones(analysis.frequency.size, bool))
+            row[sc.axis] = float(sc.rotations[found_at.rotations[sc.axis]])
+        # the points within PRUNE_DB of its largest current; an ideal op-amp's current is
+        # round-off where it is small, and moves by more than that: the whole axis
+        asked = found_at.asked_a
+        looks = asked >= np.max(asked[1:]) * 10.0 ** (-PRUNE_DB / 20.0)
+        if not found_at.has_output_resistance:
+            looks = np.ones(asked.shape, bool)
+        current_rows[(k, label)] = row_of(tuple(row), looks)
     volume_row = None
     if volume is not None:
         row = list(base)
@@ -189,21 +194,38 @@ def held_settings(chain: Chain, voltages: Mapping[str, Corners]) -> HeldSettings
     return HeldSettings(tuple(keys), tuple(rows), node_rows, volume_row, current_rows, row_points)
 
 
-def opamp_current_settings(analysis: Analysis) -> dict[tuple[int, str], tuple[int, ...]]:
-    """Each op-amp's (stage index, label) rotation indices of the setting at which the
-    nominal check finds its largest output current over the band (its ``worst_a``: the
-    current at ``max_level`` or at the stage's voltage clip, whichever is lower)."""
+@dataclass(frozen=True)
+class CurrentSetting:
+    """Where the nominal check finds an op-amp's largest output current: the rotation
+    index of each swept control, the current over the frequency axis there (A peak, the
+    reference first) and whether the op-amp has an output resistance (an ideal one's
+    current is the small difference of two large terms, `chainbudget.network`)."""
+
+    rotations: tuple[int, ...]
+    asked_a: NDArray[np.float64]
+    has_output_resistance: bool
+
+
+def opamp_current_settings(analysis: Analysis) -> dict[tuple[int, str], CurrentSetting]:
+    """Each op-amp's (stage index, label) setting at which the nominal check finds its
+    largest output current over the band (its ``worst_a``: the current at ``max_level`` or
+    at the stage's voltage clip, whichever is lower)."""
     max_peak = SQRT2 * analysis.chain.source.max_level
     swept = analysis.swept
-    found: dict[tuple[int, str], tuple[int, ...]] = {}
+    found: dict[tuple[int, str], CurrentSetting] = {}
     for k, sol in enumerate(swept.stages):
-        for label, _ in sol.built.opamps:
+        for label, part in sol.built.opamps:
             level = np.minimum(max_peak, voltage_clip_source_peak(swept, k))
             asked = np.abs(np.broadcast_to(swept.probe(k, f"{label}.current"), level.shape))
-            band = (asked * level)[..., analysis.band_slice]
+            asked = asked * level
+            band = asked[..., analysis.band_slice]
             at = np.unravel_index(int(np.argmax(band)), band.shape)
             candidate = int(at[0]) if band.ndim > 1 else 0
-            found[(k, label)] = tuple(int(i) for i in analysis.candidates[candidate])
+            found[(k, label)] = CurrentSetting(
+                tuple(int(i) for i in analysis.candidates[candidate]),
+                asked[candidate] if asked.ndim > 1 else asked,
+                part.output_resistance > SOURCE_FLOOR_OHM,
+            )
     return found
 
 
