@@ -25,6 +25,10 @@ Each figure is a smooth function of the reservoir C, so a chunk of trials takes 
 interpolating polynomial, which converges geometrically with the number of nodes for a
 function analytic about the interval (Trefethen, Approximation Theory and Approximation
 Practice, ch. 8); the complex harmonics are interpolated as their real and imaginary parts.
+Under pulsed loads the trough and ripple are interpolated at each relative phase of signal
+and mains, each smooth in C, and the worst phase taken per trial after: the worst of them
+has a kink where the worst phase changes, which a polynomial follows poorly (there the
+ripple jumps from one phase's to another's).
 """
 
 from __future__ import annotations
