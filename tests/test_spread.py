@@ -683,10 +683,10 @@ def _json_figure(
 ) -> float:
     """A spread figure's value in the check JSON (``nodes.NAME.KEY``, ``output.KEY``,
     ``supplies.RAIL.KEY``, ``noise_sources.LABEL.KEY``, ``noise.stage_shares.NAME.KEY`` or
-    a top-level key such as ``hiss_spl_a_db``). The spread follows the generators the nominal check lists among its
-    ten largest; a trial's check that ranks one of them lower does not list it in its JSON,
-    and its value is read from that check's ``budget`` (the full list the JSON's ten are
-    written from)."""
+    a top-level key such as ``hiss_spl_a_db``). The spread follows the generators the
+    nominal check lists among its ten largest; a trial's check that ranks one of them lower
+    does not list it in its JSON, and its value is read from that check's ``budget`` (the
+    full list the JSON's ten are written from)."""
     group, *rest = path.split(".")
     if group == "output" and rest[0].endswith("_percent") and "thd_" in rest[0]:
         return float(_thd_entry(data["output"], rest[0]))
