@@ -682,11 +682,11 @@ def _json_figure(
     budget: Budget | None = None,
 ) -> float:
     """A spread figure's value in the check JSON (``nodes.NAME.KEY``, ``output.KEY``,
-    ``noise_sources.LABEL.KEY``, ``noise.stage_shares.NAME.KEY`` or a top-level key such as
-    ``hiss_spl_a_db``). The spread follows the generators the nominal check lists among its
-    ten largest; a trial's check that ranks one of them lower does not list it in its JSON,
-    and its value is read from that check's ``budget`` (the full list the JSON's ten are
-    written from)."""
+    ``supplies.RAIL.KEY``, ``noise_sources.LABEL.KEY``, ``noise.stage_shares.NAME.KEY`` or
+    a top-level key such as ``hiss_spl_a_db``). The spread follows the generators the
+    nominal check lists among its ten largest; a trial's check that ranks one of them lower
+    does not list it in its JSON, and its value is read from that check's ``budget`` (the
+    full list the JSON's ten are written from)."""
     group, *rest = path.split(".")
     if group == "output" and rest[0].endswith("_percent") and "thd_" in rest[0]:
         return float(_thd_entry(data["output"], rest[0]))
@@ -695,15 +695,10 @@ def _json_figure(
     if group == "nodes":
         name, key = rest
         return float(next(n for n in data["nodes"] if n["stage"] == name)[key])
-    if group == "supplies" and rest[1:2] == ["ripple_harmonics"]:  # NAME.ripple_harmonics.HZ.vpk
-        name, _, hz, key = rest
-        supply = next(s for s in data["supplies"] if s["name"] == name)
-        return float(next(h for h in supply["ripple_harmonics"] if _hz_key(h["hz"]) == hz)[key])
+    if group == "supplies":  # a split supply's negative rail holds a dot: ``rail.neg``
+        return _supply_figure(data["supplies"], ".".join(rest))
     if group == "hum" and rest[0] in ("by_rail", "by_path", "harmonics"):
         return _hum_entry(data["hum"], rest)
-    if group == "supplies":
-        name, key = rest
-        return float(next(s for s in data["supplies"] if s["name"] == name)[key])
     if group == "loop":
         name, key = rest
         return float(next(e for e in data["loop"] if e["stage"] == name)[key])
@@ -725,6 +720,20 @@ def _json_figure(
         place, name, key = rest
         return float(next(d for d in data["drive"][place] if d["stage"] == name)[key])
     return float(data[group][rest[0]] if rest else data[group])
+
+
+def _supply_figure(supplies: list, rest: str) -> float:  # type: ignore[type-arg]
+    """A supply's figure in the check JSON (``NAME.KEY`` or
+    ``NAME.ripple_harmonics.HZ.vpk``): the supply whose name is the longest prefix of
+    ``rest`` (a split supply's negative rail is ``rail.neg``)."""
+    supply = max(
+        (s for s in supplies if rest.startswith(s["name"] + ".")), key=lambda s: len(s["name"])
+    )
+    key = rest.removeprefix(supply["name"] + ".")
+    if key.startswith("ripple_harmonics."):
+        _, hz, entry = key.split(".")
+        return float(next(h for h in supply["ripple_harmonics"] if _hz_key(h["hz"]) == hz)[entry])
+    return float(supply[key])
 
 
 def _hz_key(hz: float) -> str:

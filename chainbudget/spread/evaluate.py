@@ -198,27 +198,28 @@ class Evaluator:
             bounds = {
                 p.key: (p.low, p.high) for p in self.parts if p.table == "supply" and p.index == j
             }
-            spread = kind.spread(
+            spreads = kind.rail_spreads(
                 supply,
                 drawn,
-                self.nominal.supply(supply.name),
+                {rail: self.nominal.supply(rail) for rail in kind.rails(supply)},
                 parent,
                 bounds,
                 self._parent_ripple(supply.parent, ripples),
             )
-            if spread is None:
-                continue
-            spread_names.add(supply.name)
-            for key, array in spread.figures.items():
-                figures[f"supplies.{supply.name}.{key}"] = _trials(array, trials)
-            if spread.ripple is not None:
-                ripples[supply.name] = spread.ripple
-                figures.update(_ripple_figures(supply.name, spread.ripple, trials))
-            if spread.rail_low_v is not None and supply.name in voltages:
-                lows[supply.name] = _trials(spread.rail_low_v, trials)
-                rail = lows[supply.name].reshape(trials, 1)
-                # an array rail: `chainbudget.budget.rails.stage_rails` keeps it one
-                voltages[supply.name] = replace(voltages[supply.name], low=cast(float, rail))
+            # each rail under its own name (a split supply's ``.neg`` too), as the check
+            # JSON names it and as the stages and supplies below it name their parent
+            for name, spread in (spreads or {}).items():
+                spread_names.add(name)
+                for key, array in spread.figures.items():
+                    figures[f"supplies.{name}.{key}"] = _trials(array, trials)
+                if spread.ripple is not None:
+                    ripples[name] = spread.ripple
+                    figures.update(_ripple_figures(name, spread.ripple, trials))
+                if spread.rail_low_v is not None and name in voltages:
+                    lows[name] = _trials(spread.rail_low_v, trials)
+                    rail = lows[name].reshape(trials, 1)
+                    # an array rail: `chainbudget.budget.rails.stage_rails` keeps it one
+                    voltages[name] = replace(voltages[name], low=cast(float, rail))
         if steps is not None and steps <= {"supplies"}:
             return figures
         chain = self.chain
@@ -382,19 +383,18 @@ class Evaluator:
                 severity, code = flag_parts(path)
                 found.append(Threshold(path, 0.5, code, severity, above=True))
         for supply in self.chain.supplies:
-            # a supply spread in the batch (its own parts or its parent's): its figures
-            if not any(p.startswith(f"supplies.{supply.name}.") for p in figures):
-                continue
             kind = SUPPLY_KINDS[supply.kind]
-            nominal = self.nominal.supply(supply.name)
-            spread = kind.spread(supply, {}, nominal)
-            if spread is None:
+            rails = kind.rails(supply)
+            # a supply spread in the batch (its own parts or its parent's): its figures
+            if not any(p.startswith(f"supplies.{rail}.") for rail in rails for p in figures):
                 continue
-            found += [
-                _supply_threshold(supply.name, t)
-                for t in spread.thresholds
-                if f"supplies.{supply.name}.{t.key}" in figures
-            ]
+            nominals = {rail: self.nominal.supply(rail) for rail in rails}
+            for name, spread in (kind.rail_spreads(supply, {}, nominals) or {}).items():
+                found += [
+                    _supply_threshold(name, t)
+                    for t in spread.thresholds
+                    if f"supplies.{name}.{t.key}" in figures
+                ]
         return found
 
 
@@ -555,7 +555,7 @@ def _output_figures(
 
 
 def _parents_first(chain: Chain) -> list[int]:
-    """The supplies' indices, each after the supply it is fed from."""
+    """The supplies' indices, each after the supply it is fed from (a rail of it)."""
     order: list[int] = []
     done: set[str] = set()
     while len(order) < len(chain.supplies):
@@ -563,7 +563,7 @@ def _parents_first(chain: Chain) -> list[int]:
         for j, supply in enumerate(chain.supplies):
             if j not in order and (supply.parent is None or supply.parent in done):
                 order.append(j)
-                done.add(supply.name)
+                done.update(SUPPLY_KINDS[supply.kind].rails(supply))  # ``.neg`` too
         if len(order) == before:  # a parent that is no supply's name (the loader refuses it)
             order += [j for j in range(len(chain.supplies)) if j not in order]
     return order

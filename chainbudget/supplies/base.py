@@ -463,6 +463,24 @@ class SupplyKind(ABC):
         output follows the parent's trough and ripple per trial."""
         return None
 
+    def rail_spreads(
+        self,
+        supply: Supply,
+        drawn: Mapping[str, NDArray[np.float64]],
+        nominals: Mapping[str, SupplyBudget],
+        parent_low_v: NDArray[np.float64] | None = None,
+        bounds: Mapping[str, tuple[float, float]] | None = None,
+        parent_ripple: RippleSpread | None = None,
+    ) -> dict[str, SupplySpread] | None:
+        """`spread` for each of the supply's rails, by rail name (`rails`), given each
+        rail's nominal budget ``nominals``; by default the one rail's `spread`. A kind
+        defining more than one rail (a centre-tapped rectifier's ``.neg``) overrides this,
+        as it does `rail_states`. None: the kind spreads nothing."""
+        found = self.spread(
+            supply, drawn, nominals[supply.name], parent_low_v, bounds, parent_ripple
+        )
+        return None if found is None else {supply.name: found}
+
     def trough_remedy(
         self, supply: Supply, trough_v: float, load: SupplyLoad, rail: str | None = None
     ) -> TroughRemedy:

@@ -167,19 +167,22 @@ class Rectified(SupplyKind):
         }
 
     def spread_fields(self, supply: Supply) -> tuple[str, ...]:
-        # a split supply's two rails share one solve; the spread takes single rails only
-        return () if supply.values.get("split") else SPREAD_FIELDS
+        # a split supply's one reservoir field is both rails' capacitor: drawn once
+        return SPREAD_FIELDS
 
-    def spread(
+    def rail_spreads(
         self,
         supply: Supply,
         drawn: Mapping[str, Any],
-        nominal: SupplyBudget,
+        nominals: Mapping[str, SupplyBudget],
         parent_low_v: Any = None,
         bounds: Mapping[str, tuple[float, float]] | None = None,
         parent_ripple: RippleSpread | None = None,
-    ) -> SupplySpread:
-        return rectified_spread(supply, drawn, nominal, bounds)
+    ) -> dict[str, SupplySpread]:
+        """Every rail's trough and ripple per trial (a split supply's two, solved together
+        as `rail_states` solves them; `chainbudget.supplies.rectified.spread`)."""
+        loads = {rail: nominals[rail].load for rail in self.rails(supply)}
+        return rectified_spread(supply, drawn, loads, bounds)
 
     def figures(self, context: SupplyContext) -> RectifiedFigures:
         return rectified_figures(context)
