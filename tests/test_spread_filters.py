@@ -38,7 +38,8 @@ ROOT = Path(__file__).resolve().parents[1]
 # stiff bench supply), "filtered" on the filter is biased from a fixed 5 V and clips on that
 # side (its output's pulses reach the filter, fixed), the blocks draw a fixed current. The
 # hum reaches the output through "pre"'s bias point (the divider's ripple), the op-amps'
-# supply pins and the blocks' supply rejection.
+# supply pins and the blocks' supply rejection; the bench supply's and "ref"'s paths carry
+# none (no mains ripple: they need no remedy, `chainbudget.spread.hum.remedy_reach_of`).
 FILTERS = """
 [chain]
 title = "filters and dividers drawn"

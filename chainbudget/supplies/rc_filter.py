@@ -51,10 +51,8 @@ class RcFilterFigures(KindFigures):
 
 
 def smoothed_trough(parent: SupplyState, gain: float) -> float:
-    """The parent's trough with its ripple passed at ``gain`` (0..1) about its mean, V.
-
-    (`chainbudget.supplies.filter_spread.smoothed_troughs`, which says how).
-    """
+    """The parent's trough with its ripple passed at ``gain`` (0..1) about its mean, V: of
+    one state, `chainbudget.supplies.filter_spread.smoothed_troughs` (which says how)."""
     return float(smoothed_troughs(parent.trough_v, parent.ripple_vpp or 0.0, gain))
 
 
