@@ -405,14 +405,28 @@ def pulsed_sag(
     signal_hz: float | None,
 ) -> float:
     """Largest drop across a source resistance feeding a steady current and half-wave sine
-    pulses, with an optional capacitor across the output, V.
+    pulses, with an optional capacitor across the output, V (`pulsed_sags` of one part).
+    """
+    return float(pulsed_sags(resistance_ohm, capacitance_f, dc_a, pulse_a, signal_hz))
+
+
+def pulsed_sags(
+    resistance_ohm: ArrayLike,
+    capacitance_f: ArrayLike | None,
+    dc_a: float,
+    pulse_a: float,
+    signal_hz: float | None,
+) -> NDArray[np.float64]:
+    """Largest drop across a source resistance feeding a steady current and half-wave sine
+    pulses, with an optional capacitor across the output, V; the resistance and capacitance
+    may be arrays (the spread's trials), the load is one.
 
     Parameters
     ----------
-    resistance_ohm : float
+    resistance_ohm : array_like
         Source resistance R (a battery's internal resistance, a filter's series resistor).
-    capacitance_f : float or None
-        Capacitor from the output to ground (None: none).
+    capacitance_f : array_like or None
+        Capacitor from the output to ground (None: none; a value not above zero: none).
     dc_a : float
         Steady load current, A.
     pulse_a : float
@@ -422,8 +436,8 @@ def pulsed_sag(
 
     Returns
     -------
-    float
-        R (I_dc + I_p y_max), the drop at the crest of the pulses.
+    ndarray
+        R (I_dc + I_p y_max), the drop at the crest of the pulses, R and C broadcast.
 
     Notes
     -----
@@ -435,23 +449,41 @@ def pulsed_sag(
     mean 1/pi as the capacitor holds the output up over the signal period). Thevenin and
     the first-order step response of circuit theory.
     """
+    r = _f(resistance_ohm)
     if pulse_a <= 0.0 or signal_hz is None:
-        return resistance_ohm * (dc_a + max(pulse_a, 0.0))
-    peak = 1.0
-    if capacitance_f is not None and capacitance_f > 0.0:
-        tau = 2.0 * np.pi * signal_hz * resistance_ohm * capacitance_f
+        return np.asarray(r * (dc_a + max(pulse_a, 0.0)), dtype=float)
+    peak: NDArray[np.float64] = np.ones_like(r)
+    if capacitance_f is not None:
+        c = _f(capacitance_f)
+        tau = 2.0 * np.pi * signal_hz * r * c
         from chainbudget.rectifier import pulse_response_peak  # loaded only where used
 
-        peak = float(pulse_response_peak(tau)[0])
-    return resistance_ohm * (dc_a + pulse_a * peak)
+        # each trial's own peak (one row of the response's grid per time constant)
+        found = pulse_response_peak(np.where(c > 0.0, tau, 0.0).reshape(-1)).reshape(tau.shape)
+        peak = np.where(c > 0.0, found, 1.0)
+    return np.asarray(r * (dc_a + pulse_a * peak), dtype=float)
 
 
 def first_order_lowpass(hz: float, resistance_ohm: float, capacitance_f: float | None) -> complex:
     """Complex gain 1/(1 + j 2 pi f R C) of a series resistor into a shunt capacitor (1 with
-    no capacitor): how an RC filter passes ripple at ``hz`` (circuit theory)."""
-    if capacitance_f is None or capacitance_f <= 0.0:
-        return 1.0 + 0.0j
-    return 1.0 / (1.0 + 2j * np.pi * hz * resistance_ohm * capacitance_f)
+    no capacitor): how an RC filter passes ripple at ``hz`` (circuit theory; `lowpass_gains`
+    of one part at one frequency)."""
+    return complex(lowpass_gains(hz, resistance_ohm, capacitance_f))
+
+
+def lowpass_gains(
+    hz: ArrayLike, resistance_ohm: ArrayLike, capacitance_f: ArrayLike | None
+) -> NDArray[np.complex128]:
+    """`first_order_lowpass` of arrays that broadcast together (frequencies, the spread's
+    trials): 1/(1 + j 2 pi f R C), 1 where there is no capacitor (None, or not above
+    zero)."""
+    f, r = _f(hz), _f(resistance_ohm)
+    if capacitance_f is None:
+        return np.ones(np.broadcast_shapes(f.shape, r.shape), dtype=complex)
+    c = _f(capacitance_f)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        gain = 1.0 / (1.0 + 2j * np.pi * f * r * c)
+    return np.asarray(np.where(c > 0.0, gain, 1.0 + 0.0j), dtype=complex)
 
 
 def capacitor_for_attenuation(

@@ -444,13 +444,14 @@ def test_ripple_and_hum_of_each_trial_equal_the_check_of_that_trial() -> None:
     1e-8 dB): the rails' troughs and ripple (the rectifier's, the rc_filter's, the
     regulator's with its rejection, the divider's), their spectra, the hum at every node,
     by root supply, by path and by harmonic. Out of regulation the check's tree moves its
-    heaviest load and its bias point with the regulator's output, which the spread holds
-    (docs/tolerances.md): there the hum and the spectra (at the nominal load) still agree at
-    rtol 1e-9 and the rest within 0.1 %. The batch of 24 takes the rectifier from its grid
-    of 17 reservoir values: within rtol 1e-8 (abs 1 nV) of each trial solved alone. The
-    per-trial codes (regulator-dropout, hum-over-noise, hum-audible, hum-dominant-path with
-    its stage, hum-remedy) are the check's of each trial; each is drawn by some trials and
-    not by others, and the dominant path by the spread's figures is the check's."""
+    heaviest load with the regulator's output, which the spread holds (docs/tolerances.md;
+    the divider's bias point follows the trial's): there the hum and the spectra (at the
+    nominal load) still agree at rtol 1e-9 and the rest within 0.1 %. The batch of 24 takes
+    the rectifier from its grid of 17 reservoir values: within rtol 1e-8 (abs 1 nV) of each
+    trial solved alone. The per-trial codes (regulator-dropout, hum-over-noise, hum-audible,
+    hum-dominant-path with its stage, hum-remedy) are the check's of each trial; each is
+    drawn by some trials and not by others, and the dominant path by the spread's figures
+    is the check's."""
     from chainbudget.budget import compute
     from chainbudget.report.json_view import budget_json
     from chainbudget.spread.evaluate import failing

@@ -7,8 +7,9 @@ A batch of T trials is one solve: every drawn stage part is an array of shape (T
 against the frequency axis (F,) (here the reference frequency alone), so each stage's
 matrices are (T, F, n, n) and `numpy.linalg.solve` takes them in one call
 (`chainbudget.network`). The supply figures a kind spreads (`SupplyKind.spread`, e.g. a
-regulator's output over its reference and divider) are closed forms on (T,) arrays; a
-spread rail reaches the stages it feeds as an array rail, so their swing limits follow it.
+regulator's output over its reference and divider) are closed forms on (T,) arrays, walked
+down the tree parents first (`chainbudget.spread.tree`); a spread rail reaches the stages
+it feeds as an array rail, so their swing limits and bias points follow it.
 
 The operating point around which the parts vary is the nominal check's: the power tree
 settled for the nominal parts (`chainbudget.budget.supplies.settle`) at low line, as
@@ -25,9 +26,9 @@ from __future__ import annotations
 import os
 from collections.abc import Callable, Mapping
 from concurrent.futures import ThreadPoolExecutor
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 from functools import cache, cached_property, partial
-from typing import Any, cast
+from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
@@ -35,6 +36,7 @@ from numpy.typing import NDArray
 from chainbudget.budget import Budget
 from chainbudget.budget.analysis import environments, frequency_axis, positions_as_set, solve_chain
 from chainbudget.budget.levels import DB_FLOOR, SQRT2, clip_source_peak, db
+from chainbudget.budget.rails import supply_states
 from chainbudget.budget.steps import with_value
 from chainbudget.cascade import Cascade, Joins, sections, solve_section
 from chainbudget.cascade import cascade as join_cascade
@@ -52,7 +54,6 @@ from chainbudget.spread.heap import keep_freed_memory
 from chainbudget.spread.heat import heat_figures
 from chainbudget.spread.hum import (
     HumRemedyReach,
-    harmonic_key,
     hum_figures,
     hum_thresholds,
     remedy_reach_of,
@@ -63,9 +64,10 @@ from chainbudget.spread.noise import output_noise
 from chainbudget.spread.parts import Part, with_beta
 from chainbudget.spread.settings import HeldSettings, held_settings, worst_of_candidates
 from chainbudget.spread.thd import thd_figures
+from chainbudget.spread.tree import tree_spread
 from chainbudget.stages.base import Environment
 from chainbudget.supplies import KINDS as SUPPLY_KINDS
-from chainbudget.supplies.base import Corners, RippleSpread, SpreadThreshold
+from chainbudget.supplies.base import Corners, SpreadThreshold, SupplyState
 from chainbudget.thresholds import HISS_SPL_A_LIMIT_DB, SNR_MIN_DB, THIN_HEADROOM_DB
 
 Figures = dict[str, NDArray[np.float64]]
@@ -177,49 +179,11 @@ class Evaluator:
         ``{"supplies"}``: the supplies' figures alone."""
         trials = positions.shape[0]
         values = self.values(positions)
-        figures: Figures = {}
-        voltages = dict(self.voltages)
-        lows: dict[str, NDArray[np.float64]] = {}
-        # each spread rail's mains ripple per trial (the rails below and the hum take it)
-        ripples: dict[str, RippleSpread] = {}
-        spread_names: set[str] = set()
-        for j in _parents_first(self.chain):
-            supply = self.chain.supplies[j]
-            drawn = {
-                p.key: v
-                for p, v in zip(self.parts, values, strict=True)
-                if p.table == "supply" and p.index == j
-            }
-            kind = SUPPLY_KINDS[supply.kind]
-            # a supply with nothing of its own drawn still follows a spread parent
-            if not kind.spread_fields(supply) and supply.parent not in spread_names:
-                continue
-            parent = None if supply.parent is None else lows.get(supply.parent)
-            bounds = {
-                p.key: (p.low, p.high) for p in self.parts if p.table == "supply" and p.index == j
-            }
-            spreads = kind.rail_spreads(
-                supply,
-                drawn,
-                {rail: self.nominal.supply(rail) for rail in kind.rails(supply)},
-                parent,
-                bounds,
-                self._parent_ripple(supply.parent, ripples),
-            )
-            # each rail under its own name (a split supply's ``.neg`` too), as the check
-            # JSON names it and as the stages and supplies below it name their parent
-            for name, spread in (spreads or {}).items():
-                spread_names.add(name)
-                for key, array in spread.figures.items():
-                    figures[f"supplies.{name}.{key}"] = _trials(array, trials)
-                if spread.ripple is not None:
-                    ripples[name] = spread.ripple
-                    figures.update(_ripple_figures(name, spread.ripple, trials))
-                if spread.rail_low_v is not None and name in voltages:
-                    lows[name] = _trials(spread.rail_low_v, trials)
-                    rail = lows[name].reshape(trials, 1)
-                    # an array rail: `chainbudget.budget.rails.stage_rails` keeps it one
-                    voltages[name] = replace(voltages[name], low=cast(float, rail))
+        tree = tree_spread(
+            self.chain, self.parts, values, self.nominal, self.voltages, self.unloaded, trials
+        )
+        figures: Figures = dict(tree.figures)
+        voltages, ripples = tree.voltages, tree.ripples
         if steps is not None and steps <= {"supplies"}:
             return figures
         chain = self.chain
@@ -306,16 +270,10 @@ class Evaluator:
                     seen.add(path)
         return found
 
-    def _parent_ripple(
-        self, parent: str | None, ripples: Mapping[str, RippleSpread]
-    ) -> RippleSpread | None:
-        """A supply's parent's ripple: per trial where the parent is spread, else the
-        nominal check's (None for a root)."""
-        if parent is None:
-            return None
-        if parent in ripples:
-            return ripples[parent]
-        return RippleSpread.of(self.nominal.supply(parent).state)
+    @cached_property
+    def unloaded(self) -> dict[str, SupplyState]:
+        """The nominal tree with no load (where the check's settled rails start from)."""
+        return supply_states(self.chain)
 
     @cached_property
     def hum_remedies(self) -> HumRemedyReach:
@@ -552,33 +510,6 @@ def _output_figures(
         spl = np.maximum(spl_at_1m(sensitivity, power), DB_FLOOR)
         figures["output.max_spl_db"] = _trials(spl, trials)
     return figures
-
-
-def _parents_first(chain: Chain) -> list[int]:
-    """The supplies' indices, each after the supply it is fed from (a rail of it)."""
-    order: list[int] = []
-    done: set[str] = set()
-    while len(order) < len(chain.supplies):
-        before = len(order)
-        for j, supply in enumerate(chain.supplies):
-            if j not in order and (supply.parent is None or supply.parent in done):
-                order.append(j)
-                done.update(SUPPLY_KINDS[supply.kind].rails(supply))  # ``.neg`` too
-        if len(order) == before:  # a parent that is no supply's name (the loader refuses it)
-            order += [j for j in range(len(chain.supplies)) if j not in order]
-    return order
-
-
-def _ripple_figures(name: str, ripple: RippleSpread, trials: int) -> Figures:
-    """A supply's ripple spectrum per trial as the check JSON's ``ripple_harmonics``
-    carries it, each harmonic's magnitude under ``supplies.NAME.ripple_harmonics.HZ.vpk``
-    (`harmonic_key`)."""
-    found: Figures = {}
-    magnitude = np.abs(ripple.harmonics_vpk)
-    for k, hz in enumerate(ripple.frequency):
-        key = f"supplies.{name}.ripple_harmonics.{harmonic_key(float(hz))}.vpk"
-        found[key] = _trials(magnitude[..., k], trials)
-    return found
 
 
 def _supply_threshold(name: str, threshold: SpreadThreshold) -> Threshold:

@@ -76,6 +76,9 @@ def remedy_reach_of(chain: Chain, nominal: Budget) -> HumRemedyReach:
         {
             (p.stage, p.path, p.supply): remedy_reach(chain, nominal.supplies, currents, p)
             for p in hum.paths
+            # a path from a rail without mains ripple (a battery's) carries no hum in any
+            # trial: never the dominant one, it needs no remedy (and has no fundamental)
+            if nominal.supply(p.supply).ripple_harmonics
         }
     )
 

@@ -80,11 +80,12 @@ _PLAIN_UNITS = frozenset({"dB", "dBu", "deg", "degC"})
 
 def scaled(path: str, typical: float) -> tuple[float, str]:
     """The scale and unit a row's numbers are shown in (engineering prefix of ``typical``;
-    a share of the noise power in per cent)."""
+    a share of the noise power in per cent; a pure number, a divider's ratio or a damping
+    factor, as it is)."""
     if is_share(path):
         return 0.01, "%"
     unit = _unit(path)
-    if unit in _PLAIN_UNITS or typical == 0.0 or not math.isfinite(typical):
+    if unit in _PLAIN_UNITS or not unit or typical == 0.0 or not math.isfinite(typical):
         return 1.0, unit
     exponent = max(-12, min(9, 3 * math.floor(math.log10(abs(typical)) / 3)))
     return 10.0**exponent, _PREFIX[exponent] + unit

@@ -338,19 +338,22 @@ class RippleSpread:
     ``vpp`` is its peak-to-peak at low line and the heaviest load (`SupplyState.ripple_vpp`),
     shape (T,) or one value for every trial (None: not known); ``harmonics_vpk`` its
     spectrum at nominal line and load (`SupplyState.harmonics_vpk`), complex V peak, shape
-    (T, K) or (K,), the k-th at k times ``ripple_hz``.
+    (T, K) or (K,), the k-th at k times ``ripple_hz``; ``mean_v`` the mean that spectrum
+    rides on (`SupplyState.nominal_v`), (T,) or one value (None: the nominal check's; a
+    filter or divider below takes its own mean from it).
     """
 
     ripple_hz: float | None
     vpp: NDArray[np.float64] | None
     harmonics_vpk: NDArray[np.complex128]
+    mean_v: NDArray[np.float64] | None = None
 
     @classmethod
     def of(cls, state: SupplyState) -> RippleSpread:
         """The ripple of a supply's nominal state, the same in every trial."""
         vpp = None if state.ripple_vpp is None else np.asarray(state.ripple_vpp, dtype=float)
         harmonics = np.asarray(state.harmonics_vpk, dtype=complex).reshape(-1)
-        return cls(state.ripple_hz, vpp, harmonics)
+        return cls(state.ripple_hz, vpp, harmonics, np.asarray(state.nominal_v, dtype=float))
 
     @property
     def frequency(self) -> NDArray[np.float64]:
@@ -454,10 +457,11 @@ class SupplyKind(ABC):
     ) -> SupplySpread | None:
         """The kind's figures with ``drawn`` (field -> (T,) values) in place of the file's,
         about the nominal operating point ``nominal``; ``parent_low_v`` is the parent's
-        low-line trough per trial where the parent spreads it (None: its nominal one);
-        ``bounds`` each drawn field's (low, high); ``parent_ripple`` the parent's ripple
-        (per trial where the parent spreads it, else its nominal one; None for a root or
-        where only the rules' limits are asked for). None: the kind spreads nothing.
+        low-line trough, per trial where the parent spreads it, else its nominal one;
+        ``bounds`` each drawn field's (low, high); ``parent_ripple`` the parent's ripple and
+        mean (per trial where the parent spreads them, else its nominal ones). Both None for
+        a root or where only the rules' limits are asked for. None: the kind spreads
+        nothing.
 
         A kind is asked even with nothing of its own drawn when its parent is spread: its
         output follows the parent's trough and ripple per trial."""

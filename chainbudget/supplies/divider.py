@@ -23,13 +23,17 @@ from chainbudget.supplies.base import (
     SupplySpread,
     SupplyState,
 )
-from chainbudget.supplies.rc_filter import ripple_spread, smoothed_trough
+from chainbudget.supplies.filter_spread import divider_spread
+from chainbudget.supplies.rc_filter import smoothed_trough
 from chainbudget.supplymath import (
     capacitor_for_attenuation,
     first_order_lowpass,
     microfarads,
     pulsed_sag,
 )
+
+# The parts a spread draws (chainbudget/spread): its resistors, and its capacitor if it has one.
+SPREAD_FIELDS = ("upper", "lower", "capacitance")
 
 
 @dataclass(frozen=True)
@@ -126,6 +130,9 @@ class Divider(SupplyKind):
             harmonics_vpk=parent.through(lambda hz: self.gain(supply, hz)),
         )
 
+    def spread_fields(self, supply: Supply) -> tuple[str, ...]:
+        return tuple(key for key in SPREAD_FIELDS if supply.values.get(key) is not None)
+
     def spread(
         self,
         supply: Supply,
@@ -135,15 +142,22 @@ class Divider(SupplyKind):
         bounds: Mapping[str, tuple[float, float]] | None = None,
         parent_ripple: RippleSpread | None = None,
     ) -> SupplySpread | None:
-        """Its parent's ripple per trial passed as `state` passes the nominal one (its own
-        parts held): what a bias point named after it carries. Its level (the bias point
-        the stages' DC takes) is the nominal check's: the check sets a bias point from the
-        settled tree, not from the divider's trough."""
-        if parent_ripple is None:
+        """Its figures per trial with its resistors and capacitor drawn, from its parent's
+        trough, ripple and mean as `state` takes the nominal ones
+        (`chainbudget.supplies.filter_spread.divider_spread`). Its trough is the bias point
+        a stage naming it takes (the check takes a stage's bias point from its supply's
+        output at the corner it analyses, the trough at low line), so the stages it biases
+        follow it per trial. None where only the rules' limits are asked for (it has
+        none)."""
+        if parent_low_v is None or parent_ripple is None:
             return None
-        ripple = ripple_spread(lambda hz: self.gain(supply, hz), parent_ripple, self.ratio(supply))
-        figures = {} if ripple.vpp is None else {"ripple_vpp": np.asarray(ripple.vpp, dtype=float)}
-        return SupplySpread(figures, (), None, ripple)
+
+        def value(key: str) -> NDArray[np.float64] | float | None:
+            return drawn[key] if key in drawn else supply.optional(key)
+
+        upper, lower, capacitance = (value(key) for key in SPREAD_FIELDS)
+        assert upper is not None and lower is not None, "required fields"
+        return divider_spread(upper, lower, capacitance, nominal.load, parent_low_v, parent_ripple)
 
     def figures(self, context: SupplyContext) -> DividerFigures:
         supply, parent = context.supply, context.parent_state

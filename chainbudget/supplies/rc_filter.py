@@ -4,12 +4,11 @@ decoupling filter)."""
 from __future__ import annotations
 
 import math
-from collections.abc import Callable, Mapping
+from collections.abc import Mapping
 from dataclasses import dataclass
-from typing import Any
 
 import numpy as np
-from numpy.typing import ArrayLike, NDArray
+from numpy.typing import NDArray
 
 from chainbudget import fields as f
 from chainbudget.finding import Finding
@@ -26,12 +25,16 @@ from chainbudget.supplies.base import (
     SupplySpread,
     SupplyState,
 )
+from chainbudget.supplies.filter_spread import rc_filter_spread, smoothed_troughs
 from chainbudget.supplymath import (
     capacitor_for_attenuation,
     first_order_lowpass,
     microfarads,
     pulsed_sag,
 )
+
+# The parts a spread draws (chainbudget/spread): both of its own.
+SPREAD_FIELDS = ("resistance", "capacitance")
 
 
 @dataclass(frozen=True)
@@ -48,34 +51,9 @@ class RcFilterFigures(KindFigures):
 
 
 def smoothed_trough(parent: SupplyState, gain: float) -> float:
-    """The parent's trough with its ripple passed at ``gain`` (0..1) about its mean, V.
-
-    Notes
-    -----
-    The parent's low-line mean is taken as trough + ripple/2 (its ripple treated as its
-    fundamental, a sine about the mean: an approximation on the safe side for the sawtooth
-    of a reservoir, whose fundamental is a little smaller than half its peak-to-peak).
-    """
+    """The parent's trough with its ripple passed at ``gain`` (0..1) about its mean, V: of
+    one state, `chainbudget.supplies.filter_spread.smoothed_troughs` (which says how)."""
     return float(smoothed_troughs(parent.trough_v, parent.ripple_vpp or 0.0, gain))
-
-
-def smoothed_troughs(trough_v: ArrayLike, ripple_vpp: ArrayLike, gain: float) -> NDArray[Any]:
-    """`smoothed_trough` of a parent's trough and peak-to-peak ripple given as arrays (the
-    spread's trials), V."""
-    trough, ripple = np.asarray(trough_v, dtype=float), np.asarray(ripple_vpp, dtype=float)
-    return np.asarray(trough + 0.5 * ripple * (1.0 - gain), dtype=float)
-
-
-def ripple_spread(
-    gain: Callable[[float], complex], parent: RippleSpread, scale: float = 1.0
-) -> RippleSpread:
-    """A parent's ripple per trial passed by a first-order network of complex gain
-    ``gain(hz)`` (an RC filter, a divider's capacitor), as `RcFilter.state` passes the
-    nominal one: each harmonic times the gain, the peak-to-peak times ``scale`` (a
-    divider's ratio) and the gain's magnitude at the fundamental over ``scale``."""
-    fundamental = 1.0 if parent.ripple_hz is None else abs(gain(parent.ripple_hz)) / scale
-    vpp = None if parent.vpp is None else scale * parent.vpp * fundamental
-    return RippleSpread(parent.ripple_hz, vpp, parent.through(gain))
 
 
 class RcFilter(SupplyKind):
@@ -141,6 +119,9 @@ class RcFilter(SupplyKind):
             harmonics_vpk=parent.through(lambda hz: self.gain(supply, hz)),
         )
 
+    def spread_fields(self, supply: Supply) -> tuple[str, ...]:
+        return SPREAD_FIELDS
+
     def spread(
         self,
         supply: Supply,
@@ -150,28 +131,16 @@ class RcFilter(SupplyKind):
         bounds: Mapping[str, tuple[float, float]] | None = None,
         parent_ripple: RippleSpread | None = None,
     ) -> SupplySpread | None:
-        """Its parent's trough and ripple per trial passed as `state` passes the nominal
-        ones (its own parts held): the ripple harmonic by harmonic, the trough smoothed
-        (`smoothed_trough`) less the nominal sag of the load's crest."""
-        if parent_ripple is None:
+        """Its figures per trial with its resistor and capacitor drawn, from its parent's
+        trough, ripple and mean as `state` takes the nominal ones
+        (`chainbudget.supplies.filter_spread.rc_filter_spread`); None where only the
+        rules' limits are asked for (it has none)."""
+        if parent_low_v is None or parent_ripple is None:
             return None
-        ripple = ripple_spread(lambda hz: self.gain(supply, hz), parent_ripple)
-        figures: dict[str, NDArray[np.float64]] = {}
-        if ripple.vpp is not None:
-            figures["ripple_vpp"] = np.asarray(ripple.vpp, dtype=float)
-        low = None
-        own = nominal.own
-        if parent_low_v is not None and isinstance(own, RcFilterFigures):
-            fundamental = (
-                1.0
-                if parent_ripple.ripple_hz is None
-                else abs(self.gain(supply, parent_ripple.ripple_hz))
-            )
-            vpp = 0.0 if parent_ripple.vpp is None else parent_ripple.vpp
-            trough = smoothed_troughs(parent_low_v, vpp, fundamental) - own.crest_drop_v
-            low = np.maximum(trough, 0.0)
-            figures["trough_v"] = low
-        return SupplySpread(figures, (), low, ripple)
+        resistance, capacitance = (
+            drawn[key] if key in drawn else supply.number(key) for key in SPREAD_FIELDS
+        )
+        return rc_filter_spread(resistance, capacitance, nominal.load, parent_low_v, parent_ripple)
 
     def figures(self, context: SupplyContext) -> RcFilterFigures:
         supply, load, parent = context.supply, context.load, context.parent_state

@@ -11,7 +11,9 @@ it (a rectifier's reservoir), else the nominal one; the external load is the nom
 operating point's (the tree as settled for the nominal parts): the regulator's own current
 changes by micro- to milliamperes over its tolerances, which moves a rectifier's trough by
 far less than the reference's spread moves the output. Out of regulation the output follows the
-input's trough less the dropout, as `Regulator.state` has it.
+input's trough less the dropout, as `Regulator.state` has it; its mean at nominal line
+and load, V_out or the parent's mean less the dropout, whichever is lower, is passed on
+with the ripple (a filter or divider below takes its own mean from it).
 
 The output's ripple per trial follows the parent's (per trial where the parent spreads
 it) as `Regulator.state` passes it: in regulation each harmonic times the rejection
@@ -23,6 +25,7 @@ dip V_out - (trough - dropout) out of regulation (zero in regulation).
 from __future__ import annotations
 
 from collections.abc import Mapping
+from dataclasses import replace
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -104,6 +107,12 @@ def regulator_spread(
     ripple = _ripple(supply, parent_ripple, figures["vout_v"], rail)
     if ripple is not None and ripple.vpp is not None:
         figures["ripple_vpp"] = np.broadcast_to(ripple.vpp, (size,)).astype(float)
+    if parent_ripple is not None and parent_ripple.mean_v is not None:
+        # its mean at nominal line and load, for a filter or divider below it
+        mean = np.maximum(np.minimum(figures["vout_v"], parent_ripple.mean_v - dropout), 0.0)
+        if ripple is None:  # no ripple passed on (`Regulator.state` has none then)
+            ripple = RippleSpread(None, None, np.zeros(0, dtype=complex))
+        ripple = replace(ripple, mean_v=mean)
     return SupplySpread(figures, tuple(thresholds), rail, ripple)
 
 
