@@ -656,3 +656,28 @@ def test_the_filter_remedy_reach_is_where_the_check_stops_finding_it(
     assert hr._rc_filter(ctx, path, reach * (1 + 1e-6)) is None
     other = next(p for p in budget.hum.paths if p.stage == "pre" and p.supply == "quiet")
     assert hr.remedy_reach(chain, budget.supplies, currents, other) == math.inf  # a regulator
+
+
+def test_listed_entries_are_named_at_their_owner_in_the_table() -> None:
+    """The table shows a listed entry of the check JSON at the stage or supply it belongs
+    to, named in words (a path such as ``hum.by_path.driver.V+ pin (PSRR).a_vrms`` in a
+    narrow column wrapped over five lines): a rail's ripple harmonic, the hum by path, by
+    root supply and by harmonic, a decimal point in a harmonic's key written back."""
+    from chainbudget.spread.view import _place_and_figure
+
+    assert _place_and_figure("supplies.rail.neg.ripple_harmonics.100.vpk") == (
+        "supply rail.neg",
+        "ripple 100 Hz",
+    )
+    assert _place_and_figure("supplies.raw.ripple_harmonics.33_4.vpk") == (
+        "supply raw",
+        "ripple 33.4 Hz",
+    )
+    assert _place_and_figure("hum.by_path.driver.V+ pin (PSRR).a_vrms") == (
+        "driver",
+        "hum a via V+ pin (PSRR)",
+    )
+    assert _place_and_figure("hum.by_rail.rail.neg.vrms") == ("supply rail.neg", "hum from it")
+    assert _place_and_figure("hum.harmonics.100.a_vrms") == ("hum", "hum a 100 Hz")
+    # any other figure as before
+    assert _place_and_figure("supplies.raw.trough_v") == ("supply raw", "trough")

@@ -143,6 +143,9 @@ def _place_and_figure(path: str) -> tuple[str, str]:
         if path.startswith(group):
             place, _, key = path.removeprefix(group).rpartition(".")
             return place, names.get(key, key.replace("_", " "))
+    listed = _listed_entry(path)
+    if listed is not None:
+        return listed
     place, _, key = _bare(path).rpartition(".")
     entry_key = path.rsplit(".", 1)[-1]
     if entry_key in _ENTRY_KEYS:  # a listed entry's own key: the place is all before it
@@ -154,6 +157,31 @@ def _place_and_figure(path: str) -> tuple[str, str]:
         # a chain-wide figure (``ein_dbu``) is its own place; the others name theirs
         where = place or group
     return where, key.replace("_", " ")
+
+
+def _listed_entry(path: str) -> tuple[str, str] | None:
+    """A listed entry of the check JSON at its owner, named in words: a rail's ripple at
+    one harmonic (``supplies.NAME.ripple_harmonics.HZ.vpk``: ``supply NAME``, ``ripple
+    100 Hz``), the hum by path (``hum.by_path.STAGE.PATH.vrms``: ``STAGE``, ``hum via
+    PATH``), by root supply (``hum.by_rail.NAME.vrms``) and by harmonic
+    (``hum.harmonics.HZ.vrms``); None for any other figure. A harmonic's key writes a
+    decimal point ``_`` (`chainbudget.spread.hum.harmonic_key`)."""
+    entry, _, key = path.rpartition(".")
+    if key not in _ENTRY_KEYS:
+        return None
+    figure = _ENTRY_KEYS[key]
+    if path.startswith("supplies.") and ".ripple_harmonics." in entry:
+        name, _, hz = entry.removeprefix("supplies.").rpartition(".ripple_harmonics.")
+        return f"supply {name}", f"{figure} {hz.replace('_', '.')} Hz"
+    if entry.startswith("hum.by_path."):
+        stage, _, via = entry.removeprefix("hum.by_path.").partition(".")
+        return stage, f"{figure} via {via}"
+    if entry.startswith("hum.by_rail."):
+        return f"supply {entry.removeprefix('hum.by_rail.')}", f"{figure} from it"
+    if entry.startswith("hum.harmonics."):
+        hz = entry.removeprefix("hum.harmonics.")
+        return "hum", f"{figure} {hz.replace('_', '.')} Hz"
+    return None
 
 
 def _number(unit: str, value: float) -> str:
