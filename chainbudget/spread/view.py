@@ -185,8 +185,12 @@ def _listed_entry(path: str) -> tuple[str, str] | None:
 
 
 def _number(unit: str, value: float) -> str:
-    """A figure as the table shows it: dB to two decimals, others to four digits."""
-    return f"{value:+.2f}" if unit in ("dB", "dBu") else f"{value:.4g}"
+    """A figure as the table shows it: dB to two decimals, others to four digits (three
+    below 0.01, a share of a few parts per million of the noise in per cent, so that no
+    number is wider than its column: ``0.000966``)."""
+    if unit in ("dB", "dBu"):
+        return f"{value:+.2f}"
+    return f"{value:.3g}" if 0.0 < abs(value) < 0.01 else f"{value:.4g}"
 
 
 def _in_chain_order(paths: list[str], places: Sequence[str]) -> list[str]:
