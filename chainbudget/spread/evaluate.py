@@ -75,8 +75,8 @@ Figures = dict[str, NDArray[np.float64]]
 # Trial-frequency points per batched solve: each point is one stage matrix (n x n complex,
 # n up to 16 in the examples), so a batch's matrices take at most about 70 MB.
 CHUNK_POINTS = 1 << 14
-# The steps of `Evaluator._batch` after the supplies and the DC walk, in order: each gives
-# a family of figures, and a corner row asks for the one its figure comes from.
+# The steps of `Evaluator._batch` after the supplies and the DC walk (it runs them in its
+# own order): each gives a family of figures, and a corner row asks for its figure's.
 STEPS = frozenset(
     (
         "reference",
