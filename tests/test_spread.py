@@ -676,6 +676,20 @@ max_output = "6 V"
 )
 
 
+def _in_db(path: str) -> bool:
+    """Noise and hum (tiny voltages) are compared in dB."""
+    return path.rsplit(".", 1)[-1].endswith(("_vrms", "_rthz"))
+
+
+def _assert_same_figure(path: str, got: float, want: float, db_abs: float, trial: int) -> None:
+    """A spread figure equal to the check's: noise and hum in dB within ``db_abs``, any
+    other figure at rtol 1e-9."""
+    if _in_db(path) and want > 0.0:
+        assert 20 * math.log10(got) == pytest.approx(20 * math.log10(want), abs=db_abs)
+    else:
+        assert got == pytest.approx(want, rel=1e-9, abs=1e-12), (path, trial)
+
+
 def _json_figure(
     data: dict,  # type: ignore[type-arg]
     path: str,

@@ -15,7 +15,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 from numpy.typing import NDArray
-from test_spread import _hz_key, _json_figure
+from test_spread import _assert_same_figure, _hz_key, _json_figure
 
 from chainbudget.budget import compute
 from chainbudget.budget.supplies import settle
@@ -256,12 +256,6 @@ def _trial_text(text: str, parts: list[Part], values: list[NDArray[np.float64]],
     )
 
 
-def _in_db(path: str) -> bool:
-    """Noise and hum (tiny voltages) are compared in dB."""
-    key = path.rsplit(".", 1)[-1]
-    return key.endswith("_vrms") or key.endswith("_rthz")
-
-
 @pytest.mark.parametrize(
     "text",
     [FILTERS, FILTERS_ON_A_DRAWN_RESERVOIR, DIVIDER_ON_A_REGULATOR],
@@ -321,10 +315,7 @@ def test_every_figure_of_each_trial_equals_the_check_of_that_trial_written_into_
         data = json.loads(json.dumps(budget_json(budget, list(budget.findings))))
         for path in figures:
             want, got = _json_figure(data, path, budget), float(batched[path][t])
-            if _in_db(path) and want > 0.0:
-                assert 20 * math.log10(got) == pytest.approx(20 * math.log10(want), abs=1e-9)
-            else:
-                assert got == pytest.approx(want, rel=1e-9, abs=1e-12), (path, t)
+            _assert_same_figure(path, got, want, 1e-9, t)
 
 
 # A filter and a divider with their capacitors off a rectified rail whose reservoir is held:

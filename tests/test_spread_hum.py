@@ -11,7 +11,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 from numpy.typing import NDArray
-from test_spread import _chain, _hz_key, _json_figure, trial_changes
+from test_spread import _assert_same_figure, _chain, _hz_key, _in_db, _json_figure, trial_changes
 
 from chainbudget.chainfile import Chain
 from chainbudget.spread.flags import flag_key, is_flag
@@ -46,12 +46,6 @@ def _evaluator(chain: Chain):  # noqa: ANN202
 
     parts, _ = chain_parts(chain)
     return parts, Evaluator(chain, tuple(parts), compute(chain), settle(chain, "low").voltages)
-
-
-def _in_db(path: str) -> bool:
-    """Noise and hum (tiny voltages) are compared in dB."""
-    key = path.rsplit(".", 1)[-1]
-    return key.endswith("_vrms") or key.endswith("_rthz")
 
 
 def test_hum_noise_and_loops_of_each_trial_equal_the_check_of_that_trial() -> None:
@@ -491,10 +485,8 @@ def test_ripple_and_hum_of_each_trial_equal_the_check_of_that_trial() -> None:
             want, got = _json_figure(data, path), alone[path][0]
             if not regulating and not _follows_the_ripple(path):
                 assert got == pytest.approx(want, rel=1e-3, abs=1e-9), (path, t)
-            elif _in_db(path) and want > 0.0:
-                assert 20 * math.log10(got) == pytest.approx(20 * math.log10(want), abs=1e-8)
             else:
-                assert got == pytest.approx(want, rel=1e-9, abs=1e-12), (path, t)
+                _assert_same_figure(path, got, want, 1e-8, t)
         codes = {f.code for f in budget.findings}
         for code in HUM_CODES:
             assert bool(masks[code][t]) == (code in codes), (code, t)

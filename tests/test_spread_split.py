@@ -7,14 +7,13 @@ report lists as held."""
 from __future__ import annotations
 
 import json
-import math
 import tomllib
 from pathlib import Path
 from typing import Any
 
 import numpy as np
 import pytest
-from test_spread import _json_figure
+from test_spread import _assert_same_figure, _json_figure
 
 from chainbudget.budget import compute
 from chainbudget.budget.supplies import settle
@@ -132,11 +131,6 @@ def _checked_alone(text: str, reservoir_f: float) -> dict[str, Any]:
     return dict(json.loads(json.dumps(budget_json(budget, list(budget.findings)))))
 
 
-def _in_db(path: str) -> bool:
-    """Noise and hum (tiny voltages) are compared in dB."""
-    return path.rsplit(".", 1)[-1].endswith(("_vrms", "_rthz"))
-
-
 def test_both_rails_and_what_they_feed_equal_the_check_of_each_trial() -> None:
     """Brute force, one sample at a time: eight of 24 trials of the drawn reservoir, each
     written into the chain file's text and checked on its own. Solved alone (directly),
@@ -182,10 +176,7 @@ def test_both_rails_and_what_they_feed_equal_the_check_of_each_trial() -> None:
         for path in batched:
             assert not is_flag(path)
             want, got = _json_figure(data, path), alone[path][0]
-            if _in_db(path) and want > 0.0:
-                assert 20 * math.log10(got) == pytest.approx(20 * math.log10(want), abs=1e-8)
-            else:
-                assert got == pytest.approx(want, rel=1e-9, abs=1e-12), (path, t)
+            _assert_same_figure(path, got, want, 1e-8, t)
 
 
 # Two rails under steady loads of different size (blocks drawing a constant current: no
