@@ -1,7 +1,7 @@
 """Benchmark: the cost of `spread` against the raw batched solve of its own matrices (run by
 hand; never a timed assertion).
 
-    .venv/bin/python tests/bench/bench_spread.py [CHAIN] [TRIALS]
+    .venv/bin/python tests/bench/bench_spread.py [CHAIN] [TRIALS] [ROUNDS]
 
 Runs the spread's Monte Carlo (the chunked trials only: no corners, no sensitivities)
 of CHAIN (default: chains/busking_amp.toml, the largest example) for TRIALS trials (default
@@ -30,12 +30,13 @@ from chainbudget.spread.parts import chain_parts
 from chainbudget.spread.run import CHUNK_TRIALS
 
 ROOT = Path(__file__).resolve().parents[2]
-REPEATS = 9
+REPEATS = 9  # rounds; a third argument sets another count
 
 
 def main() -> None:
     chain_file = Path(sys.argv[1]) if len(sys.argv) > 1 else ROOT / "chains" / "busking_amp.toml"
     trials = int(sys.argv[2]) if len(sys.argv) > 2 else 10_000
+    repeats = int(sys.argv[3]) if len(sys.argv) > 3 else REPEATS
     # one thread, as the baseline solves: the ratio compares like with like
     evaluate_module.WORKERS = 1
     chain = load_chain(chain_file)
@@ -77,7 +78,7 @@ def main() -> None:
 
     # Interleaved, best of REPEATS each: the machine's other load falls on both alike.
     spread_times, raw_times = [], []
-    for _ in range(REPEATS):
+    for _ in range(repeats):
         spread_times.append(run())
         raw_times.append(raw())
     spread_s, raw_s = min(spread_times), min(raw_times)
