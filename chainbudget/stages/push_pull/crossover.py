@@ -192,17 +192,16 @@ def _solved_output(
     r_load: float,
     v_t: float,
     near: _Solved | None = None,
-    scale_by: NDArray[np.float64] | float = 1.0,
 ) -> _Solved:
-    """`static_output` of ``v``; ``near`` (the solve of a drive ``scale_by`` times smaller,
-    sample by sample) starts the Newton steps at its output so scaled and its currents."""
+    """`static_output` of ``v``; ``near`` (the solve of a nearby drive, sample by sample)
+    starts the Newton steps at its output and its currents."""
     lo, hi = np.minimum(v, 0.0), np.maximum(v, 0.0)
     if near is None:
         out = v * r_load / (r_load + 0.5 * (upper.r_ohm + lower.r_ohm))
         i_u: NDArray[np.float64] | None = None
         i_l: NDArray[np.float64] | None = None
     else:
-        out = np.clip(near.out * scale_by, lo, hi)
+        out = np.clip(near.out, lo, hi)
         i_u, i_l = near.i_u, near.i_l
     scale = float(np.max(np.abs(v), initial=0.0))
     rounding = ROUNDING_ULPS * float(np.spacing(scale))
@@ -234,6 +233,105 @@ def _solved_output(
         last = largest
     assert i_u is not None and i_l is not None  # NEWTON_STEPS >= 1
     return _Solved(np.asarray(out), i_u, i_l)
+
+
+#: Newton steps at most of `_refined_output`: a sample not settled by then is handed to the
+#: bracketed solve (`_solved_output`).
+JOINT_STEPS = 10
+#: Largest rise of a half's log-current in one joint Newton step (a factor e^2 in current):
+#: a start far below the answer climbs there in bounded steps instead of overflowing.
+JOINT_MAX_STEP = 2.0
+
+
+def _refined_output(
+    v: NDArray[np.float64],
+    upper: HalfLaw,
+    lower: HalfLaw,
+    r_load: float,
+    v_t: float,
+    near: _Solved,
+) -> _Solved:
+    """`static_output` of ``v`` from the currents of a nearby solve, by Newton's method on
+    both halves' log-currents at once; a sample it does not settle is solved again by the
+    bracketed solve (`_solved_output`) from the same start.
+
+    Notes
+    -----
+    With p = ln(I_u/I_q), q = ln(I_l/I_q) each half's drive is f(p) = m V_T p +
+    R (I_q e^p - I_q) (the module's notes), and the pair's state solves
+    G1 = f_u(p) + f_l(q) = 0 (both halves see the same drive, with opposite signs) and
+    G2 = f_u(p) + R_L (I_u - I_l) - v = 0 (the load closes it): two equations in two
+    unknowns per sample, with the Jacobian [[f_u', f_l'], [f_u' + R_L I_u, -R_L I_l]],
+    whose determinant is negative everywhere (every term of it has one sign), so each step
+    is defined. Newton's method converges quadratically near the answer (Dennis &
+    Schnabel, Numerical Methods for Unconstrained Optimization and Nonlinear Equations,
+    1983, thm. 5.2.1, from memory). A sample is settled once both residuals, in volts, are
+    within `ROUNDING_ULPS` of the drive's peak (the output is then v - f_u(p) to that
+    rounding: the equations hold as well as floats can state them); the steps stop once
+    every sample is, or once the largest residual no longer shrinks. No Lambert W inside:
+    one exponential per half and step.
+    """
+    a_u, a_l = upper.junctions * v_t, lower.junctions * v_t
+    r_u, r_l = np.asarray(upper.r_ohm, dtype=float), np.asarray(lower.r_ohm, dtype=float)
+    q_u, q_l = np.asarray(upper.i_q, dtype=float), np.asarray(lower.i_q, dtype=float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        p = np.log(near.i_u / q_u)
+        q = np.log(near.i_l / q_l)
+    rounding = ROUNDING_ULPS * float(np.spacing(np.max(np.abs(v), initial=0.0)))
+    last = np.inf
+    for k in range(JOINT_STEPS + 1):
+        i_u = q_u * np.exp(p)
+        i_l = q_l * np.exp(q)
+        drive_u = a_u * p + r_u * (i_u - q_u)
+        g1 = drive_u + a_l * q + r_l * (i_l - q_l)
+        g2 = drive_u + r_load * (i_u - i_l) - v
+        residual = np.maximum(np.abs(g1), np.abs(g2))
+        largest = float(np.max(residual, initial=0.0))
+        if largest <= rounding or not largest < last or k == JOINT_STEPS:
+            break
+        last = largest
+        slope_u = a_u + r_u * i_u
+        slope_l = a_l + r_l * i_l
+        j21 = slope_u + r_load * i_u
+        j22 = -r_load * i_l
+        det = slope_u * j22 - slope_l * j21
+        # a current rises by at most e^JOINT_MAX_STEP a step (no overflow); it may fall
+        # freely (a half cutting off: its drive is then linear in its log-current)
+        p = p - np.maximum((g1 * j22 - slope_l * g2) / det, -JOINT_MAX_STEP)
+        q = q - np.maximum((slope_u * g2 - j21 * g1) / det, -JOINT_MAX_STEP)
+    out = np.asarray(v - drive_u)
+    astray = ~(residual <= rounding)
+    if np.any(astray):
+        shape = np.shape(out)
+        out, i_u, i_l = (np.array(np.broadcast_to(x, shape)) for x in (out, i_u, i_l))
+        pick = _picked(astray)
+        again = _solved_output(
+            v[astray],
+            _picked_law(upper, astray),
+            _picked_law(lower, astray),
+            r_load,
+            v_t,
+            _Solved(*(pick(x) for x in (near.out, near.i_u, near.i_l))),
+        )
+        out[astray], i_u[astray], i_l[astray] = again.out, again.i_u, again.i_l
+    return _Solved(out, i_u, i_l)
+
+
+def _picked(where: NDArray[np.bool_]) -> Any:
+    """A function giving an array's values (broadcast to ``where``'s shape) where it holds."""
+
+    def pick(value: Any) -> Any:
+        if np.ndim(value) == 0:
+            return value
+        return np.broadcast_to(value, where.shape)[where]
+
+    return pick
+
+
+def _picked_law(law: HalfLaw, where: NDArray[np.bool_]) -> HalfLaw:
+    """``law`` with its arrays cut to the samples ``where`` holds (one value each)."""
+    pick = _picked(where)
+    return HalfLaw(law.junctions, pick(law.r_ohm), pick(law.i_q))
 
 
 @dataclass(frozen=True)
@@ -280,13 +378,24 @@ def harmonic_amplitudes(
     start = None
     if target.ndim >= 2 and target.shape[0] > SEEDED_BATCH:
         # Many trials of nearby parts: the first one solved alone starts them all (its
-        # drive per volt of fundamental, its output per volt of drive, its currents).
+        # drive per volt of fundamental, moved by each trial's own resistive loss, and its
+        # currents).
         first = _first_trial(up), _first_trial(lo)
         seed_drive, seed = _levels_solved(target[:1], *first, r_load, v_t)[1:]
         if np.all(target[:1] > 0.0) and np.all(seed_drive > 0.0):  # else start cold
-            start = seed_drive / target[:1], seed, seed_drive
+            loss = _resistive_loss(upper, lower, r_load)
+            start = seed_drive / target[:1] * loss / loss[:1], seed
     spectrum = _levels_solved(target, up, lo, r_load, v_t, start)[0]
     return np.asarray(np.abs(spectrum[..., 1 : HARMONICS + 1]))
+
+
+def _resistive_loss(upper: HalfLaw, lower: HalfLaw, r_load: float) -> NDArray[np.float64]:
+    """Drive per volt of output at large signal, 1 + R/R_L with R the halves' mean
+    resistance (one half conducting, its junctions' drop small beside R I): where a
+    trial's drive per volt of fundamental differs from the first trial's. Shape (T, 1)
+    for the laws' per-trial arrays, (1,) for scalars."""
+    r = 0.5 * (np.asarray(upper.r_ohm, dtype=float) + np.asarray(lower.r_ohm, dtype=float))
+    return np.atleast_1d(1.0 + r / r_load)
 
 
 #: A leading batch axis longer than this (the spread's trials) is started from its first.
@@ -308,7 +417,7 @@ def _levels_solved(
     lo: HalfLaw,
     r_load: float,
     v_t: float,
-    start: tuple[NDArray[np.float64], _Solved, NDArray[np.float64]] | None = None,
+    start: tuple[NDArray[np.float64], _Solved] | None = None,
 ) -> tuple[NDArray[np.complex128], NDArray[np.float64], _Solved]:
     """The spectrum (2|X_n|/N, n = 0..N/2) of the static transfer's output with the
     fundamental at ``target``, the drive that gives it and the last solve (the notes of
@@ -317,16 +426,19 @@ def _levels_solved(
     wave, cycle = _quarter_wave(SAMPLES)
     drive = target.copy()
     solved: _Solved | None = None
-    step: NDArray[np.float64] | float = 1.0
     if start is not None:
-        per_volt, solved, seed_drive = start
+        per_volt, solved = start
         drive = target * per_volt
-        step = (drive / seed_drive)[..., None]
     spectrum = np.zeros((*target.shape, SAMPLES // 2 + 1), complex)
     missed = np.inf
     before: tuple[NDArray[np.float64], NDArray[np.float64]] | None = None
     for _ in range(LEVEL_STEPS):
-        solved = _solved_output(drive[..., None] * wave, up, lo, r_load, v_t, solved, step)
+        v = drive[..., None] * wave
+        solved = (
+            _solved_output(v, up, lo, r_load, v_t)
+            if solved is None
+            else _refined_output(v, up, lo, r_load, v_t, solved)
+        )
         found = np.fft.rfft(solved.out[..., cycle], axis=-1) * 2.0 / SAMPLES
         fundamental = np.abs(found[..., 1])
         ratio = np.where(fundamental > 0.0, target / fundamental, 1.0)
@@ -337,7 +449,7 @@ def _levels_solved(
         if miss <= LEVEL_TOLERANCE:
             break
         moved = _next_drive(drive, fundamental, target, ratio, before)
-        before, step, drive = (drive, fundamental), (moved / drive)[..., None], moved
+        before, drive = (drive, fundamental), moved
     assert solved is not None  # LEVEL_STEPS >= 1
     return spectrum, drive, solved
 
