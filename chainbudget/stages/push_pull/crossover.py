@@ -371,7 +371,10 @@ def harmonic_amplitudes(
     discrete Fourier transform (amplitude 2|X_n|/N). The drive amplitude is corrected until
     the fundamental is the level asked for to `LEVEL_TOLERANCE` (or no longer comes closer):
     first by the ratio of the fundamental asked for to the one obtained, then by the secant
-    through the last two drives (`_next_drive`), at most `LEVEL_STEPS` times.
+    through the last two drives (`_next_drive`), at most `LEVEL_STEPS` times. The first
+    drive is solved by the bracketed Newton steps (`_solved_output`); every later one, and
+    a batch of trials started from its first trial's solve, by the joint Newton steps from
+    the last solve (`_refined_output`), which need no Lambert W.
     """
     target = np.asarray(levels_vpk, dtype=float)
     up, lo = _on_samples(upper), _on_samples(lower)
