@@ -483,20 +483,34 @@ class Netlist:
         fixed = np.zeros((n, n), dtype=complex)
         diagonal = np.arange(len(self.nodes))
         fixed[diagonal, diagonal] += GMIN
-        varying: dict[tuple[int, int], Any] = {}
+        # Laid out entry-major, (N, N) + batch, so that each entry's write is one contiguous
+        # pass over the batch (an MNA matrix is mostly zeros: only the others are written),
+        # and handed back as the batch-major view numpy's solve takes (its solve copies each
+        # matrix into its own buffer either way). Each array value is added into its entry
+        # in place (no temporary per stamp); the constant parts are summed apart and added
+        # last.
+        m = np.zeros((n, n, *shape), dtype=complex)
+        written = np.zeros((n, n), dtype=bool)
 
-        def add(r: int, c: int, value: Any) -> None:
+        def add(r: int, c: int, sign: float, value: Any) -> None:
             if np.size(value) == 1:
-                fixed[r, c] += np.asarray(value).reshape(())
+                fixed[r, c] += sign * np.asarray(value).reshape(())
+                return
+            entry = m[r, c]
+            if sign == 1.0:
+                np.add(entry, value, out=entry)
+            elif sign == -1.0:
+                np.subtract(entry, value, out=entry)
             else:
-                varying[(r, c)] = varying.get((r, c), 0.0) + value
+                entry += sign * np.asarray(value)
+            written[r, c] = True
 
         stamp_values = iter(values)
         for st in self._stamps:
             value = next(stamp_values)
             for r, c, sign in zip(st.rows, st.cols, st.signs, strict=True):
                 if r >= 0 and c >= 0:
-                    add(r, c, sign * value)
+                    add(r, c, sign, value)
         for label, controls, coefficients in self._branch_stamps:
             k = self.index(branch_ref(label))
             for name, sign in controls:
@@ -508,17 +522,12 @@ class Netlist:
                 continue
             for name, coefficient in picked:
                 if name != GROUND:
-                    add(k, self.nodes[name], coefficient)
-        # Laid out entry-major, (N, N) + batch, so that each entry's write is one contiguous
-        # pass over the batch (an MNA matrix is mostly zeros: only the others are written),
-        # and handed back as the batch-major view numpy's solve takes (its solve copies each
-        # matrix into its own buffer either way).
-        m = np.zeros((n, n, *shape), dtype=complex)
+                    add(k, self.nodes[name], 1.0, coefficient)
         for r, c in zip(*np.nonzero(fixed), strict=True):
-            if (r, c) not in varying:
+            if written[r, c]:
+                m[r, c] += fixed[r, c]
+            else:
                 m[r, c] = fixed[r, c]
-        for (r, c), value in varying.items():
-            m[r, c] = fixed[r, c] + value
         return np.moveaxis(m, (0, 1), (-2, -1))
 
     def solve(self, rhs: ArrayLike) -> Complex:
