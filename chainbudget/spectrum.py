@@ -118,41 +118,43 @@ def integrate_psd(f: ArrayLike, psd: ArrayLike, axis: int = -1) -> NDArray[np.fl
     """
     f_arr = np.asarray(f, dtype=np.float64)
     psd_arr = np.moveaxis(np.asarray(psd, dtype=np.float64), axis, -1)
-    if f_arr.ndim != 1 or f_arr.size < 2:
-        raise ValueError(f"f must be 1-D with at least 2 points, got shape {f_arr.shape}")
     if psd_arr.shape[-1] != f_arr.size:
         raise ValueError(
             f"psd has {psd_arr.shape[-1]} points along axis {axis}, f has {f_arr.size}"
         )
+    return np.asarray(psd_arr @ psd_weights(f_arr), dtype=np.float64)
+
+
+def psd_weights(f: ArrayLike) -> NDArray[np.float64]:
+    """The weights q_i of `integrate_psd`'s rule on the grid ``f``: the integral of a PSD S
+    sampled there is sum_i q_i S(f_i) (the rule is linear in S: its Simpson weights in
+    u = ln f times f_i, see `integrate_psd`). One product with them integrates every batch
+    of spectra on that grid at once; a weighting |W(f_i)|^2 folds into them."""
+    f_arr = np.asarray(f, dtype=np.float64)
+    if f_arr.ndim != 1 or f_arr.size < 2:
+        raise ValueError(f"f must be 1-D with at least 2 points, got shape {f_arr.shape}")
     if not (f_arr[0] > 0.0 and np.all(np.diff(f_arr) > 0.0)):
         raise ValueError("f must be positive and strictly ascending")
-
-    u = np.log(f_arr)
-    g = f_arr * psd_arr
-    h = np.diff(u)
+    h = np.diff(np.log(f_arr))
     n_intervals = h.size
+    w = np.zeros(f_arr.size)
     if n_intervals == 1:
-        return np.asarray(0.5 * h[0] * (g[..., 0] + g[..., 1]), dtype=np.float64)
-
+        w[:] = 0.5 * h[0]
+        return np.asarray(w * f_arr)
     paired = n_intervals - n_intervals % 2  # intervals covered by Simpson pairs
     h0 = h[0:paired:2]
     h1 = h[1:paired:2]
     span = h0 + h1
-    w0 = span / 6.0 * (2.0 - h1 / h0)
-    w1 = span / 6.0 * span * span / (h0 * h1)
-    w2 = span / 6.0 * (2.0 - h0 / h1)
-    total = (
-        w0 * g[..., 0:paired:2] + w1 * g[..., 1 : paired + 1 : 2] + w2 * g[..., 2 : paired + 1 : 2]
-    ).sum(axis=-1)
-
+    w[0:paired:2] += span / 6.0 * (2.0 - h1 / h0)
+    w[1 : paired + 1 : 2] += span / 6.0 * span * span / (h0 * h1)
+    w[2 : paired + 1 : 2] += span / 6.0 * (2.0 - h0 / h1)
     if n_intervals % 2:
         # Last interval under the parabola through the last three nodes.
         a, b = h[-2], h[-1]
-        w_last = (2.0 * b * b + 3.0 * a * b) / (6.0 * (a + b))
-        w_mid = (b * b + 3.0 * a * b) / (6.0 * a)
-        w_first = b**3 / (6.0 * a * (a + b))
-        total = total + w_last * g[..., -1] + w_mid * g[..., -2] - w_first * g[..., -3]
-    return np.asarray(total, dtype=np.float64)
+        w[-1] += (2.0 * b * b + 3.0 * a * b) / (6.0 * (a + b))
+        w[-2] += (b * b + 3.0 * a * b) / (6.0 * a)
+        w[-3] -= b**3 / (6.0 * a * (a + b))
+    return np.asarray(w * f_arr)
 
 
 def thermal_voltage_psd(resistance_ohm: ArrayLike, temperature_k: ArrayLike) -> NDArray[np.float64]:

@@ -45,7 +45,7 @@ from chainbudget.chainfile import Chain
 from chainbudget.loops import Section
 from chainbudget.network import GROUND, Complex, Netlist, TwoPort
 from chainbudget.source_network import source_resistance
-from chainbudget.spectrum import integrate_psd, thermal_voltage_psd
+from chainbudget.spectrum import psd_weights, thermal_voltage_psd
 from chainbudget.stages import KINDS
 from chainbudget.stages.base import Environment, Stage
 
@@ -176,7 +176,8 @@ class NoiseSpectra:
         ``weighting`` gives the amplitude factor |W(f)|; the PSD is multiplied by its square.
         """
         f = self.band_frequency
-        return integrate_psd(f, psd[..., self.band] * weighting(f) ** 2)
+        # `chainbudget.spectrum.integrate_psd`'s rule, the weighting folded into its weights
+        return np.asarray(psd[..., self.band] @ (psd_weights(f) * weighting(f) ** 2))
 
 
 def unweighted(f: ArrayLike) -> NDArray[np.float64]:
