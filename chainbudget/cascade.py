@@ -43,7 +43,7 @@ from chainbudget.network import (
     two_port,
 )
 from chainbudget.stages import KINDS
-from chainbudget.stages.base import Built, Environment, Stage
+from chainbudget.stages.base import Built, Environment, LoadSideTerms, Stage
 
 
 @dataclass(frozen=True)
@@ -120,9 +120,16 @@ class Cascade:
 
     def probe(self, k: int, name: str) -> Complex:
         """A probe of stage k (declared by its build), per volt of source voltage."""
-        g1, g2 = self.stages[k].two_port.probes[name]
+        sol = self.stages[k]
+        side = sol.built.load_side.get(name)
+        g1, g2 = sol.two_port.probes[name if side is None else side.inner]
         section = self.section(k)
-        return g1 * self.v_in[section.first] + g2 * self.v_out[section.last]
+        value = g1 * self.v_in[section.first] + g2 * self.v_out[section.last]
+        if side is not None and side.at_output:
+            # a current read on the load side (`LoadSide`): what the stage delivers to the
+            # stage after it (or the chain's load) adds to its own elements' share
+            value = value + self.load_admittance[k] * self.v_out[k]
+        return value
 
 
 @dataclass
@@ -204,8 +211,10 @@ def solve_stage(
     net = Netlist(frequency, points)
     built = kind.build(net, stage, env, "in", "out", positions)
     port = None if solved is None else solved.ports.get(network)
+    load_side = LoadSideTerms.of(net, built)
     if port is None:
-        port = two_port(net, "in", "out", built.probes)
+        port = two_port(net, "in", "out", {**built.probes, **load_side.refs})
+        port.probes.update(load_side.probes(port.probes))
     solution = StageSolution(stage, port, built)
     if solved is not None and key is not None:
         solved.solutions[key] = solution
@@ -315,10 +324,12 @@ def solve_section(
     for k in inner:
         own[f"node{k}"] = node_ref(inner_node(k))
         own[f"link{k}"] = branch_ref(link_label(k))
-    solutions = tuple(
-        StageSolution(stages[k], port(probes(built.probes)), built)
-        for k, built in zip(section.indices, builts, strict=True)
-    )
+    solutions = []
+    for k, built in zip(section.indices, builts, strict=True):
+        load_side = LoadSideTerms.of(net, built)
+        found = probes({**built.probes, **load_side.refs})
+        found.update(load_side.probes(found))
+        solutions.append(StageSolution(stages[k], port(found), built))
     injections = {
         k: Injection(
             x[..., net.index(node_ref(inner_node(k))), column],
@@ -327,7 +338,9 @@ def solve_section(
         )
         for column, k in enumerate(inner, start=2)
     }
-    return SectionSolution(section, port(probes(own)), solutions, (y11, y12, y21, y22), injections)
+    return SectionSolution(
+        section, port(probes(own)), tuple(solutions), (y11, y12, y21, y22), injections
+    )
 
 
 def _as_section(solution: StageSolution | SectionSolution, k: int) -> SectionSolution:

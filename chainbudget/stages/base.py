@@ -22,7 +22,7 @@ from numpy.typing import ArrayLike, NDArray
 from chainbudget import fields as f
 from chainbudget.finding import Finding
 from chainbudget.kindfigures import KindFigures
-from chainbudget.network import GROUND, Complex, Netlist, Ref, branch_ref, node_ref
+from chainbudget.network import GMIN, GROUND, Complex, Netlist, Ref, branch_ref, node_ref
 from chainbudget.parts import OpAmp, Transistor
 from chainbudget.spectrum import flicker_psd
 from chainbudget.units import UnitParseError
@@ -177,6 +177,103 @@ class Built:
     #: Probes of the currents the stage sources in half-sine pulses from each rail (an
     #: op-amp's output, a class-B output pair), for the mean rail currents.
     pulse_probes: list[str] = field(default_factory=list)
+    #: Current probes worked out on the load side of a node (`LoadSide`): an op-amp's
+    #: output current, by probe name.
+    load_side: dict[str, LoadSide] = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
+class LoadSide:
+    """A current probe read by Kirchhoff's current law at ``node``: the current that
+    leaves it through every element connected there but the one from ``behind`` (the
+    source that delivers it), plus, when ``node`` is the stage's output node, the current
+    the stage delivers to what follows (``at_output``, set once the build is complete).
+
+    Its two-port probe ``inner`` holds the currents into the stage's own elements; the
+    cascade adds the delivered current (`chainbudget.cascade.Cascade.probe`).
+    """
+
+    node: str
+    behind: str
+    inner: str
+    at_output: bool = True
+
+
+def _admittances_at(net: Netlist, node: str) -> list[tuple[str, Complex]]:
+    """Every admittance stamped at ``node``: (the node at its other end, its value).
+
+    Reads the netlist's admittance stamps (rows (i, j, i, j), signs (1, 1, -1, -1), see
+    `Netlist.admittance`); a stamp of another shape at the node is refused loudly, so a
+    change in how the netlist keeps its elements shows here and in
+    tests/test_opamp_current.py rather than as a wrong current.
+    """
+    at = net.nodes[node]
+    names = {index: name for name, index in net.nodes.items()}
+    found = []
+    for stamp in net._stamps:  # read only: Netlist has no public list of its elements
+        if at not in stamp.rows:
+            continue
+        i, j = stamp.rows[0], stamp.rows[1]
+        assert stamp.rows == (i, j, i, j) and stamp.cols == (i, j, j, i), "not an admittance"
+        assert stamp.signs == (1.0, 1.0, -1.0, -1.0), "not an admittance"
+        if i == j:
+            continue
+        other = j if i == at else i
+        found.append((GROUND if other < 0 else names[other], stamp.value))
+    return found
+
+
+@dataclass(frozen=True)
+class LoadSideTerms:
+    """The node-voltage probes and admittances of a built stage's `LoadSide` currents.
+
+    ``terms`` maps each current's inner probe to its node's probe name, the node's total
+    admittance and ((neighbour probe name, admittance), ...); ``refs`` the node-voltage
+    probes they need, to be solved with the stage's own.
+    """
+
+    terms: dict[str, tuple[str, Complex, tuple[tuple[str, Complex], ...]]]
+    refs: dict[str, Ref]
+
+    @classmethod
+    def of(cls, net: Netlist, built: Built) -> LoadSideTerms:
+        """Collect them once ``built``'s stage is completely stamped into ``net``; marks
+        each `LoadSide` whose node is not the stage's output node (an isolating resistor
+        between: it is one of the node's elements, and nothing more is delivered there)."""
+        terms: dict[str, tuple[str, Complex, tuple[tuple[str, Complex], ...]]] = {}
+        refs: dict[str, Ref] = {}
+        output = built.probes.get(built.output_probe)
+        for name, side in list(built.load_side.items()):
+            if output is not None and output != node_ref(side.node):
+                built.load_side[name] = LoadSide(side.node, side.behind, side.inner, False)
+            total: Complex = np.asarray(GMIN, dtype=complex)  # the node's leak to ground
+            others = []
+            for other, y in _admittances_at(net, side.node):
+                if other == side.behind:
+                    continue
+                total = total + y
+                if other != GROUND:
+                    refs[f"v({other})"] = node_ref(other)
+                    others.append((f"v({other})", y))
+            refs[f"v({side.node})"] = node_ref(side.node)
+            terms[side.inner] = (f"v({side.node})", total, tuple(others))
+        return cls(terms, refs)
+
+    def probes(
+        self, solved: Mapping[str, tuple[Complex, Complex]]
+    ) -> dict[str, tuple[Complex, Complex]]:
+        """Each inner probe from the solved node-voltage probes: sum over the elements
+        y_e (V_node - V_e) = Y_total V_node - sum_e y_e V_e, for g1 and g2 alike."""
+        found: dict[str, tuple[Complex, Complex]] = {}
+        for inner, (node, total, others) in self.terms.items():
+            pair = []
+            for side in (0, 1):
+                value = total * solved[node][side]
+                for probe, y in others:
+                    value = value - y * solved[probe][side]
+                pair.append(value)
+            found[inner] = (pair[0], pair[1])
+        return found
 
 
 class StageContext(Protocol):
@@ -646,6 +743,19 @@ def stamp_opamp(
     sine of peak Vp at f needs 2 pi f Vp <= SR, so Vp <= SR / (2 pi f) (full-power bandwidth,
     Franco, Design with Operational Amplifiers, 4th ed., sec. 6.4).
     Noise: e_n(f)^2 = e_n^2 (1 + f_c/f) at the non-inverting input, i_n at each input.
+
+    Output current (the ``current`` limit, the drive figures, the rail pulses): by
+    Kirchhoff's current law at the output node, what the op-amp delivers through R_o is
+    the sum of the currents leaving that node through every other element, y_e (V_out -
+    V_e), plus what the stage delivers to the stage after it (Chua, Desoer & Kuh, Linear
+    and Nonlinear Circuits, 1987, ch. 1 (KCL) and ch. 10 (node and modified node
+    analysis), from memory). Read that way (`LoadSide`) rather than as the branch current
+    of the source: with the ports of the stage's two-port held at V1 and V2 the source's
+    current is g1 V1 + g2 V2 with g2 ~ loop gain / R_o (1e12 S for a 200 dB op-amp at the
+    1 mohm floor of R_o), so where V2 is the stage's own output the sum is the difference
+    of two terms ~1e13 times the answer and is round-off; the node voltages are O(1)
+    functions of V1 and V2 and the delivered current is the cascade's Y_L V2, so the
+    load-side sum loses nothing. The two agree exactly in exact arithmetic.
     """
     part = opamp_part(stage, env)
     label = f"{stage.name}.opamp"
@@ -671,7 +781,11 @@ def stamp_opamp(
     stamp_opamp_ripple(net, stage.name, label, part, branch, gain, plus_at_bias=plus == GROUND)
     built.opamps.append((label, part))
     built.probes["out"] = node_ref(out)
+    # The source's branch current is minus the output current: kept as a probe for the
+    # worst-case search's segments, which read probes as two-port pairs; every figure
+    # reads the current on the load side (`LoadSide`: see the Notes).
     built.probes[f"{label}.current"] = branch_ref(label)
+    built.load_side[f"{label}.current"] = LoadSide(out, f"{label}.internal", f"{label}.inner")
     built.pulse_probes.append(f"{label}.current")
     built.output_probe = "out"
     rails = env.rails
