@@ -221,6 +221,21 @@ class Netlist:
             _Stamp((i, j, i, j), (i, j, j, i), (1.0, 1.0, -1.0, -1.0), np.asarray(y, complex))
         )
 
+    def admittances_at(self, node: str) -> list[tuple[str, Any]]:
+        """Every admittance stamped between ``node`` and another node or ground, as (the
+        name at its other end, its value), in the order stamped (a leak from a node to
+        itself, stamped with both ends there, adds nothing and is left out)."""
+        at = self.nodes[node]
+        names = {index: name for name, index in self.nodes.items()}
+        found = []
+        for stamp in self._stamps:  # every stamp is an admittance (`admittance`)
+            i, j = stamp.rows[0], stamp.rows[1]
+            if at not in (i, j) or i == j:
+                continue
+            other = j if i == at else i
+            found.append((GROUND if other < 0 else names[other], stamp.value))
+        return found
+
     def resistor(
         self,
         a: str,

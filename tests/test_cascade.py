@@ -94,12 +94,12 @@ def _compare(positions: list[Mapping[str, ArrayLike]]) -> tuple[int, ...]:
         np.testing.assert_allclose(chain.v_out[k], node(out), rtol=1e-9, err_msg=f"stage {k}")
         if k + 1 < len(outs):
             np.testing.assert_allclose(chain.v_in[k + 1], chain.v_out[k], rtol=1e-12)
-    # The op-amp output current probes of the cascade are the currents of the whole network
-    # (looser: a probe is g1 V1 + g2 V2 with g2 ~ loop gain / R_o, which cancels).
+    # The op-amp output current probes of the cascade are the currents of the whole network:
+    # what the op-amp delivers, minus its source's branch current (which flows into it).
     for k, stage in enumerate(STAGES):
         label = f"{stage.name}.opamp"
         if f"{label}.current" in solutions[k].built.probes:
-            direct = x[..., net.index(branch_ref(label))]
+            direct = -x[..., net.index(branch_ref(label))]
             np.testing.assert_allclose(
                 chain.probe(k, f"{label}.current"), direct, rtol=1e-6, err_msg=label
             )

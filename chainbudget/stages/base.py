@@ -199,30 +199,6 @@ class LoadSide:
     at_output: bool = True
 
 
-def _admittances_at(net: Netlist, node: str) -> list[tuple[str, Complex]]:
-    """Every admittance stamped at ``node``: (the node at its other end, its value).
-
-    Reads the netlist's admittance stamps (rows (i, j, i, j), signs (1, 1, -1, -1), see
-    `Netlist.admittance`); a stamp of another shape at the node is refused loudly, so a
-    change in how the netlist keeps its elements shows here and in
-    tests/test_opamp_current.py rather than as a wrong current.
-    """
-    at = net.nodes[node]
-    names = {index: name for name, index in net.nodes.items()}
-    found = []
-    for stamp in net._stamps:  # read only: Netlist has no public list of its elements
-        if at not in stamp.rows:
-            continue
-        i, j = stamp.rows[0], stamp.rows[1]
-        assert stamp.rows == (i, j, i, j) and stamp.cols == (i, j, j, i), "not an admittance"
-        assert stamp.signs == (1.0, 1.0, -1.0, -1.0), "not an admittance"
-        if i == j:
-            continue
-        other = j if i == at else i
-        found.append((GROUND if other < 0 else names[other], stamp.value))
-    return found
-
-
 @dataclass(frozen=True)
 class LoadSideTerms:
     """The node-voltage probes and admittances of a built stage's `LoadSide` currents.
@@ -248,7 +224,7 @@ class LoadSideTerms:
                 built.load_side[name] = LoadSide(side.node, side.behind, side.inner, False)
             total: Complex = np.asarray(GMIN, dtype=complex)  # the node's leak to ground
             others = []
-            for other, y in _admittances_at(net, side.node):
+            for other, y in net.admittances_at(side.node):
                 if other == side.behind:
                     continue
                 total = total + y
