@@ -26,7 +26,7 @@ from collections.abc import Callable, Hashable, Iterator, Mapping, Sequence
 from contextlib import contextmanager
 from contextvars import ContextVar
 from dataclasses import dataclass, field, replace
-from typing import cast
+from typing import Any, cast
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -340,6 +340,39 @@ def solve_section(
     }
     return SectionSolution(
         section, port(probes(own)), tuple(solutions), (y11, y12, y21, y22), injections
+    )
+
+
+def at_points(solution: SectionSolution, at: NDArray[np.intp], size: int) -> SectionSolution:
+    """``solution`` (solved on a frequency axis of ``size`` points) at the indices ``at``
+    only: every array on that axis (its last, of length ``size``: the two-ports, their
+    probes, the admittances and injections of a loop, a limit that varies with frequency)
+    taken there, the rest (per-trial values, constants) kept. A cascade joined from such
+    sections lives on those points alone."""
+
+    def on(value: Any) -> Any:
+        if isinstance(value, np.ndarray) and value.ndim and value.shape[-1] == size:
+            return value[..., at]
+        return value
+
+    def port(tp: TwoPort) -> TwoPort:
+        probes = {name: (on(g1), on(g2)) for name, (g1, g2) in tp.probes.items()}
+        return TwoPort(on(tp.a), on(tp.b), on(tp.c), on(tp.d), probes)
+
+    def stage(sol: StageSolution) -> StageSolution:
+        limits = [replace(limit, peak=on(limit.peak)) for limit in sol.built.limits]
+        return StageSolution(sol.stage, port(sol.two_port), replace(sol.built, limits=limits))
+
+    admittances = solution.admittances
+    return SectionSolution(
+        solution.section,
+        port(solution.two_port),
+        tuple(stage(sol) for sol in solution.stages),
+        None if admittances is None else cast(Any, tuple(on(y) for y in admittances)),
+        {
+            k: Injection(on(inj.node_v), on(inj.port_in_a), on(inj.port_out_a))
+            for k, inj in solution.injections.items()
+        },
     )
 
 

@@ -125,7 +125,8 @@ def _opamps(
             level = np.minimum(max_peak, voltage_clip_source_peak(cascade, k))
             asked = np.abs(np.broadcast_to(cascade.probe(k, probe), level.shape)) * level
             if row is not None:  # the points the row is not solved at: none to search
-                asked = np.where(settings.solved_at(row, asked.shape[-1]), asked, 0.0)
+                size = np.shape(as_set.v_in[0])[-1]
+                asked = settings.on_axis(row, np.asarray(asked), size, 0.0)
             band = np.broadcast_to(asked, (trials, asked.shape[-1]))[:, 1:]
             worst = band.max(axis=1)
             limit = part.output_current

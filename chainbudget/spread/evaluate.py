@@ -38,7 +38,7 @@ from chainbudget.budget.analysis import environments, frequency_axis, positions_
 from chainbudget.budget.levels import DB_FLOOR, SQRT2, clip_source_peak, db
 from chainbudget.budget.rails import supply_states
 from chainbudget.budget.steps import with_value
-from chainbudget.cascade import Cascade, Joins, sections, solve_section
+from chainbudget.cascade import Cascade, Joins, at_points, sections, solve_section
 from chainbudget.cascade import cascade as join_cascade
 from chainbudget.chainfile import Chain
 from chainbudget.findings import SUPERSEDES
@@ -390,12 +390,14 @@ def _solve_as_set_and_held(
     """The chain solved with the controls as set, and at each held setting. A section
     (a stage, or a loop solved as one network) is solved once for each distinct setting
     of its own controls and serves every cascade that has it; at a held setting, only at
-    the points some row with that setting looks at (`HeldSettings.row_points`: elsewhere
-    the held cascades carry placeholders, which the figures mask out)."""
+    the points some row with that setting looks at (`HeldSettings.row_points`), and each
+    held cascade is joined on its own row's points alone (its arrays' last axis runs over
+    them: `HeldSettings.on_axis` puts a figure back on the whole axis)."""
     as_set_positions = positions_as_set(chain.stages)
     source = source_impedance(chain.source, frequency)
     load = load_impedance(chain.load, frequency)
     units = sections(chain.stages)
+    size = frequency.shape[-1]
     solved: dict[tuple[int, tuple[object, ...]], Any] = {}
     joins = Joins()  # the settings share most sections: their terminations, once
 
@@ -412,26 +414,47 @@ def _solve_as_set_and_held(
                 wanted.setdefault(key_of(unit, positions), set()).update(points.tolist())
     for unit in units:  # the settings as set: solved on the whole axis
         wanted.pop(key_of(unit, as_set_positions), None)
+    # a section on a row's points, kept for the rows with the same points
+    narrowed: dict[tuple[tuple[int, tuple[object, ...]], bytes], Any] = {}
+    ends: dict[bytes, tuple[Any, Any]] = {}
 
-    def solve(positions: list[dict[str, float]]) -> Cascade:
+    def on_points(value: Any, at: NDArray[np.intp]) -> Any:
+        if np.ndim(value) and np.shape(value)[-1] == size:
+            return np.asarray(value)[..., at]
+        return value
+
+    def solve(positions: list[dict[str, float]], at: NDArray[np.intp] | None = None) -> Cascade:
         found = []
         for unit in units:
             key = key_of(unit, positions)
             if key not in solved:
-                at = wanted.get(key)
-                points = None if at is None else np.array(sorted(at), dtype=np.intp)
+                want = wanted.get(key)
+                points = None if want is None else np.array(sorted(want), dtype=np.intp)
                 solved[key] = solve_section(
                     chain.stages, envs, frequency, positions, unit, points=points
                 )
-            found.append(solved[key])
-        return join_cascade(found, source, load, joins)
+            if at is None:
+                found.append(solved[key])
+                continue
+            held_key = (key, at.tobytes())
+            if held_key not in narrowed:
+                narrowed[held_key] = at_points(solved[key], at, size)
+            found.append(narrowed[held_key])
+        if at is None:
+            return join_cascade(found, source, load, joins)
+        if at.tobytes() not in ends:  # the same arrays for the same points (the joins' keys)
+            ends[at.tobytes()] = (on_points(source, at), on_points(load, at))
+        return join_cascade(found, *ends[at.tobytes()], joins)
 
     try:
         as_set = solve(as_set_positions)
     except SingularNetwork:  # the check's message, naming the stage
         solve_chain(chain, envs, frequency, as_set_positions)
         raise
-    return as_set, [solve(positions) for positions in held_positions]
+    return as_set, [
+        solve(positions, settings.row_points[row] if settings.row_points else None)
+        for row, positions in enumerate(held_positions)
+    ]
 
 
 def _at_row(array: Any, trials: int) -> NDArray[Any]:
@@ -447,6 +470,7 @@ def _band_figures(
     check's worst setting of that node held fixed (`chainbudget.spread.settings`)."""
     figures: Figures = {}
     max_peak = SQRT2 * chain.source.max_level
+    size = np.shape(as_set.v_in[0])[-1]
     for k, sol in enumerate(as_set.stages):
         if k not in settings.node_rows:
             continue
@@ -454,10 +478,10 @@ def _band_figures(
         for row, _ in settings.node_rows[k]:
             clip = clip_source_peak(as_set if row is None else held[row], k)
             assert clip is not None
-            peak = _at_row(clip[0], trials)
             if row is not None:  # the points the row is not solved at: none to search
-                peak = np.where(settings.solved_at(row, peak.shape[-1]), peak, np.inf)
-            peaks.append(peak)
+                peaks.append(settings.on_axis(row, _at_row(clip[0], trials), size, np.inf))
+            else:
+                peaks.append(_at_row(clip[0], trials))
         distance = np.array([d for _, d in settings.node_rows[k]])
         worst = worst_of_candidates(np.stack(peaks, axis=1), distance)
         figures[f"nodes.{sol.stage.name}.worst_headroom_db"] = _trials(db(worst / max_peak), trials)

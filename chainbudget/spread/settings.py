@@ -25,6 +25,7 @@ import itertools
 import math
 from collections.abc import Mapping
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
@@ -81,15 +82,21 @@ class HeldSettings:
     #: first): a node's candidate at the points within `PRUNE_DB` of the node's worst, an
     #: op-amp's current setting within `PRUNE_DB` of its largest current (an ideal
     #: op-amp's: the whole axis), the volume row at the reference. The
-    #: rows are solved there only (`chainbudget.network.Netlist`'s ``points``); empty:
-    #: every row on the whole axis.
+    #: rows are solved there only (`chainbudget.network.Netlist`'s ``points``) and each
+    #: held cascade is joined on its row's points alone; empty: every row on the whole
+    #: axis.
     row_points: tuple[NDArray[np.intp], ...] = ()
 
-    def solved_at(self, row: int, size: int) -> NDArray[np.bool_]:
-        """Which of the ``size`` frequency points row ``row`` is solved at."""
-        mask = np.zeros(size, dtype=bool)
-        mask[self.row_points[row] if self.row_points else slice(None)] = True
-        return mask
+    def on_axis(self, row: int, values: NDArray[Any], size: int, fill: float) -> NDArray[Any]:
+        """A figure of row ``row``'s held cascade (last axis: the row's points, which
+        `chainbudget.spread.evaluate` joins it on) put back on the whole axis of ``size``
+        points, ``fill`` where the row is not solved (the reference, index 0, is always
+        the row's first point: `row_points`)."""
+        if not self.row_points:
+            return values
+        found = np.full((*values.shape[:-1], size), fill, dtype=values.dtype)
+        found[..., self.row_points[row]] = values
+        return found
 
     @property
     def stages(self) -> frozenset[int]:
