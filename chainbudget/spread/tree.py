@@ -35,6 +35,7 @@ from numpy.typing import NDArray
 
 from chainbudget.budget import Budget
 from chainbudget.chainfile import Chain
+from chainbudget.spread.flags import as_flag
 from chainbudget.spread.hum import harmonic_key
 from chainbudget.spread.parts import Part
 from chainbudget.supplies import KINDS as SUPPLY_KINDS
@@ -166,6 +167,8 @@ def tree_spread(
                 walk.moved.add(name)
             for key, array in spread.figures.items():
                 figures[f"supplies.{name}.{key}"] = _trials(array, trials)
+            for key, mask in spread.flags.items():
+                figures[key] = as_flag(mask, trials)
             if spread.ripple is not None:
                 walk.ripples[name] = walk.with_mean(name, spread.ripple)
                 figures.update(_ripple_figures(name, spread.ripple, trials))

@@ -1,18 +1,35 @@
-"""A rectified supply's low-line trough and its mains ripple over a leading trial axis:
-the reservoir drawn within its tolerance, the rectifier solved cycle by cycle for every
-trial at once (chainbudget/spread).
+"""A rectified supply's figures over a leading trial axis: the reservoir drawn within its
+tolerance, the rectifier solved cycle by cycle for every trial at once (chainbudget/spread).
 
 Notes
 -----
 The same circuits and corners as `chainbudget.supplies.rectified.circuit.solve_rails`
-takes for them: each rail's trough and its peak-to-peak ripple at low line and the
-heaviest load (the worst of the relative phases of signal and mains), and the ripple's
-spectrum (the seed of the hum budget) at nominal line with the nominal load's mean as a
-steady current, solved by `chainbudget.rectifier.solve` for a batch of circuits, one per
-rail, reservoir value and phase, in one batch as `solve_rails` solves them (the signal's
-frequency and whether the pulses are taken are the supply's, shared by its rails). The
-load is the nominal operating point's (the tree as settled for the nominal parts): the
-spread does not settle the tree again for each trial.
+takes for them, in one batch of `chainbudget.rectifier.solve`, one circuit per rail,
+reservoir value and phase (the signal's frequency and whether the pulses are taken are the
+supply's, shared by its rails):
+
+- low line and the heaviest load at each relative phase of signal and mains: the trough
+  and peak-to-peak ripple (the worst phase, the lowest trough, per trial) and the
+  winding's, diodes' and reservoir's currents there;
+- high line and the heaviest load at the same phases: the currents, read at the low
+  line's worst phase (as `solve_rails` reads them);
+- nominal line and load (its pulses at phase 0): the mean, ``mean_v`` and ``vout_v``,
+  which the supplies below take as their parent's mean per trial;
+- nominal line with the nominal load's mean as a steady current: the ripple's spectrum
+  (the seed of the hum budget).
+
+From those the rail's own figures follow as the check works them out, through the same
+code (`chainbudget.supplies.rectified.figures.worst_currents`, `winding_figures`: the
+larger of low and high line, a centre-tapped winding's rms of its two rails' currents,
+the rms the rating is judged by and its fraction of the rating), and the rules that read
+them are drawn per trial as flags (`chainbudget.spread.flags`; the conditions of
+`chainbudget.supplies.rectified.rules`): ``supply-collapse``, ``transformer-rating``,
+``reservoir-ripple-current`` and ``large-ripple``. The crest (high line, no load: the
+open circuit less the diode drop) and the switch-on inrush ((V_pk - V_d)/R_s) do not
+depend on the reservoir, and the means at high line are read by no figure the spread
+carries (a regulator's heat is worked out at the nominal check's rails): they keep the
+nominal check's values. The load is the nominal operating point's (the tree as settled
+for the nominal parts): the spread does not settle the tree again for each trial.
 
 A centre-tapped (``split``) supply is two such rails, ``name`` and ``name.neg``, each its
 own reservoir under its own load. The file gives one ``reservoir`` for both (each rail's
@@ -20,15 +37,19 @@ capacitor), so one value is drawn per trial and both rails take it: the two capa
 move together (a check of the trial, which can hold one value only, gives the same
 rails).
 
-Each figure is a smooth function of the reservoir C, so a chunk of trials takes them from
-`GRID_POINTS` values of C across the part's bounds (Chebyshev nodes) by their
-interpolating polynomial, which converges geometrically with the number of nodes for a
+Each figure at each phase is a smooth function of the reservoir C, so a chunk of trials
+takes them from
+`GRID_POINTS` values of C across the part's bounds (Chebyshev nodes) by
+their interpolating polynomial, which converges geometrically with the number of nodes for a
 function analytic about the interval (Trefethen, Approximation Theory and Approximation
 Practice, ch. 8); the complex harmonics are interpolated as their real and imaginary parts.
-Under pulsed loads the trough and ripple are interpolated at each relative phase of signal
-and mains, each smooth in C, and the worst phase taken per trial after: the worst of them
-has a kink where the worst phase changes, which a polynomial follows poorly (there the
-ripple jumps from one phase's to another's).
+Under pulsed loads every figure is interpolated at each relative phase of signal and
+mains, each smooth in C, and the worst phase taken per trial after: the worst of them has
+a kink where the worst phase changes, which a polynomial follows poorly (there the ripple
+and the currents jump from one phase's to another's). Whether a rail collapses is no
+smooth function: on the grid a trial collapses where its interpolated trough at some
+phase falls to zero (the solver's own test, beside its failing to find a periodic state,
+which does not happen above zero); near a collapse the interpolation is poor anyway.
 """
 
 from __future__ import annotations
@@ -43,23 +64,80 @@ from numpy.polynomial import chebyshev as cheb
 from numpy.typing import NDArray
 
 from chainbudget import rectifier
+from chainbudget.spread.flags import flag_key
 from chainbudget.supplies.base import RippleSpread, Supply, SupplyLoad, SupplySpread
-from chainbudget.supplies.rectified.circuit import transformer
+from chainbudget.supplies.rectified.circuit import Currents, Transformer, transformer
+from chainbudget.supplies.rectified.figures import winding_figures, worst_currents
+from chainbudget.supplies.rectified.rules import over_rating, ripple_too_large
 
 SPREAD_FIELDS = ("reservoir",)
 # Reservoir values solved per chunk of trials (the rest interpolated).
 GRID_POINTS = 17
+#: The currents of a corner, in `Currents`' order.
+CURRENT_KEYS = ("winding_rms_a", "diode_peak_a", "reservoir_ripple_a", "conduction_deg")
+#: The rail's own figures the reservoir moves (`winding_figures`' keys less the dc load,
+#: which is the nominal check's load).
+OWN_KEYS = (
+    "winding_rms_a",
+    "rms_per_dc",
+    "rating_current_a",
+    "transformer_load_fraction",
+    "diode_peak_a",
+    "reservoir_ripple_a",
+    "conduction_deg",
+)
+
+Array = NDArray[np.float64]
 
 
 @dataclass(frozen=True)
 class Solved:
-    """A rail's figures for each reservoir value: the low-line trough and ripple at the
-    heaviest load at each relative phase of signal and mains, V, (n, P), and the ripple's
-    harmonics at nominal line and load, complex V peak, (n, K)."""
+    """A rail's figures for each reservoir value (or trial), one row each: at low line
+    and the heaviest load at each relative phase of signal and mains the trough and ripple,
+    V, (n, P), and the currents, (n, P) each; at high line and the heaviest load the
+    currents; the mean at nominal line and load, V, (n,); the ripple's harmonics at nominal
+    line and load, complex V peak, (n, K); whether each low-line circuit collapsed, (n, P).
+    """
 
-    trough_v: NDArray[np.float64]
-    ripple_vpp: NDArray[np.float64]
+    trough_v: Array
+    ripple_vpp: Array
+    low: Currents
+    high: Currents
+    mean_v: Array
     harmonics_vpk: NDArray[np.complex128]
+    collapsed: NDArray[np.bool_]
+
+    def columns(self) -> Array:
+        """Every real figure a column, (n, W): what the grid interpolates."""
+        return np.column_stack(
+            (
+                self.trough_v,
+                self.ripple_vpp,
+                *(getattr(self.low, key) for key in CURRENT_KEYS),
+                *(getattr(self.high, key) for key in CURRENT_KEYS),
+                self.mean_v[:, None],
+                self.harmonics_vpk.real,
+                self.harmonics_vpk.imag,
+            )
+        )
+
+    @classmethod
+    def from_columns(cls, values: Array, phases: int, count: int) -> Solved:
+        """`columns` read back (interpolated values, (T, W)); a circuit collapses where
+        its trough falls to zero (module notes)."""
+        pieces = [values[:, k * phases : (k + 1) * phases] for k in range(10)]
+        at = 10 * phases
+        trough = pieces[0]
+        return cls(
+            trough_v=trough,
+            ripple_vpp=pieces[1],
+            low=Currents(*pieces[2:6]),
+            high=Currents(*pieces[6:10]),
+            mean_v=values[:, at],
+            harmonics_vpk=values[:, at + 1 : at + 1 + count]
+            + 1j * values[:, at + 1 + count : at + 1 + 2 * count],
+            collapsed=trough <= 0.0,
+        )
 
 
 def rectified_spread(
@@ -68,27 +146,25 @@ def rectified_spread(
     loads: Mapping[str, SupplyLoad],
     bounds: Mapping[str, tuple[float, float]] | None = None,
 ) -> dict[str, SupplySpread]:
-    """Each rail's trough and ripple at low line and heaviest load per trial, and its
-    ripple's spectrum (what the rails below and the hum take), by rail name; ``loads``
-    is each rail's nominal load (one rail, or a split supply's two).
+    """Each rail's figures per trial (module notes), by rail name: the trough and ripple at
+    low line and heaviest load (what the rails below and the stages take), the mean at
+    nominal line and load, the ripple's spectrum (what the hum takes), the winding's,
+    diodes' and reservoir's currents and the rules' flags; ``loads`` is each rail's
+    nominal load (one rail, or a split supply's two).
 
     A batch of more than GRID_POINTS trials takes them from GRID_POINTS reservoir values
     across the part's bounds (Chebyshev nodes), solved once (cached) and interpolated by
     their polynomial (the figures are smooth in C; the trough within 1 uV of the direct
     solve, tests/test_spread.py, the harmonics within 1e-6 of the fundamental,
-    tests/test_spread_hum.py, tests/test_spread_split.py); a smaller batch (a corner, a
-    sensitivity) is solved directly, and a reservoir not drawn takes the nominal value's
-    solve, cached. Every rail takes the one drawn reservoir (module notes).
+    tests/test_spread_hum.py, tests/test_spread_split.py, the currents and the mean
+    tests/test_spread_rectifier_figures.py); a smaller batch (a corner, a sensitivity) is
+    solved directly, and a reservoir not drawn takes the nominal value's solve, cached.
+    Every rail takes the one drawn reservoir (module notes).
     """
     tr = transformer(supply)
-    rails = tuple(loads)
     rail_loads = tuple(loads.values())
     if "reservoir" not in drawn:
-        solved = _solved(supply, rail_loads, (tr.reservoir_f,))
-        return {
-            rail: _spread(s.trough_v, s.ripple_vpp, s.harmonics_vpk, tr.ripple_hz)
-            for rail, s in zip(rails, solved, strict=True)
-        }
+        return _spreads(supply, tr, loads, _solved(supply, rail_loads, (tr.reservoir_f,)))
     reservoir = np.atleast_1d(np.asarray(drawn["reservoir"], dtype=float))
     span = (bounds or {}).get("reservoir")
     if reservoir.size > GRID_POINTS and span is not None and span[0] != span[1]:
@@ -96,56 +172,65 @@ def rectified_spread(
         nodes = np.cos(np.pi * (np.arange(GRID_POINTS) + 0.5) / GRID_POINTS)
         grid = tuple(float(c) for c in mid + half * nodes)
         on_grid = _solved(supply, rail_loads, grid)
-        # every figure of every rail a column: per rail its trough and ripple at each
-        # phase (each smooth in C; the worst phase is taken per trial after, as a kink of
-        # the worst trough would slow the interpolation down), then the harmonics' real
-        # and imaginary parts; one fit and one evaluation for them all
-        columns = np.column_stack(
-            [
-                np.column_stack(
-                    (s.trough_v, s.ripple_vpp, s.harmonics_vpk.real, s.harmonics_vpk.imag)
-                )
-                for s in on_grid
-            ]
-        )
-        coefficients = cheb.chebfit(nodes, columns, GRID_POINTS - 1)
-        values = np.asarray(cheb.chebval((reservoir - mid) / half, coefficients), float)  # (M, T)
+        # every figure of every rail a column, each at each phase (each smooth in C; the
+        # worst phase is taken per trial after, as a kink of the worst trough would slow
+        # the interpolation down), the harmonics as their real and imaginary parts; one
+        # fit and one evaluation for them all
+        columns = [s.columns() for s in on_grid]
+        coefficients = cheb.chebfit(nodes, np.column_stack(columns), GRID_POINTS - 1)
+        values = np.asarray(cheb.chebval((reservoir - mid) / half, coefficients), float).T
         phases, count = on_grid[0].trough_v.shape[1], on_grid[0].harmonics_vpk.shape[1]
-        width = 2 * phases + 2 * count
-        found = {}
-        for r, rail in enumerate(rails):
-            mine = values[r * width : (r + 1) * width]
-            at = 2 * phases
-            spectrum = (mine[at : at + count] + 1j * mine[at + count :]).T
-            found[rail] = _spread(
-                mine[:phases].T, mine[phases : 2 * phases].T, spectrum, tr.ripple_hz
+        edges = np.cumsum([0] + [c.shape[1] for c in columns])
+        trials = tuple(
+            Solved.from_columns(values[:, a:b], phases, count)
+            for a, b in zip(edges[:-1], edges[1:], strict=True)
+        )
+        return _spreads(supply, tr, loads, trials)
+    return _spreads(supply, tr, loads, _solve(supply, rail_loads, reservoir))
+
+
+def _spreads(
+    supply: Supply, tr: Transformer, loads: Mapping[str, SupplyLoad], solved: tuple[Solved, ...]
+) -> dict[str, SupplySpread]:
+    """Every rail's spread from its figures per trial (`Solved`, a row a trial): each at
+    the worst phase of its trial (the lowest trough, as `solve_rails` takes it), the
+    currents as `chainbudget.supplies.rectified.figures` works them out and the rules'
+    flags."""
+    worst: dict[str, Currents] = {}
+    states = {}
+    for rail, s in zip(loads, solved, strict=True):
+        at = np.argmin(s.trough_v, axis=1)[:, None]
+
+        def pick(values: Array, at: NDArray[np.intp] = at) -> Array:
+            return np.take_along_axis(np.asarray(values, dtype=float), at, axis=1)[:, 0]
+
+        low = Currents(*(pick(getattr(s.low, key)) for key in CURRENT_KEYS))
+        high = Currents(*(pick(getattr(s.high, key)) for key in CURRENT_KEYS))
+        worst[rail] = worst_currents(low, high)
+        trough = np.maximum(pick(s.trough_v), 0.0)
+        states[rail] = (trough, pick(s.ripple_vpp), np.any(s.collapsed, axis=1), s)
+    found = {}
+    rating = supply.optional("reservoir_ripple_rating")
+    for rail, (trough, vpp, collapsed, s) in states.items():
+        own = winding_figures(tr, worst, rail, loads, loads[rail])
+        mean = np.maximum(s.mean_v, 0.0)
+        figures = {"trough_v": trough, "ripple_vpp": vpp, "mean_v": mean, "vout_v": mean}
+        figures.update({key: own[key] for key in OWN_KEYS if own[key] is not None})
+        flags = {
+            flag_key("error", "supply-collapse", rail): collapsed,
+            flag_key("warning", "large-ripple", rail): ripple_too_large(trough, vpp, collapsed),
+        }
+        if tr.rated_a is not None and rail == supply.name:  # the transformer's own rail
+            flags[flag_key("warning", "transformer-rating", rail)] = over_rating(
+                own["rating_current_a"], tr.rated_a, collapsed
             )
-        return found
-    direct = _solve(supply, rail_loads, reservoir)
-    return {
-        rail: _spread(s.trough_v, s.ripple_vpp, s.harmonics_vpk, tr.ripple_hz)
-        for rail, s in zip(rails, direct, strict=True)
-    }
-
-
-def _spread(
-    trough: NDArray[np.float64],
-    ripple: NDArray[np.float64],
-    harmonics: NDArray[np.complex128],
-    ripple_hz: float,
-) -> SupplySpread:
-    """A rail's spread from its trough and ripple at each phase, (T, P), and its
-    harmonics, (T, K): the trough and ripple at the worst phase of each trial (the lowest
-    trough, as `solve_rails` takes it)."""
-    worst = np.argmin(trough, axis=1)[:, None]
-    low: NDArray[np.float64] = np.maximum(np.take_along_axis(trough, worst, axis=1)[:, 0], 0.0)
-    vpp = np.take_along_axis(ripple, worst, axis=1)[:, 0]
-    return SupplySpread(
-        {"trough_v": low, "ripple_vpp": vpp},
-        (),
-        low,
-        RippleSpread(ripple_hz, vpp, np.asarray(harmonics, dtype=complex)),
-    )
+        if rating is not None:
+            flags[flag_key("warning", "reservoir-ripple-current", rail)] = over_rating(
+                own["reservoir_ripple_a"], rating, collapsed
+            )
+        ripple = RippleSpread(tr.ripple_hz, vpp, np.asarray(s.harmonics_vpk, complex), mean)
+        found[rail] = SupplySpread(figures, (), trough, ripple, flags)
+    return found
 
 
 @lru_cache(maxsize=32)
@@ -159,12 +244,11 @@ def _solved(
 def _solve(
     supply: Supply, loads: tuple[SupplyLoad, ...], reservoir: NDArray[np.float64]
 ) -> tuple[Solved, ...]:
-    """Each rail's figures for each reservoir value: the trough and ripple at low line and
-    heaviest load at each of the signal's phases (`_spread` takes the worst, as
-    `solve_rails` does), and the ripple's spectrum at nominal line with the nominal
-    load's mean as a steady current (`solve_rails`'s row for the hum), every rail in one
-    batch. As in `solve_rails`, the signal is the first rail's that has one and the
-    phases are taken where any rail draws pulses."""
+    """Each rail's figures for each reservoir value (module notes), every rail in one
+    batch: `solve_rails`'s rows at low and high line under the heaviest load at each of
+    the signal's phases, at nominal line and load, and at nominal line with the nominal
+    load's mean as a steady current (the spectrum). As in `solve_rails`, the signal is the
+    first rail's that has one and the phases are taken where any rail draws pulses."""
     tr = transformer(supply)
     signal = next((ld.signal_hz for ld in loads if ld.signal_hz is not None), None)
     pulsed = signal is not None and any(ld.heaviest_pulse_a > 0.0 for ld in loads)
@@ -174,18 +258,24 @@ def _solve(
         cycles = max(rectifier.commensurate(signal, tr.ripple_hz)[1], 1)
     offsets = np.array([2.0 * math.pi * j / (phases * cycles) for j in range(phases)])
     n = reservoir.size
-    low, nominal = tr.lines[0], tr.lines[1]
-    # per rail: n x phases rows for the trough, then n rows for the spectrum
+    low, nominal, high = tr.lines
+    # per rail: n x phases rows at low line, as many at high line, then n rows at nominal
+    # line and load, then n for the spectrum
     peak, capacitance, dc, pulse, phase = [], [], [], [], []
     for load in loads:
-        peak += [
-            np.full(n * phases, tr.source_peak(low, load.heaviest_a > 0.0)),
-            np.full(n, tr.source_peak(nominal, load.nominal_a > 0.0)),
-        ]
-        capacitance += [np.repeat(reservoir, phases), reservoir]
-        dc += [np.full(n * phases, load.heaviest_dc_a), np.full(n, load.nominal_a)]
-        pulse += [np.full(n * phases, load.heaviest_pulse_a), np.zeros(n)]
-        phase += [np.tile(offsets, n), np.zeros(n)]
+        heavy = load.heaviest_a > 0.0
+        for line in (low, high):
+            peak.append(np.full(n * phases, tr.source_peak(line, heavy)))
+            capacitance.append(np.repeat(reservoir, phases))
+            dc.append(np.full(n * phases, load.heaviest_dc_a))
+            pulse.append(np.full(n * phases, load.heaviest_pulse_a))
+            phase.append(np.tile(offsets, n))
+        loaded = tr.source_peak(nominal, load.nominal_a > 0.0)
+        peak += [np.full(n, loaded), np.full(n, loaded)]
+        capacitance += [reservoir, reservoir]
+        dc += [np.full(n, load.nominal_dc_a), np.full(n, load.nominal_a)]
+        pulse += [np.full(n, load.nominal_pulse_a), np.zeros(n)]
+        phase += [np.zeros(n), np.zeros(n)]
     solved = rectifier.solve(
         np.concatenate(peak),
         tr.drop_v,
@@ -198,12 +288,30 @@ def _solve(
         np.concatenate(phase),
         half_wave=tr.half_wave,
     )
-    width = n * phases + n
+    width = 2 * n * phases + 2 * n
+
+    def rows(values: object, start: int, size: int) -> NDArray[np.float64]:
+        return np.asarray(values)[start : start + size]
+
+    def phased(values: object, start: int) -> NDArray[np.float64]:
+        return rows(values, start, n * phases).reshape(n, phases)
+
+    def currents(start: int) -> Currents:
+        return Currents(*(phased(getattr(solved, key), start) for key in CURRENT_KEYS))
+
     found = []
     for r in range(len(loads)):
         base = r * width
-        troughs = np.asarray(solved.trough_v)[base : base + n * phases].reshape(n, phases)
-        ripple = np.asarray(solved.ripple_vpp)[base : base + n * phases].reshape(n, phases)
-        harmonics = np.asarray(solved.harmonics_vpk)[base + n * phases : base + width]
-        found.append(Solved(troughs, ripple, harmonics))
+        at_high, at_mean = base + n * phases, base + 2 * n * phases
+        found.append(
+            Solved(
+                trough_v=phased(solved.trough_v, base),
+                ripple_vpp=phased(solved.ripple_vpp, base),
+                low=currents(base),
+                high=currents(at_high),
+                mean_v=rows(solved.mean_v, at_mean, n),
+                harmonics_vpk=np.asarray(solved.harmonics_vpk)[at_mean + n : at_mean + 2 * n],
+                collapsed=phased(solved.collapsed, base).astype(bool),
+            )
+        )
     return tuple(found)
