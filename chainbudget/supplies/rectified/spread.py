@@ -43,10 +43,17 @@ takes them from
 their interpolating polynomial, which converges geometrically with the number of nodes for a
 function analytic about the interval (Trefethen, Approximation Theory and Approximation
 Practice, ch. 8); the complex harmonics are interpolated as their real and imaginary parts.
-Under pulsed loads every figure is interpolated at each relative phase of signal and
-mains, each smooth in C, and the worst phase taken per trial after: the worst of them has
-a kink where the worst phase changes, which a polynomial follows poorly (there the ripple
-and the currents jump from one phase's to another's). Whether a rail collapses is no
+Under pulsed loads the trough and ripple are interpolated at each relative phase of signal
+and mains, each smooth in C, and the worst phase taken per trial after: the worst of them
+has a kink where the worst phase changes, which a polynomial follows poorly (there the
+ripple jumps from one phase's to another's). The currents are not interpolated: the
+solver's diode peak is the largest of the period's charging pulses (kinked in C where
+another pulse becomes the largest), and its rms currents are quadratures whose error
+under pulsed loads (the pulses' corners inside a charging interval) moves unevenly with C,
+so that a polynomial through them misses the direct solve by up to 2e-5 of the reservoir's
+ripple current (measured on the practice amplifier). Instead each trial's two circuits at
+its worst phase, low and high line under the heaviest load, are solved directly (a fifth
+of what solving every row directly costs). Whether a rail collapses is no
 smooth function: on the grid a trial collapses where its interpolated trough at some
 phase falls to zero (the solver's own test, beside its failing to find a periodic state,
 which does not happen above zero); near a collapse the interpolation is poor anyway.
@@ -94,27 +101,26 @@ Array = NDArray[np.float64]
 class Solved:
     """A rail's figures for each reservoir value (or trial), one row each: at low line
     and the heaviest load at each relative phase of signal and mains the trough and ripple,
-    V, (n, P), and the currents, (n, P) each; at high line and the heaviest load the
-    currents; the mean at nominal line and load, V, (n,); the ripple's harmonics at nominal
-    line and load, complex V peak, (n, K); whether each low-line circuit collapsed, (n, P).
-    """
+    V, (n, P); the mean at nominal line and load, V, (n,); the ripple's harmonics at
+    nominal line and load, complex V peak, (n, K); whether each low-line circuit collapsed,
+    (n, P); and where solved directly, the currents at low and at high line under the
+    heaviest load at each phase, (n, P) each (None: interpolated figures, whose currents are
+    solved at the worst phase after, module notes)."""
 
     trough_v: Array
     ripple_vpp: Array
-    low: Currents
-    high: Currents
     mean_v: Array
     harmonics_vpk: NDArray[np.complex128]
     collapsed: NDArray[np.bool_]
+    low: Currents | None = None
+    high: Currents | None = None
 
     def columns(self) -> Array:
-        """Every real figure a column, (n, W): what the grid interpolates."""
+        """Every smooth real figure a column, (n, W): what the grid interpolates."""
         return np.column_stack(
             (
                 self.trough_v,
                 self.ripple_vpp,
-                *(getattr(self.low, key) for key in CURRENT_KEYS),
-                *(getattr(self.high, key) for key in CURRENT_KEYS),
                 self.mean_v[:, None],
                 self.harmonics_vpk.real,
                 self.harmonics_vpk.imag,
@@ -125,14 +131,11 @@ class Solved:
     def from_columns(cls, values: Array, phases: int, count: int) -> Solved:
         """`columns` read back (interpolated values, (T, W)); a circuit collapses where
         its trough falls to zero (module notes)."""
-        pieces = [values[:, k * phases : (k + 1) * phases] for k in range(10)]
-        at = 10 * phases
-        trough = pieces[0]
+        trough = values[:, :phases]
+        at = 2 * phases
         return cls(
             trough_v=trough,
-            ripple_vpp=pieces[1],
-            low=Currents(*pieces[2:6]),
-            high=Currents(*pieces[6:10]),
+            ripple_vpp=values[:, phases:at],
             mean_v=values[:, at],
             harmonics_vpk=values[:, at + 1 : at + 1 + count]
             + 1j * values[:, at + 1 + count : at + 1 + 2 * count],
@@ -152,19 +155,22 @@ def rectified_spread(
     diodes' and reservoir's currents and the rules' flags; ``loads`` is each rail's
     nominal load (one rail, or a split supply's two).
 
-    A batch of more than GRID_POINTS trials takes them from GRID_POINTS reservoir values
-    across the part's bounds (Chebyshev nodes), solved once (cached) and interpolated by
-    their polynomial (the figures are smooth in C; the trough within 1 uV of the direct
-    solve, tests/test_spread.py, the harmonics within 1e-6 of the fundamental,
-    tests/test_spread_hum.py, tests/test_spread_split.py, the currents and the mean
-    tests/test_spread_rectifier_figures.py); a smaller batch (a corner, a sensitivity) is
-    solved directly, and a reservoir not drawn takes the nominal value's solve, cached.
-    Every rail takes the one drawn reservoir (module notes).
+    A batch of more than GRID_POINTS trials takes the trough, ripple, mean and spectrum
+    from GRID_POINTS reservoir values across the part's bounds (Chebyshev nodes), solved
+    once (cached) and interpolated by their polynomial (the figures are smooth in C; the
+    trough within 1 uV of the direct solve, tests/test_spread.py, the harmonics within
+    1e-6 of the fundamental, tests/test_spread_hum.py, tests/test_spread_split.py, the mean
+    tests/test_spread_rectifier_figures.py), and the currents from the two circuits of
+    each trial at its worst phase, low and high line, solved directly (module notes); a
+    smaller batch (a corner, a sensitivity) is solved directly, and a reservoir not drawn
+    takes the nominal value's solve, cached. Every rail takes the one drawn reservoir
+    (module notes).
     """
     tr = transformer(supply)
     rail_loads = tuple(loads.values())
     if "reservoir" not in drawn:
-        return _spreads(supply, tr, loads, _solved(supply, rail_loads, (tr.reservoir_f,)))
+        solved = _solved(supply, rail_loads, (tr.reservoir_f,))
+        return _spreads(supply, tr, loads, solved, _at_worst(solved))
     reservoir = np.atleast_1d(np.asarray(drawn["reservoir"], dtype=float))
     span = (bounds or {}).get("reservoir")
     if reservoir.size > GRID_POINTS and span is not None and span[0] != span[1]:
@@ -185,33 +191,53 @@ def rectified_spread(
             Solved.from_columns(values[:, a:b], phases, count)
             for a, b in zip(edges[:-1], edges[1:], strict=True)
         )
-        return _spreads(supply, tr, loads, trials)
-    return _spreads(supply, tr, loads, _solve(supply, rail_loads, reservoir))
+        worst = [np.argmin(s.trough_v, axis=1) for s in trials]
+        currents = _currents_at(supply, rail_loads, reservoir, worst)
+        return _spreads(supply, tr, loads, trials, currents)
+    solved = _solve(supply, rail_loads, reservoir)
+    return _spreads(supply, tr, loads, solved, _at_worst(solved))
+
+
+def _pick(values: object, at: NDArray[np.intp]) -> Array:
+    """Each row's value at its own column ``at``, (n,) from (n, P)."""
+    return np.take_along_axis(np.asarray(values), at[:, None], axis=1)[:, 0]
+
+
+def _at_worst(solved: tuple[Solved, ...]) -> list[tuple[Currents, Currents]]:
+    """Each rail's currents at low and at high line at its worst phase (the lowest trough,
+    as `solve_rails` takes it), from a direct solve."""
+    found = []
+    for s in solved:
+        assert s.low is not None and s.high is not None  # a direct solve's
+        at = np.argmin(s.trough_v, axis=1)
+        low, high = (
+            Currents(*(_pick(getattr(c, key), at) for key in CURRENT_KEYS)) for c in (s.low, s.high)
+        )
+        found.append((low, high))
+    return found
 
 
 def _spreads(
-    supply: Supply, tr: Transformer, loads: Mapping[str, SupplyLoad], solved: tuple[Solved, ...]
+    supply: Supply,
+    tr: Transformer,
+    loads: Mapping[str, SupplyLoad],
+    solved: tuple[Solved, ...],
+    currents: list[tuple[Currents, Currents]],
 ) -> dict[str, SupplySpread]:
-    """Every rail's spread from its figures per trial (`Solved`, a row a trial): each at
-    the worst phase of its trial (the lowest trough, as `solve_rails` takes it), the
-    currents as `chainbudget.supplies.rectified.figures` works them out and the rules'
+    """Every rail's spread from its figures per trial (`Solved`, a row a trial) and its
+    currents at low and high line at its worst phase: the trough and ripple at that phase,
+    the currents as `chainbudget.supplies.rectified.figures` works them out and the rules'
     flags."""
-    worst: dict[str, Currents] = {}
-    states = {}
-    for rail, s in zip(loads, solved, strict=True):
-        at = np.argmin(s.trough_v, axis=1)[:, None]
-
-        def pick(values: Array, at: NDArray[np.intp] = at) -> Array:
-            return np.take_along_axis(np.asarray(values, dtype=float), at, axis=1)[:, 0]
-
-        low = Currents(*(pick(getattr(s.low, key)) for key in CURRENT_KEYS))
-        high = Currents(*(pick(getattr(s.high, key)) for key in CURRENT_KEYS))
-        worst[rail] = worst_currents(low, high)
-        trough = np.maximum(pick(s.trough_v), 0.0)
-        states[rail] = (trough, pick(s.ripple_vpp), np.any(s.collapsed, axis=1), s)
+    worst = {
+        rail: worst_currents(low, high) for rail, (low, high) in zip(loads, currents, strict=True)
+    }
     found = {}
     rating = supply.optional("reservoir_ripple_rating")
-    for rail, (trough, vpp, collapsed, s) in states.items():
+    for rail, s in zip(loads, solved, strict=True):
+        at = np.argmin(s.trough_v, axis=1)
+        trough = np.maximum(_pick(s.trough_v, at), 0.0)
+        vpp = _pick(s.ripple_vpp, at)
+        collapsed = np.any(s.collapsed, axis=1)
         own = winding_figures(tr, worst, rail, loads, loads[rail])
         mean = np.maximum(s.mean_v, 0.0)
         figures = {"trough_v": trough, "ripple_vpp": vpp, "mean_v": mean, "vout_v": mean}
@@ -241,15 +267,17 @@ def _solved(
     return _solve(supply, loads, np.array(grid))
 
 
-def _solve(
-    supply: Supply, loads: tuple[SupplyLoad, ...], reservoir: NDArray[np.float64]
-) -> tuple[Solved, ...]:
-    """Each rail's figures for each reservoir value (module notes), every rail in one
-    batch: `solve_rails`'s rows at low and high line under the heaviest load at each of
-    the signal's phases, at nominal line and load, and at nominal line with the nominal
-    load's mean as a steady current (the spectrum). As in `solve_rails`, the signal is the
-    first rail's that has one and the phases are taken where any rail draws pulses."""
-    tr = transformer(supply)
+@dataclass(frozen=True)
+class _Pulses:
+    """The signal the pulses are taken at (None: no pulses) and the relative phases of
+    signal and mains, rad, as `solve_rails` takes them: the first rail's signal that has
+    one, the phases where any rail draws pulses."""
+
+    signal_hz: float | None
+    offsets: NDArray[np.float64]
+
+
+def _pulses(tr: Transformer, loads: tuple[SupplyLoad, ...]) -> _Pulses:
     signal = next((ld.signal_hz for ld in loads if ld.signal_hz is not None), None)
     pulsed = signal is not None and any(ld.heaviest_pulse_a > 0.0 for ld in loads)
     phases = rectifier.PHASES if pulsed else 1
@@ -257,6 +285,19 @@ def _solve(
     if pulsed and signal is not None:
         cycles = max(rectifier.commensurate(signal, tr.ripple_hz)[1], 1)
     offsets = np.array([2.0 * math.pi * j / (phases * cycles) for j in range(phases)])
+    return _Pulses(signal if pulsed else None, offsets)
+
+
+def _solve(
+    supply: Supply, loads: tuple[SupplyLoad, ...], reservoir: NDArray[np.float64]
+) -> tuple[Solved, ...]:
+    """Each rail's figures for each reservoir value (module notes), every rail in one
+    batch: `solve_rails`'s rows at low and high line under the heaviest load at each of
+    the signal's phases (`_pulses`), at nominal line and load, and at nominal line with the
+    nominal load's mean as a steady current (the spectrum)."""
+    tr = transformer(supply)
+    pulses = _pulses(tr, loads)
+    phases = pulses.offsets.size
     n = reservoir.size
     low, nominal, high = tr.lines
     # per rail: n x phases rows at low line, as many at high line, then n rows at nominal
@@ -269,7 +310,7 @@ def _solve(
             capacitance.append(np.repeat(reservoir, phases))
             dc.append(np.full(n * phases, load.heaviest_dc_a))
             pulse.append(np.full(n * phases, load.heaviest_pulse_a))
-            phase.append(np.tile(offsets, n))
+            phase.append(np.tile(pulses.offsets, n))
         loaded = tr.source_peak(nominal, load.nominal_a > 0.0)
         peak += [np.full(n, loaded), np.full(n, loaded)]
         capacitance += [reservoir, reservoir]
@@ -284,17 +325,14 @@ def _solve(
         tr.line_hz,
         np.concatenate(dc),
         np.concatenate(pulse),
-        signal if pulsed else None,
+        pulses.signal_hz,
         np.concatenate(phase),
         half_wave=tr.half_wave,
     )
     width = 2 * n * phases + 2 * n
 
-    def rows(values: object, start: int, size: int) -> NDArray[np.float64]:
-        return np.asarray(values)[start : start + size]
-
-    def phased(values: object, start: int) -> NDArray[np.float64]:
-        return rows(values, start, n * phases).reshape(n, phases)
+    def phased(values: object, start: int) -> Array:
+        return np.asarray(values)[start : start + n * phases].reshape(n, phases)
 
     def currents(start: int) -> Currents:
         return Currents(*(phased(getattr(solved, key), start) for key in CURRENT_KEYS))
@@ -307,11 +345,54 @@ def _solve(
             Solved(
                 trough_v=phased(solved.trough_v, base),
                 ripple_vpp=phased(solved.ripple_vpp, base),
-                low=currents(base),
-                high=currents(at_high),
-                mean_v=rows(solved.mean_v, at_mean, n),
+                mean_v=np.asarray(solved.mean_v)[at_mean : at_mean + n],
                 harmonics_vpk=np.asarray(solved.harmonics_vpk)[at_mean + n : at_mean + 2 * n],
                 collapsed=phased(solved.collapsed, base).astype(bool),
+                low=currents(base),
+                high=currents(at_high),
             )
         )
     return tuple(found)
+
+
+def _currents_at(
+    supply: Supply,
+    loads: tuple[SupplyLoad, ...],
+    reservoir: NDArray[np.float64],
+    worst: list[NDArray[np.intp]],
+) -> list[tuple[Currents, Currents]]:
+    """Each rail's currents at low and at high line under the heaviest load, at each
+    trial's worst phase (``worst``, per rail: the index into `_pulses`' phases), solved
+    directly: two circuits a trial and rail, every rail in one batch (the currents are not
+    interpolated, module notes)."""
+    tr = transformer(supply)
+    pulses = _pulses(tr, loads)
+    n = reservoir.size
+    low, _, high = tr.lines
+    peak, dc, pulse, phase = [], [], [], []
+    for load, at in zip(loads, worst, strict=True):
+        heavy = load.heaviest_a > 0.0
+        for line in (low, high):
+            peak.append(np.full(n, tr.source_peak(line, heavy)))
+            dc.append(np.full(n, load.heaviest_dc_a))
+            pulse.append(np.full(n, load.heaviest_pulse_a))
+            phase.append(pulses.offsets[at])
+    solved = rectifier.solve(
+        np.concatenate(peak),
+        tr.drop_v,
+        tr.winding_ohm,
+        np.tile(reservoir, 2 * len(loads)),
+        tr.line_hz,
+        np.concatenate(dc),
+        np.concatenate(pulse),
+        pulses.signal_hz,
+        np.concatenate(phase),
+        half_wave=tr.half_wave,
+    )
+
+    def currents(start: int) -> Currents:
+        return Currents(
+            *(np.asarray(getattr(solved, key))[start : start + n] for key in CURRENT_KEYS)
+        )
+
+    return [(currents(2 * r * n), currents((2 * r + 1) * n)) for r in range(len(loads))]
