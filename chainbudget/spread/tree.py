@@ -8,9 +8,11 @@ spread, with its parent's low-line trough, ripple and mean per trial where the p
 spreads them, else the nominal check's. What it passes on:
 
 - to the supplies below, its trough (``rail_low_v``) and its ripple and mean
-  (`RippleSpread`) as its state gives them; a kind that gives no mean (a rectifier: its mean
-  at nominal line is not spread) passes none where a trial moves it, so the means below it
-  are not spread, and the nominal check's where none does;
+  (`RippleSpread`) as its state gives them; a kind that gives no mean passes none where a
+  trial moves it, so the means below it are not spread, and the nominal check's where none
+  does;
+- to the yields, the flags of its rules that it works out per trial (`SupplySpread.flags`,
+  `chainbudget.spread.flags`);
 - to its stages, its rail at low line per trial as the check's settled tree has it
   (`chainbudget.budget.supplies.settle`): the trough, kept no higher than the rail's
   output with no load at all, which is where the check's search for the settled rails
@@ -35,6 +37,7 @@ from numpy.typing import NDArray
 
 from chainbudget.budget import Budget
 from chainbudget.chainfile import Chain
+from chainbudget.spread.flags import as_flag
 from chainbudget.spread.hum import harmonic_key
 from chainbudget.spread.parts import Part
 from chainbudget.supplies import KINDS as SUPPLY_KINDS
@@ -166,6 +169,8 @@ def tree_spread(
                 walk.moved.add(name)
             for key, array in spread.figures.items():
                 figures[f"supplies.{name}.{key}"] = _trials(array, trials)
+            for key, mask in spread.flags.items():
+                figures[key] = as_flag(mask, trials)
             if spread.ripple is not None:
                 walk.ripples[name] = walk.with_mean(name, spread.ripple)
                 figures.update(_ripple_figures(name, spread.ripple, trials))

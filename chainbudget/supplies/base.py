@@ -374,12 +374,15 @@ class RippleSpread:
 class SupplySpread:
     """A supply's figures over a leading trial axis (chainbudget/spread), each of shape
     (T,); ``rail_low_v`` is its output at low line, what its stages run from, per trial;
-    ``ripple`` its mains ripple per trial (None: the nominal check's)."""
+    ``ripple`` its mains ripple per trial (None: the nominal check's); ``flags`` whether
+    each of its rules that reads more than one figure fires, per trial (a boolean, (T,) or
+    one for every trial), under its flag's key (`chainbudget.spread.flags.flag_key`)."""
 
     figures: Mapping[str, NDArray[np.float64]]
     thresholds: tuple[SpreadThreshold, ...]
     rail_low_v: NDArray[np.float64] | None
     ripple: RippleSpread | None = None
+    flags: Mapping[str, NDArray[np.bool_]] = field(default_factory=dict)
 
 
 class SupplyKind(ABC):

@@ -35,6 +35,7 @@ import dataclasses
 import math
 from collections.abc import Mapping
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
@@ -139,12 +140,14 @@ def transformer(supply: Supply) -> Transformer:
 
 @dataclass(frozen=True)
 class Currents:
-    """The winding's, diodes' and reservoir's currents of a rail at one corner (A, deg)."""
+    """The winding's, diodes' and reservoir's currents of a rail at one corner (A, deg):
+    floats in the check, (T,) arrays over the spread's trials
+    (`chainbudget.supplies.rectified.spread`)."""
 
-    winding_rms_a: float
-    diode_peak_a: float
-    reservoir_ripple_a: float
-    conduction_deg: float
+    winding_rms_a: Any
+    diode_peak_a: Any
+    reservoir_ripple_a: Any
+    conduction_deg: Any
 
 
 @dataclass(frozen=True)

@@ -17,13 +17,18 @@ reservoir switched on at the mains crest, (V_pk - V_d)/R_s at high line
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
 
 from chainbudget import rectifier
 from chainbudget.kindfigures import KindFigures, figure
-from chainbudget.supplies.base import SupplyContext
+from chainbudget.supplies.base import SupplyContext, SupplyLoad
 from chainbudget.supplies.rectified.circuit import (
-    RailSolution,
+    Currents,
+    Transformer,
     reservoir_for_trough,
     solve_rails,
     transformer,
@@ -76,16 +81,15 @@ def rectified_figures(context: SupplyContext) -> RectifiedFigures:
     """The figures of one rail of a rectified supply in the solved tree."""
     supply = context.supply
     tr = transformer(supply)
-    loads = dict(context.rail_loads) or {context.rail or supply.name: context.load}
+    rail = context.rail or supply.name
+    loads = dict(context.rail_loads) or {rail: context.load}
     solved = solve_rails(tr, loads)
-    mine = solved[context.rail or supply.name]
-    rms, peak, ripple, conduction = _worst(mine)
-    if tr.split:  # each half-winding carries one rail's pulses, then the other's
-        rms = math.sqrt(sum(_worst(s)[0] ** 2 for s in solved.values()) / len(solved))
-    dc = sum(load.heaviest_a for load in loads.values()) / len(loads)
-    dc = context.load.heaviest_a if not tr.split else dc
-    rated = tr.rated_a
-    judged = rms if tr.winding_known else RMS_PER_DC_AMP * dc
+    worst = {name: worst_currents(s.low_line, s.high_line) for name, s in solved.items()}
+    own = winding_figures(tr, worst, rail, loads, context.load)
+
+    def optional(key: str) -> float | None:
+        return None if own[key] is None else float(own[key])
+
     reservoir_hold = winding_hold = None
     if context.state.collapsed:
         target = HOLD_FRACTION * max(tr.source_peak(tr.lines[0], True) - tr.drop_v, 0.0)
@@ -96,33 +100,65 @@ def rectified_figures(context: SupplyContext) -> RectifiedFigures:
         winding_resistance_ohm=tr.winding_ohm,
         open_circuit_vrms=tr.open_vrms if tr.winding_known else tr.secondary_vrms,
         transformer_regulation=tr.regulation,
-        dc_load_a=dc,
-        winding_rms_a=rms,
-        rms_per_dc=rms / dc if dc > 0.0 else None,
-        rating_current_a=judged,
-        transformer_load_fraction=None if rated is None else judged / rated,
-        diode_peak_a=peak,
-        reservoir_ripple_a=ripple,
+        dc_load_a=float(own["dc_load_a"]),
+        winding_rms_a=float(own["winding_rms_a"]),
+        rms_per_dc=optional("rms_per_dc"),
+        rating_current_a=float(own["rating_current_a"]),
+        transformer_load_fraction=optional("transformer_load_fraction"),
+        diode_peak_a=float(own["diode_peak_a"]),
+        reservoir_ripple_a=float(own["reservoir_ripple_a"]),
         reservoir_ripple_rating_a=supply.optional("reservoir_ripple_rating"),
-        conduction_deg=conduction,
+        conduction_deg=float(own["conduction_deg"]),
         inrush_a=float(inrush) if math.isfinite(float(inrush)) else None,
-        pulses_hz=mine.signal_hz,
-        rated_a=rated,
-        transformer_rail=(context.rail or supply.name) == supply.name,
+        pulses_hz=solved[rail].signal_hz,
+        rated_a=tr.rated_a,
+        transformer_rail=rail == supply.name,
         winding_known=tr.winding_known,
         reservoir_to_hold_f=reservoir_hold,
         winding_to_hold_ohm=winding_hold,
     )
 
 
-def _worst(solution: RailSolution) -> tuple[float, float, float, float]:
+def worst_currents(low: Currents, high: Currents) -> Currents:
     """The larger of low and high line: winding rms, diode peak, reservoir ripple current,
-    and the conduction angle of the corner with the larger rms."""
-    low, high = solution.low_line, solution.high_line
-    hotter = high if high.winding_rms_a >= low.winding_rms_a else low
-    return (
-        hotter.winding_rms_a,
-        max(low.diode_peak_a, high.diode_peak_a),
-        max(low.reservoir_ripple_a, high.reservoir_ripple_a),
-        hotter.conduction_deg,
+    and the conduction angle of the corner with the larger rms (element-wise: floats in the
+    check, the spread's trials as arrays)."""
+    hotter = np.asarray(high.winding_rms_a) >= np.asarray(low.winding_rms_a)
+    return Currents(
+        winding_rms_a=np.where(hotter, high.winding_rms_a, low.winding_rms_a),
+        diode_peak_a=np.maximum(low.diode_peak_a, high.diode_peak_a),
+        reservoir_ripple_a=np.maximum(low.reservoir_ripple_a, high.reservoir_ripple_a),
+        conduction_deg=np.where(hotter, high.conduction_deg, low.conduction_deg),
     )
+
+
+def winding_figures(
+    tr: Transformer,
+    worst: Mapping[str, Currents],
+    rail: str,
+    loads: Mapping[str, SupplyLoad],
+    load: SupplyLoad,
+) -> dict[str, Any]:
+    """The winding's and reservoir's figures of ``rail`` from every rail's `worst_currents`
+    (module notes): for a centre-tapped winding each half's rms, sqrt((I_+^2 + I_-^2)/2),
+    against the mean of the two rails' dc loads; the rms the rating is judged by (the rule
+    of thumb `RMS_PER_DC_AMP` times the dc load where no winding resistance is known) and
+    its fraction of the rating. Element-wise over the spread's trials; None where the
+    check's figure is null (no dc load, no rating)."""
+    mine = worst[rail]
+    rms = mine.winding_rms_a
+    if tr.split:  # each half-winding carries one rail's pulses, then the other's
+        rms = np.sqrt(sum(w.winding_rms_a**2 for w in worst.values()) / len(worst))
+    dc = sum(ld.heaviest_a for ld in loads.values()) / len(loads)
+    dc = load.heaviest_a if not tr.split else dc
+    judged = rms if tr.winding_known else RMS_PER_DC_AMP * dc
+    return {
+        "dc_load_a": dc,
+        "winding_rms_a": rms,
+        "rms_per_dc": rms / dc if dc > 0.0 else None,
+        "rating_current_a": judged,
+        "transformer_load_fraction": None if tr.rated_a is None else judged / tr.rated_a,
+        "diode_peak_a": mine.diode_peak_a,
+        "reservoir_ripple_a": mine.reservoir_ripple_a,
+        "conduction_deg": mine.conduction_deg,
+    }

@@ -4,6 +4,11 @@ caution."""
 
 from __future__ import annotations
 
+from typing import Any
+
+import numpy as np
+from numpy.typing import NDArray
+
 from chainbudget.finding import Finding
 from chainbudget.notation import amps, eng
 from chainbudget.supplies.base import SupplyBudget
@@ -15,6 +20,22 @@ MAINS_CAUTION = (
     "insulation are hazardous and are governed by local electrical codes; have that part "
     "built or checked by a licensed practitioner. These figures do not assess safety."
 )
+
+
+def over_rating(current_a: Any, rating_a: float, collapsed: Any) -> NDArray[np.bool_]:
+    """Whether an rms current exceeds its rating on a rail that holds its load (the
+    transformer's rating, the reservoir's ripple rating), element-wise: the check's rule
+    and the spread's trials (`chainbudget.supplies.rectified.spread`)."""
+    return np.logical_and(np.asarray(current_a) > rating_a, np.logical_not(collapsed))
+
+
+def ripple_too_large(trough_v: Any, ripple_vpp: Any, collapsed: Any) -> NDArray[np.bool_]:
+    """Whether a working rail's low-line ripple exceeds `LARGE_RIPPLE_FRACTION` of its peak
+    (trough + ripple), element-wise as `over_rating`."""
+    trough, ripple = np.asarray(trough_v, dtype=float), np.asarray(ripple_vpp, dtype=float)
+    crest = trough + ripple
+    large = np.logical_and(crest > 0.0, ripple > LARGE_RIPPLE_FRACTION * crest)
+    return np.logical_and(large, np.logical_not(collapsed))
 
 
 def rectified_rules(s: SupplyBudget, own: RectifiedFigures) -> list[Finding]:
@@ -87,7 +108,7 @@ def _transformer(s: SupplyBudget, own: RectifiedFigures) -> list[Finding]:
             )
         )
     rated = own.rated_a
-    if rated is not None and own.rating_current_a > rated and not s.collapsed:
+    if rated is not None and over_rating(own.rating_current_a, rated, s.collapsed):
         if own.winding_known:
             ratio = f" ({own.rms_per_dc:.2g} x its dc load)" if own.rms_per_dc else ""
             drawn = f"the charging pulses draw {amps(own.winding_rms_a)} rms from the winding"
@@ -118,7 +139,7 @@ def _transformer(s: SupplyBudget, own: RectifiedFigures) -> list[Finding]:
 def _reservoir(s: SupplyBudget, own: RectifiedFigures) -> list[Finding]:
     found: list[Finding] = []
     rating = own.reservoir_ripple_rating_a
-    if rating is not None and own.reservoir_ripple_a > rating and not s.collapsed:
+    if rating is not None and over_rating(own.reservoir_ripple_a, rating, s.collapsed):
         found.append(
             Finding(
                 "warning",
@@ -132,19 +153,17 @@ def _reservoir(s: SupplyBudget, own: RectifiedFigures) -> list[Finding]:
             )
         )
     ripple = s.ripple_vpp
-    crest = s.trough_v + (ripple or 0.0)
-    if ripple is not None and crest > 0.0 and ripple > LARGE_RIPPLE_FRACTION * crest:
-        if not s.collapsed:
-            found.append(
-                Finding(
-                    "warning",
-                    "large-ripple",
-                    None,
-                    f'supply "{s.name}" ripples {ripple:.3g} V p-p at low line and heaviest '
-                    f"load, over {LARGE_RIPPLE_FRACTION:.0%} of its peak: every stage on it "
-                    "loses that much swing and any regulator after it needs the margin; fit "
-                    "a larger reservoir",
-                    {"ripple_vpp": ripple},
-                )
+    if ripple is not None and ripple_too_large(s.trough_v, ripple, s.collapsed):
+        found.append(
+            Finding(
+                "warning",
+                "large-ripple",
+                None,
+                f'supply "{s.name}" ripples {ripple:.3g} V p-p at low line and heaviest '
+                f"load, over {LARGE_RIPPLE_FRACTION:.0%} of its peak: every stage on it "
+                "loses that much swing and any regulator after it needs the margin; fit "
+                "a larger reservoir",
+                {"ripple_vpp": ripple},
             )
+        )
     return found

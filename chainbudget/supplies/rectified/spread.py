@@ -1,18 +1,35 @@
-"""A rectified supply's low-line trough and its mains ripple over a leading trial axis:
-the reservoir drawn within its tolerance, the rectifier solved cycle by cycle for every
-trial at once (chainbudget/spread).
+"""A rectified supply's figures over a leading trial axis: the reservoir drawn within its
+tolerance, the rectifier solved cycle by cycle for every trial at once (chainbudget/spread).
 
 Notes
 -----
 The same circuits and corners as `chainbudget.supplies.rectified.circuit.solve_rails`
-takes for them: each rail's trough and its peak-to-peak ripple at low line and the
-heaviest load (the worst of the relative phases of signal and mains), and the ripple's
-spectrum (the seed of the hum budget) at nominal line with the nominal load's mean as a
-steady current, solved by `chainbudget.rectifier.solve` for a batch of circuits, one per
-rail, reservoir value and phase, in one batch as `solve_rails` solves them (the signal's
-frequency and whether the pulses are taken are the supply's, shared by its rails). The
-load is the nominal operating point's (the tree as settled for the nominal parts): the
-spread does not settle the tree again for each trial.
+takes for them, in one batch of `chainbudget.rectifier.solve`, one circuit per rail,
+reservoir value and phase (the signal's frequency and whether the pulses are taken are the
+supply's, shared by its rails):
+
+- low line and the heaviest load at each relative phase of signal and mains: the trough
+  and peak-to-peak ripple (the worst phase, the lowest trough, per trial) and the
+  winding's, diodes' and reservoir's currents there;
+- high line and the heaviest load at the same phases: the currents, read at the low
+  line's worst phase (as `solve_rails` reads them);
+- nominal line and load (its pulses at phase 0): the mean, ``mean_v`` and ``vout_v``,
+  which the supplies below take as their parent's mean per trial;
+- nominal line with the nominal load's mean as a steady current: the ripple's spectrum
+  (the seed of the hum budget).
+
+From those the rail's own figures follow as the check works them out, through the same
+code (`chainbudget.supplies.rectified.figures.worst_currents`, `winding_figures`: the
+larger of low and high line, a centre-tapped winding's rms of its two rails' currents,
+the rms the rating is judged by and its fraction of the rating), and the rules that read
+them are drawn per trial as flags (`chainbudget.spread.flags`; the conditions of
+`chainbudget.supplies.rectified.rules`): ``supply-collapse``, ``transformer-rating``,
+``reservoir-ripple-current`` and ``large-ripple``. The crest (high line, no load: the
+open circuit less the diode drop) and the switch-on inrush ((V_pk - V_d)/R_s) do not
+depend on the reservoir, and the means at high line are read by no figure the spread
+carries (a regulator's heat is worked out at the nominal check's rails): they keep the
+nominal check's values. The load is the nominal operating point's (the tree as settled
+for the nominal parts): the spread does not settle the tree again for each trial.
 
 A centre-tapped (``split``) supply is two such rails, ``name`` and ``name.neg``, each its
 own reservoir under its own load. The file gives one ``reservoir`` for both (each rail's
@@ -20,15 +37,26 @@ capacitor), so one value is drawn per trial and both rails take it: the two capa
 move together (a check of the trial, which can hold one value only, gives the same
 rails).
 
-Each figure is a smooth function of the reservoir C, so a chunk of trials takes them from
-`GRID_POINTS` values of C across the part's bounds (Chebyshev nodes) by their
-interpolating polynomial, which converges geometrically with the number of nodes for a
+Each figure at each phase is a smooth function of the reservoir C, so a chunk of trials
+takes them from
+`GRID_POINTS` values of C across the part's bounds (Chebyshev nodes) by
+their interpolating polynomial, which converges geometrically with the number of nodes for a
 function analytic about the interval (Trefethen, Approximation Theory and Approximation
 Practice, ch. 8); the complex harmonics are interpolated as their real and imaginary parts.
 Under pulsed loads the trough and ripple are interpolated at each relative phase of signal
 and mains, each smooth in C, and the worst phase taken per trial after: the worst of them
 has a kink where the worst phase changes, which a polynomial follows poorly (there the
-ripple jumps from one phase's to another's).
+ripple jumps from one phase's to another's). The currents are not interpolated: the
+solver's diode peak is the largest of the period's charging pulses (kinked in C where
+another pulse becomes the largest), and its rms currents are quadratures whose error
+under pulsed loads (the pulses' corners inside a charging interval) moves unevenly with C,
+so that a polynomial through them misses the direct solve by up to 2e-5 of the reservoir's
+ripple current (measured on the practice amplifier). Instead each trial's two circuits at
+its worst phase, low and high line under the heaviest load, are solved directly (a fifth
+of what solving every row directly costs). Whether a rail collapses is no
+smooth function: on the grid a trial collapses where its interpolated trough at some
+phase falls to zero (the solver's own test, beside its failing to find a periodic state,
+which does not happen above zero); near a collapse the interpolation is poor anyway.
 """
 
 from __future__ import annotations
@@ -43,23 +71,76 @@ from numpy.polynomial import chebyshev as cheb
 from numpy.typing import NDArray
 
 from chainbudget import rectifier
+from chainbudget.spread.flags import flag_key
 from chainbudget.supplies.base import RippleSpread, Supply, SupplyLoad, SupplySpread
-from chainbudget.supplies.rectified.circuit import transformer
+from chainbudget.supplies.rectified.circuit import Currents, Transformer, transformer
+from chainbudget.supplies.rectified.figures import winding_figures, worst_currents
+from chainbudget.supplies.rectified.rules import over_rating, ripple_too_large
 
 SPREAD_FIELDS = ("reservoir",)
 # Reservoir values solved per chunk of trials (the rest interpolated).
 GRID_POINTS = 17
+#: The currents of a corner, in `Currents`' order.
+CURRENT_KEYS = ("winding_rms_a", "diode_peak_a", "reservoir_ripple_a", "conduction_deg")
+#: The rail's own figures the reservoir moves (`winding_figures`' keys less the dc load,
+#: which is the nominal check's load).
+OWN_KEYS = (
+    "winding_rms_a",
+    "rms_per_dc",
+    "rating_current_a",
+    "transformer_load_fraction",
+    "diode_peak_a",
+    "reservoir_ripple_a",
+    "conduction_deg",
+)
+
+Array = NDArray[np.float64]
 
 
 @dataclass(frozen=True)
 class Solved:
-    """A rail's figures for each reservoir value: the low-line trough and ripple at the
-    heaviest load at each relative phase of signal and mains, V, (n, P), and the ripple's
-    harmonics at nominal line and load, complex V peak, (n, K)."""
+    """A rail's figures for each reservoir value (or trial), one row each: at low line
+    and the heaviest load at each relative phase of signal and mains the trough and ripple,
+    V, (n, P); the mean at nominal line and load, V, (n,); the ripple's harmonics at
+    nominal line and load, complex V peak, (n, K); whether each low-line circuit collapsed,
+    (n, P); and where solved directly, the currents at low and at high line under the
+    heaviest load at each phase, (n, P) each (None: interpolated figures, whose currents are
+    solved at the worst phase after, module notes)."""
 
-    trough_v: NDArray[np.float64]
-    ripple_vpp: NDArray[np.float64]
+    trough_v: Array
+    ripple_vpp: Array
+    mean_v: Array
     harmonics_vpk: NDArray[np.complex128]
+    collapsed: NDArray[np.bool_]
+    low: Currents | None = None
+    high: Currents | None = None
+
+    def columns(self) -> Array:
+        """Every smooth real figure a column, (n, W): what the grid interpolates."""
+        return np.column_stack(
+            (
+                self.trough_v,
+                self.ripple_vpp,
+                self.mean_v[:, None],
+                self.harmonics_vpk.real,
+                self.harmonics_vpk.imag,
+            )
+        )
+
+    @classmethod
+    def from_columns(cls, values: Array, phases: int, count: int) -> Solved:
+        """`columns` read back (interpolated values, (T, W)); a circuit collapses where
+        its trough falls to zero (module notes)."""
+        trough = values[:, :phases]
+        at = 2 * phases
+        return cls(
+            trough_v=trough,
+            ripple_vpp=values[:, phases:at],
+            mean_v=values[:, at],
+            harmonics_vpk=values[:, at + 1 : at + 1 + count]
+            + 1j * values[:, at + 1 + count : at + 1 + 2 * count],
+            collapsed=trough <= 0.0,
+        )
 
 
 def rectified_spread(
@@ -68,27 +149,28 @@ def rectified_spread(
     loads: Mapping[str, SupplyLoad],
     bounds: Mapping[str, tuple[float, float]] | None = None,
 ) -> dict[str, SupplySpread]:
-    """Each rail's trough and ripple at low line and heaviest load per trial, and its
-    ripple's spectrum (what the rails below and the hum take), by rail name; ``loads``
-    is each rail's nominal load (one rail, or a split supply's two).
+    """Each rail's figures per trial (module notes), by rail name: the trough and ripple at
+    low line and heaviest load (what the rails below and the stages take), the mean at
+    nominal line and load, the ripple's spectrum (what the hum takes), the winding's,
+    diodes' and reservoir's currents and the rules' flags; ``loads`` is each rail's
+    nominal load (one rail, or a split supply's two).
 
-    A batch of more than GRID_POINTS trials takes them from GRID_POINTS reservoir values
-    across the part's bounds (Chebyshev nodes), solved once (cached) and interpolated by
-    their polynomial (the figures are smooth in C; the trough within 1 uV of the direct
-    solve, tests/test_spread.py, the harmonics within 1e-6 of the fundamental,
-    tests/test_spread_hum.py, tests/test_spread_split.py); a smaller batch (a corner, a
-    sensitivity) is solved directly, and a reservoir not drawn takes the nominal value's
-    solve, cached. Every rail takes the one drawn reservoir (module notes).
+    A batch of more than GRID_POINTS trials takes the trough, ripple, mean and spectrum
+    from GRID_POINTS reservoir values across the part's bounds (Chebyshev nodes), solved
+    once (cached) and interpolated by their polynomial (the figures are smooth in C; the
+    trough within 1 uV of the direct solve, tests/test_spread.py, the harmonics within
+    1e-6 of the fundamental, tests/test_spread_hum.py, tests/test_spread_split.py, the mean
+    tests/test_spread_rectifier_figures.py), and the currents from the two circuits of
+    each trial at its worst phase, low and high line, solved directly (module notes); a
+    smaller batch (a corner, a sensitivity) is solved directly, and a reservoir not drawn
+    takes the nominal value's solve, cached. Every rail takes the one drawn reservoir
+    (module notes).
     """
     tr = transformer(supply)
-    rails = tuple(loads)
     rail_loads = tuple(loads.values())
     if "reservoir" not in drawn:
         solved = _solved(supply, rail_loads, (tr.reservoir_f,))
-        return {
-            rail: _spread(s.trough_v, s.ripple_vpp, s.harmonics_vpk, tr.ripple_hz)
-            for rail, s in zip(rails, solved, strict=True)
-        }
+        return _spreads(supply, tr, loads, solved, _at_worst(solved))
     reservoir = np.atleast_1d(np.asarray(drawn["reservoir"], dtype=float))
     span = (bounds or {}).get("reservoir")
     if reservoir.size > GRID_POINTS and span is not None and span[0] != span[1]:
@@ -96,56 +178,85 @@ def rectified_spread(
         nodes = np.cos(np.pi * (np.arange(GRID_POINTS) + 0.5) / GRID_POINTS)
         grid = tuple(float(c) for c in mid + half * nodes)
         on_grid = _solved(supply, rail_loads, grid)
-        # every figure of every rail a column: per rail its trough and ripple at each
-        # phase (each smooth in C; the worst phase is taken per trial after, as a kink of
-        # the worst trough would slow the interpolation down), then the harmonics' real
-        # and imaginary parts; one fit and one evaluation for them all
-        columns = np.column_stack(
-            [
-                np.column_stack(
-                    (s.trough_v, s.ripple_vpp, s.harmonics_vpk.real, s.harmonics_vpk.imag)
-                )
-                for s in on_grid
-            ]
-        )
-        coefficients = cheb.chebfit(nodes, columns, GRID_POINTS - 1)
-        values = np.asarray(cheb.chebval((reservoir - mid) / half, coefficients), float)  # (M, T)
+        # every figure of every rail a column, each at each phase (each smooth in C; the
+        # worst phase is taken per trial after, as a kink of the worst trough would slow
+        # the interpolation down), the harmonics as their real and imaginary parts; one
+        # fit and one evaluation for them all
+        columns = [s.columns() for s in on_grid]
+        coefficients = cheb.chebfit(nodes, np.column_stack(columns), GRID_POINTS - 1)
+        values = np.asarray(cheb.chebval((reservoir - mid) / half, coefficients), float).T
         phases, count = on_grid[0].trough_v.shape[1], on_grid[0].harmonics_vpk.shape[1]
-        width = 2 * phases + 2 * count
-        found = {}
-        for r, rail in enumerate(rails):
-            mine = values[r * width : (r + 1) * width]
-            at = 2 * phases
-            spectrum = (mine[at : at + count] + 1j * mine[at + count :]).T
-            found[rail] = _spread(
-                mine[:phases].T, mine[phases : 2 * phases].T, spectrum, tr.ripple_hz
-            )
-        return found
-    direct = _solve(supply, rail_loads, reservoir)
-    return {
-        rail: _spread(s.trough_v, s.ripple_vpp, s.harmonics_vpk, tr.ripple_hz)
-        for rail, s in zip(rails, direct, strict=True)
+        edges = np.cumsum([0] + [c.shape[1] for c in columns])
+        trials = tuple(
+            Solved.from_columns(values[:, a:b], phases, count)
+            for a, b in zip(edges[:-1], edges[1:], strict=True)
+        )
+        worst = [np.argmin(s.trough_v, axis=1) for s in trials]
+        currents = _currents_at(supply, rail_loads, reservoir, worst)
+        return _spreads(supply, tr, loads, trials, currents)
+    solved = _solve(supply, rail_loads, reservoir)
+    return _spreads(supply, tr, loads, solved, _at_worst(solved))
+
+
+def _pick(values: object, at: NDArray[np.intp]) -> Array:
+    """Each row's value at its own column ``at``, (n,) from (n, P)."""
+    return np.take_along_axis(np.asarray(values), at[:, None], axis=1)[:, 0]
+
+
+def _at_worst(solved: tuple[Solved, ...]) -> list[tuple[Currents, Currents]]:
+    """Each rail's currents at low and at high line at its worst phase (the lowest trough,
+    as `solve_rails` takes it), from a direct solve."""
+    found = []
+    for s in solved:
+        assert s.low is not None and s.high is not None  # a direct solve's
+        at = np.argmin(s.trough_v, axis=1)
+        low, high = (
+            Currents(*(_pick(getattr(c, key), at) for key in CURRENT_KEYS)) for c in (s.low, s.high)
+        )
+        found.append((low, high))
+    return found
+
+
+def _spreads(
+    supply: Supply,
+    tr: Transformer,
+    loads: Mapping[str, SupplyLoad],
+    solved: tuple[Solved, ...],
+    currents: list[tuple[Currents, Currents]],
+) -> dict[str, SupplySpread]:
+    """Every rail's spread from its figures per trial (`Solved`, a row a trial) and its
+    currents at low and high line at its worst phase: the trough and ripple at that phase,
+    the currents as `chainbudget.supplies.rectified.figures` works them out and the rules'
+    flags."""
+    worst = {
+        rail: worst_currents(low, high) for rail, (low, high) in zip(loads, currents, strict=True)
     }
-
-
-def _spread(
-    trough: NDArray[np.float64],
-    ripple: NDArray[np.float64],
-    harmonics: NDArray[np.complex128],
-    ripple_hz: float,
-) -> SupplySpread:
-    """A rail's spread from its trough and ripple at each phase, (T, P), and its
-    harmonics, (T, K): the trough and ripple at the worst phase of each trial (the lowest
-    trough, as `solve_rails` takes it)."""
-    worst = np.argmin(trough, axis=1)[:, None]
-    low: NDArray[np.float64] = np.maximum(np.take_along_axis(trough, worst, axis=1)[:, 0], 0.0)
-    vpp = np.take_along_axis(ripple, worst, axis=1)[:, 0]
-    return SupplySpread(
-        {"trough_v": low, "ripple_vpp": vpp},
-        (),
-        low,
-        RippleSpread(ripple_hz, vpp, np.asarray(harmonics, dtype=complex)),
-    )
+    found = {}
+    rating = supply.optional("reservoir_ripple_rating")
+    for rail, s in zip(loads, solved, strict=True):
+        at = np.argmin(s.trough_v, axis=1)
+        trough = np.maximum(_pick(s.trough_v, at), 0.0)
+        vpp = _pick(s.ripple_vpp, at)
+        collapsed = np.any(s.collapsed, axis=1)
+        own = winding_figures(tr, worst, rail, loads, loads[rail])
+        mean = np.maximum(s.mean_v, 0.0)
+        figures = {"trough_v": trough, "ripple_vpp": vpp, "mean_v": mean, "vout_v": mean}
+        figures.update({key: own[key] for key in OWN_KEYS if own[key] is not None})
+        flags = {
+            flag_key("error", "supply-collapse", rail): collapsed,
+            flag_key("warning", "large-ripple", rail): ripple_too_large(trough, vpp, collapsed),
+        }
+        if tr.rated_a is not None and rail == supply.name:  # the transformer's own rail
+            flags[flag_key("warning", "transformer-rating", rail)] = over_rating(
+                own["rating_current_a"], tr.rated_a, collapsed
+            )
+        if rating is not None:
+            flags[flag_key("warning", "reservoir-ripple-current", rail)] = over_rating(
+                own["reservoir_ripple_a"], rating, collapsed
+            )
+        ripple = RippleSpread(tr.ripple_hz, vpp, np.asarray(s.harmonics_vpk, complex), mean)
+        found[rail] = SupplySpread(figures, (), trough, ripple, flags)
+    return found
 
 
 @lru_cache(maxsize=32)
@@ -156,16 +267,17 @@ def _solved(
     return _solve(supply, loads, np.array(grid))
 
 
-def _solve(
-    supply: Supply, loads: tuple[SupplyLoad, ...], reservoir: NDArray[np.float64]
-) -> tuple[Solved, ...]:
-    """Each rail's figures for each reservoir value: the trough and ripple at low line and
-    heaviest load at each of the signal's phases (`_spread` takes the worst, as
-    `solve_rails` does), and the ripple's spectrum at nominal line with the nominal
-    load's mean as a steady current (`solve_rails`'s row for the hum), every rail in one
-    batch. As in `solve_rails`, the signal is the first rail's that has one and the
-    phases are taken where any rail draws pulses."""
-    tr = transformer(supply)
+@dataclass(frozen=True)
+class _Pulses:
+    """The signal the pulses are taken at (None: no pulses) and the relative phases of
+    signal and mains, rad, as `solve_rails` takes them: the first rail's signal that has
+    one, the phases where any rail draws pulses."""
+
+    signal_hz: float | None
+    offsets: NDArray[np.float64]
+
+
+def _pulses(tr: Transformer, loads: tuple[SupplyLoad, ...]) -> _Pulses:
     signal = next((ld.signal_hz for ld in loads if ld.signal_hz is not None), None)
     pulsed = signal is not None and any(ld.heaviest_pulse_a > 0.0 for ld in loads)
     phases = rectifier.PHASES if pulsed else 1
@@ -173,19 +285,38 @@ def _solve(
     if pulsed and signal is not None:
         cycles = max(rectifier.commensurate(signal, tr.ripple_hz)[1], 1)
     offsets = np.array([2.0 * math.pi * j / (phases * cycles) for j in range(phases)])
+    return _Pulses(signal if pulsed else None, offsets)
+
+
+def _solve(
+    supply: Supply, loads: tuple[SupplyLoad, ...], reservoir: NDArray[np.float64]
+) -> tuple[Solved, ...]:
+    """Each rail's figures for each reservoir value (module notes), every rail in one
+    batch: `solve_rails`'s rows at low and high line under the heaviest load at each of
+    the signal's phases (`_pulses`), at nominal line and load, and at nominal line with the
+    nominal load's mean as a steady current (the spectrum)."""
+    tr = transformer(supply)
+    pulses = _pulses(tr, loads)
+    phases = pulses.offsets.size
     n = reservoir.size
-    low, nominal = tr.lines[0], tr.lines[1]
-    # per rail: n x phases rows for the trough, then n rows for the spectrum
+    low, nominal, high = tr.lines
+    # per rail: n x phases rows at low line, as many at high line, then n rows at nominal
+    # line and load, then n for the spectrum
     peak, capacitance, dc, pulse, phase = [], [], [], [], []
     for load in loads:
-        peak += [
-            np.full(n * phases, tr.source_peak(low, load.heaviest_a > 0.0)),
-            np.full(n, tr.source_peak(nominal, load.nominal_a > 0.0)),
-        ]
-        capacitance += [np.repeat(reservoir, phases), reservoir]
-        dc += [np.full(n * phases, load.heaviest_dc_a), np.full(n, load.nominal_a)]
-        pulse += [np.full(n * phases, load.heaviest_pulse_a), np.zeros(n)]
-        phase += [np.tile(offsets, n), np.zeros(n)]
+        heavy = load.heaviest_a > 0.0
+        for line in (low, high):
+            peak.append(np.full(n * phases, tr.source_peak(line, heavy)))
+            capacitance.append(np.repeat(reservoir, phases))
+            dc.append(np.full(n * phases, load.heaviest_dc_a))
+            pulse.append(np.full(n * phases, load.heaviest_pulse_a))
+            phase.append(np.tile(pulses.offsets, n))
+        loaded = tr.source_peak(nominal, load.nominal_a > 0.0)
+        peak += [np.full(n, loaded), np.full(n, loaded)]
+        capacitance += [reservoir, reservoir]
+        dc += [np.full(n, load.nominal_dc_a), np.full(n, load.nominal_a)]
+        pulse += [np.full(n, load.nominal_pulse_a), np.zeros(n)]
+        phase += [np.zeros(n), np.zeros(n)]
     solved = rectifier.solve(
         np.concatenate(peak),
         tr.drop_v,
@@ -194,16 +325,74 @@ def _solve(
         tr.line_hz,
         np.concatenate(dc),
         np.concatenate(pulse),
-        signal if pulsed else None,
+        pulses.signal_hz,
         np.concatenate(phase),
         half_wave=tr.half_wave,
     )
-    width = n * phases + n
+    width = 2 * n * phases + 2 * n
+
+    def phased(values: object, start: int) -> Array:
+        return np.asarray(values)[start : start + n * phases].reshape(n, phases)
+
+    def currents(start: int) -> Currents:
+        return Currents(*(phased(getattr(solved, key), start) for key in CURRENT_KEYS))
+
     found = []
     for r in range(len(loads)):
         base = r * width
-        troughs = np.asarray(solved.trough_v)[base : base + n * phases].reshape(n, phases)
-        ripple = np.asarray(solved.ripple_vpp)[base : base + n * phases].reshape(n, phases)
-        harmonics = np.asarray(solved.harmonics_vpk)[base + n * phases : base + width]
-        found.append(Solved(troughs, ripple, harmonics))
+        at_high, at_mean = base + n * phases, base + 2 * n * phases
+        found.append(
+            Solved(
+                trough_v=phased(solved.trough_v, base),
+                ripple_vpp=phased(solved.ripple_vpp, base),
+                mean_v=np.asarray(solved.mean_v)[at_mean : at_mean + n],
+                harmonics_vpk=np.asarray(solved.harmonics_vpk)[at_mean + n : at_mean + 2 * n],
+                collapsed=phased(solved.collapsed, base).astype(bool),
+                low=currents(base),
+                high=currents(at_high),
+            )
+        )
     return tuple(found)
+
+
+def _currents_at(
+    supply: Supply,
+    loads: tuple[SupplyLoad, ...],
+    reservoir: NDArray[np.float64],
+    worst: list[NDArray[np.intp]],
+) -> list[tuple[Currents, Currents]]:
+    """Each rail's currents at low and at high line under the heaviest load, at each
+    trial's worst phase (``worst``, per rail: the index into `_pulses`' phases), solved
+    directly: two circuits a trial and rail, every rail in one batch (the currents are not
+    interpolated, module notes)."""
+    tr = transformer(supply)
+    pulses = _pulses(tr, loads)
+    n = reservoir.size
+    low, _, high = tr.lines
+    peak, dc, pulse, phase = [], [], [], []
+    for load, at in zip(loads, worst, strict=True):
+        heavy = load.heaviest_a > 0.0
+        for line in (low, high):
+            peak.append(np.full(n, tr.source_peak(line, heavy)))
+            dc.append(np.full(n, load.heaviest_dc_a))
+            pulse.append(np.full(n, load.heaviest_pulse_a))
+            phase.append(pulses.offsets[at])
+    solved = rectifier.solve(
+        np.concatenate(peak),
+        tr.drop_v,
+        tr.winding_ohm,
+        np.tile(reservoir, 2 * len(loads)),
+        tr.line_hz,
+        np.concatenate(dc),
+        np.concatenate(pulse),
+        pulses.signal_hz,
+        np.concatenate(phase),
+        half_wave=tr.half_wave,
+    )
+
+    def currents(start: int) -> Currents:
+        return Currents(
+            *(np.asarray(getattr(solved, key))[start : start + n] for key in CURRENT_KEYS)
+        )
+
+    return [(currents(2 * r * n), currents((2 * r + 1) * n)) for r in range(len(loads))]
