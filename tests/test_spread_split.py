@@ -13,7 +13,7 @@ from typing import Any
 
 import numpy as np
 import pytest
-from test_spread import _assert_same_figure, _json_figure
+from test_spread import _assert_same_figure, _grid_rtol, _json_figure
 
 from chainbudget.budget import compute
 from chainbudget.budget.supplies import settle
@@ -171,7 +171,10 @@ def test_both_rails_and_what_they_feed_equal_the_check_of_each_trial() -> None:
     for t in range(0, len(positions), 3):
         alone = evaluate(positions[t : t + 1])
         for path, values in batched.items():
-            assert values[t] == pytest.approx(alone[path][0], rel=1e-8, abs=1e-9), (path, t)
+            assert values[t] == pytest.approx(alone[path][0], rel=_grid_rtol(path), abs=1e-9), (
+                path,
+                t,
+            )
         data = _checked_alone(SPLIT, float(reservoir[t]))
         for path in batched:
             assert not is_flag(path)

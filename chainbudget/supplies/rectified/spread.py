@@ -46,14 +46,14 @@ Practice, ch. 8); the complex harmonics are interpolated as their real and imagi
 Under pulsed loads the trough and ripple are interpolated at each relative phase of signal
 and mains, each smooth in C, and the worst phase taken per trial after: the worst of them
 has a kink where the worst phase changes, which a polynomial follows poorly (there the
-ripple jumps from one phase's to another's). The currents are not interpolated: the
-solver's diode peak is the largest of the period's charging pulses (kinked in C where
-another pulse becomes the largest), and its rms currents are quadratures whose error
-under pulsed loads (the pulses' corners inside a charging interval) moves unevenly with C,
-so that a polynomial through them misses the direct solve by up to 2e-5 of the reservoir's
-ripple current (measured on the practice amplifier). Instead each trial's two circuits at
-its worst phase, low and high line under the heaviest load, are solved directly (a fifth
-of what solving every row directly costs). Whether a rail collapses is no
+ripple jumps from one phase's to another's). The currents at low and high line are
+interpolated at each phase the same way and read at the trial's worst phase: within 2e-8
+of a direct solve, but for the reservoir's ripple current, within 2e-5 (measured on the
+practice and shed amplifiers: the solver's rms quadratures under pulsed loads, the
+pulses' corners inside a charging interval, move unevenly with C). Solving each trial's
+two circuits at its worst phase directly instead is exact to the solver but, on the
+kitchen radio, costs as much as all the chain's networks of the trial together; a
+tolerance's figure does not need the fifth digit. Whether a rail collapses is no
 smooth function: on the grid a trial collapses where its interpolated trough at some
 phase falls to zero (the solver's own test, beside its failing to find a periodic state,
 which does not happen above zero); near a collapse the interpolation is poor anyway.
@@ -105,7 +105,7 @@ class Solved:
     nominal line and load, complex V peak, (n, K); whether each low-line circuit collapsed,
     (n, P); and where solved directly, the currents at low and at high line under the
     heaviest load at each phase, (n, P) each (None: interpolated figures, whose currents are
-    solved at the worst phase after, module notes)."""
+    interpolated apart, `_current_columns`)."""
 
     trough_v: Array
     ripple_vpp: Array
@@ -160,8 +160,8 @@ def rectified_spread(
     once (cached) and interpolated by their polynomial (the figures are smooth in C; the
     trough within 1 uV of the direct solve, tests/test_spread.py, the harmonics within
     1e-6 of the fundamental, tests/test_spread_hum.py, tests/test_spread_split.py, the mean
-    tests/test_spread_rectifier_figures.py), and the currents from the two circuits of
-    each trial at its worst phase, low and high line, solved directly (module notes); a
+    tests/test_spread_rectifier_figures.py), the currents too (within 2e-8, the
+    reservoir's ripple current within 2e-5: module notes); a
     smaller batch (a corner, a sensitivity) is solved directly, and a reservoir not drawn
     takes the nominal value's solve, cached. Every rail takes the one drawn reservoir
     (module notes).
@@ -183,16 +183,18 @@ def rectified_spread(
         # the interpolation down), the harmonics as their real and imaginary parts; one
         # fit and one evaluation for them all
         columns = [s.columns() for s in on_grid]
+        columns += [_current_columns(s) for s in on_grid]
         coefficients = cheb.chebfit(nodes, np.column_stack(columns), GRID_POINTS - 1)
         values = np.asarray(cheb.chebval((reservoir - mid) / half, coefficients), float).T
         phases, count = on_grid[0].trough_v.shape[1], on_grid[0].harmonics_vpk.shape[1]
         edges = np.cumsum([0] + [c.shape[1] for c in columns])
-        trials = tuple(
-            Solved.from_columns(values[:, a:b], phases, count)
-            for a, b in zip(edges[:-1], edges[1:], strict=True)
-        )
-        worst = [np.argmin(s.trough_v, axis=1) for s in trials]
-        currents = _currents_at(supply, rail_loads, reservoir, worst)
+        pieces = [values[:, a:b] for a, b in zip(edges[:-1], edges[1:], strict=True)]
+        rails = len(on_grid)
+        trials = tuple(Solved.from_columns(v, phases, count) for v in pieces[:rails])
+        currents = [
+            _currents_from_columns(v, np.argmin(s.trough_v, axis=1), phases)
+            for v, s in zip(pieces[rails:], trials, strict=True)
+        ]
         return _spreads(supply, tr, loads, trials, currents)
     solved = _solve(supply, rail_loads, reservoir)
     return _spreads(supply, tr, loads, solved, _at_worst(solved))
@@ -355,44 +357,18 @@ def _solve(
     return tuple(found)
 
 
-def _currents_at(
-    supply: Supply,
-    loads: tuple[SupplyLoad, ...],
-    reservoir: NDArray[np.float64],
-    worst: list[NDArray[np.intp]],
-) -> list[tuple[Currents, Currents]]:
-    """Each rail's currents at low and at high line under the heaviest load, at each
-    trial's worst phase (``worst``, per rail: the index into `_pulses`' phases), solved
-    directly: two circuits a trial and rail, every rail in one batch (the currents are not
-    interpolated, module notes)."""
-    tr = transformer(supply)
-    pulses = _pulses(tr, loads)
-    n = reservoir.size
-    low, _, high = tr.lines
-    peak, dc, pulse, phase = [], [], [], []
-    for load, at in zip(loads, worst, strict=True):
-        heavy = load.heaviest_a > 0.0
-        for line in (low, high):
-            peak.append(np.full(n, tr.source_peak(line, heavy)))
-            dc.append(np.full(n, load.heaviest_dc_a))
-            pulse.append(np.full(n, load.heaviest_pulse_a))
-            phase.append(pulses.offsets[at])
-    solved = rectifier.solve(
-        np.concatenate(peak),
-        tr.drop_v,
-        tr.winding_ohm,
-        np.tile(reservoir, 2 * len(loads)),
-        tr.line_hz,
-        np.concatenate(dc),
-        np.concatenate(pulse),
-        pulses.signal_hz,
-        np.concatenate(phase),
-        half_wave=tr.half_wave,
+def _current_columns(solved: Solved) -> Array:
+    """A direct solve's currents at low and high line at each phase, (n, 2 x 4 x P): what
+    the grid interpolates besides `Solved.columns`."""
+    assert solved.low is not None and solved.high is not None  # a direct solve's
+    return np.column_stack(
+        [getattr(c, key) for c in (solved.low, solved.high) for key in CURRENT_KEYS]
     )
 
-    def currents(start: int) -> Currents:
-        return Currents(
-            *(np.asarray(getattr(solved, key))[start : start + n] for key in CURRENT_KEYS)
-        )
 
-    return [(currents(2 * r * n), currents((2 * r + 1) * n)) for r in range(len(loads))]
+def _currents_from_columns(
+    values: Array, worst: NDArray[np.intp], phases: int
+) -> tuple[Currents, Currents]:
+    """`_current_columns` read back (interpolated, (T, 8P)) at each trial's worst phase."""
+    picked = [_pick(values[:, j * phases : (j + 1) * phases], worst) for j in range(8)]
+    return Currents(*picked[:4]), Currents(*picked[4:])
