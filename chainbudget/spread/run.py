@@ -36,6 +36,7 @@ import sys
 import time
 from collections.abc import Callable
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
@@ -155,11 +156,31 @@ def _own_values(
     return found
 
 
+def _moving(one_at_a_time: NDArray[np.float64], nominal: float, step: str) -> Any:
+    """The parts whose flips a figure's corner search tries: for a noise figure, those
+    that move it at all one at a time (at either bound, beyond the rounding the search
+    tells a better vertex by): a generator's noise reaches a node through the stages
+    before it and the one after, and a part elsewhere leaves it exactly where it is at
+    every vertex. Every part for any other figure: one held at a floor at the nominal
+    parts (an even harmonic of a symmetric pair at -200 dB) hides a part's effect one at
+    a time that shows at a vertex where another part has lifted it."""
+    if step != "noise":
+        return np.ones(one_at_a_time.size // 2, dtype=bool)
+    low, high = one_at_a_time[0::2], one_at_a_time[1::2]
+    moved = np.maximum(np.abs(low - nominal), np.abs(high - nominal))
+    return moved > 1e-12 * (1.0 + abs(nominal))
+
+
 def _corners(
-    evaluate: Evaluator, paths: list[str], deltas: dict[str, NDArray[np.float64]], n: int
+    evaluate: Evaluator,
+    paths: list[str],
+    deltas: dict[str, NDArray[np.float64]],
+    moving: dict[str, NDArray[np.bool_]],
+    n: int,
 ) -> dict[str, tuple[float, float]]:
     """Each figure's corner worst case (low, high) from its sensitivities' signs, confirmed
-    by single flips (see the module notes)."""
+    by single flips of the parts that move it (``moving``: a part that leaves the figure
+    where it is at both its bounds, one at a time, is not flipped; see the module notes)."""
     if n == 0:
         return {}
     # corner[path][0] lowers the figure, [1] raises it
@@ -168,27 +189,31 @@ def _corners(
     start = np.array([vertices[p][side] for p, side in order])
     values = _own_values(evaluate, start, [p for p, _ in order])
     best = {key: float(values[i]) for i, key in enumerate(order)}
-    active = list(order)
+    active = [(p, side) for p, side in order if np.any(moving[p])]
     for _ in range(MAX_CONFIRM_ROUNDS):
         if not active:
             break
-        rows = []
+        rows, owners, flipped_parts = [], [], []
         for p, side in active:
-            flips = np.repeat(vertices[p][side][None, :], n, axis=0)
-            flips[np.arange(n), np.arange(n)] = 1.0 - flips[np.arange(n), np.arange(n)]
+            parts = np.flatnonzero(moving[p])
+            flips = np.repeat(vertices[p][side][None, :], parts.size, axis=0)
+            flips[np.arange(parts.size), parts] = 1.0 - flips[np.arange(parts.size), parts]
             rows.append(flips)
-        flipped = _own_values(
-            evaluate, np.concatenate(rows), [p for p, _ in active for _ in range(n)]
-        )
+            owners += [p] * parts.size
+            flipped_parts.append(parts)
+        flipped = _own_values(evaluate, np.concatenate(rows), owners)
         still = []
-        for a, (p, side) in enumerate(active):
-            got = flipped[a * n : (a + 1) * n]
-            i = int(np.argmin(got) if side == 0 else np.argmax(got))
-            better = got[i] < best[(p, side)] if side == 0 else got[i] > best[(p, side)]
-            if better and abs(got[i] - best[(p, side)]) > 1e-12 * (1.0 + abs(got[i])):
+        at = 0
+        for (p, side), parts in zip(active, flipped_parts, strict=True):
+            got = flipped[at : at + parts.size]
+            at += parts.size
+            j = int(np.argmin(got) if side == 0 else np.argmax(got))
+            better = got[j] < best[(p, side)] if side == 0 else got[j] > best[(p, side)]
+            if better and abs(got[j] - best[(p, side)]) > 1e-12 * (1.0 + abs(got[j])):
+                i = int(parts[j])
                 vertices[p][side] = vertices[p][side].copy()
                 vertices[p][side][i] = 1.0 - vertices[p][side][i]
-                best[(p, side)] = float(got[i])
+                best[(p, side)] = float(got[j])
                 still.append((p, side))
         active = still
     return {p: (best[(p, 0)], best[(p, 1)]) for p in paths}
@@ -264,6 +289,7 @@ def run_spread(
             raise SpreadError(f"{chain.file}: the figure {p} is not finite in some trials")
     side = evaluate(_one_at_a_time(n)) if n else {p: np.zeros(0) for p in paths}
     deltas = {p: side[p][1::2] - side[p][0::2] for p in paths}
+    moving = {p: _moving(side[p], float(centre[p][0]), evaluate.steps_of[p]) for p in paths}
     sensitivity = []
     for p in paths:
         total = float(np.sum(deltas[p] ** 2))
@@ -275,7 +301,7 @@ def run_spread(
             share = float(deltas[p][i] ** 2 / total)
             if share >= 0.01:
                 sensitivity.append(Sensitivity(p, parts[int(i)].label, share))
-    corners = _corners(evaluate, paths, deltas, n)
+    corners = _corners(evaluate, paths, deltas, moving, n)
     for p in paths:  # no parts move it: its corners are its nominal value
         corners.setdefault(p, (float(centre[p][0]), float(centre[p][0])))
         # a figure not monotonic in its parts (a DC's magnitude passing through zero, THD
