@@ -87,3 +87,36 @@ def test_held_settings_solved_at_their_points_only_change_no_figure(chain_file: 
     assert got.keys() == expected.keys()
     for path, values in expected.items():
         np.testing.assert_allclose(got[path], values, rtol=1e-12, atol=0, err_msg=path)
+
+
+def test_noise_corners_flipping_only_the_parts_that_move_them_equal_flipping_every_part() -> None:
+    """The corner search of a noise figure flips only the parts that move it one at a time
+    (`run._moving`): on the kitchen radio (eighteen parts over four stages, a generator's
+    noise reaching each node through the stages before it) every noise figure's corners
+    equal those of the plain search that flips every part at every vertex (the reference,
+    the search as it was), and the pruned search leaves some parts out."""
+    from pathlib import Path
+
+    from chainbudget.budget import compute
+    from chainbudget.budget.supplies import settle
+    from chainbudget.chainfile import load_chain
+    from chainbudget.spread.evaluate import Evaluator
+    from chainbudget.spread.parts import chain_parts
+    from chainbudget.spread.run import _corners, _moving, _one_at_a_time
+
+    chain = load_chain(Path(__file__).resolve().parents[1] / "chains" / "kitchen_radio_mains.toml")
+    parts, _ = chain_parts(chain)
+    n = len(parts)
+    evaluate = Evaluator(chain, tuple(parts), compute(chain), settle(chain, "low").voltages)
+    noise = frozenset({"noise"})
+    centre = evaluate(np.full((1, n), 0.5), steps=noise)
+    side = evaluate(_one_at_a_time(n), steps=noise)
+    paths = sorted(p for p in centre if evaluate.steps_of.get(p) == "noise")
+    deltas = {p: side[p][1::2] - side[p][0::2] for p in paths}
+    moving = {p: _moving(side[p], float(centre[p][0]), "noise") for p in paths}
+    every = {p: np.ones(n, dtype=bool) for p in paths}
+    assert sum(int(np.sum(~m)) for m in moving.values()) > 0
+    pruned = _corners(evaluate, paths, deltas, moving, n)
+    plain = _corners(evaluate, paths, deltas, every, n)
+    for p in paths:
+        assert pruned[p] == pytest.approx(plain[p], rel=1e-12, abs=0), p

@@ -19,7 +19,9 @@ Corner worst case: the signs of D_i give, for each figure, the corner that raise
 and the one that lowers it most, under the linear model (2 corners instead of 2^n). Each
 corner is then confirmed: every single part is flipped to its other bound, and any flip
 that carries the figure further is kept, until none does (a coordinate search over the
-vertices; exact for a figure monotonic in each part). A figure that is not (the output
+vertices; exact for a figure monotonic in each part). A noise figure flips only the parts
+that move it one at a time (`_moving`): the rest leave it where it is at every vertex,
+and the busking amp's 94 noise figures then ask for half the rows. A figure that is not (the output
 stage's THD against its emitter resistors: least near Oliver's optimum I_q R_E = V_T) may
 reach further inside the bounds; where the trials go beyond the corners found, their
 extremes stand for the worst case instead. A corner row is asked only for its own
