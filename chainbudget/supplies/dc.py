@@ -6,19 +6,24 @@ from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import Any
 
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+
 from chainbudget import fields as f
 from chainbudget.finding import Finding
 from chainbudget.kindfigures import KindFigures, figure
 from chainbudget.notation import amps, eng
 from chainbudget.supplies.base import (
+    RippleSpread,
     Supply,
     SupplyBudget,
     SupplyContext,
     SupplyKind,
     SupplyLoad,
+    SupplySpread,
     SupplyState,
 )
-from chainbudget.supplymath import battery_runtime_h, pulsed_sag, sag
+from chainbudget.supplymath import battery_runtime_h, pulsed_sag, pulsed_sags, sag
 from chainbudget.thresholds import BATTERY_SAG_COST_DB
 
 
@@ -36,6 +41,58 @@ class DcFigures(KindFigures):
     runtime_nominal_h: float | None = figure("run time at the nominal level", "h", default=None)
     resistance_ohm: float = figure(default=0.0)
     reservoir_f: float | None = figure(default=None)
+
+
+# The parts a spread draws (chainbudget/spread): its internal resistance.
+SPREAD_FIELDS = ("resistance",)
+
+
+@dataclass(frozen=True)
+class BatteryEnds:
+    """A battery's emf at its three corners, V (magnitudes): nominal, low end (flat) and
+    high end (fresh), the file's ``voltage``, ``min_voltage`` and ``max_voltage``."""
+
+    nominal_v: float
+    low_v: float
+    high_v: float
+
+
+def battery_ends(supply: Supply) -> BatteryEnds:
+    """The emf at each corner; an end not given is the nominal voltage."""
+    nominal = abs(supply.number("voltage"))
+    low = supply.optional("min_voltage")
+    high = supply.optional("max_voltage")
+    return BatteryEnds(
+        nominal, nominal if low is None else abs(low), nominal if high is None else abs(high)
+    )
+
+
+def terminal_v(emf: ArrayLike, resistance: ArrayLike, current: ArrayLike) -> NDArray[np.float64]:
+    """The terminal voltage E - R I of a Thevenin source, no lower than zero, V,
+    element-wise (:func:`chainbudget.supplymath.sag`; Horowitz & Hill, The Art of
+    Electronics, 3rd ed., ch. 1, from memory)."""
+    return np.maximum(sag(emf, resistance, current), 0.0)
+
+
+def crest_drop_v(
+    resistance: ArrayLike, reservoir_f: float | None, load: SupplyLoad
+) -> NDArray[np.float64]:
+    """The drop across the internal resistance at the crest of the heaviest load, V,
+    element-wise in the resistance (:func:`chainbudget.supplymath.pulsed_sags`: the steady
+    current and the crest of the pulses, less what a reservoir holds up)."""
+    return pulsed_sags(
+        resistance, reservoir_f, load.heaviest_dc_a, load.heaviest_pulse_a, load.signal_hz
+    )
+
+
+def trough_v(low_v: float, drop_v: ArrayLike) -> NDArray[np.float64]:
+    """The low end less the crest's drop, no lower than zero, V."""
+    return np.maximum(low_v - np.asarray(drop_v, dtype=float), 0.0)
+
+
+def collapses(low_v: float, drop_v: ArrayLike, load: SupplyLoad) -> NDArray[np.bool_]:
+    """Whether the crest's drop takes the whole of the low end (under a load at all)."""
+    return np.asarray((np.asarray(drop_v) >= low_v) & (load.heaviest_a > 0.0), dtype=bool)
 
 
 class DcSupply(SupplyKind):
@@ -91,7 +148,9 @@ class DcSupply(SupplyKind):
         (:func:`chainbudget.supplymath.pulsed_sag`). The means: the nominal voltage under
         the nominal load, the high end (``max_voltage``) under the heaviest and the idle
         load; the crest is the high end unloaded. No mains ripple. The supply collapses
-        when the sag would take the trough to zero.
+        when the sag would take the trough to zero. The arithmetic is `terminal_v`,
+        `crest_drop_v`, `trough_v` and `collapses`, which the spread takes with the
+        resistance an array of trials (`chainbudget.supplies.dc_spread`).
         """
         return self._state(supply, load, supply.number("resistance"))
 
@@ -104,35 +163,44 @@ class DcSupply(SupplyKind):
         return self._state(supply, load, 0.0)
 
     def _state(self, supply: Supply, load: SupplyLoad, r: float) -> SupplyState:
-        nominal = abs(supply.number("voltage"))
-        low = supply.optional("min_voltage")
-        high = supply.optional("max_voltage")
-        low_v = nominal if low is None else abs(low)
-        high_v = nominal if high is None else abs(high)
-
-        def terminal(emf: float, current: float) -> float:
-            return max(float(sag(emf, r, current)), 0.0)
-
+        ends = battery_ends(supply)
         drop = self.crest_sag(supply, load, r)
         return SupplyState(
-            trough_v=max(low_v - drop, 0.0),
-            nominal_v=terminal(nominal, load.nominal_a),
-            crest_v=high_v,
-            high_heavy_v=terminal(high_v, load.heaviest_a),
-            high_idle_v=terminal(high_v, load.idle_a),
+            trough_v=float(trough_v(ends.low_v, drop)),
+            nominal_v=float(terminal_v(ends.nominal_v, r, load.nominal_a)),
+            crest_v=ends.high_v,
+            high_heavy_v=float(terminal_v(ends.high_v, r, load.heaviest_a)),
+            high_idle_v=float(terminal_v(ends.high_v, r, load.idle_a)),
             ripple_vpp=0.0,
-            collapsed=drop >= low_v and load.heaviest_a > 0.0,
+            collapsed=bool(collapses(ends.low_v, drop, load)),
         )
 
     def crest_sag(self, supply: Supply, load: SupplyLoad, r: float | None = None) -> float:
-        """Sag at the crest of the heaviest load, V."""
-        return pulsed_sag(
-            supply.number("resistance") if r is None else r,
-            supply.optional("reservoir"),
-            load.heaviest_dc_a,
-            load.heaviest_pulse_a,
-            load.signal_hz,
-        )
+        """Sag at the crest of the heaviest load, V (`crest_drop_v`)."""
+        resistance = supply.number("resistance") if r is None else r
+        return float(crest_drop_v(resistance, supply.optional("reservoir"), load))
+
+    def spread_fields(self, supply: Supply) -> tuple[str, ...]:
+        """Its internal resistance, where it has one (a zero resistance is no part)."""
+        return SPREAD_FIELDS if supply.number("resistance") > 0.0 else ()
+
+    def spread(
+        self,
+        supply: Supply,
+        drawn: Mapping[str, NDArray[np.float64]],
+        nominal: SupplyBudget,
+        parent_low_v: NDArray[np.float64] | None = None,
+        bounds: Mapping[str, tuple[float, float]] | None = None,
+        parent_ripple: RippleSpread | None = None,
+    ) -> SupplySpread:
+        """Its figures per trial with its internal resistance drawn, under the nominal
+        check's load (`chainbudget.supplies.dc_spread.dc_spread`). A root: no parent's
+        trough or ripple to take."""
+        # imported here: that module imports this one's formulas
+        from chainbudget.supplies.dc_spread import dc_spread
+
+        resistance = drawn.get("resistance", np.asarray(supply.number("resistance")))
+        return dc_spread(supply, resistance, nominal.load)
 
     def figures(self, context: SupplyContext) -> DcFigures:
         """Sag at the crest of the heaviest load; run time = capacity / mean drain

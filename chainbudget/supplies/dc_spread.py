@@ -1,0 +1,63 @@
+"""A battery's (``dc`` supply's) figures over a leading trial axis: its internal resistance
+drawn within its tolerance (chainbudget/spread).
+
+Notes
+-----
+A Thevenin source, emf E in series with its internal resistance R (Horowitz & Hill, The
+Art of Electronics, 3rd ed., ch. 1, from memory). Per trial, through the formulas
+`DcSupply.state` and `DcSupply.figures` use (`chainbudget.supplies.dc`: `terminal_v`,
+`crest_drop_v`, `trough_v`, `collapses`) with R an array:
+
+- the drop at the crest of the heaviest load, ``sag_v``: R times the steady current plus
+  the crest of the pulses, less what a ``reservoir`` across the terminals holds up
+  (`chainbudget.supplymath.pulsed_sags`, each trial's own time constant R C);
+- the trough, ``trough_v`` and ``output_min_v``: the low end (``min_voltage``) less that
+  drop, no lower than zero: what the supplies and stages below take per trial;
+- the mean at nominal voltage and load, ``vout_v`` and ``mean_v``: E - R I_nominal, which
+  a filter, divider or regulator below takes as its parent's mean;
+- ``resistance_ohm``, the drawn R;
+- the rule ``supply-collapse`` as a flag per trial (`chainbudget.spread.flags`): the drop
+  takes the whole of the low end under a load.
+
+A battery has no mains ripple: its ripple passed on is none, as the nominal check's. The
+crest (the high end unloaded), the run times (capacity over the mean drain), the peak
+current and the reservoir do not depend on R and keep the nominal check's values; the
+means at high line (read by no figure the spread carries: the heat is worked out at the
+nominal check's rails) likewise. ``sag_cost_db`` and the ``battery-resistance`` warning
+need the chain solved again on a stiff supply per trial: they are the nominal check's.
+The load is the nominal operating point's (the spread does not settle the tree again for
+each trial).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from numpy.typing import ArrayLike
+
+from chainbudget.spread.flags import flag_key
+from chainbudget.supplies.base import RippleSpread, Supply, SupplyLoad, SupplySpread
+from chainbudget.supplies.dc import battery_ends, collapses, crest_drop_v, terminal_v, trough_v
+
+
+def dc_spread(supply: Supply, resistance_ohm: ArrayLike, load: SupplyLoad) -> SupplySpread:
+    """A battery's figures per trial (module notes) with internal resistance
+    ``resistance_ohm`` ((T,) or one value) under the nominal ``load``: its trough (what the
+    rails and stages below take), its mean (passed on with no ripple) and the flag of
+    ``supply-collapse``."""
+    ends = battery_ends(supply)
+    r = np.asarray(resistance_ohm, dtype=float)
+    drop = crest_drop_v(r, supply.optional("reservoir"), load)
+    trough = trough_v(ends.low_v, drop)
+    mean = terminal_v(ends.nominal_v, r, load.nominal_a)
+    figures = {
+        "resistance_ohm": r,
+        "sag_v": drop,
+        "trough_v": trough,
+        "output_min_v": trough,
+        "vout_v": mean,
+        "mean_v": mean,
+    }
+    flags = {flag_key("error", "supply-collapse", supply.name): collapses(ends.low_v, drop, load)}
+    # no mains ripple: none passed on, the mean for a filter or regulator below
+    ripple = RippleSpread(None, np.zeros_like(r), np.zeros(0, dtype=complex), mean)
+    return SupplySpread(figures, (), trough, ripple, flags)
