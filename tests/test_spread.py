@@ -366,10 +366,12 @@ def test_batched_trials_equal_the_check_of_each_trial_edited_into_the_file() -> 
 
 def _ideal_opamp_current(path: str) -> bool:
     """An op-amp's output current (and a driver's current it sets) in a chain with the
-    idealised op-amp: its 200 dB open-loop gain puts a 1e10 coefficient in the branch
-    equation whose current the solve returns, so that current carries round-off of about
-    1e-5 A whatever the batch (the check's own figure too); tests/test_spread_dc.py
-    checks those figures with an op-amp of ordinary gain."""
+    idealised op-amp (200 dB open-loop gain, no output resistance): the figures read the
+    current on the load side (tests/test_opamp_current.py), but the check's worst-case
+    search still ranks the settings by the branch current of the op-amp's source, whose
+    1e10 coefficient leaves round-off there, so a trial's worst over the band differs from
+    its check by about 2e-9; tests/test_spread_dc.py checks those figures with an op-amp
+    of ordinary gain."""
     return path.endswith(("drive_current_a", "drive_worst_current_a", "needed_a"))
 
 
