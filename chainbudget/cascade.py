@@ -343,17 +343,23 @@ def solve_section(
     )
 
 
+def on_points(value: Any, at: NDArray[np.intp], size: int) -> Any:
+    """An array on a frequency axis of ``size`` points (its last) at the indices ``at``;
+    anything else (a constant, a per-trial (T, 1) value) as it is."""
+    if np.ndim(value) and np.shape(value)[-1] == size:
+        return np.asarray(value)[..., at]
+    return value
+
+
 def at_points(solution: SectionSolution, at: NDArray[np.intp], size: int) -> SectionSolution:
     """``solution`` (solved on a frequency axis of ``size`` points) at the indices ``at``
-    only: every array on that axis (its last, of length ``size``: the two-ports, their
-    probes, the admittances and injections of a loop, a limit that varies with frequency)
-    taken there, the rest (per-trial values, constants) kept. A cascade joined from such
+    only: every array on that axis (`on_points`: the two-ports, their probes, the
+    admittances and injections of a loop, a limit that varies with frequency) taken
+    there, the rest (per-trial values, constants) kept. A cascade joined from such
     sections lives on those points alone."""
 
     def on(value: Any) -> Any:
-        if isinstance(value, np.ndarray) and value.ndim and value.shape[-1] == size:
-            return value[..., at]
-        return value
+        return on_points(value, at, size)
 
     def port(tp: TwoPort) -> TwoPort:
         probes = {name: (on(g1), on(g2)) for name, (g1, g2) in tp.probes.items()}

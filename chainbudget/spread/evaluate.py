@@ -38,7 +38,7 @@ from chainbudget.budget.analysis import environments, frequency_axis, positions_
 from chainbudget.budget.levels import DB_FLOOR, SQRT2, clip_source_peak, db
 from chainbudget.budget.rails import supply_states
 from chainbudget.budget.steps import with_value
-from chainbudget.cascade import Cascade, Joins, at_points, sections, solve_section
+from chainbudget.cascade import Cascade, Joins, at_points, on_points, sections, solve_section
 from chainbudget.cascade import cascade as join_cascade
 from chainbudget.chainfile import Chain
 from chainbudget.findings import SUPERSEDES
@@ -418,11 +418,6 @@ def _solve_as_set_and_held(
     narrowed: dict[tuple[tuple[int, tuple[object, ...]], bytes], Any] = {}
     ends: dict[bytes, tuple[Any, Any]] = {}
 
-    def on_points(value: Any, at: NDArray[np.intp]) -> Any:
-        if np.ndim(value) and np.shape(value)[-1] == size:
-            return np.asarray(value)[..., at]
-        return value
-
     def solve(positions: list[dict[str, float]], at: NDArray[np.intp] | None = None) -> Cascade:
         found = []
         for unit in units:
@@ -443,7 +438,7 @@ def _solve_as_set_and_held(
         if at is None:
             return join_cascade(found, source, load, joins)
         if at.tobytes() not in ends:  # the same arrays for the same points (the joins' keys)
-            ends[at.tobytes()] = (on_points(source, at), on_points(load, at))
+            ends[at.tobytes()] = (on_points(source, at, size), on_points(load, at, size))
         return join_cascade(found, *ends[at.tobytes()], joins)
 
     try:

@@ -15,20 +15,20 @@ distribution, any probability text); a part's share is D_i^2 / sum_j D_j^2 (firs
 variance decomposition, the "delta method"). Beta's log-uniform draw is uniform in log
 beta, where the same argument holds.
 
-Corner worst case: the signs of D_i give, for each figure, the corner that raises it most
-and the one that lowers it most, under the linear model (2 corners instead of 2^n). Each
-corner is then confirmed: every single part is flipped to its other bound, and any flip
-that carries the figure further is kept, until none does (a coordinate search over the
-vertices; exact for a figure monotonic in each part). A noise figure flips only the parts
-that move it one at a time (`_moving`): the rest leave it where it is at every vertex,
-and the busking amp's 94 noise figures then ask for half the rows. A figure that is not (the output
-stage's THD against its emitter resistors: least near Oliver's optimum I_q R_E = V_T) may
-reach further inside the bounds; where the trials go beyond the corners found, their
-extremes stand for the worst case instead. A corner row is asked only for its own
-figure: the rows are solved step by step (`Evaluator.steps_of`), each with the solves
-that step needs (a supply's figure needs none of the chain's networks, a node's gain no
-held control setting), so confirming a few thousand rows costs a fraction of as many
-trials.
+Corner worst case: the signs of D_i give, for each figure, the corner that raises it
+most and the one that lowers it most, under the linear model (2 corners instead of 2^n).
+Each corner is then confirmed: every single part is flipped to its other bound, and any
+flip that carries the figure further is kept, until none does (a coordinate search over
+the vertices; exact for a figure monotonic in each part). A noise figure flips only the
+parts that move it one at a time (`_moving`): the rest leave it where it is at every
+vertex, and the busking amp's 94 noise figures then ask for half the rows. A figure that
+is not monotonic (the output stage's THD against its emitter resistors: least near
+Oliver's optimum I_q R_E = V_T) may reach further inside the bounds; where the trials go
+beyond the corners found, their extremes stand for the worst case instead. A corner row
+is asked only for its own figure: the rows are solved step by step
+(`Evaluator.steps_of`), each with the solves that step needs (a supply's figure needs
+none of the chain's networks, a node's gain no held control setting), so confirming a
+few thousand rows costs a fraction of as many trials.
 """
 
 from __future__ import annotations
@@ -38,7 +38,6 @@ import sys
 import time
 from collections.abc import Callable
 from dataclasses import dataclass, field
-from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
@@ -158,7 +157,7 @@ def _own_values(
     return found
 
 
-def _moving(one_at_a_time: NDArray[np.float64], nominal: float, step: str) -> Any:
+def _moving(one_at_a_time: NDArray[np.float64], nominal: float, step: str) -> NDArray[np.bool_]:
     """The parts whose flips a figure's corner search tries: for a noise figure, those
     that move it at all one at a time (at either bound, beyond the rounding the search
     tells a better vertex by): a generator's noise reaches a node through the stages
@@ -170,7 +169,7 @@ def _moving(one_at_a_time: NDArray[np.float64], nominal: float, step: str) -> An
         return np.ones(one_at_a_time.size // 2, dtype=bool)
     low, high = one_at_a_time[0::2], one_at_a_time[1::2]
     moved = np.maximum(np.abs(low - nominal), np.abs(high - nominal))
-    return moved > 1e-12 * (1.0 + abs(nominal))
+    return np.asarray(moved > 1e-12 * (1.0 + abs(nominal)))
 
 
 def _corners(
