@@ -21,7 +21,7 @@ Each corner is then confirmed: every single part is flipped to its other bound, 
 flip that carries the figure further is kept, until none does (a coordinate search over
 the vertices; exact for a figure monotonic in each part). A noise figure flips only the
 parts that move it one at a time (`_moving`): the rest leave it where it is at every
-vertex, and the busking amp's 94 noise figures then ask for half the rows. A figure that
+vertex (on the busking amp that spares about 8 % of the first round's rows). A figure that
 is not monotonic (the output stage's THD against its emitter resistors: least near
 Oliver's optimum I_q R_E = V_T) may reach further inside the bounds; where the trials go
 beyond the corners found, their extremes stand for the worst case instead. A corner row
