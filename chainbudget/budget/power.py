@@ -111,18 +111,34 @@ def _max_output_cascade(analysis: Analysis) -> tuple[Cascade, tuple[int, ...]]:
 
 def _spl(sensitivity_db: float, power_w: float) -> float:
     """SPL at 1 m, floored like every level figure (no power at all reads DB_FLOOR)."""
-    return max(float(om.spl_at_1m(sensitivity_db, power_w)), DB_FLOOR)
+    return float(floored_spl(sensitivity_db, power_w))
+
+
+def floored_spl(sensitivity_db: ArrayLike, power_w: ArrayLike) -> NDArray[np.float64]:
+    """SPL at 1 m (`outputmath.spl_at_1m`) no lower than DB_FLOOR, element-wise."""
+    return np.maximum(om.spl_at_1m(sensitivity_db, power_w), DB_FLOOR)
+
+
+def load_at_reference(chain: Chain) -> complex | float:
+    """The load power and current are worked out into: as it is at the reference frequency
+    (a driver's Thiele-Small impedance there, the cable capacitance across it), the nominal
+    rating for a plain load."""
+    if is_reactive(chain.load):
+        return complex(load_impedance(chain.load, [chain.settings.reference])[0])
+    return chain.load.impedance
+
+
+def peak_current(vpk: ArrayLike, z_load: complex | float) -> NDArray[np.float64]:
+    """Peak current of a sine of peak ``vpk`` into ``z_load``, V_pk / |Z_L|, A."""
+    return np.asarray(np.asarray(vpk, dtype=float) / abs(z_load), dtype=float)
 
 
 def output_figures(analysis: Analysis) -> OutputFigures:
     """Output power, SPL, damping factor and output-capacitor corner of the chain."""
     chain = analysis.chain
-    # Power and current into the load as it is at the reference frequency (a driver's
-    # Thiele-Small impedance there, the cable capacitance across it); the nominal rating
-    # for a plain load, and for the damping factor always (the trade quotes it so).
-    z_load: complex | float = chain.load.impedance
-    if is_reactive(chain.load):
-        z_load = complex(load_impedance(chain.load, [chain.settings.reference])[0])
+    # power and current into the load at the reference; the damping factor against the
+    # nominal rating always (the trade quotes it so)
+    z_load = load_at_reference(chain)
     nominal = analysis.nominal
     last = len(chain.stages) - 1
     cas, index = _max_output_cascade(analysis)
@@ -168,7 +184,7 @@ def output_figures(analysis: Analysis) -> OutputFigures:
         nominal_spl_db=None if sensitivity is None else _spl(sensitivity, nominal_power),
         zout_ohm=abs(z_out),
         damping_factor=float(om.damping_factor(chain.load.impedance, z_out)),
-        clip_current_a=clip_vpk / abs(z_load),
+        clip_current_a=float(peak_current(clip_vpk, z_load)),
         output_cap_f=output_cap,
         output_cap_corner_hz=corner,
         power_stage=last_kind.power_stage,

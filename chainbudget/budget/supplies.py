@@ -29,6 +29,7 @@ from collections.abc import Mapping
 from dataclasses import dataclass
 
 import numpy as np
+from numpy.typing import NDArray
 
 from chainbudget.budget.analysis import (
     Analysis,
@@ -49,6 +50,7 @@ from chainbudget.budget.rails import (
     stage_rail_names,
     supply_states,
 )
+from chainbudget.cascade import Cascade
 from chainbudget.chainfile import Chain
 from chainbudget.stages import KINDS as STAGE_KINDS
 from chainbudget.supplies import KINDS
@@ -278,25 +280,41 @@ def loaded_analysis(chain: Chain, corner: str = "low") -> Analysis:
     return analyse(chain, corner, settle(chain, corner).voltages)
 
 
+def max_output_positions(chain: Chain) -> list[dict[str, float]]:
+    """Every control as set but the master volume, fully up (none: the controls as set)."""
+    positions = positions_as_set(chain.stages)
+    volume = master_volume(chain)
+    if volume is not None:
+        positions[volume]["position"] = 1.0
+    return positions
+
+
+def clip_peak_at_load(cascade: Cascade, column: int = 0) -> NDArray[np.float64] | None:
+    """Peak at the load, V, at which the first stage clips, read at one column of the
+    cascade's frequency axis: the least source peak at which a stage reaches a limit times
+    the gain to the load (None: nothing limits it). Element-wise over any leading axes (a
+    spread's trials: `chainbudget.spread`)."""
+    last = len(cascade.stages) - 1
+    gain = np.abs(np.asarray(cascade.v_out[last])[..., column])
+    peaks = []
+    for k in range(last + 1):
+        clip = clip_source_peak(cascade, k)
+        if clip is not None:
+            peaks.append(np.asarray(clip[0])[..., column])
+    if not peaks:
+        return None
+    return np.asarray(np.minimum.reduce(np.broadcast_arrays(*peaks)) * gain, dtype=float)
+
+
 def clip_at_load(
     chain: Chain, voltages: Mapping[str, Corners], corner: str, tone_hz: float
 ) -> float | None:
     """Peak at the load, V, at which the first stage clips for a sine at ``tone_hz`` with
     the volume fully up and the other controls as set (None: nothing limits it)."""
     envs = environments(chain, corner, voltages)
-    positions = positions_as_set(chain.stages)
-    volume = master_volume(chain)
-    if volume is not None:
-        positions[volume]["position"] = 1.0
-    cascade = solve_chain(chain, envs, np.array([tone_hz]), positions)
-    last = len(chain.stages) - 1
-    gain = float(np.abs(np.asarray(cascade.v_out[last])[..., 0]))
-    peaks = []
-    for k in range(last + 1):
-        clip = clip_source_peak(cascade, k)
-        if clip is not None:
-            peaks.append(float(np.asarray(clip[0])[..., 0]))
-    return min(peaks) * gain if peaks else None
+    cascade = solve_chain(chain, envs, np.array([tone_hz]), max_output_positions(chain))
+    peak = clip_peak_at_load(cascade)
+    return None if peak is None else float(peak)
 
 
 def low_edge_clip_vpk(analysis: Analysis) -> float | None:
@@ -306,7 +324,7 @@ def low_edge_clip_vpk(analysis: Analysis) -> float | None:
     low_hz = chain.settings.band[0]
     voltages: Mapping[str, Corners] = analysis.voltages
     if _sags(chain, analysis):
-        voltages = settle(chain, "low", low_hz, start=analysis.voltages).voltages
+        voltages = low_edge_tree(chain, analysis.voltages).voltages
     return clip_at_load(chain, voltages, "low", low_hz)
 
 
@@ -314,8 +332,21 @@ def _sags(chain: Chain, analysis: Analysis) -> bool:
     """Whether any rail a stage's swing depends on moves under the analysed load (if none
     does, no tone can move it: the tree needs no settling for another)."""
     loaded = supply_states(chain, external_loads(chain, stage_loads(analysis)))
-    unloaded = supply_states(chain)
+    return rails_sag(chain, loaded, supply_states(chain))
+
+
+def rails_sag(
+    chain: Chain, loaded: Mapping[str, SupplyState], unloaded: Mapping[str, SupplyState]
+) -> bool:
+    """Whether any rail a stage's swing depends on has a lower trough ``loaded`` than
+    ``unloaded`` (`low_edge_clip_vpk` settles the tree again for its tone only then)."""
     return any(loaded[r].trough_v != unloaded[r].trough_v for r in _moving_rails(chain))
+
+
+def low_edge_tree(chain: Chain, start: Mapping[str, Corners]) -> SettledTree:
+    """The tree settled for a tone at the band's low edge (`settle` at low line), its
+    search started from the rails ``start`` (the check's settled at the reference)."""
+    return settle(chain, "low", chain.settings.band[0], start=start)
 
 
 def _sag_cost_db(

@@ -35,18 +35,28 @@ from numpy.typing import NDArray
 
 from chainbudget.budget import Budget
 from chainbudget.budget.analysis import environments, frequency_axis, positions_as_set, solve_chain
-from chainbudget.budget.levels import DB_FLOOR, SQRT2, clip_source_peak, db
+from chainbudget.budget.dcbias import DcPoint
+from chainbudget.budget.levels import SQRT2, clip_source_peak, db
+from chainbudget.budget.power import floored_spl, load_at_reference, peak_current
 from chainbudget.budget.rails import supply_states
 from chainbudget.budget.steps import with_value
+from chainbudget.budget.supplies import SettledTree, low_edge_tree, rails_sag
 from chainbudget.cascade import Cascade, Joins, at_points, on_points, sections, solve_section
 from chainbudget.cascade import cascade as join_cascade
 from chainbudget.chainfile import Chain
 from chainbudget.findings import SUPERSEDES
 from chainbudget.loops import Section
-from chainbudget.loudspeaker import is_reactive, load_impedance
+from chainbudget.loudspeaker import load_impedance
 from chainbudget.network import SingularNetwork
-from chainbudget.outputmath import damping_factor, sine_power, spl_at_1m
+from chainbudget.outputmath import damping_factor, sine_power
 from chainbudget.source_network import source_impedance
+from chainbudget.spread.clip_tone import (
+    held_budget,
+    low_edge_figures,
+    low_edge_rails,
+    sag_cost_figures,
+    sag_cost_thresholds,
+)
 from chainbudget.spread.dc import dc_figures, walked
 from chainbudget.spread.drive import drive_figures
 from chainbudget.spread.flags import flag_parts, is_flag
@@ -82,6 +92,8 @@ STEPS = frozenset(
         "reference",
         "band",
         "output",
+        "low_edge",
+        "sag_cost",
         "noise",
         "hum",
         "loops",
@@ -197,12 +209,8 @@ class Evaluator:
                 betas.setdefault(part.index, []).append((name, column))
             else:
                 chain = with_value(chain, part.index, part.key, column)
-        envs = list(environments(chain, "low", voltages, [None] * len(chain.stages)))
-        for k, drawn_betas in betas.items():
-            for name, column in drawn_betas:
-                envs[k] = with_beta(envs[k], name, column)
         # each trial's own DC walk: a DC-coupled stage is built at its trial's DC
-        points, walked_envs = walked(chain, envs)
+        points, walked_envs = _trial_envs(chain, betas, voltages)
         envs = list(walked_envs)
         offset = None if self.nominal.output is None else self.nominal.output.offset_v
         figures.update(dc_figures(chain, envs, points, trials, offset))
@@ -237,6 +245,17 @@ class Evaluator:
             "output": lambda: _output_figures(
                 self.chain, held(), as_set(), settings, trials, damping_held
             ),
+            "low_edge": lambda: self._low_edge(chain, betas, values, tree.voltages, trials),
+            "sag_cost": lambda: sag_cost_figures(
+                chain,
+                self.parts,
+                values,
+                nominal,
+                self.unloaded,
+                partial(_envs_on, chain, betas),
+                voltages,
+                trials,
+            ),
             "noise": noise,
             "hum": lambda: hum_figures(
                 chain, envs, nominal, noise(), trials, ripples, self.hum_remedies
@@ -269,6 +288,35 @@ class Evaluator:
                     found[path] = step
                     seen.add(path)
         return found
+
+    @cached_property
+    def low_edge_tree(self) -> tuple[Budget, SettledTree] | None:
+        """The nominal check's tree settled for a tone at the band's low edge, and the
+        nominal check with its loads and states (`chainbudget.spread.clip_tone`); None
+        where no rail sags under the nominal load (the check then settles none)."""
+        loaded = {s.name: s.state for s in self.nominal.supplies}
+        if not rails_sag(self.chain, loaded, self.unloaded):
+            return None
+        settled = low_edge_tree(self.chain, self.voltages)
+        return held_budget(self.nominal, self.chain, settled), settled
+
+    def _low_edge(
+        self,
+        chain: Chain,
+        betas: Mapping[int, list[tuple[str, NDArray[np.float64]]]],
+        values: list[NDArray[np.float64]],
+        own_rails: Mapping[str, Corners],
+        trials: int,
+    ) -> Figures:
+        """``output.clip_power_low_w`` per trial: on the low-tone tree's rails under its
+        held loads, or on the batch's own where the check settles none."""
+        rails = own_rails
+        if self.low_edge_tree is not None:
+            held, settled = self.low_edge_tree
+            rails = low_edge_rails(
+                self.chain, self.parts, values, held, settled, self.unloaded, trials
+            )
+        return low_edge_figures(chain, partial(_envs_on, chain, betas), rails, trials)
 
     @cached_property
     def unloaded(self) -> dict[str, SupplyState]:
@@ -335,6 +383,8 @@ class Evaluator:
             found.append(Threshold(path, limit, code, severity))
         for path, limit, code, severity in hum_thresholds(figures):
             found.append(Threshold(path, limit, code, severity, above=True))
+        for path, limit, code, severity, unless in sag_cost_thresholds(self.chain, figures):
+            found.append(Threshold(path, limit, code, severity, unless, above=True))
         # the rules worked out per trial in the batch (`chainbudget.spread.flags`)
         for path in figures:
             if is_flag(path):
@@ -354,6 +404,29 @@ class Evaluator:
                     if f"supplies.{name}.{t.key}" in figures
                 ]
         return found
+
+
+def _trial_envs(
+    chain: Chain,
+    betas: Mapping[int, list[tuple[str, NDArray[np.float64]]]],
+    voltages: Mapping[str, Corners],
+) -> tuple[tuple[DcPoint, ...], tuple[Environment, ...]]:
+    """Each stage's environment at low line on ``voltages`` with the drawn betas, built at
+    its trial's own DC (the walk's points beside them)."""
+    envs = list(environments(chain, "low", voltages, [None] * len(chain.stages)))
+    for k, drawn_betas in betas.items():
+        for name, column in drawn_betas:
+            envs[k] = with_beta(envs[k], name, column)
+    return walked(chain, envs)
+
+
+def _envs_on(
+    chain: Chain,
+    betas: Mapping[int, list[tuple[str, NDArray[np.float64]]]],
+    voltages: Mapping[str, Corners],
+) -> tuple[Environment, ...]:
+    """`_trial_envs`' environments alone."""
+    return _trial_envs(chain, betas, voltages)[1]
 
 
 def _reference_figures(chain: Chain, cascade: Cascade, trials: int) -> Figures:
@@ -491,20 +564,28 @@ def _output_figures(
     trials: int,
     damping_held: bool = True,
 ) -> Figures:
-    """Output power at the reference frequency as `chainbudget.budget.power.output_figures`
-    works it out: the tightest stage's clip peak carried to the load with the volume fully
-    up (`clip_power_w`), the nominal level with the controls as set (`nominal_power_w`),
-    and the damping factor |Z_L|/|Z_out| of the nominal load rating over the last stage's
-    output impedance at the reference (`damping_factor`; `chainbudget.outputmath`), where
-    ``damping_held`` (the nominal check's is finite: an output of no impedance has none)."""
+    """The output figures at the reference frequency as `chainbudget.budget.power.
+    output_figures` works them out (its helpers and `chainbudget.outputmath`): the
+    nominal level with the controls as set (`nominal_vpk`, `nominal_power_w` and, with a
+    sensitivity, `nominal_spl_db`), the last stage's output impedance (`zout_ohm`) and the
+    damping factor |Z_L|/|Z_out| of the nominal load rating over it where ``damping_held``
+    (the nominal check's is finite: an output of no impedance has none); with the volume
+    fully up, the tightest stage's clip peak carried to the load (`clip_vpk`,
+    `clip_power_w`, `clip_current_a` and, with a sensitivity, `max_spl_db`) and the last
+    limited stage's, the one driving the load, on its own limit
+    (`output_stage_clip_vpk`, `output_stage_clip_power_w`)."""
     last = len(chain.stages) - 1
-    z_load: complex | float = chain.load.impedance
-    if is_reactive(chain.load):
-        z_load = complex(load_impedance(chain.load, [chain.settings.reference])[0])
+    z_load = load_at_reference(chain)
+    sensitivity = chain.load.sensitivity
     figures: Figures = {}
     nominal_vpk = SQRT2 * chain.source.level * np.abs(as_set.v_out[last][..., 0])
-    figures["output.nominal_power_w"] = _trials(sine_power(nominal_vpk, z_load), trials)
+    nominal_power = sine_power(nominal_vpk, z_load)
+    figures["output.nominal_vpk"] = _trials(nominal_vpk, trials)
+    figures["output.nominal_power_w"] = _trials(nominal_power, trials)
+    if sensitivity is not None:
+        figures["output.nominal_spl_db"] = _trials(floored_spl(sensitivity, nominal_power), trials)
     z_out = as_set.output_impedance[last][..., 0]
+    figures["output.zout_ohm"] = _trials(np.abs(z_out), trials)
     if damping_held:
         figures["output.damping_factor"] = _trials(
             damping_factor(chain.load.impedance, z_out), trials
@@ -524,10 +605,13 @@ def _output_figures(
     power = _trials(sine_power(clip_vpk, z_load), trials)
     figures["output.clip_vpk"] = _trials(clip_vpk, trials)
     figures["output.clip_power_w"] = power
-    sensitivity = chain.load.sensitivity
+    figures["output.clip_current_a"] = _trials(peak_current(clip_vpk, z_load), trials)
+    # the stage that drives the load: the last one with a limit, on that limit alone
+    stage_vpk = peaks[-1] * gain
+    figures["output.output_stage_clip_vpk"] = _trials(stage_vpk, trials)
+    figures["output.output_stage_clip_power_w"] = _trials(sine_power(stage_vpk, z_load), trials)
     if sensitivity is not None:
-        spl = np.maximum(spl_at_1m(sensitivity, power), DB_FLOOR)
-        figures["output.max_spl_db"] = _trials(spl, trials)
+        figures["output.max_spl_db"] = _trials(floored_spl(sensitivity, power), trials)
     return figures
 
 
