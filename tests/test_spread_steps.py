@@ -39,6 +39,8 @@ def test_each_step_alone_gives_its_figures_as_the_whole_evaluation(name: str) ->
     steps = evaluate.steps_of
     assert set(steps) == set(whole)
     assert {"reference", "band", "noise", "drive"} <= set(steps.values())
+    if name == "busking_amp.toml":  # its batteries' sag cost, its rails' low-edge clip
+        assert {"low_edge", "sag_cost"} <= set(steps.values())
     for step in sorted(set(steps.values())):
         alone = evaluate(positions, flags=True, steps=frozenset((step,)))
         own = [p for p, s in steps.items() if s == step]

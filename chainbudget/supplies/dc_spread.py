@@ -24,7 +24,8 @@ crest (the high end unloaded), the run times (capacity over the mean drain), the
 current and the reservoir do not depend on R and keep the nominal check's values; the
 means at high line (read by no figure the spread carries: the heat is worked out at the
 nominal check's rails) likewise. ``sag_cost_db`` and the ``battery-resistance`` warning
-need the chain solved again on a stiff supply per trial: they are the nominal check's.
+need the chain solved again on a stiff supply per trial: the evaluation does that
+(`chainbudget.spread.clip_tone`), taking this spread with R zero as the stiff battery.
 The load is the nominal operating point's (the spread does not settle the tree again for
 each trial).
 """
