@@ -47,7 +47,7 @@ from chainbudget.chainfile import Chain
 from chainbudget.findings import SUPERSEDES
 from chainbudget.loops import Section
 from chainbudget.loudspeaker import load_impedance
-from chainbudget.network import SingularNetwork
+from chainbudget.network import GMIN, SingularNetwork
 from chainbudget.outputmath import damping_factor, sine_power
 from chainbudget.source_network import source_impedance
 from chainbudget.spread.clip_tone import (
@@ -240,7 +240,7 @@ class Evaluator:
         output = nominal.output
         damping_held = output is not None and bool(np.isfinite(output.damping_factor))
         step_figures: dict[str, Callable[[], Figures]] = {
-            "reference": lambda: _reference_figures(self.chain, as_set(), trials),
+            "reference": lambda: _reference_figures(self.chain, as_set(), trials, nominal),
             "band": lambda: _band_figures(self.chain, held(), as_set(), settings, trials),
             "output": lambda: _output_figures(
                 self.chain, held(), as_set(), settings, trials, damping_held
@@ -429,10 +429,14 @@ def _envs_on(
     return _trial_envs(chain, betas, voltages)[1]
 
 
-def _reference_figures(chain: Chain, cascade: Cascade, trials: int) -> Figures:
+def _reference_figures(chain: Chain, cascade: Cascade, trials: int, nominal: Budget) -> Figures:
     """Each node's figures at the reference frequency (index 0) with the controls as set,
-    as `chainbudget.budget.levels.node_levels` gives them."""
+    as `chainbudget.budget.levels.node_levels` gives them, and the source's as
+    `chainbudget.budget.budget_from` does (`_source_figures`; left out where the nominal
+    check's input is held only by the solver's leak, `OPEN_INPUT_OHM`)."""
     figures: Figures = {}
+    if nominal.input_impedance_ohm < OPEN_INPUT_OHM:
+        figures.update(_source_figures(chain, cascade, trials))
     source = chain.source
     for k, sol in enumerate(cascade.stages):
         node = f"nodes.{sol.stage.name}."
@@ -440,6 +444,7 @@ def _reference_figures(chain: Chain, cascade: Cascade, trials: int) -> Figures:
         figures[node + "gain_db"] = _trials(db(v_out / cascade.v_in[k][..., 0]), trials)
         figures[node + "total_gain_db"] = _trials(db(v_out), trials)
         figures[node + "level_vrms"] = _trials(source.level * np.abs(v_out), trials)
+        figures[node + "max_level_vrms"] = _trials(source.max_level * np.abs(v_out), trials)
         figures[node + "zout_ohm"] = _trials(np.abs(cascade.output_impedance[k][..., 0]), trials)
         figures[node + "zload_ohm"] = _trials(
             np.abs(1.0 / cascade.load_admittance[k][..., 0]), trials
@@ -452,6 +457,32 @@ def _reference_figures(chain: Chain, cascade: Cascade, trials: int) -> Figures:
         figures[node + "headroom_db"] = _trials(db(peak / (SQRT2 * source.max_level)), trials)
         figures[node + "nominal_headroom_db"] = _trials(db(peak / (SQRT2 * source.level)), trials)
     return figures
+
+
+# An input impedance above this, ohm, is the solver's leak conductance (`GMIN`) alone: an
+# input with no DC path (the check's ``no-dc-path``), whose impedance and loss are round-off.
+OPEN_INPUT_OHM = 1.0 / (1000.0 * GMIN)
+
+
+def _source_figures(chain: Chain, cascade: Cascade, trials: int) -> Figures:
+    """What the chain's input does to the source, per trial, as
+    `chainbudget.budget.budget_from` works it out with the controls as set: the input
+    impedance |1/Y_in| and the level lost across the source's impedance,
+    20 log10 |V_in/V_s| (the divider of Z_s and Z_in), at the reference
+    (``source.input_impedance_ohm``, ``source.loss_db``) and at the band's point where
+    the least of the source's voltage reaches the input (``source.worst_loss_db``, at
+    ``source.worst_loss_hz``)."""
+    y_in = _at_row(cascade.input_admittance, trials)
+    v_in = _at_row(cascade.v_in[0], trials)
+    frequency = frequency_axis(chain)
+    band = np.abs(v_in[:, 1:])
+    worst = 1 + np.argmin(band, axis=1)
+    return {
+        "source.input_impedance_ohm": np.abs(1.0 / y_in[:, 0]),
+        "source.loss_db": db(v_in[:, 0]),
+        "source.worst_loss_db": db(np.take_along_axis(v_in, worst[:, None], axis=1)[:, 0]),
+        "source.worst_loss_hz": frequency[worst],
+    }
 
 
 def _solve_as_set_and_held(

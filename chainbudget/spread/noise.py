@@ -161,6 +161,7 @@ def _chain_figures(
     limited = [np.broadcast_to(p[0], (trials, gain.shape[1]))[:, 0] for p in peaks if p]
     if limited:
         clip = np.min(limited, axis=0) * gain[:, 0] / SQRT2
+        found["noise.output_clip_vrms"] = clip
         flat = spectra.integrate(out_psd, unweighted)
         weighted = spectra.integrate(out_psd, a_weighting)
         found["dynamic_range_db"] = _db20(clip / np.sqrt(flat))

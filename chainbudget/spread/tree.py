@@ -7,10 +7,10 @@ A supply is asked (`SupplyKind.spread`) when it draws parts of its own or its pa
 spread, with its parent's low-line trough, ripple and mean per trial where the parent
 spreads them, else the nominal check's. What it passes on:
 
-- to the supplies below, its trough (``rail_low_v``) and its ripple and mean
-  (`RippleSpread`) as its state gives them; a kind that gives no mean passes none where a
-  trial moves it, so the means below it are not spread, and the nominal check's where none
-  does;
+- to the supplies below, its trough (``rail_low_v``) and its ripple, mean and output at
+  high line (`RippleSpread`, `HighLine`) as its state gives them; a kind that gives no
+  mean (or no output at high line) passes none where a trial moves it, so the figures
+  below that read it are not spread, and the nominal check's where none does;
 - to the yields, the flags of its rules that it works out per trial (`SupplySpread.flags`,
   `chainbudget.spread.flags`);
 - to its stages, its rail at low line per trial as the check's settled tree has it
@@ -41,7 +41,14 @@ from chainbudget.spread.flags import as_flag
 from chainbudget.spread.hum import harmonic_key
 from chainbudget.spread.parts import Part
 from chainbudget.supplies import KINDS as SUPPLY_KINDS
-from chainbudget.supplies.base import NO_LOAD, Corners, RippleSpread, Supply, SupplyState
+from chainbudget.supplies.base import (
+    NO_LOAD,
+    Corners,
+    HighLine,
+    RippleSpread,
+    Supply,
+    SupplyState,
+)
 
 Figures = dict[str, NDArray[np.float64]]
 
@@ -88,12 +95,17 @@ class _Walk:
         return RippleSpread.of(self.nominal.supply(parent).state)
 
     def with_mean(self, name: str, ripple: RippleSpread) -> RippleSpread:
-        """A supply's ripple with its mean for the supplies below: the kind's own per
-        trial; where it gives none, the nominal check's if no trial moves the supply, else
-        none (module notes)."""
-        if ripple.mean_v is not None or name in self.moved:
+        """A supply's ripple with its mean and its output at high line for the supplies
+        below: the kind's own per trial; where it gives none, the nominal check's if no
+        trial moves the supply, else none (module notes)."""
+        if name in self.moved:
             return ripple
-        return replace(ripple, mean_v=np.asarray(self.nominal.supply(name).state.nominal_v))
+        state = self.nominal.supply(name).state
+        if ripple.mean_v is None:
+            ripple = replace(ripple, mean_v=np.asarray(state.nominal_v))
+        if ripple.high is None:
+            ripple = replace(ripple, high=HighLine.of(state))
+        return ripple
 
     def ceiling(
         self,
@@ -160,6 +172,7 @@ def tree_spread(
             walk.parent_low(supply.parent),
             bounds,
             walk.parent_ripple(supply.parent),
+            ambient_degc=nominal.ambient_degc,
         )
         # each rail under its own name (a split supply's ``.neg`` too), as the check JSON
         # names it and as the stages and supplies below it name their parent

@@ -332,28 +332,59 @@ class SpreadThreshold:
 
 
 @dataclass(frozen=True)
+class HighLine:
+    """A rail's output at high line over a leading trial axis (chainbudget/spread): its
+    crest with no load (`SupplyState.crest_v`) and its means under the heaviest and the
+    idle load (`SupplyState.high_heavy_v`, `SupplyState.high_idle_v`), V, each (T,) or one
+    value for every trial: what a regulator below dissipates from and what its input's
+    maximum is."""
+
+    crest_v: NDArray[np.float64]
+    heavy_v: NDArray[np.float64]
+    idle_v: NDArray[np.float64]
+
+    @classmethod
+    def of(cls, state: SupplyState) -> HighLine:
+        """A supply's nominal state's, the same in every trial."""
+        return cls(
+            np.asarray(state.crest_v, dtype=float),
+            np.asarray(state.high_heavy_v, dtype=float),
+            np.asarray(state.high_idle_v, dtype=float),
+        )
+
+
+@dataclass(frozen=True)
 class RippleSpread:
-    """A rail's mains ripple over a leading trial axis (chainbudget/spread).
+    """A rail's mains ripple over a leading trial axis (chainbudget/spread), with the
+    rest of its state a supply below takes from it per trial besides its trough.
 
     ``vpp`` is its peak-to-peak at low line and the heaviest load (`SupplyState.ripple_vpp`),
     shape (T,) or one value for every trial (None: not known); ``harmonics_vpk`` its
     spectrum at nominal line and load (`SupplyState.harmonics_vpk`), complex V peak, shape
     (T, K) or (K,), the k-th at k times ``ripple_hz``; ``mean_v`` the mean that spectrum
     rides on (`SupplyState.nominal_v`), (T,) or one value (None: the nominal check's; a
-    filter or divider below takes its own mean from it).
+    filter or divider below takes its own mean from it); ``high`` its output at high line
+    (`HighLine`; None: not known, where a trial moves it and the kind does not say how).
     """
 
     ripple_hz: float | None
     vpp: NDArray[np.float64] | None
     harmonics_vpk: NDArray[np.complex128]
     mean_v: NDArray[np.float64] | None = None
+    high: HighLine | None = None
 
     @classmethod
     def of(cls, state: SupplyState) -> RippleSpread:
         """The ripple of a supply's nominal state, the same in every trial."""
         vpp = None if state.ripple_vpp is None else np.asarray(state.ripple_vpp, dtype=float)
         harmonics = np.asarray(state.harmonics_vpk, dtype=complex).reshape(-1)
-        return cls(state.ripple_hz, vpp, harmonics, np.asarray(state.nominal_v, dtype=float))
+        return cls(
+            state.ripple_hz,
+            vpp,
+            harmonics,
+            np.asarray(state.nominal_v, dtype=float),
+            HighLine.of(state),
+        )
 
     @property
     def frequency(self) -> NDArray[np.float64]:
@@ -457,14 +488,17 @@ class SupplyKind(ABC):
         parent_low_v: NDArray[np.float64] | None = None,
         bounds: Mapping[str, tuple[float, float]] | None = None,
         parent_ripple: RippleSpread | None = None,
+        *,
+        ambient_degc: float | None = None,
     ) -> SupplySpread | None:
         """The kind's figures with ``drawn`` (field -> (T,) values) in place of the file's,
         about the nominal operating point ``nominal``; ``parent_low_v`` is the parent's
         low-line trough, per trial where the parent spreads it, else its nominal one;
-        ``bounds`` each drawn field's (low, high); ``parent_ripple`` the parent's ripple and
-        mean (per trial where the parent spreads them, else its nominal ones). Both None for
-        a root or where only the rules' limits are asked for. None: the kind spreads
-        nothing.
+        ``bounds`` each drawn field's (low, high); ``parent_ripple`` the parent's ripple,
+        mean and output at high line (per trial where the parent spreads them, else its
+        nominal ones). Both None for a root or where only the rules' limits are asked for.
+        ``ambient_degc`` the chain's ambient (None: no heat asked for). None: the kind
+        spreads nothing.
 
         A kind is asked even with nothing of its own drawn when its parent is spread: its
         output follows the parent's trough and ripple per trial."""
@@ -478,13 +512,21 @@ class SupplyKind(ABC):
         parent_low_v: NDArray[np.float64] | None = None,
         bounds: Mapping[str, tuple[float, float]] | None = None,
         parent_ripple: RippleSpread | None = None,
+        *,
+        ambient_degc: float | None = None,
     ) -> dict[str, SupplySpread] | None:
         """`spread` for each of the supply's rails, by rail name (`rails`), given each
         rail's nominal budget ``nominals``; by default the one rail's `spread`. A kind
         defining more than one rail (a centre-tapped rectifier's ``.neg``) overrides this,
         as it does `rail_states`. None: the kind spreads nothing."""
         found = self.spread(
-            supply, drawn, nominals[supply.name], parent_low_v, bounds, parent_ripple
+            supply,
+            drawn,
+            nominals[supply.name],
+            parent_low_v,
+            bounds,
+            parent_ripple,
+            ambient_degc=ambient_degc,
         )
         return None if found is None else {supply.name: found}
 

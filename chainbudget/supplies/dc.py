@@ -192,6 +192,8 @@ class DcSupply(SupplyKind):
         parent_low_v: NDArray[np.float64] | None = None,
         bounds: Mapping[str, tuple[float, float]] | None = None,
         parent_ripple: RippleSpread | None = None,
+        *,
+        ambient_degc: float | None = None,
     ) -> SupplySpread:
         """Its figures per trial with its internal resistance drawn, under the nominal
         check's load (`chainbudget.supplies.dc_spread.dc_spread`). A root: no parent's

@@ -19,11 +19,12 @@ Art of Electronics, 3rd ed., ch. 1, from memory). Per trial, through the formula
 - the rule ``supply-collapse`` as a flag per trial (`chainbudget.spread.flags`): the drop
   takes the whole of the low end under a load.
 
-A battery has no mains ripple: its ripple passed on is none, as the nominal check's. The
-crest (the high end unloaded), the run times (capacity over the mean drain), the peak
-current and the reservoir do not depend on R and keep the nominal check's values; the
-means at high line (read by no figure the spread carries: the heat is worked out at the
-nominal check's rails) likewise. ``sag_cost_db`` and the ``battery-resistance`` warning
+A battery has no mains ripple: its ripple passed on is none, as the nominal check's, and
+its ``ripple_vpp`` is zero whatever R. Passed on to a regulator below (`HighLine`): the
+means at the high end, E_high - R I under the heaviest and the idle load, which it
+dissipates from, and the crest, the high end unloaded. The crest, the run times
+(capacity over the mean drain), the peak current and the reservoir do not depend on R and
+keep the nominal check's values. ``sag_cost_db`` and the ``battery-resistance`` warning
 need the chain solved again on a stiff supply per trial: the evaluation does that
 (`chainbudget.spread.clip_tone`), taking this spread with R zero as the stiff battery.
 The load is the nominal operating point's (the spread does not settle the tree again for
@@ -36,7 +37,7 @@ import numpy as np
 from numpy.typing import ArrayLike
 
 from chainbudget.spread.flags import flag_key
-from chainbudget.supplies.base import RippleSpread, Supply, SupplyLoad, SupplySpread
+from chainbudget.supplies.base import HighLine, RippleSpread, Supply, SupplyLoad, SupplySpread
 from chainbudget.supplies.dc import battery_ends, collapses, crest_drop_v, terminal_v, trough_v
 
 
@@ -59,6 +60,12 @@ def dc_spread(supply: Supply, resistance_ohm: ArrayLike, load: SupplyLoad) -> Su
         "mean_v": mean,
     }
     flags = {flag_key("error", "supply-collapse", supply.name): collapses(ends.low_v, drop, load)}
-    # no mains ripple: none passed on, the mean for a filter or regulator below
-    ripple = RippleSpread(None, np.zeros_like(r), np.zeros(0, dtype=complex), mean)
+    # no mains ripple: none passed on, the mean for a filter or regulator below, and the
+    # high end for a regulator's heat
+    high = HighLine(
+        np.asarray(ends.high_v, dtype=float),
+        terminal_v(ends.high_v, r, load.heaviest_a),
+        terminal_v(ends.high_v, r, load.idle_a),
+    )
+    ripple = RippleSpread(None, np.zeros_like(r), np.zeros(0, dtype=complex), mean, high)
     return SupplySpread(figures, (), trough, ripple, flags)

@@ -141,6 +141,8 @@ class Divider(SupplyKind):
         parent_low_v: NDArray[np.float64] | None = None,
         bounds: Mapping[str, tuple[float, float]] | None = None,
         parent_ripple: RippleSpread | None = None,
+        *,
+        ambient_degc: float | None = None,
     ) -> SupplySpread | None:
         """Its figures per trial with its resistors and capacitor drawn, from its parent's
         trough, ripple and mean as `state` takes the nominal ones

@@ -16,7 +16,13 @@ trial, as `RcFilter.state` and `Divider.state` work out the nominal parts:
 - the trough: k times the parent's trough with its ripple smoothed about its mean
   (`smoothed_troughs`), less the drop of the load's crest through R with C holding the
   output up (`chainbudget.supplymath.pulsed_sags`, each trial's own time constant);
-- the mean at nominal line and load: k V_parent,mean - R I_nominal (Ohm's law);
+- the mean at nominal line and load: k V_parent,mean - R I_nominal (Ohm's law), both
+  ``vout_v`` and ``mean_v`` (one quantity in the check JSON: the headline output of a
+  filter or divider is its mean);
+- at high line (`HighLine`, passed on to a regulator below): the crest k V_parent,crest
+  (no load, no drop), ``crest_v`` and ``output_max_v``, and the means under the heaviest
+  and the idle load, k V_parent - R I;
+- the trough again as ``output_min_v``, as the check JSON carries it;
 - the kind's own figures from R and C (corner 1/(2 pi R C), the attenuation at f_1, the
   resistor's drop and dissipation, the divider's ratio, source resistance and standing
   current V_parent,mean/(upper + lower)).
@@ -34,7 +40,7 @@ from typing import Any
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from chainbudget.supplies.base import RippleSpread, SupplyLoad, SupplySpread
+from chainbudget.supplies.base import HighLine, RippleSpread, SupplyLoad, SupplySpread
 from chainbudget.supplymath import lowpass_gains, pulsed_sags
 
 Figures = dict[str, NDArray[np.float64]]
@@ -92,12 +98,19 @@ def filtered(
     mean = None
     if parent.mean_v is not None:
         mean = np.maximum(k * parent.mean_v - r * load.nominal_a, 0.0)
+    high = None
+    if parent.high is not None:
+        high = HighLine(
+            k * parent.high.crest_v,
+            np.maximum(k * parent.high.heavy_v - r * load.heaviest_a, 0.0),
+            np.maximum(k * parent.high.idle_v - r * load.idle_a, 0.0),
+        )
     crest_drop = pulsed_sags(r, c, load.heaviest_dc_a, load.heaviest_pulse_a, load.signal_hz)
     parent_vpp = 0.0 if parent.vpp is None else parent.vpp
     smoothed = smoothed_troughs(parent_low_v, parent_vpp, fundamental)
     return Filtered(
         fundamental,
-        RippleSpread(parent.ripple_hz, vpp, harmonics, mean),
+        RippleSpread(parent.ripple_hz, vpp, harmonics, mean, high),
         k * smoothed - crest_drop,
         crest_drop,
     )
@@ -105,10 +118,15 @@ def filtered(
 
 def _common(out: Filtered) -> Figures:
     """The figures both kinds share: the trough (what their stages and a bias point take),
-    the mean (``vout_v``) and the ripple's peak-to-peak."""
-    figures: Figures = {"trough_v": np.maximum(out.trough_v, 0.0)}
+    the mean (``vout_v``, ``mean_v``), the crest and the ripple's peak-to-peak."""
+    trough = np.maximum(out.trough_v, 0.0)
+    figures: Figures = {"trough_v": trough, "output_min_v": trough}
     if out.ripple.mean_v is not None:
         figures["vout_v"] = out.ripple.mean_v
+        figures["mean_v"] = out.ripple.mean_v
+    if out.ripple.high is not None:
+        figures["crest_v"] = out.ripple.high.crest_v
+        figures["output_max_v"] = out.ripple.high.crest_v
     if out.ripple.vpp is not None:
         figures["ripple_vpp"] = out.ripple.vpp
     return figures

@@ -178,6 +178,8 @@ class Rectified(SupplyKind):
         parent_low_v: Any = None,
         bounds: Mapping[str, tuple[float, float]] | None = None,
         parent_ripple: RippleSpread | None = None,
+        *,
+        ambient_degc: float | None = None,
     ) -> dict[str, SupplySpread]:
         """Every rail's trough and ripple per trial (a split supply's two, solved together
         as `rail_states` solves them; `chainbudget.supplies.rectified.spread`)."""

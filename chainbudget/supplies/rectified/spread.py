@@ -11,8 +11,10 @@ supply's, shared by its rails):
 - low line and the heaviest load at each relative phase of signal and mains: the trough
   and peak-to-peak ripple (the worst phase, the lowest trough, per trial) and the
   winding's, diodes' and reservoir's currents there;
-- high line and the heaviest load at the same phases: the currents, read at the low
-  line's worst phase (as `solve_rails` reads them);
+- high line and the heaviest load at the same phases: the currents and the mean, read at
+  the low line's worst phase (as `solve_rails` reads them);
+- high line and the idle load as a steady current: the mean (with the one above, what a
+  regulator below dissipates from, `HighLine`);
 - nominal line and load (its pulses at phase 0): the mean, ``mean_v`` and ``vout_v``,
   which the supplies below take as their parent's mean per trial;
 - nominal line with the nominal load's mean as a steady current: the ripple's spectrum
@@ -24,12 +26,12 @@ larger of low and high line, a centre-tapped winding's rms of its two rails' cur
 the rms the rating is judged by and its fraction of the rating), and the rules that read
 them are drawn per trial as flags (`chainbudget.spread.flags`; the conditions of
 `chainbudget.supplies.rectified.rules`): ``supply-collapse``, ``transformer-rating``,
-``reservoir-ripple-current`` and ``large-ripple``. The crest (high line, no load: the
-open circuit less the diode drop) and the switch-on inrush ((V_pk - V_d)/R_s) do not
-depend on the reservoir, and the means at high line are read by no figure the spread
-carries (a regulator's heat is worked out at the nominal check's rails): they keep the
-nominal check's values. The load is the nominal operating point's (the tree as settled
-for the nominal parts): the spread does not settle the tree again for each trial.
+``reservoir-ripple-current`` and ``large-ripple``. The trough is also ``output_min_v``,
+as the check JSON carries it. The crest (high line, no load: the open circuit less the
+diode drop) and the switch-on inrush ((V_pk - V_d)/R_s) do not depend on the reservoir:
+they keep the nominal check's values (the crest is passed on to the supplies below as it
+is). The load is the nominal operating point's (the tree as settled for the nominal
+parts): the spread does not settle the tree again for each trial.
 
 A centre-tapped (``split``) supply is two such rails, ``name`` and ``name.neg``, each its
 own reservoir under its own load. The file gives one ``reservoir`` for both (each rail's
@@ -72,7 +74,7 @@ from numpy.typing import NDArray
 
 from chainbudget import rectifier
 from chainbudget.spread.flags import flag_key
-from chainbudget.supplies.base import RippleSpread, Supply, SupplyLoad, SupplySpread
+from chainbudget.supplies.base import HighLine, RippleSpread, Supply, SupplyLoad, SupplySpread
 from chainbudget.supplies.rectified.circuit import Currents, Transformer, transformer
 from chainbudget.supplies.rectified.figures import winding_figures, worst_currents
 from chainbudget.supplies.rectified.rules import over_rating, ripple_too_large
@@ -103,15 +105,18 @@ class Solved:
     and the heaviest load at each relative phase of signal and mains the trough and ripple,
     V, (n, P); the mean at nominal line and load, V, (n,); the ripple's harmonics at
     nominal line and load, complex V peak, (n, K); whether each low-line circuit collapsed,
-    (n, P); and where solved directly, the currents at low and at high line under the
-    heaviest load at each phase, (n, P) each (None: interpolated figures, whose currents are
-    interpolated apart, `_current_columns`)."""
+    (n, P); the mean at high line under the heaviest load at each phase, V, (n, P), and
+    under the idle load, V, (n,); and where solved directly, the currents at low and at
+    high line under the heaviest load at each phase, (n, P) each (None: interpolated
+    figures, whose currents are interpolated apart, `_current_columns`)."""
 
     trough_v: Array
     ripple_vpp: Array
     mean_v: Array
     harmonics_vpk: NDArray[np.complex128]
     collapsed: NDArray[np.bool_]
+    high_heavy_v: Array
+    high_idle_v: Array
     low: Currents | None = None
     high: Currents | None = None
 
@@ -124,6 +129,8 @@ class Solved:
                 self.mean_v[:, None],
                 self.harmonics_vpk.real,
                 self.harmonics_vpk.imag,
+                self.high_heavy_v,
+                self.high_idle_v[:, None],
             )
         )
 
@@ -133,13 +140,16 @@ class Solved:
         its trough falls to zero (module notes)."""
         trough = values[:, :phases]
         at = 2 * phases
+        high = at + 1 + 2 * count
         return cls(
             trough_v=trough,
             ripple_vpp=values[:, phases:at],
             mean_v=values[:, at],
             harmonics_vpk=values[:, at + 1 : at + 1 + count]
-            + 1j * values[:, at + 1 + count : at + 1 + 2 * count],
+            + 1j * values[:, at + 1 + count : high],
             collapsed=trough <= 0.0,
+            high_heavy_v=values[:, high : high + phases],
+            high_idle_v=values[:, high + phases],
         )
 
 
@@ -242,7 +252,13 @@ def _spreads(
         collapsed = np.any(s.collapsed, axis=1)
         own = winding_figures(tr, worst, rail, loads, loads[rail])
         mean = np.maximum(s.mean_v, 0.0)
-        figures = {"trough_v": trough, "ripple_vpp": vpp, "mean_v": mean, "vout_v": mean}
+        figures = {
+            "trough_v": trough,
+            "output_min_v": trough,
+            "ripple_vpp": vpp,
+            "mean_v": mean,
+            "vout_v": mean,
+        }
         figures.update({key: own[key] for key in OWN_KEYS if own[key] is not None})
         flags = {
             flag_key("error", "supply-collapse", rail): collapsed,
@@ -256,7 +272,15 @@ def _spreads(
             flags[flag_key("warning", "reservoir-ripple-current", rail)] = over_rating(
                 own["reservoir_ripple_a"], rating, collapsed
             )
-        ripple = RippleSpread(tr.ripple_hz, vpp, np.asarray(s.harmonics_vpk, complex), mean)
+        # at high line: the crest (no current: the reservoir does not move it), and the
+        # means under the heaviest load at the low line's worst phase and under the idle
+        high = HighLine(
+            np.asarray(tr.crest_v, dtype=float),
+            np.maximum(_pick(s.high_heavy_v, at), 0.0),
+            np.maximum(s.high_idle_v, 0.0),
+        )
+        harmonics = np.asarray(s.harmonics_vpk, complex)
+        ripple = RippleSpread(tr.ripple_hz, vpp, harmonics, mean, high)
         found[rail] = SupplySpread(figures, (), trough, ripple, flags)
     return found
 
@@ -295,15 +319,16 @@ def _solve(
 ) -> tuple[Solved, ...]:
     """Each rail's figures for each reservoir value (module notes), every rail in one
     batch: `solve_rails`'s rows at low and high line under the heaviest load at each of
-    the signal's phases (`_pulses`), at nominal line and load, and at nominal line with the
-    nominal load's mean as a steady current (the spectrum)."""
+    the signal's phases (`_pulses`), at nominal line and load, at high line under the idle
+    load, and at nominal line with the nominal load's mean as a steady current (the
+    spectrum)."""
     tr = transformer(supply)
     pulses = _pulses(tr, loads)
     phases = pulses.offsets.size
     n = reservoir.size
     low, nominal, high = tr.lines
     # per rail: n x phases rows at low line, as many at high line, then n rows at nominal
-    # line and load, then n for the spectrum
+    # line and load, n for the spectrum, then n at high line and idle
     peak, capacitance, dc, pulse, phase = [], [], [], [], []
     for load in loads:
         heavy = load.heaviest_a > 0.0
@@ -314,11 +339,12 @@ def _solve(
             pulse.append(np.full(n * phases, load.heaviest_pulse_a))
             phase.append(np.tile(pulses.offsets, n))
         loaded = tr.source_peak(nominal, load.nominal_a > 0.0)
-        peak += [np.full(n, loaded), np.full(n, loaded)]
-        capacitance += [reservoir, reservoir]
-        dc += [np.full(n, load.nominal_dc_a), np.full(n, load.nominal_a)]
-        pulse += [np.full(n, load.nominal_pulse_a), np.zeros(n)]
-        phase += [np.zeros(n), np.zeros(n)]
+        idle = tr.source_peak(high, load.idle_a > 0.0)
+        peak += [np.full(n, loaded), np.full(n, loaded), np.full(n, idle)]
+        capacitance += [reservoir, reservoir, reservoir]
+        dc += [np.full(n, load.nominal_dc_a), np.full(n, load.nominal_a), np.full(n, load.idle_a)]
+        pulse += [np.full(n, load.nominal_pulse_a), np.zeros(n), np.zeros(n)]
+        phase += [np.zeros(n), np.zeros(n), np.zeros(n)]
     solved = rectifier.solve(
         np.concatenate(peak),
         tr.drop_v,
@@ -331,7 +357,7 @@ def _solve(
         np.concatenate(phase),
         half_wave=tr.half_wave,
     )
-    width = 2 * n * phases + 2 * n
+    width = 2 * n * phases + 3 * n
 
     def phased(values: object, start: int) -> Array:
         return np.asarray(values)[start : start + n * phases].reshape(n, phases)
@@ -350,6 +376,8 @@ def _solve(
                 mean_v=np.asarray(solved.mean_v)[at_mean : at_mean + n],
                 harmonics_vpk=np.asarray(solved.harmonics_vpk)[at_mean + n : at_mean + 2 * n],
                 collapsed=phased(solved.collapsed, base).astype(bool),
+                high_heavy_v=phased(solved.mean_v, at_high),
+                high_idle_v=np.asarray(solved.mean_v)[at_mean + 2 * n : at_mean + 3 * n],
                 low=currents(base),
                 high=currents(at_high),
             )

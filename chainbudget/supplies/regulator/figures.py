@@ -9,20 +9,26 @@ dissipation (V_in - V_out) I_out + V_in I_q (:func:`chainbudget.supplymath.regul
 the mean input at high line, at heaviest load and at idle (the heaviest load held
 continuously: conservative for heat, since programme averages far less); the input maximum
 the crest at high line and no load. Junction: T_j = T_a + P theta (thermal Ohm's law,
-Horowitz & Hill 3rd ed. sec. 9.4, via :mod:`chainbudget.thermal`).
+Horowitz & Hill 3rd ed. sec. 9.4, via :mod:`chainbudget.thermal`); the largest
+junction-to-ambient (or heatsink) allowed solves it for theta at T_j,max. The heat is
+`regulator_heat`, element-wise: floats here, the spread's trials there
+(`chainbudget.supplies.regulator.spread`).
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
 
 from chainbudget.eseries import best_divider
 from chainbudget.kindfigures import KindFigures, figure
 from chainbudget.notation import eng
-from chainbudget.supplies.base import SupplyContext
+from chainbudget.supplies.base import Supply, SupplyContext
 from chainbudget.supplymath import bleeder_suggestion, regulator_dissipation
-from chainbudget.thermal import junction_temperature, largest_sink_theta
+from chainbudget.thermal import junction_temperature
 from chainbudget.thresholds import BLEEDER_MARGIN
 
 if TYPE_CHECKING:
@@ -122,6 +128,84 @@ class RegulatorFigures(KindFigures):
     dropout_suggestion: DropoutSuggestion | None = figure("input needed", default=None)
 
 
+def sink_thetas(
+    power_w: ArrayLike, inner_k_per_w: float, ambient_degc: float, max_junction_degc: float
+) -> NDArray[np.float64]:
+    """The largest thermal resistance outside ``inner_k_per_w`` that keeps the junction at
+    its maximum, K/W, element-wise: (T_j,max - T_a)/P - theta_inner, solving
+    T_j = T_a + P (theta_inner + theta) for theta (:func:`chainbudget.thermal.largest_sink_theta`
+    of each element); ``inf`` where nothing is dissipated, negative where no heatsink can
+    keep the junction cool enough."""
+    power = np.asarray(power_w, dtype=float)
+    warm = power > 0.0
+    allowed = (max_junction_degc - ambient_degc) / np.where(warm, power, 1.0) - inner_k_per_w
+    return np.asarray(np.where(warm, allowed, np.inf), dtype=float)
+
+
+@dataclass(frozen=True)
+class RegulatorHeat:
+    """A regulator's heat at high line (module notes): floats in the check, (T,) arrays
+    over the spread's trials. ``power_w`` is the larger of ``full_w`` (heaviest load) and
+    ``idle_w``; the junctions are None without a thermal resistance, ``heatsink_allowed``
+    None without ``theta_jc``; ``theta_allowed`` and ``heatsink_allowed`` are ``inf`` where
+    nothing is dissipated (the check reports None there)."""
+
+    full_w: Any
+    idle_w: Any
+    power_w: Any
+    junction_degc: Any | None
+    junction_idle_degc: Any | None
+    theta_allowed_k_per_w: Any
+    heatsink_allowed_k_per_w: Any | None
+
+
+def regulator_heat(
+    kind: Regulator,
+    supply: Supply,
+    vout_v: ArrayLike,
+    heavy_in_v: ArrayLike,
+    idle_in_v: ArrayLike,
+    heaviest_a: ArrayLike,
+    idle_a: ArrayLike,
+    ambient_degc: float,
+) -> RegulatorHeat:
+    """The dissipation (V_in - V_out) I_out + V_in I_q at high line under the heaviest and
+    the idle output current (divider and bleeder included), the input its mean there
+    (``heavy_in_v``, ``idle_in_v``) and the output V_out or the input less the dropout,
+    whichever is lower (:func:`chainbudget.supplymath.regulator_dissipation`); the
+    junctions and the thermal resistances allowed (module notes). Element-wise."""
+    dropout = supply.number("dropout")
+    own = kind.own_current(supply)
+    vout = np.asarray(vout_v, dtype=float)
+    out_heavy = np.minimum(vout, np.maximum(np.asarray(heavy_in_v, dtype=float) - dropout, 0.0))
+    out_idle = np.minimum(vout, np.maximum(np.asarray(idle_in_v, dtype=float) - dropout, 0.0))
+    full = regulator_dissipation(heavy_in_v, out_heavy, heaviest_a, own)
+    idle = regulator_dissipation(idle_in_v, out_idle, idle_a, own)
+    power = np.maximum(full, idle)
+    theta = kind.theta(supply)
+    max_junction = supply.number("max_junction")
+    theta_jc = supply.optional("theta_jc")
+    return RegulatorHeat(
+        full_w=full,
+        idle_w=idle,
+        power_w=power,
+        junction_degc=None if theta is None else junction_temperature(power, theta, ambient_degc),
+        junction_idle_degc=None
+        if theta is None
+        else junction_temperature(idle, theta, ambient_degc),
+        theta_allowed_k_per_w=sink_thetas(power, 0.0, ambient_degc, max_junction),
+        heatsink_allowed_k_per_w=None
+        if theta_jc is None
+        else sink_thetas(power, theta_jc, ambient_degc, max_junction),
+    )
+
+
+def _warm(value: Any, power_w: float) -> float | None:
+    """A thermal resistance allowed as the check reports it: None where nothing is
+    dissipated."""
+    return None if value is None or power_w <= 0.0 else float(value)
+
+
 def regulator_figures(kind: Regulator, context: SupplyContext) -> RegulatorFigures:
     """Dropout, minimum load, heat, input limit and suggestions of one regulator."""
     supply, load = context.supply, context.load
@@ -158,24 +242,20 @@ def regulator_figures(kind: Regulator, context: SupplyContext) -> RegulatorFigur
             resistance, power = bleeder_suggestion(vout, wanted, BLEEDER_SERIES)
             bleeder = BleederSuggestion(resistance, vout / resistance, power, BLEEDER_SERIES)
     # dissipation at high line: heaviest load and idle
-    out_heavy = min(vout, max(parent_state.high_heavy_v - dropout, 0.0))
-    out_idle = min(vout, max(parent_state.high_idle_v - dropout, 0.0))
-    full = float(
-        regulator_dissipation(parent_state.high_heavy_v, out_heavy, delivered.heaviest_a, own)
+    heat = regulator_heat(
+        kind,
+        supply,
+        vout,
+        parent_state.high_heavy_v,
+        parent_state.high_idle_v,
+        delivered.heaviest_a,
+        delivered.idle_a,
+        context.ambient_degc,
     )
-    idle = float(regulator_dissipation(parent_state.high_idle_v, out_idle, delivered.idle_a, own))
-    power = max(full, idle)
-    ambient = context.ambient_degc
+    full, idle, power = float(heat.full_w), float(heat.idle_w), float(heat.power_w)
     divider = _divider_suggestion(kind, context)
     target = divider.target_v if divider is not None else vout
     theta = kind.theta(supply)
-    max_junction = supply.number("max_junction")
-    theta_allowed = heatsink_allowed = None
-    if power > 0.0:
-        theta_allowed = largest_sink_theta(power, 0.0, ambient, max_junction)
-        theta_jc = supply.optional("theta_jc")
-        if theta_jc is not None:
-            heatsink_allowed = largest_sink_theta(power, theta_jc, ambient, max_junction)
     return RegulatorFigures(
         input_min_v=parent_state.trough_v,
         input_max_v=parent_state.crest_v,
@@ -191,16 +271,16 @@ def regulator_figures(kind: Regulator, context: SupplyContext) -> RegulatorFigur
         dissipation_w=power,
         dissipation_full_w=full,
         dissipation_idle_w=idle,
-        max_junction_degc=max_junction,
+        max_junction_degc=supply.number("max_junction"),
         min_load_a=min_load_a,
         min_load_margin_a=min_load_margin,
         theta_k_per_w=theta,
-        junction_degc=None if theta is None else float(junction_temperature(power, theta, ambient)),
+        junction_degc=None if heat.junction_degc is None else float(heat.junction_degc),
         junction_idle_degc=None
-        if theta is None
-        else float(junction_temperature(idle, theta, ambient)),
-        theta_allowed_k_per_w=theta_allowed,
-        heatsink_allowed_k_per_w=heatsink_allowed,
+        if heat.junction_idle_degc is None
+        else float(heat.junction_idle_degc),
+        theta_allowed_k_per_w=_warm(heat.theta_allowed_k_per_w, power),
+        heatsink_allowed_k_per_w=_warm(heat.heatsink_allowed_k_per_w, power),
         bleeder_suggestion=bleeder,
         divider_suggestion=divider
         if divider is not None and abs(divider.error_fraction) < abs((vout - target) / target)

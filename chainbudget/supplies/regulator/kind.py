@@ -19,7 +19,7 @@ from chainbudget.supplies.base import (
 )
 from chainbudget.supplies.regulator.figures import RegulatorFigures, regulator_figures
 from chainbudget.supplies.regulator.rules import regulator_rules
-from chainbudget.supplies.regulator.spread import SPREAD_FIELDS, regulator_spread
+from chainbudget.supplies.regulator.spread import SPREAD_FIELDS, follow_input, regulator_spread
 from chainbudget.supplymath import adjustable_output, divider_current, ripple_after_regulator
 from chainbudget.units import UnitParseError
 
@@ -232,8 +232,12 @@ class Regulator(SupplyKind):
         parent_low_v: Any = None,
         bounds: Mapping[str, tuple[float, float]] | None = None,
         parent_ripple: RippleSpread | None = None,
+        *,
+        ambient_degc: float | None = None,
     ) -> SupplySpread:
-        return regulator_spread(self, supply, drawn, nominal, parent_low_v, parent_ripple)
+        return regulator_spread(
+            self, supply, drawn, nominal, parent_low_v, parent_ripple, ambient_degc
+        )
 
     def input_load(self, supply: Supply, load: SupplyLoad) -> SupplyLoad:
         return self.delivered(supply, load).plus(self.own_current(supply))
@@ -244,7 +248,7 @@ class Regulator(SupplyKind):
         dropout = supply.number("dropout")
 
         def follow(vin: float) -> float:
-            return max(min(vout, vin - dropout), 0.0)
+            return float(follow_input(vout, vin, dropout))
 
         trough = follow(parent.trough_v)
         rejection = supply.optional("ripple_rejection")

@@ -1,7 +1,17 @@
 """A regulator's findings: dropout, minimum load, junction, input maximum, a better divider,
-and the hot-parts caution."""
+and the hot-parts caution.
+
+The conditions of the junction's and the input maximum's findings are element-wise
+(`junction_over`, `junction_near`, `dissipates`, `input_over`): the spread draws them per
+trial as flags (`chainbudget.supplies.regulator.spread`).
+"""
 
 from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+from numpy.typing import NDArray
 
 from chainbudget.finding import Finding
 from chainbudget.notation import amps, eng, sig, watts
@@ -13,6 +23,30 @@ from chainbudget.thresholds import (
     JUNCTION_MARGIN_K,
     THIN_DROPOUT_MARGIN_V,
 )
+
+
+def junction_over(junction_degc: Any, max_junction_degc: float) -> NDArray[np.bool_]:
+    """``regulator-junction``: the junction over its maximum, element-wise."""
+    return np.asarray(np.asarray(junction_degc) > max_junction_degc, dtype=bool)
+
+
+def junction_near(junction_degc: Any, max_junction_degc: float) -> NDArray[np.bool_]:
+    """``regulator-junction-near``: within `JUNCTION_MARGIN_K` of its maximum and not over
+    it, element-wise."""
+    junction = np.asarray(junction_degc)
+    near = junction > max_junction_degc - JUNCTION_MARGIN_K
+    return np.asarray(near & ~junction_over(junction, max_junction_degc), dtype=bool)
+
+
+def dissipates(dissipation_w: Any) -> NDArray[np.bool_]:
+    """``regulator-no-thermal`` (with no thermal resistance given): anything dissipated,
+    element-wise."""
+    return np.asarray(np.asarray(dissipation_w) > 0.0, dtype=bool)
+
+
+def input_over(input_max_v: Any, max_input_v: float) -> NDArray[np.bool_]:
+    """``regulator-max-input``: the input's crest over the part's maximum, element-wise."""
+    return np.asarray(np.asarray(input_max_v) > max_input_v, dtype=bool)
 
 
 def regulator_rules(s: SupplyBudget, r: RegulatorFigures, ambient_degc: float) -> list[Finding]:
@@ -101,7 +135,7 @@ def _min_load(s: SupplyBudget, r: RegulatorFigures) -> list[Finding]:
 
 def _junction(s: SupplyBudget, r: RegulatorFigures, ambient_degc: float) -> list[Finding]:
     if r.junction_degc is None:
-        if r.dissipation_w <= 0.0:
+        if not dissipates(r.dissipation_w):
             return []
         return [
             Finding(
@@ -113,7 +147,7 @@ def _junction(s: SupplyBudget, r: RegulatorFigures, ambient_degc: float) -> list
                 {"dissipation_w": r.dissipation_w},
             )
         ]
-    if r.junction_degc > r.max_junction_degc:
+    if junction_over(r.junction_degc, r.max_junction_degc):
         fix = "a heatsink"
         if r.heatsink_allowed_k_per_w is not None and r.heatsink_allowed_k_per_w > 0.0:
             fix = f"a heatsink (with interface) of at most {sig(r.heatsink_allowed_k_per_w, 'K/W')}"
@@ -138,7 +172,7 @@ def _junction(s: SupplyBudget, r: RegulatorFigures, ambient_degc: float) -> list
                 },
             )
         ]
-    if r.junction_degc > r.max_junction_degc - JUNCTION_MARGIN_K:
+    if junction_near(r.junction_degc, r.max_junction_degc):
         return [
             Finding(
                 "warning",
@@ -155,7 +189,7 @@ def _junction(s: SupplyBudget, r: RegulatorFigures, ambient_degc: float) -> list
 
 
 def _max_input(s: SupplyBudget, r: RegulatorFigures) -> list[Finding]:
-    if r.max_input_v is None or r.input_max_v <= r.max_input_v:
+    if r.max_input_v is None or not input_over(r.input_max_v, r.max_input_v):
         return []
     return [
         Finding(
