@@ -32,6 +32,7 @@ NEW_OUTPUT = (
     "output_stage_clip_vpk",
     "output_stage_clip_power_w",
     "clip_power_low_w",
+    "output_cap_corner_hz",
 )
 
 SOURCE = """

@@ -46,9 +46,9 @@ from chainbudget.cascade import cascade as join_cascade
 from chainbudget.chainfile import Chain
 from chainbudget.findings import SUPERSEDES
 from chainbudget.loops import Section
-from chainbudget.loudspeaker import load_impedance
+from chainbudget.loudspeaker import is_reactive, load_impedance
 from chainbudget.network import GMIN, SingularNetwork
-from chainbudget.outputmath import damping_factor, sine_power
+from chainbudget.outputmath import damping_factor, highpass_corner, sine_power
 from chainbudget.source_network import source_impedance
 from chainbudget.spread.clip_tone import (
     held_budget,
@@ -75,6 +75,7 @@ from chainbudget.spread.parts import Part, with_beta
 from chainbudget.spread.settings import HeldSettings, held_settings, worst_of_candidates
 from chainbudget.spread.thd import thd_figures
 from chainbudget.spread.tree import tree_spread
+from chainbudget.stages import KINDS as STAGE_KINDS
 from chainbudget.stages.base import Environment
 from chainbudget.supplies import KINDS as SUPPLY_KINDS
 from chainbudget.supplies.base import Corners, SpreadThreshold, SupplyState
@@ -242,9 +243,10 @@ class Evaluator:
         step_figures: dict[str, Callable[[], Figures]] = {
             "reference": lambda: _reference_figures(self.chain, as_set(), trials, nominal),
             "band": lambda: _band_figures(self.chain, held(), as_set(), settings, trials),
-            "output": lambda: _output_figures(
-                self.chain, held(), as_set(), settings, trials, damping_held
-            ),
+            "output": lambda: {
+                **_output_figures(self.chain, held(), as_set(), settings, trials, damping_held),
+                **_output_cap_corner(chain, as_set(), trials),
+            },
             "low_edge": lambda: self._low_edge(chain, betas, values, tree.voltages, trials),
             "sag_cost": lambda: sag_cost_figures(
                 chain,
@@ -644,6 +646,23 @@ def _output_figures(
     if sensitivity is not None:
         figures["output.max_spl_db"] = _trials(floored_spl(sensitivity, power), trials)
     return figures
+
+
+def _output_cap_corner(drawn: Chain, as_set: Cascade, trials: int) -> Figures:
+    """``output.output_cap_corner_hz`` per trial, as `chainbudget.budget.power.
+    output_figures` has it for a resistive load: the first-order high-pass corner
+    1/(2 pi (R_L + R_out) C) of the last stage's output capacitor, drawn, into the load and
+    the stage's own output resistance at the reference (``drawn`` holds the drawn parts as
+    (T, 1) arrays). Into a reactive load the check reads the corner off the load's
+    impedance curve: the nominal check's (docs/tolerances.md)."""
+    last = drawn.stages[-1]
+    capacitor = STAGE_KINDS[last.kind].output_capacitor(last)
+    if capacitor is None or is_reactive(drawn.load):
+        return {}
+    r_out = np.real(_at_row(as_set.output_impedance[-1], trials)[:, 0])
+    c = np.reshape(np.asarray(capacitor, dtype=float), (-1,))
+    corner = highpass_corner(c, drawn.load.impedance + r_out)
+    return {"output.output_cap_corner_hz": _trials(corner, trials)}
 
 
 def _supply_threshold(name: str, threshold: SpreadThreshold) -> Threshold:
