@@ -17,6 +17,7 @@ from scipy import integrate, optimize
 
 from chainbudget.budget import Budget
 from chainbudget.chainfile import Chain, parse_chain
+from chainbudget.loudspeaker import is_reactive
 from chainbudget.spread.flags import flag_parts, is_flag
 from chainbudget.spread.run import run_spread
 from chainbudget.supplies.rectified.spread import OWN_KEYS as RECTIFIER_OWN_KEYS
@@ -880,7 +881,9 @@ def test_band_noise_and_power_of_each_trial_equal_the_check_of_that_trial(text: 
 def test_every_example_nominal_figures_are_the_check_figures(name: str) -> None:
     """Every example, every spread figure at the nominal parts equals the check JSON's
     (the worst headroom over band and controls included: the held setting and the
-    check's tie-break reproduce its figure), rtol 1e-9."""
+    check's tie-break reproduce its figure), rtol 1e-9; and every number the check JSON
+    carries (top level, source, nodes, output, supplies, hum, noise, loops) is a spread
+    figure or one of those no drawn part moves (`_unspread_numbers`)."""
     from chainbudget.budget import compute
     from chainbudget.budget.supplies import settle
     from chainbudget.chainfile import load_chain
@@ -899,6 +902,80 @@ def test_every_example_nominal_figures_are_the_check_figures(name: str) -> None:
     for path, values in figures.items():
         held = _json_figure(data, path)
         assert values[0] == pytest.approx(held, rel=1e-9, abs=1e-12), path
+    # and every number of the check JSON is spread, or one no drawn part moves
+    assert _unspread_numbers(data, set(figures), is_reactive(chain.load)) == []
+
+
+# The check JSON's numbers that no drawn part moves, each with its reason (docs/tolerances.md
+# lists them): the file's settings, source and ratings, and the loads the spread holds at
+# the nominal check's (the power tree is not settled again per trial).
+SETTINGS = {"reference_hz", "band_hz", "ambient_degc", "noise_figure_hz"}
+SOURCE_AS_FILED = {"level_vrms", "max_level_vrms", "impedance_ohm", "capacitance_f"}
+SOURCE_AS_FILED |= {"inductance_h"}
+# the source as the chain's input loads it: left out where the input has no DC path
+SOURCE_AS_LOADED = {"input_impedance_ohm", "loss_db", "worst_loss_db", "worst_loss_hz"}
+NODE_AS_FILED = {"drive_limit_a", "position", "bass_position", "treble_position"}
+OUTPUT_AS_FILED = {"load_ohm", "output_cap_f"}
+# an output capacitor's corner into a loudspeaker's impedance curve: the nominal check's
+REACTIVE_CORNER = {"output_cap_corner_hz"}
+# undefined in a trial that runs away: only its two codes are spread
+OUTPUT_NOT_A_FIGURE = {"quiescent_hot_a"}
+NOISE_AS_FILED = {"source_resistance_ohm"}
+HELD_LOADS = {"idle_load_a", "max_load_a", "nominal_load_a", "input_idle_a", "input_max_a"}
+SUPPLY_NOMINAL = {
+    "dc": HELD_LOADS
+    | {"crest_v", "output_max_v", "ripple_vpp", "capacity_ah", "runtime_idle_h"}
+    | {"runtime_nominal_h", "peak_current_a"},
+    "regulator": HELD_LOADS
+    | {"dropout_v", "own_current_a", "max_input_v", "target_v", "max_junction_degc"}
+    | {"min_load_a", "theta_k_per_w"},
+    "rectified": HELD_LOADS
+    | {"crest_v", "output_max_v", "inrush_a", "dc_load_a", "pulses_hz", "rated_a"}
+    | {"open_circuit_vrms", "transformer_regulation", "winding_resistance_ohm"}
+    | {"reservoir_ripple_rating_a"},
+    "rc_filter": HELD_LOADS,
+    "divider": HELD_LOADS,
+}
+
+
+def _unspread_numbers(data: dict, figures: set[str], reactive_load: bool) -> list[str]:  # type: ignore[type-arg]
+    """The check JSON's numbers (top level, source, nodes, output, supplies, hum, noise,
+    loops) that are neither a spread figure nor among those no drawn part moves. A supply
+    of which nothing is spread (no part of it or above it drawn) and the hum of a chain with
+    no ripple (none spread) are left out whole."""
+
+    def number(value: object) -> bool:
+        return isinstance(value, (int, float)) and not isinstance(value, bool)
+
+    def missing(prefix: str, entry: dict, exempt: set[str]) -> list[str]:  # type: ignore[type-arg]
+        return [
+            prefix + key
+            for key, value in entry.items()
+            if number(value) and key not in exempt and prefix + key not in figures
+        ]
+
+    found = missing("", data, SETTINGS)
+    loaded = any(f"source.{key}" in figures for key in SOURCE_AS_LOADED)
+    found += missing(
+        "source.", data["source"], SOURCE_AS_FILED | (set() if loaded else SOURCE_AS_LOADED)
+    )
+    hum = "hum.output_vrms" in figures
+    for node in data["nodes"]:
+        found += missing(
+            f"nodes.{node['stage']}.", node, NODE_AS_FILED | (set() if hum else {"hum_vrms"})
+        )
+    corner = REACTIVE_CORNER if reactive_load else set()
+    found += missing("output.", data["output"], OUTPUT_AS_FILED | OUTPUT_NOT_A_FIGURE | corner)
+    for supply in data["supplies"]:
+        prefix = f"supplies.{supply['name']}."
+        if any(path.startswith(prefix) for path in figures):
+            found += missing(prefix, supply, SUPPLY_NOMINAL[supply["kind"]])
+    if hum:
+        found += missing("hum.", data["hum"], set())
+    found += missing("noise.", data["noise"] or {}, NOISE_AS_FILED)
+    for loop in data.get("loop") or []:
+        found += missing(f"loop.{loop['stage']}.", loop, set())
+    return found
 
 
 # The tone chain tuned so that its tone stage's worst case over band and controls, the
