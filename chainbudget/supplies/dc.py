@@ -43,8 +43,9 @@ class DcFigures(KindFigures):
     reservoir_f: float | None = figure(default=None)
 
 
-# The parts a spread draws (chainbudget/spread): its internal resistance.
-SPREAD_FIELDS = ("resistance",)
+# The parts a spread draws (chainbudget/spread): its internal resistance and, with one, the
+# reservoir across its terminals (with no resistance the reservoir holds nothing up).
+SPREAD_FIELDS = ("resistance", "reservoir")
 
 
 @dataclass(frozen=True)
@@ -75,11 +76,12 @@ def terminal_v(emf: ArrayLike, resistance: ArrayLike, current: ArrayLike) -> NDA
 
 
 def crest_drop_v(
-    resistance: ArrayLike, reservoir_f: float | None, load: SupplyLoad
+    resistance: ArrayLike, reservoir_f: ArrayLike | None, load: SupplyLoad
 ) -> NDArray[np.float64]:
     """The drop across the internal resistance at the crest of the heaviest load, V,
-    element-wise in the resistance (:func:`chainbudget.supplymath.pulsed_sags`: the steady
-    current and the crest of the pulses, less what a reservoir holds up)."""
+    element-wise in the resistance and the reservoir (None: none)
+    (:func:`chainbudget.supplymath.pulsed_sags`: the steady current and the crest of the
+    pulses, less what a reservoir holds up over the time constant R C)."""
     return pulsed_sags(
         resistance, reservoir_f, load.heaviest_dc_a, load.heaviest_pulse_a, load.signal_hz
     )
@@ -150,7 +152,7 @@ class DcSupply(SupplyKind):
         load; the crest is the high end unloaded. No mains ripple. The supply collapses
         when the sag would take the trough to zero. The arithmetic is `terminal_v`,
         `crest_drop_v`, `trough_v` and `collapses`, which the spread takes with the
-        resistance an array of trials (`chainbudget.supplies.dc_spread`).
+        resistance and the reservoir arrays of trials (`chainbudget.supplies.dc_spread`).
         """
         return self._state(supply, load, supply.number("resistance"))
 
@@ -181,8 +183,13 @@ class DcSupply(SupplyKind):
         return float(crest_drop_v(resistance, supply.optional("reservoir"), load))
 
     def spread_fields(self, supply: Supply) -> tuple[str, ...]:
-        """Its internal resistance, where it has one (a zero resistance is no part)."""
-        return SPREAD_FIELDS if supply.number("resistance") > 0.0 else ()
+        """Its internal resistance, where it has one (a zero resistance is no part), and
+        then its reservoir, where it has one: with no resistance the reservoir holds up
+        nothing (`pulsed_sags`: the drop is R times the current whatever C), so it is not
+        drawn."""
+        if supply.number("resistance") <= 0.0:
+            return ()
+        return SPREAD_FIELDS if supply.optional("reservoir") is not None else SPREAD_FIELDS[:1]
 
     def spread(
         self,
@@ -195,14 +202,17 @@ class DcSupply(SupplyKind):
         *,
         ambient_degc: float | None = None,
     ) -> SupplySpread:
-        """Its figures per trial with its internal resistance drawn, under the nominal
-        check's load (`chainbudget.supplies.dc_spread.dc_spread`). A root: no parent's
-        trough or ripple to take."""
+        """Its figures per trial with its internal resistance and its reservoir drawn (each
+        the nominal value where not drawn), under the nominal check's load
+        (`chainbudget.supplies.dc_spread.dc_spread`). A root: no parent's trough or ripple
+        to take."""
         # imported here: that module imports this one's formulas
         from chainbudget.supplies.dc_spread import dc_spread
 
         resistance = drawn.get("resistance", np.asarray(supply.number("resistance")))
-        return dc_spread(supply, resistance, nominal.load)
+        reservoir = supply.optional("reservoir")
+        held = None if reservoir is None else np.asarray(reservoir, dtype=float)
+        return dc_spread(supply, resistance, nominal.load, drawn.get("reservoir", held))
 
     def figures(self, context: SupplyContext) -> DcFigures:
         """Sag at the crest of the heaviest load; run time = capacity / mean drain
