@@ -28,7 +28,9 @@ def _evaluator(name: str) -> Evaluator:
     return Evaluator(chain, tuple(parts), compute(chain), settle(chain, "low").voltages)
 
 
-@pytest.mark.parametrize("name", ["kitchen_radio_mains.toml", "busking_amp.toml"])
+@pytest.mark.parametrize(
+    "name", ["kitchen_radio_mains.toml", "busking_amp.toml", "violin_piezo_preamp.toml"]
+)
 def test_each_step_alone_gives_its_figures_as_the_whole_evaluation(name: str) -> None:
     """Six random rows: each step asked alone gives every figure `steps_of` gives it,
     equal to the whole evaluation's to 1e-12, and none of another step's (its solves
@@ -41,6 +43,8 @@ def test_each_step_alone_gives_its_figures_as_the_whole_evaluation(name: str) ->
     assert {"reference", "band", "noise", "drive"} <= set(steps.values())
     if name == "busking_amp.toml":  # its batteries' sag cost, its rails' low-edge clip
         assert {"low_edge", "sag_cost"} <= set(steps.values())
+    if name == "violin_piezo_preamp.toml":  # its tone stages' boosts (a step of their own)
+        assert "staging" in set(steps.values())
     for step in sorted(set(steps.values())):
         alone = evaluate(positions, flags=True, steps=frozenset((step,)))
         own = [p for p, s in steps.items() if s == step]

@@ -4,8 +4,10 @@ the headroom before it, op-amp supply range and DC paths of op-amp inputs."""
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
+from numpy.typing import NDArray
 
 from chainbudget.budget.analysis import Analysis
 from chainbudget.budget.dcbias import stages_at_dc
@@ -83,15 +85,37 @@ def post_volume_headroom(analysis: Analysis) -> list[StageHeadroom]:
         if clip is None:
             continue
         peak = np.broadcast_to(clip[0], analysis.swept.v_out[k].shape)[index]
-        at = int(np.argmin(peak))
+        headroom, at = band_headroom_db(peak, analysis.chain.source.max_level)
         found.append(
             StageHeadroom(
                 analysis.chain.stages[k].name,
-                float(db(peak[at] / (SQRT2 * analysis.chain.source.max_level))),
-                float(analysis.frequency[at]),
+                float(headroom),
+                float(analysis.frequency[int(at)]),
             )
         )
     return found
+
+
+def band_headroom_db(
+    peak: NDArray[np.float64], max_level: float
+) -> tuple[NDArray[np.float64], NDArray[np.intp]]:
+    """A stage's least headroom over the frequency axis (the last axis of ``peak``, the
+    source peak at which it clips) at ``max_level``, dB, and where it lies: 20 log10 of
+    the least clip peak over sqrt(2) max_level (the headroom of a sine whose rms is
+    ``max_level``). Any leading axes (the spread's trials) are kept."""
+    at = np.argmin(peak, axis=-1)
+    least = np.take_along_axis(peak, at[..., None], axis=-1)[..., 0]
+    return db(least / (SQRT2 * max_level)), at
+
+
+def full_boost_db(
+    v_out: NDArray[np.complexfloating[Any, Any]], v_in: NDArray[np.complexfloating[Any, Any]]
+) -> tuple[NDArray[np.float64], NDArray[np.intp]]:
+    """A stage's greatest gain 20 log10 |v_out/v_in| over the frequency axis (the last),
+    dB, and where it lies (any leading axes kept)."""
+    gain = np.abs(v_out / v_in)
+    at = np.argmax(gain, axis=-1)
+    return db(np.take_along_axis(gain, at[..., None], axis=-1)[..., 0]), at
 
 
 def tone_boosts(analysis: Analysis, nodes: list[NodeLevels]) -> list[Boost]:
@@ -109,14 +133,16 @@ def tone_boosts(analysis: Analysis, nodes: list[NodeLevels]) -> list[Boost]:
         if upstream is None or upstream.headroom_db is None:
             continue
         index = set_point_index(analysis, {c.label: 1.0 for c in controls})
-        gain = np.abs(swept.v_out[k] / swept.v_in[k])
-        gain = np.broadcast_to(gain, np.broadcast_shapes(gain.shape, swept.v_out[k].shape))[index]
-        at = int(np.argmax(gain))
+        shape = swept.v_out[k].shape
+        boost, at = full_boost_db(
+            np.broadcast_to(swept.v_out[k], shape)[index],
+            np.broadcast_to(swept.v_in[k], shape)[index],
+        )
         found.append(
             Boost(
                 stage.name,
-                float(db(gain[at])),
-                float(analysis.frequency[at]),
+                float(boost),
+                float(analysis.frequency[int(at)]),
                 upstream.stage,
                 upstream.headroom_db,
             )

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import replace
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 from chainbudget.finding import Finding
 from chainbudget.thresholds import (
@@ -185,7 +185,9 @@ def _clip_order(budget: Budget) -> list[Finding]:
     found = []
     for other in budget.post_volume:
         margin = output.headroom_db - other.headroom_db
-        if other.stage != output.stage and margin > 0.0:
+        if other.stage != output.stage and clips_before_output(
+            output.headroom_db, other.headroom_db
+        ):
             found.append(
                 Finding(
                     "warning",
@@ -239,8 +241,21 @@ def _boosts(budget: Budget) -> list[Finding]:
             {"boost_db": b.boost_db, "upstream_headroom_db": b.upstream_headroom_db},
         )
         for b in budget.boosts
-        if b.boost_db > b.upstream_headroom_db
+        if boost_clips(b.boost_db, b.upstream_headroom_db)
     ]
+
+
+def clips_before_output(output_headroom_db: Any, headroom_db: Any) -> Any:
+    """``clip-order``'s condition: a stage behind the volume whose least headroom with the
+    volume fully up is below the output stage's clips first as the volume rises (floats,
+    or arrays over the spread's trials)."""
+    return output_headroom_db - headroom_db > 0.0
+
+
+def boost_clips(boost_db: Any, upstream_headroom_db: Any) -> Any:
+    """``boost-over-headroom``'s condition: a full-boost gain above the headroom of the
+    limited stage before the tone stage (floats, or arrays over the spread's trials)."""
+    return boost_db > upstream_headroom_db
 
 
 def _supply_ranges(budget: Budget) -> list[Finding]:

@@ -73,6 +73,7 @@ from chainbudget.spread.loops import closed_loop_figures, loop_figures, loop_thr
 from chainbudget.spread.noise import output_noise
 from chainbudget.spread.parts import Part, with_beta
 from chainbudget.spread.settings import HeldSettings, held_settings, worst_of_candidates
+from chainbudget.spread.staging import needs_worst_headroom, staging_flags
 from chainbudget.spread.thd import thd_figures
 from chainbudget.spread.tree import tree_spread
 from chainbudget.stages import KINDS as STAGE_KINDS
@@ -103,6 +104,7 @@ STEPS = frozenset(
         "thd",
         "drive",
         "heat",
+        "staging",
     )
 )
 # Chunks solved at once (threads; memory grows with them).
@@ -220,7 +222,9 @@ class Evaluator:
         nominal = self.nominal
         wanted = STEPS if steps is None else steps
         # each solve once, and only for the steps asked for (a corner row asks for one)
-        with_held = bool(wanted & {"band", "output", "drive"})
+        with_held = bool(wanted & {"band", "output", "drive"}) or (
+            "staging" in wanted and needs_worst_headroom(nominal)
+        )
         cascades = cache(
             lambda: _solve_as_set_and_held(
                 chain, tuple(envs), frequency, settings if with_held else _NO_HELD
@@ -236,13 +240,14 @@ class Evaluator:
         noise = cache(
             lambda: output_noise(chain, tuple(envs), frequency, as_set(), trials, nominal)
         )
+        band = cache(lambda: _band_figures(self.chain, held(), as_set(), settings, trials))
         idle = cache(lambda: idle_cascade(chain, envs) if needs_idle(nominal) else None)
         hot_envs = cache(lambda: self._hot_envs(chain, betas))
         output = nominal.output
         damping_held = output is not None and bool(np.isfinite(output.damping_factor))
         step_figures: dict[str, Callable[[], Figures]] = {
             "reference": lambda: _reference_figures(self.chain, as_set(), trials, nominal),
-            "band": lambda: _band_figures(self.chain, held(), as_set(), settings, trials),
+            "band": band,
             "output": lambda: {
                 **_output_figures(self.chain, held(), as_set(), settings, trials, damping_held),
                 **_output_cap_corner(chain, as_set(), trials),
@@ -270,6 +275,7 @@ class Evaluator:
                 chain, as_set(), held(), settings, envs, hot_envs(), trials
             ),
             "heat": lambda: heat_figures(chain, envs, hot_envs(), trials),
+            "staging": lambda: staging_flags(chain, envs, frequency, as_set(), trials, band),
         }
         for step, work in step_figures.items():
             if step in wanted:
