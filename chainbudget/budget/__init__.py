@@ -13,9 +13,10 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field, fields, replace
 from html import escape
-from typing import Any
+from typing import Any, NamedTuple
 
 import numpy as np
+from numpy.typing import ArrayLike, NDArray
 
 from chainbudget.budget.analysis import SWEEP_POINTS, Analysis, environments
 from chainbudget.budget.currents import StageCurrents, stage_currents
@@ -298,6 +299,71 @@ def _node_budgets(analysis: Analysis) -> tuple[tuple[NodeBudget, ...], NoiseBudg
     ), noise
 
 
+class SourceLoading(NamedTuple):
+    """What the chain's input does to the source (`source_loading`): arrays of the inputs'
+    leading shape (a float for one chain, (T,) for a batch of trials)."""
+
+    #: |Z_in| = |1/Y_in| at the reference, ohm.
+    input_impedance_ohm: NDArray[np.float64]
+    #: 20 log10 |V_in/V_s| at the reference, dB.
+    loss_db: NDArray[np.float64]
+    #: The same at the band's point where the least of the source's voltage reaches the input.
+    worst_loss_db: NDArray[np.float64]
+    #: That point's frequency, Hz.
+    worst_loss_hz: NDArray[np.float64]
+
+
+def source_loading(
+    input_admittance: ArrayLike,
+    v_in: ArrayLike,
+    frequency: ArrayLike,
+    band_start: int = 1,
+) -> SourceLoading:
+    """The input impedance the source sees and the level it loses to it, at the reference
+    frequency and at the worst point of the band.
+
+    Parameters
+    ----------
+    input_admittance : array_like
+        Y_in of the chain's input over the frequency axis, S (complex), shape ``(..., F)``.
+    v_in : array_like
+        V_in/V_s, the source's open-circuit voltage reaching the input, over the same axis
+        (complex), shape ``(..., F)`` (it broadcasts with ``input_admittance``).
+    frequency : array_like
+        The frequency axis, Hz, shape ``(F,)``: index 0 the reference, the band from
+        ``band_start`` to the end (`chainbudget.budget.analysis.Analysis.band_slice`).
+    band_start : int
+        First index of the band on the axis.
+
+    Returns
+    -------
+    SourceLoading
+        Each figure with the leading shape ``...`` (0-d for one chain, (T,) for trials).
+
+    Notes
+    -----
+    Z_in = 1/Y_in (the input's nodal admittance, `chainbudget.network`); the source's
+    impedance Z_s and Z_in form a voltage divider, V_in/V_s = Z_in/(Z_s + Z_in) (Horowitz &
+    Hill, The Art of Electronics, 3rd ed., sec. 1.2.3, the voltage divider; from memory),
+    whose magnitude in dB, 20 log10 |V_in/V_s|, is the loss. The worst point is the band's
+    least |V_in/V_s| (the first such point where several tie).
+    """
+    y_in = np.asarray(input_admittance)
+    ratio = np.asarray(v_in)
+    axis = np.asarray(frequency, dtype=float)
+    worst = band_start + np.argmin(np.abs(ratio[..., band_start:]), axis=-1)
+    at_worst = np.take_along_axis(ratio, np.expand_dims(worst, -1), axis=-1)[..., 0]
+    # The builtin abs, not np.abs: for one chain 1/Y_in is a numpy scalar, whose own abs
+    # the check's figure has always been (it can differ from the ufunc in the last bit);
+    # on a trial axis it is the ufunc either way.
+    return SourceLoading(
+        input_impedance_ohm=np.asarray(abs(1.0 / y_in[..., 0]), dtype=float),
+        loss_db=db(ratio[..., 0]),
+        worst_loss_db=db(at_worst),
+        worst_loss_hz=axis[worst],
+    )
+
+
 def budget_from(analysis: Analysis) -> Budget:
     """The budget of an already solved chain (findings not yet drawn)."""
     chain = analysis.chain
@@ -312,9 +378,12 @@ def budget_from(analysis: Analysis) -> Budget:
         None if noise is None else noise.output.noise_a_vrms,
         [0.0 if n.currents is None else n.currents.nominal_a for n in nodes],
     )
-    # The frequency of the band where the chain's input takes least of the source's voltage.
-    band = analysis.band_slice
-    worst = (band.start or 0) + int(np.argmin(np.abs(analysis.nominal.v_in[0][..., band])))
+    loading = source_loading(
+        analysis.nominal.input_admittance,
+        analysis.nominal.v_in[0],
+        analysis.frequency,
+        analysis.band_slice.start or 0,
+    )
     return Budget(
         title=chain.settings.title,
         file=chain.file,
@@ -325,8 +394,8 @@ def budget_from(analysis: Analysis) -> Budget:
         source_max_level_vrms=chain.source.max_level,
         load_ohm=chain.load.impedance,
         source_impedance_ohm=float(abs(source_impedance(chain.source, analysis.frequency[:1])[0])),
-        input_impedance_ohm=float(abs(1.0 / analysis.nominal.input_admittance[..., 0])),
-        source_loss_db=float(db(analysis.nominal.v_in[0][..., 0])),
+        input_impedance_ohm=float(loading.input_impedance_ohm),
+        source_loss_db=float(loading.loss_db),
         nodes=nodes,
         supplies=supplies,
         first_clip=None if first_clip is None else nodes[first_clip].stage,
@@ -347,9 +416,17 @@ def budget_from(analysis: Analysis) -> Budget:
         hum=hum,
         source_capacitance_f=chain.source.capacitance,
         source_inductance_h=chain.source.inductance,
-        source_loss_worst_db=float(db(analysis.nominal.v_in[0][..., worst])),
-        source_loss_worst_hz=float(analysis.frequency[worst]),
+        source_loss_worst_db=float(loading.worst_loss_db),
+        source_loss_worst_hz=float(loading.worst_loss_hz),
     )
 
 
-__all__ = ["Budget", "NodeBudget", "SupplyBudget", "budget_from", "compute"]
+__all__ = [
+    "Budget",
+    "NodeBudget",
+    "SourceLoading",
+    "SupplyBudget",
+    "budget_from",
+    "compute",
+    "source_loading",
+]

@@ -133,6 +133,37 @@ def peak_current(vpk: ArrayLike, z_load: complex | float) -> NDArray[np.float64]
     return np.asarray(np.asarray(vpk, dtype=float) / abs(z_load), dtype=float)
 
 
+def resistive_cap_corner(
+    capacitance_f: ArrayLike, load_ohm: ArrayLike, z_out: ArrayLike
+) -> NDArray[np.float64]:
+    """-3 dB corner of an output capacitor into a resistive load, Hz, element-wise.
+
+    Parameters
+    ----------
+    capacitance_f : array_like
+        The series output capacitor, F.
+    load_ohm : array_like
+        The load's resistance, ohm.
+    z_out : array_like
+        The driving stage's output impedance at the reference frequency, ohm (complex
+        allowed: its real part, the output resistance, is what the capacitor works into).
+
+    Returns
+    -------
+    ndarray
+        f_c, Hz, with the arguments' broadcast shape (0-d for scalars, (T,) for trials).
+
+    Notes
+    -----
+    The capacitor in series with R_L + R_out is a first-order RC high-pass,
+    f_c = 1/(2 pi (R_L + R_out) C) (`outputmath.highpass_corner`; Horowitz & Hill 3rd ed.
+    sec. 1.7, RC filters, from memory). A reactive load's corner is read off its
+    impedance curve instead (`_reactive_corner`).
+    """
+    r_out = np.real(np.asarray(z_out))
+    return om.highpass_corner(capacitance_f, np.asarray(load_ohm, dtype=float) + r_out)
+
+
 def output_figures(analysis: Analysis) -> OutputFigures:
     """Output power, SPL, damping factor and output-capacitor corner of the chain."""
     chain = analysis.chain
@@ -163,7 +194,7 @@ def output_figures(analysis: Analysis) -> OutputFigures:
     output_cap = last_kind.output_capacitor(chain.stages[last])
     corner = None
     if output_cap is not None and not is_reactive(chain.load):
-        corner = float(om.highpass_corner(output_cap, chain.load.impedance + z_out.real))
+        corner = float(resistive_cap_corner(output_cap, chain.load.impedance, z_out))
     elif output_cap is not None:
         corner = _reactive_corner(chain, output_cap, z_out)
     low_vpk = low_edge_clip_vpk(analysis)

@@ -33,11 +33,16 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-from chainbudget.budget import Budget
+from chainbudget.budget import Budget, source_loading
 from chainbudget.budget.analysis import environments, frequency_axis, positions_as_set, solve_chain
 from chainbudget.budget.dcbias import DcPoint
 from chainbudget.budget.levels import SQRT2, clip_source_peak, db
-from chainbudget.budget.power import floored_spl, load_at_reference, peak_current
+from chainbudget.budget.power import (
+    floored_spl,
+    load_at_reference,
+    peak_current,
+    resistive_cap_corner,
+)
 from chainbudget.budget.rails import supply_states
 from chainbudget.budget.steps import with_value
 from chainbudget.budget.supplies import SettledTree, low_edge_tree, rails_sag
@@ -48,7 +53,7 @@ from chainbudget.findings import SUPERSEDES
 from chainbudget.loops import Section
 from chainbudget.loudspeaker import is_reactive, load_impedance
 from chainbudget.network import GMIN, SingularNetwork
-from chainbudget.outputmath import damping_factor, highpass_corner, sine_power
+from chainbudget.outputmath import damping_factor, sine_power
 from chainbudget.source_network import source_impedance
 from chainbudget.spread.clip_tone import (
     held_budget,
@@ -473,23 +478,23 @@ OPEN_INPUT_OHM = 1.0 / (1000.0 * GMIN)
 
 
 def _source_figures(chain: Chain, cascade: Cascade, trials: int) -> Figures:
-    """What the chain's input does to the source, per trial, as
-    `chainbudget.budget.budget_from` works it out with the controls as set: the input
-    impedance |1/Y_in| and the level lost across the source's impedance,
+    """What the chain's input does to the source, per trial, with the controls as set:
+    `chainbudget.budget.source_loading`, the check's own function, on (T, F) arrays. The
+    input impedance |1/Y_in| and the level lost across the source's impedance,
     20 log10 |V_in/V_s| (the divider of Z_s and Z_in), at the reference
     (``source.input_impedance_ohm``, ``source.loss_db``) and at the band's point where
     the least of the source's voltage reaches the input (``source.worst_loss_db``, at
     ``source.worst_loss_hz``)."""
-    y_in = _at_row(cascade.input_admittance, trials)
-    v_in = _at_row(cascade.v_in[0], trials)
-    frequency = frequency_axis(chain)
-    band = np.abs(v_in[:, 1:])
-    worst = 1 + np.argmin(band, axis=1)
+    loading = source_loading(
+        _at_row(cascade.input_admittance, trials),
+        _at_row(cascade.v_in[0], trials),
+        frequency_axis(chain),
+    )
     return {
-        "source.input_impedance_ohm": np.abs(1.0 / y_in[:, 0]),
-        "source.loss_db": db(v_in[:, 0]),
-        "source.worst_loss_db": db(np.take_along_axis(v_in, worst[:, None], axis=1)[:, 0]),
-        "source.worst_loss_hz": frequency[worst],
+        "source.input_impedance_ohm": loading.input_impedance_ohm,
+        "source.loss_db": loading.loss_db,
+        "source.worst_loss_db": loading.worst_loss_db,
+        "source.worst_loss_hz": loading.worst_loss_hz,
     }
 
 
@@ -656,7 +661,8 @@ def _output_figures(
 
 def _output_cap_corner(drawn: Chain, as_set: Cascade, trials: int) -> Figures:
     """``output.output_cap_corner_hz`` per trial, as `chainbudget.budget.power.
-    output_figures` has it for a resistive load: the first-order high-pass corner
+    output_figures` has it for a resistive load (`chainbudget.budget.power.
+    resistive_cap_corner`, the check's own function): the first-order high-pass corner
     1/(2 pi (R_L + R_out) C) of the last stage's output capacitor, drawn, into the load and
     the stage's own output resistance at the reference (``drawn`` holds the drawn parts as
     (T, 1) arrays). Into a reactive load the check reads the corner off the load's
@@ -665,9 +671,9 @@ def _output_cap_corner(drawn: Chain, as_set: Cascade, trials: int) -> Figures:
     capacitor = STAGE_KINDS[last.kind].output_capacitor(last)
     if capacitor is None or is_reactive(drawn.load):
         return {}
-    r_out = np.real(_at_row(as_set.output_impedance[-1], trials)[:, 0])
+    z_out = _at_row(as_set.output_impedance[-1], trials)[:, 0]
     c = np.reshape(np.asarray(capacitor, dtype=float), (-1,))
-    corner = highpass_corner(c, drawn.load.impedance + r_out)
+    corner = resistive_cap_corner(c, drawn.load.impedance, z_out)
     return {"output.output_cap_corner_hz": _trials(corner, trials)}
 
 
