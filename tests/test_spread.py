@@ -709,6 +709,13 @@ def _assert_same_figure(path: str, got: float, want: float, db_abs: float, trial
         assert got == pytest.approx(want, rel=1e-9, abs=1e-12), (path, trial)
 
 
+# Codes the spread draws for the chain as a whole, not at a stage: whether the hum has a
+# remedy (the check names the stage of the remedy it picks) and whether a late stage sets
+# the noise floor (the check names that stage); every other flag is drawn where the check
+# finds it (its stage or supply).
+_DRAWN_ANYWHERE = frozenset({"hum-remedy", "noise-set-late"})
+
+
 def _json_figure(
     data: dict,  # type: ignore[type-arg]
     path: str,
@@ -735,9 +742,14 @@ def _json_figure(
     if group == "loop":
         name, key = rest
         return float(next(e for e in data["loop"] if e["stage"] == name)[key])
-    if is_flag(path):  # a rule worked out per trial: whether the check finds its code
+    if is_flag(path):  # a rule worked out per trial: whether the check finds its code there
         severity, code = flag_parts(path)
-        found = [f for f in data["findings"] if f["code"] == code]
+        where = path.rsplit(":", 1)[1]
+        found = [
+            f
+            for f in data["findings"]
+            if f["code"] == code and (code in _DRAWN_ANYWHERE or where in (f["stage"], f["supply"]))
+        ]
         return float(any(f["severity"] == severity for f in found))
     if group == "noise" and rest[0] in ("stage_shares", "placement"):
         _, name, key = rest
