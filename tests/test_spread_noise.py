@@ -252,3 +252,50 @@ def test_the_spread_table_shows_shares_in_per_cent_and_names_their_figures() -> 
     )
     assert _place_and_figure("noise.placement.volume.lift_db") == ("volume", "snr lift if moved")
     assert _unit("noise.placement.volume.lift_db") == "dB"
+
+
+NOISELESS = """
+[chain]
+band = ["20 Hz", "20 kHz"]
+reference = "1 kHz"
+[source]
+level = "100 mV"
+max_level = "1 V"
+impedance = "0 ohm"
+[load]
+impedance = "10 kohm"
+[[stage]]
+name = "blk"
+kind = "block"
+gain = 2
+input_impedance = "1 Mohm"
+output_impedance = "0 ohm"
+max_output = "10 V"
+tolerance = { input_impedance = "10 %" }
+"""
+
+
+def test_a_chain_without_any_noise_generator_spreads_without_noise_figures(
+    tmp_path: Path,
+) -> None:
+    """A 0 ohm source into a noiseless block: no generator anywhere, so every node's noise
+    is zero and its SNR undefined (the check prints none). The real command, warnings
+    turned into errors, finishes with no traceback and no noise figure but the zeros."""
+    import subprocess
+    import sys
+
+    chain = tmp_path / "noiseless.toml"
+    chain.write_text(NOISELESS)
+    run = subprocess.run(
+        [sys.executable, "-W", "error", "-m", "chainbudget", "spread", str(chain)]
+        + ["--trials", "40", "--seed", "3", "--format", "json"],
+        capture_output=True,
+        text=True,
+        check=False,
+    )
+    assert run.returncode == 0, run.stderr
+    assert "Traceback" not in run.stderr
+    figures = json.loads(run.stdout)["figures"]
+    assert "nodes.blk.snr_db" not in figures
+    assert not any(p.startswith(("noise_sources.", "noise.stage_shares.")) for p in figures)
+    assert figures["nodes.blk.noise_vrms"]["max"] == 0.0

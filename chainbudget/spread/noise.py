@@ -53,6 +53,14 @@ def _db20(ratio: NDArray[np.float64]) -> NDArray[np.float64]:
         return np.asarray(20.0 * np.log10(ratio), dtype=float)
 
 
+def _ratio_db(signal: NDArray[np.float64], noise: NDArray[np.float64]) -> NDArray[np.float64]:
+    """20 log10(signal / noise): +inf where a node carries no noise at all (a chain of
+    noiseless blocks from a 0 ohm source), a figure the nominal check leaves undefined and
+    `output_noise` then drops."""
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return _db20(signal / noise)
+
+
 def output_noise(
     chain: Chain,
     envs: tuple[Environment, ...],
@@ -97,8 +105,8 @@ def output_noise(
         found[node + "noise_a_vrms"] = np.sqrt(weighted[k])
         found[node + "noise_468_vrms"] = np.sqrt(itu[k])
         found[node + "noise_density_v_rthz"] = np.sqrt(psd[k, :, 0])
-        found[node + "snr_db"] = _db20(level / np.sqrt(flat[k]))
-        found[node + "snr_a_db"] = _db20(level / np.sqrt(weighted[k]))
+        found[node + "snr_db"] = _ratio_db(level, np.sqrt(flat[k]))
+        found[node + "snr_a_db"] = _ratio_db(level, np.sqrt(weighted[k]))
     out = f"nodes.{chain.stages[-1].name}."
     found.update(_chain_figures(chain, spectra, psd[-1], signal[-1], as_set, trials))
     found.update(_stage_shares(chain, spectra, trials, nominal))
@@ -164,8 +172,8 @@ def _chain_figures(
         found["noise.output_clip_vrms"] = clip
         flat = spectra.integrate(out_psd, unweighted)
         weighted = spectra.integrate(out_psd, a_weighting)
-        found["dynamic_range_db"] = _db20(clip / np.sqrt(flat))
-        found["dynamic_range_a_db"] = _db20(clip / np.sqrt(weighted))
+        found["dynamic_range_db"] = _ratio_db(clip, np.sqrt(flat))
+        found["dynamic_range_a_db"] = _ratio_db(clip, np.sqrt(weighted))
     return found
 
 
@@ -179,6 +187,8 @@ def _stage_shares(
     (``noise_sources.LABEL.noise_vrms``, ``.share``, ``.share_a``;
     ``noise.stage_shares.STAGE.share``, ``.share_a``), and whether ``noise-set-late`` is
     drawn in each trial (module notes)."""
+    if not spectra.origins:  # no generator anywhere: no parts, no stage sets the floor
+        return {}
     shape = (trials, spectra.frequency.size)
     out = np.stack([np.broadcast_to(c, shape) for c in spectra.contribution[:, -1]])
     flat = spectra.integrate(out, unweighted)  # (S, T)
