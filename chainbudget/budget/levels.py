@@ -197,11 +197,23 @@ def volume_clip_rotation(analysis: Analysis, output_index: int) -> VolumeClip | 
         return None
     clip = clip_source_peak(analysis.volume_sweep, output_index)
     assert clip is not None
-    peak = clip[0][..., 0]
-    clipping = peak < SQRT2 * analysis.chain.source.level
-    rotation = float(analysis.volume_rotations[np.argmax(clipping)]) if clipping.any() else None
+    first = int(first_clip_index(clip[0][..., 0], analysis.chain.source.level))
+    rotation = float(analysis.volume_rotations[first]) if first >= 0 else None
     stages = analysis.chain.stages
     return VolumeClip(stages[analysis.volume_index].name, stages[output_index].name, rotation)
+
+
+def first_clip_index(peak: ArrayLike, level_vrms: float) -> NDArray[np.intp]:
+    """Index of the first rotation on the volume grid (the last axis of ``peak``, rotations
+    ascending) at which a sine of ``level_vrms`` clips the output stage, -1 where none does.
+
+    ``peak`` is the source peak at which the output stage reaches its clip level at each
+    rotation (`clip_source_peak` on the volume sweep; any leading axes, e.g. trials): the
+    nominal level clips there when its peak sqrt(2) V_rms exceeds it. Shape ``peak`` without
+    its last axis.
+    """
+    clipping = np.asarray(peak) < SQRT2 * level_vrms
+    return np.where(clipping.any(axis=-1), np.argmax(clipping, axis=-1), -1)
 
 
 @dataclass(frozen=True)

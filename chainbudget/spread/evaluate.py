@@ -81,6 +81,7 @@ from chainbudget.spread.settings import HeldSettings, held_settings, worst_of_ca
 from chainbudget.spread.staging import needs_worst_headroom, staging_flags
 from chainbudget.spread.thd import thd_figures
 from chainbudget.spread.tree import tree_spread
+from chainbudget.spread.volume import volume_flags
 from chainbudget.stages import KINDS as STAGE_KINDS
 from chainbudget.stages.base import Environment
 from chainbudget.supplies import KINDS as SUPPLY_KINDS
@@ -110,6 +111,7 @@ STEPS = frozenset(
         "drive",
         "heat",
         "staging",
+        "volume",
     )
 )
 # Chunks solved at once (threads; memory grows with them).
@@ -281,6 +283,7 @@ class Evaluator:
             ),
             "heat": lambda: heat_figures(chain, envs, hot_envs(), trials),
             "staging": lambda: staging_flags(chain, envs, frequency, as_set(), trials, band),
+            "volume": lambda: volume_flags(chain, envs, frequency[:1], nominal, trials),
         }
         for step, work in step_figures.items():
             if step in wanted:
