@@ -195,3 +195,34 @@ def test_the_spread_counts_both_notes_and_no_longer_lists_them_as_not_spread() -
     assert result.severities["volume-never-clips"] == "note"
     share_never = 1.0 - result.yield_by_code["volume-never-clips"]
     assert share_never == pytest.approx(result.yield_by_code["volume-clip-rotation"], abs=0)
+
+
+def test_a_drawn_series_resistor_ahead_of_a_dc_coupled_volume_is_each_trials_check() -> None:
+    """A volume with a series resistor and no input capacitor (its DC divider is worked
+    out per trial from the drawn series resistor and track, `VolumeKind._dc_divider`):
+    every figure of four trials equals the check of that trial alone, rtol 1e-9 (brute
+    force, as tests/test_spread.py does for every kind)."""
+    import json
+
+    from test_spread import _ideal_opamp_current, _json_figure
+
+    from chainbudget.report.json_view import budget_json
+
+    text = VOLROT.format(resistors="5 %", pots="20 %", pre_tolerance="").replace(
+        "position = 0.3\n", 'position = 0.3\nseries = "2k2"\n'
+    )
+    chain = _chain(text)
+    evaluate = _evaluator(chain)
+    parts = evaluate.parts
+    assert ("volume", "series") in {(p.owner, p.key) for p in parts}
+    positions = np.random.default_rng(5).random((4, len(parts)))
+    batched = evaluate(positions)
+    for t in range(len(positions)):
+        changes = trial_changes(chain, parts, evaluate.values(positions[t : t + 1]))
+        budget = compute(chain.with_values(changes))
+        data = json.loads(json.dumps(budget_json(budget, list(budget.findings))))
+        for path, values in batched.items():
+            if _ideal_opamp_current(path):
+                continue
+            want = _json_figure(data, path, budget)
+            assert values[t] == pytest.approx(want, rel=1e-9, abs=1e-12), (path, t)

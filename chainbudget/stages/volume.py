@@ -118,8 +118,8 @@ class Volume(StageKind):
         shunt = stage.optional("shunt")
         if shunt is not None:
             lower = lower * shunt / (lower + shunt)
-        series = stage.optional("series") or 0.0
-        total = series + upper + lower
+        series = stage.optional("series")  # a drawn value is an array: no truth test
+        total = (0.0 if series is None else series) + upper + lower
         return (upper + lower) / total, lower / total
 
     def dc_output(self, stage: Stage, env: Environment, dc_in: float | None) -> float | None:
