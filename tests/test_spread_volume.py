@@ -226,3 +226,42 @@ def test_a_drawn_series_resistor_ahead_of_a_dc_coupled_volume_is_each_trials_che
                 continue
             want = _json_figure(data, path, budget)
             assert values[t] == pytest.approx(want, rel=1e-9, abs=1e-12), (path, t)
+
+
+@pytest.mark.parametrize("max_output", ["8 V", "1 V"])
+def test_the_grid_in_blocks_gives_the_whole_grids_rotation(
+    monkeypatch: pytest.MonkeyPatch, max_output: str
+) -> None:
+    """The rotation grid solved block by block (here 7 rotations with the 12 trials, 58
+    blocks) gives every trial the rotation the whole grid in one solve gives, exactly:
+    with the block swinging 8 V some trials never clip and every block is solved; at 1 V
+    every trial clips near a rotation of 0.12 and the rest of the grid is not solved."""
+    text = VOLROT.format(resistors="5 %", pots="20 %", pre_tolerance="")
+    chain = _chain(text.replace('max_output = "8 V"', f'max_output = "{max_output}"'))
+    evaluate = _evaluator(chain)
+    positions = np.random.default_rng(7).random((12, len(evaluate.parts)))
+    original, solve = spread_volume.clip_rotations, spread_volume.solve_chain
+    solves: list[int] = []
+    found: list[tuple[Any, Any, int]] = []
+
+    def counted(*args: Any) -> Any:
+        solves.append(1)
+        return solve(*args)
+
+    def both(*args: Any) -> Any:
+        solves.clear()
+        blocks = original(*args[:-1], 7 * len(positions))
+        in_blocks = len(solves)
+        whole = original(*args[:-1], 1 << 40)
+        found.append((blocks, whole, in_blocks))
+        return blocks
+
+    monkeypatch.setattr(spread_volume, "solve_chain", counted)
+    monkeypatch.setattr(spread_volume, "clip_rotations", both)
+    evaluate(positions, flags=True)
+    ((blocks, whole, in_blocks),) = found
+    assert np.array_equal(blocks, whole, equal_nan=True)
+    if max_output == "8 V":
+        assert np.isnan(whole).any() and in_blocks == math.ceil(401 / 7)
+    else:
+        assert np.isfinite(whole).all() and 1 < in_blocks < math.ceil(401 / 7)

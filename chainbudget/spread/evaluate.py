@@ -283,7 +283,9 @@ class Evaluator:
             ),
             "heat": lambda: heat_figures(chain, envs, hot_envs(), trials),
             "staging": lambda: staging_flags(chain, envs, frequency, as_set(), trials, band),
-            "volume": lambda: volume_flags(chain, envs, frequency[:1], nominal, trials),
+            "volume": lambda: volume_flags(
+                chain, envs, frequency[:1], nominal, trials, CHUNK_POINTS
+            ),
         }
         for step, work in step_figures.items():
             if step in wanted:
