@@ -46,6 +46,9 @@ SWEEP_POINTS = 11
 SECTION_BLOCK = 1 << 21
 # Rotations tried for the volume pot when finding where the output starts to clip.
 VOLUME_POINTS = 401
+#: Those rotations, evenly from 0 to 1 (read only: every volume sweep shares it).
+VOLUME_ROTATIONS = np.linspace(0.0, 1.0, VOLUME_POINTS)
+VOLUME_ROTATIONS.flags.writeable = False
 
 
 @dataclass(frozen=True)
@@ -443,7 +446,7 @@ def analyse(
     worst = worst_search(chain, envs, frequency, nominal, solved)
 
     volume_index = master_volume(chain)
-    rotations = np.linspace(0.0, 1.0, VOLUME_POINTS)
+    rotations = VOLUME_ROTATIONS
     volume_sweep = None
     if volume_index is not None:
         fine: list[dict[str, object]] = [dict(p) for p in as_set]

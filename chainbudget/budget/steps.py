@@ -35,7 +35,7 @@ from numpy.typing import NDArray
 
 from chainbudget.budget.analysis import (
     SWEEP_POINTS,
-    VOLUME_POINTS,
+    VOLUME_ROTATIONS,
     Analysis,
     environments,
     frequency_axis,
@@ -272,7 +272,7 @@ def _solve_batch(
     nominal = solve(frequency, 2, lambda _p: None)
 
     volume_index = master_volume(chain)
-    rotations = np.linspace(0.0, 1.0, VOLUME_POINTS)
+    rotations = VOLUME_ROTATIONS
     volume_sweep = None
     volume_stepped = not (stepped.control and k_step == volume_index and key == "position")
     if volume_index is not None:

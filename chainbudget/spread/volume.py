@@ -6,8 +6,8 @@ Notes
 -----
 The check (`chainbudget.budget.levels.volume_clip_rotation`, judged in
 `chainbudget.findings.levels`) solves the chain at the reference frequency with the master
-volume on a grid of `VOLUME_POINTS` rotations evenly from 0 to 1 (the other controls as
-set) and reads the smallest rotation at which the output stage's clip level, carried to
+volume on the grid `VOLUME_ROTATIONS` (401 rotations evenly from 0 to 1; the other controls as
+set), and reads the smallest rotation at which the output stage's clip level, carried to
 the source, falls below the nominal level's peak sqrt(2) V_rms (`first_clip_index`, the
 same function). Here the same grid is one more array axis beside the trials: the volume's
 position is an array of shape (R, 1, 1) against the drawn parts' (T, 1), so each section
@@ -37,16 +37,18 @@ import numpy as np
 from numpy.typing import NDArray
 
 from chainbudget.budget import Budget
-from chainbudget.budget.analysis import VOLUME_POINTS, master_volume, positions_as_set, solve_chain
+from chainbudget.budget.analysis import (
+    VOLUME_ROTATIONS,
+    master_volume,
+    positions_as_set,
+    solve_chain,
+)
 from chainbudget.budget.levels import clip_source_peak, first_clip_index
 from chainbudget.chainfile import Chain
 from chainbudget.spread.flags import as_flag, flag_key
 from chainbudget.stages.base import Environment
 
 Figures = dict[str, NDArray[np.float64]]
-
-#: The check's volume grid (`chainbudget.budget.analysis.analyse`: ``volume_rotations``).
-ROTATIONS = np.linspace(0.0, 1.0, VOLUME_POINTS)
 
 
 def volume_flags(
@@ -68,7 +70,8 @@ def volume_flags(
     if rotations is None:
         assert nominal.volume_clip is None
         return {}
-    stage = nominal.volume_clip.stage if nominal.volume_clip is not None else ""
+    assert nominal.volume_clip is not None  # what `clip_rotations` read the stages from
+    stage = nominal.volume_clip.stage
     clips = np.isfinite(rotations)
     return {
         flag_key("note", "volume-clip-rotation", stage): as_flag(clips, trials),
@@ -84,7 +87,7 @@ def clip_rotations(
     trials: int,
     points: int,
 ) -> NDArray[np.float64] | None:
-    """The smallest rotation of the check's grid (`ROTATIONS`) at which the nominal level
+    """The smallest rotation of the check's grid (`VOLUME_ROTATIONS`) at which the nominal level
     clips the output stage, per trial, (T,); NaN in a trial where even full rotation does
     not (module notes). None where the nominal check has no volume note (no volume
     control, no limited stage, or the output stage ahead of the volume)."""
@@ -101,8 +104,8 @@ def clip_rotations(
     # grid cannot change it.
     block = max(1, points // max(trials, 1))
     first = np.full(trials, -1)
-    for start in range(0, ROTATIONS.size, block):
-        rotations = ROTATIONS[start : start + block]
+    for start in range(0, VOLUME_ROTATIONS.size, block):
+        rotations = VOLUME_ROTATIONS[start : start + block]
         # rotations leading, trials next, frequency last: (R, 1, 1) against the parts' (T, 1)
         positions[volume]["position"] = rotations[:, None, None]
         sweep = solve_chain(chain, envs, reference, positions)
@@ -114,4 +117,4 @@ def clip_rotations(
         first[new] = start + here[new]
         if np.all(first >= 0):
             break
-    return np.where(first >= 0, ROTATIONS[np.maximum(first, 0)], np.nan)
+    return np.where(first >= 0, VOLUME_ROTATIONS[np.maximum(first, 0)], np.nan)
