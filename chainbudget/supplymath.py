@@ -413,13 +413,13 @@ def pulsed_sag(
 def pulsed_sags(
     resistance_ohm: ArrayLike,
     capacitance_f: ArrayLike | None,
-    dc_a: float,
-    pulse_a: float,
+    dc_a: ArrayLike,
+    pulse_a: ArrayLike,
     signal_hz: float | None,
 ) -> NDArray[np.float64]:
     """Largest drop across a source resistance feeding a steady current and half-wave sine
-    pulses, with an optional capacitor across the output, V; the resistance and capacitance
-    may be arrays (the spread's trials), the load is one.
+    pulses, with an optional capacitor across the output, V; the resistance, capacitance
+    and the load's currents may be arrays (the spread's trials), element-wise.
 
     Parameters
     ----------
@@ -427,10 +427,11 @@ def pulsed_sags(
         Source resistance R (a battery's internal resistance, a filter's series resistor).
     capacitance_f : array_like or None
         Capacitor from the output to ground (None: none; a value not above zero: none).
-    dc_a : float
+    dc_a : array_like
         Steady load current, A.
-    pulse_a : float
-        Peak of the half-wave sine pulses, A (what a class-B output draws from one rail).
+    pulse_a : array_like
+        Peak of the half-wave sine pulses, A (what a class-B output draws from one rail);
+        none where not above zero.
     signal_hz : float or None
         Frequency of the pulses, Hz.
 
@@ -450,8 +451,9 @@ def pulsed_sags(
     the first-order step response of circuit theory.
     """
     r = _f(resistance_ohm)
-    if pulse_a <= 0.0 or signal_hz is None:
-        return np.asarray(r * (dc_a + max(pulse_a, 0.0)), dtype=float)
+    dc, pulse = _f(dc_a), _f(pulse_a)
+    if signal_hz is None or not np.any(pulse > 0.0):
+        return np.asarray(r * (dc + np.maximum(pulse, 0.0)), dtype=float)
     peak: NDArray[np.float64] = np.ones_like(r)
     if capacitance_f is not None:
         c = _f(capacitance_f)
@@ -461,7 +463,8 @@ def pulsed_sags(
         # each trial's own peak (one row of the response's grid per time constant)
         found = pulse_response_peak(np.where(c > 0.0, tau, 0.0).reshape(-1)).reshape(tau.shape)
         peak = np.where(c > 0.0, found, 1.0)
-    return np.asarray(r * (dc_a + pulse_a * peak), dtype=float)
+    # a trial whose load draws no pulses drops R I_dc alone (its own load's, element-wise)
+    return np.asarray(r * (dc + np.where(pulse > 0.0, pulse * peak, 0.0)), dtype=float)
 
 
 def first_order_lowpass(hz: float, resistance_ohm: float, capacitance_f: float | None) -> complex:

@@ -26,14 +26,12 @@ from chainbudget.spread.flags import flag_key, is_flag
 
 ROOT = Path(__file__).resolve().parents[1]
 
-# The kitchen radio with its reservoir held exact, so that the rails' ripple is the
-# nominal check's and the hum of a trial can be set against the check's hum budget on that
-# ripple: the stages' transfers alone (the ripple per trial is tested below, on a chain
-# whose reservoir alone is drawn).
+# The kitchen radio with its reservoir and its regulator's parts held exact, so that the
+# rails' ripple moves only with the stages' loads (the power tree settled per trial): the
+# hum of a trial then tests the stages' transfers and those loads, without the reservoir's
+# interpolation over C (the ripple per trial with a drawn reservoir is tested below, on a
+# chain whose reservoir alone is drawn).
 KITCHEN = (ROOT / "chains" / "kitchen_radio_mains.toml").read_text()
-# The regulator's parts held too: a drawn output moves its bleeder's and the stages'
-# currents, and with them the raw rail's load and ripple, which the spread (settling the
-# power tree once, for the nominal parts) holds.
 KITCHEN_HELD_RIPPLE = KITCHEN.replace(
     'reservoir = "2200 uF"', 'reservoir = "2200 uF"\ntolerance = { reservoir = "0 %" }', 1
 ).replace(
@@ -63,7 +61,9 @@ def test_hum_noise_and_loops_of_each_trial_equal_the_check_of_that_trial() -> No
     input-referred hum, hum over noise, hum at 1 m), the noise at every node, the
     input-referred noise and EIN, the noise figure, dynamic range, each stage's share of
     the output noise and the op-amp loops' gain, unity-gain frequency and phase margin:
-    rtol 1e-9 (noise and hum compared in dB, 1e-8 dB)."""
+    rtol 1e-9 (noise compared in dB, 1e-8 dB); the hum within 1e-5 dB (measured 1e-6:
+    each trial's stages draw their own currents from the raw rail, whose ripple the
+    spread takes under that load, the rectifier's figures to second order in it)."""
     from chainbudget.budget import compute
     from chainbudget.report.json_view import budget_json
 
@@ -91,16 +91,12 @@ def test_hum_noise_and_loops_of_each_trial_equal_the_check_of_that_trial() -> No
         edited = chain.with_values(trial_changes(chain, parts, values))
         budget = compute(edited)
         data = json.loads(json.dumps(budget_json(budget, list(budget.findings))))
-        held_ripple = _hum_on_nominal_ripple(edited, evaluate.nominal, budget)
         for path in wanted:
             held = _json_figure(data, path)
             if _is_hum(path):
-                # the check of the trial, its hum summed from the nominal check's ripple
-                exact = held_ripple[path]
-                got, want = _db(path, batched[path][t]), _db(path, exact)
-                assert got == pytest.approx(want, rel=0, abs=1e-8), (path, t)
                 # the whole check of the trial: its rails' ripple moves with the loads
-                assert batched[path][t] == pytest.approx(held, rel=1e-3), (path, t)
+                got, want = _db(path, batched[path][t]), _db(path, held)
+                assert got == pytest.approx(want, rel=0, abs=1e-5), (path, t)
             elif _in_db(path):
                 got, want = 20 * math.log10(batched[path][t]), 20 * math.log10(held)
                 assert got == pytest.approx(want, rel=0, abs=1e-8), (path, t)
@@ -117,41 +113,9 @@ def _db(path: str, value: float) -> float:
     return float(value) if path.endswith("_db") else 20 * math.log10(value)
 
 
-def _hum_on_nominal_ripple(chain: Chain, nominal, budget) -> dict[str, float]:  # noqa: ANN001
-    """The check's hum budget of one trial (`chainbudget.budget.hum.hum_budget`, the chain
-    solved alone at its scalar parts) on the nominal check's rail ripple, keyed as the
-    spread keys it."""
-    from chainbudget.budget.hum import hum_budget
-    from chainbudget.budget.supplies import loaded_analysis
-
-    noise = budget.noise.output.noise_a_vrms
-    hum, _ = hum_budget(loaded_analysis(chain, corner="low"), nominal.supplies, noise)
-    found = {
-        "hum.output_vrms": hum.output_vrms,
-        "hum.output_a_vrms": hum.output_a_vrms,
-        "hum.input_vrms": hum.input_vrms,
-        "hum.input_a_vrms": hum.input_a_vrms,
-        "hum.hum_to_noise_db": hum.hum_to_noise_db,
-        "hum.spl_db": hum.spl_db,
-        "hum.spl_a_db": hum.spl_a_db,
-    }
-    for stage, vrms in zip(chain.stages, hum.node_vrms, strict=True):
-        found[f"nodes.{stage.name}.hum_vrms"] = vrms
-    for rail in hum.by_rail:
-        found[f"hum.by_rail.{rail.supply}.vrms"] = rail.vrms
-        found[f"hum.by_rail.{rail.supply}.a_vrms"] = rail.a_vrms
-    for one in hum.paths:
-        found[f"hum.by_path.{one.stage}.{one.path}.vrms"] = one.vrms
-        found[f"hum.by_path.{one.stage}.{one.path}.a_vrms"] = one.a_vrms
-    for harmonic in hum.harmonics:
-        found[f"hum.harmonics.{_hz_key(harmonic.hz)}.vrms"] = harmonic.vrms
-        found[f"hum.harmonics.{_hz_key(harmonic.hz)}.a_vrms"] = harmonic.a_vrms
-    return found
-
-
-# One non-inverting stage on a raw rectified rail (its reservoir held: the ripple the
-# spread holds), the op-amp ideal but for its supply rejection, single supply with an
-# ideal bias point: the hum enters at the V+ pin alone.
+# One non-inverting stage on a raw rectified rail (its reservoir held, so that the ripple
+# moves only with the stage's load), the op-amp ideal but for its supply rejection, single
+# supply with an ideal bias point: the hum enters at the V+ pin alone.
 PSRR_STAGE = """
 [chain]
 title = "hum through the noise gain"
@@ -209,10 +173,15 @@ def test_hum_of_each_trial_is_the_rail_ripple_over_the_psrr_times_the_noise_gain
     figures = evaluate(positions)
     values = dict(zip([p.key for p in parts], evaluate.values(positions), strict=True))
     noise_gain = 1.0 + values["feedback"] / values["ground_leg"]
+    # each trial's own ripple: the stage's current at clip, and so the rail's load, moves
+    # with its drawn feedback network (the power tree settled per trial)
     ripple = evaluate.nominal.supply("raw").ripple_harmonics
     assert len(ripple) >= 3
     f = np.array([hz for hz, _ in ripple])
-    v = np.abs(np.array([vpk for _, vpk in ripple]))
+    v = np.array(
+        [figures[f"supplies.raw.ripple_harmonics.{_hz_key(hz)}.vpk"] for hz, _ in ripple]
+    ).T
+    assert np.ptp(v[:, 0]) > 0.0
     per_volt = v * np.abs(1.0 + 1j * f / 200.0) / 10.0 ** (60.0 / 20.0)
 
     def a_weight(hz: np.ndarray) -> np.ndarray:  # IEC 61672-1 Annex E, 0 dB at 1 kHz
@@ -224,8 +193,8 @@ def test_hum_of_each_trial_is_the_rail_ripple_over_the_psrr_times_the_noise_gain
         )
         return r * 10 ** (2.0 / 20.0)
 
-    flat = np.sqrt(np.sum(per_volt**2) / 2.0) * noise_gain
-    weighted = np.sqrt(np.sum((per_volt * a_weight(f)) ** 2) / 2.0) * noise_gain
+    flat = np.sqrt(np.sum(per_volt**2, axis=1) / 2.0) * noise_gain
+    weighted = np.sqrt(np.sum((per_volt * a_weight(f)) ** 2, axis=1) / 2.0) * noise_gain
     assert np.ptp(noise_gain) > 0.05
     assert figures["hum.output_vrms"] == pytest.approx(flat, rel=1e-6)
     assert figures["nodes.pre.hum_vrms"] == pytest.approx(flat, rel=1e-6)

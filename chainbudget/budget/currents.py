@@ -15,12 +15,20 @@ stage into Z_L that is V_pk/(pi |Z_L|) from each rail, 2 V_pk/(pi |Z_L|) from th
 together; a single-supply stage with an output capacitor draws V_pk/(pi |Z_L|) from its
 one supply (the capacitor feeds the other half-cycle). A class-A follower's signal current
 averages to zero over a cycle: it draws its bias current at every level short of clipping.
+
+Over the spread's trials (chainbudget/spread: a chain whose drawn stage values are (T, 1)
+arrays, solved with a leading trial axis) every current is a (T,) array, one per trial, by
+the same arithmetic element-wise (the smaller clip peak reaching a stage by
+``numpy.minimum``); a drawn part that moves a stage's quiescent current (a follower's bias
+resistor, a push-pull stage's quiescent current) moves its idle current per trial. A
+cascade without a trial axis gives floats, as the check has them.
 """
 
 from __future__ import annotations
 
 from collections.abc import Sequence
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
@@ -45,6 +53,7 @@ class StageCurrents:
     stage: str
     positive: str | None
     negative: str | None
+    # each current a float, or a (T,) array over the spread's trials (module notes)
     idle_a: float
     nominal_a: float
     clip_a: float
@@ -61,6 +70,26 @@ def stage_currents(analysis: Analysis) -> list[StageCurrents]:
     )
 
 
+def _trial_shape(cascade: Cascade) -> tuple[int, ...]:
+    """The cascade's batch shape (its arrays' shape less the frequency axis): () for the
+    check's, (T,) over the spread's trials."""
+    return np.broadcast_shapes(
+        np.shape(cascade.input_admittance)[:-1], *(np.shape(v)[:-1] for v in cascade.v_out)
+    )
+
+
+def _per_trial(value: Any, trials: tuple[int, ...]) -> Any:
+    """A current as a float (no trial axis), or as a (T,) array: a quiescent current worked
+    out from (T, 1) stage values loses its length-1 frequency axis."""
+    array = np.asarray(value, dtype=float)
+    if not trials:
+        # a cascade no trial moves, on rails that do (a follower's bias from its rail)
+        return float(array.reshape(-1)[0]) if array.size == 1 else array.reshape(-1)
+    if array.ndim > len(trials):
+        array = array[..., 0]
+    return np.broadcast_to(array, trials).astype(float)
+
+
 def currents_at(
     chain: Chain,
     cascade: Cascade,
@@ -69,27 +98,26 @@ def currents_at(
     signal_hz: float,
 ) -> list[StageCurrents]:
     """`stage_currents` from a cascade solved with the controls as set, read at one column
-    of its frequency axis (the tone ``signal_hz``)."""
+    of its frequency axis (the tone ``signal_hz``): floats, or (T,) arrays where the
+    cascade has a leading trial axis (module notes)."""
+    trials = _trial_shape(cascade)
     found = []
     # A stage that clips limits the signal every later stage sees: the nominal source peak
     # that reaches stage k is capped by the clip levels of stage k and those before it.
-    reaching = SQRT2 * chain.source.level
+    reaching: Any = SQRT2 * chain.source.level
     for k, (sol, env) in enumerate(zip(cascade.stages, envs, strict=True)):
         stage = sol.stage
-        idle = KINDS[stage.kind].supply_current(stage, env)
+        idle = _per_trial(KINDS[stage.kind].supply_current(stage, env), trials)
         clip = clip_source_peak(cascade, k)
-        clip_peak = None if clip is None else float(clip[0][..., column])
+        clip_peak = None if clip is None else _per_trial(clip[0][..., column], trials)
         if clip_peak is not None:
-            reaching = min(reaching, clip_peak)
-        per_volt = sum(
-            (
-                float(np.abs(cascade.probe(k, probe)[..., column]))
-                for probe in sol.built.pulse_probes
-            ),
-            0.0,
-        )
+            reaching = _per_trial(np.minimum(reaching, clip_peak), trials)
+        per_volt: Any = 0.0
+        for probe in sol.built.pulse_probes:
+            per_volt = per_volt + _per_trial(np.abs(cascade.probe(k, probe)[..., column]), trials)
+        per_volt = _per_trial(per_volt, trials)
         pulse_nominal = per_volt * reaching
-        pulse_clip = 0.0 if clip_peak is None else per_volt * clip_peak
+        pulse_clip = _per_trial(0.0 if clip_peak is None else per_volt * clip_peak, trials)
         found.append(
             StageCurrents(
                 stage=stage.name,

@@ -8,6 +8,11 @@ cycles. A supply defines one rail, by its name, or more (a centre-tapped supply'
 ``<name>`` and ``<name>.neg``); stages and child supplies name rails. Loads flow up (a
 regulator draws its load, divider, bleeder and own current from its parent's rail);
 voltages flow down (a regulator's input is its parent rail's output).
+
+The loads summed up the tree (`external_loads`, `drawn_from_parent`) are floats in the
+check, or `SupplyLoad`s of (T,) currents over the spread's trials (one load per trial):
+every step is element-wise arithmetic, each kind's ``input_load`` and standing current
+(taken at the parent's unloaded state, a float) added to each trial's own load.
 """
 
 from __future__ import annotations

@@ -8,6 +8,9 @@ idle, at the nominal level and at its own clip level, as a waveform: a steady pa
 half-wave sine pulses a class-B output draws at the signal frequency. A supply's heaviest
 load has every stage at its own clip level at once, an upper bound. A supply kind adds what
 it takes itself (a regulator its divider, bleeder and own current) through ``input_load``.
+The loads are floats in the check; `stage_loads_of` and the tree's sums above it
+(`chainbudget.budget.rails.external_loads`) take the (T,) currents of a chain solved over
+the spread's trials as well, element-wise, one load per trial.
 
 The rails and the loads depend on each other: a stage swings further on a higher rail and
 draws more current, which sags the rail. `settle` finds the operating point where the rail
@@ -62,6 +65,8 @@ from chainbudget.supplies.base import (
     SupplyContext,
     SupplyLoad,
     SupplyState,
+    chosen,
+    larger,
 )
 
 #: The rails are settled when each moves less than this between the voltage a stage is
@@ -74,16 +79,19 @@ _FAST_CONTRACTION = 0.5
 
 
 def stage_loads_of(currents: list[StageCurrents]) -> dict[str, SupplyLoad]:
-    """Current the stages draw directly from each rail (both rails of split-rail stages)."""
+    """Current the stages draw directly from each rail (both rails of split-rail stages):
+    floats, or (T,) arrays where the currents are per trial (element-wise: a stage's
+    heaviest load is the largest of its three per trial, with its pulses where that is the
+    clip's)."""
     loads: dict[str, SupplyLoad] = {}
     for sc in currents:
-        heaviest = max(sc.idle_a, sc.nominal_a, sc.clip_a)
-        pulse = max(sc.clip_pulse_a, 0.0) if heaviest == sc.clip_a else 0.0
+        heaviest = larger(larger(sc.idle_a, sc.nominal_a), sc.clip_a)
+        pulse = chosen(heaviest == sc.clip_a, larger(sc.clip_pulse_a, 0.0), 0.0)
         load = SupplyLoad(
             sc.idle_a,
-            max(sc.nominal_a, sc.idle_a),
+            larger(sc.nominal_a, sc.idle_a),
             heaviest,
-            max(sc.nominal_pulse_a, 0.0) if sc.nominal_a >= sc.idle_a else 0.0,
+            chosen(sc.nominal_a >= sc.idle_a, larger(sc.nominal_pulse_a, 0.0), 0.0),
             pulse,
             sc.signal_hz,
         )
@@ -118,7 +126,7 @@ class SettledTree:
     settled: bool
 
 
-def _moving_rails(chain: Chain) -> list[str]:
+def moving_rails(chain: Chain) -> list[str]:
     """The rails whose voltage a stage's analysis depends on."""
     names: dict[str, None] = {}
     for stage in chain.stages:
@@ -176,7 +184,7 @@ def settle(
     tone = chain.settings.reference if tone_hz is None else tone_hz
     tree = _Tree(chain, corner, tone)
     unloaded = supply_states(chain)
-    rails = _moving_rails(chain)
+    rails = moving_rails(chain)
     ceiling = {r: float(getattr(unloaded[r].corners, corner)) for r in rails}
     x = dict(ceiling)
     if start is not None:
@@ -340,7 +348,7 @@ def rails_sag(
 ) -> bool:
     """Whether any rail a stage's swing depends on has a lower trough ``loaded`` than
     ``unloaded`` (`low_edge_clip_vpk` settles the tree again for its tone only then)."""
-    return any(loaded[r].trough_v != unloaded[r].trough_v for r in _moving_rails(chain))
+    return any(loaded[r].trough_v != unloaded[r].trough_v for r in moving_rails(chain))
 
 
 def low_edge_tree(chain: Chain, start: Mapping[str, Corners]) -> SettledTree:

@@ -7,11 +7,10 @@ Two figures of the check solve the chain again on rails other than its settled o
 one frequency with the volume fully up (`chainbudget.budget.supplies.clip_at_load`):
 
 - ``output.clip_power_low_w`` (`low_edge_figures`): a tone at the band's low edge with
-  the power tree settled for it (`low_edge_clip_vpk`). The spread does not settle the tree
-  per trial: it holds the loads of the nominal check's low-tone tree
-  (`chainbudget.budget.supplies.low_edge_tree`), works each trial's supply states under
-  them with its drawn parts (`chainbudget.spread.tree.tree_spread`) and solves the chain
-  on those rails at the low edge. Where no rail a stage's swing depends on sags under the
+  the power tree settled for it (`low_edge_clip_vpk`). The spread settles that tree again
+  per trial (`chainbudget.spread.settle`, from the nominal check's low-tone tree,
+  `chainbudget.budget.supplies.low_edge_tree`) and solves the chain on its rails at the
+  low edge. Where no rail a stage's swing depends on sags under the
   nominal load, the check does not settle again either: its rails are those at the
   reference, the trial's own (the main tree of the batch).
 - ``supplies.NAME.sag_cost_db`` (`sag_cost_figures`): for each supply that can say what
@@ -40,7 +39,6 @@ from numpy.typing import NDArray
 from chainbudget.budget import Budget
 from chainbudget.budget.analysis import solve_chain
 from chainbudget.budget.power import load_at_reference
-from chainbudget.budget.rails import rail_owners
 from chainbudget.budget.supplies import (
     SettledTree,
     clip_peak_at_load,
@@ -49,10 +47,11 @@ from chainbudget.budget.supplies import (
 from chainbudget.chainfile import Chain
 from chainbudget.outputmath import sine_power
 from chainbudget.spread.parts import Part
+from chainbudget.spread.settle import with_loads
 from chainbudget.spread.tree import tree_spread
 from chainbudget.stages.base import Environment
 from chainbudget.supplies import KINDS as SUPPLY_KINDS
-from chainbudget.supplies.base import NO_LOAD, Corners, SupplyState
+from chainbudget.supplies.base import Corners, SupplyState
 from chainbudget.thresholds import BATTERY_SAG_COST_DB
 
 Figures = dict[str, NDArray[np.float64]]
@@ -76,21 +75,11 @@ def clip_at_tone(
 
 
 def held_budget(nominal: Budget, chain: Chain, settled: SettledTree) -> Budget:
-    """The nominal check with each supply's load and state those of ``settled`` (what
-    `tree_spread` reads as the operating point it holds): the load out of its pin as its
-    kind delivers it (`SupplyKind.delivered`), as `supply_budgets` writes it."""
-    owners = rail_owners(chain)
-    supplies = tuple(
-        replace(
-            budget,
-            load=SUPPLY_KINDS[budget.kind].delivered(
-                owners[budget.name], settled.loads.get(budget.name, NO_LOAD)
-            ),
-            state=settled.states[budget.name],
-        )
-        for budget in nominal.supplies
-    )
-    return replace(nominal, supplies=supplies)
+    """The nominal check with each supply's load and state those of ``settled`` (where
+    `chainbudget.spread.settle` starts and what it expands the rectifier about): the load
+    out of its pin as its kind delivers it (`chainbudget.spread.settle.with_loads`)."""
+    states = tuple(replace(b, state=settled.states[b.name]) for b in nominal.supplies)
+    return with_loads(replace(nominal, supplies=states), chain, settled.loads)
 
 
 def low_edge_figures(
@@ -105,21 +94,6 @@ def low_edge_figures(
     if peak is None:
         return {}
     return {"output.clip_power_low_w": sine_power(peak, load_at_reference(chain))}
-
-
-def low_edge_rails(
-    chain: Chain,
-    parts: tuple[Part, ...],
-    values: list[NDArray[np.float64]],
-    held: Budget,
-    settled: SettledTree,
-    unloaded: Mapping[str, SupplyState],
-    trials: int,
-) -> dict[str, Corners]:
-    """Each rail per trial under the nominal check's low-tone loads (``held``,
-    `held_budget`) with the drawn parts: the settled tree's rails, a spread supply's
-    low-line output its trial's own."""
-    return tree_spread(chain, parts, values, held, settled.voltages, unloaded, trials).voltages
 
 
 def stiff_supplies(chain: Chain, nominal: Budget) -> dict[str, int]:

@@ -58,7 +58,6 @@ from chainbudget.source_network import source_impedance
 from chainbudget.spread.clip_tone import (
     held_budget,
     low_edge_figures,
-    low_edge_rails,
     sag_cost_figures,
     sag_cost_thresholds,
 )
@@ -78,9 +77,9 @@ from chainbudget.spread.loops import closed_loop_figures, loop_figures, loop_thr
 from chainbudget.spread.noise import output_noise
 from chainbudget.spread.parts import Part, with_beta
 from chainbudget.spread.settings import HeldSettings, held_settings, worst_of_candidates
+from chainbudget.spread.settle import settle_trials
 from chainbudget.spread.staging import needs_worst_headroom, staging_flags
 from chainbudget.spread.thd import thd_figures
-from chainbudget.spread.tree import tree_spread
 from chainbudget.spread.volume import volume_flags
 from chainbudget.stages import KINDS as STAGE_KINDS
 from chainbudget.stages.base import Environment
@@ -201,13 +200,6 @@ class Evaluator:
         ``{"supplies"}``: the supplies' figures alone."""
         trials = positions.shape[0]
         values = self.values(positions)
-        tree = tree_spread(
-            self.chain, self.parts, values, self.nominal, self.voltages, self.unloaded, trials
-        )
-        figures: Figures = dict(tree.figures)
-        voltages, ripples = tree.voltages, tree.ripples
-        if steps is not None and steps <= {"supplies"}:
-            return figures
         chain = self.chain
         betas: dict[int, list[tuple[str, NDArray[np.float64]]]] = {}
         for part, value in zip(self.parts, values, strict=True):
@@ -219,6 +211,23 @@ class Evaluator:
                 betas.setdefault(part.index, []).append((name, column))
             else:
                 chain = with_value(chain, part.index, part.key, column)
+        # the tree settled again for each trial at the reference (`chainbudget.spread.settle`)
+        tree = settle_trials(
+            chain,
+            self.chain,
+            partial(_envs_on, chain, betas),
+            self.parts,
+            values,
+            self.nominal,
+            self.voltages,
+            self.unloaded,
+            self.chain.settings.reference,
+            trials,
+        ).tree
+        figures: Figures = dict(tree.figures)
+        voltages, ripples = tree.voltages, tree.ripples
+        if steps is not None and steps <= {"supplies"}:
+            return figures
         # each trial's own DC walk: a DC-coupled stage is built at its trial's DC
         points, walked_envs = _trial_envs(chain, betas, voltages)
         envs = list(walked_envs)
@@ -326,15 +335,26 @@ class Evaluator:
         own_rails: Mapping[str, Corners],
         trials: int,
     ) -> Figures:
-        """``output.clip_power_low_w`` per trial: on the low-tone tree's rails under its
-        held loads, or on the batch's own where the check settles none."""
+        """``output.clip_power_low_w`` per trial: on the low-tone tree settled again for
+        each trial from the nominal check's, or on the batch's own rails where the check
+        settles none."""
         rails = own_rails
+        envs_on = partial(_envs_on, chain, betas)
         if self.low_edge_tree is not None:
             held, settled = self.low_edge_tree
-            rails = low_edge_rails(
-                self.chain, self.parts, values, held, settled, self.unloaded, trials
-            )
-        return low_edge_figures(chain, partial(_envs_on, chain, betas), rails, trials)
+            rails = settle_trials(
+                chain,
+                self.chain,
+                envs_on,
+                self.parts,
+                values,
+                held,
+                settled.voltages,
+                self.unloaded,
+                self.chain.settings.band[0],
+                trials,
+            ).tree.voltages
+        return low_edge_figures(chain, envs_on, rails, trials)
 
     @cached_property
     def unloaded(self) -> dict[str, SupplyState]:

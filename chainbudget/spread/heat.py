@@ -4,8 +4,8 @@ temperature, with the drawn emitter resistors as arrays.
 Notes
 -----
 `chainbudget.stages.push_pull.heat.push_pull_dissipation` on arrays over the trial axis,
-at the high-line rails (the nominal check's: the power tree is not settled again per
-trial). Per device P = V_cc V_pk/(pi |Z|) - V_pk^2 cos(phi)/(4 |Z|) + V_cc I_q
+at the high-line rails (the nominal check's: no load at high line, which no drawn part
+moves). Per device P = V_cc V_pk/(pi |Z|) - V_pk^2 cos(phi)/(4 |Z|) + V_cc I_q
 (`outputmath.class_b_device_dissipation`), worst at V_pk = min(2 V_cc/(pi cos phi),
 V_clip) with V_clip = (V_cc - V_drop) |Z|/|Z + R_E| (`outputmath.push_pull_clip_vpk`),
 so R_E moves it where the clip sets the worst level; a reactive load is taken at the

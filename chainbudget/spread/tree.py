@@ -23,7 +23,8 @@ spreads them, else the nominal check's. What it passes on:
   its parent unloaded (a root's does not move: no load, no ripple, no drop);
 - to the hum, its ripple per trial.
 
-The loads are the nominal operating point's: the tree is not settled again per trial.
+The loads are the budget's given: the nominal check's, or one per trial (with ``about``)
+while `chainbudget.spread.settle` settles the tree again for each trial.
 """
 
 from __future__ import annotations
@@ -145,10 +146,16 @@ def tree_spread(
     voltages: Mapping[str, Corners],
     unloaded: Mapping[str, SupplyState],
     trials: int,
+    *,
+    about: Budget | None = None,
 ) -> TreeSpread:
     """Every supply spread for one batch of trials (module notes): ``values`` each part's
     drawn values, ``voltages`` the nominal check's settled rails, ``unloaded`` the nominal
-    tree with no load (`chainbudget.budget.rails.supply_states`)."""
+    tree with no load (`chainbudget.budget.rails.supply_states`). With ``about`` (the
+    nominal check's budget), ``nominal``'s supply loads are per trial
+    (`chainbudget.spread.settle`), every supply is spread under its own, and a kind that
+    expands its figures in the load expands them about ``about``'s."""
+    loads_move = about is not None
     figures: Figures = {}
     rails = dict(voltages)
     walk = _Walk(nominal, unloaded, {}, {}, {}, set())
@@ -162,7 +169,7 @@ def tree_spread(
         }
         kind = SUPPLY_KINDS[supply.kind]
         # a supply with nothing of its own drawn still follows a spread parent
-        if not kind.spread_fields(supply) and supply.parent not in spread_names:
+        if not loads_move and not kind.spread_fields(supply) and supply.parent not in spread_names:
             continue
         bounds = {p.key: (p.low, p.high) for p in parts if p.table == "supply" and p.index == j}
         spreads = kind.rail_spreads(
@@ -173,12 +180,15 @@ def tree_spread(
             bounds,
             walk.parent_ripple(supply.parent),
             ambient_degc=nominal.ambient_degc,
+            about=None
+            if about is None
+            else {rail: about.supply(rail).load for rail in kind.rails(supply)},
         )
         # each rail under its own name (a split supply's ``.neg`` too), as the check JSON
         # names it and as the stages and supplies below it name their parent
         for name, spread in (spreads or {}).items():
             spread_names.add(name)
-            if drawn or supply.parent in walk.moved:
+            if drawn or loads_move or supply.parent in walk.moved:
                 walk.moved.add(name)
             for key, array in spread.figures.items():
                 figures[f"supplies.{name}.{key}"] = _trials(array, trials)

@@ -14,7 +14,7 @@ import math
 from abc import ABC, abstractmethod
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field, fields
-from typing import Any, ClassVar
+from typing import Any, ClassVar, cast
 
 import numpy as np
 from numpy.typing import NDArray
@@ -47,6 +47,20 @@ class Corners:
     high: float
 
 
+def larger(a: Any, b: Any) -> Any:
+    """The larger of ``a`` and ``b`` element-wise: a float for floats (as ``max`` gives
+    it), a (T,) array where either holds one value per trial (chainbudget/spread)."""
+    found = np.maximum(a, b)
+    return float(found) if np.ndim(found) == 0 else found
+
+
+def chosen(condition: Any, a: Any, b: Any) -> Any:
+    """``a`` where ``condition`` holds, else ``b``, element-wise: a float for floats (as
+    ``a if condition else b`` gives it), a (T,) array over a trial axis."""
+    found = np.where(condition, a, b)
+    return float(found) if np.ndim(found) == 0 else found
+
+
 @dataclass(frozen=True)
 class SupplyLoad:
     """Current drawn from a supply's output at idle, nominal level and heaviest, A, with the
@@ -59,6 +73,10 @@ class SupplyLoad:
     ``nominal_pulse_a`` and ``heaviest_pulse_a`` are the pulses' peaks, at ``signal_hz``,
     included in the means at their average, peak/pi. Pulses from different stages on one
     rail are taken in phase (their peaks add: the upper bound).
+
+    Each current is a float in the check, or a (T,) array holding one value per trial where
+    the tree is settled over the spread's trials (chainbudget/spread): the arithmetic here
+    is element-wise (`larger` where a float would take ``max``), ``signal_hz`` one float.
     """
 
     idle_a: float = 0.0
@@ -96,12 +114,28 @@ class SupplyLoad:
     @property
     def nominal_dc_a(self) -> float:
         """The steady part of the nominal load (the mean less the pulses' average), A."""
-        return max(self.nominal_a - self.nominal_pulse_a / math.pi, 0.0)
+        return cast(float, larger(self.nominal_a - self.nominal_pulse_a / math.pi, 0.0))
 
     @property
     def heaviest_dc_a(self) -> float:
         """The steady part of the heaviest load, A."""
-        return max(self.heaviest_a - self.heaviest_pulse_a / math.pi, 0.0)
+        return cast(float, larger(self.heaviest_a - self.heaviest_pulse_a / math.pi, 0.0))
+
+    @property
+    def trials(self) -> tuple[int, ...]:
+        """The shape of its trial axis: () for floats, (T,) for one load per trial."""
+        return np.broadcast_shapes(
+            *(
+                np.shape(value)
+                for value in (
+                    self.idle_a,
+                    self.nominal_a,
+                    self.heaviest_a,
+                    self.nominal_pulse_a,
+                    self.heaviest_pulse_a,
+                )
+            )
+        )
 
     @property
     def heaviest_peak_a(self) -> float:
@@ -492,7 +526,9 @@ class SupplyKind(ABC):
         ambient_degc: float | None = None,
     ) -> SupplySpread | None:
         """The kind's figures with ``drawn`` (field -> (T,) values) in place of the file's,
-        about the nominal operating point ``nominal``; ``parent_low_v`` is the parent's
+        about the nominal operating point ``nominal`` (whose ``load`` may hold one load per
+        trial, its currents (T,) arrays: the tree settled for each trial; a kind that
+        reads its load gives each trial its own, element-wise); ``parent_low_v`` is the parent's
         low-line trough, per trial where the parent spreads it, else its nominal one;
         ``bounds`` each drawn field's (low, high); ``parent_ripple`` the parent's ripple,
         mean and output at high line (per trial where the parent spreads them, else its
@@ -514,11 +550,15 @@ class SupplyKind(ABC):
         parent_ripple: RippleSpread | None = None,
         *,
         ambient_degc: float | None = None,
+        about: Mapping[str, SupplyLoad] | None = None,
     ) -> dict[str, SupplySpread] | None:
         """`spread` for each of the supply's rails, by rail name (`rails`), given each
         rail's nominal budget ``nominals``; by default the one rail's `spread`. A kind
         defining more than one rail (a centre-tapped rectifier's ``.neg``) overrides this,
-        as it does `rail_states`. None: the kind spreads nothing."""
+        as it does `rail_states`. None: the kind spreads nothing. ``about``: where the
+        budgets hold a load per trial, each rail's load as the nominal check has it (a kind
+        that expands its figures in the load, the rectifier, expands them about it; the
+        others take each trial's load exactly and ignore it)."""
         found = self.spread(
             supply,
             drawn,

@@ -203,7 +203,8 @@ class DcSupply(SupplyKind):
         ambient_degc: float | None = None,
     ) -> SupplySpread:
         """Its figures per trial with its internal resistance and its reservoir drawn (each
-        the nominal value where not drawn), under the nominal check's load
+        the nominal value where not drawn), under ``nominal``'s load: the nominal check's,
+        or one per trial where its currents are (T,) arrays
         (`chainbudget.supplies.dc_spread.dc_spread`). A root: no parent's trough or ripple
         to take."""
         # imported here: that module imports this one's formulas

@@ -30,8 +30,9 @@ check's values. ``sag_cost_db`` and the ``battery-resistance`` warning need the 
 solved again on a stiff supply per trial: the evaluation does that
 (`chainbudget.spread.clip_tone`), taking this spread with R zero as the stiff battery
 (whose drawn reservoir then holds nothing up).
-The load is the nominal operating point's (the spread does not settle the tree again for
-each trial).
+The load is the nominal operating point's, or one per trial: a ``load`` whose currents
+are (T,) arrays (the tree settled for each trial) gives each trial the figures its own
+load gives, the same arithmetic element-wise.
 """
 
 from __future__ import annotations
@@ -52,14 +53,18 @@ def dc_spread(
 ) -> SupplySpread:
     """A battery's figures per trial (module notes) with internal resistance
     ``resistance_ohm`` and reservoir ``reservoir_f`` (each (T,) or one value; None: no
-    reservoir) under the nominal ``load``: its trough (what the rails and stages below
-    take), its mean (passed on with no ripple) and the flag of ``supply-collapse``."""
+    reservoir) under ``load`` (the nominal one, or one per trial: its currents (T,)): its
+    trough (what the rails and stages below take), its mean (passed on with no ripple)
+    and the flag of ``supply-collapse``."""
     ends = battery_ends(supply)
     r = np.asarray(resistance_ohm, dtype=float)
     c = None if reservoir_f is None else np.asarray(reservoir_f, dtype=float)
-    if c is not None:
-        # one trial axis for both, whichever of them is drawn
-        r, c = np.broadcast_arrays(r, c)
+    # one trial axis for the parts and the load, whichever of them holds it
+    shape = np.broadcast_shapes(r.shape, () if c is None else c.shape, load.trials)
+    if r.shape != shape:
+        r = np.broadcast_to(r, shape).copy()
+    if c is not None and c.shape != shape:
+        c = np.broadcast_to(c, shape).copy()
     drop = crest_drop_v(r, c, load)
     trough = trough_v(ends.low_v, drop)
     mean = terminal_v(ends.nominal_v, r, load.nominal_a)

@@ -145,7 +145,8 @@ class Divider(SupplyKind):
         ambient_degc: float | None = None,
     ) -> SupplySpread | None:
         """Its figures per trial with its resistors and capacitor drawn, from its parent's
-        trough, ripple and mean as `state` takes the nominal ones
+        trough, ripple and mean as `state` takes the nominal ones, under ``nominal``'s load
+        (the check's, or one per trial: (T,) currents)
         (`chainbudget.supplies.filter_spread.divider_spread`). Its trough is the bias point
         a stage naming it takes (the check takes a stage's bias point from its supply's
         output at the corner it analyses, the trough at low line), so the stages it biases

@@ -27,8 +27,10 @@ trial, as `RcFilter.state` and `Divider.state` work out the nominal parts:
   resistor's drop and dissipation, the divider's ratio, source resistance and standing
   current V_parent,mean/(upper + lower)).
 
-The load is the nominal operating point's (the spread does not settle the tree again for
-each trial); everything is element-wise arithmetic on (T,) arrays.
+The load is the nominal operating point's, or one per trial: a ``load`` whose currents
+are (T,) arrays (the tree settled for each trial) gives each trial the figures its own
+load gives (the drops R I, the means and the crest's drop of that trial's currents);
+everything is element-wise arithmetic on (T,) arrays.
 """
 
 from __future__ import annotations
@@ -116,6 +118,17 @@ def filtered(
     )
 
 
+def on_trials(load: SupplyLoad, *values: ArrayLike | None) -> list[NDArray[np.float64] | None]:
+    """The parts ``values`` (each (T,), one value or None) on one trial axis with the
+    ``load``'s (one load per trial, or the nominal one): every figure then holds one value
+    per trial, whichever of them is drawn."""
+    arrays = [None if v is None else np.asarray(v, dtype=float) for v in values]
+    shape = np.broadcast_shapes(load.trials, *(a.shape for a in arrays if a is not None))
+    return [
+        a if a is None or a.shape == shape else np.broadcast_to(a, shape).copy() for a in arrays
+    ]
+
+
 def _common(out: Filtered) -> Figures:
     """The figures both kinds share: the trough (what their stages and a bias point take),
     the mean (``vout_v``, ``mean_v``), the crest and the ripple's peak-to-peak."""
@@ -148,9 +161,10 @@ def rc_filter_spread(
 ) -> SupplySpread:
     """An ``rc_filter``'s figures per trial (`RcFilterFigures` and its state's): the
     trough, mean and ripple, ``drop_v`` (R I_heaviest), ``crest_drop_v``, ``corner_hz``,
-    ``ripple_attenuation_db`` and ``resistor_w`` (R I_heaviest^2)."""
-    r = np.asarray(resistance_ohm, dtype=float)
-    c = np.asarray(capacitance_f, dtype=float)
+    ``ripple_attenuation_db`` and ``resistor_w`` (R I_heaviest^2), under ``load`` (the
+    nominal one, or one per trial)."""
+    r, c = on_trials(load, resistance_ohm, capacitance_f)
+    assert r is not None and c is not None
     out = filtered(1.0, r, c, load, parent_low_v, parent)
     figures = _common(out)
     figures["drop_v"] = r * load.heaviest_a
@@ -172,9 +186,10 @@ def divider_spread(
     """A ``divider``'s figures per trial (`DividerFigures` and its state's): the trough (the
     bias point a stage naming it takes), mean and ripple, ``ratio``, ``thevenin_ohm``,
     ``standing_a`` (the parent's mean over upper + lower), ``corner_hz`` (with a
-    capacitor) and ``ripple_attenuation_db``."""
-    upper = np.asarray(upper_ohm, dtype=float)
-    lower = np.asarray(lower_ohm, dtype=float)
+    capacitor) and ``ripple_attenuation_db``, under ``load`` (the nominal one, or one per
+    trial)."""
+    upper, lower, capacitance_f = on_trials(load, upper_ohm, lower_ohm, capacitance_f)
+    assert upper is not None and lower is not None
     ratio = lower / (upper + lower)
     thevenin = upper * lower / (upper + lower)
     out = filtered(ratio, thevenin, capacitance_f, load, parent_low_v, parent)

@@ -134,7 +134,8 @@ class RcFilter(SupplyKind):
         ambient_degc: float | None = None,
     ) -> SupplySpread | None:
         """Its figures per trial with its resistor and capacitor drawn, from its parent's
-        trough, ripple and mean as `state` takes the nominal ones
+        trough, ripple and mean as `state` takes the nominal ones, under ``nominal``'s load
+        (the check's, or one per trial: (T,) currents)
         (`chainbudget.supplies.filter_spread.rc_filter_spread`); None where only the
         rules' limits are asked for (it has none)."""
         if parent_low_v is None or parent_ripple is None:

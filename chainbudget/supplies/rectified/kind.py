@@ -180,11 +180,13 @@ class Rectified(SupplyKind):
         parent_ripple: RippleSpread | None = None,
         *,
         ambient_degc: float | None = None,
+        about: Mapping[str, SupplyLoad] | None = None,
     ) -> dict[str, SupplySpread]:
         """Every rail's trough and ripple per trial (a split supply's two, solved together
-        as `rail_states` solves them; `chainbudget.supplies.rectified.spread`)."""
+        as `rail_states` solves them; `chainbudget.supplies.rectified.spread`), a load per
+        trial expanded about ``about``'s."""
         loads = {rail: nominals[rail].load for rail in self.rails(supply)}
-        return rectified_spread(supply, drawn, loads, bounds)
+        return rectified_spread(supply, drawn, loads, bounds, about)
 
     def figures(self, context: SupplyContext) -> RectifiedFigures:
         return rectified_figures(context)

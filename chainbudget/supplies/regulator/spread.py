@@ -9,12 +9,15 @@ V_out = V_ref (1 + upper/lower) + I_adj upper (`chainbudget.supplymath.adjustabl
 the divider takes V_ref/lower and a bleeder V_out/bleeder from the output, counted toward
 the minimum load. The input's trough is the parent's per trial where the parent spreads
 it (a rectifier's reservoir), else the nominal one; the external load is the nominal
-operating point's (the tree as settled for the nominal parts): the regulator's own current
-changes by micro- to milliamperes over its tolerances, which moves a rectifier's trough by
-far less than the reference's spread moves the output. Out of regulation the output follows the
-input's trough less the dropout, as `Regulator.state` has it; its mean at nominal line
-and load, V_out or the parent's mean less the dropout, whichever is lower, is passed on
-with the ripple (a filter or divider below takes its own mean from it).
+operating point's (the tree as settled for the nominal parts), or one per trial where the
+budget ``nominal`` holds a load of (T,) currents (the tree settled for each trial): each
+trial then takes its own in the minimum-load margin and the heat, element-wise. (The
+regulator's own current changes by micro- to milliamperes over its tolerances, which moves
+a rectifier's trough by far less than the reference's spread moves the output.) Out of
+regulation the output follows the input's trough less the dropout, as `Regulator.state`
+has it; its mean at nominal line and load, V_out or the parent's mean less the dropout,
+whichever is lower, is passed on with the ripple (a filter or divider below takes its own
+mean from it).
 
 The output's ripple per trial follows the parent's (per trial where the parent spreads
 it) as `Regulator.state` passes it: in regulation each harmonic times the rejection
@@ -90,7 +93,8 @@ def regulator_spread(
     parent_ripple: RippleSpread | None = None,
     ambient_degc: float | None = None,
 ) -> SupplySpread:
-    """Output, divider and bleeder currents, dropout and minimum-load margins per trial, the
+    """Output, divider and bleeder currents, dropout and minimum-load margins per trial
+    (under ``nominal``'s load: the check's, or one per trial), the
     output's ripple (``ripple_vpp`` and the spectrum) where the regulator passes its
     parent's ``parent_ripple`` (a ripple rejection given), its state's figures and, given
     the parent's output at high line and ``ambient_degc``, its heat and the flags of the
@@ -118,7 +122,15 @@ def regulator_spread(
     external_heaviest = nominal.load.heaviest_a - own.divider_a - own.bleeder_a
     trough = own.input_min_v if parent_low_v is None else np.asarray(parent_low_v, dtype=float)
     dropout = own.dropout_v
-    size = max(np.size(vout), np.size(divider_a), np.size(bleeder_a), np.size(trough))
+    # the trial axis: the drawn parts', the parent's trough's or the load's (one per trial)
+    size = max(
+        np.size(vout),
+        np.size(divider_a),
+        np.size(bleeder_a),
+        np.size(trough),
+        np.size(external_idle),
+        np.size(external_heaviest),
+    )
     figures: dict[str, NDArray[np.float64]] = {
         "vout_v": np.broadcast_to(vout, (size,)).astype(float),
         "dropout_margin_v": np.broadcast_to(trough - vout - dropout, (size,)).astype(float),

@@ -1,0 +1,196 @@
+"""The power tree settled again for every trial: the rails a trial's stages run on are the
+ones its supplies give under the currents those stages then draw (chainbudget/spread).
+
+Notes
+-----
+The check settles the tree once for the nominal parts (`chainbudget.budget.supplies.settle`):
+the rails x at low line are a fixed point x = F(x), F solving the chain at one tone with
+the controls as set, reading each stage's currents (`chainbudget.budget.currents`) and
+asking each supply for its state under the load they make. A trial's drawn parts move both
+sides: a smaller reservoir sags further under the same load, and a stage whose clip follows
+its rail draws less when the rail sags. `settle_trials` solves the same fixed point for
+every trial at once (the trials one array axis of every solve), from the nominal check's
+settled rails:
+
+    x_{k+1} = x_k + (F(x_k) - x_k) / (1 - s_k),
+
+each rail of each trial with its own secant slope s_k = (F(x_k) - F(x_{k-1})) /
+(x_k - x_{k-1}) from its last two steps (the secant method), taken no higher than zero
+(F falls as a rail rises: more rail, more swing, more current, more sag), so that the
+first step is plain substitution (s = 0); x stays between zero and the rail's output with
+no load, as in the check. A trial whose every rail agrees with F to `SETTLE_TOLERANCE_V`
+stays where it is while the others go on, so its figures do not depend on the trials
+beside it in the batch; the loop stops once all agree or after `MAX_SETTLE_STEPS`
+evaluations (``residual_v`` says which). Measured: the kitchen radio takes one
+evaluation (its stages sit behind regulators: no rail moves), the busking amp three,
+the mains amplifier of tests/test_spread_output_figures.py three at the reference and
+four at the band's low edge.
+
+Each evaluation of F is the check's: the trial's chain solved at the tone alone on its
+rails (with its own DC walk and drawn betas), `currents_at` and `external_loads` with
+the trials an array axis, and the supplies' spread under those loads per trial
+(`chainbudget.spread.tree.tree_spread`). A supply's own standing currents in its
+parent's load (a divider's, a regulator's adjust divider) are the nominal values here:
+the regulator's own spread adds its drawn divider and bleeder to its own figures, but
+the parent's load takes the nominal ones (a 1 % divider moves a few milliamps by 1 %).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Mapping, Sequence
+from dataclasses import dataclass, replace
+from typing import cast
+
+import numpy as np
+from numpy.typing import NDArray
+
+from chainbudget.budget import Budget
+from chainbudget.budget.analysis import positions_as_set, solve_chain
+from chainbudget.budget.currents import currents_at
+from chainbudget.budget.rails import external_loads, rail_owners
+from chainbudget.budget.supplies import moving_rails, stage_loads_of
+from chainbudget.chainfile import Chain
+from chainbudget.spread.parts import Part
+from chainbudget.spread.tree import TreeSpread, tree_spread
+from chainbudget.stages.base import Environment
+from chainbudget.supplies import KINDS as SUPPLY_KINDS
+from chainbudget.supplies.base import NO_LOAD, Corners, SupplyLoad, SupplyState
+
+#: A trial's rails are settled when each moves less than this between the voltage its
+#: stages are solved on and the supply's output under the load they then draw, V.
+SETTLE_TOLERANCE_V = 1e-9
+#: Evaluations of the tree allowed per batch (each solves the chain at one tone).
+MAX_SETTLE_STEPS = 12
+
+#: Each trial's stage environments on the rails given (drawn parts and DC walk in).
+EnvsOn = Callable[[Mapping[str, Corners]], Sequence[Environment]]
+Array = NDArray[np.float64]
+
+
+@dataclass(frozen=True)
+class SettledTrials:
+    """The tree as settled per trial: its spread (`TreeSpread`), the loads per trial that
+    settle it (each rail's `SupplyLoad`, fields (T,)), the largest disagreement left on
+    any trial's rail, V, and the evaluations spent."""
+
+    tree: TreeSpread
+    loads: dict[str, SupplyLoad]
+    residual_v: float
+    evaluations: int
+
+
+def trial_loads(
+    chain: Chain, nominal_chain: Chain, envs: Sequence[Environment], tone_hz: float, trials: int
+) -> dict[str, SupplyLoad]:
+    """Each rail's load per trial (fields (T,)) with the stages on ``envs``: the trial's
+    chain solved at ``tone_hz`` with the controls as set, its currents
+    (`chainbudget.budget.currents.currents_at`) summed per rail, and what the supplies fed
+    from each rail draw (`chainbudget.budget.rails.external_loads`, on the file's supply
+    values: module notes)."""
+    cascade = solve_chain(chain, envs, np.array([tone_hz]), positions_as_set(chain.stages))
+    currents = currents_at(chain, cascade, envs, 0, tone_hz)
+    loads = external_loads(nominal_chain, stage_loads_of(currents))
+    return {rail: _per_trial(load, trials) for rail, load in loads.items()}
+
+
+def _per_trial(load: SupplyLoad, trials: int) -> SupplyLoad:
+    """A load with every field a (T,) array."""
+
+    def flat(value: float) -> float:
+        array = np.asarray(value, dtype=float).reshape(-1)
+        # an array load: the supply kinds take one per trial (`chainbudget.spread.settle`)
+        return cast(float, np.broadcast_to(array, (trials,)).copy() if array.size == 1 else array)
+
+    return SupplyLoad(
+        flat(load.idle_a),
+        flat(load.nominal_a),
+        flat(load.heaviest_a),
+        flat(load.nominal_pulse_a),
+        flat(load.heaviest_pulse_a),
+        load.signal_hz,
+    )
+
+
+def with_loads(budget: Budget, chain: Chain, loads: Mapping[str, SupplyLoad]) -> Budget:
+    """``budget`` with each supply's load the one given (out of its pin as its kind
+    delivers it, `SupplyKind.delivered`, as `chainbudget.budget.supplies.supply_budgets`
+    writes it); its state kept (what a supply no trial moves keeps)."""
+    owners = rail_owners(chain)
+    supplies = tuple(
+        replace(
+            s,
+            load=SUPPLY_KINDS[s.kind].delivered(owners[s.name], loads.get(s.name, NO_LOAD)),
+        )
+        for s in budget.supplies
+    )
+    return replace(budget, supplies=supplies)
+
+
+def settle_trials(
+    chain: Chain,
+    nominal_chain: Chain,
+    envs_on: EnvsOn,
+    parts: tuple[Part, ...],
+    values: list[Array],
+    budget: Budget,
+    voltages: Mapping[str, Corners],
+    unloaded: Mapping[str, SupplyState],
+    tone_hz: float,
+    trials: int,
+) -> SettledTrials:
+    """The tree settled per trial for a tone ``tone_hz`` (module notes): ``chain`` with the
+    trials' drawn stage values, ``budget`` the nominal check settled for the tone (its
+    states and loads where the search starts), ``voltages`` its rails."""
+    rails = moving_rails(nominal_chain)
+    ceiling = {r: np.asarray(unloaded[r].trough_v, dtype=float) for r in rails}
+    # from the nominal check's rails: each step's supplies are then spread under loads
+    # close to the nominal ones, about which the rectifier's solves are kept
+    x = {r: _low(voltages[r], trials) for r in rails}
+    previous: tuple[dict[str, Array], dict[str, Array]] | None = None
+    loads: dict[str, SupplyLoad] = {}
+    residual = np.inf
+    evaluations = 0
+    while evaluations < MAX_SETTLE_STEPS:
+        on = {r: replace(voltages[r], low=cast(float, x[r].reshape(trials, 1))) for r in rails}
+        on = {**voltages, **on}
+        loads = trial_loads(chain, nominal_chain, envs_on(on), tone_hz, trials)
+        tree = tree_spread(
+            nominal_chain,
+            parts,
+            values,
+            with_loads(budget, nominal_chain, loads),
+            on,
+            unloaded,
+            trials,
+            about=budget,
+        )
+        evaluations += 1
+        y = {r: _low(tree.voltages[r], trials) for r in rails}
+        gaps = np.max([np.abs(y[r] - x[r]) for r in rails], axis=0, initial=0.0)
+        residual = float(np.max(gaps, initial=0.0))
+        if residual <= SETTLE_TOLERANCE_V:
+            break
+        # a trial already settled stays where it is: its figures then do not depend on how
+        # many steps the others beside it in the batch take
+        moving = gaps > SETTLE_TOLERANCE_V
+        step = {}
+        for r in rails:
+            slope = np.zeros(trials)
+            if previous is not None:
+                dx = x[r] - previous[0][r]
+                moved = dx != 0.0
+                slope[moved] = (y[r] - previous[1][r])[moved] / dx[moved]
+            slope = np.minimum(slope, 0.0)
+            # no higher than the rail with no load (a drawn regulator's own, per trial,
+            # may lie above the nominal one: F's value is then its bound)
+            top = np.maximum(ceiling[r], y[r])
+            stepped = np.clip(x[r] + (y[r] - x[r]) / (1.0 - slope), 0.0, top)
+            step[r] = np.where(moving, stepped, x[r])
+        previous = (x, y)
+        x = step
+    return SettledTrials(tree, loads, residual, evaluations)
+
+
+def _low(corners: Corners, trials: int) -> Array:
+    """A rail's low-line value as a (T,) array."""
+    return np.broadcast_to(np.asarray(corners.low, dtype=float).reshape(-1), (trials,)).copy()
