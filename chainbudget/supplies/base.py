@@ -17,7 +17,7 @@ from dataclasses import dataclass, field, fields
 from typing import Any, ClassVar, cast
 
 import numpy as np
-from numpy.typing import NDArray
+from numpy.typing import ArrayLike, NDArray
 
 from chainbudget import fields as f
 from chainbudget.finding import Finding
@@ -144,6 +144,17 @@ class SupplyLoad:
 
 
 NO_LOAD = SupplyLoad()
+
+
+def on_trials(load: SupplyLoad, *values: ArrayLike | None) -> list[NDArray[np.float64] | None]:
+    """The parts ``values`` (each (T,), one value or None) on one trial axis with the
+    ``load``'s (one load per trial, or the nominal one): every figure then holds one value
+    per trial, whichever of them is drawn."""
+    arrays = [None if v is None else np.asarray(v, dtype=float) for v in values]
+    shape = np.broadcast_shapes(load.trials, *(a.shape for a in arrays if a is not None))
+    return [
+        a if a is None or a.shape == shape else np.broadcast_to(a, shape).copy() for a in arrays
+    ]
 
 
 @dataclass(frozen=True)

@@ -41,7 +41,14 @@ import numpy as np
 from numpy.typing import ArrayLike
 
 from chainbudget.spread.flags import flag_key
-from chainbudget.supplies.base import HighLine, RippleSpread, Supply, SupplyLoad, SupplySpread
+from chainbudget.supplies.base import (
+    HighLine,
+    RippleSpread,
+    Supply,
+    SupplyLoad,
+    SupplySpread,
+    on_trials,
+)
 from chainbudget.supplies.dc import battery_ends, collapses, crest_drop_v, terminal_v, trough_v
 
 
@@ -57,14 +64,10 @@ def dc_spread(
     trough (what the rails and stages below take), its mean (passed on with no ripple)
     and the flag of ``supply-collapse``."""
     ends = battery_ends(supply)
-    r = np.asarray(resistance_ohm, dtype=float)
-    c = None if reservoir_f is None else np.asarray(reservoir_f, dtype=float)
     # one trial axis for the parts and the load, whichever of them holds it
-    shape = np.broadcast_shapes(r.shape, () if c is None else c.shape, load.trials)
-    if r.shape != shape:
-        r = np.broadcast_to(r, shape).copy()
-    if c is not None and c.shape != shape:
-        c = np.broadcast_to(c, shape).copy()
+    drawn_r, c = on_trials(load, resistance_ohm, reservoir_f)
+    assert drawn_r is not None
+    r = drawn_r
     drop = crest_drop_v(r, c, load)
     trough = trough_v(ends.low_v, drop)
     mean = terminal_v(ends.nominal_v, r, load.nominal_a)

@@ -42,7 +42,13 @@ from typing import Any
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from chainbudget.supplies.base import HighLine, RippleSpread, SupplyLoad, SupplySpread
+from chainbudget.supplies.base import (
+    HighLine,
+    RippleSpread,
+    SupplyLoad,
+    SupplySpread,
+    on_trials,
+)
 from chainbudget.supplymath import lowpass_gains, pulsed_sags
 
 Figures = dict[str, NDArray[np.float64]]
@@ -116,17 +122,6 @@ def filtered(
         k * smoothed - crest_drop,
         crest_drop,
     )
-
-
-def on_trials(load: SupplyLoad, *values: ArrayLike | None) -> list[NDArray[np.float64] | None]:
-    """The parts ``values`` (each (T,), one value or None) on one trial axis with the
-    ``load``'s (one load per trial, or the nominal one): every figure then holds one value
-    per trial, whichever of them is drawn."""
-    arrays = [None if v is None else np.asarray(v, dtype=float) for v in values]
-    shape = np.broadcast_shapes(load.trials, *(a.shape for a in arrays if a is not None))
-    return [
-        a if a is None or a.shape == shape else np.broadcast_to(a, shape).copy() for a in arrays
-    ]
 
 
 def _common(out: Filtered) -> Figures:
