@@ -16,7 +16,9 @@ one row and one column.
 
 from __future__ import annotations
 
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Iterator, Mapping, Sequence
+from contextlib import contextmanager
+from contextvars import ContextVar
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -50,6 +52,33 @@ class SingularNetwork(ValueError, ChainError):
     """A network whose equations have no single solution (a node both cut off and driven,
     two ideal sources in a loop): an input error of the chain, which the budget reports with
     the stage it was solving."""
+
+
+#: Whether a batched solve looks for repeated rows along its leading axis (`shared_rows`).
+_SHARED_ROWS: ContextVar[bool] = ContextVar("shared_rows", default=False)
+
+
+@contextmanager
+def shared_rows() -> Iterator[None]:
+    """Within it (in this thread), a netlist whose element values repeat along the leading
+    batch axis is assembled and solved once for each distinct row, every row that repeats
+    one taking its solution.
+
+    The spread's corner rows are vertices that differ from one another in a part or two:
+    a stage none of those parts touch has the same element values in every row. A matrix
+    is a function of its element values alone, and each matrix is solved alone whatever
+    batch it sits in, so the solutions are the same bits as those of the whole batch. Rows
+    are told apart by the exact bytes of every element value (`Netlist.distinct_rows`).
+    """
+    token = _SHARED_ROWS.set(True)
+    try:
+        yield
+    finally:
+        _SHARED_ROWS.reset(token)
+
+
+def _as_is(x: Complex) -> Complex:
+    return x
 
 
 def _solved(m: Complex, b: Complex) -> Complex:
@@ -461,7 +490,7 @@ class Netlist:
         others (and the signal source) at zero (Ho, Ruehli & Brennan, IEEE Trans. CAS-22
         (1975) 504).
         """
-        m = self.matrix()
+        m = self.matrix()  # every row: the sources' coefficients may differ per row
         count = len(self.ripple)
         b = np.zeros((*m.shape[:-1], count + 1), dtype=complex)
         for r, source in enumerate(self.ripple):
@@ -481,19 +510,75 @@ class Netlist:
         return np.broadcast_to(density, np.broadcast_shapes(density.shape, self.frequency.shape))
 
     # --- assembly and solution ------------------------------------------------------
-    def matrix(
-        self, without_controls_of: str | None = None, at: NDArray[np.intp] | None = None
-    ) -> Complex:
-        """The stamped MNA matrix, shape ``batch + (F, N, N)``; ``without_controls_of``
-        leaves that controlled source's controls out (`return_ratio`); ``at`` assembles it
-        at those indices of the frequency axis only (``batch + (len(at), N, N)``)."""
+    def _values(self, at: NDArray[np.intp] | None) -> tuple[list[Any], tuple[int, ...]]:
+        """Every element value in the order `matrix` stamps them (at the points ``at``),
+        and the shape ``batch + (F,)`` they broadcast to."""
         f_shape = self.frequency.shape
         pick = _on_points(f_shape[-1], at)
         values = [pick(st.value) for st in self._stamps]
         values += [pick(c) for _, _, coefficients in self._branch_stamps for _, c in coefficients]
         if at is not None:
             f_shape = (len(at),)
-        shape = np.broadcast_shapes(f_shape, *(np.shape(v) for v in values))
+        return values, np.broadcast_shapes(f_shape, *(np.shape(v) for v in values))
+
+    def distinct_rows(
+        self, at: NDArray[np.intp] | None = None
+    ) -> tuple[NDArray[np.intp], NDArray[np.intp]] | None:
+        """Within `shared_rows`, where the batch has a leading axis beside the frequency
+        axis: the first of each distinct row along it (the rows whose every element value
+        is the same, byte for byte) and each row's distinct one; else None (every row is
+        assembled and solved)."""
+        values, shape = self._values(at)
+        if not _SHARED_ROWS.get() or len(shape) < 2 or shape[0] < 2:
+            return None
+        rows = shape[0]
+        own = [  # the values that vary along the leading axis (a broadcast one repeats)
+            np.ascontiguousarray(v).reshape(rows, -1).view(np.uint8)
+            for v in values
+            if np.ndim(v) == len(shape) and np.shape(v)[0] == rows
+        ]
+        if not own:
+            return np.zeros(1, dtype=np.intp), np.zeros(rows, dtype=np.intp)
+        keys = np.ascontiguousarray(np.concatenate(own, axis=1))
+        _, first, inverse = np.unique(
+            keys.view(np.dtype((np.void, keys.shape[1])))[:, 0],
+            return_index=True,
+            return_inverse=True,
+        )
+        return first.astype(np.intp), inverse.reshape(-1).astype(np.intp)
+
+    def _assembled(
+        self, without_controls_of: str | None = None, at: NDArray[np.intp] | None = None
+    ) -> tuple[Complex, Callable[[Complex], Complex]]:
+        """`matrix`, with each distinct row only where `distinct_rows` finds repeats, and
+        the function that puts a solution of it back on every row."""
+        distinct = self.distinct_rows(at)
+        if distinct is None or distinct[0].size == distinct[1].size:
+            return self.matrix(without_controls_of, at), _as_is
+        first, inverse = distinct
+        return self.matrix(without_controls_of, at, rows=first), lambda x: x[inverse]
+
+    def matrix(
+        self,
+        without_controls_of: str | None = None,
+        at: NDArray[np.intp] | None = None,
+        rows: NDArray[np.intp] | None = None,
+    ) -> Complex:
+        """The stamped MNA matrix, shape ``batch + (F, N, N)``; ``without_controls_of``
+        leaves that controlled source's controls out (`return_ratio`); ``at`` assembles it
+        at those indices of the frequency axis only (``batch + (len(at), N, N)``); ``rows``
+        at those rows of the batch's leading axis only (`distinct_rows`)."""
+        values, shape = self._values(at)
+        # a value that is one number for the whole batch is summed into the constant part;
+        # an array is added into its entry (decided on the whole batch, so that its rows
+        # alone are stamped with the same arithmetic, bit for bit)
+        constant = [np.size(v) == 1 for v in values]
+        if rows is not None:
+            values = [
+                np.asarray(v)[rows] if np.ndim(v) == len(shape) and np.shape(v)[0] > 1 else v
+                for v in values
+            ]
+            shape = (len(rows), *shape[1:])
         n = self.size
         fixed = np.zeros((n, n), dtype=complex)
         diagonal = np.arange(len(self.nodes))
@@ -507,8 +592,8 @@ class Netlist:
         m = np.zeros((n, n, *shape), dtype=complex)
         written = np.zeros((n, n), dtype=bool)
 
-        def add(r: int, c: int, sign: float, value: Any) -> None:
-            if np.size(value) == 1:
+        def add(r: int, c: int, sign: float, value: Any, is_constant: bool) -> None:
+            if is_constant:
                 fixed[r, c] += sign * np.asarray(value).reshape(())
                 return
             entry = m[r, c]
@@ -520,24 +605,24 @@ class Netlist:
                 entry += sign * np.asarray(value)
             written[r, c] = True
 
-        stamp_values = iter(values)
+        stamp_values = iter(zip(values, constant, strict=True))
         for st in self._stamps:
-            value = next(stamp_values)
+            value, is_constant = next(stamp_values)
             for r, c, sign in zip(st.rows, st.cols, st.signs, strict=True):
                 if r >= 0 and c >= 0:
-                    add(r, c, sign, value)
+                    add(r, c, sign, value, is_constant)
         for label, controls, coefficients in self._branch_stamps:
             k = self.index(branch_ref(label))
             for name, sign in controls:
                 if name != GROUND:
                     fixed[self.nodes[name], k] += sign
                     fixed[k, self.nodes[name]] += sign
-            picked = [(name, next(stamp_values)) for name, _ in coefficients]
+            picked = [(name, *next(stamp_values)) for name, _ in coefficients]
             if label == without_controls_of:
                 continue
-            for name, coefficient in picked:
+            for name, coefficient, is_constant in picked:
                 if name != GROUND:
-                    add(k, self.nodes[name], 1.0, coefficient)
+                    add(k, self.nodes[name], 1.0, coefficient, is_constant)
         for r, c in zip(*np.nonzero(fixed), strict=True):
             if written[r, c]:
                 m[r, c] += fixed[r, c]
@@ -549,10 +634,14 @@ class Netlist:
         """Solve the network for right-hand sides ``rhs`` of shape ``(..., N, K)``; with
         ``points``, at those frequencies only, every other point holding the solution at
         the axis' first."""
-        m = self.matrix(at=self.points)
         b = np.asarray(rhs, dtype=complex)
+        on_rows: Callable[[Complex], Complex] = _as_is
+        if b.ndim > 2:  # a right-hand side per row: every row assembled and solved
+            m = self.matrix(at=self.points)
+        else:
+            m, on_rows = self._assembled(at=self.points)
         b = np.broadcast_to(b, (*m.shape[:-2], *b.shape[-2:]))
-        x = _solved(m, b)
+        x = on_rows(_solved(m, b))
         if self.points is None:
             return x
         spread = np.zeros(self.frequency.shape[-1], dtype=np.intp)
@@ -575,12 +664,12 @@ class Netlist:
         A(s)(v+ - v-) in a negative-feedback loop, T = A beta at low frequency, and the
         closed-loop figures are their open-loop values over (1 + T).
         """
-        m = self.matrix(without_controls_of=label)
+        m, on_rows = self._assembled(without_controls_of=label)
         k = self.index(branch_ref(label))
         controls = next(c for name, _, c in self._branch_stamps if name == label)
         e = np.zeros(m.shape[:-1], dtype=complex)
         e[..., k] = 1.0
-        x = np.linalg.solve(m, e[..., None])[..., 0]
+        x = on_rows(np.linalg.solve(m, e[..., None])[..., 0])
         # The branch row holds v(out) + sum_i c_i v(c_i) with c_i = -g_i (see `vcvs`), so
         # the returned value is R = -sum_i c_i v(c_i) and T = sum_i c_i v(c_i).
         returned = np.zeros(x.shape[:-1], dtype=complex)
@@ -607,11 +696,11 @@ class Netlist:
     def adjoint_transfers(self, output_nodes: Sequence[str]) -> list[tuple[Complex, list[Complex]]]:
         """`adjoint_transfer` to each of several nodes from one assembly of the matrix and
         one solve with a right-hand side per node (the same adjoint method)."""
-        m = self.matrix()
+        m, on_rows = self._assembled()
         e = np.zeros((*m.shape[:-1], len(output_nodes)), dtype=complex)
         for j, node in enumerate(output_nodes):
             e[..., self.nodes[node], j] = 1.0
-        solved = _solved(np.swapaxes(m, -1, -2), e)
+        solved = on_rows(_solved(np.swapaxes(m, -1, -2), e))
         found = []
         for j in range(len(output_nodes)):
             z = solved[..., j]

@@ -52,7 +52,7 @@ from chainbudget.chainfile import Chain
 from chainbudget.findings import SUPERSEDES
 from chainbudget.loops import Section
 from chainbudget.loudspeaker import is_reactive, load_impedance
-from chainbudget.network import GMIN, SingularNetwork
+from chainbudget.network import GMIN, SingularNetwork, shared_rows
 from chainbudget.outputmath import damping_factor, sine_power
 from chainbudget.source_network import source_impedance
 from chainbudget.spread.clip_tone import (
@@ -174,12 +174,22 @@ class Evaluator:
         positions: NDArray[np.float64],
         flags: bool = False,
         steps: frozenset[str] | None = None,
+        shared: bool = False,
     ) -> Figures:
         """Every spread figure, shape (T,), for part positions of shape (T, n), solved
         `chunk_trials` at a time; with ``flags``, the per-trial rule flags beside them
-        (`chainbudget.spread.flags`); with ``steps``, those `_batch` names only."""
+        (`chainbudget.spread.flags`); with ``steps``, those `_batch` names only. With
+        ``shared`` (rows that differ in a few parts each, as the corner search asks for),
+        each network's distinct rows are solved once (`chainbudget.network.shared_rows`:
+        the same figures, bit for bit)."""
         size = self.chunk_trials
-        batch = partial(self._batch, steps=steps)
+
+        def batch(chunk: NDArray[np.float64]) -> Figures:
+            if not shared:
+                return self._batch(chunk, steps=steps)
+            with shared_rows():  # in the thread that solves the chunk
+                return self._batch(chunk, steps=steps)
+
         if positions.shape[0] <= size:
             found = batch(positions)
         else:

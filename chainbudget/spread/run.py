@@ -17,18 +17,25 @@ beta, where the same argument holds.
 
 Corner worst case: the signs of D_i give, for each figure, the corner that raises it
 most and the one that lowers it most, under the linear model (2 corners instead of 2^n).
-Each corner is then confirmed: every single part is flipped to its other bound, and any
-flip that carries the figure further is kept, until none does (a coordinate search over
-the vertices; exact for a figure monotonic in each part). A noise figure flips only the
-parts that move it one at a time (`_moving`): the rest leave it where it is at every
-vertex (on the busking amp that spares about 8 % of the first round's rows). A figure that
-is not monotonic (the output stage's THD against its emitter resistors: least near
-Oliver's optimum I_q R_E = V_T) may reach further inside the bounds; where the trials go
-beyond the corners found, their extremes stand for the worst case instead. A corner row
+Each corner is then confirmed: every single part is flipped to its other bound, and the
+flip that carries the figure furthest is kept, until none does (a coordinate search over
+the vertices; exact for a figure monotonic in each part). Where several single flips each
+carry it further, all of them at once are tried too and kept if that goes further still:
+an interaction that turns several parts' slopes round at the far vertex is undone in one
+round, not one part a round (`MAX_CONFIRM_ROUNDS` would otherwise stop it short). A
+noise figure flips only the parts that move it one at a time (`_moving`): the rest leave
+it where it is at every vertex (on the busking amp that spares about 8 % of the first
+round's rows). A figure that is not monotonic (the output stage's THD against its
+emitter resistors: least near Oliver's optimum I_q R_E = V_T) may reach further inside
+the bounds; where the trials go beyond the corners found, their extremes stand for the
+worst case instead. A corner row
 is asked only for its own figure: the rows are solved step by step
 (`Evaluator.steps_of`), each with the solves that step needs (a supply's figure needs
 none of the chain's networks, a node's gain no held control setting), so confirming a
-few thousand rows costs a fraction of as many trials.
+few thousand rows costs a fraction of as many trials. The corner and one-at-a-time rows
+differ from one another in a part or two: each network is assembled and solved once per
+distinct set of its element values among them (`chainbudget.network.shared_rows`; the
+same bits as every row solved).
 """
 
 from __future__ import annotations
@@ -135,7 +142,7 @@ def _distinct(
     """``evaluate(rows, steps=steps)``, each distinct row solved once (many figures share
     a corner)."""
     unique, inverse = np.unique(rows, axis=0, return_inverse=True)
-    values = evaluate(unique, steps=steps)
+    values = evaluate(unique, steps=steps, shared=True)
     return {path: v[inverse.reshape(-1)] for path, v in values.items()}
 
 
@@ -172,6 +179,13 @@ def _moving(one_at_a_time: NDArray[np.float64], nominal: float, step: str) -> ND
     return np.asarray(moved > 1e-12 * (1.0 + abs(nominal)))
 
 
+def _further(got: NDArray[np.float64], best: float, side: int) -> NDArray[np.bool_]:
+    """Which values carry a figure further than ``best``: lower on side 0, higher on
+    side 1, by more than the rounding of the solves (rtol 1e-12)."""
+    beyond = got < best if side == 0 else got > best
+    return np.asarray(beyond & (np.abs(got - best) > 1e-12 * (1.0 + np.abs(got))))
+
+
 def _corners(
     evaluate: Evaluator,
     paths: list[str],
@@ -204,18 +218,32 @@ def _corners(
             flipped_parts.append(parts)
         flipped = _own_values(evaluate, np.concatenate(rows), owners)
         still = []
+        joints: list[tuple[str, int, NDArray[np.float64]]] = []
         at = 0
         for (p, side), parts in zip(active, flipped_parts, strict=True):
             got = flipped[at : at + parts.size]
             at += parts.size
+            gains = _further(got, best[(p, side)], side)
+            if not np.any(gains):
+                continue
             j = int(np.argmin(got) if side == 0 else np.argmax(got))
-            better = got[j] < best[(p, side)] if side == 0 else got[j] > best[(p, side)]
-            if better and abs(got[j] - best[(p, side)]) > 1e-12 * (1.0 + abs(got[j])):
-                i = int(parts[j])
-                vertices[p][side] = vertices[p][side].copy()
-                vertices[p][side][i] = 1.0 - vertices[p][side][i]
-                best[(p, side)] = float(got[j])
-                still.append((p, side))
+            start = vertices[p][side]
+            vertices[p][side] = start.copy()
+            vertices[p][side][parts[j]] = 1.0 - start[parts[j]]
+            best[(p, side)] = float(got[j])
+            still.append((p, side))
+            if np.count_nonzero(gains) > 1:  # every flip that helps alone, tried at once
+                joint = start.copy()
+                joint[parts[gains]] = 1.0 - start[parts[gains]]
+                joints.append((p, side, joint))
+        if joints:
+            tried = _own_values(
+                evaluate, np.array([j for *_, j in joints]), [p for p, *_ in joints]
+            )
+            for (p, side, joint), value in zip(joints, tried, strict=True):
+                if _further(np.array([value]), best[(p, side)], side)[0]:
+                    vertices[p][side] = joint
+                    best[(p, side)] = float(value)
         active = still
     return {p: (best[(p, 0)], best[(p, 1)]) for p in paths}
 
@@ -288,7 +316,7 @@ def run_spread(
     for p, values in samples.items():
         if not np.all(np.isfinite(values)):
             raise SpreadError(f"{chain.file}: the figure {p} is not finite in some trials")
-    side = evaluate(_one_at_a_time(n)) if n else {p: np.zeros(0) for p in paths}
+    side = evaluate(_one_at_a_time(n), shared=True) if n else {p: np.zeros(0) for p in paths}
     deltas = {p: side[p][1::2] - side[p][0::2] for p in paths}
     moving = {p: _moving(side[p], float(centre[p][0]), evaluate.steps_of[p]) for p in paths}
     sensitivity = []
