@@ -183,12 +183,16 @@ class Evaluator:
         each network's distinct rows are solved once (`chainbudget.network.shared_rows`:
         the same figures, bit for bit)."""
         size = self.chunk_trials
+        # the first whole evaluation files each figure's step as it goes (`steps_of`)
+        record: dict[str, str] | None = None
+        if steps is None and "steps_of" not in self.__dict__:
+            record = {}
 
         def batch(chunk: NDArray[np.float64]) -> Figures:
             if not shared:
-                return self._batch(chunk, steps=steps)
+                return self._batch(chunk, steps=steps, record=record)
             with shared_rows():  # in the thread that solves the chunk
-                return self._batch(chunk, steps=steps)
+                return self._batch(chunk, steps=steps, record=record)
 
         if positions.shape[0] <= size:
             found = batch(positions)
@@ -199,16 +203,29 @@ class Evaluator:
             with ThreadPoolExecutor(max_workers=WORKERS) as pool:
                 pieces = list(pool.map(batch, batches))
             found = {path: np.concatenate([p[path] for p in pieces]) for path in pieces[0]}
+        if record is not None:
+            self.__dict__["steps_of"] = record  # the cached property's own slot
         return found if flags else {p: v for p, v in found.items() if not is_flag(p)}
 
     def _batch(
-        self, positions: NDArray[np.float64], steps: frozenset[str] | None = None
+        self,
+        positions: NDArray[np.float64],
+        steps: frozenset[str] | None = None,
+        record: dict[str, str] | None = None,
     ) -> Figures:
         """Every spread figure for one batch of trials (one solve of each kind); with
         ``steps``, the supplies' and DC figures and those of the `STEPS` named only (the
         others' solves left out: `steps_of` says which step gives a figure). Only
-        ``{"supplies"}``: the supplies' figures alone."""
+        ``{"supplies"}``: the supplies' figures alone. ``record`` is filled with the step
+        that gives each figure (`steps_of`)."""
         trials = positions.shape[0]
+        filed = {} if record is None else record
+
+        def file(found: Figures, step: str) -> Figures:
+            for path in found:
+                filed.setdefault(path, step)
+            return found
+
         values = self.values(positions)
         chain = self.chain
         betas: dict[int, list[tuple[str, NDArray[np.float64]]]] = {}
@@ -234,7 +251,7 @@ class Evaluator:
             self.chain.settings.reference,
             trials,
         ).tree
-        figures: Figures = dict(tree.figures)
+        figures: Figures = dict(file(tree.figures, "supplies"))
         voltages, ripples = tree.voltages, tree.ripples
         if steps is not None and steps <= {"supplies"}:
             return figures
@@ -242,7 +259,7 @@ class Evaluator:
         points, walked_envs = _trial_envs(chain, betas, voltages)
         envs = list(walked_envs)
         offset = None if self.nominal.output is None else self.nominal.output.offset_v
-        figures.update(dc_figures(chain, envs, points, trials, offset))
+        figures.update(file(dc_figures(chain, envs, points, trials, offset), "dc"))
         frequency = frequency_axis(self.chain)
         settings = self.settings
         nominal = self.nominal
@@ -308,22 +325,18 @@ class Evaluator:
         }
         for step, work in step_figures.items():
             if step in wanted:
-                figures.update(work())
+                figures.update(file(work(), step))
         return figures
 
     @cached_property
     def steps_of(self) -> dict[str, str]:
         """The step of `_batch` that works out each figure (``supplies``, ``dc``, or one of
-        `STEPS`), from one evaluation at the nominal parts."""
-        centre = np.full((1, len(self.parts)), 0.5)
+        `STEPS`; the first that gives it), filed during the first whole evaluation (of any
+        rows: which step gives a figure is the chain's structure, not its values), or one
+        at the nominal parts (`tests/test_spread_steps.py` asks each step alone for its
+        figures)."""
         found: dict[str, str] = {}
-        seen: set[str] = set()
-        for step in ("supplies", "dc", *STEPS):
-            got = self._batch(centre, frozenset((step,)))
-            for path in got:
-                if path not in seen:
-                    found[path] = step
-                    seen.add(path)
+        self._batch(np.full((1, len(self.parts)), 0.5), record=found)
         return found
 
     @cached_property
