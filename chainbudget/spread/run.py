@@ -28,14 +28,13 @@ it where it is at every vertex (on the busking amp that spares about 8 % of the 
 round's rows). A figure that is not monotonic (the output stage's THD against its
 emitter resistors: least near Oliver's optimum I_q R_E = V_T) may reach further inside
 the bounds; where the trials go beyond the corners found, their extremes stand for the
-worst case instead. A corner row
-is asked only for its own figure: the rows are solved step by step
-(`Evaluator.steps_of`), each with the solves that step needs (a supply's figure needs
-none of the chain's networks, a node's gain no held control setting), so confirming a
-few thousand rows costs a fraction of as many trials. The corner and one-at-a-time rows
-differ from one another in a part or two: each network is assembled and solved once per
-distinct set of its element values among them (`chainbudget.network.shared_rows`; the
-same bits as every row solved).
+worst case instead. A corner row is asked only for its own figure: the rows are solved
+step by step (`Evaluator.steps_of`), each with the solves that step needs (a supply's
+figure needs none of the chain's networks, a node's gain no held control setting), so
+confirming a few thousand rows costs a fraction of as many trials. The corner and
+one-at-a-time rows differ from one another in a part or two: each network is assembled
+and solved once per distinct set of its element values among them
+(`chainbudget.network.shared_rows`; the same bits as every row solved).
 """
 
 from __future__ import annotations
