@@ -29,7 +29,8 @@ def _turned(rows: NDArray[np.float64]) -> NDArray[np.float64]:
 
 def _paired(rows: NDArray[np.float64]) -> NDArray[np.float64]:
     """Pairs that pull against each other: f = sum_k (a_k - x_2k)(x_2k+1 - b_k) with
-    a, b between 0 and 1, so that no part is monotonic over the box."""
+    a, b between 0 and 1, so that each part's slope (its partner's distance from a_k or
+    b_k) changes sign across the box."""
     a = np.array([0.4, 0.7, 0.55])
     b = np.array([0.3, 0.6, 0.45])
     return np.asarray(((a - rows[:, 0::2]) * (rows[:, 1::2] - b)).sum(axis=1))
