@@ -528,8 +528,10 @@ class Netlist:
         axis: the first of each distinct row along it (the rows whose every element value
         is the same, byte for byte) and each row's distinct one; else None (every row is
         assembled and solved)."""
+        if not _SHARED_ROWS.get():  # before the values are gathered: the Monte Carlo's case
+            return None
         values, shape = self._values(at)
-        if not _SHARED_ROWS.get() or len(shape) < 2 or shape[0] < 2:
+        if len(shape) < 2 or shape[0] < 2:
             return None
         rows = shape[0]
         own = [  # the values that vary along the leading axis (a broadcast one repeats)
