@@ -12,7 +12,8 @@ voltages flow down (a regulator's input is its parent rail's output).
 The loads summed up the tree (`external_loads`, `drawn_from_parent`) are floats in the
 check, or `SupplyLoad`s of (T,) currents over the spread's trials (one load per trial):
 every step is element-wise arithmetic, each kind's ``input_load`` and standing current
-(taken at the parent's unloaded state, a float) added to each trial's own load.
+(taken at the parent's unloaded state, a float) added to each trial's own load; a supply
+whose own parts are drawn gives both with each trial's values (`SupplyKind.trial_draw`).
 """
 
 from __future__ import annotations
@@ -21,6 +22,7 @@ from collections.abc import Mapping
 from typing import cast
 
 import numpy as np
+from numpy.typing import NDArray
 
 from chainbudget.chainfile import Chain
 from chainbudget.stages import KINDS as STAGE_KINDS
@@ -93,12 +95,19 @@ def drawn_from_parent(
     return drawn
 
 
-def external_loads(chain: Chain, stage_loads: Mapping[str, SupplyLoad]) -> dict[str, SupplyLoad]:
+def external_loads(
+    chain: Chain,
+    stage_loads: Mapping[str, SupplyLoad],
+    drawn: Mapping[str, Mapping[str, NDArray[np.float64]]] | None = None,
+) -> dict[str, SupplyLoad]:
     """Load on every rail: its stages plus what the supplies fed from it draw.
 
     ``stage_loads`` maps a rail to the current its stages draw from it directly. A supply
     that draws a standing current whatever its load (a divider) draws it at its parent's
-    unloaded state (the small error is on the safe side: more current).
+    unloaded state (the small error is on the safe side: more current). ``drawn``: each
+    supply's own parts drawn per trial, by supply name (the spread's); such a supply draws
+    what its kind gives for each trial's values (`SupplyKind.trial_draw`), at its
+    parent's unloaded state as the file gives it.
     """
     order = parents_first(chain)
     loads = {rail: stage_loads.get(rail, NO_LOAD) for s in order for rail in rails_of(s)}
@@ -106,14 +115,19 @@ def external_loads(chain: Chain, stage_loads: Mapping[str, SupplyLoad]) -> dict[
     for supply in reversed(order):  # children before parents
         if supply.parent is None:
             continue
-        if unloaded is None and _has_standing_current(KINDS[supply.kind]):
+        kind = KINDS[supply.kind]
+        mine = (drawn or {}).get(supply.name)
+        if unloaded is None and (_has_standing_current(kind) or mine):
             unloaded = supply_states(chain)
         own = NO_LOAD
         for rail in rails_of(supply):
             own = own + loads[rail]
-        loads[supply.parent] = loads[supply.parent] + drawn_from_parent(
-            chain, supply, own, unloaded
-        )
+        taken = None
+        if mine and unloaded is not None:
+            taken = kind.trial_draw(supply, mine, own, unloaded[supply.parent])
+        if taken is None:
+            taken = drawn_from_parent(chain, supply, own, unloaded)
+        loads[supply.parent] = loads[supply.parent] + taken
     return loads
 
 

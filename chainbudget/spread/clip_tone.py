@@ -17,7 +17,8 @@ one frequency with the volume fully up (`chainbudget.budget.supplies.clip_at_loa
   its own source resistance is (`SupplyKind.stiff_state`: a ``dc`` supply with a
   resistance), 20 log10(ideal / sagging) of the clip at the reference with every such
   supply taken stiff against the clip with all of them stiff but this one, the rest of
-  the tree under the nominal check's loads (`chainbudget.budget.supplies._sag_cost_db`).
+  the tree under the loads the trial's own tree settled to, as the check prices it under
+  the loads it settled (`chainbudget.budget.supplies._sag_cost_db`).
   A stiff battery is the spread of its kind with no resistance (its trough the low end,
   the loads' drop gone); the supplies below it follow it per trial as for the trial's
   own. With one such supply the sagging clip is the trial's clip at the reference on the
@@ -51,7 +52,7 @@ from chainbudget.spread.settle import with_loads
 from chainbudget.spread.tree import tree_spread
 from chainbudget.stages.base import Environment
 from chainbudget.supplies import KINDS as SUPPLY_KINDS
-from chainbudget.supplies.base import Corners, SupplyState
+from chainbudget.supplies.base import Corners, SupplyLoad, SupplyState
 from chainbudget.thresholds import BATTERY_SAG_COST_DB
 
 Figures = dict[str, NDArray[np.float64]]
@@ -122,19 +123,23 @@ def sag_cost_figures(
     parts: tuple[Part, ...],
     values: list[NDArray[np.float64]],
     nominal: Budget,
+    loads: Mapping[str, SupplyLoad],
     unloaded: Mapping[str, SupplyState],
     envs_on: EnvsOn,
     own_rails: Mapping[str, Corners],
     trials: int,
 ) -> Figures:
     """``supplies.NAME.sag_cost_db`` per trial for each supply `stiff_supplies` names
-    (module notes); ``own_rails`` the batch's own rails (the sagging clip of a lone such
-    supply)."""
+    (module notes); ``loads`` each rail's load per trial as the batch's tree settled it
+    (`chainbudget.spread.settle.SettledTrials.loads`), ``own_rails`` the batch's own rails
+    (the sagging clip of a lone such supply)."""
     stiff = stiff_supplies(chain, nominal)
     if not stiff:
         return {}
-    # the rest of the tree as the check's states under its loads, not its settled rails
+    # the rest of the tree under each trial's own loads, spread per trial from the check's
+    # states (not its settled rails), as the check prices it under the loads it settled
     states = {s.name: s.state.corners for s in nominal.supplies}
+    trial_budget = with_loads(nominal, chain, loads)
     reference = chain.settings.reference
 
     def clip_with(stiffened: Mapping[str, int]) -> NDArray[np.float64] | None:
@@ -143,10 +148,11 @@ def sag_cost_figures(
             chain,
             (*parts, *zeros),
             [*values, *(np.zeros(trials) for _ in zeros)],
-            nominal,
+            trial_budget,
             states,
             unloaded,
             trials,
+            about=nominal,
         ).voltages
         return clip_at_tone(chain, envs_on(rails), reference, trials)
 

@@ -239,7 +239,7 @@ class Evaluator:
             else:
                 chain = with_value(chain, part.index, part.key, column)
         # the tree settled again for each trial at the reference (`chainbudget.spread.settle`)
-        tree = settle_trials(
+        settled = settle_trials(
             chain,
             self.chain,
             partial(_envs_on, chain, betas),
@@ -250,7 +250,8 @@ class Evaluator:
             self.unloaded,
             self.chain.settings.reference,
             trials,
-        ).tree
+        )
+        tree = settled.tree
         figures: Figures = dict(file(tree.figures, "supplies"))
         voltages, ripples = tree.voltages, tree.ripples
         if steps is not None and steps <= {"supplies"}:
@@ -301,6 +302,7 @@ class Evaluator:
                 self.parts,
                 values,
                 nominal,
+                settled.loads,
                 self.unloaded,
                 partial(_envs_on, chain, betas),
                 voltages,

@@ -29,10 +29,13 @@ four at the band's low edge.
 Each evaluation of F is the check's: the trial's chain solved at the tone alone on its
 rails (with its own DC walk and drawn betas), `currents_at` and `external_loads` with
 the trials an array axis, and the supplies' spread under those loads per trial
-(`chainbudget.spread.tree.tree_spread`). A supply's own standing currents in its
-parent's load (a divider's, a regulator's adjust divider) are the nominal values here:
-the regulator's own spread adds its drawn divider and bleeder to its own figures, but
-the parent's load takes the nominal ones (a 1 % divider moves a few milliamps by 1 %).
+(`chainbudget.spread.tree.tree_spread`). What a supply with parts of its own drawn takes
+from its parent is each trial's (`SupplyKind.trial_draw`): a divider's share of its load
+and its standing current through its drawn legs, a regulator's load with its drawn adjust
+divider and bleeder. A divider's standing current is taken at its parent's unloaded
+output as the file gives it; the check of a trial takes that parent's own, so where the
+parent's parts are drawn too the two differ by the parent's tolerance times the standing
+current, a second-order change.
 """
 
 from __future__ import annotations
@@ -80,17 +83,33 @@ class SettledTrials:
 
 
 def trial_loads(
-    chain: Chain, nominal_chain: Chain, envs: Sequence[Environment], tone_hz: float, trials: int
+    chain: Chain,
+    nominal_chain: Chain,
+    envs: Sequence[Environment],
+    tone_hz: float,
+    trials: int,
+    drawn: Mapping[str, Mapping[str, Array]] | None = None,
 ) -> dict[str, SupplyLoad]:
     """Each rail's load per trial (fields (T,)) with the stages on ``envs``: the trial's
     chain solved at ``tone_hz`` with the controls as set, its currents
     (`chainbudget.budget.currents.currents_at`) summed per rail, and what the supplies fed
-    from each rail draw (`chainbudget.budget.rails.external_loads`, on the file's supply
-    values: module notes)."""
+    from each rail draw (`chainbudget.budget.rails.external_loads`), with ``drawn`` each
+    supply's own drawn parts by name (module notes)."""
     cascade = solve_chain(chain, envs, np.array([tone_hz]), positions_as_set(chain.stages))
     currents = currents_at(chain, cascade, envs, 0, tone_hz)
-    loads = external_loads(nominal_chain, stage_loads_of(currents))
+    loads = external_loads(nominal_chain, stage_loads_of(currents), drawn)
     return {rail: _per_trial(load, trials) for rail, load in loads.items()}
+
+
+def supply_parts(
+    chain: Chain, parts: Sequence[Part], values: Sequence[Array]
+) -> dict[str, dict[str, Array]]:
+    """Each supply's own drawn parts per trial, field -> (T,) values, by supply name."""
+    found: dict[str, dict[str, Array]] = {}
+    for part, value in zip(parts, values, strict=True):
+        if part.table == "supply":
+            found.setdefault(chain.supplies[part.index].name, {})[part.key] = value
+    return found
 
 
 def _per_trial(load: SupplyLoad, trials: int) -> SupplyLoad:
@@ -142,6 +161,7 @@ def settle_trials(
     trials' drawn stage values, ``budget`` the nominal check settled for the tone (its
     states and loads where the search starts), ``voltages`` its rails."""
     rails = moving_rails(nominal_chain)
+    drawn = supply_parts(nominal_chain, parts, values)
     ceiling = {r: np.asarray(unloaded[r].trough_v, dtype=float) for r in rails}
     # from the nominal check's rails: each step's supplies are then spread under loads
     # close to the nominal ones, about which the rectifier's solves are kept
@@ -153,7 +173,7 @@ def settle_trials(
     while evaluations < MAX_SETTLE_STEPS:
         on = {r: replace(voltages[r], low=cast(float, x[r].reshape(trials, 1))) for r in rails}
         on = {**voltages, **on}
-        loads = trial_loads(chain, nominal_chain, envs_on(on), tone_hz, trials)
+        loads = trial_loads(chain, nominal_chain, envs_on(on), tone_hz, trials, drawn)
         tree = tree_spread(
             nominal_chain,
             parts,

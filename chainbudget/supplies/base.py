@@ -485,6 +485,19 @@ class SupplyKind(ABC):
         state (e.g. a divider's current through both resistors); none by default."""
         return 0.0
 
+    def trial_draw(
+        self,
+        supply: Supply,
+        drawn: Mapping[str, NDArray[np.float64]],
+        load: SupplyLoad,
+        parent: SupplyState,
+    ) -> SupplyLoad | None:
+        """What the supply draws from its parent with its own parts ``drawn`` (field ->
+        (T,) values: the spread's trials) under its external ``load``: its `input_load`
+        and `standing_current` (at the parent's state ``parent``) with each trial's values.
+        None where no drawn part moves it (the default): the file's values then serve."""
+        return None
+
     def rails(self, supply: Supply) -> tuple[str, ...]:
         """The rails the supply defines, by the names stages and supplies use for them; one,
         its own name, unless the kind builds more (a centre-tapped supply's ``.neg``)."""

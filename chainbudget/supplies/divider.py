@@ -6,6 +6,7 @@ from __future__ import annotations
 import math
 from collections.abc import Mapping
 from dataclasses import dataclass
+from typing import cast
 
 import numpy as np
 from numpy.typing import NDArray
@@ -103,6 +104,20 @@ class Divider(SupplyKind):
 
     def standing_current(self, supply: Supply, parent: SupplyState) -> float:
         return parent.nominal_v / (supply.number("upper") + supply.number("lower"))
+
+    def trial_draw(
+        self,
+        supply: Supply,
+        drawn: Mapping[str, NDArray[np.float64]],
+        load: SupplyLoad,
+        parent: SupplyState,
+    ) -> SupplyLoad | None:
+        """`input_load` and `standing_current` with each trial's upper and lower legs."""
+        if not drawn.keys() & {"upper", "lower"}:
+            return None
+        upper, lower = (drawn.get(key, supply.number(key)) for key in ("upper", "lower"))
+        total = np.asarray(upper + lower, dtype=float)
+        return load.scaled(cast(float, lower / total)).plus(cast(float, parent.nominal_v / total))
 
     def state(self, supply: Supply, parent: SupplyState | None, load: SupplyLoad) -> SupplyState:
         assert parent is not None, "a divider always has a parent (the loader sees to it)"

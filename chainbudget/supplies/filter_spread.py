@@ -25,7 +25,11 @@ trial, as `RcFilter.state` and `Divider.state` work out the nominal parts:
 - the trough again as ``output_min_v``, as the check JSON carries it;
 - the kind's own figures from R and C (corner 1/(2 pi R C), the attenuation at f_1, the
   resistor's drop and dissipation, the divider's ratio, source resistance and standing
-  current V_parent,mean/(upper + lower)).
+  current V_parent,mean/(upper + lower));
+- an ``rc_filter``'s rule ``supply-collapse`` as a flag per trial
+  (`chainbudget.spread.flags`), as `RcFilter.state` decides it: the trough before it is
+  clipped at zero is none under a load at all, or the parent's trough is none (a
+  collapsed parent: its own trough clipped at zero).
 
 The load is the nominal operating point's, or one per trial: a ``load`` whose currents
 are (T,) arrays (the tree settled for each trial) gives each trial the figures its own
@@ -42,6 +46,7 @@ from typing import Any
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
+from chainbudget.spread.flags import flag_key
 from chainbudget.supplies.base import (
     HighLine,
     RippleSpread,
@@ -148,6 +153,7 @@ def _attenuation(out: Filtered, figures: Figures) -> None:
 
 
 def rc_filter_spread(
+    name: str,
     resistance_ohm: ArrayLike,
     capacitance_f: ArrayLike,
     load: SupplyLoad,
@@ -157,7 +163,7 @@ def rc_filter_spread(
     """An ``rc_filter``'s figures per trial (`RcFilterFigures` and its state's): the
     trough, mean and ripple, ``drop_v`` (R I_heaviest), ``crest_drop_v``, ``corner_hz``,
     ``ripple_attenuation_db`` and ``resistor_w`` (R I_heaviest^2), under ``load`` (the
-    nominal one, or one per trial)."""
+    nominal one, or one per trial), and the flag of ``supply-collapse`` at ``name``."""
     r, c = on_trials(load, resistance_ohm, capacitance_f)
     assert r is not None and c is not None
     out = filtered(1.0, r, c, load, parent_low_v, parent)
@@ -167,7 +173,11 @@ def rc_filter_spread(
     figures["corner_hz"] = 1.0 / (2.0 * math.pi * r * c)
     _attenuation(out, figures)
     figures["resistor_w"] = r * load.heaviest_a**2
-    return SupplySpread(figures, (), figures["trough_v"], out.ripple)
+    collapsed = ((out.trough_v <= 0.0) & (np.asarray(load.heaviest_a) > 0.0)) | (
+        np.asarray(parent_low_v) <= 0.0
+    )
+    flags = {flag_key("error", "supply-collapse", name): np.asarray(collapsed, dtype=bool)}
+    return SupplySpread(figures, (), figures["trough_v"], out.ripple, flags)
 
 
 def divider_spread(

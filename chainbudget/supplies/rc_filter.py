@@ -143,7 +143,9 @@ class RcFilter(SupplyKind):
         resistance, capacitance = (
             drawn[key] if key in drawn else supply.number(key) for key in SPREAD_FIELDS
         )
-        return rc_filter_spread(resistance, capacitance, nominal.load, parent_low_v, parent_ripple)
+        return rc_filter_spread(
+            supply.name, resistance, capacitance, nominal.load, parent_low_v, parent_ripple
+        )
 
     def figures(self, context: SupplyContext) -> RcFilterFigures:
         supply, load, parent = context.supply, context.load, context.parent_state

@@ -3,7 +3,10 @@
 from __future__ import annotations
 
 from collections.abc import Mapping
-from typing import Any
+from typing import Any, cast
+
+import numpy as np
+from numpy.typing import NDArray
 
 from chainbudget import fields as f
 from chainbudget.finding import Finding
@@ -19,7 +22,12 @@ from chainbudget.supplies.base import (
 )
 from chainbudget.supplies.regulator.figures import RegulatorFigures, regulator_figures
 from chainbudget.supplies.regulator.rules import regulator_rules
-from chainbudget.supplies.regulator.spread import SPREAD_FIELDS, follow_input, regulator_spread
+from chainbudget.supplies.regulator.spread import (
+    SPREAD_FIELDS,
+    follow_input,
+    regulator_spread,
+    set_point,
+)
 from chainbudget.supplymath import adjustable_output, divider_current, ripple_after_regulator
 from chainbudget.units import UnitParseError
 
@@ -241,6 +249,20 @@ class Regulator(SupplyKind):
 
     def input_load(self, supply: Supply, load: SupplyLoad) -> SupplyLoad:
         return self.delivered(supply, load).plus(self.own_current(supply))
+
+    def trial_draw(
+        self,
+        supply: Supply,
+        drawn: Mapping[str, NDArray[np.float64]],
+        load: SupplyLoad,
+        parent: SupplyState,
+    ) -> SupplyLoad | None:
+        """`input_load` with each trial's divider and bleeder currents
+        (`chainbudget.supplies.regulator.spread.set_point`)."""
+        if not drawn.keys() & set(self.spread_fields(supply)):
+            return None
+        _, divider_a, bleeder_a = set_point(self, supply, drawn)
+        return load.plus(cast(float, divider_a + bleeder_a + self.own_current(supply)))
 
     def state(self, supply: Supply, parent: SupplyState | None, load: SupplyLoad) -> SupplyState:
         assert parent is not None, "a regulator always has a parent (the loader sees to it)"

@@ -84,6 +84,33 @@ def follow_input(vout_v: ArrayLike, vin_v: ArrayLike, dropout_v: float) -> NDArr
     return np.maximum(np.minimum(vout, vin - dropout_v), 0.0)
 
 
+def set_point(
+    kind: Regulator, supply: Supply, drawn: Mapping[str, NDArray[np.float64]]
+) -> tuple[NDArray[np.float64], NDArray[np.float64], NDArray[np.float64]]:
+    """The set output, the divider's current and the bleeder's per trial with the parts
+    ``drawn`` (module notes): V_out = V_ref (1 + upper/lower) + I_adj upper, V_ref/lower
+    and V_out/bleeder (a fixed regulator: its set output and no divider; no bleeder:
+    none), V and A."""
+
+    def value(key: str) -> NDArray[np.float64]:
+        if key in drawn:
+            return np.asarray(drawn[key], dtype=float)
+        return np.asarray(supply.number(key), dtype=float)
+
+    if kind.adjustable(supply):
+        reference = np.abs(value("reference"))
+        iadj = supply.number("adjust_current")
+        vout = adjustable_output(reference, iadj, value("upper"), value("lower"))
+        divider_a = divider_current(reference, value("lower"))
+    else:
+        vout = np.asarray(kind.set_output(supply), dtype=float)
+        divider_a = np.asarray(0.0)
+    bleeder_a = np.asarray(0.0)
+    if supply.optional("bleeder") is not None:
+        bleeder_a = vout / value("bleeder")
+    return vout, divider_a, bleeder_a
+
+
 def regulator_spread(
     kind: Regulator,
     supply: Supply,
@@ -101,22 +128,8 @@ def regulator_spread(
     rules that read it (module notes)."""
     own = nominal.own
     assert isinstance(own, RegulatorFigures)
-
-    def value(key: str) -> NDArray[np.float64]:
-        if key in drawn:
-            return np.asarray(drawn[key], dtype=float)
-        return np.asarray(supply.number(key), dtype=float)
-
-    if kind.adjustable(supply):
-        reference = np.abs(value("reference"))
-        iadj = supply.number("adjust_current")
-        vout = adjustable_output(reference, iadj, value("upper"), value("lower"))
-        divider_a = divider_current(reference, value("lower"))
-    else:
-        vout = np.asarray(kind.set_output(supply), dtype=float)
-        divider_a = np.asarray(0.0)
+    vout, divider_a, bleeder_a = set_point(kind, supply, drawn)
     bleeder = supply.optional("bleeder")
-    bleeder_a = np.asarray(0.0) if bleeder is None else vout / value("bleeder")
     # the load as solved counts the divider and bleeder at their nominal values
     external_idle = nominal.load.idle_a - own.divider_a - own.bleeder_a
     external_heaviest = nominal.load.heaviest_a - own.divider_a - own.bleeder_a
