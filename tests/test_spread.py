@@ -732,6 +732,8 @@ def _json_figure(
         return float(_thd_entry(data["output"], rest[0]))
     if group == "output" and "_harmonic_" in rest[0]:
         return _harmonic_entry(data["output"], rest[0])
+    if group == "output" and rest[0] == "dissipation":
+        return float(data["output"]["dissipation"][rest[1]])
     if group == "nodes":
         name, key = rest
         return float(next(n for n in data["nodes"] if n["stage"] == name)[key])

@@ -159,6 +159,16 @@ NEW_FIGURES = (
     "nodes.output.optimum_quiescent_a",
     "output.device_dissipation_w",
     "output.junction_degc",
+    "output.dissipation.worst_vpk",
+    "output.dissipation.clip_device_w",
+    "output.dissipation.clip_supply_w",
+    "output.dissipation.resistive_worst_device_w",
+    "output.dissipation.clip_junction_degc",
+    "output.dissipation.heatsink_degc",
+    "output.dissipation.max_heatsink_k_per_w",
+    "output.dissipation.nominal_vpk",
+    "output.dissipation.nominal_device_w",
+    "output.dissipation.nominal_junction_degc",
 )
 
 
@@ -166,7 +176,8 @@ def test_dc_drive_and_heat_of_each_trial_equal_the_check_of_that_trial() -> None
     """Brute force, one trial at a time: each of eight trials written into the file and
     checked alone gives every batched figure (the DC walk, the offset at the load, the
     op-amp's current, the follower's bias, emitter and heat, the pair's base current and
-    the driver's need, the optimum quiescent, the device dissipation and junction), rtol
+    the driver's need, the optimum quiescent, the device dissipation and junction, and
+    the dissipation at the worst sine and at the clip with the heatsink's), rtol
     1e-9; and whether each trial draws each DC, drive and heat code is whether the check
     of that trial finds it."""
     chain = _chain(DC_DRIVE_HEAT)
@@ -179,8 +190,13 @@ def test_dc_drive_and_heat_of_each_trial_equal_the_check_of_that_trial() -> None
     assert set(NEW_FIGURES) <= set(figures)
     # each moves with the parts (the drawn DC, beta, R_E), but the pre-amp's DC (its bias
     # point, 0 V) and the heat at the worst sine level (2 V_cc/pi, below the clip the
-    # emitter resistors move)
+    # emitter resistors move); the heat at the clip moves with it
     still = ("nodes.pre.dc_v", "output.junction_degc", "output.device_dissipation_w")
+    still += tuple(
+        f"output.dissipation.{key}"
+        for key in ("worst_vpk", "resistive_worst_device_w", "heatsink_degc")
+        + ("max_heatsink_k_per_w",)
+    )
     for path in NEW_FIGURES:
         assert (np.ptp(figures[path]) > 0.0) != (path in still), path
     thresholds = evaluate.thresholds(figures)
@@ -360,3 +376,58 @@ def test_every_example_at_nominal_draws_the_codes_the_check_finds(name: str) -> 
         if not is_flag(path):
             held = _json_figure(data, path)
             assert values[0] == pytest.approx(held, rel=1e-9, abs=1e-12), path
+
+
+def test_the_output_pairs_heat_at_the_worst_sine_and_at_the_clip_against_class_b_by_hand() -> None:
+    """The ``output.dissipation`` figures per trial against the class-B stage worked by
+    hand (Boylestad & Nashelsky, Electronic Devices and Circuit Theory, class B power
+    amplifier section, from memory): on 18 V rails into 8 ohm, the worst sine 2 V_cc/pi
+    and each device's most V_cc^2/(pi^2 R) + V_cc I_q; the supply power at the clip
+    2 V_cc (V_pk/(pi R) + I_q) and each device's share there, which together with the
+    load's V_pk^2/(2 R) must account for it (conservation of energy: the two give the
+    same V_pk); each device's V_cc V/(pi R) - V^2/(4 R) + V_cc I_q at the nominal level V at
+    the output; the clip is the rail less a fixed drop shared by R_E and the load, so that
+    V_pk (R + R_E)/R is one value over the trials; the heatsink shared by both devices at
+    T_a + theta_sa (P_1 + P_2), the junction theta_jc + theta_cs above it, and the largest
+    heatsink (T_max - T_a - P theta_inner)/(P_1 + P_2) (thermal Ohm's law, Horowitz &
+    Hill, The Art of Electronics, 3rd ed., sec. 9.4, from memory): rtol 1e-12."""
+    chain = _chain(DC_DRIVE_HEAT)
+    parts, _ = chain_parts(chain)
+    evaluate = Evaluator(chain, tuple(parts), compute(chain), settle(chain, "low").voltages)
+    positions = np.random.default_rng(6).random((12, len(parts)))
+    got = evaluate(positions)
+    r_e = dict(zip([p.label for p in parts], evaluate.values(positions), strict=True))[
+        "output.emitter_resistors"
+    ]
+    vcc, r, i_q, ambient = 18.0, 8.0, 47.5e-3, chain.settings.ambient
+    theta_inner, theta_sa, t_max = 1.5 + 0.5, 2.0, 150.0
+
+    def figure(key: str) -> np.ndarray:
+        return got[f"output.dissipation.{key}"]
+
+    np.testing.assert_allclose(figure("worst_vpk"), 2.0 * vcc / math.pi, rtol=1e-12)
+    worst = vcc**2 / (math.pi**2 * r) + vcc * i_q
+    np.testing.assert_allclose(figure("resistive_worst_device_w"), worst, rtol=1e-12)
+    np.testing.assert_allclose(got["output.device_dissipation_w"], worst, rtol=1e-12)
+    supply, device = figure("clip_supply_w"), figure("clip_device_w")
+    vpk = math.pi * r * (supply / (2.0 * vcc) - i_q)
+    np.testing.assert_allclose(np.sqrt(2.0 * r * (supply - 2.0 * device)), vpk, rtol=1e-12)
+    assert np.ptp(vpk) > 0.0
+    lifted = vpk * (r + r_e) / r
+    np.testing.assert_allclose(lifted, lifted[0], rtol=1e-12)
+    np.testing.assert_allclose(
+        figure("heatsink_degc"), ambient + theta_sa * 2.0 * worst, rtol=1e-12
+    )
+    largest = (t_max - ambient - worst * theta_inner) / (2.0 * worst)
+    np.testing.assert_allclose(figure("max_heatsink_k_per_w"), largest, rtol=1e-12)
+    at_clip = ambient + theta_sa * 2.0 * device + device * theta_inner
+    np.testing.assert_allclose(figure("clip_junction_degc"), at_clip, rtol=1e-12)
+    # at the nominal level at the output (below the clip here), each device's
+    # V_cc V/(pi R) - V^2/(4 R) + V_cc I_q
+    level = got["output.nominal_vpk"]
+    assert np.all(level < vpk)
+    np.testing.assert_allclose(figure("nominal_vpk"), level, rtol=1e-12)
+    nominal = vcc * level / (math.pi * r) - level**2 / (4.0 * r) + vcc * i_q
+    np.testing.assert_allclose(figure("nominal_device_w"), nominal, rtol=1e-12)
+    at_nominal = ambient + theta_sa * 2.0 * nominal + nominal * theta_inner
+    np.testing.assert_allclose(figure("nominal_junction_degc"), at_nominal, rtol=1e-12)

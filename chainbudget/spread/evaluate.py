@@ -24,7 +24,7 @@ The node figures and the level rules mirror `chainbudget.budget.levels.node_leve
 from __future__ import annotations
 
 import os
-from collections.abc import Callable, Mapping
+from collections.abc import Callable, Mapping, Sequence
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 from functools import cache, cached_property, partial
@@ -65,7 +65,7 @@ from chainbudget.spread.dc import dc_figures, walked
 from chainbudget.spread.drive import drive_figures
 from chainbudget.spread.flags import flag_parts, is_flag
 from chainbudget.spread.heap import keep_freed_memory
-from chainbudget.spread.heat import heat_figures
+from chainbudget.spread.heat import heat_figures, nominal_heat_figures
 from chainbudget.spread.hum import (
     HumRemedyReach,
     hum_figures,
@@ -287,15 +287,10 @@ class Evaluator:
         band = cache(lambda: _band_figures(self.chain, held(), as_set(), settings, trials))
         idle = cache(lambda: idle_cascade(chain, envs) if needs_idle(nominal) else None)
         hot_envs = cache(lambda: self._hot_envs(chain, betas))
-        output = nominal.output
-        damping_held = output is not None and bool(np.isfinite(output.damping_factor))
         step_figures: dict[str, Callable[[], Figures]] = {
             "reference": lambda: _reference_figures(self.chain, as_set(), trials, nominal),
             "band": band,
-            "output": lambda: {
-                **_output_figures(self.chain, held(), as_set(), settings, trials, damping_held),
-                **_output_cap_corner(chain, as_set(), trials),
-            },
+            "output": lambda: self._output_step(chain, held(), as_set(), hot_envs(), trials),
             "low_edge": lambda: self._low_edge(chain, betas, values, tree.voltages, trials),
             "sag_cost": lambda: sag_cost_figures(
                 chain,
@@ -339,6 +334,24 @@ class Evaluator:
         figures)."""
         found: dict[str, str] = {}
         self._batch(np.full((1, len(self.parts)), 0.5), record=found)
+        return found
+
+    def _output_step(
+        self,
+        chain: Chain,
+        held: list[Cascade],
+        as_set: Cascade,
+        hot_envs: Sequence[Environment],
+        trials: int,
+    ) -> Figures:
+        """The output figures (`_output_figures`, `_output_cap_corner`) and the output
+        pair's heat at their nominal level (`nominal_heat_figures`)."""
+        output = self.nominal.output
+        damping_held = output is not None and bool(np.isfinite(output.damping_factor))
+        found = _output_figures(self.chain, held, as_set, self.settings, trials, damping_held)
+        found.update(_output_cap_corner(chain, as_set, trials))
+        if "output.nominal_vpk" in found:
+            found.update(nominal_heat_figures(chain, hot_envs, found["output.nominal_vpk"], trials))
         return found
 
     @cached_property

@@ -12,8 +12,12 @@ so R_E moves it where the clip sets the worst level; a reactive load is taken at
 band frequency where that dissipation is greatest, per trial. Junction: T_j = T_a + P
 (theta_jc + theta_cs + theta_sa), through a shared heatsink carrying both devices, or
 T_a + P theta_ja in free air (thermal Ohm's law, Horowitz & Hill 3rd ed. sec. 9.4).
-``junction-over`` above ``max_junction``, ``junction-near`` within `JUNCTION_MARGIN_K`
-of it; ``heat-unknown`` without a thermal path (the same in every trial).
+Of the check's ``output.dissipation`` entries, those the drawn parts move: at the worst
+sine, at the stage's own clip (which R_E moves) and the heatsink's (`_curve_figures`,
+`_sink_figures`), and at the nominal level at the output (`nominal_heat_figures`, asked
+by the output step, which works that level out). ``junction-over`` above
+``max_junction``, ``junction-near`` within `JUNCTION_MARGIN_K` of it; ``heat-unknown``
+without a thermal path (the same in every trial).
 """
 
 from __future__ import annotations
@@ -27,7 +31,7 @@ from numpy.typing import NDArray
 
 from chainbudget import outputmath as om
 from chainbudget.chainfile import Chain
-from chainbudget.loudspeaker import load_impedance
+from chainbudget.loudspeaker import is_reactive, load_impedance
 from chainbudget.spread.flags import as_flag, flag_key
 from chainbudget.stages.base import Environment, Stage
 from chainbudget.stages.push_pull.crossover import pair_laws
@@ -57,8 +61,9 @@ def heat_figures(
     trials: int,
 ) -> Figures:
     """Each push-pull stage's optimum quiescent current; for the one driving the load
-    ``output.device_dissipation_w`` and ``output.junction_degc`` (where a thermal path is
-    given); and the rules' flags, (T,). ``envs`` at low line, ``hot_envs`` at high line."""
+    ``output.device_dissipation_w``, ``output.junction_degc`` (where a thermal path is
+    given) and the ``output.dissipation`` entries the parts move; and the rules' flags,
+    (T,). ``envs`` at low line, ``hot_envs`` at high line."""
     figures: Figures = {}
     for k, stage in enumerate(chain.stages):
         if stage.kind == "push_pull":
@@ -69,12 +74,14 @@ def heat_figures(
     figures.update(_turn_on(stage, env, trials))
     worst = _worst_dissipation(chain, stage, env, trials)
     figures["output.device_dissipation_w"] = worst.hot_w
+    figures.update(_curve_figures(chain, stage, worst))
     junction = _junction(stage, chain.settings.ambient, worst.hot_w, worst.pair_w)
     where = stage.name
     if junction is None:
         figures[flag_key("note", "heat-unknown", where)] = as_flag(True, trials)
         return figures
     figures["output.junction_degc"] = junction
+    figures.update(_sink_figures(stage, chain.settings.ambient, worst))
     top = stage.number("max_junction")
     over = junction > top
     figures[flag_key("error", "junction-over", where)] = as_flag(over, trials)
@@ -119,13 +126,15 @@ def _optimum(stage: Stage, env: Environment, trials: int) -> Figures:
 @dataclass(frozen=True)
 class WorstHeat:
     """Per trial (T,): the hotter device's worst continuous dissipation (W), both devices'
-    total there (W), that level (V peak) and the load's impedance there (ohm)."""
+    total there (W), that level (V peak), the load's impedance there (ohm), each half's
+    rail from the output's bias point and the stage's own clip level into that load (V)."""
 
     hot_w: NDArray[np.float64]
     pair_w: NDArray[np.float64]
     vpk: NDArray[np.float64]
     z: NDArray[np.complex128]
     rails: tuple[NDArray[np.float64], NDArray[np.float64]]
+    clip_vpk: NDArray[np.float64]
 
 
 def _worst_dissipation(chain: Chain, stage: Stage, env: Environment, trials: int) -> WorstHeat:
@@ -153,7 +162,104 @@ def _worst_dissipation(chain: Chain, stage: Stage, env: Environment, trials: int
     rows = np.arange(trials)
     worst_vpk = np.stack(candidates)[hot, rows]
     pair = np.stack([om.class_b_device_dissipation(v, worst_vpk, z, i_q) for v in rails])
-    return WorstHeat(values[hot, rows], pair.sum(axis=0), worst_vpk, z, (rails[0], rails[1]))
+    return WorstHeat(values[hot, rows], pair.sum(axis=0), worst_vpk, z, (rails[0], rails[1]), clip)
+
+
+DISSIPATION = "output.dissipation."
+
+
+def nominal_heat_figures(
+    chain: Chain, hot_envs: Sequence[Environment], output_nominal_vpk: Any, trials: int
+) -> Figures:
+    """The check's ``output.dissipation`` entries at the nominal level per trial, for the
+    push-pull stage driving the load: the level ``nominal_vpk``, the nominal level at the
+    output (``output_nominal_vpk``, (T,): the output step's, with the controls as set) no
+    higher than the stage's own clip at high line; the hotter device there
+    ``nominal_device_w`` and, with a thermal path, its junction ``nominal_junction_degc``
+    (`push_pull_dissipation`'s formulas per trial, module notes)."""
+    if not chain.stages or chain.stages[-1].kind != "push_pull":
+        return {}
+    stage = chain.stages[-1]
+    worst = _worst_dissipation(chain, stage, hot_envs[-1], trials)
+    level = np.minimum(_trials(np.asarray(output_nominal_vpk, dtype=float), trials), worst.clip_vpk)
+    i_q = stage.number("quiescent")
+    pair = np.stack([om.class_b_device_dissipation(v, level, worst.z, i_q) for v in worst.rails])
+    figures: Figures = {
+        DISSIPATION + "nominal_vpk": level,
+        DISSIPATION + "nominal_device_w": pair.max(axis=0),
+    }
+    junction = _junction(stage, chain.settings.ambient, pair.max(axis=0), pair.sum(axis=0))
+    if junction is not None:
+        figures[DISSIPATION + "nominal_junction_degc"] = junction
+    return figures
+
+
+def _curve_figures(chain: Chain, stage: Stage, worst: WorstHeat) -> Figures:
+    """The check's ``output.dissipation`` entries the drawn parts move, per trial
+    (`chainbudget.stages.push_pull.heat.push_pull_dissipation`, the same formulas on the
+    trial axis): the worst sine's level ``worst_vpk``, the hotter device at the stage's own
+    clip ``clip_device_w`` and the supply power there ``clip_supply_w`` (each rail V_cc
+    times the rail's average current V_pk/(pi |Z|) and I_q), the worst into a resistor of
+    |Z| ``resistive_worst_device_w`` (the clip the complex load's), and, where the load is
+    reactive, the load's magnitude and phase at the frequency the heat is worst."""
+    i_q = stage.number("quiescent")
+    z, clip, rails = worst.z, worst.clip_vpk, worst.rails
+    at_clip = np.stack([om.class_b_device_dissipation(v, clip, z, i_q) for v in rails])
+    supply = sum(v * (om.class_b_rail_average_current(clip, z) + i_q) for v in rails)
+    resistive = np.abs(z)
+    candidates = [np.minimum(om.class_b_worst_vpk(v, 0.0), clip) for v in rails]
+    into_resistor = np.stack(
+        [
+            om.class_b_device_dissipation(v, c, resistive, i_q)
+            for v, c in zip(rails, candidates, strict=True)
+        ]
+    )
+    figures: Figures = {
+        DISSIPATION + "worst_vpk": worst.vpk,
+        DISSIPATION + "clip_device_w": at_clip.max(axis=0),
+        DISSIPATION + "clip_supply_w": np.asarray(supply, dtype=float),
+        DISSIPATION + "resistive_worst_device_w": into_resistor.max(axis=0),
+    }
+    if is_reactive(chain.load):
+        figures[DISSIPATION + "load_abs_ohm"] = resistive
+        figures[DISSIPATION + "load_phase_deg"] = np.degrees(np.angle(z))
+    return figures
+
+
+def _sink_figures(stage: Stage, ambient_degc: float, worst: WorstHeat) -> Figures:
+    """Where a thermal path is given: the hotter junction at the stage's own clip
+    ``clip_junction_degc`` and, on a heatsink, the heatsink's temperature at the worst sine
+    ``heatsink_degc`` and the largest heatsink that keeps the junction at its maximum there
+    ``max_heatsink_k_per_w``: (T_max - T_a)/P - theta_inner on a heatsink of its own,
+    (T_max - T_a - P theta_inner)/(P_upper + P_lower) on a shared one (thermal Ohm's law,
+    Horowitz & Hill 3rd ed. sec. 9.4; `push_pull_dissipation`'s formulas per trial)."""
+    i_q = stage.number("quiescent")
+    at_clip = np.stack(
+        [om.class_b_device_dissipation(v, worst.clip_vpk, worst.z, i_q) for v in worst.rails]
+    )
+    figures: Figures = {}
+    junction = _junction(stage, ambient_degc, at_clip.max(axis=0), at_clip.sum(axis=0))
+    if junction is not None:
+        figures[DISSIPATION + "clip_junction_degc"] = junction
+    theta_jc, heatsink = stage.optional("theta_jc"), stage.optional("heatsink")
+    if theta_jc is None:
+        return figures
+    inner = theta_jc + stage.number("theta_cs")
+    top = stage.number("max_junction")
+    shared = bool(stage.values.get("heatsink_shared"))
+    if np.all(worst.hot_w > 0.0):  # nothing dissipated: any heatsink will do (infinite)
+        headroom = top - ambient_degc
+        if shared:
+            largest = (headroom - worst.hot_w * inner) / worst.pair_w
+        else:
+            largest = headroom / worst.hot_w - inner
+        figures[DISSIPATION + "max_heatsink_k_per_w"] = largest
+    if heatsink is not None:
+        sink_w = worst.pair_w if shared else worst.hot_w
+        figures[DISSIPATION + "heatsink_degc"] = junction_temperature(
+            sink_w, heatsink, ambient_degc
+        )
+    return figures
 
 
 def _worst_load(

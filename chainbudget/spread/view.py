@@ -31,6 +31,7 @@ _UNITS = (
     ("_v", "V"),
     ("_a", "A"),
     ("_ohm", "ohm"),
+    ("_k_per_w", "K/W"),  # before ``_w``, which it ends with
     ("_w", "W"),
     ("_hz", "Hz"),
     ("_f", "F"),
