@@ -251,6 +251,8 @@ def test_the_spread_table_shows_shares_in_per_cent_and_names_their_figures() -> 
         "noise share a",
     )
     assert _place_and_figure("noise.placement.volume.lift_db") == ("volume", "snr lift if moved")
+    # a chain-wide figure at the chain, not at its own key folded over two lines
+    assert _place_and_figure("dynamic_range_a_db") == ("chain", "dynamic range a")
     assert _unit("noise.placement.volume.lift_db") == "dB"
 
 

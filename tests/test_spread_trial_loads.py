@@ -531,7 +531,8 @@ positive = "reg"
 
 
 def test_standing_currents_of_drawn_dividers_load_the_parent_per_trial() -> None:
-    """The battery's trough and mean per trial against Ohm's law worked here: the Thevenin
+    """The battery's trough and mean, and each supply's loads out of its pin and into its
+    input, per trial against Ohm's law worked here: the Thevenin
     source E - I R (Horowitz & Hill, The Art of Electronics, 3rd ed., ch. 1, from memory)
     under I = 0.1 A + I_q + V_ref/lower + V_out/bleeder + 24 V/(upper + lower), the
     regulator's set output V_out = V_ref (1 + upper/lower) + I_adj upper and the divider's
@@ -557,6 +558,15 @@ def test_standing_currents_of_drawn_dividers_load_the_parent_per_trial() -> None
     )
     np.testing.assert_allclose(got["supplies.cell.trough_v"], 22.0 - 10.0 * current, rtol=1e-12)
     np.testing.assert_allclose(got["supplies.cell.mean_v"], 24.0 - 10.0 * current, rtol=1e-12)
+    # the loads as the check JSON carries them: out of each pin and into each input
+    delivered = 0.1 + v_ref / lower + v_out / v["reg.bleeder"]
+    standing = 24.0 / (v["mid.upper"] + v["mid.lower"])
+    for key in ("idle_load_a", "nominal_load_a", "max_load_a"):
+        np.testing.assert_allclose(got[f"supplies.reg.{key}"], delivered, rtol=1e-12)
+        np.testing.assert_allclose(got[f"supplies.cell.{key}"], current, rtol=1e-12)
+    for key in ("input_idle_a", "input_max_a"):
+        np.testing.assert_allclose(got[f"supplies.reg.{key}"], delivered + 5e-3, rtol=1e-12)
+        np.testing.assert_allclose(got[f"supplies.mid.{key}"], standing, rtol=1e-12)
     for t in range(len(positions)):
         budget = compute(
             chain.with_values(trial_changes(chain, parts, [x[t : t + 1] for x in values]))
@@ -564,3 +574,8 @@ def test_standing_currents_of_drawn_dividers_load_the_parent_per_trial() -> None
         want = budget.supply("cell")
         assert got["supplies.cell.trough_v"][t] == pytest.approx(want.trough_v, rel=1e-9), t
         assert got["supplies.reg.input_min_v"][t] == pytest.approx(want.trough_v, rel=1e-9), t
+        for name in ("cell", "reg", "mid"):
+            for key in ("idle_load_a", "max_load_a", "input_max_a"):
+                value = getattr(budget.supply(name), key)
+                if value is not None:
+                    assert got[f"supplies.{name}.{key}"][t] == pytest.approx(value, rel=1e-9), t

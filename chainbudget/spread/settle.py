@@ -50,7 +50,7 @@ from numpy.typing import NDArray
 from chainbudget.budget import Budget
 from chainbudget.budget.analysis import positions_as_set, solve_chain
 from chainbudget.budget.currents import currents_at
-from chainbudget.budget.rails import external_loads, rail_owners
+from chainbudget.budget.rails import drawn_from_parent, external_loads, rail_owners
 from chainbudget.budget.supplies import moving_rails, stage_loads_of
 from chainbudget.chainfile import Chain
 from chainbudget.spread.parts import Part
@@ -128,6 +128,46 @@ def _per_trial(load: SupplyLoad, trials: int) -> SupplyLoad:
         flat(load.heaviest_pulse_a),
         load.signal_hz,
     )
+
+
+def load_figures(
+    chain: Chain,
+    loads: Mapping[str, SupplyLoad],
+    drawn: Mapping[str, Mapping[str, Array]],
+    unloaded: Mapping[str, SupplyState],
+    trials: int,
+) -> dict[str, Array]:
+    """Each rail's loads per trial as the check JSON carries them
+    (`chainbudget.budget.supplies.supply_budgets`), from ``loads``, the external load on
+    each rail per trial (the tree as settled, `SettledTrials.loads`), and ``drawn``, each
+    supply's own drawn parts by name: out of its pin (``idle_load_a``, ``nominal_load_a``,
+    ``max_load_a``: the load as its kind delivers it, `SupplyKind.trial_delivered`, a
+    regulator's drawn divider and bleeder in) and, below a parent, what it takes from
+    that parent (``input_idle_a``, ``input_max_a``: `SupplyKind.trial_draw`, or the file's
+    values where none of its own parts is drawn)."""
+    found: dict[str, Array] = {}
+
+    def put(rail: str, key: str, value: float) -> None:
+        array = np.asarray(value, dtype=float).reshape(-1)
+        found[f"supplies.{rail}.{key}"] = np.broadcast_to(array, (trials,)).copy()
+
+    for supply in chain.supplies:
+        kind = SUPPLY_KINDS[supply.kind]
+        mine = drawn.get(supply.name, {})
+        for rail in kind.rails(supply):
+            load = loads.get(rail, NO_LOAD)
+            out = kind.trial_delivered(supply, mine, load) if mine else None
+            out = kind.delivered(supply, load) if out is None else out
+            put(rail, "idle_load_a", out.idle_a)
+            put(rail, "nominal_load_a", out.nominal_a)
+            put(rail, "max_load_a", out.heaviest_a)
+            if supply.parent is None:
+                continue
+            taken = kind.trial_draw(supply, mine, load, unloaded[supply.parent]) if mine else None
+            taken = drawn_from_parent(chain, supply, load, unloaded) if taken is None else taken
+            put(rail, "input_idle_a", taken.idle_a)
+            put(rail, "input_max_a", taken.heaviest_a)
+    return found
 
 
 def with_loads(budget: Budget, chain: Chain, loads: Mapping[str, SupplyLoad]) -> Budget:

@@ -155,8 +155,8 @@ def _place_and_figure(path: str) -> tuple[str, str]:
     if group == "supplies":
         where = f"supply {place}"  # a supply may share a stage's name
     else:
-        # a chain-wide figure (``ein_dbu``) is its own place; the others name theirs
-        where = place or group
+        # a chain-wide figure (``ein_dbu``) is the chain's; the others name their place
+        where = place or "chain"
     return where, key.replace("_", " ")
 
 
@@ -188,10 +188,19 @@ def _listed_entry(path: str) -> tuple[str, str] | None:
 def _number(unit: str, value: float) -> str:
     """A figure as the table shows it: dB to two decimals, others to four digits (three
     below 0.01, a share of a few parts per million of the noise in per cent, so that no
-    number is wider than its column: ``0.000966``)."""
+    number is wider than its column: ``0.000966``). A pure number of 10,000 or more (a
+    damping factor: no unit to take a prefix) is written out to its four digits
+    (``149100``), from a hundred million up in three with an exponent (``1.49e+09``): at most
+    eight characters, so that a column never folds a number at 80 columns."""
     if unit in ("dB", "dBu"):
         return f"{value:+.2f}"
-    return f"{value:.3g}" if 0.0 < abs(value) < 0.01 else f"{value:.4g}"
+    if 0.0 < abs(value) < 0.01:
+        return f"{value:.3g}"
+    if 1e4 <= abs(value) < 1e8:
+        return f"{float(f'{value:.4g}'):.0f}"
+    if abs(value) >= 1e8:
+        return f"{value:.2e}"
+    return f"{value:.4g}"
 
 
 def _in_chain_order(paths: list[str], places: Sequence[str]) -> list[str]:

@@ -498,6 +498,14 @@ class SupplyKind(ABC):
         None where no drawn part moves it (the default): the file's values then serve."""
         return None
 
+    def trial_delivered(
+        self, supply: Supply, drawn: Mapping[str, NDArray[np.float64]], load: SupplyLoad
+    ) -> SupplyLoad | None:
+        """`delivered` with its own parts ``drawn`` (field -> (T,) values: the spread's
+        trials) under its external ``load``; None where no drawn part moves it (the
+        default): the file's values then serve."""
+        return None
+
     def rails(self, supply: Supply) -> tuple[str, ...]:
         """The rails the supply defines, by the names stages and supplies use for them; one,
         its own name, unless the kind builds more (a centre-tapped supply's ``.neg``)."""

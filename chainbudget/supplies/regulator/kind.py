@@ -258,11 +258,19 @@ class Regulator(SupplyKind):
         parent: SupplyState,
     ) -> SupplyLoad | None:
         """`input_load` with each trial's divider and bleeder currents
+        (`trial_delivered`)."""
+        delivered = self.trial_delivered(supply, drawn, load)
+        return None if delivered is None else delivered.plus(self.own_current(supply))
+
+    def trial_delivered(
+        self, supply: Supply, drawn: Mapping[str, NDArray[np.float64]], load: SupplyLoad
+    ) -> SupplyLoad | None:
+        """`delivered` with each trial's divider and bleeder currents
         (`chainbudget.supplies.regulator.spread.set_point`)."""
         if not drawn.keys() & set(self.spread_fields(supply)):
             return None
         _, divider_a, bleeder_a = set_point(self, supply, drawn)
-        return load.plus(cast(float, divider_a + bleeder_a + self.own_current(supply)))
+        return load.plus(cast(float, divider_a + bleeder_a))
 
     def state(self, supply: Supply, parent: SupplyState | None, load: SupplyLoad) -> SupplyState:
         assert parent is not None, "a regulator always has a parent (the loader sees to it)"
