@@ -99,6 +99,7 @@ def external_loads(
     chain: Chain,
     stage_loads: Mapping[str, SupplyLoad],
     drawn: Mapping[str, Mapping[str, NDArray[np.float64]]] | None = None,
+    unloaded: Mapping[str, SupplyState] | None = None,
 ) -> dict[str, SupplyLoad]:
     """Load on every rail: its stages plus what the supplies fed from it draw.
 
@@ -107,11 +108,11 @@ def external_loads(
     unloaded state (the small error is on the safe side: more current). ``drawn``: each
     supply's own parts drawn per trial, by supply name (the spread's); such a supply draws
     what its kind gives for each trial's values (`SupplyKind.trial_draw`), at its
-    parent's unloaded state as the file gives it.
+    parent's unloaded state as the file gives it. ``unloaded``: the tree's no-load states
+    where already worked out (`supply_states`; else worked out here when needed).
     """
     order = parents_first(chain)
     loads = {rail: stage_loads.get(rail, NO_LOAD) for s in order for rail in rails_of(s)}
-    unloaded: dict[str, SupplyState] | None = None
     for supply in reversed(order):  # children before parents
         if supply.parent is None:
             continue

@@ -89,15 +89,17 @@ def trial_loads(
     tone_hz: float,
     trials: int,
     drawn: Mapping[str, Mapping[str, Array]] | None = None,
+    unloaded: Mapping[str, SupplyState] | None = None,
 ) -> dict[str, SupplyLoad]:
     """Each rail's load per trial (fields (T,)) with the stages on ``envs``: the trial's
     chain solved at ``tone_hz`` with the controls as set, its currents
     (`chainbudget.budget.currents.currents_at`) summed per rail, and what the supplies fed
     from each rail draw (`chainbudget.budget.rails.external_loads`), with ``drawn`` each
-    supply's own drawn parts by name (module notes)."""
+    supply's own drawn parts by name (module notes) and ``unloaded`` the tree's no-load
+    states."""
     cascade = solve_chain(chain, envs, np.array([tone_hz]), positions_as_set(chain.stages))
     currents = currents_at(chain, cascade, envs, 0, tone_hz)
-    loads = external_loads(nominal_chain, stage_loads_of(currents), drawn)
+    loads = external_loads(nominal_chain, stage_loads_of(currents), drawn, unloaded)
     return {rail: _per_trial(load, trials) for rail, load in loads.items()}
 
 
@@ -213,7 +215,7 @@ def settle_trials(
     while evaluations < MAX_SETTLE_STEPS:
         on = {r: replace(voltages[r], low=cast(float, x[r].reshape(trials, 1))) for r in rails}
         on = {**voltages, **on}
-        loads = trial_loads(chain, nominal_chain, envs_on(on), tone_hz, trials, drawn)
+        loads = trial_loads(chain, nominal_chain, envs_on(on), tone_hz, trials, drawn, unloaded)
         tree = tree_spread(
             nominal_chain,
             parts,
