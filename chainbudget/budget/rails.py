@@ -83,11 +83,20 @@ def drawn_from_parent(
     supply: Supply,
     load: SupplyLoad,
     unloaded: Mapping[str, SupplyState] | None = None,
+    parts: Mapping[str, NDArray[np.float64]] | None = None,
 ) -> SupplyLoad:
     """What a supply with a parent draws from it given its external load: its kind's
     ``input_load`` and any standing current (a divider's), the latter at the parent's
-    unloaded state (``unloaded``: the tree's no-load states, if already worked out)."""
+    unloaded state (``unloaded``: the tree's no-load states, if already worked out).
+    ``parts``: its own parts drawn per trial (field -> (T,) values, the spread's); where
+    they move what it draws, its kind gives that for each trial's values
+    (`SupplyKind.trial_draw`), at the parent's unloaded state as the file gives it."""
     kind = KINDS[supply.kind]
+    if parts and supply.parent is not None:
+        states = supply_states(chain) if unloaded is None else unloaded
+        taken = kind.trial_draw(supply, parts, load, states[supply.parent])
+        if taken is not None:
+            return taken
     drawn = kind.input_load(supply, load)
     if supply.parent is not None and _has_standing_current(kind):
         states = supply_states(chain) if unloaded is None else unloaded
@@ -106,29 +115,24 @@ def external_loads(
     ``stage_loads`` maps a rail to the current its stages draw from it directly. A supply
     that draws a standing current whatever its load (a divider) draws it at its parent's
     unloaded state (the small error is on the safe side: more current). ``drawn``: each
-    supply's own parts drawn per trial, by supply name (the spread's); such a supply draws
-    what its kind gives for each trial's values (`SupplyKind.trial_draw`), at its
-    parent's unloaded state as the file gives it. ``unloaded``: the tree's no-load states
-    where already worked out (`supply_states`; else worked out here when needed).
+    supply's own parts drawn per trial, by supply name (the spread's: `drawn_from_parent`).
+    ``unloaded``: the tree's no-load states where already worked out (`supply_states`;
+    else worked out here when needed).
     """
     order = parents_first(chain)
     loads = {rail: stage_loads.get(rail, NO_LOAD) for s in order for rail in rails_of(s)}
     for supply in reversed(order):  # children before parents
         if supply.parent is None:
             continue
-        kind = KINDS[supply.kind]
         mine = (drawn or {}).get(supply.name)
-        if unloaded is None and (_has_standing_current(kind) or mine):
+        if unloaded is None and (_has_standing_current(KINDS[supply.kind]) or mine):
             unloaded = supply_states(chain)
         own = NO_LOAD
         for rail in rails_of(supply):
             own = own + loads[rail]
-        taken = None
-        if mine and unloaded is not None:
-            taken = kind.trial_draw(supply, mine, own, unloaded[supply.parent])
-        if taken is None:
-            taken = drawn_from_parent(chain, supply, own, unloaded)
-        loads[supply.parent] = loads[supply.parent] + taken
+        loads[supply.parent] = loads[supply.parent] + drawn_from_parent(
+            chain, supply, own, unloaded, mine
+        )
     return loads
 
 

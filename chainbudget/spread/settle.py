@@ -165,8 +165,7 @@ def load_figures(
             put(rail, "max_load_a", out.heaviest_a)
             if supply.parent is None:
                 continue
-            taken = kind.trial_draw(supply, mine, load, unloaded[supply.parent]) if mine else None
-            taken = drawn_from_parent(chain, supply, load, unloaded) if taken is None else taken
+            taken = drawn_from_parent(chain, supply, load, unloaded, mine)
             put(rail, "input_idle_a", taken.idle_a)
             put(rail, "input_max_a", taken.heaviest_a)
     return found
