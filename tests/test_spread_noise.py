@@ -253,6 +253,7 @@ def test_the_spread_table_shows_shares_in_per_cent_and_names_their_figures() -> 
     assert _place_and_figure("noise.placement.volume.lift_db") == ("volume", "snr lift if moved")
     # a chain-wide figure at the chain, not at its own key folded over two lines
     assert _place_and_figure("dynamic_range_a_db") == ("chain", "dynamic range a")
+    assert _place_and_figure("output.dissipation.clip_device_w") == ("output heat", "clip device")
     assert _unit("noise.placement.volume.lift_db") == "dB"
 
 

@@ -155,8 +155,9 @@ def _place_and_figure(path: str) -> tuple[str, str]:
     if group == "supplies":
         where = f"supply {place}"  # a supply may share a stage's name
     else:
-        # a chain-wide figure (``ein_dbu``) is the chain's; the others name their place
-        where = place or "chain"
+        # a chain-wide figure (``ein_dbu``) is the chain's; the others name their place,
+        # the output pair's heat (``output.dissipation.KEY``) in words
+        where = {"": "chain", "output.dissipation": "output heat"}.get(place, place)
     return where, key.replace("_", " ")
 
 
