@@ -456,11 +456,14 @@ def test_interpolated_rectifier_trough_equals_the_direct_solve() -> None:
 def test_every_example_spreads_into_json_and_80_columns(name: str) -> None:
     """Every example chain: the JSON holds the contract's keys and no NaN or Infinity, the
     table reads at 80 columns in ASCII (the house rule for reports), and every number of
-    its figures stands whole on one line (a damping factor of 150,000 was folded)."""
+    its figures and every word of their names (up to eight letters, and "resistance" on
+    the field recorder) stands whole on one line (a damping factor of 150,000 was folded,
+    and with it "resistance")."""
     from chainbudget.chainfile import load_chain
     from chainbudget.report.plain_text import plain_text
     from chainbudget.spread.view import (
         _number,
+        _place_and_figure,
         is_harmonic,
         moving,
         scaled,
@@ -492,6 +495,15 @@ def test_every_example_spreads_into_json_and_80_columns(name: str) -> None:
         for value in (result.stats[path]["p1"], *result.corners[path]):
             shown = _number(unit, value / scale)
             assert any(shown in line.split() for line in lines), (path, shown)
+        # and each word of its name up to eight letters (the least the name's column is
+        # left beside five columns of numbers of up to eight characters)
+        for word in _place_and_figure(path)[1].split():
+            if len(word) <= 8:
+                assert any(word in line.split() for line in lines), (path, word)
+    if name == "field_recorder_battery.toml":
+        # a nine-character number (1.491e+05) widened every number column, and the names'
+        # column, left the rest, folded "resistance"
+        assert any("resistance" in line.split() for line in lines)
 
 
 PUSH_PULL = (
