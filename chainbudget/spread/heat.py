@@ -74,7 +74,7 @@ def heat_figures(
     figures.update(_turn_on(stage, env, trials))
     worst = _worst_dissipation(chain, stage, env, trials)
     figures["output.device_dissipation_w"] = worst.hot_w
-    figures.update(_curve_figures(chain, stage, worst))
+    figures.update(_curve_figures(chain, worst))
     junction = _junction(stage, chain.settings.ambient, worst.hot_w, worst.pair_w)
     where = stage.name
     if junction is None:
@@ -135,6 +135,13 @@ class WorstHeat:
     z: NDArray[np.complex128]
     rails: tuple[NDArray[np.float64], NDArray[np.float64]]
     clip_vpk: NDArray[np.float64]
+    i_q: float
+
+    def devices(self, vpk: Any) -> NDArray[np.float64]:
+        """Each device's dissipation at the level ``vpk`` into the load there, (2, T)."""
+        return np.stack(
+            [om.class_b_device_dissipation(v, vpk, self.z, self.i_q) for v in self.rails]
+        )
 
 
 def _worst_dissipation(chain: Chain, stage: Stage, env: Environment, trials: int) -> WorstHeat:
@@ -162,7 +169,9 @@ def _worst_dissipation(chain: Chain, stage: Stage, env: Environment, trials: int
     rows = np.arange(trials)
     worst_vpk = np.stack(candidates)[hot, rows]
     pair = np.stack([om.class_b_device_dissipation(v, worst_vpk, z, i_q) for v in rails])
-    return WorstHeat(values[hot, rows], pair.sum(axis=0), worst_vpk, z, (rails[0], rails[1]), clip)
+    return WorstHeat(
+        values[hot, rows], pair.sum(axis=0), worst_vpk, z, (rails[0], rails[1]), clip, i_q
+    )
 
 
 DISSIPATION = "output.dissipation."
@@ -182,8 +191,7 @@ def nominal_heat_figures(
     stage = chain.stages[-1]
     worst = _worst_dissipation(chain, stage, hot_envs[-1], trials)
     level = np.minimum(_trials(np.asarray(output_nominal_vpk, dtype=float), trials), worst.clip_vpk)
-    i_q = stage.number("quiescent")
-    pair = np.stack([om.class_b_device_dissipation(v, level, worst.z, i_q) for v in worst.rails])
+    pair = worst.devices(level)
     figures: Figures = {
         DISSIPATION + "nominal_vpk": level,
         DISSIPATION + "nominal_device_w": pair.max(axis=0),
@@ -194,7 +202,7 @@ def nominal_heat_figures(
     return figures
 
 
-def _curve_figures(chain: Chain, stage: Stage, worst: WorstHeat) -> Figures:
+def _curve_figures(chain: Chain, worst: WorstHeat) -> Figures:
     """The check's ``output.dissipation`` entries the drawn parts move, per trial
     (`chainbudget.stages.push_pull.heat.push_pull_dissipation`, the same formulas on the
     trial axis): the worst sine's level ``worst_vpk``, the hotter device at the stage's own
@@ -202,9 +210,8 @@ def _curve_figures(chain: Chain, stage: Stage, worst: WorstHeat) -> Figures:
     times the rail's average current V_pk/(pi |Z|) and I_q), the worst into a resistor of
     |Z| ``resistive_worst_device_w`` (the clip the complex load's), and, where the load is
     reactive, the load's magnitude and phase at the frequency the heat is worst."""
-    i_q = stage.number("quiescent")
-    z, clip, rails = worst.z, worst.clip_vpk, worst.rails
-    at_clip = np.stack([om.class_b_device_dissipation(v, clip, z, i_q) for v in rails])
+    z, clip, rails, i_q = worst.z, worst.clip_vpk, worst.rails, worst.i_q
+    at_clip = worst.devices(clip)
     supply = sum(v * (om.class_b_rail_average_current(clip, z) + i_q) for v in rails)
     resistive = np.abs(z)
     candidates = [np.minimum(om.class_b_worst_vpk(v, 0.0), clip) for v in rails]
@@ -233,10 +240,7 @@ def _sink_figures(stage: Stage, ambient_degc: float, worst: WorstHeat) -> Figure
     ``max_heatsink_k_per_w``: (T_max - T_a)/P - theta_inner on a heatsink of its own,
     (T_max - T_a - P theta_inner)/(P_upper + P_lower) on a shared one (thermal Ohm's law,
     Horowitz & Hill 3rd ed. sec. 9.4; `push_pull_dissipation`'s formulas per trial)."""
-    i_q = stage.number("quiescent")
-    at_clip = np.stack(
-        [om.class_b_device_dissipation(v, worst.clip_vpk, worst.z, i_q) for v in worst.rails]
-    )
+    at_clip = worst.devices(worst.clip_vpk)
     figures: Figures = {}
     junction = _junction(stage, ambient_degc, at_clip.max(axis=0), at_clip.sum(axis=0))
     if junction is not None:
