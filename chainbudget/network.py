@@ -3,7 +3,7 @@
 A `Netlist` is built for one frequency vector. Element values may carry leading batch axes
 (pot positions of swept controls, later Monte Carlo trials) and always broadcast against a
 trailing frequency axis, so the stamped matrix has shape ``batch + (F, N, N)`` and is solved
-with one batched ``np.linalg.solve``.
+with one batched solve (`chainbudget.sparse_lu`).
 
 Notes
 -----
@@ -25,7 +25,8 @@ from typing import Any
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from chainbudget import ChainError
+from chainbudget import ChainError, sparse_lu
+from chainbudget.sparse_lu import Pattern
 from chainbudget.spectrum import thermal_current_psd
 
 GROUND = "0"
@@ -81,15 +82,36 @@ def _as_is(x: Complex) -> Complex:
     return x
 
 
-def _solved(m: Complex, b: Complex) -> Complex:
-    """``np.linalg.solve``, a singular matrix reported as `SingularNetwork`."""
-    try:
-        return np.linalg.solve(m, b)
-    except np.linalg.LinAlgError:
-        raise SingularNetwork(
-            "its network has no single solution (a node shorted or cut off, most likely by a "
-            "value far outside its range)"
-        ) from None
+@dataclass(frozen=True)
+class Stamped:
+    """An assembled MNA matrix, entry-major (``(N, N) + batch``: entry (i, j) of every
+    matrix of the batch one array), with its sparsity pattern."""
+
+    entries: Complex
+    pattern: Pattern
+
+    def batch_major(self) -> Complex:
+        """The matrices as ``batch + (N, N)`` (a view)."""
+        return np.moveaxis(self.entries, (0, 1), (-2, -1))
+
+    def transposed(self) -> Stamped:
+        return Stamped(np.swapaxes(self.entries, 0, 1), self.pattern.transposed())
+
+    @property
+    def batch(self) -> tuple[int, ...]:
+        return self.entries.shape[2:]
+
+    def solve(self, b: Complex) -> Complex:
+        """x of A x = b for each matrix (`chainbudget.sparse_lu`), ``b`` of shape
+        ``(N, K)`` or ``batch + (N, K)``; a singular matrix reported as
+        `SingularNetwork`."""
+        try:
+            return sparse_lu.solve(self.entries, self.pattern, b)
+        except np.linalg.LinAlgError:
+            raise SingularNetwork(
+                "its network has no single solution (a node shorted or cut off, most likely "
+                "by a value far outside its range)"
+            ) from None
 
 
 def _on_points(size: int, at: NDArray[np.intp] | None) -> Any:
@@ -490,9 +512,9 @@ class Netlist:
         others (and the signal source) at zero (Ho, Ruehli & Brennan, IEEE Trans. CAS-22
         (1975) 504).
         """
-        m = self.matrix()  # every row: the sources' coefficients may differ per row
+        stamped = self.stamped()  # every row: the sources' coefficients may differ per row
         count = len(self.ripple)
-        b = np.zeros((*m.shape[:-1], count + 1), dtype=complex)
+        b = np.zeros((*stamped.batch, self.size, count + 1), dtype=complex)
         for r, source in enumerate(self.ripple):
             for ref, coefficient in source.rhs:
                 index = self.index(ref)
@@ -500,7 +522,7 @@ class Netlist:
                     b[..., index, r] += coefficient
         if "source" in self.branches:
             b[..., self.index(branch_ref("source")), count] = 1.0
-        x = _solved(m, b)
+        x = stamped.solve(b)
         rows = [self.nodes[name] for name in nodes]
         picked = x[..., rows, :]
         return picked[..., :count], picked[..., count]
@@ -551,14 +573,14 @@ class Netlist:
 
     def _assembled(
         self, without_controls_of: str | None = None, at: NDArray[np.intp] | None = None
-    ) -> tuple[Complex, Callable[[Complex], Complex]]:
-        """`matrix`, with each distinct row only where `distinct_rows` finds repeats, and
+    ) -> tuple[Stamped, Callable[[Complex], Complex]]:
+        """`stamped`, with each distinct row only where `distinct_rows` finds repeats, and
         the function that puts a solution of it back on every row."""
         distinct = self.distinct_rows(at)
         if distinct is None or distinct[0].size == distinct[1].size:
-            return self.matrix(without_controls_of, at), _as_is
+            return self.stamped(without_controls_of, at), _as_is
         first, inverse = distinct
-        return self.matrix(without_controls_of, at, rows=first), lambda x: x[inverse]
+        return self.stamped(without_controls_of, at, rows=first), lambda x: x[inverse]
 
     def matrix(
         self,
@@ -570,6 +592,15 @@ class Netlist:
         leaves that controlled source's controls out (`return_ratio`); ``at`` assembles it
         at those indices of the frequency axis only (``batch + (len(at), N, N)``); ``rows``
         at those rows of the batch's leading axis only (`distinct_rows`)."""
+        return self.stamped(without_controls_of, at, rows).batch_major()
+
+    def stamped(
+        self,
+        without_controls_of: str | None = None,
+        at: NDArray[np.intp] | None = None,
+        rows: NDArray[np.intp] | None = None,
+    ) -> Stamped:
+        """`matrix` as it is assembled, entry-major, with its sparsity pattern."""
         values, shape = self._values(at)
         # a value that is one number for the whole batch is summed into the constant part;
         # an array is added into its entry (decided on the whole batch, so that its rows
@@ -587,10 +618,9 @@ class Netlist:
         fixed[diagonal, diagonal] += GMIN
         # Laid out entry-major, (N, N) + batch, so that each entry's write is one contiguous
         # pass over the batch (an MNA matrix is mostly zeros: only the others are written),
-        # and handed back as the batch-major view numpy's solve takes (its solve copies each
-        # matrix into its own buffer either way). Each array value is added into its entry
-        # in place (no temporary per stamp); the constant parts are summed apart and added
-        # last.
+        # the layout `sparse_lu` works in (one array per entry). Each array value is added
+        # into its entry in place (no temporary per stamp); the constant parts are summed
+        # apart and added last.
         m = np.zeros((n, n, *shape), dtype=complex)
         written = np.zeros((n, n), dtype=bool)
 
@@ -630,7 +660,10 @@ class Netlist:
                 m[r, c] += fixed[r, c]
             else:
                 m[r, c] = fixed[r, c]
-        return np.moveaxis(m, (0, 1), (-2, -1))
+        # a branch's incidence entries are exactly +-1 in every matrix (`sparse_lu` pivots
+        # on them)
+        unit = ~written & (np.abs(fixed) == 1.0)
+        return Stamped(m, Pattern(written | (fixed != 0), unit, len(self.nodes)))
 
     def solve(self, rhs: ArrayLike) -> Complex:
         """Solve the network for right-hand sides ``rhs`` of shape ``(..., N, K)``; with
@@ -639,11 +672,10 @@ class Netlist:
         b = np.asarray(rhs, dtype=complex)
         on_rows: Callable[[Complex], Complex] = _as_is
         if b.ndim > 2:  # a right-hand side per row: every row assembled and solved
-            m = self.matrix(at=self.points)
+            stamped = self.stamped(at=self.points)
         else:
-            m, on_rows = self._assembled(at=self.points)
-        b = np.broadcast_to(b, (*m.shape[:-2], *b.shape[-2:]))
-        x = on_rows(_solved(m, b))
+            stamped, on_rows = self._assembled(at=self.points)
+        x = on_rows(stamped.solve(b))
         if self.points is None:
             return x
         spread = np.zeros(self.frequency.shape[-1], dtype=np.intp)
@@ -666,12 +698,12 @@ class Netlist:
         A(s)(v+ - v-) in a negative-feedback loop, T = A beta at low frequency, and the
         closed-loop figures are their open-loop values over (1 + T).
         """
-        m, on_rows = self._assembled(without_controls_of=label)
+        stamped, on_rows = self._assembled(without_controls_of=label)
         k = self.index(branch_ref(label))
         controls = next(c for name, _, c in self._branch_stamps if name == label)
-        e = np.zeros(m.shape[:-1], dtype=complex)
-        e[..., k] = 1.0
-        x = on_rows(np.linalg.solve(m, e[..., None])[..., 0])
+        e = np.zeros((self.size, 1), dtype=complex)
+        e[k] = 1.0
+        x = on_rows(stamped.solve(e)[..., 0])
         # The branch row holds v(out) + sum_i c_i v(c_i) with c_i = -g_i (see `vcvs`), so
         # the returned value is R = -sum_i c_i v(c_i) and T = sum_i c_i v(c_i).
         returned = np.zeros(x.shape[:-1], dtype=complex)
@@ -698,11 +730,11 @@ class Netlist:
     def adjoint_transfers(self, output_nodes: Sequence[str]) -> list[tuple[Complex, list[Complex]]]:
         """`adjoint_transfer` to each of several nodes from one assembly of the matrix and
         one solve with a right-hand side per node (the same adjoint method)."""
-        m, on_rows = self._assembled()
-        e = np.zeros((*m.shape[:-1], len(output_nodes)), dtype=complex)
+        stamped, on_rows = self._assembled()
+        e = np.zeros((self.size, len(output_nodes)), dtype=complex)
         for j, node in enumerate(output_nodes):
-            e[..., self.nodes[node], j] = 1.0
-        solved = on_rows(_solved(np.swapaxes(m, -1, -2), e))
+            e[self.nodes[node], j] = 1.0
+        solved = on_rows(stamped.transposed().solve(e))
         found = []
         for j in range(len(output_nodes)):
             z = solved[..., j]

@@ -27,19 +27,20 @@ C = np.array([10e-9, 22e-9, 10e-9, 10e-9, 22e-9, 10e-9])
 
 @contextmanager
 def _solved_counted() -> Iterator[list[int]]:
-    """The matrices `numpy.linalg.solve` is handed (the leading axis' length), per call."""
+    """The matrices the batched solve (`chainbudget.sparse_lu.solve`, entry-major) is handed
+    (the batch's leading axis' length), per call."""
     counted: list[int] = []
-    original = network.np.linalg.solve
+    original = network.sparse_lu.solve
 
-    def counting(m: NDArray[np.complex128], b: NDArray[np.complex128]) -> object:
-        counted.append(int(np.shape(m)[0]) if np.ndim(m) > 3 else 1)
-        return original(m, b)
+    def counting(entries: NDArray[np.complex128], *args: object) -> object:
+        counted.append(int(np.shape(entries)[2]) if np.ndim(entries) > 3 else 1)
+        return original(entries, *args)  # type: ignore[arg-type]
 
-    network.np.linalg.solve = counting  # type: ignore[assignment]
+    network.sparse_lu.solve = counting  # type: ignore[assignment]
     try:
         yield counted
     finally:
-        network.np.linalg.solve = original  # type: ignore[assignment]
+        network.sparse_lu.solve = original
 
 
 def _divider(r1: NDArray[np.float64], c: NDArray[np.float64]) -> Netlist:
