@@ -77,7 +77,7 @@ from chainbudget.spread.loops import closed_loop_figures, loop_figures, loop_thr
 from chainbudget.spread.noise import output_noise
 from chainbudget.spread.parts import Part, with_beta
 from chainbudget.spread.settings import HeldSettings, held_settings, worst_of_candidates
-from chainbudget.spread.settle import load_figures, settle_trials, supply_parts
+from chainbudget.spread.settle import load_figures, settle_trials
 from chainbudget.spread.staging import needs_worst_headroom, staging_flags
 from chainbudget.spread.thd import thd_figures
 from chainbudget.spread.volume import volume_flags
@@ -253,8 +253,7 @@ class Evaluator:
         )
         tree = settled.tree
         figures: Figures = dict(file(tree.figures, "supplies"))
-        drawn = supply_parts(self.chain, self.parts, values)
-        loads = load_figures(self.chain, settled.loads, drawn, self.unloaded, trials)
+        loads = load_figures(self.chain, settled.loads, settled.drawn, self.unloaded, trials)
         figures.update(file(loads, "supplies"))
         voltages, ripples = tree.voltages, tree.ripples
         if steps is not None and steps <= {"supplies"}:

@@ -24,6 +24,7 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from dataclasses import dataclass
+from functools import cached_property
 from typing import Any
 
 import numpy as np
@@ -143,6 +144,11 @@ class WorstHeat:
             [om.class_b_device_dissipation(v, vpk, self.z, self.i_q) for v in self.rails]
         )
 
+    @cached_property
+    def at_clip(self) -> NDArray[np.float64]:
+        """`devices` at the stage's own clip (the clip figures' and its junction's)."""
+        return self.devices(self.clip_vpk)
+
 
 def _worst_dissipation(chain: Chain, stage: Stage, env: Environment, trials: int) -> WorstHeat:
     """The hotter device's worst continuous dissipation per trial (`WorstHeat`)."""
@@ -211,7 +217,7 @@ def _curve_figures(chain: Chain, worst: WorstHeat) -> Figures:
     |Z| ``resistive_worst_device_w`` (the clip the complex load's), and, where the load is
     reactive, the load's magnitude and phase at the frequency the heat is worst."""
     z, clip, rails, i_q = worst.z, worst.clip_vpk, worst.rails, worst.i_q
-    at_clip = worst.devices(clip)
+    at_clip = worst.at_clip
     supply = sum(v * (om.class_b_rail_average_current(clip, z) + i_q) for v in rails)
     resistive = np.abs(z)
     candidates = [np.minimum(om.class_b_worst_vpk(v, 0.0), clip) for v in rails]
@@ -240,7 +246,7 @@ def _sink_figures(stage: Stage, ambient_degc: float, worst: WorstHeat) -> Figure
     ``max_heatsink_k_per_w``: (T_max - T_a)/P - theta_inner on a heatsink of its own,
     (T_max - T_a - P theta_inner)/(P_upper + P_lower) on a shared one (thermal Ohm's law,
     Horowitz & Hill 3rd ed. sec. 9.4; `push_pull_dissipation`'s formulas per trial)."""
-    at_clip = worst.devices(worst.clip_vpk)
+    at_clip = worst.at_clip
     figures: Figures = {}
     junction = _junction(stage, ambient_degc, at_clip.max(axis=0), at_clip.sum(axis=0))
     if junction is not None:

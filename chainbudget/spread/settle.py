@@ -74,12 +74,14 @@ Array = NDArray[np.float64]
 class SettledTrials:
     """The tree as settled per trial: its spread (`TreeSpread`), the loads per trial that
     settle it (each rail's `SupplyLoad`, fields (T,)), the largest disagreement left on
-    any trial's rail, V, and the evaluations spent."""
+    any trial's rail, V, the evaluations spent, and each supply's own drawn parts it was
+    settled with (`supply_parts`)."""
 
     tree: TreeSpread
     loads: dict[str, SupplyLoad]
     residual_v: float
     evaluations: int
+    drawn: dict[str, dict[str, Array]]
 
 
 def trial_loads(
@@ -249,7 +251,7 @@ def settle_trials(
             step[r] = np.where(moving, stepped, x[r])
         previous = (x, y)
         x = step
-    return SettledTrials(tree, loads, residual, evaluations)
+    return SettledTrials(tree, loads, residual, evaluations, drawn)
 
 
 def _low(corners: Corners, trials: int) -> Array:
