@@ -50,9 +50,11 @@ from numpy.typing import NDArray
 
 Complex = NDArray[np.complexfloating[Any, Any]]
 
-#: The normwise backward error above which a matrix is solved again with partial pivoting
-#: (LAPACK's own on these matrices: about 2e-16).
-BACKWARD_ERROR = 1e-13
+#: The normwise backward error above which a matrix is solved again with partial pivoting:
+#: about 18 units of round-off, LAPACK's level (its own on the examples' matrices: about
+#: 2e-16). Of the spread's matrices (100 trials) none of the kitchen radio's is above it,
+#: 0.6 % of the busking amp's and 3 % of the practice amp's.
+BACKWARD_ERROR = 4e-15
 
 
 @dataclass(frozen=True)
