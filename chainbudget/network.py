@@ -84,29 +84,29 @@ def _as_is(x: Complex) -> Complex:
 
 @dataclass(frozen=True)
 class Stamped:
-    """An assembled MNA matrix, entry-major (``(N, N) + batch``: entry (i, j) of every
-    matrix of the batch one array), with its sparsity pattern."""
+    """An assembled MNA matrix, entry by entry (`sparse_lu.Entries`: entry (i, j) of every
+    matrix of the batch one array of shape ``batch``, only the nonzero ones), with its
+    sparsity pattern."""
 
-    entries: Complex
+    entries: dict[tuple[int, int], Complex]
     pattern: Pattern
+    batch: tuple[int, ...]
 
     def batch_major(self) -> Complex:
-        """The matrices as ``batch + (N, N)`` (a view)."""
-        return np.moveaxis(self.entries, (0, 1), (-2, -1))
+        """The matrices as ``batch + (N, N)``."""
+        n = self.pattern.nonzero.shape[0]
+        return np.moveaxis(sparse_lu.dense(self.entries, n, self.batch), (0, 1), (-2, -1))
 
     def transposed(self) -> Stamped:
-        return Stamped(np.swapaxes(self.entries, 0, 1), self.pattern.transposed())
-
-    @property
-    def batch(self) -> tuple[int, ...]:
-        return self.entries.shape[2:]
+        swapped = {(c, r): value for (r, c), value in self.entries.items()}
+        return Stamped(swapped, self.pattern.transposed(), self.batch)
 
     def solve(self, b: Complex) -> Complex:
         """x of A x = b for each matrix (`chainbudget.sparse_lu`), ``b`` of shape
         ``(N, K)`` or ``batch + (N, K)``; a singular matrix reported as
         `SingularNetwork`."""
         try:
-            return sparse_lu.solve(self.entries, self.pattern, b)
+            return sparse_lu.solve(self.entries, self.pattern, self.batch, b)
         except np.linalg.LinAlgError:
             raise SingularNetwork(
                 "its network has no single solution (a node shorted or cut off, most likely "
@@ -600,7 +600,7 @@ class Netlist:
         at: NDArray[np.intp] | None = None,
         rows: NDArray[np.intp] | None = None,
     ) -> Stamped:
-        """`matrix` as it is assembled, entry-major, with its sparsity pattern."""
+        """`matrix` as it is assembled, entry by entry, with its sparsity pattern."""
         values, shape = self._values(at)
         # a value that is one number for the whole batch is summed into the constant part;
         # an array is added into its entry (decided on the whole batch, so that its rows
@@ -616,19 +616,21 @@ class Netlist:
         fixed = np.zeros((n, n), dtype=complex)
         diagonal = np.arange(len(self.nodes))
         fixed[diagonal, diagonal] += GMIN
-        # Laid out entry-major, (N, N) + batch, so that each entry's write is one contiguous
-        # pass over the batch (an MNA matrix is mostly zeros: only the others are written),
-        # the layout `sparse_lu` works in (one array per entry). Each array value is added
-        # into its entry in place (no temporary per stamp); the constant parts are summed
-        # apart and added last.
-        m = np.zeros((n, n, *shape), dtype=complex)
+        # Held entry by entry, each one contiguous array over the batch (an MNA matrix is
+        # mostly zeros: only the others exist), the form `sparse_lu` works in. Each array
+        # value is added into its entry in place (no temporary per stamp); the constant
+        # parts are summed apart and added last, an entry that is constant alone as a
+        # broadcast view of its one value.
+        m: dict[tuple[int, int], Complex] = {}
         written = np.zeros((n, n), dtype=bool)
 
         def add(r: int, c: int, sign: float, value: Any, is_constant: bool) -> None:
             if is_constant:
                 fixed[r, c] += sign * np.asarray(value).reshape(())
                 return
-            entry = m[r, c]
+            entry = m.get((r, c))
+            if entry is None:
+                entry = m[r, c] = np.zeros(shape, dtype=complex)
             if sign == 1.0:
                 np.add(entry, value, out=entry)
             elif sign == -1.0:
@@ -659,11 +661,11 @@ class Netlist:
             if written[r, c]:
                 m[r, c] += fixed[r, c]
             else:
-                m[r, c] = fixed[r, c]
+                m[r, c] = np.broadcast_to(fixed[r, c], shape)
         # a branch's incidence entries are exactly +-1 in every matrix (`sparse_lu` pivots
         # on them)
         unit = ~written & (np.abs(fixed) == 1.0)
-        return Stamped(m, Pattern(written | (fixed != 0), unit, len(self.nodes)))
+        return Stamped(m, Pattern(written | (fixed != 0), unit, len(self.nodes)), shape)
 
     def solve(self, rhs: ArrayLike) -> Complex:
         """Solve the network for right-hand sides ``rhs`` of shape ``(..., N, K)``; with

@@ -12,7 +12,8 @@ entry the elimination touches.
 Notes
 -----
 Gaussian elimination with a static pivot order, the symbolic/numeric split of direct
-sparse solvers (Davis, Direct Methods for Sparse Linear Systems, SIAM 2006, ch. 6-7):
+sparse solvers (Davis, Direct Methods for Sparse Linear Systems, SIAM 2006, ch. 6-7; from
+memory):
 
 1. **Rows matched to columns.** Every pivot must be structurally nonzero. A node's row
    keeps its own diagonal; the equation of a voltage-defined branch (a source or a
@@ -41,6 +42,7 @@ sparse solvers (Davis, Direct Methods for Sparse Linear Systems, SIAM 2006, ch. 
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass
 from functools import lru_cache
 from typing import Any
@@ -88,9 +90,8 @@ class _Plan:
     steps: tuple[_Step, ...]
     #: the (slot, column) entries the factors hold: the nonzeros and the fill
     entries: tuple[tuple[int, int], ...]
-    #: the original matrix's nonzero entries (rows, columns), for the residual
-    original_rows: NDArray[np.intp]
-    original_cols: NDArray[np.intp]
+    #: the original matrix's nonzero entries, for the residual
+    original: tuple[tuple[int, int], ...]
 
 
 class _StructurallySingular(Exception):
@@ -154,8 +155,8 @@ def _plan_of(nonzero: bytes, unit: bytes, n: int, nodes: int) -> _Plan:
             filled[i, list(right)] = True
         steps.append(_Step(k, below, right))
     entries = tuple((int(s), int(c)) for s, c in zip(*np.nonzero(filled), strict=True))
-    original_rows, original_cols = np.nonzero(pattern.nonzero)
-    return _Plan(tuple(rows), tuple(steps), entries, original_rows, original_cols)
+    original = tuple((int(r), int(c)) for r, c in zip(*np.nonzero(pattern.nonzero), strict=True))
+    return _Plan(tuple(rows), tuple(steps), entries, original)
 
 
 def plan_for(pattern: Pattern) -> _Plan | None:
@@ -172,21 +173,39 @@ def plan_for(pattern: Pattern) -> _Plan | None:
         return None
 
 
-def solve(entries: Complex, pattern: Pattern, rhs: Complex) -> Complex:
+#: The nonzero entries of a batch of matrices: entry (i, j) of every matrix of the batch,
+#: one array of the batch's shape (a constant one may be a broadcast view).
+Entries = Mapping[tuple[int, int], Complex]
+
+
+def by_entry(dense: Complex, pattern: Pattern) -> dict[tuple[int, int], Complex]:
+    """The nonzero entries of matrices held entry-major, ``(N, N) + batch``."""
+    rows, cols = np.nonzero(pattern.nonzero)
+    return {(int(r), int(c)): dense[r, c] for r, c in zip(rows, cols, strict=True)}
+
+
+def dense(entries: Entries, n: int, batch: tuple[int, ...]) -> Complex:
+    """The matrices entry-major, ``(N, N) + batch``, zeros where no entry is given."""
+    found = np.zeros((n, n, *batch), dtype=complex)
+    for (r, c), value in entries.items():
+        found[r, c] = value
+    return found
+
+
+def solve(entries: Entries, pattern: Pattern, batch: tuple[int, ...], rhs: Complex) -> Complex:
     """Solve A x = b for every matrix of a batch.
 
-    ``entries`` holds the matrices entry-major, shape ``(N, N) + batch`` (entry (i, j) of
-    every matrix one array over the batch); ``rhs`` has shape ``(N, K)`` or
+    ``entries`` holds the matrices' nonzero entries (`Entries`: only those of
+    ``pattern.nonzero``), each of shape ``batch``; ``rhs`` has shape ``(N, K)`` or
     ``batch + (N, K)``. Returns x with shape ``batch + (N, K)``.
     """
-    n = entries.shape[0]
-    batch = entries.shape[2:]
+    n = pattern.nonzero.shape[0]
     size = int(np.prod(batch, dtype=np.int64))
     k_count = rhs.shape[-1]
     plan = plan_for(pattern) if size > 0 else None
     if plan is None:
-        return np.linalg.solve(np.moveaxis(entries, (0, 1), (-2, -1)), rhs)
-    a = entries.reshape(n, n, size)
+        return np.linalg.solve(np.moveaxis(dense(entries, n, batch), (0, 1), (-2, -1)), rhs)
+    a = {key: np.reshape(value, size) for key, value in entries.items()}
     b = _entry_major_rhs(rhs, batch, size)
     # one right-hand side for the whole batch: its size is one number
     b_size = _largest(np.asarray(rhs, complex)[..., None]) if rhs.ndim == 2 else _largest(b)
@@ -196,7 +215,9 @@ def solve(entries: Complex, pattern: Pattern, rhs: Complex) -> Complex:
     found = np.moveaxis(x, -1, 0)  # (size, N, K), each matrix's solution
     if bad.any():  # partial pivoting where the static pivots did not hold
         redo = np.flatnonzero(bad)
-        matrices = np.moveaxis(a[:, :, redo], -1, 0)
+        matrices = np.zeros((redo.size, n, n), dtype=complex)
+        for (r, c), value in a.items():
+            matrices[:, r, c] = value[redo]
         found = found.copy()
         found[redo] = np.linalg.solve(matrices, np.moveaxis(b[:, :, redo], -1, 0))
     return found.reshape(*batch, n, k_count)
@@ -210,14 +231,17 @@ def _entry_major_rhs(rhs: Complex, batch: tuple[int, ...], size: int) -> Complex
     return np.ascontiguousarray(np.moveaxis(flat, 0, -1), dtype=complex)
 
 
-def _factored_solve(plan: _Plan, a: Complex, b: Complex) -> Complex:
+def _factored_solve(plan: _Plan, a: Entries, b: Complex) -> Complex:
     """x as ``(N, K, size)``: the factor and both substitutions, one batch vector per
-    operation (``a`` as ``(N, N, size)``, ``b`` as ``(N, K, size)``)."""
-    n = a.shape[0]
+    operation (``a`` each entry as ``(size,)``, ``b`` as ``(N, K, size)``)."""
+    n, _, size = b.shape
     rows = plan.rows
-    lu = {(s, c): a[rows[s], c].copy() for s, c in plan.entries}
+    lu = {
+        (s, c): a[rows[s], c].copy() if (rows[s], c) in a else np.zeros(size, dtype=complex)
+        for s, c in plan.entries
+    }
     y = b[list(rows)]  # a copy (N, K, size), in slot order
-    product = np.empty(a.shape[2], dtype=complex)
+    product = np.empty(size, dtype=complex)
     for step in plan.steps:
         k = step.pivot
         pivot_row = [lu[k, j] for j in step.right]
@@ -240,7 +264,7 @@ def _factored_solve(plan: _Plan, a: Complex, b: Complex) -> Complex:
 
 
 def _backward_error(
-    plan: _Plan, a: Complex, b: Complex, x: Complex, b_size: NDArray[np.float64]
+    plan: _Plan, a: Entries, b: Complex, x: Complex, b_size: NDArray[np.float64]
 ) -> NDArray[np.float64]:
     """Each matrix's normwise backward error in the infinity norm, bounded from above: the
     size of a complex number taken as max(|re|, |im|) (at least 1/sqrt(2) of its modulus)
@@ -248,9 +272,9 @@ def _backward_error(
     for the check, not a figure; a breakdown, NaN or infinite, counts as failing. ``b_size``
     is `_largest` of ``b``."""
     residual = b.copy()
-    for r, c in zip(plan.original_rows, plan.original_cols, strict=True):
+    for r, c in plan.original:
         residual[r] -= a[r, c] * x[c]
-    values = a[plan.original_rows, plan.original_cols]  # (nnz, size)
+    values = np.stack([a[key] for key in plan.original])  # (nnz, size)
     norm_a = _largest(values[:, None, :])
     scale = norm_a * _largest(x) + b_size
     size_r = _largest(residual)

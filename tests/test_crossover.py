@@ -207,6 +207,18 @@ def test_the_loop_divides_each_harmonic_by_its_return_difference() -> None:
             assert after == pytest.approx(expected, abs=1e-9)
 
 
+def test_a_half_driven_far_off_has_no_slope_and_no_warning() -> None:
+    """dI/dy = 1/(m V_T/I + R) (the junction law behind R differentiated), whose limit as
+    I -> 0 is 0: a current underflowed to 0, or a subnormal one, gives 0 (the suite turns
+    a division warning into a failure). Found by the fuzz: rails of 10^6 V drive the off
+    half's current below the smallest double. 1 mA by hand: 1/(0.0257/1e-3 + 0.22)."""
+    law = HalfLaw(1, 0.22, 0.02)
+    slope = law.slope(np.array([0.0, 5e-324, 1e-3]), 0.0257)
+    assert slope[0] == 0.0
+    assert 0.0 <= slope[1] < 1e-300
+    assert slope[2] == pytest.approx(1.0 / (0.0257 / 1e-3 + 0.22), rel=1e-15)
+
+
 def test_the_busking_amps_bias_is_named_for_what_it_is() -> None:
     """30 mA in 0.22 ohm emitter resistors is a quarter of Oliver's optimum I_q = V_T/R_E
     (B. M. Oliver, HP Journal, Feb. 1971): quiescent-low; 300 mA is 2.5 times it:

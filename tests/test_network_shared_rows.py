@@ -27,14 +27,14 @@ C = np.array([10e-9, 22e-9, 10e-9, 10e-9, 22e-9, 10e-9])
 
 @contextmanager
 def _solved_counted() -> Iterator[list[int]]:
-    """The matrices the batched solve (`chainbudget.sparse_lu.solve`, entry-major) is handed
-    (the batch's leading axis' length), per call."""
+    """The matrices the batched solve (`chainbudget.sparse_lu.solve`) is handed (the
+    batch's leading axis' length), per call."""
     counted: list[int] = []
     original = network.sparse_lu.solve
 
-    def counting(entries: NDArray[np.complex128], *args: object) -> object:
-        counted.append(int(np.shape(entries)[2]) if np.ndim(entries) > 3 else 1)
-        return original(entries, *args)  # type: ignore[arg-type]
+    def counting(entries: object, pattern: object, batch: tuple[int, ...], b: object) -> object:
+        counted.append(batch[0] if len(batch) > 1 else 1)
+        return original(entries, pattern, batch, b)  # type: ignore[arg-type]
 
     network.sparse_lu.solve = counting  # type: ignore[assignment]
     try:

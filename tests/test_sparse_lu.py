@@ -60,7 +60,7 @@ def test_random_networks_agree_with_partial_pivoting(seed: int) -> None:
     for s, b in ((stamped, _rhs(net, 2, rng)), (stamped.transposed(), _rhs(net, 3, rng))):
         m = s.batch_major()
         reference = np.linalg.solve(m, np.broadcast_to(b, (*m.shape[:-1], b.shape[-1])))
-        found = sparse_lu.solve(s.entries, s.pattern, b)
+        found = sparse_lu.solve(s.entries, s.pattern, s.batch, b)
         residual = b - m @ found
         error = np.abs(residual).max(axis=(-2, -1)) / (
             np.abs(m).sum(axis=-1).max(axis=-1) * np.abs(found).max(axis=(-2, -1)) + np.abs(b).max()
@@ -82,19 +82,21 @@ def test_divider_and_source_by_hand() -> None:
     b = np.zeros((net.size, 1))
     b[k, 0] = 1.0
     stamped = net.stamped()
-    x = sparse_lu.solve(stamped.entries, stamped.pattern, b)[0, :, 0]
+    x = sparse_lu.solve(stamped.entries, stamped.pattern, stamped.batch, b)[0, :, 0]
     # rel 1e-11: every node's 1e-15 S leak to ground (`network.GMIN`) moves the tap by 6e-13
     assert x[net.index(node_ref("tap"))] == pytest.approx(0.25, rel=1e-11)
     assert x[net.index(node_ref("in"))] == pytest.approx(1.0, rel=1e-11)
     assert x[k] == pytest.approx(-0.25e-3, rel=1e-11)
 
 
-def _two_by_two(a11: NDArray[np.float64]) -> tuple[NDArray[np.complex128], Pattern]:
+def _two_by_two(
+    a11: NDArray[np.float64],
+) -> tuple[dict[tuple[int, int], NDArray[np.complex128]], Pattern]:
     """[[a11, 1], [1, 1]] for each a11 of a batch: the pattern pivots on a11 first."""
-    entries = np.ones((2, 2, a11.size), dtype=complex)
-    entries[0, 0] = a11
+    dense = np.ones((2, 2, a11.size), dtype=complex)
+    dense[0, 0] = a11
     pattern = Pattern(np.ones((2, 2), bool), np.zeros((2, 2), bool), nodes=2)
-    return entries, pattern
+    return sparse_lu.by_entry(dense, pattern), pattern
 
 
 def test_a_pivot_the_pattern_chose_badly_is_solved_with_partial_pivoting() -> None:
@@ -104,7 +106,7 @@ def test_a_pivot_the_pattern_chose_badly_is_solved_with_partial_pivoting() -> No
     a11 = np.array([2.0, 1e-20, 0.0, 0.5])
     entries, pattern = _two_by_two(a11)
     b = np.array([[1.0], [2.0]])
-    found = sparse_lu.solve(entries, pattern, b)[..., 0]
+    found = sparse_lu.solve(entries, pattern, (4,), b)[..., 0]
     by_hand = np.stack([1 / (1 - a11), (1 - 2 * a11) / (1 - a11)], axis=-1)
     np.testing.assert_allclose(found, by_hand, rtol=1e-15)
     # the static order alone gets the 1e-20 pivot's x1 wrong (0 where it is 1)
@@ -123,7 +125,7 @@ def test_a_pivot_the_pattern_chose_badly_is_solved_with_partial_pivoting() -> No
 def test_a_singular_matrix_raises() -> None:
     entries, pattern = _two_by_two(np.array([1.0]))  # [[1, 1], [1, 1]]
     with pytest.raises(np.linalg.LinAlgError):
-        sparse_lu.solve(entries, pattern, np.array([[1.0], [0.0]]))
+        sparse_lu.solve(entries, pattern, (1,), np.array([[1.0], [0.0]]))
 
 
 @pytest.mark.parametrize("seed", range(30))
@@ -144,7 +146,7 @@ def test_random_patterns_with_poor_static_pivots(seed: int) -> None:
     entries = np.where(nonzero[:, :, None], magnitude * phase, 0.0)
     pattern = Pattern(nonzero, np.zeros((n, n), bool), nodes=0)
     b = rng.normal(size=(n, 2)) + 1j * rng.normal(size=(n, 2))
-    found = sparse_lu.solve(entries, pattern, b)
+    found = sparse_lu.solve(sparse_lu.by_entry(entries, pattern), pattern, (size,), b)
     m = np.moveaxis(entries, (0, 1), (-2, -1))
     error = np.abs(b - m @ found).max(axis=(-2, -1)) / (
         np.abs(m).sum(axis=-1).max(axis=-1) * np.abs(found).max(axis=(-2, -1)) + np.abs(b).max()

@@ -60,13 +60,14 @@ def main() -> None:
     recorded: list[tuple[Any, Any]] = []
     original = network.sparse_lu.solve
 
-    def recording(entries: Any, pattern: Any, b: Any) -> Any:
+    def recording(entries: Any, pattern: Any, batch: Any, b: Any) -> Any:
         # the same matrices and right-hand sides, laid out as a plain C-ordered batch
         # (``batch + (N, N)``, ``batch + (N, K)``): what a batched np.linalg.solve takes
-        m = np.ascontiguousarray(np.moveaxis(entries, (0, 1), (-2, -1)))
+        dense = network.sparse_lu.dense(entries, pattern.nonzero.shape[0], batch)
+        m = np.ascontiguousarray(np.moveaxis(dense, (0, 1), (-2, -1)))
         rhs = np.ascontiguousarray(np.broadcast_to(b, (*m.shape[:-1], np.shape(b)[-1])))
         recorded.append((m, rhs))
-        return original(entries, pattern, b)
+        return original(entries, pattern, batch, b)
 
     network.sparse_lu.solve = recording  # type: ignore[assignment]
     try:

@@ -87,8 +87,11 @@ class HalfLaw:
         return np.asarray(np.where(np.asarray(self.r_ohm) > 0.0, found, exponential))
 
     def slope(self, current: NDArray[np.float64], v_t: float) -> NDArray[np.float64]:
-        """dI/dy = 1/u'(I), S."""
-        return np.asarray(1.0 / (self.junctions * v_t / current + self.r_ohm))
+        """dI/dy = 1/u'(I), S. A half driven far off (rails of kilovolts) has a current
+        that underflows to 0 or next to it: m V_T / I is then infinite and the slope its
+        limit, 0, which is what the division gives without its warning."""
+        with np.errstate(divide="ignore", over="ignore"):
+            return np.asarray(1.0 / (self.junctions * v_t / current + self.r_ohm))
 
 
 def _w_of_exp(
