@@ -85,6 +85,8 @@ class _Step:
 
 @dataclass(frozen=True)
 class _Plan:
+    """One pattern's elimination, worked out once (`plan_for`)."""
+
     #: slot s holds the equation of row ``rows[s]``, its pivot in column s
     rows: tuple[int, ...]
     steps: tuple[_Step, ...]
