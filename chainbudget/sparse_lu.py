@@ -217,9 +217,8 @@ def solve(entries: Entries, pattern: Pattern, batch: tuple[int, ...], rhs: Compl
     found = np.moveaxis(x, -1, 0)  # (size, N, K), each matrix's solution
     if bad.any():  # partial pivoting where the static pivots did not hold
         redo = np.flatnonzero(bad)
-        matrices = np.zeros((redo.size, n, n), dtype=complex)
-        for (r, c), value in a.items():
-            matrices[:, r, c] = value[redo]
+        picked = {key: value[redo] for key, value in a.items()}
+        matrices = np.moveaxis(dense(picked, n, (redo.size,)), (0, 1), (-2, -1))
         found = found.copy()
         found[redo] = np.linalg.solve(matrices, np.moveaxis(b[:, :, redo], -1, 0))
     return found.reshape(*batch, n, k_count)
