@@ -9,7 +9,7 @@ import json
 
 import numpy as np
 import pytest
-from test_spread import TONE_AND_VOLUME, _chain, _json_figure, _si
+from test_spread import TONE_AND_VOLUME, _chain, _json_figure, _si, trial_changes
 
 # bass boost (1 + 100k/20k at its end stop, at 20 Hz) and treble boost (at 20 kHz) within
 # 0.2 dB of each other at the nominal parts: the nominal worst is the bass boost.
@@ -120,3 +120,48 @@ def test_noise_corners_flipping_only_the_parts_that_move_them_equal_flipping_eve
     plain = _corners(evaluate, paths, deltas, every, n)
     for p in paths:
         assert pruned[p] == pytest.approx(plain[p], rel=1e-12, abs=0), p
+
+
+def test_largest_opamp_current_of_each_trial_is_the_checks_over_every_rotation() -> None:
+    """On the violin pre-amp (its treble stage's largest output current sits inside the
+    treble control's travel, where the current at max_level meets the stage's clip), for
+    four trials each written into the file and checked alone (the check's search over every
+    rotation), every op-amp's `drive_worst_current_a` equals the batched figure, rtol
+    1e-9; and one trial's largest sits at a rotation next to the nominal check's, which
+    the spread finds among its neighbours (`settings.current_candidates`)."""
+    from pathlib import Path
+
+    from chainbudget.budget import compute
+    from chainbudget.budget.analysis import analyse
+    from chainbudget.budget.supplies import settle
+    from chainbudget.chainfile import load_chain
+    from chainbudget.report.json_view import budget_json
+    from chainbudget.spread.evaluate import Evaluator
+    from chainbudget.spread.parts import chain_parts
+    from chainbudget.spread.settings import opamp_current_settings
+
+    def largest_at(chain):  # noqa: ANN001, ANN202
+        analysis = analyse(chain, "low", settle(chain, "low").voltages)
+        return {key: at.rotations for key, at in opamp_current_settings(analysis).items()}
+
+    chain = load_chain(Path(__file__).resolve().parents[1] / "chains" / "violin_piezo_preamp.toml")
+    parts, _ = chain_parts(chain)
+    assert not any(part.is_beta for part in parts)  # one value per part: the file holds it
+    evaluate = Evaluator(chain, tuple(parts), compute(chain), settle(chain, "low").voltages)
+    positions = np.random.default_rng(5).random((4, len(parts)))
+    batched = evaluate(positions)
+    paths = [p for p in batched if p.endswith(".drive_worst_current_a")]
+    assert "nodes.treble.drive_worst_current_a" in paths
+    nominal = largest_at(chain)
+    moved = 0
+    for t in range(len(positions)):
+        trial = chain.with_values(
+            trial_changes(chain, parts, evaluate.values(positions[t : t + 1]))
+        )
+        moved += largest_at(trial) != nominal
+        budget = compute(trial)
+        data = json.loads(json.dumps(budget_json(budget, list(budget.findings))))
+        for path in paths:
+            held = _json_figure(data, path)
+            assert batched[path][t] == pytest.approx(held, rel=1e-9, abs=0), (path, t)
+    assert moved > 0

@@ -11,8 +11,9 @@ the nominal one:
 
 - an op-amp's peak current at ``max_level`` is |I_out / V_source| sqrt(2) V_max;
   its worst over the band is that current at ``max_level`` or at the stage's voltage clip,
-  whichever is lower, at the setting where the nominal check finds it largest (held fixed,
-  as the worst headroom's is: `chainbudget.spread.settings`). ``opamp-current`` where the
+  whichever is lower, the largest over the setting where the nominal check finds it
+  largest and that setting's neighbours (held fixed, as the worst headroom's candidates
+  are: `chainbudget.spread.settings.current_candidates`). ``opamp-current`` where the
   worst passes the op-amp's rating (the peak at the reference not already past it: then
   ``clip-max`` says it), ``opamp-current-margin`` where it passes `DRIVE_MARGIN` of it;
 - a follower's bias I_E = (V_B - V_BE - V-)/(R_E + R_dc/(beta + 1)) and emitter
@@ -120,15 +121,16 @@ def _opamps(
         for label, part in sol.built.opamps:
             probe = f"{label}.current"
             peak = _at_reference(as_set.probe(k, probe), trials) * max_peak
-            row = settings.current_rows.get((k, label))
-            cascade = as_set if row is None else held[row]
-            level = np.minimum(max_peak, voltage_clip_source_peak(cascade, k))
-            asked = np.abs(np.broadcast_to(cascade.probe(k, probe), level.shape)) * level
-            if row is not None:  # the points the row is not solved at: none to search
-                size = np.shape(as_set.v_in[0])[-1]
-                asked = settings.on_axis(row, np.asarray(asked), size, 0.0)
-            band = np.broadcast_to(asked, (trials, asked.shape[-1]))[:, 1:]
-            worst = band.max(axis=1)
+            worst = np.zeros(trials)
+            for row in settings.current_rows.get((k, label), (None,)):
+                cascade = as_set if row is None else held[row]
+                level = np.minimum(max_peak, voltage_clip_source_peak(cascade, k))
+                asked = np.abs(np.broadcast_to(cascade.probe(k, probe), level.shape)) * level
+                if row is not None:  # the points the row is not solved at: none to search
+                    size = np.shape(as_set.v_in[0])[-1]
+                    asked = settings.on_axis(row, np.asarray(asked), size, 0.0)
+                band = np.broadcast_to(asked, (trials, asked.shape[-1]))[:, 1:]
+                worst = np.maximum(worst, band.max(axis=1))
             limit = part.output_current
             peaks.append(peak)
             worsts.append(worst)

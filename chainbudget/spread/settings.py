@@ -1,6 +1,6 @@
 """The control settings the spread searches or holds per trial: each limited node's
-candidate settings for its worst case, the setting of each op-amp's largest output current,
-and the master volume fully up (the output power).
+candidate settings for its worst case, those of each op-amp's largest output current, and
+the master volume fully up (the output power).
 
 Notes
 -----
@@ -16,7 +16,8 @@ one boost to another); otherwise the spread figure is at most the check's margin
 it. A candidate is solved only at the frequency points where its clip level at the
 nominal parts lies within `PRUNE_DB` of the node's worst (`HeldSettings.row_points`: a
 boost's few points near its shelf, not the whole band), for the same reason a candidate
-further above is dropped; an op-amp's current setting likewise near its largest current.
+further above is dropped; an op-amp's current settings likewise near its largest current
+(`current_candidates`: the nominal check's setting of its largest and its neighbours).
 """
 
 from __future__ import annotations
@@ -75,12 +76,13 @@ class HeldSettings:
     rows: tuple[tuple[float, ...], ...]
     node_rows: dict[int, tuple[tuple[int | None, float], ...]]
     volume_row: int | None
-    #: Each op-amp's (stage index, label) setting of its largest output current over the
-    #: band in the nominal check (`chainbudget.budget.power.opamp_drives`; None: as set).
-    current_rows: dict[tuple[int, str], int | None] = field(default_factory=dict)
+    #: Each op-amp's (stage index, label) candidate settings for its largest output
+    #: current over the band (`current_candidates`; None: as set), the nominal check's
+    #: (`chainbudget.budget.power.opamp_drives`) among them.
+    current_rows: dict[tuple[int, str], tuple[int | None, ...]] = field(default_factory=dict)
     #: Each row's frequency indices where some figure looks (ascending, the reference 0
     #: first): a node's candidate at the points within `PRUNE_DB` of the node's worst, an
-    #: op-amp's current setting within `PRUNE_DB` of its largest current (an ideal
+    #: op-amp's current settings within `PRUNE_DB` of its largest current (an ideal
     #: op-amp's: the whole axis), the volume row at the reference. The
     #: rows are solved there only (`chainbudget.network.Netlist`'s ``points``) and each
     #: held cascade is joined on its row's points alone; empty: every row on the whole
@@ -178,18 +180,30 @@ def held_settings(chain: Chain, voltages: Mapping[str, Corners]) -> HeldSettings
             for row, distance, peak, is_worst in tried
             if is_worst or float(np.min(peak)) <= floor
         )
-    current_rows: dict[tuple[int, str], int | None] = {}
+    current_rows: dict[tuple[int, str], tuple[int | None, ...]] = {}
     for (k, label), found_at in opamp_current_settings(analysis).items():
-        row = list(base)
-        for sc in swept:
-            row[sc.axis] = float(sc.rotations[found_at.rotations[sc.axis]])
-        # the points within PRUNE_DB of its largest current; an ideal op-amp's current is
-        # round-off where it is small, and moves by more than that: the whole axis
-        asked = found_at.asked_a
-        looks = asked >= np.max(asked[1:]) * 10.0 ** (-PRUNE_DB / 20.0)
-        if not found_at.has_output_resistance:
-            looks = np.ones(asked.shape, bool)
-        current_rows[(k, label)] = row_of(tuple(row), looks)
+        # a setting, or a point of it, whose current at the nominal parts lies more than
+        # PRUNE_DB below the largest is left out: no trial's parts move it that far
+        floor = float(np.max(found_at.asked_a[1:])) * 10.0 ** (-PRUNE_DB / 20.0)
+        chosen: dict[int | None, None] = {}
+        for rotations in current_candidates(analysis, k, found_at.rotations):
+            row = list(base)
+            for sc in swept:
+                row[sc.axis] = float(sc.rotations[rotations[sc.axis]])
+            if rotations == found_at.rotations:
+                asked = found_at.asked_a
+                # an ideal op-amp's current is round-off where it is small, and moves by
+                # more than that: its largest's setting alone, on the whole axis
+                looks = asked >= floor if found_at.has_output_resistance else asked == asked
+            elif found_at.has_output_resistance:
+                asked = _asked(nominal_at(tuple(row)), k, label, chain)
+                if float(np.max(asked[1:])) < floor:
+                    continue
+                looks = asked >= floor
+            else:
+                continue
+            chosen[row_of(tuple(row), looks)] = None
+        current_rows[(k, label)] = tuple(chosen)
     volume_row = None
     if volume is not None:
         row = list(base)
@@ -234,6 +248,39 @@ def opamp_current_settings(analysis: Analysis) -> dict[tuple[int, str], CurrentS
                 part.output_resistance > SOURCE_FLOOR_OHM,
             )
     return found
+
+
+def _asked(cascade: Cascade, k: int, label: str, chain: Chain) -> NDArray[np.float64]:
+    """An op-amp's peak output current over the frequency axis at ``max_level`` or at its
+    stage's voltage clip, whichever is lower (`chainbudget.budget.power.opamp_drives`), on
+    a cascade of one setting."""
+    level = np.minimum(SQRT2 * chain.source.max_level, voltage_clip_source_peak(cascade, k))
+    asked = np.abs(np.broadcast_to(cascade.probe(k, f"{label}.current"), level.shape)) * level
+    return np.asarray(asked, dtype=float).reshape(-1)
+
+
+def current_candidates(analysis: Analysis, k: int, top: tuple[int, ...]) -> list[tuple[int, ...]]:
+    """The settings (a rotation index per swept control) at which the spread looks for the
+    largest output current of an op-amp of stage ``k`` in every trial, in the check's grid
+    order: the nominal check's largest, ``top``, and its neighbours on the check's grid,
+    each control that shapes the stage's gain (those of its own section and the sections
+    before it) moved one rotation either side alone. The current is the op-amp's gain
+    times the lower of ``max_level`` and its stage's clip level: a boost raises one and
+    lowers the other, so that the largest can sit inside a control's travel, where the
+    parts' tolerances move it to the next rotation (a treble boost's 0.9 rather than its
+    end stop). The controls after the section reach the op-amp only through its load, and
+    stay at ``top``'s rotations (as in `node_candidates`). `held_settings` then drops those
+    more than `PRUNE_DB` below the largest at the nominal parts."""
+    last = section_of(sections(analysis.chain.stages), k).last
+    ordered: dict[tuple[int, ...], None] = {top: None}
+    for sc in analysis.swept_controls:
+        if sc.stage_index > last:
+            continue
+        for step in (-1, 1):
+            moved = list(top)
+            moved[sc.axis] = min(max(top[sc.axis] + step, 0), sc.rotations.size - 1)
+            ordered[tuple(moved)] = None
+    return sorted(ordered)
 
 
 def node_candidates(analysis: Analysis, k: int, found: NodeWorst) -> list[tuple[int, ...]]:
