@@ -44,6 +44,7 @@ import sys
 import time
 from collections.abc import Callable
 from dataclasses import dataclass, field
+from functools import partial
 
 import numpy as np
 from numpy.typing import NDArray
@@ -51,7 +52,8 @@ from numpy.typing import NDArray
 from chainbudget.budget import Budget, compute
 from chainbudget.budget.supplies import settle
 from chainbudget.chainfile import Chain, ChainError
-from chainbudget.spread.evaluate import Evaluator, Threshold, failing
+from chainbudget.spread.aside import Aside
+from chainbudget.spread.evaluate import WORKERS, Evaluator, Threshold, failing
 from chainbudget.spread.parts import HeldPart, Part, chain_parts
 
 # Trials drawn (and reported to the progress bar) at a time; the evaluator solves them in
@@ -247,6 +249,19 @@ def _corners(
     return {p: (best[(p, 0)], best[(p, 1)]) for p in paths}
 
 
+def _shares(paths: list[str], steps_of: dict[str, str], count: int) -> list[list[str]]:
+    """The figures in up to ``count`` shares for corner searches of their own, each step's
+    figures in one share (they share most of their rows: `_distinct`), the steps given
+    largest first to the share with the fewest figures so far."""
+    by_step: dict[str, list[str]] = {}
+    for path in paths:
+        by_step.setdefault(steps_of[path], []).append(path)
+    shares: list[list[str]] = [[] for _ in range(max(1, min(count, len(by_step))))]
+    for step in sorted(by_step, key=lambda s: -len(by_step[s])):
+        min(shares, key=len).extend(by_step[step])
+    return shares
+
+
 def _crossing(
     t: Threshold,
     nominal: float,
@@ -299,6 +314,17 @@ def run_spread(
     evaluate = Evaluator(chain, parts, nominal, voltages)
     centre = evaluate(np.full((1, n), 0.5))
     paths = sorted(centre)
+    side = evaluate(_one_at_a_time(n), shared=True) if n else {p: np.zeros(0) for p in paths}
+    deltas = {p: side[p][1::2] - side[p][0::2] for p in paths}
+    moving = {p: _moving(side[p], float(centre[p][0]), evaluate.steps_of[p]) for p in paths}
+    # the corner search beside the trials (`chainbudget.spread.aside`), in shares of whole
+    # steps (`_shares`), one fewer than the trials' threads: the trials keep about one and
+    # a half cores busy (on two cores one share measured best, busking amp 10,000 trials:
+    # 27.1 s against 30.9 s with two; docs/performance.md)
+    corner_searches = [
+        Aside(partial(_corners, evaluate, share, deltas, moving, n))
+        for share in _shares(paths, evaluate.steps_of, max(1, WORKERS - 1))
+    ]
     rng = np.random.default_rng(seed)
     chunks: dict[str, list[NDArray[np.float64]]] = {}
     done = 0
@@ -315,9 +341,6 @@ def run_spread(
     for p, values in samples.items():
         if not np.all(np.isfinite(values)):
             raise SpreadError(f"{chain.file}: the figure {p} is not finite in some trials")
-    side = evaluate(_one_at_a_time(n), shared=True) if n else {p: np.zeros(0) for p in paths}
-    deltas = {p: side[p][1::2] - side[p][0::2] for p in paths}
-    moving = {p: _moving(side[p], float(centre[p][0]), evaluate.steps_of[p]) for p in paths}
     sensitivity = []
     for p in paths:
         total = float(np.sum(deltas[p] ** 2))
@@ -329,7 +352,7 @@ def run_spread(
             share = float(deltas[p][i] ** 2 / total)
             if share >= 0.01:
                 sensitivity.append(Sensitivity(p, parts[int(i)].label, share))
-    corners = _corners(evaluate, paths, deltas, moving, n)
+    corners = {p: found for search in corner_searches for p, found in search.result().items()}
     for p in paths:  # no parts move it: its corners are its nominal value
         corners.setdefault(p, (float(centre[p][0]), float(centre[p][0])))
         # a figure not monotonic in its parts (a DC's magnitude passing through zero, THD

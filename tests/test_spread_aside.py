@@ -1,0 +1,108 @@
+"""Work run beside the rest in a forked child (`chainbudget.spread.aside`): its result is
+the work's own, and where the child cannot give it (the work raises, the child dies) the
+parent does the work itself, so that an error is raised where it would be without the
+child. And the spread's corner search, run aside, gives the corners the search gives in
+the process."""
+
+from __future__ import annotations
+
+import os
+
+import numpy as np
+import pytest
+from test_spread import TONE_AND_VOLUME, _chain
+
+from chainbudget.spread import aside, run
+from chainbudget.spread.aside import Aside
+
+pytestmark = pytest.mark.skipif(not aside.can_fork(), reason="the platform does not fork")
+
+
+def test_the_childs_result_is_the_works_and_comes_from_another_process() -> None:
+    parent = os.getpid()
+
+    def work() -> tuple[int, np.ndarray]:
+        return os.getpid(), np.linspace(0.0, 1.0, 5) ** 2
+
+    pid, values = Aside(work).result()
+    assert pid != parent  # done in the child
+    np.testing.assert_array_equal(values, np.linspace(0.0, 1.0, 5) ** 2)
+
+
+def test_work_that_raises_in_the_child_is_done_again_here_and_raises_here() -> None:
+    parent = os.getpid()
+    calls = []
+
+    def work() -> int:
+        calls.append(os.getpid())  # the child's append stays in the child's memory
+        raise ValueError(f"failed in {os.getpid()}")
+
+    with pytest.raises(ValueError, match=f"failed in {parent}"):
+        Aside(work).result()
+    assert calls == [parent]
+
+
+def test_a_child_that_dies_before_it_answers_leaves_the_work_to_the_parent() -> None:
+    parent = os.getpid()
+
+    def work() -> int:
+        if os.getpid() != parent:
+            os._exit(3)  # killed, as by the out-of-memory killer: no answer on the pipe
+        return 7
+
+    assert Aside(work).result() == 7
+
+
+def test_no_fork_does_the_work_when_the_result_is_asked_for() -> None:
+    calls = []
+    found = Aside(lambda: calls.append(1) or 5, fork=False)
+    assert calls == []
+    assert found.result() == 5
+    assert calls == [1]
+
+
+def test_corners_searched_aside_equal_the_search_in_the_process(
+    monkeypatch: pytest.MonkeyPatch,
+) -> None:
+    """The spread of a tone and volume chain: every corner, the statistics and the yields
+    with the corner search run aside equal those with it run in the process, exactly."""
+    chain = _chain(TONE_AND_VOLUME)
+    forked = run.run_spread(chain, 200, 3)
+    monkeypatch.setattr(aside, "can_fork", lambda: False)
+    here = run.run_spread(chain, 200, 3)
+    assert forked.corners == here.corners
+    assert forked.stats == here.stats
+    assert forked.yield_by_code == here.yield_by_code
+
+
+def test_corner_shares_hold_every_figure_once_and_each_step_whole() -> None:
+    """`run._shares` splits the figures between the corner searches: each figure in one
+    share, each step's figures together, and the corners of the spread equal one search
+    over every figure at once (widened by the trials as the spread widens them)."""
+    from chainbudget.budget import compute
+    from chainbudget.budget.supplies import settle
+    from chainbudget.spread.evaluate import Evaluator
+    from chainbudget.spread.parts import chain_parts
+
+    chain = _chain(TONE_AND_VOLUME)
+    parts, _ = chain_parts(chain)
+    n = len(parts)
+    evaluate = Evaluator(chain, tuple(parts), compute(chain), settle(chain, "low").voltages)
+    centre = evaluate(np.full((1, n), 0.5))
+    paths = sorted(centre)
+    steps = evaluate.steps_of
+    for count in (1, 2, 3, 5):
+        shares = run._shares(paths, steps, count)
+        assert sorted(p for share in shares for p in share) == paths
+        for share in shares:
+            others = {p for other in shares if other is not share for p in other}
+            assert not {steps[p] for p in share} & {steps[p] for p in others}
+    side = evaluate(run._one_at_a_time(n), shared=True)
+    deltas = {p: side[p][1::2] - side[p][0::2] for p in paths}
+    moving = {p: run._moving(side[p], float(centre[p][0]), steps[p]) for p in paths}
+    whole = run._corners(evaluate, paths, deltas, moving, n)
+    spread = run.run_spread(chain, 200, 3)
+    for p in paths:
+        low, high = whole.get(p, (float(centre[p][0]),) * 2)
+        stats = spread.stats[p]
+        assert spread.corners[p] == (min(low, stats["min"]), max(high, stats["max"])), p
