@@ -352,7 +352,8 @@ def run_spread(
             share = float(deltas[p][i] ** 2 / total)
             if share >= 0.01:
                 sensitivity.append(Sensitivity(p, parts[int(i)].label, share))
-    corners = {p: found for search in corner_searches for p, found in search.result().items()}
+    found = {p: ends for search in corner_searches for p, ends in search.result().items()}
+    corners = {p: found[p] for p in paths if p in found}  # in the figures' order
     for p in paths:  # no parts move it: its corners are its nominal value
         corners.setdefault(p, (float(centre[p][0]), float(centre[p][0])))
         # a figure not monotonic in its parts (a DC's magnitude passing through zero, THD
