@@ -149,6 +149,8 @@ def chain_parts(chain: Chain) -> tuple[list[Part], list[HeldPart]]:
                 drawn.append(part)
             else:
                 held.append(
-                    HeldPart(part.label, f"the {supply.kind} supply's own parts are not drawn")
+                    HeldPart(
+                        part.label, f"the {supply.kind} supply's spread does not draw its {key}"
+                    )
                 )
     return drawn, held
