@@ -382,17 +382,43 @@ def _si(part) -> str:  # noqa: ANN001
 
 def trial_changes(chain: Chain, parts, values) -> dict[str, object]:  # noqa: ANN001
     """One trial's drawn parts (``values``: each part's value, shape (1,)) as edits of the
-    file, for checking that trial alone (`Chain.with_values`)."""
+    file, for checking that trial alone (`Chain.with_values`). A transistor part named by
+    two drawn betas (two devices) cannot be one edit: `trial_chain` writes those."""
     changes: dict[str, object] = {}
     for part, value in zip(parts, values, strict=True):
         if part.is_beta:
             name = chain.stages[part.index].values[part.key]
+            assert f"transistor.{name}.beta" not in changes, f"{name}: use trial_chain"
             changes[f"transistor.{name}.beta"] = float(value[0])
         elif part.part_class == "references":
             changes[f"{part.table}.{part.owner}.{part.key}"] = f"{float(value[0])!r} V"
         else:
             changes[f"{part.table}.{part.owner}.{part.key}"] = f"{float(value[0])!r} {_si(part)}"
     return changes
+
+
+def trial_chain(chain: Chain, parts, values) -> Chain:  # noqa: ANN001
+    """One trial written into the file (as `trial_changes`), each drawn beta on a
+    transistor part of its own stage's (``NAME_STAGE_FIELD``, a copy of the part the stage
+    names with the drawn beta): two stages naming one part are two devices, each drawn
+    on its own (docs/tolerances.md)."""
+    from chainbudget.chainfile import chain_to_dict
+
+    plain = [(p, v) for p, v in zip(parts, values, strict=True) if not p.is_beta]
+    written = chain.with_values(trial_changes(chain, *zip(*plain, strict=True))) if plain else chain
+    data = chain_to_dict(written)
+    tables = data.setdefault("transistor", {})
+    for part, value in zip(parts, values, strict=True):
+        if not part.is_beta:
+            continue
+        stage = data["stage"][part.index]
+        name, beta = stage[part.key], float(value[0])
+        # the part's every field as the file writes it (a generic part's too)
+        whole = chain_to_dict(chain.with_values({f"transistor.{name}.beta": beta}))
+        own = f"{name}_{stage['name']}_{part.key}"
+        tables[own] = {**whole["transistor"][name], "beta": beta}
+        stage[part.key] = own
+    return parse_chain(data, chain.file)
 
 
 def test_small_signal_takes_an_array_beta_element_by_element() -> None:
