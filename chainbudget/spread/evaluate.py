@@ -175,13 +175,15 @@ class Evaluator:
         flags: bool = False,
         steps: frozenset[str] | None = None,
         shared: bool = False,
+        on_batch: Callable[[int], None] | None = None,
     ) -> Figures:
         """Every spread figure, shape (T,), for part positions of shape (T, n), solved
         `chunk_trials` at a time; with ``flags``, the per-trial rule flags beside them
         (`chainbudget.spread.flags`); with ``steps``, those `_batch` names only. With
         ``shared`` (rows that differ in a few parts each, as the corner search asks for),
         each network's distinct rows are solved once (`chainbudget.network.shared_rows`:
-        the same figures, bit for bit)."""
+        the same figures, bit for bit). ``on_batch(trials)`` is called as each batch's
+        figures are in, in order (a progress bar)."""
         size = self.chunk_trials
         # the first whole evaluation files each figure's step as it goes (`steps_of`)
         record: dict[str, str] | None = None
@@ -196,12 +198,18 @@ class Evaluator:
 
         if positions.shape[0] <= size:
             found = batch(positions)
+            if on_batch is not None:
+                on_batch(positions.shape[0])
         else:
             batches = [positions[i : i + size] for i in range(0, len(positions), size)]
             # numpy's batched solves and array arithmetic release the GIL: the chunks run
             # on the machine's cores side by side (each chunk is independent; order kept)
+            pieces = []
             with ThreadPoolExecutor(max_workers=WORKERS) as pool:
-                pieces = list(pool.map(batch, batches))
+                for piece, rows in zip(pool.map(batch, batches), batches, strict=True):
+                    pieces.append(piece)
+                    if on_batch is not None:
+                        on_batch(rows.shape[0])
             found = {path: np.concatenate([p[path] for p in pieces]) for path in pieces[0]}
         if record is not None:
             self.__dict__["steps_of"] = record  # the cached property's own slot

@@ -299,7 +299,7 @@ def run_spread(
 ) -> SpreadResult:
     """Monte Carlo, corners, sensitivities and yields of ``chain`` (see the module notes).
 
-    ``progress(done, total)`` is called after each chunk of trials.
+    ``progress(done, total)`` is called as each batch of trials is solved.
     """
     if not 1 <= trials <= MAX_TRIALS:
         raise SpreadError(f"--trials: got {trials}, expected 1 to {MAX_TRIALS}")
@@ -328,14 +328,20 @@ def run_spread(
     rng = np.random.default_rng(seed)
     chunks: dict[str, list[NDArray[np.float64]]] = {}
     done = 0
+    solved = 0
+
+    def advance(count: int) -> None:
+        nonlocal solved
+        solved += count
+        if progress is not None:
+            progress(solved, trials)
+
     while done < trials:
         size = min(CHUNK_TRIALS, trials - done)
-        figures = evaluate(rng.random((size, n)), flags=True)
+        figures = evaluate(rng.random((size, n)), flags=True, on_batch=advance)
         for p, values in figures.items():
             chunks.setdefault(p, []).append(values)
         done += size
-        if progress is not None:
-            progress(done, trials)
     drawn_rules = {p: np.concatenate(chunks[p]) for p in chunks}  # figures and rule flags
     samples = {p: drawn_rules[p] for p in paths}
     for p, values in samples.items():
