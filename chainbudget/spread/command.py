@@ -23,27 +23,39 @@ PROGRESS_AFTER_S = 1.0
 
 
 class _Bar:
-    """A progress bar on stderr, started once the first chunks show the run will take more
-    than PROGRESS_AFTER_S (never on a pipe or file)."""
+    """A progress bar on stderr, started once the first batches show the trials will take
+    more than PROGRESS_AFTER_S (never on a pipe or file); once the trials are in, a
+    pulsing line while the corner search that runs beside them finishes (it can be the
+    longer part of a run of a few hundred trials)."""
 
     def __init__(self) -> None:
         self.started = time.perf_counter()
         self.progress: Progress | None = None
         self.task = 0
 
+    def _start(self) -> Progress:
+        from rich.console import Console
+        from rich.progress import Progress
+
+        self.progress = Progress(console=Console(stderr=True), transient=True)
+        self.progress.start()
+        return self.progress
+
     def __call__(self, done: int, total: int) -> None:
+        if not sys.stderr.isatty():
+            return
+        if done >= total:
+            progress = self.progress or self._start()
+            if self.progress is not None and progress.tasks:
+                progress.update(self.task, completed=total)  # type: ignore[arg-type]
+            progress.add_task("corner search", total=None)
+            return
         if self.progress is None:
             elapsed = time.perf_counter() - self.started
-            expected = elapsed * total / max(done, 1)
-            if done >= total or expected < PROGRESS_AFTER_S or not sys.stderr.isatty():
+            if elapsed * total / max(done, 1) < PROGRESS_AFTER_S:
                 return
-            from rich.console import Console
-            from rich.progress import Progress
-
-            self.progress = Progress(console=Console(stderr=True), transient=True)
-            self.progress.start()
-            self.task = self.progress.add_task("trials", total=total)
-        self.progress.update(self.task, completed=done)  # type: ignore[arg-type]
+            self.task = self._start().add_task("trials", total=total)
+        self.progress.update(self.task, completed=done)  # type: ignore[union-attr, arg-type]
 
     def stop(self) -> None:
         if self.progress is not None:
