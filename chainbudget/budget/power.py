@@ -266,6 +266,14 @@ def voltage_clip_source_peak(cas: Cascade, k: int) -> NDArray[np.float64]:
     return peak
 
 
+def asked_current(cascade: Cascade, k: int, label: str, max_peak: float) -> NDArray[np.float64]:
+    """The peak output current op-amp ``label`` of stage ``k`` is asked for at the source
+    peak ``max_peak`` or at the stage's voltage clip (`voltage_clip_source_peak`: rails,
+    slew), whichever is lower, over the cascade's axes."""
+    level = np.minimum(max_peak, voltage_clip_source_peak(cascade, k))
+    return np.abs(np.broadcast_to(cascade.probe(k, f"{label}.current"), level.shape)) * level
+
+
 def opamp_drives(analysis: Analysis) -> list[OpAmpDrive]:
     """Peak output current of every op-amp at ``max_level``.
 
@@ -279,11 +287,8 @@ def opamp_drives(analysis: Analysis) -> list[OpAmpDrive]:
     found = []
     for k, sol in enumerate(analysis.nominal.stages):
         for label, part in sol.built.opamps:
-            probe = f"{label}.current"
-            per_volt = _at_reference(analysis.nominal.probe(k, probe))
-            swept = analysis.swept
-            level = np.minimum(max_peak, voltage_clip_source_peak(swept, k))
-            asked = np.abs(np.broadcast_to(swept.probe(k, probe), level.shape)) * level
+            per_volt = _at_reference(analysis.nominal.probe(k, f"{label}.current"))
+            asked = asked_current(analysis.swept, k, label, max_peak)
             band = asked[..., analysis.band_slice]
             at = np.unravel_index(int(np.argmax(band)), band.shape)
             v_out = _at_reference(analysis.nominal.v_out[k])

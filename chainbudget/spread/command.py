@@ -44,9 +44,11 @@ class _Bar:
     def __call__(self, done: int, total: int) -> None:
         if not sys.stderr.isatty():
             return
-        if done >= total:
-            progress = self.progress or self._start()
-            if self.progress is not None and progress.tasks:
+        if done >= total:  # the trials are in: the corner search is what is left
+            if self.progress is None:
+                progress = self._start()
+            else:
+                progress = self.progress
                 progress.update(self.task, completed=total)  # type: ignore[arg-type]
             progress.add_task("corner search", total=None)
             return

@@ -38,7 +38,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from chainbudget.budget.levels import SQRT2, clip_source_peak, db
-from chainbudget.budget.power import voltage_clip_source_peak
+from chainbudget.budget.power import asked_current
 from chainbudget.cascade import Cascade
 from chainbudget.chainfile import Chain
 from chainbudget.spread.flags import as_flag, flag_key
@@ -124,8 +124,7 @@ def _opamps(
             worst = np.zeros(trials)
             for row in settings.current_rows.get((k, label), (None,)):
                 cascade = as_set if row is None else held[row]
-                level = np.minimum(max_peak, voltage_clip_source_peak(cascade, k))
-                asked = np.abs(np.broadcast_to(cascade.probe(k, probe), level.shape)) * level
+                asked = asked_current(cascade, k, label, max_peak)
                 if row is not None:  # the points the row is not solved at: none to search
                     size = np.shape(as_set.v_in[0])[-1]
                     asked = settings.on_axis(row, np.asarray(asked), size, 0.0)

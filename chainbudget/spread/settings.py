@@ -39,7 +39,7 @@ from chainbudget.budget.analysis import (
     solve_chain,
 )
 from chainbudget.budget.levels import SQRT2, clip_source_peak
-from chainbudget.budget.power import voltage_clip_source_peak
+from chainbudget.budget.power import asked_current
 from chainbudget.budget.search import NodeWorst
 from chainbudget.budget.ties import TIE_DB
 from chainbudget.cascade import Cascade
@@ -181,6 +181,7 @@ def held_settings(chain: Chain, voltages: Mapping[str, Corners]) -> HeldSettings
             if is_worst or float(np.min(peak)) <= floor
         )
     current_rows: dict[tuple[int, str], tuple[int | None, ...]] = {}
+    max_peak = SQRT2 * chain.source.max_level
     for (k, label), found_at in opamp_current_settings(analysis).items():
         # a setting, or a point of it, whose current at the nominal parts lies more than
         # PRUNE_DB below the largest is left out: no trial's parts move it that far
@@ -196,7 +197,8 @@ def held_settings(chain: Chain, voltages: Mapping[str, Corners]) -> HeldSettings
                 # more than that: its largest's setting alone, on the whole axis
                 looks = asked >= floor if found_at.has_output_resistance else asked == asked
             elif found_at.has_output_resistance:
-                asked = _asked(nominal_at(tuple(row)), k, label, chain)
+                cascade = nominal_at(tuple(row))
+                asked = np.asarray(asked_current(cascade, k, label, max_peak)).reshape(-1)
                 if float(np.max(asked[1:])) < floor:
                     continue
                 looks = asked >= floor
@@ -236,9 +238,7 @@ def opamp_current_settings(analysis: Analysis) -> dict[tuple[int, str], CurrentS
     found: dict[tuple[int, str], CurrentSetting] = {}
     for k, sol in enumerate(swept.stages):
         for label, part in sol.built.opamps:
-            level = np.minimum(max_peak, voltage_clip_source_peak(swept, k))
-            asked = np.abs(np.broadcast_to(swept.probe(k, f"{label}.current"), level.shape))
-            asked = asked * level
+            asked = asked_current(swept, k, label, max_peak)
             band = asked[..., analysis.band_slice]
             at = np.unravel_index(int(np.argmax(band)), band.shape)
             candidate = int(at[0]) if band.ndim > 1 else 0
@@ -248,15 +248,6 @@ def opamp_current_settings(analysis: Analysis) -> dict[tuple[int, str], CurrentS
                 part.output_resistance > SOURCE_FLOOR_OHM,
             )
     return found
-
-
-def _asked(cascade: Cascade, k: int, label: str, chain: Chain) -> NDArray[np.float64]:
-    """An op-amp's peak output current over the frequency axis at ``max_level`` or at its
-    stage's voltage clip, whichever is lower (`chainbudget.budget.power.opamp_drives`), on
-    a cascade of one setting."""
-    level = np.minimum(SQRT2 * chain.source.max_level, voltage_clip_source_peak(cascade, k))
-    asked = np.abs(np.broadcast_to(cascade.probe(k, f"{label}.current"), level.shape)) * level
-    return np.asarray(asked, dtype=float).reshape(-1)
 
 
 def current_candidates(analysis: Analysis, k: int, top: tuple[int, ...]) -> list[tuple[int, ...]]:
