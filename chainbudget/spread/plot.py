@@ -3,6 +3,7 @@ the most spread of the rest (matplotlib, the report pictures' fixed style)."""
 
 from __future__ import annotations
 
+import math
 from pathlib import Path
 
 from chainbudget.report.pictures import style
@@ -55,7 +56,7 @@ def draw_histograms(result: SpreadResult, target: Path, fmt: str) -> list[str]:
             values = result.samples[path]
             axes.hist(values, bins=50, color=style.COLOURS[0], gid=f"hist:{path}")
             lo, hi = result.corners[path]
-            for x in (lo, hi):
+            for x in (v for v in (lo, hi) if math.isfinite(v)):  # not a level of zero in dB
                 axes.axvline(x, color=style.COLOURS[1], linestyle="--", gid=f"corner:{path}")
             for c in result.crossings:
                 if c.threshold.path == path:

@@ -117,6 +117,9 @@ class SpreadResult:
     #: The nominal check's safety cautions (mains, loudness, heat), shown with the spread.
     cautions: tuple[str, ...] = ()
     extra: dict[str, object] = field(default_factory=dict)
+    #: Each figure the check leaves undefined (null) in some trials, and the share of the
+    #: trials in which it is: its statistics and samples are over the others.
+    undefined: dict[str, float] = field(default_factory=dict)
 
     def codes_not_spread(self) -> list[str]:
         """Codes of the nominal check's findings the spread does not evaluate per trial."""
@@ -182,9 +185,15 @@ def _moving(one_at_a_time: NDArray[np.float64], nominal: float, step: str) -> ND
 
 def _further(got: NDArray[np.float64], best: float, side: int) -> NDArray[np.bool_]:
     """Which values carry a figure further than ``best``: lower on side 0, higher on
-    side 1, by more than the rounding of the solves (rtol 1e-12)."""
+    side 1, by more than the rounding of the solves (rtol 1e-12). A figure undefined at
+    a vertex (NaN) carries it nowhere; one at an infinite limit (a level of zero in dB)
+    goes no further than that limit."""
     beyond = got < best if side == 0 else got > best
-    return np.asarray(beyond & (np.abs(got - best) > 1e-12 * (1.0 + np.abs(got))))
+    # the rounding scale of a finite value is its own; an infinite one is beyond any
+    # finite best by more than that best's
+    scale = np.where(np.isfinite(got), np.abs(got), abs(best))
+    with np.errstate(invalid="ignore"):  # inf - inf: no further
+        return np.asarray(beyond & (np.abs(got - best) > 1e-12 * (1.0 + scale)))
 
 
 def _corners(
@@ -343,30 +352,40 @@ def run_spread(
             chunks.setdefault(p, []).append(values)
         done += size
     drawn_rules = {p: np.concatenate(chunks[p]) for p in chunks}  # figures and rule flags
-    samples = {p: drawn_rules[p] for p in paths}
-    for p, values in samples.items():
-        if not np.all(np.isfinite(values)):
-            raise SpreadError(f"{chain.file}: the figure {p} is not finite in some trials")
+    # a figure the check leaves undefined in some trials (a loop whose gain never reaches
+    # unity has no phase margin: null in that trial's check JSON) is summed up over the
+    # trials that define it, and the share that do not is reported; one that no trial
+    # defines has no statistics
+    defined = {p: np.isfinite(drawn_rules[p]) for p in paths}
+    undefined = {p: float(np.mean(~d)) for p, d in defined.items() if not d.all()}
+    spread = [p for p in paths if defined[p].any()]
+    samples = {p: drawn_rules[p][defined[p]] for p in spread}
     sensitivity = []
-    for p in paths:
+    for p in spread:
         total = float(np.sum(deltas[p] ** 2))
         # a figure the parts move only by round-off (a fixed limit carried through a solve)
-        # has no sensitivity to rank
-        if math.sqrt(total) <= STILL_RTOL * abs(float(centre[p][0])) or total <= 0.0:
+        # has no sensitivity to rank; nor one undefined at a part's bound
+        still = math.sqrt(total) <= STILL_RTOL * abs(float(centre[p][0]))
+        if still or total <= 0.0 or not math.isfinite(total):
             continue
         for i in np.argsort(-(deltas[p] ** 2)):
             share = float(deltas[p][i] ** 2 / total)
             if share >= 0.01:
                 sensitivity.append(Sensitivity(p, parts[int(i)].label, share))
     found = {p: ends for search in corner_searches for p, ends in search.result().items()}
-    corners = {p: found[p] for p in paths if p in found}  # in the figures' order
-    for p in paths:  # no parts move it: its corners are its nominal value
+    corners = {p: found[p] for p in spread if p in found}  # in the figures' order
+    for p in spread:  # no parts move it: its corners are its nominal value
         corners.setdefault(p, (float(centre[p][0]), float(centre[p][0])))
         # a figure not monotonic in its parts (a DC's magnitude passing through zero, THD
         # against R_E about Oliver's optimum) can reach its extreme inside the bounds: a
-        # trial beyond the vertices found widens them
+        # trial beyond the vertices found widens them (and stands for a vertex at which
+        # the figure is undefined)
         low, high = corners[p]
-        corners[p] = (min(low, float(samples[p].min())), max(high, float(samples[p].max())))
+        least, most = float(samples[p].min()), float(samples[p].max())
+        corners[p] = (
+            least if math.isnan(low) else min(low, least),
+            most if math.isnan(high) else max(high, most),
+        )
     thresholds = evaluate.thresholds(drawn_rules)
     masks = failing(thresholds, drawn_rules)
     # a code drawn at more than one severity (dc-into-load; a phase margin under 45 deg
@@ -385,8 +404,9 @@ def run_spread(
             continue
         corner = corners[t.path][1 if t.above else 0]
         if t.beyond(np.asarray(corner)):
-            share = float(np.mean(t.beyond(samples[t.path])))
-            toward = np.where(deltas[t.path] != 0.0, deltas[t.path], 0.0)
+            share = float(np.mean(t.beyond(drawn_rules[t.path])))  # of every trial
+            moved = deltas[t.path]
+            toward = np.where(np.isfinite(moved) & (moved != 0.0), moved, 0.0)
             crossings.append(
                 _crossing(t, float(centre[t.path][0]), corner, share, toward, parts)
                 if n
@@ -399,7 +419,8 @@ def run_spread(
         held=tuple(held),
         nominal={p: float(centre[p][0]) for p in paths},
         samples=samples,
-        stats={p: _stats(samples[p]) for p in paths},
+        undefined=undefined,
+        stats={p: _stats(samples[p]) for p in spread},
         corners=corners,
         sensitivity=sensitivity,
         yield_all=float(1.0 - errors.mean()),

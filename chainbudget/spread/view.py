@@ -298,6 +298,12 @@ def spread_tables(result: SpreadResult, title: str, places: Sequence[str] = ()) 
         notes.append(
             "held at nominal: " + "; ".join(f"{h.label} ({h.reason})" for h in result.held)
         )
+    if result.undefined:
+        notes.append(
+            "undefined in some trials (null in their check; the figures above are over "
+            "the others): "
+            + "; ".join(f"{p} in {share:.1%}" for p, share in result.undefined.items())
+        )
     skipped = result.codes_not_spread()
     if skipped:
         notes.append(
@@ -367,4 +373,5 @@ def spread_json(result: SpreadResult, title: str, file: str) -> dict[str, Any]:
         ],
         "held": [{"part": h.label, "reason": h.reason} for h in result.held],
         "codes_not_spread": result.codes_not_spread(),
+        "undefined": dict(result.undefined),
     }
