@@ -6,6 +6,8 @@ from __future__ import annotations
 import math
 from pathlib import Path
 
+from matplotlib.ticker import EngFormatter, MaxNLocator
+
 from chainbudget.report.pictures import style
 from chainbudget.spread.run import SpreadResult
 from chainbudget.spread.view import is_harmonic, is_share, moving
@@ -68,6 +70,10 @@ def draw_histograms(result: SpreadResult, target: Path, fmt: str) -> list[str]:
                     )
             axes.set_title(path, fontsize="small")
             axes.set_ylabel("trials")
+            # a current of 75 uA reads as 75u, a frequency of 12,500 Hz as 12.5k; a few
+            # ticks, so that a panel's labels do not run into each other
+            axes.xaxis.set_major_locator(MaxNLocator(5))
+            axes.xaxis.set_major_formatter(EngFormatter(sep=""))
         if not paths:
             figure.text(0.5, 0.5, "no figure moves over the tolerances", ha="center")
         style.save(figure, target, fmt, "spread")
