@@ -17,7 +17,8 @@ it. A candidate is solved only at the frequency points where its clip level at t
 nominal parts lies within `PRUNE_DB` of the node's worst (`HeldSettings.row_points`: a
 boost's few points near its shelf, not the whole band), for the same reason a candidate
 further above is dropped; an op-amp's current settings likewise near its largest current
-(`current_candidates`: the nominal check's setting of its largest and its neighbours).
+(`current_candidates`: the nominal check's setting of its largest, its neighbours and
+each control's end stops).
 """
 
 from __future__ import annotations
@@ -253,23 +254,27 @@ def opamp_current_settings(analysis: Analysis) -> dict[tuple[int, str], CurrentS
 def current_candidates(analysis: Analysis, k: int, top: tuple[int, ...]) -> list[tuple[int, ...]]:
     """The settings (a rotation index per swept control) at which the spread looks for the
     largest output current of an op-amp of stage ``k`` in every trial, in the check's grid
-    order: the nominal check's largest, ``top``, and its neighbours on the check's grid,
-    each control that shapes the stage's gain (those of its own section and the sections
-    before it) moved one rotation either side alone. The current is the op-amp's gain
-    times the lower of ``max_level`` and its stage's clip level: a boost raises one and
-    lowers the other, so that the largest can sit inside a control's travel, where the
-    parts' tolerances move it to the next rotation (a treble boost's 0.9 rather than its
-    end stop). The controls after the section reach the op-amp only through its load, and
-    stay at ``top``'s rotations (as in `node_candidates`). `held_settings` then drops those
-    more than `PRUNE_DB` below the largest at the nominal parts."""
+    order: the nominal check's largest, ``top``, and, each control that shapes the stage's
+    gain (those of its own section and the sections before it) moved alone, its
+    neighbours on the check's grid (one rotation either side) and its end stops. The
+    current is the op-amp's gain times the lower of ``max_level`` and its stage's clip
+    level: a boost raises one and lowers the other, so that the largest can sit inside a
+    control's travel, where the parts' tolerances move it to the next rotation (a treble
+    boost's 0.9 rather than its end stop); and a control that hardly moves it (the bass
+    control under a treble boost: a flat ridge along its travel) leaves near-equal
+    maxima far apart, between which the tolerances move it (bass 0.9 to bass 0). The
+    controls after the section reach the op-amp only through its load, and stay at
+    ``top``'s rotations (as in `node_candidates`). `held_settings` then drops those more
+    than `PRUNE_DB` below the largest at the nominal parts."""
     last = section_of(sections(analysis.chain.stages), k).last
     ordered: dict[tuple[int, ...], None] = {top: None}
     for sc in analysis.swept_controls:
         if sc.stage_index > last:
             continue
-        for step in (-1, 1):
+        end = sc.rotations.size - 1
+        for rotation in (0, top[sc.axis] - 1, top[sc.axis] + 1, end):
             moved = list(top)
-            moved[sc.axis] = min(max(top[sc.axis] + step, 0), sc.rotations.size - 1)
+            moved[sc.axis] = min(max(rotation, 0), end)
             ordered[tuple(moved)] = None
     return sorted(ordered)
 
