@@ -156,6 +156,13 @@ def held_settings(chain: Chain, voltages: Mapping[str, Corners]) -> HeldSettings
             found.update(int(i) for i in np.flatnonzero(looks))
         return rows.index(row)
 
+    def row_at(rotations: tuple[int, ...]) -> tuple[float, ...]:
+        """The row of a setting given as a rotation index per swept control."""
+        row = list(base)
+        for sc in swept:
+            row[sc.axis] = float(sc.rotations[rotations[sc.axis]])
+        return tuple(row)
+
     for k in range(len(chain.stages)):
         found = None if analysis.worst is None else analysis.worst.nodes[k]
         if clip_source_peak(analysis.swept, k) is None:
@@ -166,13 +173,10 @@ def held_settings(chain: Chain, voltages: Mapping[str, Corners]) -> HeldSettings
         worst = analysis.setting_rotations(found.setting)
         tried = []
         for rotations in node_candidates(analysis, k, found):
-            row = list(base)
-            distance = 0.0
-            for sc in swept:
-                row[sc.axis] = float(sc.rotations[rotations[sc.axis]])
-                distance += abs(row[sc.axis] - sc.control.position)
-            peak = np.asarray(clip_source_peak(nominal_at(tuple(row)), k)[0])  # type: ignore[index]
-            tried.append((tuple(row), distance, peak, rotations == worst))
+            row = row_at(rotations)
+            distance = sum(abs(row[sc.axis] - sc.control.position) for sc in swept)
+            peak = np.asarray(clip_source_peak(nominal_at(row), k)[0])  # type: ignore[index]
+            tried.append((row, distance, peak, rotations == worst))
         # a setting, or a point of it, whose clip level at the nominal parts lies more than
         # PRUNE_DB above the node's worst is left out: no trial's parts move it that far
         floor = min(float(np.min(peak)) for _, _, peak, _ in tried) * 10.0 ** (PRUNE_DB / 20.0)
@@ -189,29 +193,27 @@ def held_settings(chain: Chain, voltages: Mapping[str, Corners]) -> HeldSettings
         floor = float(np.max(found_at.asked_a[1:])) * 10.0 ** (-PRUNE_DB / 20.0)
         chosen: dict[int | None, None] = {}
         for rotations in current_candidates(analysis, k, found_at.rotations):
-            row = list(base)
-            for sc in swept:
-                row[sc.axis] = float(sc.rotations[rotations[sc.axis]])
+            row = row_at(rotations)
             if rotations == found_at.rotations:
                 asked = found_at.asked_a
                 # an ideal op-amp's current is round-off where it is small, and moves by
                 # more than that: its largest's setting alone, on the whole axis
-                looks = asked >= floor if found_at.has_output_resistance else asked == asked
+                if not found_at.has_output_resistance:
+                    chosen[row_of(row, np.ones(asked.shape, bool))] = None
+                    continue
             elif found_at.has_output_resistance:
-                cascade = nominal_at(tuple(row))
-                asked = np.asarray(asked_current(cascade, k, label, max_peak)).reshape(-1)
+                asked = np.asarray(asked_current(nominal_at(row), k, label, max_peak)).reshape(-1)
                 if float(np.max(asked[1:])) < floor:
                     continue
-                looks = asked >= floor
             else:
                 continue
-            chosen[row_of(tuple(row), looks)] = None
+            chosen[row_of(row, asked >= floor)] = None
         current_rows[(k, label)] = tuple(chosen)
     volume_row = None
     if volume is not None:
-        row = list(base)
-        row[keys.index((volume, "position"))] = 1.0
-        volume_row = row_of(tuple(row))  # the output power: at the reference only
+        up = list(base)
+        up[keys.index((volume, "position"))] = 1.0
+        volume_row = row_of(tuple(up))  # the output power: at the reference only
     if not rows:
         keys = []
     row_points = tuple(np.array(sorted(points[row]), dtype=np.intp) for row in rows)
