@@ -767,6 +767,15 @@ def _assert_same_figure(path: str, got: float, want: float, db_abs: float, trial
 _DRAWN_ANYWHERE = frozenset({"hum-remedy", "noise-set-late"})
 
 
+def checked(chain: Chain) -> tuple[Budget, dict]:  # type: ignore[type-arg]
+    """The check of ``chain`` and its JSON as a script reads it (written and read back)."""
+    from chainbudget.budget import compute
+    from chainbudget.report.json_view import budget_json
+
+    budget = compute(chain)
+    return budget, json.loads(json.dumps(budget_json(budget, list(budget.findings))))
+
+
 def _json_figure(
     data: dict,  # type: ignore[type-arg]
     path: str,

@@ -6,17 +6,15 @@ each stage's transistor a part of its own carrying that stage's drawn beta
 
 from __future__ import annotations
 
-import json
 from pathlib import Path
 
 import numpy as np
 import pytest
-from test_spread import _json_figure, trial_chain
+from test_spread import _json_figure, checked, trial_chain
 
 from chainbudget.budget import compute
 from chainbudget.budget.supplies import settle
 from chainbudget.chainfile import load_chain
-from chainbudget.report.json_view import budget_json
 from chainbudget.spread.evaluate import Evaluator
 from chainbudget.spread.flags import is_flag
 from chainbudget.spread.parts import chain_parts
@@ -37,10 +35,7 @@ def test_stages_sharing_a_transistor_part_draw_a_beta_each() -> None:
     # meet the check of a file that gives each its own in none
     assert np.all(positions[:, index[0]] != positions[:, index[1]])
     for t in range(len(positions)):
-        budget = compute(trial_chain(chain, parts, evaluate.values(positions[t : t + 1])))
-        data = json.loads(json.dumps(budget_json(budget, list(budget.findings))))
-        for path, values in batched.items():
-            if is_flag(path):
-                continue
-            held = _json_figure(data, path, budget)
-            assert values[t] == pytest.approx(held, rel=1e-9, abs=1e-12), (path, t)
+        budget, data = checked(trial_chain(chain, parts, evaluate.values(positions[t : t + 1])))
+        for path in (p for p in batched if not is_flag(p)):
+            want = _json_figure(data, path, budget)
+            assert batched[path][t] == pytest.approx(want, rel=1e-9, abs=1e-12), (path, t)

@@ -9,7 +9,15 @@ import json
 
 import numpy as np
 import pytest
-from test_spread import TONE_AND_VOLUME, _chain, _json_figure, _si, trial_chain, trial_changes
+from test_spread import (
+    TONE_AND_VOLUME,
+    _chain,
+    _json_figure,
+    _si,
+    checked,
+    trial_chain,
+    trial_changes,
+)
 
 # bass boost (1 + 100k/20k at its end stop, at 20 Hz) and treble boost (at 20 kHz) within
 # 0.2 dB of each other at the nominal parts: the nominal worst is the bass boost.
@@ -135,7 +143,6 @@ def test_largest_opamp_current_of_each_trial_is_the_checks_over_every_rotation()
     from chainbudget.budget.analysis import analyse
     from chainbudget.budget.supplies import settle
     from chainbudget.chainfile import load_chain
-    from chainbudget.report.json_view import budget_json
     from chainbudget.spread.evaluate import Evaluator
     from chainbudget.spread.parts import chain_parts
     from chainbudget.spread.settings import opamp_current_settings
@@ -159,8 +166,7 @@ def test_largest_opamp_current_of_each_trial_is_the_checks_over_every_rotation()
             trial_changes(chain, parts, evaluate.values(positions[t : t + 1]))
         )
         moved += largest_at(trial) != nominal
-        budget = compute(trial)
-        data = json.loads(json.dumps(budget_json(budget, list(budget.findings))))
+        _, data = checked(trial)
         for path in paths:
             held = _json_figure(data, path)
             assert batched[path][t] == pytest.approx(held, rel=1e-9, abs=0), (path, t)
@@ -181,7 +187,6 @@ def test_largest_opamp_current_found_across_a_flat_bass_ridge() -> None:
     from chainbudget.budget.analysis import analyse
     from chainbudget.budget.supplies import settle
     from chainbudget.chainfile import parse_chain
-    from chainbudget.report.json_view import budget_json
     from chainbudget.spread.evaluate import Evaluator
     from chainbudget.spread.parts import chain_parts
     from chainbudget.spread.settings import opamp_current_settings
@@ -213,8 +218,7 @@ def test_largest_opamp_current_found_across_a_flat_bass_ridge() -> None:
     for t in range(len(positions)):
         trial = trial_chain(chain, parts, evaluate.values(positions[t : t + 1]))
         far += largest_at(trial)[0] == 0
-        budget = compute(trial)
-        data = json.loads(json.dumps(budget_json(budget, list(budget.findings))))
+        _, data = checked(trial)
         held = _json_figure(data, "nodes.tone.drive_worst_current_a")
         assert batched[t] == pytest.approx(held, rel=1e-6, abs=0), t
     assert far == 2
