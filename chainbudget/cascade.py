@@ -347,7 +347,10 @@ def on_points(value: Any, at: NDArray[np.intp], size: int) -> Any:
     """An array on a frequency axis of ``size`` points (its last) at the indices ``at``;
     anything else (a constant, a per-trial (T, 1) value) as it is."""
     if np.ndim(value) and np.shape(value)[-1] == size:
-        return np.asarray(value)[..., at]
+        found = np.asarray(value)
+        if size > 1 and found.strides[-1] == 0:  # one value over the axis (`two_port`)
+            return np.broadcast_to(found[..., :1], (*found.shape[:-1], len(at)))
+        return found[..., at]
     return value
 
 

@@ -543,6 +543,13 @@ class Netlist:
             f_shape = (len(at),)
         return values, np.broadcast_shapes(f_shape, *(np.shape(v) for v in values))
 
+    def flat_over_frequency(self) -> bool:
+        """Whether no element value has the frequency axis (each one a constant, or one
+        value per row of the batch): the matrix is then the same at every point."""
+        values = [st.value for st in self._stamps]
+        values += [c for _, _, coefficients in self._branch_stamps for _, c in coefficients]
+        return all(np.ndim(v) == 0 or np.shape(v)[-1] == 1 for v in values)
+
     def distinct_rows(
         self, at: NDArray[np.intp] | None = None
     ) -> tuple[NDArray[np.intp], NDArray[np.intp]] | None:
@@ -670,14 +677,25 @@ class Netlist:
     def solve(self, rhs: ArrayLike) -> Complex:
         """Solve the network for right-hand sides ``rhs`` of shape ``(..., N, K)``; with
         ``points``, at those frequencies only, every other point holding the solution at
-        the axis' first."""
+        the axis' first. A network none of whose element values varies with frequency
+        (no capacitor, no op-amp roll-off: `flat_over_frequency`) has the same matrix at
+        every point: it is solved at the first alone, and that solution stands at every
+        point (a read-only broadcast view; the same bits as solving each point, since each
+        matrix is solved alone)."""
         b = np.asarray(rhs, dtype=complex)
         on_rows: Callable[[Complex], Complex] = _as_is
+        at = self.points
+        size = self.frequency.shape[-1]
+        flat = b.ndim == 2 and size > 1 and self.flat_over_frequency()
+        if flat:
+            at = np.zeros(1, dtype=np.intp) if self.points is None else self.points[:1]
         if b.ndim > 2:  # a right-hand side per row: every row assembled and solved
-            stamped = self.stamped(at=self.points)
+            stamped = self.stamped(at=at)
         else:
-            stamped, on_rows = self._assembled(at=self.points)
+            stamped, on_rows = self._assembled(at=at)
         x = on_rows(stamped.solve(b))
+        if flat:
+            return np.broadcast_to(x, (*x.shape[:-3], size, *x.shape[-2:]))
         if self.points is None:
             return x
         spread = np.zeros(self.frequency.shape[-1], dtype=np.intp)
@@ -800,6 +818,16 @@ def two_port(net: Netlist, port_in: str, port_out: str, probes: Mapping[str, Ref
     rhs[k1, 0] = 1.0
     rhs[k2, 1] = 1.0
     x = net.solve(rhs)
+    points = x.shape[-3]
+    # a network the same at every frequency (`Netlist.solve`): its parameters worked out
+    # at one point and stood at every other, as read-only views (the same bits)
+    flat = points > 1 and x.strides[-3] == 0
+    if flat:
+        x = x[..., :1, :, :]
+
+    def on_axis(value: Complex) -> Complex:
+        return np.broadcast_to(value, (*value.shape[:-1], points)) if flat else value
+
     # The branch current of a source flows from its + terminal through the source, i.e.
     # out of the network node; the current into the network is its negative.
     y11, y12 = -x[..., k1, 0], -x[..., k1, 1]
@@ -808,5 +836,11 @@ def two_port(net: Netlist, port_in: str, port_out: str, probes: Mapping[str, Ref
     found = {}
     for name, ref in probes.items():
         index = net.index(ref)
-        found[name] = (x[..., index, 0], x[..., index, 1])
-    return TwoPort(a=-y22 / y21, b=-1.0 / y21, c=-det / y21, d=-y11 / y21, probes=found)
+        found[name] = (on_axis(x[..., index, 0]), on_axis(x[..., index, 1]))
+    return TwoPort(
+        a=on_axis(-y22 / y21),
+        b=on_axis(-1.0 / y21),
+        c=on_axis(-det / y21),
+        d=on_axis(-y11 / y21),
+        probes=found,
+    )

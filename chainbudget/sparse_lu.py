@@ -243,6 +243,7 @@ def _factored_solve(plan: _Plan, a: Entries, b: Complex) -> Complex:
     }
     y = b[list(rows)]  # a copy (N, K, size), in slot order
     product = np.empty(size, dtype=complex)
+    products = np.empty(b.shape[1:], dtype=complex)  # (K, size)
     for step in plan.steps:
         k = step.pivot
         pivot_row = [lu[k, j] for j in step.right]
@@ -253,14 +254,16 @@ def _factored_solve(plan: _Plan, a: Entries, b: Complex) -> Complex:
                 entry = lu[i, j]
                 np.multiply(factor, u, out=product)
                 entry -= product
-            y[i] -= factor * y[k]
+            np.multiply(factor, y[k], out=products)
+            y[i] -= products
     x = np.empty_like(y)
     for step in reversed(plan.steps):
         k = step.pivot
         value = y[k]
         for j in step.right:
-            value -= lu[k, j] * x[j]
-        x[k] = value / lu[k, k]
+            np.multiply(lu[k, j], x[j], out=products)
+            value -= products
+        np.divide(value, lu[k, k], out=x[k])
     return x[:n]
 
 
@@ -273,10 +276,19 @@ def _backward_error(
     for the check, not a figure; a breakdown, NaN or infinite, counts as failing. ``b_size``
     is `_largest` of ``b``."""
     residual = b.copy()
+    product = np.empty(x.shape[1:], dtype=complex)
     for r, c in plan.original:
-        residual[r] -= a[r, c] * x[c]
-    values = np.stack([a[key] for key in plan.original])  # (nnz, size)
-    norm_a = _largest(values[:, None, :])
+        np.multiply(a[r, c], x[c], out=product)
+        residual[r] -= product
+    # ||A||: the largest entry's size, entry by entry into one running maximum (no copy
+    # of the entries stacked; the maximum is exact, so the same as over the stack)
+    size = b.shape[-1]
+    norm_a = np.zeros(size)
+    magnitude = np.empty(2 * size)
+    for key in plan.original:
+        np.abs(np.ascontiguousarray(a[key]).view(np.float64), out=magnitude)
+        np.maximum(norm_a, magnitude[0::2], out=norm_a)
+        np.maximum(norm_a, magnitude[1::2], out=norm_a)
     scale = norm_a * _largest(x) + b_size
     size_r = _largest(residual)
     # a zero residual is no error even over a zero scale (b = 0, x = 0); NaN is a breakdown
