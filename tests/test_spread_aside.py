@@ -1,8 +1,9 @@
 """Work run beside the rest in a forked child (`chainbudget.spread.aside`): its result is
 the work's own, and where the child cannot give it (the work raises, the child dies) the
 parent does the work itself, so that an error is raised where it would be without the
-child. And the spread's corner search, run aside, gives the corners the search gives in
-the process."""
+child. The same for the trials' batches in forked workers (`forked_map`). And the
+spread's corner search run aside, and its trials in workers, give the figures they give
+in the process."""
 
 from __future__ import annotations
 
@@ -12,8 +13,9 @@ import numpy as np
 import pytest
 from test_spread import TONE_AND_VOLUME, _chain
 
-from chainbudget.spread import aside, run
-from chainbudget.spread.aside import Aside
+from chainbudget.budget.analysis import frequency_axis
+from chainbudget.spread import aside, evaluate, run
+from chainbudget.spread.aside import Aside, forked_map
 
 pytestmark = pytest.mark.skipif(not aside.can_fork(), reason="the platform does not fork")
 
@@ -106,3 +108,82 @@ def test_corner_shares_hold_every_figure_once_and_each_step_whole() -> None:
         low, high = whole.get(p, (float(centre[p][0]),) * 2)
         stats = spread.stats[p]
         assert spread.corners[p] == (min(low, stats["min"]), max(high, stats["max"])), p
+
+
+def test_forked_map_gives_each_items_result_in_order_from_the_workers() -> None:
+    """Seven items on two workers (every other item each): the results in the items'
+    order, each worked out in a child (its process id is not the parent's, and the two
+    workers are two processes)."""
+    parent = os.getpid()
+
+    def work(i: int) -> tuple[int, int, np.ndarray]:
+        return i, os.getpid(), np.arange(i) ** 2
+
+    found = list(forked_map(work, list(range(7)), 2))
+    assert [i for i, _, _ in found] == list(range(7))
+    for i, _, values in found:
+        np.testing.assert_array_equal(values, np.arange(i) ** 2)
+    pids = {pid for _, pid, _ in found}
+    assert parent not in pids
+    assert len(pids) == 2
+    assert {pid for i, pid, _ in found if i % 2 == 0} != {pid for i, pid, _ in found if i % 2}
+
+
+def test_an_item_a_worker_fails_on_is_done_here_and_raises_here() -> None:
+    """Item 3 raises in its worker: items 0 to 2 still come, then item 3 is worked out in
+    the parent, which raises the error as a plain map would."""
+    parent = os.getpid()
+
+    def work(i: int) -> int:
+        if i == 3:
+            raise ValueError(f"item 3 failed in {os.getpid()}")
+        return i * 10
+
+    found = []
+    with pytest.raises(ValueError, match=f"item 3 failed in {parent}"):
+        for value in forked_map(work, list(range(6)), 2):
+            found.append(value)
+    assert found == [0, 10, 20]
+
+
+def test_the_items_of_a_worker_that_dies_are_done_here() -> None:
+    """The worker of the odd items is killed at item 3 (as by the out-of-memory killer):
+    item 1 came from it, items 3 and 5 are worked out in the parent; every result is
+    there, in order."""
+    parent = os.getpid()
+
+    def work(i: int) -> tuple[int, bool]:
+        if i == 3 and os.getpid() != parent:
+            os._exit(3)
+        return i, os.getpid() == parent
+
+    found = list(forked_map(work, list(range(6)), 2))
+    assert [i for i, _ in found] == list(range(6))
+    here = {i for i, in_parent in found if in_parent}
+    assert 3 in here and 5 in here
+    assert not here & {0, 1, 2, 4}
+
+
+def test_trials_in_forked_workers_equal_the_trials_in_threads(
+    monkeypatch: pytest.MonkeyPatch,
+) -> None:
+    """A spread of three batches of trials: every trial's figures with the batches in
+    forked workers equal those with them in threads, exactly; the workers were used."""
+    chain = _chain(TONE_AND_VOLUME)
+    used = []
+    real = aside.forked_map
+
+    def spy(work, items, workers):  # noqa: ANN001, ANN202
+        used.append(len(items))
+        return real(work, items, workers)
+
+    monkeypatch.setattr(aside, "forked_map", spy)
+    monkeypatch.setattr(evaluate, "CHUNK_POINTS", 1 << 12)  # batches of a few trials
+    trials = 3 * max(1, evaluate.CHUNK_POINTS // frequency_axis(chain).size)
+    forked = run.run_spread(chain, trials, 3)
+    assert used and max(used) >= 3
+    monkeypatch.setattr(aside, "can_fork", lambda: False)
+    threads = run.run_spread(chain, trials, 3)
+    assert forked.samples.keys() == threads.samples.keys()
+    for path, values in forked.samples.items():
+        np.testing.assert_array_equal(values, threads.samples[path], err_msg=path)

@@ -1,4 +1,4 @@
-"""A piece of the spread's work run beside the rest, in a forked copy of the process.
+"""Pieces of the spread's work run beside the rest, in forked copies of the process.
 
 Notes
 -----
@@ -19,6 +19,13 @@ where forking a process that has loaded system frameworks is unsafe), or the chi
 for any reason (an exception in the work, the child killed), the work is done in the
 parent when its result is asked for, so that an error is raised there as it would be
 without the child.
+
+The trials' batches are run the same way (`forked_map`): each of a few forked workers
+takes every k-th batch and sends each batch's figures back as it is done, so that the
+batches' Python runs on every core rather than one thread at a time. The figures are the
+same bits as the batches run in threads (each batch is independent of the others and is
+computed by the same code on the same data); a batch a worker does not give back (it
+failed, or the worker died) is worked out in the parent, which raises any error there.
 """
 
 from __future__ import annotations
@@ -26,17 +33,54 @@ from __future__ import annotations
 import multiprocessing
 import sys
 import warnings
-from collections.abc import Callable
-from multiprocessing.connection import Connection
+from collections.abc import Callable, Iterator, Sequence
+from multiprocessing.connection import Connection, wait
 from multiprocessing.process import BaseProcess
 from typing import Generic, TypeVar
 
 T = TypeVar("T")
+I = TypeVar("I")  # noqa: E741 - an item of work
 
 
 def can_fork() -> bool:
-    """Whether work can be run aside here: Linux, which forks safely."""
-    return sys.platform.startswith("linux") and "fork" in multiprocessing.get_all_start_methods()
+    """Whether work can be run aside here: Linux, which forks safely, in a process that is
+    not itself a forked child (whose children multiprocessing does not allow)."""
+    return (
+        sys.platform.startswith("linux")
+        and "fork" in multiprocessing.get_all_start_methods()
+        and not multiprocessing.current_process().daemon
+    )
+
+
+def _start_child(send: Callable[[Connection], None]) -> tuple[Connection, BaseProcess]:
+    """A forked child that runs ``send(writer)``, and the parent's end of its pipe. The
+    child sends what it has to say through ``writer``; anything it raises, or a pipe the
+    parent has closed (an interrupted run), ends it quietly: the parent, finding no
+    answer, does the work itself."""
+    context = multiprocessing.get_context("fork")
+    reader, writer = context.Pipe(duplex=False)
+
+    def child() -> None:
+        reader.close()
+        try:
+            send(writer)
+        except BaseException:  # noqa: BLE001, S110 - the parent does the work again
+            pass
+        finally:
+            writer.close()
+
+    # what the parent has buffered is written once, by the parent (the child inherits
+    # the buffers and flushes them as it exits)
+    sys.stdout.flush()
+    sys.stderr.flush()
+    with warnings.catch_warnings():
+        # Python 3.12 and later warn on forking a process that has threads (numpy's
+        # BLAS pool): the child only computes, and takes no lock those threads hold
+        warnings.simplefilter("ignore", DeprecationWarning)
+        process = context.Process(target=child, daemon=True)
+        process.start()
+    writer.close()
+    return reader, process
 
 
 class Aside(Generic[T]):
@@ -49,30 +93,15 @@ class Aside(Generic[T]):
         self._process: BaseProcess | None = None
         if not (can_fork() if fork is None else fork):
             return
-        context = multiprocessing.get_context("fork")
-        reader, writer = context.Pipe(duplex=False)
 
-        def child() -> None:
-            reader.close()
+        def send(writer: Connection) -> None:
             try:
                 found: tuple[bool, object] = (True, work())
             except BaseException:  # noqa: BLE001 - the parent does the work again and raises
                 found = (False, None)
             writer.send(found)
-            writer.close()
 
-        # what the parent has buffered is written once, by the parent (the child inherits
-        # the buffers and flushes them as it exits)
-        sys.stdout.flush()
-        sys.stderr.flush()
-        with warnings.catch_warnings():
-            # Python 3.12 and later warn on forking a process that has threads (numpy's
-            # BLAS pool): the child only computes, and takes no lock those threads hold
-            warnings.simplefilter("ignore", DeprecationWarning)
-            process = context.Process(target=child, daemon=True)
-            process.start()
-        writer.close()
-        self._reader, self._process = reader, process
+        self._reader, self._process = _start_child(send)
 
     def result(self) -> T:
         """The work's result: the child's, or the work done here."""
@@ -87,3 +116,52 @@ class Aside(Generic[T]):
             self._process.join()
             self._reader = self._process = None
         return value if ok else self._work()
+
+
+def forked_map(work: Callable[[I], T], items: Sequence[I], workers: int) -> Iterator[T]:
+    """``work(item)`` of each item, in order, computed by ``workers`` forked children (the
+    one numbered w takes items w, w + workers, ...), each result yielded as soon as it
+    and those before it are in. An item whose worker fails on it or dies first is worked
+    out here instead (module notes)."""
+    channels: dict[Connection, tuple[BaseProcess, list[int]]] = {}
+    for w in range(min(workers, len(items))):
+        mine = list(range(w, len(items), workers))
+
+        def send(writer: Connection, mine: list[int] = mine) -> None:
+            for i in mine:
+                try:
+                    found: tuple[int, bool, object] = (i, True, work(items[i]))
+                except BaseException:  # noqa: BLE001 - the parent does it again and raises
+                    writer.send((i, False, None))
+                    return
+                writer.send(found)
+
+        reader, process = _start_child(send)
+        channels[reader] = (process, mine)
+    done: dict[int, T] = {}
+    failed: set[int] = set()
+    try:
+        for i in range(len(items)):
+            while i not in done and i not in failed and channels:
+                for ready in wait(list(channels)):
+                    reader = next(r for r in channels if r is ready)
+                    process, mine = channels[reader]
+                    try:
+                        index, ok, value = reader.recv()
+                    except (EOFError, OSError):  # the worker ended: what it had not sent
+                        failed.update(j for j in mine if j not in done)
+                        reader.close()
+                        process.join()
+                        del channels[reader]
+                        continue
+                    if ok:
+                        done[index] = value
+                    else:
+                        failed.add(index)
+            yield done.pop(i) if i in done else work(items[i])
+    finally:
+        for reader, (process, _) in channels.items():
+            reader.close()
+            if process.is_alive():
+                process.terminate()
+            process.join()

@@ -24,7 +24,7 @@ The node figures and the level rules mirror `chainbudget.budget.levels.node_leve
 from __future__ import annotations
 
 import os
-from collections.abc import Callable, Mapping, Sequence
+from collections.abc import Callable, Iterator, Mapping, Sequence
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 from functools import cache, cached_property, partial
@@ -55,6 +55,7 @@ from chainbudget.loudspeaker import is_reactive, load_impedance
 from chainbudget.network import GMIN, SingularNetwork, shared_rows
 from chainbudget.outputmath import damping_factor, sine_power
 from chainbudget.source_network import source_impedance
+from chainbudget.spread import aside
 from chainbudget.spread.clip_tone import (
     held_budget,
     low_edge_figures,
@@ -113,7 +114,7 @@ STEPS = frozenset(
         "volume",
     )
 )
-# Chunks solved at once (threads; memory grows with them).
+# Chunks solved at once (forked workers, or threads; memory grows with them).
 WORKERS = max(1, min(4, os.cpu_count() or 1))
 
 
@@ -202,18 +203,34 @@ class Evaluator:
                 on_batch(positions.shape[0])
         else:
             batches = [positions[i : i + size] for i in range(0, len(positions), size)]
-            # numpy's batched solves and array arithmetic release the GIL: the chunks run
-            # on the machine's cores side by side (each chunk is independent; order kept)
             pieces = []
-            with ThreadPoolExecutor(max_workers=WORKERS) as pool:
-                for piece, rows in zip(pool.map(batch, batches), batches, strict=True):
-                    pieces.append(piece)
-                    if on_batch is not None:
-                        on_batch(rows.shape[0])
+            for piece, rows in zip(self._mapped(batch, batches, record), batches, strict=True):
+                pieces.append(piece)
+                if on_batch is not None:
+                    on_batch(rows.shape[0])
             found = {path: np.concatenate([p[path] for p in pieces]) for path in pieces[0]}
         if record is not None:
             self.__dict__["steps_of"] = record  # the cached property's own slot
         return found if flags else {p: v for p, v in found.items() if not is_flag(p)}
+
+    def _mapped(
+        self,
+        batch: Callable[[NDArray[np.float64]], Figures],
+        batches: list[NDArray[np.float64]],
+        record: dict[str, str] | None,
+    ) -> Iterator[Figures]:
+        """Each batch's figures, in order, the batches worked out side by side: in forked
+        workers (`chainbudget.spread.aside.forked_map`: the batches' Python on every core)
+        where the platform forks and this evaluator's caches are filled (``record`` None:
+        a whole evaluation has run here, so the workers build nothing twice and file
+        nothing the parent would miss); else in threads (numpy's batched solves and array
+        arithmetic release the GIL, the Python between them runs one thread at a time).
+        The same figures either way (each batch is independent of the others)."""
+        if record is None and len(batches) > 1 and WORKERS > 1 and aside.can_fork():
+            yield from aside.forked_map(batch, batches, WORKERS)
+            return
+        with ThreadPoolExecutor(max_workers=WORKERS) as pool:
+            yield from pool.map(batch, batches)
 
     def _batch(
         self,

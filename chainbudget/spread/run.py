@@ -327,9 +327,9 @@ def run_spread(
     deltas = {p: side[p][1::2] - side[p][0::2] for p in paths}
     moving = {p: _moving(side[p], float(centre[p][0]), evaluate.steps_of[p]) for p in paths}
     # the corner search beside the trials (`chainbudget.spread.aside`), in shares of whole
-    # steps (`_shares`), one fewer than the trials' threads: the trials keep about one and
-    # a half cores busy (on two cores one share measured best, busking amp 10,000 trials:
-    # 27.1 s against 30.9 s with two; docs/performance.md)
+    # steps (`_shares`), one fewer than the trials' workers: on two cores, with the trials
+    # in forked workers, two shares took the same time as one (busking amp and practice
+    # amplifier, 10,000 trials; docs/performance.md), and one holds less memory
     corner_searches = [
         Aside(partial(_corners, evaluate, share, deltas, moving, n))
         for share in _shares(paths, evaluate.steps_of, max(1, WORKERS - 1))
