@@ -265,7 +265,7 @@ def rectified_spread(
         columns = [s.columns() for s in on_grid]
         columns += [_current_columns(s) for s in on_grid]
         coefficients = cheb.chebfit(nodes, np.column_stack(columns), GRID_POINTS - 1)
-        values = np.asarray(cheb.chebval((reservoir - mid) / half, coefficients), float).T
+        values = _chebyshev_series((reservoir - mid) / half, coefficients)
         phases, count = on_grid[0].trough_v.shape[1], on_grid[0].harmonics_vpk.shape[1]
         edges = np.cumsum([0] + [c.shape[1] for c in columns])
         pieces = [values[:, a:b] for a, b in zip(edges[:-1], edges[1:], strict=True)]
@@ -278,6 +278,23 @@ def rectified_spread(
         return _spreads(supply, tr, fixed, trials, currents)
     solved = _solve(supply, jobs, reservoir, signal)
     return _spreads(supply, tr, fixed, solved, _at_worst(solved))
+
+
+def _chebyshev_series(x: Array, coefficients: NDArray[np.floating[Any]]) -> Array:
+    """sum_k c_k T_k(x) for every trial (rows, from ``x`` (T,) in [-1, 1]) and every column
+    of ``coefficients`` (K, M): (T, M). T_k from the three-term recurrence T_0 = 1,
+    T_1 = x, T_k = 2x T_(k-1) - T_(k-2) (Abramowitz & Stegun, Handbook of Mathematical
+    Functions, 22.7.4; |T_k| <= 1 on the interval, so the recurrence is stable); the sum
+    over k one row at a time in order, so that a trial's values are the same bits in any
+    batch (a BLAS matrix product blocks its sums by the batch's size)."""
+    x = np.asarray(x, dtype=float).reshape(-1)
+    basis = np.empty((x.size, coefficients.shape[0]))
+    basis[:, 0] = 1.0
+    if coefficients.shape[0] > 1:
+        basis[:, 1] = x
+    for k in range(2, coefficients.shape[0]):
+        basis[:, k] = 2.0 * x * basis[:, k - 1] - basis[:, k - 2]
+    return np.einsum("tk,km->tm", basis, coefficients)
 
 
 def _grid(
@@ -376,9 +393,7 @@ def _loaded_spread(
     if "reservoir" in drawn and grid is not None:  # on the grid, interpolated to each C
         _, mid, half_width = grid
         on_grid, coefficients = _fitted(supply, jobs, (mid, half_width), signal)
-        values = np.asarray(
-            cheb.chebval((reservoir - mid) / half_width, coefficients), dtype=float
-        ).T
+        values = _chebyshev_series((reservoir - mid) / half_width, coefficients)
     else:  # one C in every trial (the nominal, or a drawn one with no width)
         at_one = _solved(supply, jobs, (float(reservoir[0]),), signal)
         stacked = np.column_stack([_all_columns(s) for s in at_one])
