@@ -10,21 +10,31 @@ asking each supply for its state under the load they make. A trial's drawn parts
 sides: a smaller reservoir sags further under the same load, and a stage whose clip follows
 its rail draws less when the rail sags. `settle_trials` solves the same fixed point for
 every trial at once (the trials one array axis of every solve), from the nominal check's
-settled rails:
+settled rails. With g(x) = F(x) - x over the R moving rails, each trial takes the
+quasi-Newton step
+
+    x_{k+1} = x_k - J_k^{-1} g(x_k),
+
+J_0 = -I (so that the first step is plain substitution, x_1 = F(x_0)) and J_k Broyden's
+rank-one update from the trial's last two steps (`_broyden_update`): the rails are
+coupled (a filtered rail follows the rail it is fed from, and both move the stages'
+currents), and a secant per rail, which reads its parent's move as its own slope, crawled
+where one rail feeds another (the mains practice amplifier's filtered and divided rails:
+nine evaluations at the reference instead of six). Where a trial's J is near singular,
+that trial takes each rail's own secant step instead,
 
     x_{k+1} = x_k + (F(x_k) - x_k) / (1 - s_k),
 
-each rail of each trial with its own secant slope s_k = (F(x_k) - F(x_{k-1})) /
-(x_k - x_{k-1}) from its last two steps (the secant method), taken no higher than zero
-(F falls as a rail rises: more rail, more swing, more current, more sag), so that the
-first step is plain substitution (s = 0); x stays between zero and the rail's output with
-no load, as in the check. A trial whose every rail agrees with F to `SETTLE_TOLERANCE_V`
-stays where it is while the others go on, so its figures do not depend on the trials
-beside it in the batch; the loop stops once all agree or after `MAX_SETTLE_STEPS`
-evaluations (``residual_v`` says which). Measured: the kitchen radio takes one
-evaluation (its stages sit behind regulators: no rail moves), the busking amp three,
-the mains amplifier of tests/test_spread_output_figures.py three at the reference and
-four at the band's low edge.
+s_k = (F(x_k) - F(x_{k-1})) / (x_k - x_{k-1}) taken no higher than zero (F falls as a rail
+rises: more rail, more swing, more current, more sag); x stays between zero and the
+rail's output with no load, as in the check. A trial whose every rail agrees with F to
+`SETTLE_TOLERANCE_V` stays where it is while the others go on, so its figures do not
+depend on the trials beside it in the batch; the loop stops once all agree or after
+`MAX_SETTLE_STEPS` evaluations (``residual_v`` says which). Measured on one batch of
+trials, settled at the band's low edge (the slower of the two tones): the kitchen radio
+two evaluations (its stages sit behind regulators), the busking amp and the bench
+amplifier four, the shed amplifier five, the mains practice amplifier six (with each
+rail's secant alone: two, five, five, nine and nine).
 
 Each evaluation of F is the check's: the trial's chain solved at the tone alone on its
 rails (with its own DC walk and drawn betas), `currents_at` and `external_loads` with
@@ -213,6 +223,7 @@ def settle_trials(
     loads: dict[str, SupplyLoad] = {}
     residual = np.inf
     evaluations = 0
+    jacobian: Array | None = None
     while evaluations < MAX_SETTLE_STEPS:
         on = {r: replace(voltages[r], low=cast(float, x[r].reshape(trials, 1))) for r in rails}
         on = {**voltages, **on}
@@ -236,22 +247,71 @@ def settle_trials(
         # a trial already settled stays where it is: its figures then do not depend on how
         # many steps the others beside it in the batch take
         moving = gaps > SETTLE_TOLERANCE_V
+        jacobian = _broyden_update(jacobian, rails, x, y, previous)
+        newton = _newton_steps(jacobian, np.stack([y[r] - x[r] for r in rails], axis=1))
+        usable = np.all(np.isfinite(newton), axis=1)
         step = {}
-        for r in rails:
+        for i, r in enumerate(rails):
             slope = np.zeros(trials)
             if previous is not None:
                 dx = x[r] - previous[0][r]
                 moved = dx != 0.0
                 slope[moved] = (y[r] - previous[1][r])[moved] / dx[moved]
             slope = np.minimum(slope, 0.0)
+            secant = x[r] + (y[r] - x[r]) / (1.0 - slope)
             # no higher than the rail with no load (a drawn regulator's own, per trial,
             # may lie above the nominal one: F's value is then its bound)
             top = np.maximum(ceiling[r], y[r])
-            stepped = np.clip(x[r] + (y[r] - x[r]) / (1.0 - slope), 0.0, top)
+            stepped = np.clip(np.where(usable, x[r] + newton[:, i], secant), 0.0, top)
             step[r] = np.where(moving, stepped, x[r])
         previous = (x, y)
         x = step
     return SettledTrials(tree, loads, residual, evaluations, drawn)
+
+
+#: A Broyden matrix whose condition number is above this gives no step: the rail's own
+#: secant is taken instead (the columns of a rail that has stopped moving go stale).
+MAX_CONDITION = 1e10
+
+
+def _broyden_update(
+    jacobian: Array | None,
+    rails: Sequence[str],
+    x: Mapping[str, Array],
+    y: Mapping[str, Array],
+    previous: tuple[Mapping[str, Array], Mapping[str, Array]] | None,
+) -> Array:
+    """Each trial's estimate of the Jacobian of g(x) = F(x) - x over the rails, (T, R, R):
+    -I before the first step (the first step is then substitution, x + g), then
+    Broyden's rank-one update J + (dg - J dx) dx^T / (dx^T dx) from the last two steps
+    (Broyden, Math. Comp. 19 (1965) 577, his "good" update; Dennis & Schnabel, Numerical
+    Methods for Unconstrained Optimization and Nonlinear Equations, sec. 8.1; from
+    memory). A trial that did not move keeps its estimate."""
+    trials = np.size(next(iter(x.values()))) if rails else 0
+    if jacobian is None or previous is None:
+        return np.broadcast_to(-np.eye(len(rails)), (trials, len(rails), len(rails))).copy()
+    dx = np.stack([x[r] - previous[0][r] for r in rails], axis=1)
+    dg = np.stack([(y[r] - x[r]) - (previous[1][r] - previous[0][r]) for r in rails], axis=1)
+    length = np.einsum("tr,tr->t", dx, dx)
+    moved = length > 0.0
+    miss = dg[moved] - np.einsum("trs,ts->tr", jacobian[moved], dx[moved])
+    updated = jacobian.copy()
+    updated[moved] += np.einsum("tr,ts->trs", miss, dx[moved]) / length[moved, None, None]
+    return updated
+
+
+def _newton_steps(jacobian: Array, g: Array) -> Array:
+    """Each trial's step d with J d = -g, (T, R); NaN in a trial whose J is near singular
+    (`MAX_CONDITION`) or not finite."""
+    found = np.full(g.shape, np.nan)
+    with np.errstate(invalid="ignore", over="ignore", divide="ignore"):
+        finite = np.all(np.isfinite(jacobian), axis=(1, 2)) & np.all(np.isfinite(g), axis=1)
+        usable = finite.copy()
+        if finite.any():
+            usable[finite] = np.linalg.cond(jacobian[finite]) < MAX_CONDITION
+        if usable.any():
+            found[usable] = np.linalg.solve(jacobian[usable], -g[usable][..., None])[..., 0]
+    return found
 
 
 def _low(corners: Corners, trials: int) -> Array:
