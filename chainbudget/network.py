@@ -537,18 +537,22 @@ class Netlist:
         and the shape ``batch + (F,)`` they broadcast to."""
         f_shape = self.frequency.shape
         pick = _on_points(f_shape[-1], at)
-        values = [pick(st.value) for st in self._stamps]
-        values += [pick(c) for _, _, coefficients in self._branch_stamps for _, c in coefficients]
+        values = [pick(value) for value in self._element_values()]
         if at is not None:
             f_shape = (len(at),)
         return values, np.broadcast_shapes(f_shape, *(np.shape(v) for v in values))
 
+    def _element_values(self) -> list[Any]:
+        """Every element value in the order `matrix` stamps them: the stamps', then the
+        branches' coefficients."""
+        values = [st.value for st in self._stamps]
+        values += [c for _, _, coefficients in self._branch_stamps for _, c in coefficients]
+        return values
+
     def flat_over_frequency(self) -> bool:
         """Whether no element value has the frequency axis (each one a constant, or one
         value per row of the batch): the matrix is then the same at every point."""
-        values = [st.value for st in self._stamps]
-        values += [c for _, _, coefficients in self._branch_stamps for _, c in coefficients]
-        return all(np.ndim(v) == 0 or np.shape(v)[-1] == 1 for v in values)
+        return all(np.ndim(v) == 0 or np.shape(v)[-1] == 1 for v in self._element_values())
 
     def distinct_rows(
         self, at: NDArray[np.intp] | None = None
