@@ -274,6 +274,20 @@ def asked_current(cascade: Cascade, k: int, label: str, max_peak: float) -> NDAr
     return np.abs(np.broadcast_to(cascade.probe(k, f"{label}.current"), level.shape)) * level
 
 
+def largest_asked(
+    analysis: Analysis, k: int, label: str
+) -> tuple[NDArray[np.float64], tuple[int, ...]]:
+    """Op-amp ``label`` of stage ``k``: its `asked_current` at ``max_level`` over the swept
+    candidate settings and the frequency axis, and where over the band it is largest (the
+    index into the band slice of that array: candidate first, where there are several,
+    frequency last)."""
+    max_peak = SQRT2 * analysis.chain.source.max_level
+    asked = asked_current(analysis.swept, k, label, max_peak)
+    band = asked[..., analysis.band_slice]
+    at = np.unravel_index(int(np.argmax(band)), band.shape)
+    return asked, tuple(int(i) for i in at)
+
+
 def opamp_drives(analysis: Analysis) -> list[OpAmpDrive]:
     """Peak output current of every op-amp at ``max_level``.
 
@@ -288,9 +302,8 @@ def opamp_drives(analysis: Analysis) -> list[OpAmpDrive]:
     for k, sol in enumerate(analysis.nominal.stages):
         for label, part in sol.built.opamps:
             per_volt = _at_reference(analysis.nominal.probe(k, f"{label}.current"))
-            asked = asked_current(analysis.swept, k, label, max_peak)
+            asked, at = largest_asked(analysis, k, label)
             band = asked[..., analysis.band_slice]
-            at = np.unravel_index(int(np.argmax(band)), band.shape)
             v_out = _at_reference(analysis.nominal.v_out[k])
             found.append(
                 OpAmpDrive(

@@ -12,10 +12,11 @@ the nominal one:
 - an op-amp's peak current at ``max_level`` is |I_out / V_source| sqrt(2) V_max;
   its worst over the band is that current at ``max_level`` or at the stage's voltage clip,
   whichever is lower, the largest over the setting where the nominal check finds it
-  largest and that setting's neighbours (held fixed, as the worst headroom's candidates
-  are: `chainbudget.spread.settings.current_candidates`). ``opamp-current`` where the
-  worst passes the op-amp's rating (the peak at the reference not already past it: then
-  ``clip-max`` says it), ``opamp-current-margin`` where it passes `DRIVE_MARGIN` of it;
+  largest, that setting's neighbours and each control's end stops (held fixed, as the
+  worst headroom's candidates are: `chainbudget.spread.settings.current_candidates`).
+  ``opamp-current`` where the worst passes the op-amp's rating (the peak at the
+  reference not already past it: then ``clip-max`` says it), ``opamp-current-margin``
+  where it passes `DRIVE_MARGIN` of it;
 - a follower's bias I_E = (V_B - V_BE - V-)/(R_E + R_dc/(beta + 1)) and emitter
   V_B - V_BE - I_B R_dc (Horowitz & Hill 3rd ed. sec. 2.2.5, `follower_bias`) at the
   trial's parts and DC; ``cut_off_vpk`` the source peak at which its bias current runs

@@ -40,7 +40,7 @@ from chainbudget.budget.analysis import (
     solve_chain,
 )
 from chainbudget.budget.levels import SQRT2, clip_source_peak
-from chainbudget.budget.power import asked_current
+from chainbudget.budget.power import asked_current, largest_asked
 from chainbudget.budget.search import NodeWorst
 from chainbudget.budget.ties import TIE_DB
 from chainbudget.cascade import Cascade
@@ -236,15 +236,11 @@ def opamp_current_settings(analysis: Analysis) -> dict[tuple[int, str], CurrentS
     """Each op-amp's (stage index, label) setting at which the nominal check finds its
     largest output current over the band (its ``worst_a``: the current at ``max_level`` or
     at the stage's voltage clip, whichever is lower)."""
-    max_peak = SQRT2 * analysis.chain.source.max_level
-    swept = analysis.swept
     found: dict[tuple[int, str], CurrentSetting] = {}
-    for k, sol in enumerate(swept.stages):
+    for k, sol in enumerate(analysis.swept.stages):
         for label, part in sol.built.opamps:
-            asked = asked_current(swept, k, label, max_peak)
-            band = asked[..., analysis.band_slice]
-            at = np.unravel_index(int(np.argmax(band)), band.shape)
-            candidate = int(at[0]) if band.ndim > 1 else 0
+            asked, at = largest_asked(analysis, k, label)
+            candidate = at[0] if asked.ndim > 1 else 0
             found[(k, label)] = CurrentSetting(
                 tuple(int(i) for i in analysis.candidates[candidate]),
                 asked[candidate] if asked.ndim > 1 else asked,
