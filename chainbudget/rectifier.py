@@ -83,6 +83,10 @@ _SEARCH = np.concatenate((_GEOMETRIC, _EVEN))
 _NODES = 8
 _PANELS = 12
 _GL_X, _GL_W = np.polynomial.legendre.leggauss(_NODES)
+# Grid that brackets `pulse_response_peak`'s peak, and its Newton steps after it (each
+# at least halves the bracket; from one grid step, pi/64, 40 reach round-off).
+_PEAK_GRID = 65
+_PEAK_STEPS = 40
 # Dense grid for the extremes within a charging interval.
 _DENSE = np.linspace(0.0, 1.0, 193)
 _ROOT_XTOL = 1e-10
@@ -146,19 +150,41 @@ def pulse_response(x: ArrayLike, tau: ArrayLike) -> Array:
 
 
 def pulse_response_peak(tau: ArrayLike) -> Array:
-    """Largest value of `pulse_response` over a period (1 for tau = 0), by a dense grid and
-    a parabola through the best three points."""
+    """Largest value of `pulse_response` over a period (1 for tau = 0).
+
+    Notes
+    -----
+    The largest value lies on the pulse (r < pi; off it y only decays) where
+    y'(r) = g cos(r - psi) - (A / tau) exp(-r / tau) falls through zero, y' and
+    y'' = -g sin(r - psi) + (A / tau^2) exp(-r / tau) from `pulse_response`'s closed form.
+    A grid of `_PEAK_GRID` points brackets it between the neighbours of its best point;
+    Newton's steps on y' = 0 then close in, each kept inside the bracket, which every step
+    narrows by the sign of y' (a bisection where Newton's step leaves it: the safeguarded
+    Newton of Press et al., Numerical Recipes, 3rd ed., sec. 9.4, rtsafe; from memory).
+    The largest of y there and the grid's best is returned.
+    """
     tau = np.atleast_1d(np.asarray(tau, dtype=float))
-    x = np.linspace(0.0, np.pi, 2049)
-    y = pulse_response(x[None, :], tau[:, None])
-    best = np.clip(np.argmax(y, axis=1), 1, x.size - 2)
-    rows = np.arange(tau.size)
-    y0, y1, y2 = y[rows, best - 1], y[rows, best], y[rows, best + 1]
-    curvature = y0 - 2.0 * y1 + y2
-    with np.errstate(divide="ignore", invalid="ignore"):
-        shift = np.where(curvature < 0.0, 0.5 * (y0 - y2) / curvature, 0.0)
-    peak = y1 - 0.25 * (y0 - y2) * shift
-    return np.asarray(np.maximum(peak, y.max(axis=1)), dtype=float)
+    grid = np.linspace(0.0, np.pi, _PEAK_GRID)
+    y = pulse_response(grid[None, :], tau[:, None])
+    best = np.clip(np.argmax(y, axis=1), 1, grid.size - 2)
+    lo, hi = grid[best - 1], grid[best + 1]
+    safe = np.where(tau > 0.0, tau, 1.0)
+    g = 1.0 / np.sqrt(1.0 + safe * safe)
+    psi = np.arctan(safe)
+    amplitude = g * np.sin(psi) / -np.expm1(-np.pi / safe)
+    r = grid[best]
+    for _ in range(_PEAK_STEPS):
+        decay = amplitude * np.exp(-r / safe) / safe
+        slope = g * np.cos(r - psi) - decay
+        bend = -g * np.sin(r - psi) + decay / safe
+        rising = slope > 0.0
+        lo, hi = np.where(rising, r, lo), np.where(rising, hi, r)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            newton = r - slope / bend
+        inside = (bend < 0.0) & (newton > lo) & (newton < hi)
+        r = np.where(inside, newton, 0.5 * (lo + hi))
+    peak = np.maximum(pulse_response(r, tau), y.max(axis=1))
+    return np.asarray(np.where(tau > 0.0, peak, 1.0), dtype=float)
 
 
 def commensurate(signal_hz: float, source_hz: float) -> tuple[int, int]:
