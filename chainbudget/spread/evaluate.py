@@ -45,7 +45,7 @@ from chainbudget.budget.power import (
 )
 from chainbudget.budget.rails import supply_states
 from chainbudget.budget.steps import with_value
-from chainbudget.budget.supplies import SettledTree, low_edge_tree, rails_sag
+from chainbudget.budget.supplies import SettledTree, low_edge_tree, moving_rails, rails_sag
 from chainbudget.cascade import Cascade, Joins, at_points, on_points, sections, solve_section
 from chainbudget.cascade import cascade as join_cascade
 from chainbudget.chainfile import Chain
@@ -78,7 +78,7 @@ from chainbudget.spread.loops import closed_loop_figures, loop_figures, loop_thr
 from chainbudget.spread.noise import output_noise
 from chainbudget.spread.parts import Part, with_beta
 from chainbudget.spread.settings import HeldSettings, held_settings, worst_of_candidates
-from chainbudget.spread.settle import load_figures, settle_trials
+from chainbudget.spread.settle import load_figures, nominal_jacobian, settle_trials
 from chainbudget.spread.staging import needs_worst_headroom, staging_flags
 from chainbudget.spread.thd import thd_figures
 from chainbudget.spread.volume import volume_flags
@@ -89,6 +89,8 @@ from chainbudget.supplies.base import Corners, SpreadThreshold, SupplyState
 from chainbudget.thresholds import HISS_SPL_A_LIMIT_DB, SNR_MIN_DB, THIN_HEADROOM_DB
 
 Figures = dict[str, NDArray[np.float64]]
+#: The drawn betas by stage index: each one's name in the stage and its values (T, 1).
+Betas = dict[int, list[tuple[str, NDArray[np.float64]]]]
 
 # Trial-frequency points per batched solve: each point is one stage matrix (n x n complex,
 # n up to 16 in the examples), so a batch's matrices take at most about 70 MB.
@@ -232,6 +234,56 @@ class Evaluator:
         with ThreadPoolExecutor(max_workers=WORKERS) as pool:
             yield from pool.map(batch, batches)
 
+    def _drawn_chain(self, values: list[NDArray[np.float64]]) -> tuple[Chain, Betas]:
+        """The chain with each drawn stage value per trial ((T, 1) columns, from each
+        part's values (T,)), and the drawn betas by stage (`with_beta` builds them into a
+        stage's environment)."""
+        chain = self.chain
+        betas: Betas = {}
+        for part, value in zip(self.parts, values, strict=True):
+            if part.table != "stage":
+                continue
+            column = value.reshape(-1, 1)
+            if part.is_beta:
+                name = str(chain.stages[part.index].values[part.key])
+                betas.setdefault(part.index, []).append((name, column))
+            else:
+                chain = with_value(chain, part.index, part.key, column)
+        return chain, betas
+
+    def _settle_start(
+        self, budget: Budget, voltages: Mapping[str, Corners], tone_hz: float
+    ) -> NDArray[np.float64]:
+        """Where each trial's settling at ``tone_hz`` starts its Jacobian: the nominal
+        parts' (`chainbudget.spread.settle.nominal_jacobian`), the same for every batch."""
+        count = len(moving_rails(self.chain)) + 1
+        values = [np.full(count, part.nominal) for part in self.parts]
+        chain, betas = self._drawn_chain(values)
+        return nominal_jacobian(
+            chain,
+            self.chain,
+            partial(_envs_on, chain, betas),
+            self.parts,
+            values,
+            budget,
+            voltages,
+            self.unloaded,
+            tone_hz,
+        )
+
+    @cached_property
+    def _reference_start(self) -> NDArray[np.float64]:
+        """`_settle_start` at the reference, from the nominal check's settled tree."""
+        return self._settle_start(self.nominal, self.voltages, self.chain.settings.reference)
+
+    @cached_property
+    def _low_edge_start(self) -> NDArray[np.float64] | None:
+        """`_settle_start` at the band's low edge, from the tree the check settles there."""
+        if self.low_edge_tree is None:
+            return None
+        held, settled = self.low_edge_tree
+        return self._settle_start(held, settled.voltages, self.chain.settings.band[0])
+
     def _batch(
         self,
         positions: NDArray[np.float64],
@@ -252,17 +304,7 @@ class Evaluator:
             return found
 
         values = self.values(positions)
-        chain = self.chain
-        betas: dict[int, list[tuple[str, NDArray[np.float64]]]] = {}
-        for part, value in zip(self.parts, values, strict=True):
-            if part.table != "stage":
-                continue
-            column = value.reshape(trials, 1)
-            if part.is_beta:
-                name = str(chain.stages[part.index].values[part.key])
-                betas.setdefault(part.index, []).append((name, column))
-            else:
-                chain = with_value(chain, part.index, part.key, column)
+        chain, betas = self._drawn_chain(values)
         # the tree settled again for each trial at the reference (`chainbudget.spread.settle`)
         settled = settle_trials(
             chain,
@@ -275,6 +317,7 @@ class Evaluator:
             self.unloaded,
             self.chain.settings.reference,
             trials,
+            self._reference_start,
         )
         tree = settled.tree
         figures: Figures = dict(file(tree.figures, "supplies"))
@@ -418,6 +461,7 @@ class Evaluator:
                 self.unloaded,
                 self.chain.settings.band[0],
                 trials,
+                self._low_edge_start,
             ).tree.voltages
         return low_edge_figures(chain, envs_on, rails, trials)
 

@@ -15,7 +15,8 @@ quasi-Newton step
 
     x_{k+1} = x_k - J_k^{-1} g(x_k),
 
-J_0 = -I (so that the first step is plain substitution, x_1 = F(x_0)) and J_k Broyden's
+J_0 the Jacobian of g for the nominal parts at the rails the search starts from
+(`nominal_jacobian`, worked out once: the same start for every batch) and J_k Broyden's
 rank-one update from the trial's last two steps (`_broyden_update`): the rails are
 coupled (a filtered rail follows the rail it is fed from, and both move the stages'
 currents), and a secant per rail, which reads its parent's move as its own slope, crawled
@@ -32,9 +33,12 @@ rail's output with no load, as in the check. A trial whose every rail agrees wit
 depend on the trials beside it in the batch; the loop stops once all agree or after
 `MAX_SETTLE_STEPS` evaluations (``residual_v`` says which). Measured on one batch of
 trials, settled at the band's low edge (the slower of the two tones): the kitchen radio
-two evaluations (its stages sit behind regulators), the busking amp and the bench
-amplifier four, the shed amplifier five, the mains practice amplifier six (with each
-rail's secant alone: two, five, five, nine and nine).
+two evaluations (its stages sit behind regulators), the busking amp, the bench amplifier
+and the shed amplifier four, the mains practice amplifier five (from J_0 = -I, the first
+step plain substitution: two, four, four, five and six; with each rail's secant alone:
+two, five, five, nine and nine). The busking amp gains nothing from its start: its
+push-pull stage swings to the lower of its two battery rails, so at the nominal parts,
+where the two are equal, F has a kink, and a forward difference reads one side of it.
 
 Each evaluation of F is the check's: the trial's chain solved at the tone alone on its
 rails (with its own DC walk and drawn betas), `currents_at` and `external_loads` with
@@ -52,6 +56,7 @@ from __future__ import annotations
 
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, replace
+from functools import cached_property
 from typing import cast
 
 import numpy as np
@@ -198,6 +203,60 @@ def with_loads(budget: Budget, chain: Chain, loads: Mapping[str, SupplyLoad]) ->
     return replace(budget, supplies=supplies)
 
 
+@dataclass(frozen=True)
+class _TrialTree:
+    """F of the module notes for one batch of trials: the trials' chain (``chain``, drawn
+    stage values in), the file's (``nominal_chain``), each part's values per trial, the
+    nominal check settled for the tone (``budget``, ``voltages``) and the tree with no
+    load."""
+
+    chain: Chain
+    nominal_chain: Chain
+    envs_on: EnvsOn
+    parts: tuple[Part, ...]
+    values: list[Array]
+    budget: Budget
+    voltages: Mapping[str, Corners]
+    unloaded: Mapping[str, SupplyState]
+    tone_hz: float
+    trials: int
+
+    @cached_property
+    def drawn(self) -> dict[str, dict[str, Array]]:
+        """Each supply's own drawn parts by name (`supply_parts`)."""
+        return supply_parts(self.nominal_chain, self.parts, self.values)
+
+    def at(self, x: Mapping[str, Array]) -> tuple[dict[str, SupplyLoad], TreeSpread]:
+        """F at rails ``x`` (each moving rail's low-line value per trial, (T,)): the loads
+        the trials' stages draw on them and the tree's spread under those loads."""
+        trials = self.trials
+        on = {
+            r: replace(self.voltages[r], low=cast(float, v.reshape(trials, 1)))
+            for r, v in x.items()
+        }
+        on = {**self.voltages, **on}
+        loads = trial_loads(
+            self.chain,
+            self.nominal_chain,
+            self.envs_on(on),
+            self.tone_hz,
+            trials,
+            self.drawn,
+            self.unloaded,
+        )
+        tree = tree_spread(
+            self.nominal_chain,
+            self.parts,
+            self.values,
+            with_loads(self.budget, self.nominal_chain, loads),
+            on,
+            self.unloaded,
+            trials,
+            about=self.budget,
+        )
+        return loads, tree
+
+
 def settle_trials(
     chain: Chain,
     nominal_chain: Chain,
@@ -209,12 +268,17 @@ def settle_trials(
     unloaded: Mapping[str, SupplyState],
     tone_hz: float,
     trials: int,
+    start: Array | None = None,
 ) -> SettledTrials:
     """The tree settled per trial for a tone ``tone_hz`` (module notes): ``chain`` with the
     trials' drawn stage values, ``budget`` the nominal check settled for the tone (its
-    states and loads where the search starts), ``voltages`` its rails."""
+    states and loads where the search starts), ``voltages`` its rails, ``start`` the
+    Jacobian of g at those rails (`nominal_jacobian`; -I where not given)."""
     rails = moving_rails(nominal_chain)
-    drawn = supply_parts(nominal_chain, parts, values)
+    problem = _TrialTree(
+        chain, nominal_chain, envs_on, parts, values, budget, voltages, unloaded, tone_hz, trials
+    )
+    drawn = problem.drawn
     ceiling = {r: np.asarray(unloaded[r].trough_v, dtype=float) for r in rails}
     # from the nominal check's rails: each step's supplies are then spread under loads
     # close to the nominal ones, about which the rectifier's solves are kept
@@ -225,19 +289,7 @@ def settle_trials(
     evaluations = 0
     jacobian: Array | None = None
     while evaluations < MAX_SETTLE_STEPS:
-        on = {r: replace(voltages[r], low=cast(float, x[r].reshape(trials, 1))) for r in rails}
-        on = {**voltages, **on}
-        loads = trial_loads(chain, nominal_chain, envs_on(on), tone_hz, trials, drawn, unloaded)
-        tree = tree_spread(
-            nominal_chain,
-            parts,
-            values,
-            with_loads(budget, nominal_chain, loads),
-            on,
-            unloaded,
-            trials,
-            about=budget,
-        )
+        loads, tree = problem.at(x)
         evaluations += 1
         y = {r: _low(tree.voltages[r], trials) for r in rails}
         gaps = np.max([np.abs(y[r] - x[r]) for r in rails], axis=0, initial=0.0)
@@ -247,7 +299,7 @@ def settle_trials(
         # a trial already settled stays where it is: its figures then do not depend on how
         # many steps the others beside it in the batch take
         moving = gaps > SETTLE_TOLERANCE_V
-        jacobian = _broyden_update(jacobian, rails, x, y, previous)
+        jacobian = _broyden_update(jacobian, rails, x, y, previous, start)
         newton = _newton_steps(jacobian, np.stack([y[r] - x[r] for r in rails], axis=1))
         usable = np.all(np.isfinite(newton), axis=1)
         step = {}
@@ -269,6 +321,45 @@ def settle_trials(
     return SettledTrials(tree, loads, residual, evaluations, drawn)
 
 
+#: How far `nominal_jacobian` raises one rail at a time to read F's slopes, V: small
+#: beside a rail's sag, large beside the settling's tolerance and F's round-off.
+JACOBIAN_STEP_V = 1e-4
+
+
+def nominal_jacobian(
+    chain: Chain,
+    nominal_chain: Chain,
+    envs_on: EnvsOn,
+    parts: tuple[Part, ...],
+    values: list[Array],
+    budget: Budget,
+    voltages: Mapping[str, Corners],
+    unloaded: Mapping[str, SupplyState],
+    tone_hz: float,
+) -> Array:
+    """The Jacobian of g(x) = F(x) - x over the moving rails, (R, R), at the nominal
+    check's settled rails ``voltages`` with the nominal parts, by forward differences
+    (Dennis & Schnabel, sec. 5.4; from memory): ``values`` are R + 1 copies of the
+    nominal parts (each (R + 1,), ``chain`` built from them), solved as R + 1 trials in
+    one evaluation of F, copy i + 1 with rail i raised by `JACOBIAN_STEP_V`. Where
+    `settle_trials` starts from it, a trial's first step is Newton's for the nominal parts
+    rather than substitution; a trial's parts move J by their tolerances, and Broyden's
+    updates take it from there."""
+    rails = moving_rails(nominal_chain)
+    if not rails:  # nothing to settle
+        return np.zeros((0, 0))
+    count = len(rails) + 1
+    problem = _TrialTree(
+        chain, nominal_chain, envs_on, parts, values, budget, voltages, unloaded, tone_hz, count
+    )
+    raised = np.eye(count, len(rails), -1) * JACOBIAN_STEP_V  # row i + 1: rail i raised
+    x = {r: _low(voltages[r], count) + raised[:, i] for i, r in enumerate(rails)}
+    _, tree = problem.at(x)
+    y = np.stack([_low(tree.voltages[r], count) for r in rails], axis=1)  # (R + 1, R)
+    slopes = (y[1:] - y[0]) / JACOBIAN_STEP_V  # row i: dF/dx_i
+    return slopes.T - np.eye(len(rails))
+
+
 #: A Broyden matrix whose condition number is above this gives no step: the rail's own
 #: secant is taken instead (the columns of a rail that has stopped moving go stale).
 MAX_CONDITION = 1e10
@@ -280,6 +371,7 @@ def _broyden_update(
     x: Mapping[str, Array],
     y: Mapping[str, Array],
     previous: tuple[Mapping[str, Array], Mapping[str, Array]] | None,
+    start: Array | None = None,
 ) -> Array:
     """Each trial's estimate of the Jacobian of g(x) = F(x) - x over the rails, (T, R, R):
     -I before the first step (the first step is then substitution, x + g), then
@@ -289,7 +381,8 @@ def _broyden_update(
     memory). A trial that did not move keeps its estimate."""
     trials = np.size(next(iter(x.values()))) if rails else 0
     if jacobian is None or previous is None:
-        return np.broadcast_to(-np.eye(len(rails)), (trials, len(rails), len(rails))).copy()
+        first = -np.eye(len(rails)) if start is None else start
+        return np.broadcast_to(first, (trials, len(rails), len(rails))).copy()
     dx = np.stack([x[r] - previous[0][r] for r in rails], axis=1)
     dg = np.stack([(y[r] - x[r]) - (previous[1][r] - previous[0][r]) for r in rails], axis=1)
     length = np.einsum("tr,tr->t", dx, dx)
