@@ -203,7 +203,6 @@ def test_the_pulse_response_is_the_periodic_low_pass_of_a_half_sine() -> None:
     assert float(rectifier.pulse_response_peak(0.0)[0]) == pytest.approx(1.0, rel=1e-9)
 
 
-
 def test_the_pulse_responses_peak_is_its_largest_value() -> None:
     """`pulse_response_peak` against a brute-force search of the closed form for each time
     constant from 1e-6 to 1e5 rad (a grid of 200,001 points over the pulse, then scipy's
@@ -225,6 +224,7 @@ def test_the_pulse_responses_peak_is_its_largest_value() -> None:
         assert peak == pytest.approx(max(-best.fun, float(y[i])), rel=1e-13, abs=0)
     assert found[0] == pytest.approx(1.0, rel=1e-5) and np.all(np.diff(found) < 0.0)
     assert found[-1] == pytest.approx(1.0 / math.pi, rel=1e-4)
+
 
 def test_the_half_sine_integral_is_the_integral() -> None:
     """Closed form against numerical quadrature (scipy quad), abs 1e-9."""
