@@ -23,6 +23,7 @@ The node figures and the level rules mirror `chainbudget.budget.levels.node_leve
 
 from __future__ import annotations
 
+import math
 import os
 from collections.abc import Callable, Iterator, Mapping, Sequence
 from concurrent.futures import ThreadPoolExecutor
@@ -78,7 +79,12 @@ from chainbudget.spread.loops import closed_loop_figures, loop_figures, loop_thr
 from chainbudget.spread.noise import output_noise
 from chainbudget.spread.parts import Part, with_beta
 from chainbudget.spread.settings import HeldSettings, held_settings, worst_of_candidates
-from chainbudget.spread.settle import load_figures, nominal_jacobian, settle_trials
+from chainbudget.spread.settle import (
+    SettledTrials,
+    load_figures,
+    nominal_jacobian,
+    settle_trials,
+)
 from chainbudget.spread.staging import needs_worst_headroom, staging_flags
 from chainbudget.spread.thd import thd_figures
 from chainbudget.spread.volume import volume_flags
@@ -118,10 +124,40 @@ STEPS = frozenset(
 )
 # Chunks solved at once (forked workers, or threads; memory grows with them).
 WORKERS = max(1, min(4, os.cpu_count() or 1))
+# Trials whose power trees one settling works out together, at most (`Evaluator.__call__`):
+# a settling step solves the chain at one tone, a few matrices a trial, so that on a
+# chunk's hundred-odd trials its cost is the Python between numpy's operations (busking
+# amp, one tone: 20 ms for 133 trials, 33 ms for 1,330).
+SETTLE_GROUP_TRIALS = 1024
 
 
 # No held settings: the controls as set only (a step that reads no held setting).
 _NO_HELD = HeldSettings((), (), {}, None)
+
+
+@dataclass(frozen=True)
+class SettledRails:
+    """The rails each trial of a group of chunks settled on (`SettledTrials.rails_v`, each
+    moving rail's low-line value, (T,)): at the reference, and at the band's low edge
+    where the chunks work that tone out (None: not asked for, or the check settles none
+    there)."""
+
+    reference: dict[str, NDArray[np.float64]]
+    low_edge: dict[str, NDArray[np.float64]] | None
+
+    def rows(self, rows: slice) -> SettledRails:
+        """The same for the trials ``rows`` alone."""
+        low = None if self.low_edge is None else {r: v[rows] for r, v in self.low_edge.items()}
+        return SettledRails({r: v[rows] for r, v in self.reference.items()}, low)
+
+
+def _grouped(batches: list[NDArray[np.float64]], workers: int) -> list[list[int]]:
+    """The chunks (by index, in order) in groups that settle their trees together: at
+    most about `SETTLE_GROUP_TRIALS` trials a group, and at least two groups a worker where
+    there are chunks enough (a worker takes every k-th group: `aside.forked_map`)."""
+    trials = sum(len(b) for b in batches)
+    count = max(min(len(batches), 2 * workers), math.ceil(trials / SETTLE_GROUP_TRIALS))
+    return [g.tolist() for g in np.array_split(np.arange(len(batches)), count) if g.size]
 
 
 @dataclass(frozen=True)
@@ -193,23 +229,40 @@ class Evaluator:
         if steps is None and "steps_of" not in self.__dict__:
             record = {}
 
-        def batch(chunk: NDArray[np.float64]) -> Figures:
+        def group_work(chunks: list[NDArray[np.float64]]) -> list[Figures]:
+            """Each chunk's figures, the group's trees settled together first (a group of
+            one chunk settles its own in `_batch`)."""
+            rails = None
+            if len(chunks) > 1:
+                rails = self._settled_rails(np.concatenate(chunks), steps)
+            found, at = [], 0
+            for chunk in chunks:
+                mine = None if rails is None else rails.rows(slice(at, at + len(chunk)))
+                at += len(chunk)
+                found.append(self._batch(chunk, steps=steps, record=record, rails=mine))
+            return found
+
+        def batch(chunks: list[NDArray[np.float64]]) -> list[Figures]:
             if not shared:
-                return self._batch(chunk, steps=steps, record=record)
-            with shared_rows():  # in the thread that solves the chunk
-                return self._batch(chunk, steps=steps, record=record)
+                return group_work(chunks)
+            with shared_rows():  # in the thread that solves the chunks
+                return group_work(chunks)
 
         if positions.shape[0] <= size:
-            found = batch(positions)
+            (found,) = batch([positions])
             if on_batch is not None:
                 on_batch(positions.shape[0])
         else:
             batches = [positions[i : i + size] for i in range(0, len(positions), size)]
+            groups = [[batches[i] for i in group] for group in _grouped(batches, WORKERS)]
             pieces = []
-            for piece, rows in zip(self._mapped(batch, batches, record), batches, strict=True):
-                pieces.append(piece)
-                if on_batch is not None:
-                    on_batch(rows.shape[0])
+            for group_pieces, group in zip(
+                self._mapped(batch, groups, record), groups, strict=True
+            ):
+                for piece, rows in zip(group_pieces, group, strict=True):
+                    pieces.append(piece)
+                    if on_batch is not None:
+                        on_batch(rows.shape[0])
             found = {path: np.concatenate([p[path] for p in pieces]) for path in pieces[0]}
         if record is not None:
             self.__dict__["steps_of"] = record  # the cached property's own slot
@@ -217,11 +270,11 @@ class Evaluator:
 
     def _mapped(
         self,
-        batch: Callable[[NDArray[np.float64]], Figures],
-        batches: list[NDArray[np.float64]],
+        batch: Callable[[list[NDArray[np.float64]]], list[Figures]],
+        batches: list[list[NDArray[np.float64]]],
         record: dict[str, str] | None,
-    ) -> Iterator[Figures]:
-        """Each batch's figures, in order, the batches worked out side by side: in forked
+    ) -> Iterator[list[Figures]]:
+        """Each group of batches' figures, in order, the groups worked out side by side: in forked
         workers (`chainbudget.spread.aside.forked_map`: the batches' Python on every core)
         where the platform forks and this evaluator's caches are filled (``record`` None:
         a whole evaluation has run here, so the workers build nothing twice and file
@@ -289,12 +342,15 @@ class Evaluator:
         positions: NDArray[np.float64],
         steps: frozenset[str] | None = None,
         record: dict[str, str] | None = None,
+        rails: SettledRails | None = None,
     ) -> Figures:
         """Every spread figure for one batch of trials (one solve of each kind); with
         ``steps``, the supplies' and DC figures and those of the `STEPS` named only (the
         others' solves left out: `steps_of` says which step gives a figure). Only
         ``{"supplies"}``: the supplies' figures alone. ``record`` is filled with the step
-        that gives each figure (`steps_of`)."""
+        that gives each figure (`steps_of`). ``rails``: the rails these trials' trees
+        settled on, worked out with the rest of their group (`_settled_rails`; None: the
+        batch settles them itself)."""
         trials = positions.shape[0]
         filed = {} if record is None else record
 
@@ -306,18 +362,8 @@ class Evaluator:
         values = self.values(positions)
         chain, betas = self._drawn_chain(values)
         # the tree settled again for each trial at the reference (`chainbudget.spread.settle`)
-        settled = settle_trials(
-            chain,
-            self.chain,
-            partial(_envs_on, chain, betas),
-            self.parts,
-            values,
-            self.nominal,
-            self.voltages,
-            self.unloaded,
-            self.chain.settings.reference,
-            trials,
-            self._reference_start,
+        settled = self._settled_at_reference(
+            chain, betas, values, trials, None if rails is None else rails.reference
         )
         tree = settled.tree
         figures: Figures = dict(file(tree.figures, "supplies"))
@@ -361,7 +407,14 @@ class Evaluator:
             "reference": lambda: _reference_figures(self.chain, as_set(), trials, nominal),
             "band": band,
             "output": lambda: self._output_step(chain, held(), as_set(), hot_envs(), trials),
-            "low_edge": lambda: self._low_edge(chain, betas, values, tree.voltages, trials),
+            "low_edge": lambda: self._low_edge(
+                chain,
+                betas,
+                values,
+                tree.voltages,
+                trials,
+                None if rails is None else rails.low_edge,
+            ),
             "sag_cost": lambda: sag_cost_figures(
                 chain,
                 self.parts,
@@ -438,32 +491,89 @@ class Evaluator:
     def _low_edge(
         self,
         chain: Chain,
-        betas: Mapping[int, list[tuple[str, NDArray[np.float64]]]],
+        betas: Betas,
         values: list[NDArray[np.float64]],
         own_rails: Mapping[str, Corners],
         trials: int,
+        at: Mapping[str, NDArray[np.float64]] | None = None,
     ) -> Figures:
         """``output.clip_power_low_w`` per trial: on the low-tone tree settled again for
-        each trial from the nominal check's, or on the batch's own rails where the check
-        settles none."""
-        rails = own_rails
-        envs_on = partial(_envs_on, chain, betas)
-        if self.low_edge_tree is not None:
-            held, settled = self.low_edge_tree
-            rails = settle_trials(
-                chain,
-                self.chain,
-                envs_on,
-                self.parts,
-                values,
-                held,
-                settled.voltages,
-                self.unloaded,
-                self.chain.settings.band[0],
-                trials,
-                self._low_edge_start,
-            ).tree.voltages
-        return low_edge_figures(chain, envs_on, rails, trials)
+        each trial from the nominal check's (on the rails ``at`` where its group settled
+        them), or on the batch's own rails where the check settles none."""
+        settled = self._settled_at_low_edge(chain, betas, values, trials, at)
+        rails = own_rails if settled is None else settled.tree.voltages
+        return low_edge_figures(chain, partial(_envs_on, chain, betas), rails, trials)
+
+    def _settled_at_reference(
+        self,
+        chain: Chain,
+        betas: Betas,
+        values: list[NDArray[np.float64]],
+        trials: int,
+        at: Mapping[str, NDArray[np.float64]] | None = None,
+    ) -> SettledTrials:
+        """Each trial's tree settled for a tone at the reference (`settle_trials`), from the
+        nominal check's; with ``at``, on the rails its group settled on."""
+        return settle_trials(
+            chain,
+            self.chain,
+            partial(_envs_on, chain, betas),
+            self.parts,
+            values,
+            self.nominal,
+            self.voltages,
+            self.unloaded,
+            self.chain.settings.reference,
+            trials,
+            self._reference_start,
+            at,
+        )
+
+    def _settled_at_low_edge(
+        self,
+        chain: Chain,
+        betas: Betas,
+        values: list[NDArray[np.float64]],
+        trials: int,
+        at: Mapping[str, NDArray[np.float64]] | None = None,
+    ) -> SettledTrials | None:
+        """Each trial's tree settled for a tone at the band's low edge, from the one the
+        nominal check settles there (`low_edge_tree`; None where it settles none); with
+        ``at``, on the rails its group settled on."""
+        if self.low_edge_tree is None:
+            return None
+        held, settled = self.low_edge_tree
+        return settle_trials(
+            chain,
+            self.chain,
+            partial(_envs_on, chain, betas),
+            self.parts,
+            values,
+            held,
+            settled.voltages,
+            self.unloaded,
+            self.chain.settings.band[0],
+            trials,
+            self._low_edge_start,
+            at,
+        )
+
+    def _settled_rails(
+        self, positions: NDArray[np.float64], steps: frozenset[str] | None
+    ) -> SettledRails:
+        """The rails each trial of ``positions`` settles on at the reference, and at the
+        band's low edge where ``steps`` ask for it: the settling's steps taken once for a
+        group of chunks, each chunk then evaluating its trees there once
+        (`settle_trials`'s ``at``: the same bits as settling alone)."""
+        values = self.values(positions)
+        chain, betas = self._drawn_chain(values)
+        trials = positions.shape[0]
+        reference = self._settled_at_reference(chain, betas, values, trials).rails_v
+        low = None
+        if steps is None or "low_edge" in steps:
+            found = self._settled_at_low_edge(chain, betas, values, trials)
+            low = None if found is None else found.rails_v
+        return SettledRails(reference, low)
 
     @cached_property
     def unloaded(self) -> dict[str, SupplyState]:

@@ -40,6 +40,11 @@ two, five, five, nine and nine). The busking amp gains nothing from its start: i
 push-pull stage swings to the lower of its two battery rails, so at the nominal parts,
 where the two are equal, F has a kink, and a forward difference reads one side of it.
 
+A spread settles the trees of a group of chunks together (`Evaluator.__call__`: the
+steps' cost on a chunk's hundred-odd trials is mostly the Python between numpy's
+operations), and each chunk then evaluates F once on the rails its trials settled on
+(``at``).
+
 Each evaluation of F is the check's: the trial's chain solved at the tone alone on its
 rails (with its own DC walk and drawn betas), `currents_at` and `external_loads` with
 the trials an array axis, and the supplies' spread under those loads per trial
@@ -89,14 +94,17 @@ Array = NDArray[np.float64]
 class SettledTrials:
     """The tree as settled per trial: its spread (`TreeSpread`), the loads per trial that
     settle it (each rail's `SupplyLoad`, fields (T,)), the largest disagreement left on
-    any trial's rail, V, the evaluations spent, and each supply's own drawn parts it was
-    settled with (`supply_parts`)."""
+    any trial's rail, V, the evaluations spent, each supply's own drawn parts it was
+    settled with (`supply_parts`), and the rails the trials' stages were solved on for
+    that last evaluation (each moving rail's low-line value, (T,): `settle_trials`'s
+    ``at``)."""
 
     tree: TreeSpread
     loads: dict[str, SupplyLoad]
     residual_v: float
     evaluations: int
     drawn: dict[str, dict[str, Array]]
+    rails_v: dict[str, Array]
 
 
 def trial_loads(
@@ -269,11 +277,16 @@ def settle_trials(
     tone_hz: float,
     trials: int,
     start: Array | None = None,
+    at: Mapping[str, Array] | None = None,
 ) -> SettledTrials:
     """The tree settled per trial for a tone ``tone_hz`` (module notes): ``chain`` with the
     trials' drawn stage values, ``budget`` the nominal check settled for the tone (its
     states and loads where the search starts), ``voltages`` its rails, ``start`` the
-    Jacobian of g at those rails (`nominal_jacobian`; -I where not given)."""
+    Jacobian of g at those rails (`nominal_jacobian`; -I where not given). With ``at``,
+    the rails these trials settled on already (`SettledTrials.rails_v` of a batch that
+    held them, each rail's values for these trials), F is evaluated there once, with no
+    step: the tree, loads and residual that batch's last evaluation gave them, bit for
+    bit, since a trial's F does not depend on the trials beside it."""
     rails = moving_rails(nominal_chain)
     problem = _TrialTree(
         chain, nominal_chain, envs_on, parts, values, budget, voltages, unloaded, tone_hz, trials
@@ -282,19 +295,21 @@ def settle_trials(
     ceiling = {r: np.asarray(unloaded[r].trough_v, dtype=float) for r in rails}
     # from the nominal check's rails: each step's supplies are then spread under loads
     # close to the nominal ones, about which the rectifier's solves are kept
-    x = {r: _low(voltages[r], trials) for r in rails}
+    x = {r: _low(voltages[r], trials) for r in rails} if at is None else dict(at)
     previous: tuple[dict[str, Array], dict[str, Array]] | None = None
     loads: dict[str, SupplyLoad] = {}
     residual = np.inf
     evaluations = 0
     jacobian: Array | None = None
+    solved_on = x
     while evaluations < MAX_SETTLE_STEPS:
         loads, tree = problem.at(x)
+        solved_on = x
         evaluations += 1
         y = {r: _low(tree.voltages[r], trials) for r in rails}
         gaps = np.max([np.abs(y[r] - x[r]) for r in rails], axis=0, initial=0.0)
         residual = float(np.max(gaps, initial=0.0))
-        if residual <= SETTLE_TOLERANCE_V:
+        if residual <= SETTLE_TOLERANCE_V or at is not None:
             break
         # a trial already settled stays where it is: its figures then do not depend on how
         # many steps the others beside it in the batch take
@@ -318,7 +333,7 @@ def settle_trials(
             step[r] = np.where(moving, stepped, x[r])
         previous = (x, y)
         x = step
-    return SettledTrials(tree, loads, residual, evaluations, drawn)
+    return SettledTrials(tree, loads, residual, evaluations, drawn, solved_on)
 
 
 #: How far `nominal_jacobian` raises one rail at a time to read F's slopes, V: small
