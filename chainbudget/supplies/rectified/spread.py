@@ -108,7 +108,7 @@ import dataclasses
 import math
 from collections.abc import Mapping
 from dataclasses import dataclass
-from functools import lru_cache
+from functools import lru_cache, partial
 from typing import Any
 
 import numpy as np
@@ -116,6 +116,7 @@ from numpy.polynomial import chebyshev as cheb
 from numpy.typing import NDArray
 
 from chainbudget import rectifier
+from chainbudget.spread import aside
 from chainbudget.spread.flags import flag_key
 from chainbudget.supplies.base import (
     NO_LOAD,
@@ -699,17 +700,14 @@ def _solve(
             start["idle"] = rows
             add(high, d.idle_loaded, d.idle, 0.0, np.zeros(n))
         starts.append(start)
-    solved = rectifier.solve(
+    solved = _rows_solved(
+        tr,
+        signal,
         np.concatenate(peak),
-        tr.drop_v,
-        tr.winding_ohm,
         np.concatenate(capacitance),
-        tr.line_hz,
         np.concatenate(dc),
         np.concatenate(pulse),
-        signal,
         np.concatenate(phase),
-        half_wave=tr.half_wave,
     )
 
     def phased(values: object, start: int) -> Array:
@@ -742,6 +740,59 @@ def _solve(
             part["high_idle_v"] = single(solved.mean_v, start["idle"])
         parts.append(part)
     return tuple(Solved(**(parts[job.rail] | part)) for job, part in zip(jobs, parts, strict=True))
+
+
+#: Rows from which `_rows_solved` gives half of them to a forked child.
+SPLIT_ROWS = 512
+
+
+def _rows_solved(
+    tr: Transformer,
+    signal: float | None,
+    peak: Array,
+    capacitance: Array,
+    dc: Array,
+    pulse: Array,
+    phase: Array,
+) -> rectifier.SteadyState:
+    """`rectifier.solve` of rows that are circuits of their own (each row's source peak,
+    reservoir, steady and pulsed load and phase): where there are `SPLIT_ROWS` or more and
+    the platform forks, the second half in a forked child beside the first
+    (`chainbudget.spread.aside.Aside`). The grid's solves (`_fitted`: 17 reservoir values,
+    each at low and high line under every phase of the pulses) are the spread's one long
+    piece of work before its trials can start, about 3 s of the practice amplifier's run
+    for a tone at the band's low edge, on one core. Each row is a circuit of its own, so
+    the figures are one solve's to its root finding's tolerance (the conduction's ends
+    to 1e-10 rad, `rectifier._ROOT_XTOL`: tests/test_rectifier_rows_split.py); on the
+    practice and shed amplifiers the spread JSON moved by at most 4e-15 relative in a
+    figure, 1.6e-13 in a sensitivity share (a ratio of differences)."""
+
+    def solved(rows: slice) -> rectifier.SteadyState:
+        return rectifier.solve(
+            peak[rows],
+            tr.drop_v,
+            tr.winding_ohm,
+            capacitance[rows],
+            tr.line_hz,
+            dc[rows],
+            pulse[rows],
+            signal,
+            phase[rows],
+            half_wave=tr.half_wave,
+        )
+
+    count = peak.size
+    if count < SPLIT_ROWS or not aside.can_fork():
+        return solved(slice(0, count))
+    later = aside.Aside(partial(solved, slice(count // 2, count)))
+    first = solved(slice(0, count // 2))
+    second = later.result()
+    rows: dict[str, Any] = {  # each row's figures in order; the frequencies are shared
+        f.name: np.concatenate([getattr(first, f.name), getattr(second, f.name)])
+        for f in dataclasses.fields(first)
+        if isinstance(getattr(first, f.name), np.ndarray)
+    }
+    return dataclasses.replace(first, **rows)
 
 
 def _current_columns(solved: Solved) -> Array:
