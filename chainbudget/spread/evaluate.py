@@ -274,13 +274,14 @@ class Evaluator:
         batches: list[list[NDArray[np.float64]]],
         record: dict[str, str] | None,
     ) -> Iterator[list[Figures]]:
-        """Each group of batches' figures, in order, the groups worked out side by side: in forked
-        workers (`chainbudget.spread.aside.forked_map`: the batches' Python on every core)
-        where the platform forks and this evaluator's caches are filled (``record`` None:
-        a whole evaluation has run here, so the workers build nothing twice and file
-        nothing the parent would miss); else in threads (numpy's batched solves and array
-        arithmetic release the GIL, the Python between them runs one thread at a time).
-        The same figures either way (each batch is independent of the others)."""
+        """Each group of batches' figures, in order, the groups worked out side by side: in
+        forked workers (`chainbudget.spread.aside.forked_map`: the batches' Python on
+        every core) where the platform forks and this evaluator's caches are filled
+        (``record`` None: a whole evaluation has run here, so the workers build nothing
+        twice and file nothing the parent would miss); else in threads (numpy's batched
+        solves and array arithmetic release the GIL, the Python between them runs one
+        thread at a time). The same figures either way (each group is independent of the
+        others)."""
         if record is None and len(batches) > 1 and WORKERS > 1 and aside.can_fork():
             yield from aside.forked_map(batch, batches, WORKERS)
             return
@@ -362,9 +363,10 @@ class Evaluator:
         values = self.values(positions)
         chain, betas = self._drawn_chain(values)
         # the tree settled again for each trial at the reference (`chainbudget.spread.settle`)
-        settled = self._settled_at_reference(
-            chain, betas, values, trials, None if rails is None else rails.reference
+        settled = self._settled(
+            False, chain, betas, values, trials, None if rails is None else rails.reference
         )
+        assert settled is not None  # the reference always settles
         tree = settled.tree
         figures: Figures = dict(file(tree.figures, "supplies"))
         loads = load_figures(self.chain, settled.loads, settled.drawn, self.unloaded, trials)
@@ -500,61 +502,44 @@ class Evaluator:
         """``output.clip_power_low_w`` per trial: on the low-tone tree settled again for
         each trial from the nominal check's (on the rails ``at`` where its group settled
         them), or on the batch's own rails where the check settles none."""
-        settled = self._settled_at_low_edge(chain, betas, values, trials, at)
+        settled = self._settled(True, chain, betas, values, trials, at)
         rails = own_rails if settled is None else settled.tree.voltages
         return low_edge_figures(chain, partial(_envs_on, chain, betas), rails, trials)
 
-    def _settled_at_reference(
+    def _settled(
         self,
-        chain: Chain,
-        betas: Betas,
-        values: list[NDArray[np.float64]],
-        trials: int,
-        at: Mapping[str, NDArray[np.float64]] | None = None,
-    ) -> SettledTrials:
-        """Each trial's tree settled for a tone at the reference (`settle_trials`), from the
-        nominal check's; with ``at``, on the rails its group settled on."""
-        return settle_trials(
-            chain,
-            self.chain,
-            partial(_envs_on, chain, betas),
-            self.parts,
-            values,
-            self.nominal,
-            self.voltages,
-            self.unloaded,
-            self.chain.settings.reference,
-            trials,
-            self._reference_start,
-            at,
-        )
-
-    def _settled_at_low_edge(
-        self,
+        low_edge: bool,
         chain: Chain,
         betas: Betas,
         values: list[NDArray[np.float64]],
         trials: int,
         at: Mapping[str, NDArray[np.float64]] | None = None,
     ) -> SettledTrials | None:
-        """Each trial's tree settled for a tone at the band's low edge, from the one the
-        nominal check settles there (`low_edge_tree`; None where it settles none); with
-        ``at``, on the rails its group settled on."""
-        if self.low_edge_tree is None:
+        """Each trial's tree settled (`settle_trials`) for a tone at the reference from the
+        nominal check's, or with ``low_edge`` for a tone at the band's low edge from the
+        tree the check settles there (`low_edge_tree`; None where it settles none); with
+        ``at``, evaluated once on the rails the trials' group settled on."""
+        start: NDArray[np.float64] | None
+        if not low_edge:
+            budget, voltages = self.nominal, self.voltages
+            tone_hz, start = self.chain.settings.reference, self._reference_start
+        elif self.low_edge_tree is None:
             return None
-        held, settled = self.low_edge_tree
+        else:
+            budget, voltages = self.low_edge_tree[0], self.low_edge_tree[1].voltages
+            tone_hz, start = self.chain.settings.band[0], self._low_edge_start
         return settle_trials(
             chain,
             self.chain,
             partial(_envs_on, chain, betas),
             self.parts,
             values,
-            held,
-            settled.voltages,
+            budget,
+            voltages,
             self.unloaded,
-            self.chain.settings.band[0],
+            tone_hz,
             trials,
-            self._low_edge_start,
+            start,
             at,
         )
 
@@ -564,16 +549,18 @@ class Evaluator:
         """The rails each trial of ``positions`` settles on at the reference, and at the
         band's low edge where ``steps`` ask for it: the settling's steps taken once for a
         group of chunks, each chunk then evaluating its trees there once
-        (`settle_trials`'s ``at``: the same bits as settling alone)."""
+        (`settle_trials`'s ``at``: the same figures as settling alone, to round-off:
+        tests/test_spread_settle_groups.py)."""
         values = self.values(positions)
         chain, betas = self._drawn_chain(values)
         trials = positions.shape[0]
-        reference = self._settled_at_reference(chain, betas, values, trials).rails_v
+        reference = self._settled(False, chain, betas, values, trials)
+        assert reference is not None  # the reference always settles
         low = None
         if steps is None or "low_edge" in steps:
-            found = self._settled_at_low_edge(chain, betas, values, trials)
+            found = self._settled(True, chain, betas, values, trials)
             low = None if found is None else found.rails_v
-        return SettledRails(reference, low)
+        return SettledRails(reference.rails_v, low)
 
     @cached_property
     def unloaded(self) -> dict[str, SupplyState]:

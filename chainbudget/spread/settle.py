@@ -285,8 +285,9 @@ def settle_trials(
     Jacobian of g at those rails (`nominal_jacobian`; -I where not given). With ``at``,
     the rails these trials settled on already (`SettledTrials.rails_v` of a batch that
     held them, each rail's values for these trials), F is evaluated there once, with no
-    step: the tree, loads and residual that batch's last evaluation gave them, bit for
-    bit, since a trial's F does not depend on the trials beside it."""
+    step: the tree, loads and residual that batch's last evaluation gave them, to
+    round-off (a trial's F depends on the trials beside it in its last bits alone: the
+    push-pull stage's Newton solves stop once the whole batch has converged)."""
     rails = moving_rails(nominal_chain)
     problem = _TrialTree(
         chain, nominal_chain, envs_on, parts, values, budget, voltages, unloaded, tone_hz, trials
@@ -389,7 +390,8 @@ def _broyden_update(
     start: Array | None = None,
 ) -> Array:
     """Each trial's estimate of the Jacobian of g(x) = F(x) - x over the rails, (T, R, R):
-    -I before the first step (the first step is then substitution, x + g), then
+    ``start`` before the first step (`nominal_jacobian`; where not given -I, the first
+    step then substitution, x + g), then
     Broyden's rank-one update J + (dg - J dx) dx^T / (dx^T dx) from the last two steps
     (Broyden, Math. Comp. 19 (1965) 577, his "good" update; Dennis & Schnabel, Numerical
     Methods for Unconstrained Optimization and Nonlinear Equations, sec. 8.1; from
