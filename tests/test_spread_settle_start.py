@@ -13,7 +13,6 @@ pre-amp rail fed from it and a divided half rail), coupled both ways.
 
 from __future__ import annotations
 
-from functools import partial
 from pathlib import Path
 
 import numpy as np
@@ -21,7 +20,6 @@ import numpy as np
 from chainbudget.budget import compute
 from chainbudget.budget import supplies as check_supplies
 from chainbudget.chainfile import load_chain
-from chainbudget.spread import evaluate as evaluate_module
 from chainbudget.spread.evaluate import Evaluator
 from chainbudget.spread.parts import chain_parts
 from chainbudget.spread.settle import settle_trials
@@ -68,19 +66,9 @@ def test_trials_settled_from_the_start_land_where_they_did_from_substitution() -
     drawn_chain, betas = evaluate._drawn_chain(values)
 
     def settled(start: np.ndarray | None):  # type: ignore[no-untyped-def]
-        return settle_trials(
-            drawn_chain,
-            chain,
-            partial(evaluate_module._envs_on, drawn_chain, betas),
-            evaluate.parts,
-            values,
-            evaluate.nominal,
-            evaluate.voltages,
-            evaluate.unloaded,
-            chain.settings.reference,
-            len(positions),
-            start,
-        )
+        tree = evaluate._trial_tree(False, drawn_chain, betas, values, len(positions))
+        assert tree is not None
+        return settle_trials(tree, start)
 
     started, plain = settled(evaluate._reference_start), settled(None)
     assert started.residual_v <= 1e-9 and plain.residual_v <= 1e-9

@@ -81,6 +81,7 @@ from chainbudget.spread.parts import Part, with_beta
 from chainbudget.spread.settings import HeldSettings, held_settings, worst_of_candidates
 from chainbudget.spread.settle import (
     SettledTrials,
+    TrialTree,
     load_figures,
     nominal_jacobian,
     settle_trials,
@@ -305,15 +306,27 @@ class Evaluator:
                 chain = with_value(chain, part.index, part.key, column)
         return chain, betas
 
-    def _settle_start(
-        self, budget: Budget, voltages: Mapping[str, Corners], tone_hz: float
-    ) -> NDArray[np.float64]:
-        """Where each trial's settling at ``tone_hz`` starts its Jacobian: the nominal
-        parts' (`chainbudget.spread.settle.nominal_jacobian`), the same for every batch."""
-        count = len(moving_rails(self.chain)) + 1
-        values = [np.full(count, part.nominal) for part in self.parts]
-        chain, betas = self._drawn_chain(values)
-        return nominal_jacobian(
+    def _trial_tree(
+        self,
+        low_edge: bool,
+        chain: Chain,
+        betas: Betas,
+        values: list[NDArray[np.float64]],
+        trials: int,
+    ) -> TrialTree | None:
+        """The power tree of a batch of trials (`chainbudget.spread.settle.TrialTree`) for
+        a tone at the reference, from the nominal check's settled rails, or with
+        ``low_edge`` at the band's low edge, from the tree the check settles there
+        (`low_edge_tree`; None where it settles none)."""
+        if not low_edge:
+            budget, voltages = self.nominal, self.voltages
+            tone_hz = self.chain.settings.reference
+        elif self.low_edge_tree is None:
+            return None
+        else:
+            budget, voltages = self.low_edge_tree[0], self.low_edge_tree[1].voltages
+            tone_hz = self.chain.settings.band[0]
+        return TrialTree(
             chain,
             self.chain,
             partial(_envs_on, chain, betas),
@@ -323,20 +336,27 @@ class Evaluator:
             voltages,
             self.unloaded,
             tone_hz,
+            trials,
         )
 
+    def _settle_start(self, low_edge: bool) -> NDArray[np.float64] | None:
+        """Where each trial's settling starts its Jacobian at the reference (or the band's
+        low edge): the nominal parts' (`chainbudget.spread.settle.nominal_jacobian`), the
+        same for every batch; None where the check settles no tree there."""
+        count = len(moving_rails(self.chain)) + 1
+        values = [np.full(count, part.nominal) for part in self.parts]
+        tree = self._trial_tree(low_edge, *self._drawn_chain(values), values, count)
+        return None if tree is None else nominal_jacobian(tree)
+
     @cached_property
-    def _reference_start(self) -> NDArray[np.float64]:
-        """`_settle_start` at the reference, from the nominal check's settled tree."""
-        return self._settle_start(self.nominal, self.voltages, self.chain.settings.reference)
+    def _reference_start(self) -> NDArray[np.float64] | None:
+        """`_settle_start` at the reference."""
+        return self._settle_start(False)
 
     @cached_property
     def _low_edge_start(self) -> NDArray[np.float64] | None:
-        """`_settle_start` at the band's low edge, from the tree the check settles there."""
-        if self.low_edge_tree is None:
-            return None
-        held, settled = self.low_edge_tree
-        return self._settle_start(held, settled.voltages, self.chain.settings.band[0])
+        """`_settle_start` at the band's low edge."""
+        return self._settle_start(True)
 
     def _batch(
         self,
@@ -515,33 +535,15 @@ class Evaluator:
         trials: int,
         at: Mapping[str, NDArray[np.float64]] | None = None,
     ) -> SettledTrials | None:
-        """Each trial's tree settled (`settle_trials`) for a tone at the reference from the
-        nominal check's, or with ``low_edge`` for a tone at the band's low edge from the
-        tree the check settles there (`low_edge_tree`; None where it settles none); with
-        ``at``, evaluated once on the rails the trials' group settled on."""
-        start: NDArray[np.float64] | None
-        if not low_edge:
-            budget, voltages = self.nominal, self.voltages
-            tone_hz, start = self.chain.settings.reference, self._reference_start
-        elif self.low_edge_tree is None:
+        """Each trial's tree settled (`settle_trials`) for a tone at the reference, or with
+        ``low_edge`` at the band's low edge (`_trial_tree`; None where the check settles
+        none there); with ``at``, evaluated once on the rails the trials' group settled
+        on."""
+        tree = self._trial_tree(low_edge, chain, betas, values, trials)
+        if tree is None:
             return None
-        else:
-            budget, voltages = self.low_edge_tree[0], self.low_edge_tree[1].voltages
-            tone_hz, start = self.chain.settings.band[0], self._low_edge_start
-        return settle_trials(
-            chain,
-            self.chain,
-            partial(_envs_on, chain, betas),
-            self.parts,
-            values,
-            budget,
-            voltages,
-            self.unloaded,
-            tone_hz,
-            trials,
-            start,
-            at,
-        )
+        start = self._low_edge_start if low_edge else self._reference_start
+        return settle_trials(tree, start, at)
 
     def _settled_rails(
         self, positions: NDArray[np.float64], steps: frozenset[str] | None

@@ -212,11 +212,13 @@ def with_loads(budget: Budget, chain: Chain, loads: Mapping[str, SupplyLoad]) ->
 
 
 @dataclass(frozen=True)
-class _TrialTree:
-    """F of the module notes for one batch of trials: the trials' chain (``chain``, drawn
-    stage values in), the file's (``nominal_chain``), each part's values per trial, the
-    nominal check settled for the tone (``budget``, ``voltages``) and the tree with no
-    load."""
+class TrialTree:
+    """F of the module notes for one batch of trials at one tone: the trials' chain
+    (``chain``, drawn stage values in), the file's (``nominal_chain``), each stage's
+    environment on given rails (``envs_on``: drawn betas and DC walk in), each part's
+    values per trial, the nominal check settled for the tone (``budget``, ``voltages``:
+    where the settling starts and what the rectifier's solves are kept about), the tree
+    with no load, the tone and the trials' count."""
 
     chain: Chain
     nominal_chain: Chain
@@ -266,37 +268,24 @@ class _TrialTree:
 
 
 def settle_trials(
-    chain: Chain,
-    nominal_chain: Chain,
-    envs_on: EnvsOn,
-    parts: tuple[Part, ...],
-    values: list[Array],
-    budget: Budget,
-    voltages: Mapping[str, Corners],
-    unloaded: Mapping[str, SupplyState],
-    tone_hz: float,
-    trials: int,
+    tree: TrialTree,
     start: Array | None = None,
     at: Mapping[str, Array] | None = None,
 ) -> SettledTrials:
-    """The tree settled per trial for a tone ``tone_hz`` (module notes): ``chain`` with the
-    trials' drawn stage values, ``budget`` the nominal check settled for the tone (its
-    states and loads where the search starts), ``voltages`` its rails, ``start`` the
-    Jacobian of g at those rails (`nominal_jacobian`; -I where not given). With ``at``,
-    the rails these trials settled on already (`SettledTrials.rails_v` of a batch that
-    held them, each rail's values for these trials), F is evaluated there once, with no
-    step: the tree, loads and residual that batch's last evaluation gave them, to
-    round-off (a trial's F depends on the trials beside it in its last bits alone: the
-    push-pull stage's Newton solves stop once the whole batch has converged)."""
-    rails = moving_rails(nominal_chain)
-    problem = _TrialTree(
-        chain, nominal_chain, envs_on, parts, values, budget, voltages, unloaded, tone_hz, trials
-    )
-    drawn = problem.drawn
-    ceiling = {r: np.asarray(unloaded[r].trough_v, dtype=float) for r in rails}
+    """The tree settled per trial for its tone (module notes), from the nominal check's
+    rails (``tree.voltages``); ``start`` the Jacobian of g there (`nominal_jacobian`; -I
+    where not given). With ``at``, the rails these trials settled on already
+    (`SettledTrials.rails_v` of a batch that held them, each rail's values for these
+    trials), F is evaluated there once, with no step: the tree, loads and residual that
+    batch's last evaluation gave them, to round-off (a trial's F depends on the trials
+    beside it in its last bits alone: the push-pull stage's Newton solves stop once the
+    whole batch has converged)."""
+    rails = moving_rails(tree.nominal_chain)
+    trials = tree.trials
+    ceiling = {r: np.asarray(tree.unloaded[r].trough_v, dtype=float) for r in rails}
     # from the nominal check's rails: each step's supplies are then spread under loads
     # close to the nominal ones, about which the rectifier's solves are kept
-    x = {r: _low(voltages[r], trials) for r in rails} if at is None else dict(at)
+    x = {r: _low(tree.voltages[r], trials) for r in rails} if at is None else dict(at)
     previous: tuple[dict[str, Array], dict[str, Array]] | None = None
     loads: dict[str, SupplyLoad] = {}
     residual = np.inf
@@ -304,10 +293,10 @@ def settle_trials(
     jacobian: Array | None = None
     solved_on = x
     while evaluations < MAX_SETTLE_STEPS:
-        loads, tree = problem.at(x)
+        loads, spread = tree.at(x)
         solved_on = x
         evaluations += 1
-        y = {r: _low(tree.voltages[r], trials) for r in rails}
+        y = {r: _low(spread.voltages[r], trials) for r in rails}
         gaps = np.max([np.abs(y[r] - x[r]) for r in rails], axis=0, initial=0.0)
         residual = float(np.max(gaps, initial=0.0))
         if residual <= SETTLE_TOLERANCE_V or at is not None:
@@ -334,7 +323,7 @@ def settle_trials(
             step[r] = np.where(moving, stepped, x[r])
         previous = (x, y)
         x = step
-    return SettledTrials(tree, loads, residual, evaluations, drawn, solved_on)
+    return SettledTrials(spread, loads, residual, evaluations, tree.drawn, solved_on)
 
 
 #: How far `nominal_jacobian` raises one rail at a time to read F's slopes, V: small
@@ -342,36 +331,23 @@ def settle_trials(
 JACOBIAN_STEP_V = 1e-4
 
 
-def nominal_jacobian(
-    chain: Chain,
-    nominal_chain: Chain,
-    envs_on: EnvsOn,
-    parts: tuple[Part, ...],
-    values: list[Array],
-    budget: Budget,
-    voltages: Mapping[str, Corners],
-    unloaded: Mapping[str, SupplyState],
-    tone_hz: float,
-) -> Array:
+def nominal_jacobian(tree: TrialTree) -> Array:
     """The Jacobian of g(x) = F(x) - x over the moving rails, (R, R), at the nominal
-    check's settled rails ``voltages`` with the nominal parts, by forward differences
-    (Dennis & Schnabel, sec. 5.4; from memory): ``values`` are R + 1 copies of the
-    nominal parts (each (R + 1,), ``chain`` built from them), solved as R + 1 trials in
-    one evaluation of F, copy i + 1 with rail i raised by `JACOBIAN_STEP_V`. Where
-    `settle_trials` starts from it, a trial's first step is Newton's for the nominal parts
-    rather than substitution; a trial's parts move J by their tolerances, and Broyden's
-    updates take it from there."""
-    rails = moving_rails(nominal_chain)
+    check's settled rails (``tree.voltages``) with the nominal parts, by forward
+    differences (Dennis & Schnabel, sec. 5.4; from memory): ``tree`` holds R + 1 copies of
+    the nominal parts as its trials, solved in one evaluation of F, copy i + 1 with rail i
+    raised by `JACOBIAN_STEP_V`. Where `settle_trials` starts from it, a trial's first
+    step is Newton's for the nominal parts rather than substitution; a trial's parts move
+    J by their tolerances, and Broyden's updates take it from there."""
+    rails = moving_rails(tree.nominal_chain)
+    count = len(rails) + 1
     if not rails:  # nothing to settle
         return np.zeros((0, 0))
-    count = len(rails) + 1
-    problem = _TrialTree(
-        chain, nominal_chain, envs_on, parts, values, budget, voltages, unloaded, tone_hz, count
-    )
+    assert tree.trials == count  # one copy of the nominal parts per rail, and one more
     raised = np.eye(count, len(rails), -1) * JACOBIAN_STEP_V  # row i + 1: rail i raised
-    x = {r: _low(voltages[r], count) + raised[:, i] for i, r in enumerate(rails)}
-    _, tree = problem.at(x)
-    y = np.stack([_low(tree.voltages[r], count) for r in rails], axis=1)  # (R + 1, R)
+    x = {r: _low(tree.voltages[r], count) + raised[:, i] for i, r in enumerate(rails)}
+    _, spread = tree.at(x)
+    y = np.stack([_low(spread.voltages[r], count) for r in rails], axis=1)  # (R + 1, R)
     slopes = (y[1:] - y[0]) / JACOBIAN_STEP_V  # row i: dF/dx_i
     return slopes.T - np.eye(len(rails))
 
