@@ -47,7 +47,8 @@ def test_chunks_settled_in_groups_give_each_chunks_own_figures(
     monkeypatch.setattr(
         evaluate_module, "CHUNK_POINTS", TRIALS_PER_CHUNK * frequency_axis(chain).size
     )
-    monkeypatch.setattr(evaluate_module, "WORKERS", 1)  # two groups of the five chunks
+    monkeypatch.setattr(evaluate_module, "WORKERS", 1)
+    monkeypatch.setattr(evaluate_module, "GROUPS_PER_WORKER", 2)  # the five chunks: 3 + 2
     evaluate = Evaluator(chain, tuple(parts), compute(chain), settle(chain).voltages)
     evaluate(np.full((1, len(parts)), 0.5))  # the caches, as a spread fills them first
     positions = np.random.default_rng(5).random((13, len(parts)))
@@ -82,12 +83,12 @@ def test_chunks_settled_in_groups_give_each_chunks_own_figures(
 
 
 def test_groups_cover_the_chunks_in_order() -> None:
-    """Every chunk in exactly one group, in order; at least two groups a worker where there
+    """Every chunk in exactly one group, in order; at least four groups a worker where there
     are chunks enough; no group much above `SETTLE_GROUP_TRIALS` trials."""
     for chunks, size, workers in ((62, 134, 2), (14, 134, 2), (3, 134, 4), (400, 151, 2)):
         batches = [np.zeros((size, 1))] * chunks
         groups = _grouped(batches, workers)
         assert [i for g in groups for i in g] == list(range(chunks))
-        assert len(groups) >= min(chunks, 2 * workers)
+        assert len(groups) >= min(chunks, evaluate_module.GROUPS_PER_WORKER * workers)
         limit = evaluate_module.SETTLE_GROUP_TRIALS + size
         assert max(len(g) for g in groups) * size <= limit

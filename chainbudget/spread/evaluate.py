@@ -130,6 +130,10 @@ WORKERS = max(1, min(4, os.cpu_count() or 1))
 # chunk's hundred-odd trials its cost is the Python between numpy's operations (busking
 # amp, one tone: 20 ms for 133 trials, 33 ms for 1,330).
 SETTLE_GROUP_TRIALS = 1024
+# Groups a worker takes at least, where there are chunks enough: the workers end near
+# together, and a run of a few thousand trials moves its progress bar in steps of an
+# eighth on two cores.
+GROUPS_PER_WORKER = 4
 
 
 # No held settings: the controls as set only (a step that reads no held setting).
@@ -154,10 +158,12 @@ class SettledRails:
 
 def _grouped(batches: list[NDArray[np.float64]], workers: int) -> list[list[int]]:
     """The chunks (by index, in order) in groups that settle their trees together: at
-    most about `SETTLE_GROUP_TRIALS` trials a group, and at least two groups a worker where
-    there are chunks enough (a worker takes every k-th group: `aside.forked_map`)."""
+    most about `SETTLE_GROUP_TRIALS` trials a group, and at least `GROUPS_PER_WORKER` a
+    worker where there are chunks enough (a worker takes every k-th group:
+    `aside.forked_map`; the progress bar moves as each group's figures come in)."""
     trials = sum(len(b) for b in batches)
-    count = max(min(len(batches), 2 * workers), math.ceil(trials / SETTLE_GROUP_TRIALS))
+    least = min(len(batches), GROUPS_PER_WORKER * workers)
+    count = max(least, math.ceil(trials / SETTLE_GROUP_TRIALS))
     return [g.tolist() for g in np.array_split(np.arange(len(batches)), count) if g.size]
 
 
