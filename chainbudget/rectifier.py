@@ -112,6 +112,16 @@ def half_sine_integral(x: ArrayLike) -> Array:
     return np.asarray(2.0 * n + np.where(r < np.pi, 1.0 - np.cos(r), 2.0), dtype=float)
 
 
+def _pulse_terms(tau: Array) -> tuple[Array, Array, Array, Array]:
+    """`pulse_response`'s constants per time constant: tau (1 where it is 0, whose
+    response is the half sine itself), g = 1/sqrt(1 + tau^2), psi = atan(tau) and
+    A = g sin(psi)/(1 - exp(-pi/tau))."""
+    safe = np.where(tau > 0.0, tau, 1.0)
+    g = 1.0 / np.sqrt(1.0 + safe * safe)
+    psi = np.arctan(safe)
+    return safe, g, psi, g * np.sin(psi) / -np.expm1(-np.pi / safe)
+
+
 def pulse_response(x: ArrayLike, tau: ArrayLike) -> Array:
     """Periodic response y of the first-order low-pass tau dy/dx = h(x) - y to the
     half-wave rectified sine h(x) = max(sin x, 0).
@@ -138,10 +148,7 @@ def pulse_response(x: ArrayLike, tau: ArrayLike) -> Array:
     x = np.asarray(x, dtype=float)
     tau = np.asarray(tau, dtype=float)
     r = np.mod(x, TWO_PI)
-    safe = np.where(tau > 0.0, tau, 1.0)
-    g = 1.0 / np.sqrt(1.0 + safe * safe)
-    psi = np.arctan(safe)
-    amplitude = g * np.sin(psi) / -np.expm1(-np.pi / safe)
+    safe, g, psi, amplitude = _pulse_terms(tau)
     on = r < np.pi
     with np.errstate(over="ignore"):
         decay = np.exp(-np.where(on, r, r - np.pi) / safe)
@@ -168,10 +175,7 @@ def pulse_response_peak(tau: ArrayLike) -> Array:
     y = pulse_response(grid[None, :], tau[:, None])
     best = np.clip(np.argmax(y, axis=1), 1, grid.size - 2)
     lo, hi = grid[best - 1], grid[best + 1]
-    safe = np.where(tau > 0.0, tau, 1.0)
-    g = 1.0 / np.sqrt(1.0 + safe * safe)
-    psi = np.arctan(safe)
-    amplitude = g * np.sin(psi) / -np.expm1(-np.pi / safe)
+    safe, g, psi, amplitude = _pulse_terms(tau)
     r = grid[best]
     for _ in range(_PEAK_STEPS):
         decay = amplitude * np.exp(-r / safe) / safe
