@@ -94,6 +94,9 @@ class _Plan:
     entries: tuple[tuple[int, int], ...]
     #: the original matrix's nonzero entries, for the residual
     original: tuple[tuple[int, int], ...]
+    #: the (slot, column) entries the elimination writes (a multiplier, an updated entry,
+    #: a fill); the others are read as the matrix holds them
+    written: frozenset[tuple[int, int]]
 
 
 class _StructurallySingular(Exception):
@@ -158,7 +161,10 @@ def _plan_of(nonzero: bytes, unit: bytes, n: int, nodes: int) -> _Plan:
         steps.append(_Step(k, below, right))
     entries = tuple((int(s), int(c)) for s, c in zip(*np.nonzero(filled), strict=True))
     original = tuple((int(r), int(c)) for r, c in zip(*np.nonzero(pattern.nonzero), strict=True))
-    return _Plan(tuple(rows), tuple(steps), entries, original)
+    written = frozenset(
+        (i, j) for step in steps for i in step.below for j in (step.pivot, *step.right)
+    )
+    return _Plan(tuple(rows), tuple(steps), entries, original, written)
 
 
 def plan_for(pattern: Pattern) -> _Plan | None:
@@ -237,8 +243,12 @@ def _factored_solve(plan: _Plan, a: Entries, b: Complex) -> Complex:
     operation (``a`` each entry as ``(size,)``, ``b`` as ``(N, K, size)``)."""
     n, _, size = b.shape
     rows = plan.rows
+    # an entry the elimination writes is a copy of the matrix's (a fill starts at zero);
+    # one it only reads is the matrix's own array
     lu = {
-        (s, c): a[rows[s], c].copy() if (rows[s], c) in a else np.zeros(size, dtype=complex)
+        (s, c): (a[rows[s], c].copy() if (s, c) in plan.written else a[rows[s], c])
+        if (rows[s], c) in a
+        else np.zeros(size, dtype=complex)
         for s, c in plan.entries
     }
     y = b[list(rows)]  # a copy (N, K, size), in slot order
@@ -280,20 +290,29 @@ def _backward_error(
     for r, c in plan.original:
         np.multiply(a[r, c], x[c], out=product)
         residual[r] -= product
-    # ||A||: the largest entry's size, entry by entry into one running maximum (no copy
-    # of the entries stacked; the maximum is exact, so the same as over the stack)
-    size = b.shape[-1]
-    norm_a = np.zeros(size)
-    magnitude = np.empty(2 * size)
-    for key in plan.original:
-        np.abs(np.ascontiguousarray(a[key]).view(np.float64), out=magnitude)
-        np.maximum(norm_a, magnitude[0::2], out=norm_a)
-        np.maximum(norm_a, magnitude[1::2], out=norm_a)
-    scale = norm_a * _largest(x) + b_size
+    scale = _largest_entry(plan, a, b.shape[-1]) * _largest(x) + b_size
     size_r = _largest(residual)
     # a zero residual is no error even over a zero scale (b = 0, x = 0); NaN is a breakdown
     error = np.where(size_r == 0, 0.0, size_r / scale)
     return np.where(np.isfinite(error), error, np.inf)
+
+
+def _largest_entry(plan: _Plan, a: Entries, size: int) -> NDArray[np.float64]:
+    """max(|re|, |im|) over each matrix's entries, per matrix: entry by entry into one
+    running maximum of the real and imaginary parts side by side (no copy of the entries
+    stacked; the maximum is exact, so the same as over the stack). An entry with one
+    value for the whole batch (a broadcast view: a part no trial draws) is taken once."""
+    parts = np.zeros(2 * size)
+    constant = np.zeros(1)
+    magnitude = np.empty(2 * size)
+    for key in plan.original:
+        entry = a[key]
+        if size > 1 and entry.strides[0] == 0:
+            np.maximum(constant, np.abs(entry[:1].view(np.float64)).max(), out=constant)
+            continue
+        np.abs(np.ascontiguousarray(entry).view(np.float64), out=magnitude)
+        np.maximum(parts, magnitude, out=parts)
+    return np.maximum(np.maximum(parts[0::2], parts[1::2]), constant)
 
 
 def _largest(v: Complex) -> NDArray[np.float64]:
