@@ -8,14 +8,18 @@ in the process."""
 from __future__ import annotations
 
 import os
+import threading
 
 import numpy as np
 import pytest
 from test_spread import TONE_AND_VOLUME, _chain
 
+from chainbudget.budget import compute
 from chainbudget.budget.analysis import frequency_axis
+from chainbudget.budget.supplies import settle
 from chainbudget.spread import aside, evaluate, run
 from chainbudget.spread.aside import Aside, forked_map
+from chainbudget.spread.parts import chain_parts
 
 pytestmark = pytest.mark.skipif(not aside.can_fork(), reason="the platform does not fork")
 
@@ -187,3 +191,29 @@ def test_trials_in_forked_workers_equal_the_trials_in_threads(
     assert forked.samples.keys() == threads.samples.keys()
     for path, values in forked.samples.items():
         np.testing.assert_array_equal(values, threads.samples[path], err_msg=path)
+
+
+def test_a_child_beside_other_work_takes_its_batches_in_turn_in_one_thread() -> None:
+    """The corner search's child runs beside the trials' workers, which keep the cores
+    busy: it maps its batches in its own thread, one after another, not in a pool of
+    threads (which there only added CPU time); in this process the pool is used."""
+    chain = _chain(TONE_AND_VOLUME)
+    parts, _ = chain_parts(chain)
+    evaluator = evaluate.Evaluator(
+        chain, tuple(parts), compute(chain), settle(chain, "low").voltages
+    )
+    batches = [[np.full((1, len(parts)), 0.1 * k)] for k in range(4)]
+
+    def threads() -> tuple[bool, list[bool]]:
+        def batch(chunks: list[np.ndarray]) -> list[dict[str, np.ndarray]]:
+            here.append(threading.get_ident() == threading.main_thread().ident)
+            return [{"row": chunks[0][:, 0]}]
+
+        here: list[bool] = []
+        # ``record`` given: the evaluator's caches are not all filled, so no workers fork
+        found = list(evaluator._mapped(batch, batches, {}))
+        assert [f[0]["row"][0] for f in found] == [0.0, 0.1, 0.2, 0.30000000000000004]
+        return aside.is_aside(), here
+
+    assert threads() == (False, [False] * 4)
+    assert Aside(threads).result() == (True, [True] * 4)

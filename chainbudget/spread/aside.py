@@ -52,6 +52,12 @@ def can_fork() -> bool:
     )
 
 
+def is_aside() -> bool:
+    """Whether this process is a forked child running beside other work (`Aside`, or a
+    worker of `forked_map`): the cores are the other processes' too."""
+    return multiprocessing.current_process().daemon
+
+
 def _start_child(send: Callable[[Connection], None]) -> tuple[Connection, BaseProcess]:
     """A forked child that runs ``send(writer)``, and the parent's end of its pipe. The
     child sends what it has to say through ``writer``; anything it raises, or a pipe the

@@ -287,10 +287,16 @@ class Evaluator:
         (``record`` None: a whole evaluation has run here, so the workers build nothing
         twice and file nothing the parent would miss); else in threads (numpy's batched
         solves and array arithmetic release the GIL, the Python between them runs one
-        thread at a time). The same figures either way (each group is independent of the
-        others)."""
+        thread at a time), except in a forked child beside other work (the corner search
+        beside the trials' workers), which takes them in turn: its threads there made no
+        run shorter and cost the busking amp's corner search 2 s more CPU, of it 0.7 s
+        the kernel's (docs/performance.md). The same figures every way (each group is
+        independent of the others)."""
         if record is None and len(batches) > 1 and WORKERS > 1 and aside.can_fork():
             yield from aside.forked_map(batch, batches, WORKERS)
+            return
+        if aside.is_aside():  # beside the trials' workers: no core is free for a thread
+            yield from map(batch, batches)
             return
         with ThreadPoolExecutor(max_workers=WORKERS) as pool:
             yield from pool.map(batch, batches)
