@@ -222,3 +222,45 @@ def test_largest_opamp_current_found_across_a_flat_bass_ridge() -> None:
         held = _json_figure(data, "nodes.tone.drive_worst_current_a")
         assert batched[t] == pytest.approx(held, rel=1e-6, abs=0), t
     assert far == 2
+
+
+def test_largest_opamp_current_found_when_it_moves_from_one_boost_to_the_other() -> None:
+    """The desk pre-amp with 40 % pots: the nominal check finds its tone stage's largest
+    output current at a treble boost (bass 0.1, treble 1); in one trial of the sixty
+    drawn with seed 5 (the 56th) the tolerances move it to the bass boost with the treble
+    as set (bass 1, treble 0.5), two controls away. Each of three trials checked alone
+    (the check's search over every rotation) gives the batched figure, rtol 1e-9: the
+    spread also holds the end stops and settings as set of the stage's own controls in
+    combination (`settings.current_candidates`)."""
+    import tomllib
+    from pathlib import Path
+
+    from chainbudget.budget import compute
+    from chainbudget.budget.analysis import analyse
+    from chainbudget.budget.supplies import settle
+    from chainbudget.chainfile import parse_chain
+    from chainbudget.spread.evaluate import Evaluator
+    from chainbudget.spread.parts import chain_parts
+    from chainbudget.spread.settings import opamp_current_settings
+
+    text = (Path(__file__).resolve().parents[1] / "chains" / "desk_speaker_preamp.toml").read_text()
+    assert "[tolerances]" not in text
+    chain = parse_chain(tomllib.loads(text + '\n[tolerances]\npots = "40 %"\n'), "desk40.toml")
+
+    def largest_at(chain):  # noqa: ANN001, ANN202
+        analysis = analyse(chain, "low", settle(chain, "low").voltages)
+        return opamp_current_settings(analysis)[(1, "tone.opamp")].rotations
+
+    assert largest_at(chain) == (1, 10, 10)
+    parts, _ = chain_parts(chain)
+    evaluate = Evaluator(chain, tuple(parts), compute(chain), settle(chain, "low").voltages)
+    positions = np.random.default_rng(5).random((60, len(parts)))[[0, 1, 55]]
+    batched = evaluate(positions)["nodes.tone.drive_worst_current_a"]
+    moved = []
+    for t in range(len(positions)):
+        trial = trial_chain(chain, parts, evaluate.values(positions[t : t + 1]))
+        moved.append(largest_at(trial))
+        _, data = checked(trial)
+        held = _json_figure(data, "nodes.tone.drive_worst_current_a")
+        assert batched[t] == pytest.approx(held, rel=1e-9, abs=0), t
+    assert moved[2] == (10, 5, 10)

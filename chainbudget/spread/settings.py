@@ -18,7 +18,8 @@ nominal parts lies within `PRUNE_DB` of the node's worst (`HeldSettings.row_poin
 boost's few points near its shelf, not the whole band), for the same reason a candidate
 further above is dropped; an op-amp's current settings likewise near its largest current
 (`current_candidates`: the nominal check's setting of its largest, its neighbours and
-each control's end stops).
+each control's end stops, and the end stops and settings as set of the op-amp's own
+section's controls in combination).
 """
 
 from __future__ import annotations
@@ -262,18 +263,33 @@ def current_candidates(analysis: Analysis, k: int, top: tuple[int, ...]) -> list
     control under a treble boost: a flat ridge along its travel) leaves near-equal
     maxima far apart, between which the tolerances move it (bass 0.9 to bass 0). The
     controls after the section reach the op-amp only through its load, and stay at
-    ``top``'s rotations (as in `node_candidates`). `held_settings` then drops those more
-    than `PRUNE_DB` below the largest at the nominal parts."""
-    last = section_of(sections(analysis.chain.stages), k).last
+    ``top``'s rotations (as in `node_candidates`). The controls of the op-amp's own
+    section also take their end stops and their settings as set in combination: its own
+    boosts trade places (with 40 % pots, the desk pre-amp's tone stage's largest moves
+    from its treble boost to its bass boost with the treble as set, two controls away).
+    `held_settings` then drops those more than `PRUNE_DB` below the largest at the
+    nominal parts."""
+    own = section_of(sections(analysis.chain.stages), k)
+    last = own.last
     ordered: dict[tuple[int, ...], None] = {top: None}
+    stops: list[list[int]] = []
     for sc in analysis.swept_controls:
         if sc.stage_index > last:
+            stops.append([top[sc.axis]])
             continue
         end = sc.rotations.size - 1
         for rotation in (0, top[sc.axis] - 1, top[sc.axis] + 1, end):
             moved = list(top)
             moved[sc.axis] = min(max(rotation, 0), end)
             ordered[tuple(moved)] = None
+        if sc.stage_index not in own:
+            stops.append([top[sc.axis]])
+            continue
+        as_set = int(np.flatnonzero(sc.rotations == sc.control.position)[0])
+        stops.append(sorted({0, as_set, end}))
+    if math.prod(len(v) for v in stops) <= MAX_PRODUCT:
+        for combo in itertools.product(*stops):
+            ordered[tuple(int(i) for i in combo)] = None
     return sorted(ordered)
 
 
