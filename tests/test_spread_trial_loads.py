@@ -579,3 +579,44 @@ def test_standing_currents_of_drawn_dividers_load_the_parent_per_trial() -> None
                 value = getattr(budget.supply(name), key)
                 if value is not None:
                     assert got[f"supplies.{name}.{key}"][t] == pytest.approx(value, rel=1e-9), t
+
+
+def test_a_divider_under_a_drawn_regulator_draws_at_that_trials_set_output() -> None:
+    """A divider fed from the adjustable regulator (a bias point): its standing current
+    is V_out / (upper + lower) at the regulator's set output with that trial's drawn
+    reference and divider, V_out = V_ref (1 + upper/lower) + I_adj upper (the regulator's
+    output equation, any linear-regulator application text; from memory), rtol 1e-12, and
+    it is part of the regulator's load out of its pin; against the check of each trial
+    written into the file (brute force, rtol 1e-9). At the file's set output instead, the
+    standing current was off by up to 15 % (10 % resistors, a 2 % reference)."""
+    extra = """
+[[supply]]
+name = "half"
+kind = "divider"
+from = "reg"
+upper = "1k"
+lower = "1k"
+"""
+    chain = parse_chain(tomllib.loads(STANDING + extra), "standing.toml")
+    parts, _ = chain_parts(chain)
+    evaluate = Evaluator(chain, tuple(parts), compute(chain), settle(chain, "low").voltages)
+    positions = np.random.default_rng(6).random((5, len(parts)))
+    got = evaluate(positions, steps=frozenset({"supplies"}))
+    values = evaluate.values(positions)
+    v = {p.label: value for p, value in zip(parts, values, strict=True)}
+    v_out = v["reg.reference"] * (1.0 + v["reg.upper"] / v["reg.lower"]) + 50e-6 * v["reg.upper"]
+    standing = v_out / (v["half.upper"] + v["half.lower"])
+    for key in ("input_idle_a", "input_max_a"):
+        np.testing.assert_allclose(got[f"supplies.half.{key}"], standing, rtol=1e-12)
+    delivered = 0.1 + v["reg.reference"] / v["reg.lower"] + v_out / v["reg.bleeder"] + standing
+    np.testing.assert_allclose(got["supplies.reg.idle_load_a"], delivered, rtol=1e-12)
+    for t in range(len(positions)):
+        budget = compute(
+            chain.with_values(trial_changes(chain, parts, [x[t : t + 1] for x in values]))
+        )
+        for name in ("cell", "reg", "half"):
+            for key in ("idle_load_a", "max_load_a", "input_max_a"):
+                value = getattr(budget.supply(name), key)
+                if value is not None:
+                    got_t = got[f"supplies.{name}.{key}"][t]
+                    assert got_t == pytest.approx(value, rel=1e-9), (name, key, t)

@@ -90,7 +90,8 @@ def drawn_from_parent(
     unloaded state (``unloaded``: the tree's no-load states, if already worked out).
     ``parts``: its own parts drawn per trial (field -> (T,) values, the spread's); where
     they move what it draws, its kind gives that for each trial's values
-    (`SupplyKind.trial_draw`), at the parent's unloaded state as the file gives it."""
+    (`SupplyKind.trial_draw`), at the parent's unloaded state in ``unloaded`` (the
+    spread's, per trial: `chainbudget.spread.tree.unloaded_per_trial`)."""
     kind = KINDS[supply.kind]
     if parts and supply.parent is not None:
         states = supply_states(chain) if unloaded is None else unloaded

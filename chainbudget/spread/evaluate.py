@@ -401,7 +401,7 @@ class Evaluator:
         assert settled is not None  # the reference always settles
         tree = settled.tree
         figures: Figures = dict(file(tree.figures, "supplies"))
-        loads = load_figures(self.chain, settled.loads, settled.drawn, self.unloaded, trials)
+        loads = load_figures(self.chain, settled.loads, settled.drawn, settled.unloaded, trials)
         figures.update(file(loads, "supplies"))
         voltages, ripples = tree.voltages, tree.ripples
         if steps is not None and steps <= {"supplies"}:

@@ -51,10 +51,9 @@ the trials an array axis, and the supplies' spread under those loads per trial
 (`chainbudget.spread.tree.tree_spread`). What a supply with parts of its own drawn takes
 from its parent is each trial's (`SupplyKind.trial_draw`): a divider's share of its load
 and its standing current through its drawn legs, a regulator's load with its drawn adjust
-divider and bleeder. A divider's standing current is taken at its parent's unloaded
-output as the file gives it; the check of a trial takes that parent's own, so where the
-parent's parts are drawn too the two differ by the parent's tolerance times the standing
-current, a second-order change.
+divider and bleeder. A divider's standing current is taken at its parent's output with
+no load in that trial (`TrialTree.unloaded_drawn`: a drawn regulator's own set output),
+as the check of the trial takes it.
 """
 
 from __future__ import annotations
@@ -74,7 +73,7 @@ from chainbudget.budget.rails import drawn_from_parent, external_loads, rail_own
 from chainbudget.budget.supplies import moving_rails, stage_loads_of
 from chainbudget.chainfile import Chain
 from chainbudget.spread.parts import Part
-from chainbudget.spread.tree import TreeSpread, tree_spread
+from chainbudget.spread.tree import TreeSpread, tree_spread, unloaded_per_trial
 from chainbudget.stages.base import Environment
 from chainbudget.supplies import KINDS as SUPPLY_KINDS
 from chainbudget.supplies.base import NO_LOAD, Corners, SupplyLoad, SupplyState
@@ -105,6 +104,8 @@ class SettledTrials:
     evaluations: int
     drawn: dict[str, dict[str, Array]]
     rails_v: dict[str, Array]
+    #: the tree with no load per trial (`TrialTree.unloaded_drawn`)
+    unloaded: dict[str, SupplyState]
 
 
 def trial_loads(
@@ -236,6 +237,14 @@ class TrialTree:
         """Each supply's own drawn parts by name (`supply_parts`)."""
         return supply_parts(self.nominal_chain, self.parts, self.values)
 
+    @cached_property
+    def unloaded_drawn(self) -> dict[str, SupplyState]:
+        """The tree with no load per trial, where a divider's standing current is drawn
+        (`chainbudget.spread.tree.unloaded_per_trial`)."""
+        return unloaded_per_trial(
+            self.nominal_chain, self.parts, self.values, self.budget, self.unloaded, self.trials
+        )
+
     def at(self, x: Mapping[str, Array]) -> tuple[dict[str, SupplyLoad], TreeSpread]:
         """F at rails ``x`` (each moving rail's low-line value per trial, (T,)): the loads
         the trials' stages draw on them and the tree's spread under those loads."""
@@ -252,7 +261,7 @@ class TrialTree:
             self.tone_hz,
             trials,
             self.drawn,
-            self.unloaded,
+            self.unloaded_drawn,
         )
         tree = tree_spread(
             self.nominal_chain,
@@ -323,7 +332,9 @@ def settle_trials(
             step[r] = np.where(moving, stepped, x[r])
         previous = (x, y)
         x = step
-    return SettledTrials(spread, loads, residual, evaluations, tree.drawn, solved_on)
+    return SettledTrials(
+        spread, loads, residual, evaluations, tree.drawn, solved_on, tree.unloaded_drawn
+    )
 
 
 #: How far `nominal_jacobian` raises one rail at a time to read F's slopes, V: small

@@ -207,6 +207,61 @@ def tree_spread(
     return TreeSpread(figures, rails, walk.ripples)
 
 
+def unloaded_per_trial(
+    chain: Chain,
+    parts: tuple[Part, ...],
+    values: list[NDArray[np.float64]],
+    nominal: Budget,
+    unloaded: Mapping[str, SupplyState],
+    trials: int,
+) -> dict[str, SupplyState]:
+    """The tree with no load, per trial where the drawn parts move it (a regulator's
+    output over its reference and divider, and what a filter below passes on): parents
+    first, each rail whose own parts are drawn, or whose parent moved, has as its mean
+    (``nominal_v``) and trough its kind's spread under no load from its parent's
+    no-load state per trial; every other rail keeps ``unloaded``, the nominal tree's.
+    A divider's standing current is drawn at its parent's no-load mean
+    (`chainbudget.budget.rails.drawn_from_parent`), as the check of each trial takes it
+    from that trial's own tree (`chainbudget.budget.rails.supply_states`). A kind whose
+    spread gives no mean keeps the nominal no-load state (a battery's, whose no-load
+    output no drawn part moves)."""
+    found = dict(unloaded)
+    moved: set[str] = set()
+    for j in _parents_first(chain):
+        supply = chain.supplies[j]
+        drawn = {
+            p.key: v
+            for p, v in zip(parts, values, strict=True)
+            if p.table == "supply" and p.index == j
+        }
+        if not drawn and supply.parent not in moved:
+            continue
+        kind = SUPPLY_KINDS[supply.kind]
+        parent = None if supply.parent is None else found[supply.parent]
+        spreads = kind.rail_spreads(
+            supply,
+            drawn,
+            {
+                rail: replace(nominal.supply(rail), load=NO_LOAD, state=unloaded[rail])
+                for rail in kind.rails(supply)
+            },
+            None if parent is None else np.asarray(parent.trough_v, dtype=float),
+            {p.key: (p.low, p.high) for p in parts if p.table == "supply" and p.index == j},
+            None if parent is None else RippleSpread.of(parent),
+            ambient_degc=nominal.ambient_degc,
+        )
+        for name, spread in (spreads or {}).items():
+            if spread.ripple is None or spread.ripple.mean_v is None:
+                continue
+            trough = found[name].trough_v
+            if spread.rail_low_v is not None:
+                trough = cast(float, _trials(spread.rail_low_v, trials))
+            mean = cast(float, _trials(spread.ripple.mean_v, trials))
+            found[name] = replace(found[name], nominal_v=mean, trough_v=trough)
+            moved.add(name)
+    return found
+
+
 def _parents_first(chain: Chain) -> list[int]:
     """The supplies' indices, each after the supply it is fed from (a rail of it)."""
     order: list[int] = []
