@@ -74,7 +74,8 @@ def input_load(supply: Supply, load: SupplyLoad) -> SupplyLoad:
     return KINDS[supply.kind].input_load(supply, load)
 
 
-def _has_standing_current(kind: SupplyKind) -> bool:
+def has_standing_current(kind: SupplyKind) -> bool:
+    """Whether the kind draws a current from its parent whatever its load (a divider)."""
     return type(kind).standing_current is not SupplyKind.standing_current
 
 
@@ -99,7 +100,7 @@ def drawn_from_parent(
         if taken is not None:
             return taken
     drawn = kind.input_load(supply, load)
-    if supply.parent is not None and _has_standing_current(kind):
+    if supply.parent is not None and has_standing_current(kind):
         states = supply_states(chain) if unloaded is None else unloaded
         drawn = drawn.plus(kind.standing_current(supply, states[supply.parent]))
     return drawn
@@ -126,7 +127,7 @@ def external_loads(
         if supply.parent is None:
             continue
         mine = (drawn or {}).get(supply.name)
-        if unloaded is None and (_has_standing_current(KINDS[supply.kind]) or mine):
+        if unloaded is None and (has_standing_current(KINDS[supply.kind]) or mine):
             unloaded = supply_states(chain)
         own = NO_LOAD
         for rail in rails_of(supply):

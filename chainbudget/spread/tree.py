@@ -37,6 +37,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from chainbudget.budget import Budget
+from chainbudget.budget.rails import has_standing_current
 from chainbudget.chainfile import Chain
 from chainbudget.spread.flags import as_flag
 from chainbudget.spread.hum import harmonic_key
@@ -226,6 +227,8 @@ def unloaded_per_trial(
     spread gives no mean keeps the nominal no-load state (a battery's, whose no-load
     output no drawn part moves)."""
     found = dict(unloaded)
+    if not any(has_standing_current(SUPPLY_KINDS[s.kind]) for s in chain.supplies):
+        return found  # nothing reads it
     moved: set[str] = set()
     for j in _parents_first(chain):
         supply = chain.supplies[j]
