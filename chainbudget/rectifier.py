@@ -36,7 +36,8 @@ common period Theta of the line and the signal, bracketed in [0, V - V_d] (the m
 monotone with slope in [0, 1)). Everything is vectorised over a batch of circuits (mains
 corners, signal phases); the only Python loop is over the diode's switching events, a few
 per line cycle. Figures (mean, rms, ripple harmonics) are Gauss-Legendre quadratures of the
-closed forms over each interval; extremes are found on a dense grid of the closed form and
+closed forms over each interval, in panels that end where a pulse does (the load's kink);
+extremes are found on a dense grid of the closed form and
 refined by a parabola through the three best points.
 
 A pulse train that is not commensurate with the line is replaced by the nearest one that
@@ -780,14 +781,13 @@ def _figures(batch: _Batch, v0: Array, length: float, harmonic_step: float) -> d
     _, _, intervals = _period(batch, v0, length, record=True)
     piece, end = intervals.flat(batch)
     row, start = piece.rows, piece.ts
-    # Gauss-Legendre nodes on every interval, composite
-    panel = (end - start) / _PANELS
-    offsets = start[:, None] + panel[:, None] * np.arange(_PANELS)[None, :]
-    nodes = offsets[:, :, None] + panel[:, None, None] * 0.5 * (_GL_X + 1.0)[None, None, :]
+    # Gauss-Legendre nodes on every interval, composite, the panels' edges where the
+    # integrands are not smooth (`_panel_edges`)
+    edges = _panel_edges(piece, start, end)
+    panel = np.diff(edges, axis=1)
+    nodes = edges[:, :-1, None] + panel[:, :, None] * 0.5 * (_GL_X + 1.0)[None, None, :]
     nodes = nodes.reshape(row.size, -1)
-    weights = np.broadcast_to(
-        panel[:, None, None] * 0.5 * _GL_W[None, None, :], (row.size, _PANELS, _NODES)
-    ).reshape(row.size, -1)
+    weights = (panel[:, :, None] * 0.5 * _GL_W[None, None, :]).reshape(row.size, -1)
     v = piece.voltage(nodes)
     i_load = piece.load(nodes, v)
     i_diode = np.where(piece.on[:, None], np.maximum(piece.current(nodes, v), 0.0), 0.0)
@@ -834,6 +834,39 @@ def _figures(batch: _Batch, v0: Array, length: float, harmonic_step: float) -> d
         "conduction_deg": np.degrees(conduction / windows),
         "harmonics_vpk": harmonics,
     }
+
+
+def _panel_edges(piece: _Piece, start: Array, end: Array) -> Array:
+    """The edges of each interval's quadrature panels, (rows, P + 1): `_PANELS` equal
+    panels; under a pulsed load, also the pulses' ends inside the interval, where
+    h(rho theta + phi) = max(sin, 0) has a kink (rho theta + phi a multiple of pi), so
+    that every panel holds a smooth integrand and Gauss-Legendre keeps its order
+    (Davis & Rabinowitz, Methods of Numerical Integration, 2nd ed., sec. 2.7: a
+    derivative's jump inside a panel brings the error down to the panel's width
+    squared; from memory). With m such ends in an interval at most, the equal panels
+    number `_PANELS` - m (at least one): a panel is then never longer than a pulse's
+    half period or the interval's twelfth, and the nodes grow by m - `_PANELS` + 1 panels
+    only where the pulses are dense. An interval with fewer ends than the most has its
+    last edges at its end (panels of no width, no weight)."""
+    fraction = np.linspace(0.0, 1.0, _PANELS + 1)
+    width = end - start
+    if not piece.pulsed:
+        return start[:, None] + width[:, None] * fraction[None, :]
+    # kinks at rho theta + phi = k pi, k from the first past the start to the last before
+    # the end
+    first = np.floor((piece.rho * start + piece.phi) / np.pi) + 1.0
+    last = np.ceil((piece.rho * end + piece.phi) / np.pi) - 1.0
+    count = np.maximum(last - first + 1.0, 0.0)
+    most = int(count.max(initial=0.0))
+    if most == 0:
+        return start[:, None] + width[:, None] * fraction[None, :]
+    k = np.arange(most)
+    kinks = ((first[:, None] + k[None, :]) * np.pi - piece.phi[:, None]) / piece.rho
+    kinks = np.where(k[None, :] < count[:, None], kinks, end[:, None])
+    kinks = np.clip(kinks, start[:, None], end[:, None])
+    fraction = np.linspace(0.0, 1.0, max(_PANELS - most, 1) + 1)
+    equal = start[:, None] + width[:, None] * fraction[None, :]
+    return np.sort(np.concatenate((equal, kinks), axis=1), axis=1)
 
 
 def _summit(f: object, grid: Array, values: Array) -> Array:

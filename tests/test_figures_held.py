@@ -20,7 +20,10 @@ level, headroom and dissipation and the driver's clip behind it moved;
 series instead of a 470 kohm resistor (a reactive source's noise is 4kT Re Z_S): its noise
 figures, noise sources and ``noise_set_by`` ("buffer", no longer "source") moved, and its
 levels by about 1e-9 relative (a different source impedance against the buffer's floating
-input).
+input). The rectifier's quadrature panels end where a pulse of the load does (a kink a
+panel straddled before): the kitchen radio's and the mains practice amp's rectified
+figures moved toward a direct integration's, by up to 3e-5 relative (the practice amp's
+reservoir ripple current; `tests/test_rectifier.py` holds them to it within 2e-6).
 """
 
 from __future__ import annotations
