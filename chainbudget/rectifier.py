@@ -844,10 +844,10 @@ def _panel_edges(piece: _Piece, start: Array, end: Array) -> Array:
     (Davis & Rabinowitz, Methods of Numerical Integration, 2nd ed., sec. 2.7: a
     derivative's jump inside a panel brings the error down to the panel's width
     squared; from memory). With m such ends in an interval at most, the equal panels
-    number `_PANELS` - m (at least one): a panel is then never longer than a pulse's
-    half period or the interval's twelfth, and the nodes grow by m - `_PANELS` + 1 panels
-    only where the pulses are dense. An interval with fewer ends than the most has its
-    last edges at its end (panels of no width, no weight)."""
+    number `_PANELS` - m (at least one): no panel then spans a pulse's end or more than
+    a pulse's half period, and the panels outnumber `_PANELS` only where the pulses are
+    dense (m + 1 of them). An interval with fewer ends than the most has its last edges
+    at its end (panels of no width, no weight)."""
     fraction = np.linspace(0.0, 1.0, _PANELS + 1)
     width = end - start
     if not piece.pulsed:

@@ -61,6 +61,11 @@ class SweptControl:
     axis: int
     rotations: NDArray[np.float64]
 
+    @property
+    def as_set(self) -> int:
+        """The index of the control's setting as set among its rotations."""
+        return int(np.flatnonzero(self.rotations == self.control.position)[0])
+
 
 @dataclass(frozen=True)
 class Analysis:
@@ -307,7 +312,7 @@ def section_grid(
     )
     combos = np.indices(sizes).reshape(len(sizes), count).T.astype(np.intp)
     distances = tuple(np.abs(sc.rotations - sc.control.position) for sc in controls)
-    at_set = [int(np.flatnonzero(sc.rotations == sc.control.position)[0]) for sc in controls]
+    at_set = [sc.as_set for sc in controls]
     distance = np.zeros(count)
     for q, d in enumerate(distances):
         distance = distance + d[combos[:, q]]
@@ -402,7 +407,7 @@ def _candidates(
     `chainbudget.budget.levels.set_point_index` looks up); and the settings of each
     op-amp's largest output current. (Each node's worst case is worked out at its own
     setting: `chainbudget.budget.levels`.)"""
-    as_set = [int(np.flatnonzero(sc.rotations == sc.control.position)[0]) for sc in controls]
+    as_set = [sc.as_set for sc in controls]
     rows = {tuple(as_set)}
     for k in range(len(chain.stages)):
         own = [sc for sc in controls if sc.stage_index == k]

@@ -18,8 +18,8 @@ nominal parts lies within `PRUNE_DB` of the node's worst (`HeldSettings.row_poin
 boost's few points near its shelf, not the whole band), for the same reason a candidate
 further above is dropped; an op-amp's current settings likewise near its largest current
 (`current_candidates`: the nominal check's setting of its largest, its neighbours and
-each control's end stops, and the end stops and settings as set of the op-amp's own
-section's controls in combination).
+each control's end stops, the end stops and settings as set of the op-amp's own
+section's controls in combination, and the nominal check's candidate settings).
 """
 
 from __future__ import annotations
@@ -266,9 +266,11 @@ def current_candidates(analysis: Analysis, k: int, top: tuple[int, ...]) -> list
     ``top``'s rotations (as in `node_candidates`). The controls of the op-amp's own
     section also take their end stops and their settings as set in combination: its own
     boosts trade places (with 40 % pots, the desk pre-amp's tone stage's largest moves
-    from its treble boost to its bass boost with the treble as set, two controls away).
-    `held_settings` then drops those more than `PRUNE_DB` below the largest at the
-    nominal parts."""
+    from its treble boost to its bass boost with the treble as set, two controls away);
+    and so do the nominal check's own candidate settings (a lower summit of the ridge the
+    check lists beside the largest, which a trial's parts lift above it: the desk
+    pre-amp with its driver's input halved, from bass 1 to bass 0.1). `held_settings`
+    then drops those more than `PRUNE_DB` below the largest at the nominal parts."""
     own = section_of(sections(analysis.chain.stages), k)
     last = own.last
     ordered: dict[tuple[int, ...], None] = {top: None}
@@ -285,11 +287,19 @@ def current_candidates(analysis: Analysis, k: int, top: tuple[int, ...]) -> list
         if sc.stage_index not in own:
             stops.append([top[sc.axis]])
             continue
-        as_set = int(np.flatnonzero(sc.rotations == sc.control.position)[0])
-        stops.append(sorted({0, as_set, end}))
+        stops.append(sorted({0, sc.as_set, end}))
     if math.prod(len(v) for v in stops) <= MAX_PRODUCT:
         for combo in itertools.product(*stops):
             ordered[tuple(int(i) for i in combo)] = None
+    # the nominal check's own candidates (as set, each stage's controls fully up, near
+    # each op-amp's largest): a lower summit of the same ridge, which a trial's parts
+    # lift above the largest
+    for candidate in analysis.candidates:
+        moved = list(top)
+        for sc in analysis.swept_controls:
+            if sc.stage_index <= last:
+                moved[sc.axis] = int(candidate[sc.axis])
+        ordered[tuple(moved)] = None
     return sorted(ordered)
 
 
@@ -315,8 +325,7 @@ def node_candidates(analysis: Analysis, k: int, found: NodeWorst) -> list[tuple[
         if sc.stage_index > last:
             values.append([worst[sc.axis]])
             continue
-        as_set = int(np.flatnonzero(sc.rotations == sc.control.position)[0])
-        values.append(sorted({0, sc.rotations.size - 1, as_set, worst[sc.axis]}))
+        values.append(sorted({0, sc.rotations.size - 1, sc.as_set, worst[sc.axis]}))
     ordered: dict[tuple[int, ...], None] = {worst: None}
     if math.prod(len(v) for v in values) <= MAX_PRODUCT:
         for combo in itertools.product(*values):
