@@ -23,7 +23,10 @@ levels by about 1e-9 relative (a different source impedance against the buffer's
 input). The rectifier's quadrature panels end where a pulse of the load does (a kink a
 panel straddled before): the kitchen radio's and the mains practice amp's rectified
 figures moved toward a direct integration's, by up to 3e-5 relative (the practice amp's
-reservoir ripple current; `tests/test_rectifier.py` holds them to it within 2e-6).
+reservoir ripple current; `tests/test_rectifier.py` holds them to it within 2e-6). Their
+currents and ripple are the largest over the relative phases of signal and mains, no
+longer read at the phase of the lowest trough: by up to 2e-5 relative (the kitchen
+radio's diode peak).
 """
 
 from __future__ import annotations

@@ -15,8 +15,9 @@ mains corner scales the open circuit by 1 - t, 1, 1 + t (``mains_tolerance`` t).
 
 Each rail is then the circuit of `chainbudget.rectifier` under its load as a waveform, in
 one batch over the corners a budget needs: low line and heaviest load (the trough, over
-`chainbudget.rectifier.PHASES` relative phases of signal and mains: the worst), high line
-and heaviest load (heat, and the winding's and reservoir's currents), nominal line and
+`chainbudget.rectifier.PHASES` relative phases of signal and mains: the worst; the ripple
+and the currents the largest over them, `largest_over_phases`), high line and heaviest
+load (heat, and the winding's and reservoir's currents), nominal line and
 load (the mean), high line and idle, and nominal line with the nominal load's mean as a
 steady current (the mains ripple's spectrum, the seed of the hum budget). The crest is the
 open circuit at high line less the diode drop: no load, no current.
@@ -150,6 +151,24 @@ class Currents:
     conduction_deg: Any
 
 
+def largest_over_phases(
+    winding_rms_a: Any, diode_peak_a: Any, reservoir_ripple_a: Any, conduction_deg: Any
+) -> Currents:
+    """A rail's currents at one corner from their values at each relative phase of signal
+    and mains (the last axis: (P,) in the check, (T, P) over the spread's trials): each the
+    largest over the phases. Signal and mains are not synchronised, so the parts meet
+    every phase in turn and each current's largest is a stress they take; and each is a
+    maximum of smooth curves of the parts, so it moves with them continuously (read at
+    the phase of the lowest trough instead, it jumped where two phases' troughs tie: a
+    guitar amplifier's conduction angle by 4 % between two trials a part apart)."""
+    return Currents(
+        *(
+            np.max(np.asarray(values, dtype=float), axis=-1)
+            for values in (winding_rms_a, diode_peak_a, reservoir_ripple_a, conduction_deg)
+        )
+    )
+
+
 @dataclass(frozen=True)
 class RailSolution:
     """One rail at its corners (V, A)."""
@@ -222,25 +241,28 @@ def solve_rails(tr: Transformer, loads: Mapping[str, SupplyLoad]) -> dict[str, R
         worst = base + int(np.argmin(solved.trough_v[lows]))
         high_worst = worst + phases
 
-        def currents(i: int) -> Currents:
-            return Currents(
-                winding_rms_a=float(solved.winding_rms_a[i]),
-                diode_peak_a=float(solved.diode_peak_a[i]),
-                reservoir_ripple_a=float(solved.reservoir_ripple_a[i]),
-                conduction_deg=float(solved.conduction_deg[i]),
+        def currents(rows: slice) -> Currents:
+            """The largest over the phases of the rows (`largest_over_phases`)."""
+            found = largest_over_phases(
+                solved.winding_rms_a[rows],
+                solved.diode_peak_a[rows],
+                solved.reservoir_ripple_a[rows],
+                solved.conduction_deg[rows],
             )
+            return Currents(*(float(v) for v in dataclasses.astuple(found)))
 
         hum = base + 2 * phases + 2
         found[rail] = RailSolution(
             trough_v=max(float(solved.trough_v[worst]), 0.0),
-            ripple_vpp=float(solved.ripple_vpp[worst]),
+            # the largest over the phases (continuous in the parts, as the currents)
+            ripple_vpp=float(np.max(solved.ripple_vpp[lows])),
             collapsed=bool(solved.collapsed[lows].any()),
             nominal_v=max(float(solved.mean_v[base + 2 * phases]), 0.0),
             high_heavy_v=max(float(solved.mean_v[high_worst]), 0.0),
             high_idle_v=max(float(solved.mean_v[base + 2 * phases + 1]), 0.0),
             crest_v=tr.crest_v,
-            low_line=currents(worst),
-            high_line=currents(high_worst),
+            low_line=currents(lows),
+            high_line=currents(slice(base + phases, base + 2 * phases)),
             harmonics_vpk=tuple(complex(v) for v in solved.harmonics_vpk[hum]),
             ripple_hz=solved.ripple_hz,
             signal_hz=solved.signal_hz,

@@ -9,10 +9,11 @@ reservoir value and phase (the signal's frequency and whether the pulses are tak
 supply's, shared by its rails):
 
 - low line and the heaviest load at each relative phase of signal and mains: the trough
-  and peak-to-peak ripple (the worst phase, the lowest trough, per trial) and the
-  winding's, diodes' and reservoir's currents there;
-- high line and the heaviest load at the same phases: the currents and the mean, read at
-  the low line's worst phase (as `solve_rails` reads them);
+  (the worst phase, the lowest trough, per trial), the peak-to-peak ripple and the
+  winding's, diodes' and reservoir's currents (each the largest over the phases, per
+  trial: `largest_over_phases`, as `solve_rails` takes them);
+- high line and the heaviest load at the same phases: the currents (the largest over
+  the phases) and the mean, read at the low line's worst phase;
 - high line and the idle load as a steady current: the mean (with the one above, what a
   regulator below dissipates from, `HighLine`);
 - nominal line and load (its pulses at phase 0): the mean, ``mean_v`` and ``vout_v``,
@@ -49,13 +50,13 @@ Under pulsed loads the trough and ripple are interpolated at each relative phase
 and mains, each smooth in C, and the worst phase taken per trial after: the worst of them
 has a kink where the worst phase changes, which a polynomial follows poorly (there the
 ripple jumps from one phase's to another's). The currents at low and high line are
-interpolated at each phase the same way and read at the trial's worst phase: within 2e-8
-of a direct solve, but for the reservoir's ripple current, within 2e-5 (measured on the
-practice and shed amplifiers: the solver's rms quadratures under pulsed loads, the
-pulses' corners inside a charging interval, move unevenly with C). Solving each trial's
-two circuits at its worst phase directly instead is exact to the solver but, on the
-kitchen radio, costs as much as all the chain's networks of the trial together; a
-tolerance's figure does not need the fifth digit. Whether a rail collapses is no
+interpolated at each phase the same way and the largest over the phases taken per trial:
+within 2e-8 of a direct solve on the practice and shed amplifiers, the ripple current
+within 1e-6, the diode's peak and the conduction angle within 2e-4 under the heavy pulses
+of a guitar amplifier (a peak on a dense grid, refined; a charge the pulses interrupt).
+Solving each trial's two circuits at its worst phase directly instead is exact to the
+solver but, on the kitchen radio, costs as much as all the chain's networks of the trial
+together; a tolerance's figure does not need the fifth digit. Whether a rail collapses is no
 smooth function: on the grid a trial collapses where its interpolated trough at some
 phase falls to zero (the solver's own test, beside its failing to find a periodic state,
 which does not happen above zero); near a collapse the interpolation is poor anyway.
@@ -126,7 +127,12 @@ from chainbudget.supplies.base import (
     SupplyLoad,
     SupplySpread,
 )
-from chainbudget.supplies.rectified.circuit import Currents, Transformer, transformer
+from chainbudget.supplies.rectified.circuit import (
+    Currents,
+    Transformer,
+    largest_over_phases,
+    transformer,
+)
 from chainbudget.supplies.rectified.figures import winding_figures, worst_currents
 from chainbudget.supplies.rectified.rules import over_rating, ripple_too_large
 from chainbudget.thresholds import RMS_PER_DC_AMP
@@ -231,8 +237,8 @@ def rectified_spread(
     once (cached) and interpolated by their polynomial (the figures are smooth in C; the
     trough within 1 uV of the direct solve, tests/test_spread.py, the harmonics within
     1e-6 of the fundamental, tests/test_spread_hum.py, tests/test_spread_split.py, the mean
-    tests/test_spread_rectifier_figures.py), the currents too (within 2e-8, the
-    reservoir's ripple current within 2e-5: module notes); a
+    tests/test_spread_rectifier_figures.py), the currents too (within 2e-8 to 2e-4:
+    module notes); a
     smaller batch (a corner, a sensitivity) is solved directly, and a reservoir not drawn
     takes the nominal value's solve, cached. Every rail takes the one drawn reservoir
     (module notes). A load that differs per trial (from ``about``, each rail's load as
@@ -272,10 +278,7 @@ def rectified_spread(
         pieces = [values[:, a:b] for a, b in zip(edges[:-1], edges[1:], strict=True)]
         rails = len(on_grid)
         trials = tuple(Solved.from_columns(v, phases, count) for v in pieces[:rails])
-        currents = [
-            _currents_from_columns(v, np.argmin(s.trough_v, axis=1), phases)
-            for v, s in zip(pieces[rails:], trials, strict=True)
-        ]
+        currents = [_currents_from_columns(v, phases) for v in pieces[rails:]]
         return _spreads(supply, tr, fixed, trials, currents)
     solved = _solve(supply, jobs, reservoir, signal)
     return _spreads(supply, tr, fixed, solved, _at_worst(solved))
@@ -413,10 +416,7 @@ def _loaded_spread(
     phases, count = on_grid[0].trough_v.shape[1], on_grid[0].harmonics_vpk.shape[1]
     own = on_grid[0].columns().shape[1]
     solved = tuple(Solved.from_columns(v[:, :own], phases, count) for v in combined)
-    currents = [
-        _currents_from_columns(v[:, own:], np.argmin(s.trough_v, axis=1), phases)
-        for v, s in zip(combined, solved, strict=True)
-    ]
+    currents = [_currents_from_columns(v[:, own:], phases) for v in combined]
     return _spreads(supply, tr, loads, solved, currents)
 
 
@@ -446,14 +446,13 @@ def _pick(values: object, at: NDArray[np.intp]) -> Array:
 
 
 def _at_worst(solved: tuple[Solved, ...]) -> list[tuple[Currents, Currents]]:
-    """Each rail's currents at low and at high line at its worst phase (the lowest trough,
-    as `solve_rails` takes it), from a direct solve."""
+    """Each rail's currents at low and at high line, each the largest over the phases (as
+    `solve_rails` takes them: `largest_over_phases`), from a direct solve."""
     found = []
     for s in solved:
         assert s.low is not None and s.high is not None  # a direct solve's
-        at = np.argmin(s.trough_v, axis=1)
         low, high = (
-            Currents(*(_pick(getattr(c, key), at) for key in CURRENT_KEYS)) for c in (s.low, s.high)
+            largest_over_phases(*(getattr(c, key) for key in CURRENT_KEYS)) for c in (s.low, s.high)
         )
         found.append((low, high))
     return found
@@ -491,9 +490,9 @@ def _spreads(
     currents: list[tuple[Currents, Currents]],
 ) -> dict[str, SupplySpread]:
     """Every rail's spread from its figures per trial (`Solved`, a row a trial) and its
-    currents at low and high line at its worst phase: the trough and ripple at that phase,
-    the currents as `chainbudget.supplies.rectified.figures` works them out and the rules'
-    flags."""
+    currents at low and high line (each the largest over the phases): the trough at its
+    worst phase, the ripple the largest over them, the currents as
+    `chainbudget.supplies.rectified.figures` works them out and the rules' flags."""
     worst = {
         rail: worst_currents(low, high) for rail, (low, high) in zip(loads, currents, strict=True)
     }
@@ -502,7 +501,7 @@ def _spreads(
     for rail, s in zip(loads, solved, strict=True):
         at = np.argmin(s.trough_v, axis=1)
         trough = np.maximum(_pick(s.trough_v, at), 0.0)
-        vpp = _pick(s.ripple_vpp, at)
+        vpp = np.max(s.ripple_vpp, axis=1)  # the largest over the phases, as the check's
         collapsed = np.any(s.collapsed, axis=1)
         own = _own_figures(tr, worst, rail, loads)
         mean = np.maximum(s.mean_v, 0.0)
@@ -804,9 +803,8 @@ def _current_columns(solved: Solved) -> Array:
     )
 
 
-def _currents_from_columns(
-    values: Array, worst: NDArray[np.intp], phases: int
-) -> tuple[Currents, Currents]:
-    """`_current_columns` read back (interpolated, (T, 8P)) at each trial's worst phase."""
-    picked = [_pick(values[:, j * phases : (j + 1) * phases], worst) for j in range(8)]
-    return Currents(*picked[:4]), Currents(*picked[4:])
+def _currents_from_columns(values: Array, phases: int) -> tuple[Currents, Currents]:
+    """`_current_columns` read back (interpolated, (T, 8P)): each current the largest
+    over the phases (`largest_over_phases`), at low line and at high line."""
+    each = [values[:, j * phases : (j + 1) * phases] for j in range(8)]
+    return largest_over_phases(*each[:4]), largest_over_phases(*each[4:])
