@@ -19,7 +19,8 @@ boost's few points near its shelf, not the whole band), for the same reason a ca
 further above is dropped; an op-amp's current settings likewise near its largest current
 (`current_candidates`: the nominal check's setting of its largest, its neighbours and
 each control's end stops, the end stops and settings as set of the op-amp's own
-section's controls in combination, and the nominal check's candidate settings).
+section's controls in combination, and the nominal check's candidate settings with their
+neighbours in those controls).
 """
 
 from __future__ import annotations
@@ -35,6 +36,7 @@ from numpy.typing import NDArray
 
 from chainbudget.budget.analysis import (
     Analysis,
+    SweptControl,
     analyse,
     master_volume,
     positions_as_set,
@@ -267,22 +269,37 @@ def current_candidates(analysis: Analysis, k: int, top: tuple[int, ...]) -> list
     section also take their end stops and their settings as set in combination: its own
     boosts trade places (with 40 % pots, the desk pre-amp's tone stage's largest moves
     from its treble boost to its bass boost with the treble as set, two controls away);
-    and so do the nominal check's own candidate settings (a lower summit of the ridge the
-    check lists beside the largest, which a trial's parts lift above it: the desk
-    pre-amp with its driver's input halved, from bass 1 to bass 0.1). `held_settings`
-    then drops those more than `PRUNE_DB` below the largest at the nominal parts."""
+    and so do the nominal check's own candidate settings, each with its own section's
+    controls moved alone one rotation either side (a lower summit of the ridge the check
+    lists beside the largest, which a trial's parts lift above it, or move a rotation
+    from: the desk pre-amp with its driver's input halved, from bass 1 to bass 0.1; a
+    busking amp on a smaller speaker, from bass 1, treble 0.9 to bass 0.1, treble 0.9).
+    `held_settings` then drops those more than `PRUNE_DB` below the largest at the
+    nominal parts."""
     own = section_of(sections(analysis.chain.stages), k)
     last = own.last
     ordered: dict[tuple[int, ...], None] = {top: None}
+    shaping = [sc for sc in analysis.swept_controls if sc.stage_index <= last]
+
+    def with_neighbours(summit: tuple[int, ...], controls: list[SweptControl]) -> None:
+        """``summit`` and each of ``controls`` moved alone one rotation either side."""
+        ordered[summit] = None
+        for sc in controls:
+            for rotation in (summit[sc.axis] - 1, summit[sc.axis] + 1):
+                moved = list(summit)
+                moved[sc.axis] = min(max(rotation, 0), sc.rotations.size - 1)
+                ordered[tuple(moved)] = None
+
+    with_neighbours(top, shaping)
     stops: list[list[int]] = []
     for sc in analysis.swept_controls:
         if sc.stage_index > last:
             stops.append([top[sc.axis]])
             continue
         end = sc.rotations.size - 1
-        for rotation in (0, top[sc.axis] - 1, top[sc.axis] + 1, end):
+        for rotation in (0, end):
             moved = list(top)
-            moved[sc.axis] = min(max(rotation, 0), end)
+            moved[sc.axis] = rotation
             ordered[tuple(moved)] = None
         if sc.stage_index not in own:
             stops.append([top[sc.axis]])
@@ -296,10 +313,9 @@ def current_candidates(analysis: Analysis, k: int, top: tuple[int, ...]) -> list
     # lift above the largest
     for candidate in analysis.candidates:
         moved = list(top)
-        for sc in analysis.swept_controls:
-            if sc.stage_index <= last:
-                moved[sc.axis] = int(candidate[sc.axis])
-        ordered[tuple(moved)] = None
+        for sc in shaping:
+            moved[sc.axis] = int(candidate[sc.axis])
+        with_neighbours(tuple(moved), [sc for sc in shaping if sc.stage_index in own])
     return sorted(ordered)
 
 
