@@ -19,6 +19,8 @@ from test_spread import (
     trial_changes,
 )
 
+from chainbudget.chainfile import Chain
+
 # bass boost (1 + 100k/20k at its end stop, at 20 Hz) and treble boost (at 20 kHz) within
 # 0.2 dB of each other at the nominal parts: the nominal worst is the bass boost.
 TWO_BOOSTS = TONE_AND_VOLUME.replace('bass_outer = "47k"', 'bass_outer = "20k"')
@@ -224,6 +226,58 @@ def test_largest_opamp_current_found_across_a_flat_bass_ridge() -> None:
     assert far == 2
 
 
+def _tone_largest_at(chain: Chain) -> tuple[int, ...]:
+    """The setting (rotation indices) of the tone stage's (stage 1's) op-amp's largest
+    output current, as the check finds it."""
+    from chainbudget.budget.analysis import analyse
+    from chainbudget.budget.supplies import settle
+    from chainbudget.spread.settings import opamp_current_settings
+
+    analysis = analyse(chain, "low", settle(chain, "low").voltages)
+    return opamp_current_settings(analysis)[(1, "tone.opamp")].rotations
+
+
+def _tone_current_of_each_trial(
+    chain: Chain, trials: int, rows: list[int] | None = None
+) -> list[tuple[int, ...]]:
+    """The tone stage's ``drive_worst_current_a`` of the first ``trials`` trials drawn
+    with seed 5 (those of them in ``rows``), each trial written into the file and checked
+    alone (the check's search over every rotation): the batched figure, rtol 1e-9.
+    Returns each trial's setting of its largest (`_tone_largest_at`)."""
+    from chainbudget.budget import compute
+    from chainbudget.budget.supplies import settle
+    from chainbudget.spread.evaluate import Evaluator
+    from chainbudget.spread.parts import chain_parts
+
+    parts, _ = chain_parts(chain)
+    evaluate = Evaluator(chain, tuple(parts), compute(chain), settle(chain, "low").voltages)
+    positions = np.random.default_rng(5).random((trials, len(parts)))
+    positions = positions if rows is None else positions[rows]
+    batched = evaluate(positions)["nodes.tone.drive_worst_current_a"]
+    found = []
+    for t in range(len(positions)):
+        trial = trial_chain(chain, parts, evaluate.values(positions[t : t + 1]))
+        found.append(_tone_largest_at(trial))
+        _, data = checked(trial)
+        held = _json_figure(data, "nodes.tone.drive_worst_current_a")
+        assert batched[t] == pytest.approx(held, rel=1e-9, abs=0), t
+    return found
+
+
+def _example_text(name: str) -> str:
+    from pathlib import Path
+
+    return (Path(__file__).resolve().parents[1] / "chains" / name).read_text()
+
+
+def _parsed(text: str, name: str) -> Chain:
+    import tomllib
+
+    from chainbudget.chainfile import parse_chain
+
+    return parse_chain(tomllib.loads(text), name)
+
+
 def test_largest_opamp_current_found_when_it_moves_from_one_boost_to_the_other() -> None:
     """The desk pre-amp with 40 % pots: the nominal check finds its tone stage's largest
     output current at a treble boost (bass 0.1, treble 1); in one trial of the sixty
@@ -232,38 +286,11 @@ def test_largest_opamp_current_found_when_it_moves_from_one_boost_to_the_other()
     (the check's search over every rotation) gives the batched figure, rtol 1e-9: the
     spread also holds the end stops and settings as set of the stage's own controls in
     combination (`settings.current_candidates`)."""
-    import tomllib
-    from pathlib import Path
-
-    from chainbudget.budget import compute
-    from chainbudget.budget.analysis import analyse
-    from chainbudget.budget.supplies import settle
-    from chainbudget.chainfile import parse_chain
-    from chainbudget.spread.evaluate import Evaluator
-    from chainbudget.spread.parts import chain_parts
-    from chainbudget.spread.settings import opamp_current_settings
-
-    text = (Path(__file__).resolve().parents[1] / "chains" / "desk_speaker_preamp.toml").read_text()
+    text = _example_text("desk_speaker_preamp.toml")
     assert "[tolerances]" not in text
-    chain = parse_chain(tomllib.loads(text + '\n[tolerances]\npots = "40 %"\n'), "desk40.toml")
-
-    def largest_at(chain):  # noqa: ANN001, ANN202
-        analysis = analyse(chain, "low", settle(chain, "low").voltages)
-        return opamp_current_settings(analysis)[(1, "tone.opamp")].rotations
-
-    assert largest_at(chain) == (1, 10, 10)
-    parts, _ = chain_parts(chain)
-    evaluate = Evaluator(chain, tuple(parts), compute(chain), settle(chain, "low").voltages)
-    positions = np.random.default_rng(5).random((60, len(parts)))[[0, 1, 55]]
-    batched = evaluate(positions)["nodes.tone.drive_worst_current_a"]
-    moved = []
-    for t in range(len(positions)):
-        trial = trial_chain(chain, parts, evaluate.values(positions[t : t + 1]))
-        moved.append(largest_at(trial))
-        _, data = checked(trial)
-        held = _json_figure(data, "nodes.tone.drive_worst_current_a")
-        assert batched[t] == pytest.approx(held, rel=1e-9, abs=0), t
-    assert moved[2] == (10, 5, 10)
+    chain = _parsed(text + '\n[tolerances]\npots = "40 %"\n', "desk40.toml")
+    assert _tone_largest_at(chain) == (1, 10, 10)
+    assert _tone_current_of_each_trial(chain, 60, [0, 1, 55])[2] == (10, 5, 10)
 
 
 def test_largest_opamp_current_found_at_a_lower_summit_of_the_nominal_check() -> None:
@@ -274,39 +301,12 @@ def test_largest_opamp_current_found_at_a_lower_summit_of_the_nominal_check() ->
     tolerances lift that summit above the largest. Each of two trials checked alone gives
     the batched figure, rtol 1e-9: the spread also holds the nominal check's candidate
     settings (`settings.current_candidates`)."""
-    import tomllib
-    from pathlib import Path
-
-    from chainbudget.budget import compute
-    from chainbudget.budget.analysis import analyse
-    from chainbudget.budget.supplies import settle
-    from chainbudget.chainfile import parse_chain
-    from chainbudget.spread.evaluate import Evaluator
-    from chainbudget.spread.parts import chain_parts
-    from chainbudget.spread.settings import opamp_current_settings
-
-    text = (Path(__file__).resolve().parents[1] / "chains" / "desk_speaker_preamp.toml").read_text()
+    text = _example_text("desk_speaker_preamp.toml")
     assert text.count('input = "10k"') == 1 and "[tolerances]" not in text
     text = text.replace('input = "10k"', 'input = "5k"') + '\n[tolerances]\nresistors = "10 %"\n'
-    chain = parse_chain(tomllib.loads(text), "desk_half_input.toml")
-
-    def largest_at(chain):  # noqa: ANN001, ANN202
-        analysis = analyse(chain, "low", settle(chain, "low").voltages)
-        return opamp_current_settings(analysis)[(1, "tone.opamp")].rotations
-
-    assert largest_at(chain) == (10, 10, 10)
-    parts, _ = chain_parts(chain)
-    evaluate = Evaluator(chain, tuple(parts), compute(chain), settle(chain, "low").voltages)
-    positions = np.random.default_rng(5).random((2, len(parts)))
-    batched = evaluate(positions)["nodes.tone.drive_worst_current_a"]
-    moved = []
-    for t in range(len(positions)):
-        trial = trial_chain(chain, parts, evaluate.values(positions[t : t + 1]))
-        moved.append(largest_at(trial))
-        _, data = checked(trial)
-        held = _json_figure(data, "nodes.tone.drive_worst_current_a")
-        assert batched[t] == pytest.approx(held, rel=1e-9, abs=0), t
-    assert moved[0] == (1, 10, 10)
+    chain = _parsed(text, "desk_half_input.toml")
+    assert _tone_largest_at(chain) == (10, 10, 10)
+    assert _tone_current_of_each_trial(chain, 2)[0] == (1, 10, 10)
 
 
 def test_largest_opamp_current_found_beside_a_lower_summit() -> None:
@@ -318,18 +318,7 @@ def test_largest_opamp_current_found_beside_a_lower_summit() -> None:
     two trials checked alone gives the batched figure, rtol 1e-9: the spread holds each
     of the nominal check's candidates with its neighbours in the stage's own controls
     (`settings.current_candidates`; without them that trial came out 0.24 % low)."""
-    import tomllib
-    from pathlib import Path
-
-    from chainbudget.budget import compute
-    from chainbudget.budget.analysis import analyse
-    from chainbudget.budget.supplies import settle
-    from chainbudget.chainfile import parse_chain
-    from chainbudget.spread.evaluate import Evaluator
-    from chainbudget.spread.parts import chain_parts
-    from chainbudget.spread.settings import opamp_current_settings
-
-    text = (Path(__file__).resolve().parents[1] / "chains" / "busking_amp.toml").read_text()
+    text = _example_text("busking_amp.toml")
     for old, new in (
         ('impedance = "4 ohm"', 'impedance = "3.2 ohm"'),
         ('sensitivity = "91 dB"', 'sensitivity = "72.8 dB"'),
@@ -352,22 +341,6 @@ def test_largest_opamp_current_found_beside_a_lower_summit() -> None:
         '\n[[supply]]\nname = "tap"\nkind = "divider"\nfrom = "bat_plus"\n'
         'upper = "4k7"\nlower = "3k3"\n\n[tolerances]\nresistors = "10 %"\n'
     )
-    chain = parse_chain(tomllib.loads(text), "busking_small_speaker.toml")
-
-    def largest_at(chain):  # noqa: ANN001, ANN202
-        analysis = analyse(chain, "low", settle(chain, "low").voltages)
-        return opamp_current_settings(analysis)[(1, "tone.opamp")].rotations
-
-    assert largest_at(chain) == (10, 9, 10)
-    parts, _ = chain_parts(chain)
-    evaluate = Evaluator(chain, tuple(parts), compute(chain), settle(chain, "low").voltages)
-    positions = np.random.default_rng(5).random((2, len(parts)))
-    batched = evaluate(positions)["nodes.tone.drive_worst_current_a"]
-    moved = []
-    for t in range(len(positions)):
-        trial = trial_chain(chain, parts, evaluate.values(positions[t : t + 1]))
-        moved.append(largest_at(trial))
-        _, data = checked(trial)
-        held = _json_figure(data, "nodes.tone.drive_worst_current_a")
-        assert batched[t] == pytest.approx(held, rel=1e-9, abs=0), t
-    assert moved[1] == (1, 9, 10)
+    chain = _parsed(text, "busking_small_speaker.toml")
+    assert _tone_largest_at(chain) == (10, 9, 10)
+    assert _tone_current_of_each_trial(chain, 2)[1] == (1, 9, 10)

@@ -163,16 +163,11 @@ def tree_spread(
     spread_names: set[str] = set()
     for j in _parents_first(chain):
         supply = chain.supplies[j]
-        drawn = {
-            p.key: v
-            for p, v in zip(parts, values, strict=True)
-            if p.table == "supply" and p.index == j
-        }
+        drawn, bounds = _own_parts(parts, values, j)
         kind = SUPPLY_KINDS[supply.kind]
         # a supply with nothing of its own drawn still follows a spread parent
         if not loads_move and not kind.spread_fields(supply) and supply.parent not in spread_names:
             continue
-        bounds = {p.key: (p.low, p.high) for p in parts if p.table == "supply" and p.index == j}
         spreads = kind.rail_spreads(
             supply,
             drawn,
@@ -232,11 +227,7 @@ def unloaded_per_trial(
     moved: set[str] = set()
     for j in _parents_first(chain):
         supply = chain.supplies[j]
-        drawn = {
-            p.key: v
-            for p, v in zip(parts, values, strict=True)
-            if p.table == "supply" and p.index == j
-        }
+        drawn, bounds = _own_parts(parts, values, j)
         if not drawn and supply.parent not in moved:
             continue
         kind = SUPPLY_KINDS[supply.kind]
@@ -249,7 +240,7 @@ def unloaded_per_trial(
                 for rail in kind.rails(supply)
             },
             None if parent is None else np.asarray(parent.trough_v, dtype=float),
-            {p.key: (p.low, p.high) for p in parts if p.table == "supply" and p.index == j},
+            bounds,
             None if parent is None else RippleSpread.of(parent),
             ambient_degc=nominal.ambient_degc,
         )
@@ -263,6 +254,16 @@ def unloaded_per_trial(
             found[name] = replace(found[name], nominal_v=mean, trough_v=trough)
             moved.add(name)
     return found
+
+
+def _own_parts(
+    parts: tuple[Part, ...], values: list[NDArray[np.float64]], j: int
+) -> tuple[dict[str, NDArray[np.float64]], dict[str, tuple[float, float]]]:
+    """Supply ``j``'s own drawn parts, field -> values per trial, and their bounds."""
+    mine = [
+        (p, v) for p, v in zip(parts, values, strict=True) if p.table == "supply" and p.index == j
+    ]
+    return {p.key: v for p, v in mine}, {p.key: (p.low, p.high) for p, _ in mine}
 
 
 def _parents_first(chain: Chain) -> list[int]:
