@@ -259,7 +259,7 @@ def rectified_spread(
     jobs = tuple(_Job(_Drive.of(load), ALL_GROUPS, r) for r, load in enumerate(fixed.values()))
     if "reservoir" not in drawn:
         solved = _solved(supply, jobs, (tr.reservoir_f,), signal)
-        return _spreads(supply, tr, fixed, solved, _at_worst(solved))
+        return _spreads(supply, tr, fixed, solved, _largest_currents(solved))
     reservoir = np.atleast_1d(np.asarray(drawn["reservoir"], dtype=float))
     grid = _grid((bounds or {}).get("reservoir"), reservoir.size)
     if grid is not None:
@@ -281,7 +281,7 @@ def rectified_spread(
         currents = [_currents_from_columns(v, phases) for v in pieces[rails:]]
         return _spreads(supply, tr, fixed, trials, currents)
     solved = _solve(supply, jobs, reservoir, signal)
-    return _spreads(supply, tr, fixed, solved, _at_worst(solved))
+    return _spreads(supply, tr, fixed, solved, _largest_currents(solved))
 
 
 def _chebyshev_series(x: Array, coefficients: NDArray[np.floating[Any]]) -> Array:
@@ -445,7 +445,7 @@ def _pick(values: object, at: NDArray[np.intp]) -> Array:
     return np.take_along_axis(np.asarray(values), at[:, None], axis=1)[:, 0]
 
 
-def _at_worst(solved: tuple[Solved, ...]) -> list[tuple[Currents, Currents]]:
+def _largest_currents(solved: tuple[Solved, ...]) -> list[tuple[Currents, Currents]]:
     """Each rail's currents at low and at high line, each the largest over the phases (as
     `solve_rails` takes them: `largest_over_phases`), from a direct solve."""
     found = []
