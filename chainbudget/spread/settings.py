@@ -19,8 +19,9 @@ boost's few points near its shelf, not the whole band), for the same reason a ca
 further above is dropped; an op-amp's current settings likewise near its largest current
 (`current_candidates`: the nominal check's setting of its largest, its neighbours and
 each control's end stops, the end stops and settings as set of the op-amp's own
-section's controls in combination, and the nominal check's candidate settings with their
-neighbours in those controls).
+section's controls in combination, each with the earlier sections' controls moved a
+rotation either side, and the nominal check's candidate settings with their neighbours
+in those controls).
 """
 
 from __future__ import annotations
@@ -268,12 +269,17 @@ def current_candidates(analysis: Analysis, k: int, top: tuple[int, ...]) -> list
     ``top``'s rotations (as in `node_candidates`). The controls of the op-amp's own
     section also take their end stops and their settings as set in combination: its own
     boosts trade places (with 40 % pots, the desk pre-amp's tone stage's largest moves
-    from its treble boost to its bass boost with the treble as set, two controls away);
-    and so do the nominal check's own candidate settings, each with its own section's
-    controls moved alone one rotation either side (a lower summit of the ridge the check
-    lists beside the largest, which a trial's parts lift above it, or move a rotation
-    from: the desk pre-amp with its driver's input halved, from bass 1 to bass 0.1; a
-    busking amp on a smaller speaker, from bass 1, treble 0.9 to bass 0.1, treble 0.9).
+    from its treble boost to its bass boost with the treble as set, two controls away),
+    each combination with the earlier sections' controls moved alone one rotation either
+    side (a bass stage before a tone stage: in a variant of the test chain of every
+    kind, the largest moved from the tone stage's bass boost to both its controls at
+    their lower end stops with the bass stage one rotation on, 0.85 % above that
+    combination alone); and so do the nominal check's own candidate settings, each with
+    its own section's controls moved alone one rotation either side (a lower summit of
+    the ridge the check lists beside the largest, which a trial's parts lift above it,
+    or move a rotation from: the desk pre-amp with its driver's input halved, from bass
+    1 to bass 0.1; a busking amp on a smaller speaker, from bass 1, treble 0.9 to bass
+    0.1, treble 0.9).
     `held_settings` then drops those more than `PRUNE_DB` below the largest at the
     nominal parts."""
     own = section_of(sections(analysis.chain.stages), k)
@@ -306,8 +312,9 @@ def current_candidates(analysis: Analysis, k: int, top: tuple[int, ...]) -> list
             continue
         stops.append(sorted({0, sc.as_set, end}))
     if math.prod(len(v) for v in stops) <= MAX_PRODUCT:
+        before = [sc for sc in shaping if sc.stage_index not in own]
         for combo in itertools.product(*stops):
-            ordered[tuple(int(i) for i in combo)] = None
+            with_neighbours(tuple(int(i) for i in combo), before)
     # the nominal check's own candidates (as set, each stage's controls fully up, near
     # each op-amp's largest): a lower summit of the same ridge, which a trial's parts
     # lift above the largest
