@@ -365,3 +365,45 @@ def test_largest_opamp_current_found_beside_a_stop_of_the_tone_stage() -> None:
     chain = _parsed(text, "every_kind_low_gain.toml")
     assert _tone_largest_at(chain, 4) == (0, 10, 1, 11)
     assert _tone_current_of_each_trial(chain, 2, stage=4)[1] == (1, 0, 0, 11)
+
+
+def test_worst_headroom_found_in_a_hollow_beside_an_end_stop() -> None:
+    """A busking amp with a smaller bass pot and capacitor (20k, 23.5n; default
+    tolerances). At the nominal parts the tone node's worst is its bass boost at 20 Hz,
+    and along the treble boost (treble 1, 20 kHz) the clip level is least with the bass
+    at 0.1, not at its end stop 0: the bass control's cut reaches up to meet the boost.
+    In the first two trials drawn with seed 5 the worst moves to that treble boost with
+    the bass at 0.1. Each trial checked alone (the check's search over every rotation)
+    gives the batched worst headroom of every node, rtol 1e-9: the spread holds the
+    hollow a coordinate descent at the nominal parts reaches from each candidate
+    (`settings.downhill`; without it both trials came out about 0.035 dB high)."""
+    from chainbudget.budget import compute
+    from chainbudget.budget.supplies import settle
+    from chainbudget.spread.evaluate import Evaluator
+    from chainbudget.spread.parts import chain_parts
+
+    text = _example_text("busking_amp.toml")
+    for old, new in (
+        ('bass_pot = "25k"', 'bass_pot = "20k"'),
+        ('bass_cap = "47n"', 'bass_cap = "23.5n"'),
+    ):
+        assert old in text, old
+        text = text.replace(old, new, 1)
+    chain = _parsed(text, "busking_small_bass.toml")
+    nominal = compute(chain)
+    assert nominal.node("tone").worst.controls[("tone", "bass_position")] == 1.0
+    parts, _ = chain_parts(chain)
+    evaluate = Evaluator(chain, tuple(parts), nominal, settle(chain, "low").voltages)
+    positions = np.random.default_rng(5).random((2, len(parts)))
+    batched = evaluate(positions)
+    paths = [p for p in batched if p.endswith(".worst_headroom_db")]
+    for t in range(len(positions)):
+        trial = trial_chain(chain, parts, evaluate.values(positions[t : t + 1]))
+        budget, data = checked(trial)
+        assert budget.node("tone").worst.controls == {
+            ("tone", "bass_position"): 0.1,
+            ("tone", "treble_position"): 1.0,
+        }
+        for path in paths:
+            held = _json_figure(data, path)
+            assert batched[path][t] == pytest.approx(held, rel=1e-9, abs=1e-12), (path, t)

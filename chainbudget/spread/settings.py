@@ -9,7 +9,8 @@ The check finds each node's worst headroom over the band and every swept control
 through every trial would multiply the trial axis by up to 30,000 settings; the spread
 instead solves every trial at a few candidate settings of each node (`node_candidates`:
 the controls that shape it at their end stops, as set and at the nominal worst, in
-combination) and takes the least over them and the band, with the check's tie-break
+combination; and the hollow a coordinate descent at the nominal parts reaches from each,
+`downhill`) and takes the least over them and the band, with the check's tie-break
 (`worst_of_candidates`). Exact wherever a trial's worst point lies at one of those
 settings (a tone control's worst is a boost at an end stop, and tolerances move it from
 one boost to another); otherwise the spread figure is at most the check's margin above
@@ -28,8 +29,9 @@ from __future__ import annotations
 
 import itertools
 import math
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
+from functools import partial
 from typing import Any
 
 import numpy as np
@@ -167,6 +169,18 @@ def held_settings(chain: Chain, voltages: Mapping[str, Corners]) -> HeldSettings
             row[sc.axis] = float(sc.rotations[rotations[sc.axis]])
         return tuple(row)
 
+    peaks: dict[tuple[int, tuple[int, ...]], NDArray[np.float64]] = {}
+
+    def peak_at(k: int, rotations: tuple[int, ...]) -> NDArray[np.float64]:
+        """Node ``k``'s clip level over the axis at one setting, the nominal parts."""
+        if (k, rotations) not in peaks:
+            clip = clip_source_peak(nominal_at(row_at(rotations)), k)
+            peaks[(k, rotations)] = np.asarray(clip[0])  # type: ignore[index]
+        return peaks[(k, rotations)]
+
+    def least_peak(k: int, rotations: tuple[int, ...]) -> float:
+        return float(np.min(peak_at(k, rotations)))
+
     for k in range(len(chain.stages)):
         found = None if analysis.worst is None else analysis.worst.nodes[k]
         if clip_source_peak(analysis.swept, k) is None:
@@ -175,15 +189,21 @@ def held_settings(chain: Chain, voltages: Mapping[str, Corners]) -> HeldSettings
             node_rows[k] = ((None, 0.0),)
             continue
         worst = analysis.setting_rotations(found.setting)
-        tried = []
-        for rotations in node_candidates(analysis, k, found):
-            row = row_at(rotations)
-            distance = sum(abs(row[sc.axis] - sc.control.position) for sc in swept)
-            peak = np.asarray(clip_source_peak(nominal_at(row), k)[0])  # type: ignore[index]
-            tried.append((row, distance, peak, rotations == worst))
+        candidates = node_candidates(analysis, k, found)
+        least = partial(least_peak, k)
         # a setting, or a point of it, whose clip level at the nominal parts lies more than
         # PRUNE_DB above the node's worst is left out: no trial's parts move it that far
-        floor = min(float(np.min(peak)) for _, _, peak, _ in tried) * 10.0 ** (PRUNE_DB / 20.0)
+        floor = min(least(r) for r in candidates) * 10.0 ** (PRUNE_DB / 20.0)
+        # each kept candidate's hollow on the check's grid nearby at the nominal parts (a
+        # treble boost at its end stop is least with the bass a rotation in, where its cut
+        # meets the boost), where the parts' tolerances put the trials' worst too
+        shaping = [sc for sc in swept if sc.stage_index <= _last_of(analysis, k)]
+        hollows = {downhill(r, shaping, least) for r in candidates if least(r) <= floor}
+        tried = []
+        for rotations in sorted({*candidates, *hollows}):
+            row = row_at(rotations)
+            distance = sum(abs(row[sc.axis] - sc.control.position) for sc in swept)
+            tried.append((row, distance, peak_at(k, rotations), rotations == worst))
         node_rows[k] = tuple(
             (row_of(row, peak <= floor), distance)
             for row, distance, peak, is_worst in tried
@@ -326,6 +346,34 @@ def current_candidates(analysis: Analysis, k: int, top: tuple[int, ...]) -> list
     return sorted(ordered)
 
 
+def _last_of(analysis: Analysis, k: int) -> int:
+    """The last stage of stage ``k``'s section (a stage, or a loop solved as one)."""
+    return section_of(sections(analysis.chain.stages), k).last
+
+
+def downhill(
+    start: tuple[int, ...], controls: list[SweptControl], value: Callable[[tuple[int, ...]], float]
+) -> tuple[int, ...]:
+    """The setting a coordinate descent of ``value`` reaches from ``start``: each of
+    ``controls`` moved one rotation either side, the lowest of those taken while it is
+    lower (a local least on the check's grid; the first in that order among equals)."""
+    current, least = start, value(start)
+    while True:
+        best = current
+        for sc in controls:
+            for rotation in (current[sc.axis] - 1, current[sc.axis] + 1):
+                if not 0 <= rotation < sc.rotations.size:
+                    continue
+                moved = list(current)
+                moved[sc.axis] = rotation
+                got = value(tuple(moved))
+                if got < least:
+                    best, least = tuple(moved), got
+        if best == current:
+            return current
+        current = best
+
+
 def node_candidates(analysis: Analysis, k: int, found: NodeWorst) -> list[tuple[int, ...]]:
     """The settings (a rotation index per swept control) at which the spread looks for node
     ``k``'s worst case in every trial, in the check's grid order (ascending rotation
@@ -342,7 +390,7 @@ def node_candidates(analysis: Analysis, k: int, found: NodeWorst) -> list[tuple[
     """
     swept = analysis.swept_controls
     worst = analysis.setting_rotations(found.setting)
-    last = section_of(sections(analysis.chain.stages), k).last
+    last = _last_of(analysis, k)
     values = []
     for sc in swept:
         if sc.stage_index > last:
