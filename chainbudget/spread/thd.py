@@ -95,20 +95,33 @@ def _per_trial(value: object, trials: int) -> NDArray[np.float64]:
     return np.broadcast_to(flat, (trials,)) if flat.size == 1 else flat.reshape(trials)
 
 
-def _levels_vpk(chain: Chain, as_set: Cascade, level: str, trials: int) -> NDArray[np.float64]:
-    """A THD level of every trial, the fundamental's peak at the load (V)."""
+def _clip_vpk(chain: Chain, as_set: Cascade, trials: int) -> NDArray[np.float64]:
+    """The chain's clip at the load in every trial, the first stage to reach its limit
+    with the controls as set (V peak at the reference; infinite where no stage has a
+    limit), as the check's THD levels take it."""
     last = len(chain.stages) - 1
     gain = _per_trial(np.abs(np.asarray(as_set.v_out[last])[..., 0]), trials)
-    if level == "nominal":
-        return SQRT2 * chain.source.level * gain
-    if level == "one_watt":
-        return np.full(trials, float(np.sqrt(2.0 * chain.load.impedance)))
-    peaks = []
+    peaks = [np.full(trials, np.inf)]
     for k in range(last + 1):
         clip = clip_source_peak(as_set, k)
         if clip is not None:
             peaks.append(_per_trial(np.asarray(clip[0])[..., 0], trials))
-    return np.asarray(np.min(peaks, axis=0) * gain * 10.0 ** (-BELOW_CLIP_DB / 20.0))
+    return np.asarray(np.min(peaks, axis=0) * gain)
+
+
+def _levels_vpk(
+    chain: Chain, as_set: Cascade, level: str, clip_vpk: NDArray[np.float64]
+) -> NDArray[np.float64]:
+    """A THD level of every trial, the fundamental's peak at the load (V), ``clip_vpk``
+    the chain's clip there (`_clip_vpk`)."""
+    trials = clip_vpk.size
+    if level == "nominal":
+        last = len(chain.stages) - 1
+        gain = _per_trial(np.abs(np.asarray(as_set.v_out[last])[..., 0]), trials)
+        return SQRT2 * chain.source.level * gain
+    if level == "one_watt":
+        return np.full(trials, float(np.sqrt(2.0 * chain.load.impedance)))
+    return np.asarray(clip_vpk * 10.0 ** (-BELOW_CLIP_DB / 20.0))
 
 
 def _loop_factor(
@@ -149,21 +162,30 @@ def thd_figures(
     env = envs[last]
     upper, lower = pair_laws(chain.stages[last], env)
     v_t = float(thermal_voltage(env.temperature_k))
-    levels = np.stack([_levels_vpk(chain, as_set, level, trials) for level, _ in paths], axis=1)
+    clip_vpk = _clip_vpk(chain, as_set, trials)
+    levels = np.stack([_levels_vpk(chain, as_set, level, clip_vpk) for level, _ in paths], axis=1)
+    # a level the trial's chain cannot reach (at or above its clip) has no THD, as the
+    # check leaves it out of its list (`crossover._distortion`): undefined in that trial
+    unreached = levels >= clip_vpk[:, None]
     amplitude = harmonic_amplitudes(levels, upper, lower, chain.load.impedance, v_t)
     factor = _loop_factor(chain, envs, trials)
     closed_amplitude = closed_loop(amplitude, factor)
+
+    def per_level(values: NDArray[np.float64], j: int) -> NDArray[np.float64]:
+        """One level's figure (T,), NaN in the trials that cannot reach it."""
+        return np.where(unreached[:, j], np.nan, _per_trial(values, trials))
+
     closed = thd_of(closed_amplitude)
     figures = {}
     for j, (_, path) in enumerate(paths):
-        figures[path] = _per_trial(100.0 * closed[..., j], trials).copy()
+        figures[path] = per_level(100.0 * closed[..., j], j)
     in_db = harmonics_db(closed_amplitude)
     for j, (level, _) in enumerate(paths):
         for n in range(2, HARMONICS + 1):
-            figures[harmonic_path(level, n)] = _per_trial(in_db[..., j, n - 2], trials).copy()
+            figures[harmonic_path(level, n)] = per_level(in_db[..., j, n - 2], j)
     if factor is not None:
         open_loop = thd_of(amplitude)
         for j, (_, path) in enumerate(paths):
             key = path.replace("output.thd_", "output.open_loop_thd_")
-            figures[key] = _per_trial(100.0 * open_loop[..., j], trials).copy()
+            figures[key] = per_level(100.0 * open_loop[..., j], j)
     return figures

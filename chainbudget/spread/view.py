@@ -299,10 +299,16 @@ def spread_tables(result: SpreadResult, title: str, places: Sequence[str] = ()) 
             "held at nominal: " + "; ".join(f"{h.label} ({h.reason})" for h in result.held)
         )
     if result.undefined:
+        # the harmonics are JSON-only figures, undefined where their level's THD is
+        listed = [
+            f"{p} in {share:.1%}" for p, share in result.undefined.items() if not is_harmonic(p)
+        ]
+        unlisted = sum(1 for p in result.undefined if is_harmonic(p))
+        if unlisted:
+            listed.append(f"{unlisted} harmonics (in the JSON)")
         notes.append(
             "undefined in some trials (null in their check; the figures above are over "
-            "the others): "
-            + "; ".join(f"{p} in {share:.1%}" for p, share in result.undefined.items())
+            "the others): " + "; ".join(listed)
         )
     skipped = result.codes_not_spread()
     if skipped:
