@@ -22,7 +22,9 @@ further above is dropped; an op-amp's current settings likewise near its largest
 each control's end stops, the end stops and settings as set of the op-amp's own
 section's controls in combination, each with the earlier sections' controls moved a
 rotation either side, and the nominal check's candidate settings with their neighbours
-in those controls).
+in those controls; and the summit a climb at the nominal parts reaches from each,
+`downhill` on the negated current). A hollow or summit is followed from the candidates
+within `CLIMB_DB` of the node's worst or the largest current only.
 """
 
 from __future__ import annotations
@@ -64,6 +66,12 @@ MAX_PRODUCT = 256
 # +/-1 dB over its trials; a point 1.4 dB above its nominal worst was its worst in one
 # trial of 40, so the margin is kept at four times that).
 PRUNE_DB = 6.0
+# Candidates within this of a node's worst (or an op-amp's largest current) at the nominal
+# parts are followed to their hollow (summit) on the check's grid nearby (`downhill`).
+CLIMB_DB = 3.0
+# A step of that descent lowers the value by more than this fraction of it: a current
+# limited by max_level is flat over many settings, equal to round-off.
+DESCENT_RTOL = 1e-9
 
 
 @dataclass(frozen=True)
@@ -198,7 +206,8 @@ def held_settings(chain: Chain, voltages: Mapping[str, Corners]) -> HeldSettings
         # treble boost at its end stop is least with the bass a rotation in, where its cut
         # meets the boost), where the parts' tolerances put the trials' worst too
         shaping = [sc for sc in swept if sc.stage_index <= _last_of(analysis, k)]
-        hollows = {downhill(r, shaping, least) for r in candidates if least(r) <= floor}
+        near = min(least(r) for r in candidates) * 10.0 ** (CLIMB_DB / 20.0)
+        hollows = {downhill(r, shaping, least) for r in candidates if least(r) <= near}
         tried = []
         for rotations in sorted({*candidates, *hollows}):
             row = row_at(rotations)
@@ -211,28 +220,52 @@ def held_settings(chain: Chain, voltages: Mapping[str, Corners]) -> HeldSettings
         )
     current_rows: dict[tuple[int, str], tuple[int | None, ...]] = {}
     max_peak = SQRT2 * chain.source.max_level
+    currents: dict[tuple[int, str, tuple[int, ...]], NDArray[np.float64]] = {}
+
+    def asked_of(
+        found_at: CurrentSetting, k: int, label: str, rotations: tuple[int, ...]
+    ) -> NDArray[np.float64]:
+        """An op-amp's current over the axis at one setting, the nominal parts (at its
+        largest's setting, the nominal check's own)."""
+        if rotations == found_at.rotations:
+            return found_at.asked_a
+        if (k, label, rotations) not in currents:
+            cascade = nominal_at(row_at(rotations))
+            asked = asked_current(cascade, k, label, max_peak)
+            currents[(k, label, rotations)] = np.asarray(asked).reshape(-1)
+        return currents[(k, label, rotations)]
+
     for (k, label), found_at in opamp_current_settings(analysis).items():
         # a setting, or a point of it, whose current at the nominal parts lies more than
         # PRUNE_DB below the largest is left out: no trial's parts move it that far
         floor = float(np.max(found_at.asked_a[1:])) * 10.0 ** (-PRUNE_DB / 20.0)
-        chosen: dict[int | None, None] = {}
-        for rotations in current_candidates(analysis, k, found_at.rotations):
-            row = row_at(rotations)
-            if rotations == found_at.rotations:
-                asked = found_at.asked_a
-                # an ideal op-amp's current is round-off where it is small, and moves by
-                # more than that: its largest's setting alone, on the whole axis
-                if not found_at.has_output_resistance:
-                    chosen[row_of(row, np.ones(asked.shape, bool))] = None
-                    continue
-            elif found_at.has_output_resistance:
-                asked = np.asarray(asked_current(nominal_at(row), k, label, max_peak)).reshape(-1)
-                if float(np.max(asked[1:])) < floor:
-                    continue
-            else:
-                continue
-            chosen[row_of(row, asked >= floor)] = None
-        current_rows[(k, label)] = tuple(chosen)
+        if not found_at.has_output_resistance:
+            # an ideal op-amp's current is round-off where it is small, and moves by more
+            # than that: its largest's setting alone, on the whole axis
+            whole = np.ones(found_at.asked_a.shape, bool)
+            current_rows[(k, label)] = (row_of(row_at(found_at.rotations), whole),)
+            continue
+        asked_at = partial(asked_of, found_at, k, label)
+        kept = [
+            r
+            for r in current_candidates(analysis, k, found_at.rotations)
+            if float(np.max(asked_at(r)[1:])) >= floor
+        ]
+        # each kept candidate's summit on the check's grid nearby at the nominal parts (a
+        # boost's largest a rotation inside a control's end stop), where the parts'
+        # tolerances put the trials' largest too
+        shaping = [sc for sc in swept if sc.stage_index <= _last_of(analysis, k)]
+        near = float(np.max(found_at.asked_a[1:])) * 10.0 ** (-CLIMB_DB / 20.0)
+        summits = {
+            downhill(r, shaping, partial(_below_largest, asked_at))
+            for r in kept
+            if float(np.max(asked_at(r)[1:])) >= near
+        }
+        current_rows[(k, label)] = tuple(
+            dict.fromkeys(
+                row_of(row_at(r), asked_at(r) >= floor) for r in sorted({*kept, *summits})
+            )
+        )
     volume_row = None
     if volume is not None:
         up = list(base)
@@ -346,6 +379,14 @@ def current_candidates(analysis: Analysis, k: int, top: tuple[int, ...]) -> list
     return sorted(ordered)
 
 
+def _below_largest(
+    asked_at: Callable[[tuple[int, ...]], NDArray[np.float64]], rotations: tuple[int, ...]
+) -> float:
+    """The negated largest over the band of an op-amp's current at a setting (the
+    reference, index 0, left out): what `downhill` lowers to climb to its summit."""
+    return -float(np.max(asked_at(rotations)[1:]))
+
+
 def _last_of(analysis: Analysis, k: int) -> int:
     """The last stage of stage ``k``'s section (a stage, or a loop solved as one)."""
     return section_of(sections(analysis.chain.stages), k).last
@@ -356,7 +397,8 @@ def downhill(
 ) -> tuple[int, ...]:
     """The setting a coordinate descent of ``value`` reaches from ``start``: each of
     ``controls`` moved one rotation either side, the lowest of those taken while it is
-    lower (a local least on the check's grid; the first in that order among equals)."""
+    lower by more than `DESCENT_RTOL` of itself (a local least on the check's grid; the
+    first in that order among equals; a flat ridge, equal to round-off, is not walked)."""
     current, least = start, value(start)
     while True:
         best = current
@@ -367,7 +409,7 @@ def downhill(
                 moved = list(current)
                 moved[sc.axis] = rotation
                 got = value(tuple(moved))
-                if got < least:
+                if got < least - DESCENT_RTOL * abs(least):
                     best, least = tuple(moved), got
         if best == current:
             return current
