@@ -18,8 +18,8 @@ it. A candidate is solved only at the frequency points where its clip level at t
 nominal parts lies within `PRUNE_DB` of the node's worst (`HeldSettings.row_points`: a
 boost's few points near its shelf, not the whole band), for the same reason a candidate
 further above is dropped; an op-amp's current settings likewise near its largest current
-(`current_candidates`: the nominal check's setting of its largest, its neighbours and
-each control's end stops, the end stops and settings as set of the op-amp's own
+(`current_candidates`: the nominal check's setting of its largest, its neighbours in
+every control and each control's end stops, the end stops and settings as set of the op-amp's own
 section's controls in combination, each with the earlier sections' controls moved a
 rotation either side, and the nominal check's candidate settings with their neighbours
 in those controls; and the summit a climb at the nominal parts reaches from each,
@@ -31,7 +31,7 @@ from __future__ import annotations
 
 import itertools
 import math
-from collections.abc import Callable, Mapping
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 from functools import partial
 from typing import Any
@@ -310,37 +310,38 @@ def current_candidates(analysis: Analysis, k: int, top: tuple[int, ...]) -> list
     """The settings (a rotation index per swept control) at which the spread looks for the
     largest output current of an op-amp of stage ``k`` in every trial, in the check's grid
     order: the nominal check's largest, ``top``, and, each control that shapes the stage's
-    gain (those of its own section and the sections before it) moved alone, its
-    neighbours on the check's grid (one rotation either side) and its end stops. The
-    current is the op-amp's gain times the lower of ``max_level`` and its stage's clip
-    level: a boost raises one and lowers the other, so that the largest can sit inside a
-    control's travel, where the parts' tolerances move it to the next rotation (a treble
-    boost's 0.9 rather than its end stop); and a control that hardly moves it (the bass
-    control under a treble boost: a flat ridge along its travel) leaves near-equal
-    maxima far apart, between which the tolerances move it (bass 0.9 to bass 0). The
-    controls after the section reach the op-amp only through its load, and stay at
-    ``top``'s rotations (as in `node_candidates`). The controls of the op-amp's own
-    section also take their end stops and their settings as set in combination: its own
-    boosts trade places (with 40 % pots, the desk pre-amp's tone stage's largest moves
-    from its treble boost to its bass boost with the treble as set, two controls away),
-    each combination with the earlier sections' controls moved alone one rotation either
-    side (a bass stage before a tone stage: in a variant of the test chain of every
-    kind, the largest moved from the tone stage's bass boost to both its controls at
-    their lower end stops with the bass stage one rotation on, 0.85 % above that
-    combination alone); and so do the nominal check's own candidate settings, each with
-    its own section's controls moved alone one rotation either side (a lower summit of
-    the ridge the check lists beside the largest, which a trial's parts lift above it,
-    or move a rotation from: the desk pre-amp with its driver's input halved, from bass
-    1 to bass 0.1; a busking amp on a smaller speaker, from bass 1, treble 0.9 to bass
-    0.1, treble 0.9).
-    `held_settings` then drops those more than `PRUNE_DB` below the largest at the
-    nominal parts."""
+    gain (those of its own section and the sections before it) moved alone, its neighbours
+    on the check's grid (one rotation either side) and its end stops. The current is the
+    op-amp's gain times the lower of ``max_level`` and its stage's clip level: a boost
+    raises one and lowers the other, so that the largest can sit inside a control's travel,
+    where the parts' tolerances move it to the next rotation (a treble boost's 0.9 rather
+    than its end stop); and a control that hardly moves it (the bass control under a treble
+    boost: a flat ridge along its travel) leaves near-equal maxima far apart, between which
+    the tolerances move it (bass 0.9 to bass 0). The controls after the section reach the
+    op-amp only through its load, and stay at ``top``'s rotations but for ``top``'s own
+    neighbours: the load moves the current directly (the kitchen radio's pre-amp drives the
+    tone stage, whose treble control moves the load it presents; with a lighter tone network
+    and 10 % resistors a trial's largest moved from the treble's end stop to a rotation in,
+    8.7e-4 above). The controls of the op-amp's own section also take their end stops and
+    their settings as set in combination: its own boosts trade places (with 40 % pots, the
+    desk pre-amp's tone stage's largest moves from its treble boost to its bass boost with
+    the treble as set, two controls away), each combination with the earlier sections'
+    controls moved alone one rotation either side (a bass stage before a tone stage: in a
+    variant of the test chain of every kind, the largest moved from the tone stage's bass
+    boost to both its controls at their lower end stops with the bass stage one rotation on,
+    0.85 % above that combination alone); and so do the nominal check's own candidate
+    settings, each with its own section's controls moved alone one rotation either side (a
+    lower summit of the ridge the check lists beside the largest, which a trial's parts lift
+    above it, or move a rotation from: the desk pre-amp with its driver's input halved, from
+    bass 1 to bass 0.1; a busking amp on a smaller speaker, from bass 1, treble 0.9 to bass
+    0.1, treble 0.9). `held_settings` then drops those more than `PRUNE_DB` below the
+    largest at the nominal parts."""
     own = section_of(sections(analysis.chain.stages), k)
     last = own.last
     ordered: dict[tuple[int, ...], None] = {top: None}
     shaping = [sc for sc in analysis.swept_controls if sc.stage_index <= last]
 
-    def with_neighbours(summit: tuple[int, ...], controls: list[SweptControl]) -> None:
+    def with_neighbours(summit: tuple[int, ...], controls: Sequence[SweptControl]) -> None:
         """``summit`` and each of ``controls`` moved alone one rotation either side."""
         ordered[summit] = None
         for sc in controls:
@@ -349,7 +350,7 @@ def current_candidates(analysis: Analysis, k: int, top: tuple[int, ...]) -> list
                 moved[sc.axis] = min(max(rotation, 0), sc.rotations.size - 1)
                 ordered[tuple(moved)] = None
 
-    with_neighbours(top, shaping)
+    with_neighbours(top, analysis.swept_controls)
     stops: list[list[int]] = []
     for sc in analysis.swept_controls:
         if sc.stage_index > last:
@@ -393,7 +394,9 @@ def _last_of(analysis: Analysis, k: int) -> int:
 
 
 def downhill(
-    start: tuple[int, ...], controls: list[SweptControl], value: Callable[[tuple[int, ...]], float]
+    start: tuple[int, ...],
+    controls: Sequence[SweptControl],
+    value: Callable[[tuple[int, ...]], float],
 ) -> tuple[int, ...]:
     """The setting a coordinate descent of ``value`` reaches from ``start``: each of
     ``controls`` moved one rotation either side, the lowest of those taken while it is
