@@ -19,12 +19,12 @@ nominal parts lies within `PRUNE_DB` of the node's worst (`HeldSettings.row_poin
 boost's few points near its shelf, not the whole band), for the same reason a candidate
 further above is dropped; an op-amp's current settings likewise near its largest current
 (`current_candidates`: the nominal check's setting of its largest, its neighbours in
-every control and each control's end stops, the end stops and settings as set of the op-amp's own
-section's controls in combination, each with the earlier sections' controls moved a
-rotation either side, and the nominal check's candidate settings with their neighbours
-in those controls; and the summit a climb at the nominal parts reaches from each,
-`downhill` on the negated current). A hollow or summit is followed from the candidates
-within `CLIMB_DB` of the node's worst or the largest current only.
+every control and each control's end stops, the end stops and settings as set of the
+op-amp's own section's controls in combination, each with the earlier sections'
+controls moved a rotation either side, and the nominal check's candidate settings with
+their neighbours in those controls; and the summit a climb at the nominal parts reaches
+from each, `downhill` on the negated current). A hollow or summit is followed from the
+candidates within `CLIMB_DB` of the node's worst or the largest current only.
 """
 
 from __future__ import annotations

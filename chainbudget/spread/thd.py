@@ -95,14 +95,19 @@ def _per_trial(value: object, trials: int) -> NDArray[np.float64]:
     return np.broadcast_to(flat, (trials,)) if flat.size == 1 else flat.reshape(trials)
 
 
-def _clip_vpk(chain: Chain, as_set: Cascade, trials: int) -> NDArray[np.float64]:
+def _gain_to_load(chain: Chain, as_set: Cascade, trials: int) -> NDArray[np.float64]:
+    """The chain's gain from the source to the load in every trial, at the reference."""
+    last = len(chain.stages) - 1
+    return _per_trial(np.abs(np.asarray(as_set.v_out[last])[..., 0]), trials)
+
+
+def _clip_vpk(as_set: Cascade, gain: NDArray[np.float64]) -> NDArray[np.float64]:
     """The chain's clip at the load in every trial, the first stage to reach its limit
     with the controls as set (V peak at the reference; infinite where no stage has a
-    limit), as the check's THD levels take it."""
-    last = len(chain.stages) - 1
-    gain = _per_trial(np.abs(np.asarray(as_set.v_out[last])[..., 0]), trials)
+    limit), as the check's THD levels take it; ``gain`` from `_gain_to_load`."""
+    trials = gain.size
     peaks = [np.full(trials, np.inf)]
-    for k in range(last + 1):
+    for k in range(len(as_set.v_out)):
         clip = clip_source_peak(as_set, k)
         if clip is not None:
             peaks.append(_per_trial(np.asarray(clip[0])[..., 0], trials))
@@ -110,17 +115,14 @@ def _clip_vpk(chain: Chain, as_set: Cascade, trials: int) -> NDArray[np.float64]
 
 
 def _levels_vpk(
-    chain: Chain, as_set: Cascade, level: str, clip_vpk: NDArray[np.float64]
+    chain: Chain, level: str, gain: NDArray[np.float64], clip_vpk: NDArray[np.float64]
 ) -> NDArray[np.float64]:
-    """A THD level of every trial, the fundamental's peak at the load (V), ``clip_vpk``
-    the chain's clip there (`_clip_vpk`)."""
-    trials = clip_vpk.size
+    """A THD level of every trial, the fundamental's peak at the load (V): ``gain`` the
+    chain's to the load and ``clip_vpk`` its clip there (`_clip_vpk`)."""
     if level == "nominal":
-        last = len(chain.stages) - 1
-        gain = _per_trial(np.abs(np.asarray(as_set.v_out[last])[..., 0]), trials)
         return SQRT2 * chain.source.level * gain
     if level == "one_watt":
-        return np.full(trials, float(np.sqrt(2.0 * chain.load.impedance)))
+        return np.full(gain.size, float(np.sqrt(2.0 * chain.load.impedance)))
     return np.asarray(clip_vpk * 10.0 ** (-BELOW_CLIP_DB / 20.0))
 
 
@@ -162,8 +164,9 @@ def thd_figures(
     env = envs[last]
     upper, lower = pair_laws(chain.stages[last], env)
     v_t = float(thermal_voltage(env.temperature_k))
-    clip_vpk = _clip_vpk(chain, as_set, trials)
-    levels = np.stack([_levels_vpk(chain, as_set, level, clip_vpk) for level, _ in paths], axis=1)
+    gain = _gain_to_load(chain, as_set, trials)
+    clip_vpk = _clip_vpk(as_set, gain)
+    levels = np.stack([_levels_vpk(chain, level, gain, clip_vpk) for level, _ in paths], axis=1)
     # a level the trial's chain cannot reach (at or above its clip) has no THD, as the
     # check leaves it out of its list (`crossover._distortion`): undefined in that trial
     unreached = levels >= clip_vpk[:, None]
