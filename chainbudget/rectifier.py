@@ -611,24 +611,28 @@ def _charging_start(
 
 def _charging_end(piece: _Piece, theta_e: Array) -> Array:
     """First phase in (theta_s, theta_e] where the charging current falls to zero (theta_e
-    when it does not; theta_s for a charge that ends at once)."""
+    when it does not; theta_s for a charge that ends at once).
+
+    The current falls to zero at the first point of the search grid where it is not
+    positive after it has been: the charge's start is a root of the gap found to the
+    solver's tolerance, so the current at the grid's first points (1e-12 of the window
+    on) can be a round-off below zero on a charge that then flows. Taken as the end, it
+    lost a whole charge of the period (a pulsed batch's plain row, its second window).
+    A charge whose current is not positive anywhere on the grid ends at once."""
     ts = piece.ts
     grid = ts[:, None] + (theta_e - ts)[:, None] * _SEARCH[None, :]
     values = piece.current(grid)
-    stops = values <= 0.0
+    positive = values > 0.0
+    stops = ~positive & np.maximum.accumulate(positive, axis=1)
     found = stops.any(axis=1)
-    end = theta_e.copy()
+    end = np.where(positive.any(axis=1), theta_e, ts)
     if found.any():
         f = np.flatnonzero(found)
         q = piece.take(f)
-        j = np.argmax(stops[f], axis=1)
-        lo = np.where(j > 0, grid[f, np.maximum(j - 1, 0)], ts[f])
+        j = np.argmax(stops[f], axis=1)  # >= 1, the point before it positive
+        lo = grid[f, j - 1]
         hi = grid[f, j]
-        f_hi = values[f, j]
-        f_lo = np.where(j > 0, values[f, np.maximum(j - 1, 0)], q.current(lo))
-        ends = _bracketed_roots(q.current_and_slope, lo, hi, f_lo, f_hi)
-        # a charge whose current is not positive even at its start ends there
-        end[f] = np.where(f_lo <= 0.0, ts[f], ends)
+        end[f] = _bracketed_roots(q.current_and_slope, lo, hi, values[f, j - 1], values[f, j])
     return end
 
 
