@@ -69,6 +69,10 @@ PRUNE_DB = 6.0
 # Candidates within this of a node's worst (or an op-amp's largest current) at the nominal
 # parts are followed to their hollow (summit) on the check's grid nearby (`downhill`).
 CLIMB_DB = 3.0
+# Rotations either side of an op-amp's nominal largest current that its own section's
+# controls are moved to (a boost's largest inside the travel moves that far with the
+# parts: a kitchen radio variant's tone stage from treble 0.9 to 0.7, 1.5 % above).
+TOP_REACH = 2
 # A step of that descent lowers the value by more than this fraction of it: a current
 # limited by max_level is flat over many settings, equal to round-off.
 DESCENT_RTOL = 1e-9
@@ -311,7 +315,8 @@ def current_candidates(analysis: Analysis, k: int, top: tuple[int, ...]) -> list
     largest output current of an op-amp of stage ``k`` in every trial, in the check's grid
     order: the nominal check's largest, ``top``, and, each control that shapes the stage's
     gain (those of its own section and the sections before it) moved alone, its neighbours
-    on the check's grid (one rotation either side) and its end stops. The current is the
+    on the check's grid (one rotation either side; its own section's controls up to
+    `TOP_REACH`) and its end stops. The current is the
     op-amp's gain times the lower of ``max_level`` and its stage's clip level: a boost
     raises one and lowers the other, so that the largest can sit inside a control's travel,
     where the parts' tolerances move it to the next rotation (a treble boost's 0.9 rather
@@ -341,16 +346,21 @@ def current_candidates(analysis: Analysis, k: int, top: tuple[int, ...]) -> list
     ordered: dict[tuple[int, ...], None] = {top: None}
     shaping = [sc for sc in analysis.swept_controls if sc.stage_index <= last]
 
-    def with_neighbours(summit: tuple[int, ...], controls: Sequence[SweptControl]) -> None:
-        """``summit`` and each of ``controls`` moved alone one rotation either side."""
+    def with_neighbours(
+        summit: tuple[int, ...], controls: Sequence[SweptControl], reach: int = 1
+    ) -> None:
+        """``summit`` and each of ``controls`` moved alone up to ``reach`` rotations
+        either side."""
         ordered[summit] = None
         for sc in controls:
-            for rotation in (summit[sc.axis] - 1, summit[sc.axis] + 1):
-                moved = list(summit)
-                moved[sc.axis] = min(max(rotation, 0), sc.rotations.size - 1)
-                ordered[tuple(moved)] = None
+            for step in range(1, reach + 1):
+                for rotation in (summit[sc.axis] - step, summit[sc.axis] + step):
+                    moved = list(summit)
+                    moved[sc.axis] = min(max(rotation, 0), sc.rotations.size - 1)
+                    ordered[tuple(moved)] = None
 
     with_neighbours(top, analysis.swept_controls)
+    with_neighbours(top, [sc for sc in shaping if sc.stage_index in own], TOP_REACH)
     stops: list[list[int]] = []
     for sc in analysis.swept_controls:
         if sc.stage_index > last:
