@@ -205,12 +205,13 @@ def held_settings(chain: Chain, voltages: Mapping[str, Corners]) -> HeldSettings
         least = partial(least_peak, k)
         # a setting, or a point of it, whose clip level at the nominal parts lies more than
         # PRUNE_DB above the node's worst is left out: no trial's parts move it that far
-        floor = min(least(r) for r in candidates) * 10.0 ** (PRUNE_DB / 20.0)
+        lowest = min(least(r) for r in candidates)
+        floor = lowest * 10.0 ** (PRUNE_DB / 20.0)
         # each kept candidate's hollow on the check's grid nearby at the nominal parts (a
         # treble boost at its end stop is least with the bass a rotation in, where its cut
         # meets the boost), where the parts' tolerances put the trials' worst too
-        shaping = [sc for sc in swept if sc.stage_index <= _last_of(analysis, k)]
-        near = min(least(r) for r in candidates) * 10.0 ** (CLIMB_DB / 20.0)
+        near = lowest * 10.0 ** (CLIMB_DB / 20.0)
+        shaping = _shaping(analysis, k)
         hollows = {downhill(r, shaping, least) for r in candidates if least(r) <= near}
         tried = []
         for rotations in sorted({*candidates, *hollows}):
@@ -242,7 +243,8 @@ def held_settings(chain: Chain, voltages: Mapping[str, Corners]) -> HeldSettings
     for (k, label), found_at in opamp_current_settings(analysis).items():
         # a setting, or a point of it, whose current at the nominal parts lies more than
         # PRUNE_DB below the largest is left out: no trial's parts move it that far
-        floor = float(np.max(found_at.asked_a[1:])) * 10.0 ** (-PRUNE_DB / 20.0)
+        largest = float(np.max(found_at.asked_a[1:]))
+        floor = largest * 10.0 ** (-PRUNE_DB / 20.0)
         if not found_at.has_output_resistance:
             # an ideal op-amp's current is round-off where it is small, and moves by more
             # than that: its largest's setting alone, on the whole axis
@@ -250,21 +252,16 @@ def held_settings(chain: Chain, voltages: Mapping[str, Corners]) -> HeldSettings
             current_rows[(k, label)] = (row_of(row_at(found_at.rotations), whole),)
             continue
         asked_at = partial(asked_of, found_at, k, label)
+        below = partial(_below_largest, asked_at)
         kept = [
-            r
-            for r in current_candidates(analysis, k, found_at.rotations)
-            if float(np.max(asked_at(r)[1:])) >= floor
+            r for r in current_candidates(analysis, k, found_at.rotations) if -below(r) >= floor
         ]
         # each kept candidate's summit on the check's grid nearby at the nominal parts (a
         # boost's largest a rotation inside a control's end stop), where the parts'
         # tolerances put the trials' largest too
-        shaping = [sc for sc in swept if sc.stage_index <= _last_of(analysis, k)]
-        near = float(np.max(found_at.asked_a[1:])) * 10.0 ** (-CLIMB_DB / 20.0)
-        summits = {
-            downhill(r, shaping, partial(_below_largest, asked_at))
-            for r in kept
-            if float(np.max(asked_at(r)[1:])) >= near
-        }
+        near = largest * 10.0 ** (-CLIMB_DB / 20.0)
+        shaping = _shaping(analysis, k)
+        summits = {downhill(r, shaping, below) for r in kept if -below(r) >= near}
         current_rows[(k, label)] = tuple(
             dict.fromkeys(
                 row_of(row_at(r), asked_at(r) >= floor) for r in sorted({*kept, *summits})
@@ -344,7 +341,8 @@ def current_candidates(analysis: Analysis, k: int, top: tuple[int, ...]) -> list
     own = section_of(sections(analysis.chain.stages), k)
     last = own.last
     ordered: dict[tuple[int, ...], None] = {top: None}
-    shaping = [sc for sc in analysis.swept_controls if sc.stage_index <= last]
+    shaping = _shaping(analysis, k)
+    own_controls = [sc for sc in shaping if sc.stage_index in own]
 
     def with_neighbours(
         summit: tuple[int, ...], controls: Sequence[SweptControl], reach: int = 1
@@ -360,7 +358,7 @@ def current_candidates(analysis: Analysis, k: int, top: tuple[int, ...]) -> list
                     ordered[tuple(moved)] = None
 
     with_neighbours(top, analysis.swept_controls)
-    with_neighbours(top, [sc for sc in shaping if sc.stage_index in own], TOP_REACH)
+    with_neighbours(top, own_controls, TOP_REACH)
     stops: list[list[int]] = []
     for sc in analysis.swept_controls:
         if sc.stage_index > last:
@@ -386,7 +384,7 @@ def current_candidates(analysis: Analysis, k: int, top: tuple[int, ...]) -> list
         moved = list(top)
         for sc in shaping:
             moved[sc.axis] = int(candidate[sc.axis])
-        with_neighbours(tuple(moved), [sc for sc in shaping if sc.stage_index in own])
+        with_neighbours(tuple(moved), own_controls)
     return sorted(ordered)
 
 
@@ -401,6 +399,13 @@ def _below_largest(
 def _last_of(analysis: Analysis, k: int) -> int:
     """The last stage of stage ``k``'s section (a stage, or a loop solved as one)."""
     return section_of(sections(analysis.chain.stages), k).last
+
+
+def _shaping(analysis: Analysis, k: int) -> list[SweptControl]:
+    """The swept controls that shape stage ``k``'s gain and clip: those of its own section
+    and the sections before it."""
+    last = _last_of(analysis, k)
+    return [sc for sc in analysis.swept_controls if sc.stage_index <= last]
 
 
 def downhill(
