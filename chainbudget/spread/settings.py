@@ -10,8 +10,10 @@ through every trial would multiply the trial axis by up to 30,000 settings; the 
 instead solves every trial at a few candidate settings of each node (`node_candidates`:
 the controls that shape it at their end stops, as set and at the nominal worst, in
 combination; and the hollow a coordinate descent at the nominal parts reaches from each,
-`downhill`) and takes the least over them and the band, with the check's tie-break
-(`worst_of_candidates`). Exact wherever a trial's worst point lies at one of those
+`downhill`; and, near the node's worst, the settings where the check's tie-break can stop
+in a trial: on a descent's way down, and with the controls after the node's section
+moved, `loaded_by_later`) and takes the least over them and the band, with the check's
+tie-break (`worst_of_candidates`). Exact wherever a trial's worst point lies at one of those
 settings (a tone control's worst is a boost at an end stop, and tolerances move it from
 one boost to another); otherwise the spread figure is at most the check's margin above
 it. A candidate is solved only at the frequency points where its clip level at the
@@ -73,6 +75,27 @@ CLIMB_DB = 3.0
 # controls are moved to (a boost's largest inside the travel moves that far with the
 # parts: a kitchen radio variant's tone stage from treble 0.9 to 0.7, 1.5 % above).
 TOP_REACH = 2
+# Where the check's tie-break (`TIE_DB`: among the points within it of the least, the one
+# nearest the settings as set) can stop in a trial off the candidates and their hollows:
+# - the settings a descent passes on its way to a hollow within `TIE_REACH_DB` of the
+#   node's worst, at their points within `TIE_REACH_DB` of the hollow (a violin pre-amp
+#   with a larger treble capacitor: along its treble boost, bass 0.4 at the nominal parts
+#   and 0.3 in a trial, the hollow further down; the parts move the steps between them by
+#   less than a tenth of a dB). A setting within `LOAD_MOVES_DB` of the hollow ties with
+#   it in every trial, where the settings as set among the candidates are nearer (a flat
+#   ridge, 1e-4 dB a step);
+TIE_REACH_DB = 0.15
+# - the controls after the node's section moved up to `LOAD_REACH` rotations either side,
+#   and to their end stops and settings as set, from each such setting and each candidate
+#   within `TIE_REACH_DB` of the node's worst (`loaded_by_later`), at their points within
+#   `LOAD_TIE_DB` of the setting moved from: such a control moves the node's clip level
+#   only through the load it presents, by about the tie, and not at all where it moves the
+#   least by under `LOAD_MOVES_DB` (a pre-amp's flat clip level under the tone network
+#   after it: 0.002 dB).
+LOAD_REACH = 2
+LOAD_TIE_DB = 3.0 * TIE_DB
+LOAD_MOVES_DB = TIE_DB / 4.0
+LOAD_MOVES_LN = math.log(10.0) * LOAD_MOVES_DB / 20.0
 # A step of that descent lowers the value by more than this fraction of it: a current
 # limited by max_level is flat over many settings, equal to round-off.
 DESCENT_RTOL = 1e-9
@@ -212,17 +235,36 @@ def held_settings(chain: Chain, voltages: Mapping[str, Corners]) -> HeldSettings
         # meets the boost), where the parts' tolerances put the trials' worst too
         near = lowest * 10.0 ** (CLIMB_DB / 20.0)
         shaping = _shaping(analysis, k)
-        hollows = {downhill(r, shaping, least) for r in candidates if least(r) <= near}
-        tried = []
-        for rotations in sorted({*candidates, *hollows}):
+        # each setting's points solved in the trials: those whose clip level at the
+        # nominal parts lies below its window
+        window: dict[tuple[int, ...], float] = dict.fromkeys(candidates, floor)
+        # where the check's tie-break can stop in a trial (see `TIE_REACH_DB`)
+        tie_reach = 10.0 ** (TIE_REACH_DB / 20.0)
+        steep = 10.0 ** (LOAD_MOVES_DB / 20.0)
+        starts = [r for r in candidates if least(r) <= lowest * tie_reach]
+        for r in candidates:
+            if least(r) > near:
+                continue
+            path = downhill(r, shaping, least)
+            _widen(window, path[-1], floor)
+            if least(path[-1]) <= lowest * tie_reach:
+                for on_way in path[:-1]:
+                    if least(on_way) > least(path[-1]) * steep:
+                        _widen(window, on_way, least(path[-1]) * tie_reach)
+                starts += path
+        for r in set(starts):
+            below = least(r) * 10.0 ** (LOAD_TIE_DB / 20.0)
+            for moved in loaded_by_later(analysis, k, r):
+                if _moves(peak_at(k, moved), peak_at(k, r)):
+                    _widen(window, moved, below)
+        held: list[tuple[int | None, float]] = []
+        for rotations in sorted(window):
             row = row_at(rotations)
             distance = sum(abs(row[sc.axis] - sc.control.position) for sc in swept)
-            tried.append((row, distance, peak_at(k, rotations), rotations == worst))
-        node_rows[k] = tuple(
-            (row_of(row, peak <= floor), distance)
-            for row, distance, peak, is_worst in tried
-            if is_worst or float(np.min(peak)) <= floor
-        )
+            looks = peak_at(k, rotations) <= window[rotations]
+            if rotations == worst or looks.any():
+                held.append((row_of(row, looks), distance))
+        node_rows[k] = tuple(held)
     current_rows: dict[tuple[int, str], tuple[int | None, ...]] = {}
     max_peak = SQRT2 * chain.source.max_level
     currents: dict[tuple[int, str, tuple[int, ...]], NDArray[np.float64]] = {}
@@ -261,7 +303,7 @@ def held_settings(chain: Chain, voltages: Mapping[str, Corners]) -> HeldSettings
         # tolerances put the trials' largest too
         near = largest * 10.0 ** (-CLIMB_DB / 20.0)
         shaping = _shaping(analysis, k)
-        summits = {downhill(r, shaping, below) for r in kept if -below(r) >= near}
+        summits = {downhill(r, shaping, below)[-1] for r in kept if -below(r) >= near}
         current_rows[(k, label)] = tuple(
             dict.fromkeys(
                 row_of(row_at(r), asked_at(r) >= floor) for r in sorted({*kept, *summits})
@@ -412,12 +454,14 @@ def downhill(
     start: tuple[int, ...],
     controls: Sequence[SweptControl],
     value: Callable[[tuple[int, ...]], float],
-) -> tuple[int, ...]:
-    """The setting a coordinate descent of ``value`` reaches from ``start``: each of
-    ``controls`` moved one rotation either side, the lowest of those taken while it is
-    lower by more than `DESCENT_RTOL` of itself (a local least on the check's grid; the
-    first in that order among equals; a flat ridge, equal to round-off, is not walked)."""
+) -> list[tuple[int, ...]]:
+    """The settings a coordinate descent of ``value`` passes from ``start`` (first) to
+    where it ends (last): each of ``controls`` moved one rotation either side, the lowest
+    of those taken while it is lower by more than `DESCENT_RTOL` of itself (a local least
+    on the check's grid; the first in that order among equals; a flat ridge, equal to
+    round-off, is not walked)."""
     current, least = start, value(start)
+    path = [start]
     while True:
         best = current
         for sc in controls:
@@ -430,8 +474,47 @@ def downhill(
                 if got < least - DESCENT_RTOL * abs(least):
                     best, least = tuple(moved), got
         if best == current:
-            return current
+            return path
         current = best
+        path.append(current)
+
+
+def loaded_by_later(analysis: Analysis, k: int, start: tuple[int, ...]) -> list[tuple[int, ...]]:
+    """``start`` with each swept control after node ``k``'s section moved alone to its end
+    stops, its setting as set and up to `LOAD_REACH` rotations either side of ``start``'s.
+    Such a control reaches the node only through the load it presents, and moves its clip
+    level by about the check's tie (`chainbudget.budget.ties.TIE_DB`): which rotation the
+    check picks then turns on the trial's parts (a violin pre-amp's volume pot on its
+    treble stage: from 0.9 to its end stop 1 in a trial with default tolerances)."""
+    last = _last_of(analysis, k)
+    found: list[tuple[int, ...]] = []
+    for sc in analysis.swept_controls:
+        if sc.stage_index <= last:
+            continue
+        end = sc.rotations.size - 1
+        at = start[sc.axis]
+        near = (min(max(r, 0), end) for r in range(at - LOAD_REACH, at + LOAD_REACH + 1))
+        for rotation in sorted({0, end, sc.as_set, *near}):
+            moved = list(start)
+            moved[sc.axis] = rotation
+            found.append(tuple(moved))
+    return found
+
+
+def _widen(window: dict[tuple[int, ...], float], rotations: tuple[int, ...], below: float) -> None:
+    """A setting's points are those whose clip level lies under ``below`` or a wider window
+    already asked of it."""
+    window[rotations] = max(window.get(rotations, 0.0), below)
+
+
+def _moves(peak: NDArray[np.float64], start: NDArray[np.float64]) -> bool:
+    """Whether a later control's rotation moves a node's least clip level over the axis by
+    more than `LOAD_MOVES_DB` (else its load hardly reaches the node, the trials' parts
+    move it still less, and the check's tie-break keeps the rotation nearest as set)."""
+    moved, before = float(np.min(peak)), float(np.min(start))
+    if moved <= 0.0 or before <= 0.0:  # a node that clips at no level (its rail gone)
+        return moved != before
+    return abs(math.log(moved / before)) > LOAD_MOVES_LN
 
 
 def node_candidates(analysis: Analysis, k: int, found: NodeWorst) -> list[tuple[int, ...]]:
