@@ -47,7 +47,6 @@ from chainbudget.budget.analysis import (
     analyse,
     master_volume,
     positions_as_set,
-    solve_chain,
 )
 from chainbudget.budget.levels import SQRT2, clip_source_peak
 from chainbudget.budget.power import asked_current, largest_asked
@@ -173,16 +172,15 @@ def held_settings(chain: Chain, voltages: Mapping[str, Corners]) -> HeldSettings
     rows: list[tuple[float, ...]] = []
     node_rows: dict[int, tuple[tuple[int | None, float], ...]] = {}
 
-    solved: dict[tuple[float, ...], Cascade] = {}
+    solved: dict[tuple[int, ...], Cascade] = {}
 
-    def nominal_at(row: tuple[float, ...]) -> Cascade:
-        """The nominal chain solved at one row of settings (each row once)."""
-        if row not in solved:
-            positions = [dict(p) for p in as_set]
-            for (k, key), value in zip(keys, row, strict=True):
-                positions[k][key] = value
-            solved[row] = solve_chain(chain, analysis.envs, analysis.frequency, positions)
-        return solved[row]
+    def nominal_at(rotations: tuple[int, ...]) -> Cascade:
+        """The nominal chain at one setting (a rotation index per swept control): each
+        section as the check solved it over its own controls' combinations
+        (`Analysis.grids`), joined (each setting once)."""
+        if rotations not in solved:
+            solved[rotations] = analysis.at_settings(_combinations(analysis, rotations))
+        return solved[rotations]
 
     # each row's points where some figure looks (the reference always)
     points: dict[tuple[float, ...], set[int]] = {}
@@ -209,7 +207,7 @@ def held_settings(chain: Chain, voltages: Mapping[str, Corners]) -> HeldSettings
     def peak_at(k: int, rotations: tuple[int, ...]) -> NDArray[np.float64]:
         """Node ``k``'s clip level over the axis at one setting, the nominal parts."""
         if (k, rotations) not in peaks:
-            clip = clip_source_peak(nominal_at(row_at(rotations)), k)
+            clip = clip_source_peak(nominal_at(rotations), k)
             peaks[(k, rotations)] = np.asarray(clip[0])  # type: ignore[index]
         return peaks[(k, rotations)]
 
@@ -277,7 +275,7 @@ def held_settings(chain: Chain, voltages: Mapping[str, Corners]) -> HeldSettings
         if rotations == found_at.rotations:
             return found_at.asked_a
         if (k, label, rotations) not in currents:
-            cascade = nominal_at(row_at(rotations))
+            cascade = nominal_at(rotations)
             asked = asked_current(cascade, k, label, max_peak)
             currents[(k, label, rotations)] = np.asarray(asked).reshape(-1)
         return currents[(k, label, rotations)]
@@ -499,6 +497,19 @@ def loaded_by_later(analysis: Analysis, k: int, start: tuple[int, ...]) -> list[
             moved[sc.axis] = rotation
             found.append(tuple(moved))
     return found
+
+
+def _combinations(analysis: Analysis, rotations: tuple[int, ...]) -> NDArray[np.intp]:
+    """Each section's combination (its row in `Analysis.grids`) at a setting given as a
+    rotation index per swept control, as (sections, 1) for `Analysis.at_settings`."""
+    found = []
+    at = 0
+    for grid in analysis.grids:
+        width = grid.combos.shape[1]
+        own = np.asarray(rotations[at : at + width], dtype=np.intp)
+        found.append(int(np.flatnonzero(np.all(grid.combos == own, axis=1))[0]))
+        at += width
+    return np.array(found, dtype=np.intp)[:, None]
 
 
 def _widen(window: dict[tuple[int, ...], float], rotations: tuple[int, ...], below: float) -> None:
