@@ -353,7 +353,10 @@ def current_candidates(analysis: Analysis, k: int, top: tuple[int, ...]) -> list
     order: the nominal check's largest, ``top``, and, each control that shapes the stage's
     gain (those of its own section and the sections before it) moved alone, its neighbours
     on the check's grid (one rotation either side; its own section's controls up to
-    `TOP_REACH`) and its end stops. The current is the
+    `TOP_REACH`) and its end stops (an own section's control's end stop with each other
+    control of the section a rotation either side: a flat ridge along the first whose
+    slope the parts turn round, at its far end a rotation aside; a kitchen radio on a
+    low secondary, from bass 0.9, treble 0.2 to bass 0, treble 0.1). The current is the
     op-amp's gain times the lower of ``max_level`` and its stage's clip level: a boost
     raises one and lowers the other, so that the largest can sit inside a control's travel,
     where the parts' tolerances move it to the next rotation (a treble boost's 0.9 rather
@@ -409,6 +412,8 @@ def current_candidates(analysis: Analysis, k: int, top: tuple[int, ...]) -> list
             moved = list(top)
             moved[sc.axis] = rotation
             ordered[tuple(moved)] = None
+            if sc.stage_index in own:  # the far end of a flat ridge, a rotation aside
+                with_neighbours(tuple(moved), [o for o in own_controls if o is not sc])
         if sc.stage_index not in own:
             stops.append([top[sc.axis]])
             continue
