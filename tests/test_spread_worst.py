@@ -647,3 +647,30 @@ def test_largest_opamp_current_found_at_the_far_end_of_a_flat_ridge() -> None:
     chain = _parsed(text, "kitchen_low_secondary.toml")
     assert _tone_largest_at(chain) == (9, 2, 10)
     assert _tone_current_of_each_trial(chain, 2, rtol=1e-7) == [(9, 2, 10), (0, 1, 10)]
+
+
+def test_largest_opamp_current_found_with_an_earlier_stage_near_its_end_stop() -> None:
+    """A violin pre-amp whose buffer gains 5 (94k over 23.5k, 5u), on a 0.8 MHz op-amp and
+    with a 0.96 Vpk max level (default tolerances). The treble stage's op-amp current is
+    largest at the nominal parts with the bass stage as set (0.5), the treble at 0.1 and
+    the volume up; in the first trial drawn with seed 5 the bass stage's control, a
+    section before it, has moved it to 0.1, one rotation inside that control's end stop,
+    a move of neither one rotation from the largest nor to an end stop. Each of the two
+    trials checked alone gives the batched figure, rtol 1e-9: the spread holds the own
+    section's end stop combinations with each earlier section's control also at its end
+    stops, and a rotation either side of those (`settings.current_candidates`; without
+    them that trial came out 0.04 % low)."""
+    text = _example_text("violin_piezo_preamp.toml")
+    for old, new in (
+        ('max_level = "1.2 Vpk"', 'max_level = "0.96 Vpk"'),
+        ('gbw = "1 MHz"', 'gbw = "0.8 MHz"'),
+        ('feedback = "47k"', 'feedback = "94k"'),
+        ('ground_leg = "47k"', 'ground_leg = "23.5k"'),
+        ('ground_cap = "10u"', 'ground_cap = "5u"'),
+    ):
+        assert old in text, old
+        text = text.replace(old, new, 1)
+    chain = _parsed(text, "violin_gain_five.toml")
+    assert _tone_largest_at(chain, 2, "treble") == (5, 1, 11)
+    found = _tone_current_of_each_trial(chain, 2, stage=2, name="treble")
+    assert found == [(1, 1, 11), (4, 1, 11)]

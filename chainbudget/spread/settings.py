@@ -371,10 +371,13 @@ def current_candidates(analysis: Analysis, k: int, top: tuple[int, ...]) -> list
     their settings as set in combination: its own boosts trade places (with 40 % pots, the
     desk pre-amp's tone stage's largest moves from its treble boost to its bass boost with
     the treble as set, two controls away), each combination with the earlier sections'
-    controls moved alone one rotation either side (a bass stage before a tone stage: in a
-    variant of the test chain of every kind, the largest moved from the tone stage's bass
-    boost to both its controls at their lower end stops with the bass stage one rotation on,
-    0.85 % above that combination alone); and so do the nominal check's own candidate
+    controls at ``top``'s rotations and at their end stops, and each of those moved alone
+    one rotation either side (a bass stage before a tone stage: in a variant of the test
+    chain of every kind, the largest moved from the tone stage's bass boost to both its
+    controls at their lower end stops with the bass stage one rotation on, 0.85 % above
+    that combination alone; a violin pre-amp whose buffer gains 5: its treble stage's
+    largest moved with the bass stage from as set to 0.1, a rotation inside its end stop,
+    0.04 % above); and so do the nominal check's own candidate
     settings, each with its own section's controls moved alone one rotation either side (a
     lower summit of the ridge the check lists beside the largest, which a trial's parts lift
     above it, or move a rotation from: the desk pre-amp with its driver's input halved, from
@@ -415,7 +418,9 @@ def current_candidates(analysis: Analysis, k: int, top: tuple[int, ...]) -> list
             if sc.stage_index in own:  # the far end of a flat ridge, a rotation aside
                 with_neighbours(tuple(moved), [o for o in own_controls if o is not sc])
         if sc.stage_index not in own:
-            stops.append([top[sc.axis]])
+            # an earlier section's control: at its end stops too, where this section has
+            # controls of its own to combine with
+            stops.append(sorted({0, top[sc.axis], end}) if own_controls else [top[sc.axis]])
             continue
         stops.append(sorted({0, sc.as_set, end}))
     if math.prod(len(v) for v in stops) <= MAX_PRODUCT:
@@ -544,7 +549,8 @@ def node_candidates(analysis: Analysis, k: int, found: NodeWorst) -> list[tuple[
     with each control moved alone to those values). The controls after the node's section
     (which reach it only through the load they present) stay at the nominal worst's
     rotations: the check's tie-break keeps them there unless they move its clip level by
-    more than `chainbudget.budget.ties.TIE_DB`. `held_settings` then drops those more than
+    more than `chainbudget.budget.ties.TIE_DB` (`held_settings` adds those moves near the
+    node's worst, `loaded_by_later`). `held_settings` then drops those more than
     `PRUNE_DB` above the node's worst at the nominal parts.
     """
     swept = analysis.swept_controls
