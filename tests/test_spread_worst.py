@@ -271,6 +271,15 @@ def _example_text(name: str) -> str:
     return (Path(__file__).resolve().parents[1] / "chains" / name).read_text()
 
 
+def _replaced(text: str, *changes: tuple[str, str]) -> str:
+    """``text`` with each (old, new) change made once, each old text asserted present (a
+    variant of an example stays what its test says it is)."""
+    for old, new in changes:
+        assert old in text, old
+        text = text.replace(old, new, 1)
+    return text
+
+
 def _parsed(text: str, name: str) -> Chain:
     import tomllib
 
@@ -320,7 +329,8 @@ def test_largest_opamp_current_found_beside_a_lower_summit() -> None:
     of the nominal check's candidates with its neighbours in the stage's own controls
     (`settings.current_candidates`; without them that trial came out 0.24 % low)."""
     text = _example_text("busking_amp.toml")
-    for old, new in (
+    text = _replaced(
+        text,
         ('impedance = "4 ohm"', 'impedance = "3.2 ohm"'),
         ('sensitivity = "91 dB"', 'sensitivity = "72.8 dB"'),
         ('noise_voltage = "5 nV/rtHz"', 'noise_voltage = "10 nV/rtHz"'),
@@ -331,9 +341,7 @@ def test_largest_opamp_current_found_beside_a_lower_summit() -> None:
         ('treble_pot = "25k"', 'treble_pot = "12.5k"'),
         ('theta_jc = "2.5 K/W"', 'theta_jc = "3.125 K/W"'),
         ('theta_cs = "0.5 K/W"', 'theta_cs = "0.25 K/W"'),
-    ):
-        assert old in text, old
-        text = text.replace(old, new, 1)
+    )
     minus = text.index('name = "bat_minus"')
     text = text[:minus] + text[minus:].replace(
         'min_voltage = "10.5 V"', 'min_voltage = "5.25 V"', 1
@@ -362,13 +370,12 @@ def test_largest_opamp_current_found_beside_a_stop_of_the_tone_stage() -> None:
     from pathlib import Path
 
     text = (Path(__file__).resolve().parent / "data" / "every_kind.toml").read_text()
-    for old, new in (
+    text = _replaced(
+        text,
         ('open_loop_gain = "100 dB"', 'open_loop_gain = "80 dB"'),
         ('swing_margin = "1.5 V"', 'swing_margin = "1.875 V"'),
         ('ground_leg = "2k2"', 'ground_leg = "4k2"'),
-    ):
-        assert old in text, old
-        text = text.replace(old, new, 1)
+    )
     chain = _parsed(text, "every_kind_low_gain.toml")
     assert _tone_largest_at(chain, 4) == (0, 10, 1, 11)
     assert _tone_current_of_each_trial(chain, 2, stage=4)[1] == (1, 0, 0, 11)
@@ -390,12 +397,11 @@ def test_worst_headroom_found_in_a_hollow_beside_an_end_stop() -> None:
     from chainbudget.spread.parts import chain_parts
 
     text = _example_text("busking_amp.toml")
-    for old, new in (
+    text = _replaced(
+        text,
         ('bass_pot = "25k"', 'bass_pot = "20k"'),
         ('bass_cap = "47n"', 'bass_cap = "23.5n"'),
-    ):
-        assert old in text, old
-        text = text.replace(old, new, 1)
+    )
     chain = _parsed(text, "busking_small_bass.toml")
     nominal = compute(chain)
     assert nominal.node("tone").worst.controls[("tone", "bass_position")] == 1.0
@@ -552,13 +558,12 @@ def test_worst_headroom_where_a_later_volume_pot_loads_the_node() -> None:
     from chainbudget.spread.settings import LOAD_MOVES_DB
 
     text = _example_text("violin_piezo_preamp.toml")
-    for old, new in (
+    text = _replaced(
+        text,
         ('impedance = "10 kohm"', 'impedance = "12.5 kohm"'),
         ('gbw = "1 MHz"', 'gbw = "1.25 MHz"'),
         ('pot = "100k"\ncap = "22n"', 'pot = "50k"\ncap = "22n"'),
-    ):
-        assert old in text, old
-        text = text.replace(old, new, 1)
+    )
     chain = _parsed(text, "violin_loaded_treble.toml")
     # bass, treble, volume
     assert _worst_setting(chain, "treble") == (0.1, 1.0, 0.9)
@@ -636,14 +641,13 @@ def test_largest_opamp_current_found_at_the_far_end_of_a_flat_ridge() -> None:
         '[tolerances]\nresistors = "1 %"\npots = "20 %"\ncapacitors = "5 %"\n\n[chain]\n',
         1,
     )
-    for old, new in (
+    text = _replaced(
+        text,
         ('secondary = "15 V"', 'secondary = "7.5 V"'),
         ('mains_tolerance = "10 %"', 'mains_tolerance = "20 %"'),
         ('dropout = "2 V"', 'dropout = "1 V"'),
         ('supply_current = "0.25 A"', 'supply_current = "0.125 A"'),
-    ):
-        assert old in text, old
-        text = text.replace(old, new, 1)
+    )
     chain = _parsed(text, "kitchen_low_secondary.toml")
     assert _tone_largest_at(chain) == (9, 2, 10)
     assert _tone_current_of_each_trial(chain, 2, rtol=1e-7) == [(9, 2, 10), (0, 1, 10)]
@@ -661,15 +665,14 @@ def test_largest_opamp_current_found_with_an_earlier_stage_near_its_end_stop() -
     stops, and a rotation either side of those (`settings.current_candidates`; without
     them that trial came out 0.04 % low)."""
     text = _example_text("violin_piezo_preamp.toml")
-    for old, new in (
+    text = _replaced(
+        text,
         ('max_level = "1.2 Vpk"', 'max_level = "0.96 Vpk"'),
         ('gbw = "1 MHz"', 'gbw = "0.8 MHz"'),
         ('feedback = "47k"', 'feedback = "94k"'),
         ('ground_leg = "47k"', 'ground_leg = "23.5k"'),
         ('ground_cap = "10u"', 'ground_cap = "5u"'),
-    ):
-        assert old in text, old
-        text = text.replace(old, new, 1)
+    )
     chain = _parsed(text, "violin_gain_five.toml")
     assert _tone_largest_at(chain, 2, "treble") == (5, 1, 11)
     found = _tone_current_of_each_trial(chain, 2, stage=2, name="treble")
